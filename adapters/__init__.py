@@ -1,0 +1,1 @@
+"""Readers that turn outside formats into shearpost's members and forces tables."""

@@ -1,0 +1,363 @@
+"""Readers and validators for members.csv, forces.csv and cases.csv (schema in DESIGN.md).
+
+Files are parsed by pyarrow. Validation is vectorised; only when something is wrong
+is the file looked at again to tell the exact line (blank lines and quoted line
+breaks make the data-row index differ from the line number).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pac
+import pyarrow.csv as pcsv
+
+from adapters.errors import InputError
+from adapters.mapping import ColumnMap, TableMap
+from postproc.codes import aci318_19 as aci
+
+SUPPORTS = ("column", "wall", "girder", "hanger", "free")
+KINDS = ("beam", "column")
+LOAD_FACES = ("top", "bottom")
+CASE_TYPES = ("D", "L", "Lr", "S", "R", "W", "E")
+MAX_REPORTED = 20  # problems listed in one error before "and N more"
+
+
+@dataclass(frozen=True)
+class Col:
+    name: str
+    numeric: bool
+    required: bool = False
+
+
+MEMBER_COLUMNS = (
+    Col("member", False, True), Col("kind", False), Col("length_m", True, True),
+    Col("b_mm", True, True), Col("h_mm", True, True), Col("d_mm", True), Col("cover_mm", True),
+    Col("fc_mpa", True, True), Col("fyt_mpa", True, True), Col("fy_mpa", True), Col("lambda", True),
+    Col("support_i", False, True), Col("support_j", False, True),
+    Col("face_i_mm", True), Col("face_j_mm", True), Col("load_face", False),
+    Col("bf_mm", True), Col("hf_mm", True), Col("as_tension_mm2", True),
+    Col("level", False), Col("group", False),
+)
+FORCE_COLUMNS = (
+    Col("member", False, True), Col("case", False, True), Col("x_m", True, True),
+    Col("V_kN", True, True), Col("N_kN", True), Col("T_kNm", True), Col("M_kNm", True),
+)
+CASE_COLUMNS = (Col("case", False, True), Col("type", False, True))
+
+KNOWN_COLUMNS = {
+    "members": tuple(c.name for c in MEMBER_COLUMNS),
+    "forces": tuple(c.name for c in FORCE_COLUMNS),
+    "cases": tuple(c.name for c in CASE_COLUMNS),
+}
+
+
+class Problems:
+    """Collects row problems of one file and raises them together with exact lines."""
+
+    def __init__(self, path: Path, table: TableMap):
+        self.path = path
+        self.table = table
+        self.items: list[tuple[int, str, str]] = []  # (data row index, our column, message)
+
+    def add(self, rows: np.ndarray, column: str, message: str | list[str]) -> None:
+        rows = np.flatnonzero(rows) if rows.dtype == bool else rows
+        for k, r in enumerate(rows[:MAX_REPORTED]):
+            self.items.append((int(r), column, message[k] if isinstance(message, list) else message))
+
+    def raise_if_any(self) -> None:
+        if not self.items:
+            return
+        lines = record_lines(self.path)
+        self.items.sort()
+        shown = self.items[:MAX_REPORTED]
+        errors = [InputError(self.path, msg, lines[r] if r < len(lines) else None, self.table.source_name(col))
+                  for r, col, msg in shown]
+        raise InputErrors(errors, len(self.items) - len(shown))
+
+
+class InputErrors(InputError):
+    """Several input problems at once; the message lists each on its own line."""
+
+    def __init__(self, errors: list[InputError], more: int = 0):
+        self.errors = errors
+        text = "\n".join(str(e) for e in errors)
+        if more:
+            text += f"\n... and {more} more problems"
+        first = errors[0]
+        Exception.__init__(self, text)
+        self.file, self.line, self.column, self.detail = first.file, first.line, first.column, text
+
+
+def record_lines(path: Path) -> list[int]:
+    """Line number on which each data record starts (pyarrow skips blank lines)."""
+    text = path.read_bytes().decode("utf-8-sig", errors="replace")
+    reader = csv.reader(io.StringIO(text, newline=""))
+    lines: list[int] = []
+    start = 1
+    for k, rec in enumerate(reader):
+        if k > 0 and rec:
+            lines.append(start)
+        start = reader.line_num + 1
+    return lines
+
+
+def _header(path: Path) -> list[str]:
+    if not path.exists():
+        raise InputError(path, "file not found")
+    if path.is_dir():
+        raise InputError(path, "is a folder, not a CSV file")
+    with path.open("rb") as fh:
+        first = fh.readline()
+    if not first.strip():
+        raise InputError(path, "the file is empty (no header line)", 1)
+    try:
+        text = first.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(path, "the header is not UTF-8 text; save the file as UTF-8 CSV", 1) from None
+    return [h.strip() for h in next(csv.reader([text]))]
+
+
+def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, ...], exc: Exception) -> InputError:
+    """Find the line and column behind a pyarrow parse or conversion failure."""
+    raw = path.read_bytes()
+    try:
+        raw.decode("utf-8-sig")
+    except UnicodeDecodeError as bad:
+        line = raw[: bad.start].count(b"\n") + 1
+        return InputError(path, "not UTF-8 text (bytes that no UTF-8 text has); save the file as UTF-8 CSV", line)
+    text = raw.decode("utf-8-sig")
+    reader = csv.reader(io.StringIO(text, newline=""))
+    index = {name: k for k, name in enumerate(header)}
+    numeric = [(c.name, index[table.source_name(c.name)]) for c in cols if c.numeric and table.source_name(c.name) in index]
+    start = 1
+    try:
+        for k, rec in enumerate(reader):
+            if k > 0 and rec:
+                if len(rec) != len(header):
+                    return InputError(path, f"expected {len(header)} fields as in the header, found {len(rec)}", start)
+                for ours, pos in numeric:
+                    value = rec[pos].strip()
+                    if value == "":
+                        continue
+                    try:
+                        float(value)
+                    except ValueError:
+                        return InputError(path, f"'{value[:40]}' is not a number", start, table.source_name(ours))
+            start = reader.line_num + 1
+    except csv.Error as err:
+        return InputError(path, f"malformed CSV ({err})", start)
+    return InputError(path, f"could not be read as CSV ({exc})")
+
+
+def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> tuple[pa.Table, Problems]:
+    """Read one CSV into a pyarrow table with our column names and units."""
+    path = Path(path)
+    table = cmap.table(name)
+    header = _header(path)
+    if len(set(header)) != len(header):
+        dup = next(h for h in header if header.count(h) > 1)
+        raise InputError(path, "the header names this column twice", 1, dup)
+    present = set(header)
+    missing = [c for c in cols if c.required and table.source_name(c.name) not in present]
+    if missing:
+        raise InputErrors([InputError(path, "required column is missing", 1, table.source_name(c.name)) for c in missing])
+    wanted = [c for c in cols if table.source_name(c.name) in present]
+    types = {table.source_name(c.name): (pa.float64() if c.numeric else pa.string()) for c in wanted}
+    try:
+        raw = pcsv.read_csv(
+            path,
+            read_options=pcsv.ReadOptions(use_threads=True),
+            convert_options=pcsv.ConvertOptions(column_types=types, include_columns=list(types),
+                                                strings_can_be_null=False, quoted_strings_can_be_null=False),
+        )
+    except (pa.ArrowInvalid, pa.ArrowException) as exc:
+        raise _diagnose(path, header, table, cols, exc) from None
+    arrays, names = [], []
+    for c in cols:
+        src = table.source_name(c.name)
+        if src in present:
+            arr = raw.column(src).combine_chunks() if raw.num_rows else pa.array([], type=types[src])
+            if c.numeric and c.name in table.factors:
+                arr = pac.multiply(arr, table.factors[c.name])
+            if not c.numeric:
+                arr = pac.utf8_trim_whitespace(arr)
+        else:
+            arr = pa.nulls(raw.num_rows, type=pa.float64() if c.numeric else pa.string())
+        arrays.append(arr)
+        names.append(c.name)
+    out = pa.table(arrays, names=names)
+    if out.num_rows == 0:
+        raise InputError(path, "has a header but no data rows", 1)
+    return out, Problems(path, table)
+
+
+def _num(t: pa.Table, name: str) -> np.ndarray:
+    return t.column(name).to_numpy(zero_copy_only=False).astype(float)
+
+
+def _str(t: pa.Table, name: str) -> np.ndarray:
+    return np.asarray(t.column(name).fill_null("").to_pylist(), dtype=object)
+
+
+def _check_required_numbers(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
+    for c in cols:
+        if not c.numeric:
+            continue
+        v = _num(t, c.name)
+        if c.required:
+            probs.add(np.isnan(v), c.name, "missing or NaN value")
+        probs.add(np.isinf(v), c.name, "value is infinite")
+
+
+def _check_required_strings(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
+    for c in cols:
+        if c.required and not c.numeric:
+            probs.add(_str(t, c.name) == "", c.name, "missing value")
+
+
+def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, probs: Problems) -> None:
+    bad = ~np.isin(values, allowed)
+    probs.add(bad, column, [f"'{v}' is not one of {', '.join(allowed)}" for v in values[bad][:MAX_REPORTED]])
+
+
+def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]]:
+    """members.csv -> validated table (our columns, d_mm filled, defaults applied) and warnings."""
+    t, probs = read_table(path, "members", MEMBER_COLUMNS, cmap)
+    _check_required_numbers(t, MEMBER_COLUMNS, probs)
+    _check_required_strings(t, MEMBER_COLUMNS, probs)
+    member = _str(t, "member")
+    _, first, counts = np.unique(member, return_index=True, return_counts=True)
+    dup_rows = np.setdiff1d(np.arange(len(member)), first)
+    probs.add(dup_rows, "member", [f"member '{member[r]}' is listed twice" for r in dup_rows[:MAX_REPORTED]])
+
+    kind = _str(t, "kind")
+    kind[kind == ""] = "beam"
+    _check_choice(kind, KINDS, "kind", probs)
+    for end in ("support_i", "support_j"):
+        s = _str(t, end)
+        _check_choice(s, SUPPORTS, end, probs)
+    load_face = _str(t, "load_face")
+    load_face[load_face == ""] = "top"
+    _check_choice(load_face, LOAD_FACES, "load_face", probs)
+
+    L, b, h = _num(t, "length_m"), _num(t, "b_mm"), _num(t, "h_mm")
+    for name, v in (("length_m", L), ("b_mm", b), ("h_mm", h)):
+        probs.add(v <= 0, name, "must be greater than zero")
+    d_given, cover = _num(t, "d_mm"), _num(t, "cover_mm")
+    neither = np.isnan(d_given) & np.isnan(cover)
+    probs.add(neither, "d_mm", "give d_mm or cover_mm")
+    d = np.where(np.isnan(d_given), h - cover, d_given)
+    probs.add(~np.isnan(d_given) & (d_given <= 0), "d_mm", "must be greater than zero")
+    probs.add(~np.isnan(d_given) & (d_given >= h), "d_mm", "effective depth must be less than h_mm")
+    probs.add(np.isnan(d_given) & ~np.isnan(cover) & ((cover <= 0) | (cover >= h)), "cover_mm",
+              "must be greater than zero and less than h_mm")
+
+    fc, fyt = _num(t, "fc_mpa"), _num(t, "fyt_mpa")
+    probs.add(fc < aci.FC_MIN_MPA, "fc_mpa", f"f'c below {aci.FC_MIN_MPA:g} MPa, the least ACI 318-19 19.2.1.1 admits")
+    probs.add(fyt <= 0, "fyt_mpa", "must be greater than zero")
+    fy = _num(t, "fy_mpa")
+    probs.add(fy <= 0, "fy_mpa", "must be greater than zero")
+    lam = _num(t, "lambda")
+    probs.add((lam <= 0) | (lam > 1), "lambda", "lightweight factor must be in (0, 1]")
+    face_i, face_j = np.nan_to_num(_num(t, "face_i_mm")), np.nan_to_num(_num(t, "face_j_mm"))
+    probs.add(face_i < 0, "face_i_mm", "must not be negative")
+    probs.add(face_j < 0, "face_j_mm", "must not be negative")
+    probs.add((face_i + face_j) >= L * 1000.0, "face_j_mm", "support faces leave no clear span")
+    bf, hf = _num(t, "bf_mm"), _num(t, "hf_mm")
+    probs.add(~np.isnan(bf) & (bf < b), "bf_mm", "flange width must be at least the web width b_mm")
+    probs.add(~np.isnan(hf) & ((hf <= 0) | (hf >= h)), "hf_mm", "flange thickness must be in (0, h_mm)")
+    probs.add(~np.isnan(bf) & np.isnan(hf), "hf_mm", "a flange width needs a flange thickness")
+    As = _num(t, "as_tension_mm2")
+    probs.add(~np.isnan(As) & (As <= 0), "as_tension_mm2", "must be greater than zero")
+    probs.raise_if_any()
+
+    warnings = []
+    capped = fyt > aci.FYT_MAX_MPA
+    for m, v in zip(member[capped], fyt[capped]):
+        warnings.append(f"member {m}: fyt {v:g} MPa capped at {aci.FYT_MAX_MPA:g} MPa for shear (ACI 318-19 20.2.2.4)")
+    fy_default = np.isnan(fy)
+    out = t.set_column(t.schema.get_field_index("kind"), "kind", pa.array(kind.tolist(), pa.string()))
+    out = out.set_column(out.schema.get_field_index("load_face"), "load_face", pa.array(load_face.tolist(), pa.string()))
+    out = out.set_column(out.schema.get_field_index("d_mm"), "d_mm", pa.array(d))
+    # fy defaults to Grade 420, the usual longitudinal bar (common practice); used only for rho_w bounds.
+    out = out.set_column(out.schema.get_field_index("fy_mpa"), "fy_mpa", pa.array(np.where(fy_default, 420.0, fy)))
+    out = out.set_column(out.schema.get_field_index("lambda"), "lambda", pa.array(np.where(np.isnan(lam), 1.0, lam)))
+    out = out.set_column(out.schema.get_field_index("face_i_mm"), "face_i_mm", pa.array(face_i))
+    out = out.set_column(out.schema.get_field_index("face_j_mm"), "face_j_mm", pa.array(face_j))
+    for name in ("level", "group"):
+        out = out.set_column(out.schema.get_field_index(name), name, pa.array(_str(out, name).tolist(), pa.string()))
+    return out, warnings
+
+
+def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None) -> pa.Table:
+    """forces.csv -> validated table; optional N, T, M default to zero."""
+    t, probs = read_table(path, "forces", FORCE_COLUMNS, cmap)
+    _check_required_numbers(t, FORCE_COLUMNS, probs)
+    _check_required_strings(t, FORCE_COLUMNS, probs)
+    x = _num(t, "x_m")
+    probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
+    if lengths_m is not None:
+        member = _str(t, "member")
+        L = np.array([lengths_m.get(m, np.inf) for m in member]) if len(member) < 50_000 else _lookup(member, lengths_m)
+        beyond = x > L * (1 + 1e-9) + 1e-6
+        probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
+                                  for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
+    _check_station_rows(t, probs)
+    probs.raise_if_any()
+    for name in ("N_kN", "T_kNm", "M_kNm"):
+        t = t.set_column(t.schema.get_field_index(name), name, pac.fill_null(t.column(name), 0.0))
+    return t
+
+
+def _lookup(member: np.ndarray, lengths_m: dict[str, float]) -> np.ndarray:
+    names, inverse = np.unique(member, return_inverse=True)
+    return np.array([lengths_m.get(m, np.inf) for m in names])[inverse]
+
+
+def _check_station_rows(t: pa.Table, probs: Problems) -> None:
+    """At most two rows per (member, case, x) (a jump); no row repeated exactly."""
+    key = pa.table({"member": t.column("member"), "case": t.column("case"), "x": t.column("x_m")})
+    m_idx = pac.dictionary_encode(key.column("member")).combine_chunks().indices.to_numpy()
+    c_idx = pac.dictionary_encode(key.column("case")).combine_chunks().indices.to_numpy()
+    x = key.column("x").to_numpy()
+    order = np.lexsort((x, c_idx, m_idx))
+    ms, cs, xs = m_idx[order], c_idx[order], x[order]
+    same = (ms[1:] == ms[:-1]) & (cs[1:] == cs[:-1]) & (xs[1:] == xs[:-1])
+    triple = np.zeros(len(order), bool)
+    triple[2:] = same[1:] & same[:-1]
+    probs.add(np.sort(order[triple]), "x_m", "a third row at one station (a jump takes exactly two rows)")
+    vals = np.column_stack([_num(t, n) for n in ("V_kN", "N_kN", "T_kNm", "M_kNm")])[order]
+    ident = same & np.all((vals[1:] == vals[:-1]) | (np.isnan(vals[1:]) & np.isnan(vals[:-1])), axis=1)
+    rows = order[1:][ident]
+    probs.add(np.sort(rows), "member", "duplicate row: the same member, case, station and forces appear twice")
+
+
+def read_cases(path: str | Path, cmap: ColumnMap) -> pa.Table:
+    """cases.csv -> validated table of basic load cases and their types."""
+    t, probs = read_table(path, "cases", CASE_COLUMNS, cmap)
+    _check_required_strings(t, CASE_COLUMNS, probs)
+    types = _str(t, "type")
+    _check_choice(types, CASE_TYPES, "type", probs)
+    case = _str(t, "case")
+    _, first = np.unique(case, return_index=True)
+    dup = np.setdiff1d(np.arange(len(case)), first)
+    probs.add(dup, "case", "case listed twice")
+    probs.raise_if_any()
+    return t
+
+
+def check_cases_cover_forces(cases: pa.Table, forces: pa.Table, cases_path: str | Path) -> None:
+    """With cases.csv, every case of forces.csv must have a type."""
+    typed = set(cases.column("case").to_pylist())
+    used = pac.unique(forces.column("case")).to_pylist()
+    untyped = sorted(set(used) - typed)
+    if untyped:
+        shown = ", ".join(f"'{c}'" for c in untyped[:10])
+        raise InputError(cases_path, f"case(s) {shown} of the forces table have no row here; give each a type "
+                                     f"({', '.join(CASE_TYPES)})", None, "case")

@@ -1,0 +1,23 @@
+"""Input errors that name the file, the line and the column."""
+
+from __future__ import annotations
+
+
+class InputError(Exception):
+    """A problem in an input file, located as precisely as the file allows.
+
+    ``line`` is the 1-based line of the file (the header is line 1), or None when
+    the problem concerns the whole file; ``column`` is the column as the file names it.
+    """
+
+    def __init__(self, file: str, message: str, line: int | None = None, column: str | None = None):
+        self.file = str(file)
+        self.line = line
+        self.column = column
+        self.detail = message
+        where = [self.file]
+        if line is not None:
+            where.append(f"line {line}")
+        if column is not None:
+            where.append(f"column '{column}'")
+        super().__init__(f"{', '.join(where)}: {message}")

@@ -1,0 +1,201 @@
+"""Stirrup zones a detailer can build, from the per-station demand.
+
+For each member one (bar, legs) is chosen from the settings' ladder: the first whose
+spacing at the highest demand, rounded down to the spacing module, is not below the
+practical minimum, and whose legs satisfy the spacing across the width (Table
+9.7.6.2.2). Zones then run from each supported end toward the point of least demand
+(a cantilever from its fixed end), at most ``max_zones_per_end`` from each end
+counting the middle zone, with spacings chosen to use the fewest stirrups.
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass
+
+import numpy as np
+
+from postproc.settings import BAR_CATALOGUE, Detailing
+
+STEEL_DENSITY = 7850e-9  # kg/mm^3 (common practice)
+
+
+@dataclass
+class Zone:
+    start: float  # mm from the face at end i
+    end: float
+    spacing: float  # inf: no stirrups in this zone
+    count: int
+
+
+@dataclass
+class Layout:
+    bar: str
+    legs: int
+    zones: list[Zone]
+    message: str = ""
+
+    @property
+    def count(self) -> int:
+        return sum(z.count for z in self.zones)
+
+
+def hook_extension(db: float) -> float:
+    """Straight extension of a 90 or 135 degree stirrup hook, #10 to #16: max(6 db, 75 mm) (Table 25.3.2)."""
+    return max(6.0 * db, 75.0)
+
+
+def stirrup_set_length(b: float, h: float, cover: float, db: float, legs: int) -> float:
+    """Cut length (mm) of the bars making one stirrup set of ``legs`` legs, for mass take-off.
+
+    Closed hoops of two legs each (legs // 2; the outer one around the whole core, the
+    inner ones one leg spacing wide) and a crosstie for an odd leg, measured on the
+    bar centreline, each hoop with two 135-degree hooks (25.3.2, 25.7.1.3(b)). Bend
+    allowances are not deducted (common practice for a weight estimate).
+    """
+    w = b - 2 * cover - db  # centreline width of the outer hoop
+    v = h - 2 * cover - db
+    hoops = legs // 2
+    inner_w = w / max(legs - 1, 1)
+    length = 2 * (w + v) + 2 * hook_extension(db)
+    length += (hoops - 1) * (2 * (inner_w + v) + 2 * hook_extension(db))
+    if legs % 2:
+        length += v + 2 * hook_extension(db)
+    return length
+
+
+def legs_for_width(b: float, cover: float, db: float, s_across: float) -> int:
+    """Least number of legs so that legs are at most s_across apart across the width (Table 9.7.6.2.2)."""
+    w = b - 2 * cover - db
+    return max(2, int(np.ceil(w / s_across - 1e-9)) + 1)
+
+
+def floor_to_module(s: np.ndarray, module: float) -> np.ndarray:
+    """Round a spacing down to the practical module (common practice: 25 mm)."""
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(s), np.floor(s / module + 1e-9) * module, s)
+
+
+def allowed_spacing(need_av_s: np.ndarray, need_at_s: np.ndarray, s_max: np.ndarray, stirrups_here: np.ndarray,
+                    bar_area: float, legs: int, module: float) -> np.ndarray:
+    """Largest spacing, on the module, that the demand at each station admits (inf: none needed)."""
+    per_leg = need_av_s / legs + need_at_s
+    with np.errstate(divide="ignore"):
+        s = np.where(per_leg > 0, bar_area / per_leg, np.inf)
+    s = np.where(stirrups_here | (per_leg > 0), np.minimum(s, s_max), np.inf)
+    return floor_to_module(s, module)
+
+
+def choose_levels(u: np.ndarray, s_env: np.ndarray, max_levels: int) -> np.ndarray:
+    """Spacings per station from one face, nondecreasing toward the middle, at most ``max_levels``
+    distinct values, each <= the allowed spacing, using the fewest stirrups."""
+    values = np.unique(s_env)
+    if len(values) <= max_levels:
+        return s_env
+    widths = np.diff(np.concatenate([u, [u[-1]]]))
+    pos = np.searchsorted(values, s_env)
+    lengths = np.bincount(pos, weights=widths, minlength=len(values))
+    best, best_cost = None, np.inf
+    for rest in itertools.combinations(range(1, len(values)), max_levels - 1):
+        chosen = np.array((0, *rest))
+        use = chosen[np.searchsorted(chosen, np.arange(len(values)), side="right") - 1]
+        cost = np.sum(lengths / np.where(np.isfinite(values[use]), values[use], 1e12))
+        if cost < best_cost:
+            best, best_cost = use, cost
+    return values[best][pos]
+
+
+def _end_zones(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
+               to_end: float | None) -> tuple[list[Zone], float, float]:
+    """Zones from one face (u measured from it, ascending).
+
+    Returns the zones before the middle, the position of their last stirrup (0: none)
+    and the spacing of the middle zone. With ``to_end`` (a cantilever) the last zone
+    is included and its stirrups reach that distance from the face.
+    """
+    suffix_min = np.minimum.accumulate(s_env[::-1])[::-1]  # nondecreasing toward the middle
+    levels = choose_levels(u, suffix_min, max_zones)
+    starts = np.concatenate([[0], np.flatnonzero(levels[1:] != levels[:-1]) + 1])
+    zones: list[Zone] = []
+    last = 0.0
+    for k, i0 in enumerate(starts):
+        s = float(levels[i0])
+        is_last = k == len(starts) - 1
+        if is_last and to_end is None:
+            return zones, last, s
+        # every station before the next level's first station needs a spacing <= s
+        boundary = float(to_end) if is_last else float(u[starts[k + 1]])
+        if not np.isfinite(s):
+            zones.append(Zone(last, boundary, np.inf, 0))
+            last = boundary
+            continue
+        if zones and last >= boundary:
+            continue  # already covered by the tighter zone before
+        begin = first(s) if not zones else last + s
+        if is_last:  # cantilever: the last stirrup stays within the free end's cover allowance
+            n = max(1, int(np.floor((boundary - begin) / s + 1e-9)) + 1)
+        else:
+            n = max(1, int(np.ceil((boundary - begin) / s - 1e-9)) + 1)
+        end = begin + (n - 1) * s
+        zones.append(Zone(last, end, s, n))
+        last = end
+    return zones, last, float(levels[-1])
+
+
+def layout_member(x: np.ndarray, clear_span: float, need_av_s, need_at_s, s_max, s_across, stirrups_here,
+                  b: float, free_i: bool, free_j: bool, st: Detailing) -> Layout | str:
+    """Zones for one member (x: stations from face i); a string explains why none can be built."""
+    module, smin = st.spacing_module_mm, st.min_spacing_mm
+    first = (lambda s: st.first_stirrup_mm) if st.first_stirrup == "fixed" else (lambda s: s / 2.0)
+    tried = []
+    for bar, ladder_legs in st.ladder:
+        db, area = BAR_CATALOGUE[bar]
+        legs = max(ladder_legs, legs_for_width(b, st.clear_cover_mm, db, s_across))
+        s_env = allowed_spacing(need_av_s, need_at_s, s_max, stirrups_here, area, legs, module)
+        tight = float(np.min(s_env))
+        tried.append(f"{bar} x{legs} legs at {tight:g} mm")
+        if tight >= smin:
+            break
+    else:
+        return (f"no (bar, legs) of the ladder works at the {smin:g} mm minimum spacing: {'; '.join(tried)}")
+    if np.all(np.isinf(s_env)):
+        return Layout(bar, legs, [Zone(0.0, clear_span, np.inf, 0)], "no stirrups required")
+    zmax = st.max_zones_per_end
+    if free_i or free_j:  # a cantilever: zones from the fixed end to the free end
+        u = x if free_j else (clear_span - x)[::-1]
+        env = s_env if free_j else s_env[::-1]
+        zones, _, _ = _end_zones(u, env, first, zmax, to_end=clear_span - first(float(env.min())))
+        zones[-1].end = clear_span
+        return Layout(bar, legs, zones if free_j else _mirror(zones, clear_span))
+    finite = np.where(np.isfinite(s_env), s_env, 1e12)
+    best = np.flatnonzero(finite == finite.max())
+    m = best[np.argmin(np.abs(x[best] - clear_span / 2))]  # least demand, nearest mid-span
+    zi, last_i, mid_i = _end_zones(x[: m + 1], s_env[: m + 1], first, zmax, None)
+    zj, last_j, mid_j = _end_zones((clear_span - x[m:])[::-1], s_env[m:][::-1], first, zmax, None)
+    s_mid = min(mid_i, mid_j)
+    if np.isfinite(s_mid):
+        a = last_i if zi else first(s_mid)  # a stirrup of the middle zone where no end zone is
+        bnd = clear_span - (last_j if zj else first(s_mid))
+        if bnd - a <= 0:  # end zones meet: one zone at the tightest spacing throughout
+            s = float(np.min(s_env))
+            n = int(np.ceil((clear_span - 2 * first(s)) / s - 1e-9)) + 1
+            return Layout(bar, legs, [Zone(0.0, clear_span, s, n)], "end zones meet; one zone throughout")
+        n_mid = int(np.ceil((bnd - a) / s_mid - 1e-9)) - 1 + (not zi) + (not zj)
+    else:
+        n_mid = 0
+    middle = Zone(last_i if zi else 0.0, clear_span - last_j if zj else clear_span, s_mid, n_mid)
+    return Layout(bar, legs, zi + [middle] + _mirror(zj, clear_span))
+
+
+def _mirror(zones: list[Zone], span: float) -> list[Zone]:
+    return [Zone(span - z.end, span - z.start, z.spacing, z.count) for z in reversed(zones)]
+
+
+def provided_spacing(layout: Layout, x: np.ndarray) -> np.ndarray:
+    """Spacing in force at each station; on a zone boundary the smaller of the two."""
+    starts = np.array([z.start for z in layout.zones])
+    ends = np.array([z.end for z in layout.zones])
+    sp = np.array([z.spacing for z in layout.zones])
+    k_hi = np.clip(np.searchsorted(ends, x, side="left"), 0, len(sp) - 1)
+    k_lo = np.clip(np.searchsorted(starts, x, side="right") - 1, 0, len(sp) - 1)
+    return np.minimum(sp[k_hi], sp[k_lo])

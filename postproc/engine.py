@@ -1,0 +1,274 @@
+"""Design a stored run: members in batches through combos, stations, design and detailing.
+
+The whole batch moves as arrays; only the zone layout is built per member (from that
+member's station arrays). Every member of the input leaves with a status.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pac
+
+from postproc import combos as combos_mod
+from postproc import design, detailing, stations
+from postproc.codes import aci318_19 as aci
+from postproc.settings import BAR_CATALOGUE, Settings
+from postproc.store import Run
+
+MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_kN", "vu_design_j_kN",
+                  "crit_i", "crit_j", "phi_vc_kN", "phi_vn_limit_kN", "utilization", "stirrups_total",
+                  "stirrup_mass_kg"]
+ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+STATUSES = ("designed", "resize", "deep-beam", "no-forces", "no-geometry", "invalid", "not-covered")
+BATCH_CELLS = 4_000_000  # combinations x stations per batch: bounds memory, not results
+
+
+class SelfCheckError(AssertionError):
+    """A finished layout failed its own check: a defect in shearpost, never a design result."""
+
+
+@dataclass
+class Result:
+    members: pd.DataFrame
+    zones: pd.DataFrame
+    stations: pd.DataFrame
+    combos: combos_mod.ComboSet
+    warnings: list[str] = field(default_factory=list)
+
+
+def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
+    cases = run.cases()
+    if cases is None:
+        return combos_mod.prefactored(case_names), []
+    types = dict(zip(cases.column("case").to_pylist(), cases.column("type").to_pylist()))
+    unused = sorted(set(types) - set(case_names))
+    warnings = [f"cases.csv lists case '{c}', which has no rows in forces.csv" for c in unused]
+    return combos_mod.aci_5_3_1(types, case_names, settings.combinations), warnings
+
+
+def design_run(run: Run, settings: Settings) -> Result:
+    members = run.members().to_pandas()
+    input_order = {m: k for k, m in enumerate(members["member"])}
+    forces = run.forces()
+    member_col = forces.column("member").combine_chunks()
+    case_col = forces.column("case").combine_chunks()
+    case_names = sorted(pac.unique(case_col).to_pylist())
+    cset, warnings = combination_set(run, case_names, settings)
+    case_idx = pac.index_in(case_col, value_set=pa.array(case_names)).to_numpy()
+
+    force_members = pac.unique(member_col).to_pylist()
+    geo_members = set(members["member"])
+    rows: list[dict] = []
+    for m in sorted(set(force_members) - geo_members):
+        rows.append(_row(m, "no-geometry", "forces given but no row in the members table"))
+
+    has_forces = members["member"].isin(set(force_members))
+    reason = members["invalid_reason"] if "invalid_reason" in members else pd.Series(None, index=members.index)
+    invalid = reason.notna() & (reason != "")
+    for m, why in zip(members.loc[invalid, "member"], reason[invalid]):
+        rows.append(_row(m, "invalid", why))
+    members = members[~invalid]
+    is_column = members["kind"] == "column"
+    for m in members.loc[is_column, "member"]:
+        rows.append(_row(m, "not-covered", "column shear design is not covered yet"))
+    for m in members.loc[~is_column & ~has_forces, "member"]:
+        rows.append(_row(m, "no-forces", "no rows in the forces table"))
+    beams = members[~is_column & has_forces].sort_values("member").reset_index(drop=True)
+
+    # force rows of the beams, as contiguous slices (the store keeps forces sorted by member)
+    names = pa.array(beams["member"].tolist(), pa.string())
+    f_member = pac.index_in(member_col, value_set=names).fill_null(-1).to_numpy().astype(np.int64)
+    sel = np.flatnonzero(f_member >= 0)
+    f_member = f_member[sel]
+    x = forces.column("x_m").to_numpy()[sel] * 1e3
+    values = {"V": forces.column("V_kN").to_numpy()[sel] * 1e3, "N": forces.column("N_kN").to_numpy()[sel] * 1e3,
+              "T": forces.column("T_kNm").to_numpy()[sel] * 1e6}
+    cidx = case_idx[sel].astype(np.int64)
+    order = np.argsort(f_member, kind="stable")
+    f_member, x, cidx = f_member[order], x[order], cidx[order]
+    values = {k: v[order] for k, v in values.items()}
+    bounds = np.searchsorted(f_member, np.arange(len(beams) + 1))
+
+    zones, st_tables = [], []
+    d = beams["d_mm"].to_numpy()
+    clear = beams["length_m"].to_numpy() * 1e3 - beams["face_i_mm"].to_numpy() - beams["face_j_mm"].to_numpy()
+    est = (clear / np.minimum(settings.stations.max_step_mm, d / settings.stations.steps_per_d) + 8) * max(len(cset.names), len(case_names))
+    start = 0
+    while start < len(beams):
+        csum = np.cumsum(est[start:])
+        stop = start + max(1, int(np.searchsorted(csum, BATCH_CELLS)))
+        r0, r1 = bounds[start], bounds[stop]
+        res = _design_batch(beams.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start,
+                            cidx[r0:r1], x[r0:r1], {k: v[r0:r1] for k, v in values.items()}, cset, settings)
+        rows.extend(res[0])
+        zones.extend(res[1])
+        st_tables.append(res[2])
+        warnings.extend(res[3])
+        start = stop
+
+    out = pd.DataFrame(rows, columns=MEMBER_COLUMNS)
+    out["_o"] = out["member"].map(lambda m: input_order.get(m, len(input_order)))
+    out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
+    zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
+    sdf = pd.concat(st_tables, ignore_index=True) if st_tables else pd.DataFrame()
+    return Result(out, zdf, sdf, cset, warnings)
+
+
+def _row(member, status, message, **kw) -> dict:
+    row = {c: None for c in MEMBER_COLUMNS}
+    row.update(member=member, status=status, message=message, stirrups_total=0, stirrup_mass_kg=0.0)
+    row.update(kw)
+    return row
+
+
+def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, settings: Settings):
+    st = settings.detailing
+    n = len(bm)
+    g = stations.Geometry(
+        length=bm["length_m"].to_numpy() * 1e3, face_i=bm["face_i_mm"].to_numpy(), face_j=bm["face_j_mm"].to_numpy(),
+        d=bm["d_mm"].to_numpy(), h=bm["h_mm"].to_numpy(), support_i=bm["support_i"].to_numpy(object),
+        support_j=bm["support_j"].to_numpy(object), load_top=(bm["load_face"] == "top").to_numpy())
+    samples = stations.Samples.build(f_member, f_case, f_x, f_values)
+    grid = stations.build_grid(g, samples, settings.stations)
+    span = float(g.length.max() * 2 + 1e3)
+    case_vals, missing = stations.interpolate(samples, len(cset.cases), grid.member, grid.x, grid.side, span)
+    rules = stations.end_rules(g, grid, samples, settings.stations)
+    src = rules.source
+    C = cset.factors
+    Vu = np.abs(C @ case_vals["V"])[:, src]
+    Nu = -(C @ case_vals["N"])[:, src]  # ACI sign: compression positive
+    Tu = np.abs(C @ case_vals["T"])[:, src]
+
+    warnings = []
+    miss_m = np.unique(grid.member[missing.any(axis=0)])
+    for m in miss_m:
+        lacking = [cset.cases[c] for c in np.flatnonzero(missing[:, grid.member == m].any(axis=1))]
+        warnings.append(f"member {bm['member'][m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
+
+    largest_db = max(BAR_CATALOGUE[b][0] for b, _ in st.ladder)
+    sec_m = design.section_from_members(
+        b=bm["b_mm"].to_numpy(), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
+        lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
+        bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float),
+        cover_to_stirrup=st.clear_cover_mm, stirrup_db=largest_db)
+    sec = sec_m.take(grid.member)
+    dem = design.required(sec, Vu, Nu, Tu)
+    x_clear = grid.x - g.start[grid.member]
+
+    # per-station envelope pieces the layout needs
+    stirrups_here = dem.avmin_required | (dem.av_s_env > 0) | (dem.at_s_env > 0) | st.stirrups_throughout
+    deep = aci.is_deep_by_span(g.clear_span, g.h) | rules.point_load_near_bearing
+    resize = np.zeros(n, bool)
+    np.logical_or.at(resize, grid.member, dem.section_ratio > 1.0)
+
+    rows, zones = [], []
+    spacing = np.full(len(grid.x), np.inf)
+    legs_st = np.zeros(len(grid.x))
+    area_st = np.zeros(len(grid.x))
+    designed = np.zeros(n, bool)
+    layouts: dict[int, detailing.Layout] = {}
+    messages: dict[int, str] = {}
+    for m in range(n):
+        if deep[m] or resize[m]:
+            continue
+        sl = slice(grid.offsets[m], grid.offsets[m + 1])
+        lay = detailing.layout_member(
+            x_clear[sl], g.clear_span[m], dem.av_s_env[sl], dem.at_s_env[sl], dem.s_max[sl],
+            float(dem.s_max_across[sl][stirrups_here[sl]].min()) if stirrups_here[sl].any() else np.inf,
+            stirrups_here[sl], float(bm["b_mm"][m]), g.support_i[m] == "free", g.support_j[m] == "free", st)
+        if isinstance(lay, str):
+            messages[m] = lay
+            continue
+        layouts[m] = lay
+        designed[m] = True
+        spacing[sl] = detailing.provided_spacing(lay, x_clear[sl])
+        legs_st[sl] = lay.legs
+        area_st[sl] = BAR_CATALOGUE[lay.bar][1]
+
+    cap = design.check_layout(sec, Vu, Nu, Tu, area_st, legs_st, spacing, dem)
+    on = designed[grid.member]
+    bad = on & ~cap.ok
+    if bad.any():
+        k = np.flatnonzero(bad)[0]
+        m = grid.member[k]
+        raise SelfCheckError(f"layout of member {bm['member'][m]} fails its self-check at x = {x_clear[k]:.0f} mm "
+                             f"(utilization {cap.utilization[k]:.3f}, s = {spacing[k]:g} mm, "
+                             f"s_max = {dem.s_max[k]:g} mm)")
+
+    util = np.maximum(np.where(on, cap.utilization, 0.0), dem.section_ratio)
+    k_gov = _argmax_per_member(util, grid.offsets)
+    first_st = grid.offsets[:-1]
+    last_st = grid.offsets[1:] - 1
+    vu_env = dem.vu_max
+    for m in range(n):
+        k = k_gov[m]
+        common = dict(
+            crit_i=rules.crit_i[m], crit_j=rules.crit_j[m],
+            vu_design_i_kN=round(vu_env[first_st[m]] / 1e3, 2), vu_design_j_kN=round(vu_env[last_st[m]] / 1e3, 2),
+            governing_case=cset.names[dem.governing[k]], phi_vc_kN=round(dem.phi_vc[k] / 1e3, 2),
+            phi_vn_limit_kN=round(dem.phi_vn_limit[k] / 1e3, 2), utilization=round(float(util[k]), 3))
+        name = bm["member"][m]
+        if deep[m]:
+            why = ("clear span <= 4h (ACI 318-19 9.9.1.1(a))" if aci.is_deep_by_span(g.clear_span[m], g.h[m])
+                   else "concentrated load within 2h of a bearing face (ACI 318-19 9.9.1.1(b))")
+            rows.append(_row(name, "deep-beam", f"{why}: design by strut-and-tie (Ch. 23), not sectionally", **common))
+        elif resize[m]:
+            sl = slice(grid.offsets[m], grid.offsets[m + 1])
+            ratio = float(dem.section_ratio[sl].max())
+            bd = float(bm["b_mm"][m] * g.d[m]) * ratio
+            rows.append(_row(name, "resize", f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}); "
+                                            f"needs bw*d of about {bd:,.0f} mm^2", **common))
+        elif m in messages:
+            rows.append(_row(name, "resize", messages[m], **common))
+        else:
+            lay = layouts[m]
+            db, area = BAR_CATALOGUE[lay.bar]
+            one = detailing.stirrup_set_length(float(bm["b_mm"][m]), g.h[m], st.clear_cover_mm, db, lay.legs)
+            mass = lay.count * one * area * detailing.STEEL_DENSITY
+            rows.append(_row(name, "designed", lay.message, stirrups_total=lay.count,
+                             stirrup_mass_kg=round(mass, 2), **common))
+            for z, zone in enumerate(lay.zones, start=1):
+                zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
+                                  bar=lay.bar if zone.count else "", legs=lay.legs if zone.count else 0,
+                                  spacing_mm=zone.spacing if np.isfinite(zone.spacing) else None,
+                                  count=zone.count))
+
+    cols = np.arange(len(grid.x))
+    gov = dem.governing
+    st_df = pd.DataFrame({
+        "member": bm["member"].to_numpy(object)[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
+        "governing_case": np.asarray(cset.names, object)[gov], "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
+        "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[gov, cols], np.nan) / 1e3,
+        "phi_vn_limit_kN": dem.phi_vn_limit / 1e3, "av_s_req": dem.av_s, "at_s_req": dem.at_s,
+        "av_min_s": dem.av_min_s, "avmin_required": dem.avmin_required, "torsion": dem.torsion,
+        "s_max_mm": dem.s_max, "spacing_mm": np.where(on, spacing, np.nan), "utilization": util,
+    })
+    return rows, zones, st_df, warnings
+
+
+def _argmax_per_member(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
+    """Index of the largest value within each member's slice of stations."""
+    n = len(offsets) - 1
+    member = np.repeat(np.arange(n), np.diff(offsets))
+    order = np.lexsort((values, member))
+    return order[offsets[1:] - 1]
+
+
+def design_tables(result: Result) -> dict[str, pa.Table]:
+    """The design folder's tables: member results, zones, and the per-station trace."""
+    return {
+        "members": pa.Table.from_pandas(result.members, preserve_index=False),
+        "zones": pa.Table.from_pandas(result.zones, preserve_index=False),
+        "stations": pa.Table.from_pandas(result.stations, preserve_index=False),
+        "combinations": pa.table({"combination": result.combos.names,
+                                  **{c: result.combos.factors[:, k] for k, c in enumerate(result.combos.cases)}}),
+    }
+
+
+def design_manifest(result: Result, settings: Settings) -> dict:
+    return {"code_edition": aci.EDITION, "settings": settings.as_dict(),
+            "combinations_prefactored": result.combos.prefactored, "warnings": result.warnings}

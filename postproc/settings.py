@@ -1,0 +1,128 @@
+"""Project settings: a TOML file (``--config``) over common-practice defaults.
+
+    [combinations]
+    reduced_live_factor = false     # ACI 318-19 5.3.3: 0.5L in 5.3.1 (c), (d), (e)
+
+    [stations]
+    max_step_mm = 50                # station grid at most this far apart ...
+    steps_per_d = 8                 # ... and at most d/8 apart
+    point_load_kN = 1.0             # a jump in V larger than this and than
+    point_load_fraction = 0.02      # this fraction of the member's largest |V| is a concentrated load
+
+    [detailing]
+    ladder = [["#10", 2], ["#13", 2], ["#10", 4], ["#13", 4], ["#16", 4]]
+    spacing_module_mm = 25
+    min_spacing_mm = 75
+    first_stirrup = "fixed"         # "fixed" (first_stirrup_mm from the face) or "half" (s/2)
+    first_stirrup_mm = 50
+    max_zones_per_end = 3
+    stirrups_throughout = true      # false: omit stirrups where the code permits
+    clear_cover_mm = 40             # to the stirrup, for leg spacing and bar lengths
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import asdict, dataclass, field, fields, replace
+from pathlib import Path
+
+from adapters.errors import InputError
+
+# ASTM A615/A615M Table 1: nominal diameter (mm) and area (mm^2) of deformed bars.
+BAR_CATALOGUE = {
+    "#10": (9.5, 71.0),
+    "#13": (12.7, 129.0),
+    "#16": (15.9, 199.0),
+    "#19": (19.1, 284.0),
+}
+
+
+@dataclass(frozen=True)
+class Combinations:
+    reduced_live_factor: bool = False
+
+
+@dataclass(frozen=True)
+class Stations:
+    max_step_mm: float = 50.0
+    steps_per_d: float = 8.0
+    point_load_kN: float = 1.0
+    point_load_fraction: float = 0.02
+
+
+@dataclass(frozen=True)
+class Detailing:
+    ladder: tuple[tuple[str, int], ...] = (("#10", 2), ("#13", 2), ("#10", 4), ("#13", 4), ("#16", 4))
+    spacing_module_mm: float = 25.0
+    min_spacing_mm: float = 75.0
+    first_stirrup: str = "fixed"
+    first_stirrup_mm: float = 50.0
+    max_zones_per_end: int = 3
+    stirrups_throughout: bool = True
+    clear_cover_mm: float = 40.0
+
+
+@dataclass(frozen=True)
+class Settings:
+    combinations: Combinations = field(default_factory=Combinations)
+    stations: Stations = field(default_factory=Stations)
+    detailing: Detailing = field(default_factory=Detailing)
+
+    def as_dict(self) -> dict:
+        return asdict(self)
+
+
+def load_settings(path: str | Path | None) -> Settings:
+    """Settings from a TOML file; unknown sections or keys are errors, not silently ignored."""
+    s = Settings()
+    if path is None:
+        return s
+    path = Path(path)
+    try:
+        doc = tomllib.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputError(path, "settings file not found") from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(path, f"not a valid TOML file ({exc})") from None
+    sections = {f.name: f for f in fields(Settings)}
+    for name, values in doc.items():
+        if name not in sections or not isinstance(values, dict):
+            raise InputError(path, f"unknown section [{name}]; known: {', '.join(sections)}")
+        current = getattr(s, name)
+        known = {f.name: f for f in fields(current)}
+        for key, value in values.items():
+            if key not in known:
+                raise InputError(path, f"[{name}] has no setting '{key}'; known: {', '.join(known)}")
+            default = getattr(current, key)
+            if key == "ladder":
+                value = _ladder(path, value)
+            elif isinstance(default, bool):
+                if not isinstance(value, bool):
+                    raise InputError(path, f"[{name}].{key} must be true or false")
+            elif isinstance(default, (int, float)):
+                if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
+                    raise InputError(path, f"[{name}].{key} must be a non-negative number")
+                value = type(default)(value)
+            current = replace(current, **{key: value})
+        s = replace(s, **{name: current})
+    d = s.detailing
+    if d.first_stirrup not in ("fixed", "half"):
+        raise InputError(path, "[detailing].first_stirrup must be \"fixed\" or \"half\"")
+    if d.spacing_module_mm <= 0 or d.min_spacing_mm < d.spacing_module_mm:
+        raise InputError(path, "[detailing] needs spacing_module_mm > 0 and min_spacing_mm >= spacing_module_mm")
+    if d.max_zones_per_end < 1:
+        raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
+    return s
+
+
+def _ladder(path: Path, value) -> tuple[tuple[str, int], ...]:
+    out = []
+    for item in value if isinstance(value, list) else [None]:
+        if (not isinstance(item, list) or len(item) != 2 or item[0] not in BAR_CATALOGUE
+                or not isinstance(item[1], int) or item[1] < 2):
+            raise InputError(path, "[detailing].ladder must list [bar, legs] pairs, bar one of "
+                                   f"{', '.join(BAR_CATALOGUE)}, legs a whole number >= 2")
+        out.append((item[0], item[1]))
+    if not out:
+        raise InputError(path, "[detailing].ladder must not be empty")
+    return tuple(out)

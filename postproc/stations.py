@@ -1,0 +1,218 @@
+"""Station grid, resampling of each load case, and the critical-section rule.
+
+All members of a batch are handled at once as flat arrays (struct of arrays):
+station k belongs to member ``member[k]``, lies ``x[k]`` mm from node i, and takes
+the limit of the force diagram from the left (``side`` 0) or the right (``side`` 1).
+A jump in the input (two rows at one ``x_m``) becomes two stations at that x, the
+left and the right limit, so concentrated loads are never smeared.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from postproc.settings import Stations
+
+BEARING = ("column", "wall")  # supports whose reaction puts the end region in compression (9.4.3.2(a))
+
+
+@dataclass(frozen=True)
+class Geometry:
+    """Per-member arrays of a batch, SI (mm)."""
+
+    length: np.ndarray
+    face_i: np.ndarray
+    face_j: np.ndarray
+    d: np.ndarray
+    h: np.ndarray
+    support_i: np.ndarray  # object array of support names
+    support_j: np.ndarray
+    load_top: np.ndarray  # bool
+
+    @property
+    def start(self) -> np.ndarray:
+        return self.face_i
+
+    @property
+    def end(self) -> np.ndarray:
+        return self.length - self.face_j
+
+    @property
+    def clear_span(self) -> np.ndarray:
+        return self.end - self.start
+
+
+@dataclass(frozen=True)
+class Samples:
+    """Input force rows of a batch, sorted by (member, case, x), file order kept within a station."""
+
+    member: np.ndarray  # int index into the batch's members
+    case: np.ndarray  # int index into the case list
+    x: np.ndarray  # mm from node i
+    values: dict[str, np.ndarray]  # V, N (N), T, M (N*mm)
+
+    @staticmethod
+    def build(member, case, x, values) -> "Samples":
+        order = np.lexsort((x, case, member))  # stable: jump rows keep their file order
+        return Samples(member[order], case[order], x[order], {k: v[order] for k, v in values.items()})
+
+
+@dataclass(frozen=True)
+class Grid:
+    member: np.ndarray
+    x: np.ndarray
+    side: np.ndarray  # 0 left limit, 1 right limit
+    offsets: np.ndarray  # stations of member m are offsets[m]:offsets[m+1]
+
+
+@dataclass(frozen=True)
+class EndRules:
+    """Critical-section rule per member end and the station each station takes its design force from."""
+
+    crit_i: np.ndarray  # 'd', 'face' or 'free'
+    crit_j: np.ndarray
+    source: np.ndarray  # per station: index of the station whose forces govern there
+    point_load_near_bearing: np.ndarray  # per member: a concentrated load within 2h of a bearing face
+
+
+def jumps(s: Samples, settings: Stations, n_members: int) -> tuple[np.ndarray, np.ndarray]:
+    """Concentrated loads: (member, x) of jumps in V larger than the tolerance (any case)."""
+    same = (s.member[1:] == s.member[:-1]) & (s.case[1:] == s.case[:-1]) & (s.x[1:] == s.x[:-1])
+    V = s.values["V"]
+    vmax = np.zeros(n_members)
+    np.maximum.at(vmax, s.member, np.abs(V))
+    size = np.abs(V[1:] - V[:-1])
+    tol = np.maximum(settings.point_load_kN * 1e3, settings.point_load_fraction * vmax[s.member[1:]])
+    hit = same & (size > tol)
+    return s.member[1:][hit], s.x[1:][hit]
+
+
+def build_grid(g: Geometry, s: Samples, settings: Stations) -> Grid:
+    """Stations at most min(max_step, d/steps_per_d) apart over each clear span, plus every
+    input station, both limits at every jump, and the sections at d from each face."""
+    n = len(g.length)
+    a, b = g.start, g.end
+    step = np.minimum(settings.max_step_mm, g.d / settings.steps_per_d)
+    counts = np.ceil((b - a) / step).astype(np.int64) + 1
+    mem_u = np.repeat(np.arange(n), counts)
+    first = np.cumsum(counts) - counts
+    k = np.arange(counts.sum()) - np.repeat(first, counts)
+    x_u = a[mem_u] + (b - a)[mem_u] * k / (counts[mem_u] - 1)
+
+    inside = (s.x > a[s.member]) & (s.x < b[s.member])
+    mem_in, x_in = s.member[inside], s.x[inside]
+    jm, jx = jumps(s, settings, n)
+    jin = (jx > a[jm]) & (jx < b[jm])
+    crit_m = np.concatenate([np.arange(n), np.arange(n)])
+    crit_x = np.concatenate([a + g.d, b - g.d])
+    cin = (crit_x > a[crit_m]) & (crit_x < b[crit_m])
+
+    member = np.concatenate([mem_u, mem_in, jm[jin], crit_m[cin]])
+    x = np.concatenate([x_u, x_in, jx[jin], crit_x[cin]])
+    side = np.concatenate([np.ones(len(x_u) + len(x_in), np.int8), np.zeros(jin.sum(), np.int8),
+                           np.ones(cin.sum(), np.int8)])
+    side[np.isclose(x, b[member], rtol=0, atol=1e-9)] = 0  # at the far face, the value from the span side
+    order = np.lexsort((side, x, member))
+    member, x, side = member[order], x[order], side[order]
+    keep = np.ones(len(x), bool)
+    keep[1:] = (member[1:] != member[:-1]) | (x[1:] != x[:-1]) | (side[1:] != side[:-1])
+    member, x, side = member[keep], x[keep], side[keep]
+    offsets = np.searchsorted(member, np.arange(n + 1))
+    return Grid(member, x, side, offsets)
+
+
+def interpolate(s: Samples, n_cases: int, q_member: np.ndarray, q_x: np.ndarray, q_side: np.ndarray,
+                span: float) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """Piecewise-linear value of every case at every query point, keeping jumps.
+
+    Returns ({quantity: (n_cases, n_q)}, missing (n_cases, n_q) bool): missing where a
+    member has no rows for a case (value 0 there). Beyond the first or last input
+    station of a member the end value is held.
+    """
+    seg_p = s.member.astype(np.int64) * n_cases + s.case
+    gp = seg_p * span + s.x
+    cases = np.arange(n_cases)
+    seg_q = q_member.astype(np.int64)[None, :] * n_cases + cases[:, None]
+    gq = seg_q * span + q_x[None, :]
+    right = np.broadcast_to(q_side.astype(bool)[None, :], gq.shape)
+    i_r = np.searchsorted(gp, gq, side="right")
+    i_l = np.searchsorted(gp, gq, side="left")
+    hi = np.where(right, i_r, i_l)
+    lo = hi - 1
+    npts = len(gp)
+    lo_c, hi_c = np.clip(lo, 0, npts - 1), np.clip(hi, 0, npts - 1)
+    lo_ok = (lo >= 0) & (seg_p[lo_c] == seg_q)
+    hi_ok = (hi < npts) & (seg_p[hi_c] == seg_q)
+    exact_lo = lo_ok & right & (gp[lo_c] == gq)  # right limit: last row at this station
+    exact_hi = hi_ok & ~right & (gp[hi_c] == gq)  # left limit: first row at this station
+    dx = gp[hi_c] - gp[lo_c]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = np.where(lo_ok & hi_ok & (dx > 0), (gq - gp[lo_c]) / dx, 0.0)
+    t = np.where(exact_lo, 0.0, np.where(exact_hi, 1.0, t))
+    t = np.where(lo_ok & ~hi_ok, 0.0, np.where(hi_ok & ~lo_ok, 1.0, t))
+    missing = ~(lo_ok | hi_ok)
+    out = {}
+    for key, v in s.values.items():
+        val = v[lo_c] * (1.0 - t) + v[hi_c] * t
+        out[key] = np.where(missing, 0.0, val)
+    return out, missing
+
+
+def end_rules(g: Geometry, grid: Grid, s: Samples, settings: Stations) -> EndRules:
+    """Critical section at each supported end (ACI 318-19 9.4.3.2).
+
+    Between the face and d, Vu at d may be used only where (a) the support reaction
+    puts the end region in compression (column or wall), (b) loads act at or near the
+    top of the member, and (c) no concentrated load acts between the face and d;
+    otherwise the section at the face governs. A free end has no critical section.
+    Also flags concentrated loads within 2h of a bearing face (deep beam, 9.9.1.1(b)).
+    """
+    n = len(g.length)
+    a, b = g.start, g.end
+    jm, jx = jumps(s, settings, n)
+    near_i = np.zeros(n, bool)
+    near_j = np.zeros(n, bool)
+    deep_i = np.zeros(n, bool)
+    deep_j = np.zeros(n, bool)
+    np.logical_or.at(near_i, jm, (jx >= a[jm]) & (jx <= a[jm] + g.d[jm]))
+    np.logical_or.at(near_j, jm, (jx <= b[jm]) & (jx >= b[jm] - g.d[jm]))
+    np.logical_or.at(deep_i, jm, (jx >= a[jm]) & (jx <= a[jm] + 2 * g.h[jm]))
+    np.logical_or.at(deep_j, jm, (jx <= b[jm]) & (jx >= b[jm] - 2 * g.h[jm]))
+    bearing_i = np.isin(g.support_i, BEARING)
+    bearing_j = np.isin(g.support_j, BEARING)
+    free_i = g.support_i == "free"
+    free_j = g.support_j == "free"
+    fits = g.clear_span > 2 * g.d
+    use_d_i = bearing_i & g.load_top & ~near_i & fits
+    use_d_j = bearing_j & g.load_top & ~near_j & fits
+    crit_i = np.where(free_i, "free", np.where(use_d_i, "d", "face")).astype(object)
+    crit_j = np.where(free_j, "free", np.where(use_d_j, "d", "face")).astype(object)
+
+    source = np.arange(len(grid.x))
+    xm = grid.x
+    mem = grid.member
+    # index of the station at a + d (right limit) and b - d (left side is the same: no jump there)
+    at_i = _station_index(grid, a + g.d)
+    at_j = _station_index(grid, b - g.d)
+    in_i = use_d_i[mem] & (xm < (a + g.d)[mem])
+    in_j = use_d_j[mem] & (xm > (b - g.d)[mem])
+    source = np.where(in_i, at_i[mem], source)
+    source = np.where(in_j, at_j[mem], source)
+    point_near = (deep_i & bearing_i & g.load_top) | (deep_j & bearing_j & g.load_top)
+    return EndRules(crit_i, crit_j, source, point_near)
+
+
+def _station_index(grid: Grid, x: np.ndarray) -> np.ndarray:
+    """Per member, the index of the first station at or after x (the crit stations exist exactly)."""
+    n = len(x)
+    out = np.empty(n, np.int64)
+    for_member = grid.offsets
+    # vectorised: search within each member's slice using a global key
+    span = float(np.max(grid.x) + 1.0) if len(grid.x) else 1.0
+    key = grid.member * span + grid.x
+    q = np.arange(n) * span + x
+    idx = np.searchsorted(key, q, side="left")
+    out[:] = np.clip(idx, for_member[:-1], np.maximum(for_member[1:] - 1, for_member[:-1]))
+    return out

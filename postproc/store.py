@@ -1,0 +1,184 @@
+"""A folder of immutable runs.
+
+    STORE/
+      RUN/manifest.json        inputs with sha256, units, code edition, tool version
+      RUN/members.parquet      validated members table (input schema, SI units)
+      RUN/forces.parquet       validated forces, sorted by member, case, station
+      RUN/cases.parquet        basic load cases, where given
+      RUN/design/...           written once, by the design stage
+
+Every write goes to a hidden temporary folder inside the store and is renamed into
+place, so a crash never leaves a half-written run visible; an existing run or design
+is never overwritten.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import json
+import os
+import re
+import shutil
+import uuid
+from dataclasses import dataclass
+from pathlib import Path
+
+import pyarrow as pa
+import pyarrow.compute as pac
+import pyarrow.parquet as pq
+
+from postproc import __version__
+from postproc.codes import aci318_19
+
+UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment": "kN*m", "stress": "MPa"}
+FORCE_ROW_GROUP = 1 << 20
+_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
+
+
+class StoreError(Exception):
+    """A store operation that cannot proceed (existing run, bad name, missing run)."""
+
+
+def sha256_of(path: Path) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+@dataclass(frozen=True)
+class Run:
+    path: Path
+
+    @property
+    def name(self) -> str:
+        return self.path.name
+
+    def manifest(self) -> dict:
+        return json.loads((self.path / "manifest.json").read_text(encoding="utf-8"))
+
+    def members(self) -> pa.Table:
+        return pq.read_table(self.path / "members.parquet")
+
+    def forces(self, columns: list[str] | None = None) -> pa.Table:
+        return pq.read_table(self.path / "forces.parquet", columns=columns)
+
+    def cases(self) -> pa.Table | None:
+        p = self.path / "cases.parquet"
+        return pq.read_table(p) if p.exists() else None
+
+    @property
+    def design_path(self) -> Path:
+        return self.path / "design"
+
+    def has_design(self) -> bool:
+        return (self.design_path / "manifest.json").exists()
+
+
+class Store:
+    def __init__(self, root: str | Path):
+        self.root = Path(root)
+
+    def runs(self) -> list[Run]:
+        if not self.root.exists():
+            return []
+        return [Run(p) for p in sorted(self.root.iterdir())
+                if p.is_dir() and not p.name.startswith(".") and (p / "manifest.json").exists()]
+
+    def run(self, name: str) -> Run:
+        r = Run(self.root / name)
+        if not _NAME.match(name) or not (r.path / "manifest.json").exists():
+            raise StoreError(f"no run named '{name}' in {self.root}")
+        return r
+
+    def new_name(self, today: _dt.date | None = None) -> str:
+        stamp = (today or _dt.date.today()).strftime("%Y%m%d")
+        taken = {r.name for r in self.runs()}
+        k = 1
+        while f"{stamp}-{k:03d}" in taken or (self.root / f"{stamp}-{k:03d}").exists():
+            k += 1
+        return f"{stamp}-{k:03d}"
+
+    def check_new_name(self, name: str) -> None:
+        if not _NAME.match(name):
+            raise StoreError(f"run name '{name}' is not allowed: use letters, digits, '.', '_' and '-' "
+                             "(at most 100, not starting with '.' or '-')")
+        if (self.root / name).exists():
+            raise StoreError(f"run '{name}' already exists in {self.root}; runs are never overwritten, "
+                             "choose another --run name")
+
+    def ingest(self, name: str, members: pa.Table, forces: pa.Table, cases: pa.Table | None,
+               inputs: dict[str, Path], warnings: list[str], extra: dict | None = None) -> Run:
+        """Write a new run atomically and return it."""
+        self.check_new_name(name)
+        forces = forces.take(pac.sort_indices(forces, [("member", "ascending"), ("case", "ascending"),
+                                                        ("x_m", "ascending")]))
+        manifest = {
+            "run": name,
+            "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+            "tool": "shearpost", "tool_version": __version__,
+            "code_edition": aci318_19.EDITION,
+            "units": UNITS,
+            "inputs": {role: {"path": str(p), "sha256": sha256_of(p)} for role, p in inputs.items()},
+            "counts": {"members": members.num_rows, "force_rows": forces.num_rows,
+                       "cases": None if cases is None else cases.num_rows},
+            "warnings": warnings,
+            **(extra or {}),
+        }
+
+        def write(tmp: Path) -> None:
+            pq.write_table(members, tmp / "members.parquet")
+            pq.write_table(forces, tmp / "forces.parquet", row_group_size=FORCE_ROW_GROUP)
+            if cases is not None:
+                pq.write_table(cases, tmp / "cases.parquet")
+            _write_json(tmp / "manifest.json", manifest)
+
+        self._atomic(self.root / name, write)
+        return Run(self.root / name)
+
+    def write_design(self, run: Run, tables: dict[str, pa.Table], manifest: dict) -> Path:
+        """Write a run's design folder once, atomically."""
+        if run.design_path.exists():
+            raise StoreError(f"run '{run.name}' already has a design; runs are immutable")
+
+        def write(tmp: Path) -> None:
+            for key, table in tables.items():
+                pq.write_table(table, tmp / f"{key}.parquet")
+            _write_json(tmp / "manifest.json", manifest)
+
+        self._atomic(run.design_path, write, staging=run.path)
+        return run.design_path
+
+    def _atomic(self, final: Path, write, staging: Path | None = None) -> None:
+        staging = staging or self.root
+        staging.mkdir(parents=True, exist_ok=True)
+        tmp = staging / f".tmp-{final.name}-{uuid.uuid4().hex}"
+        tmp.mkdir()
+        try:
+            write(tmp)
+            _fsync_dir(tmp)
+            try:
+                os.rename(tmp, final)  # fails if final exists and is not empty
+            except OSError:
+                raise StoreError(f"'{final}' already exists; runs are never overwritten") from None
+            _fsync_dir(staging)
+        finally:
+            if tmp.exists():
+                shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _write_json(path: Path, doc: dict) -> None:
+    with open(path, "w", encoding="utf-8") as fh:
+        json.dump(doc, fh, indent=2, sort_keys=False)
+        fh.flush()
+        os.fsync(fh.fileno())
+
+
+def _fsync_dir(path: Path) -> None:
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
