@@ -47,22 +47,26 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _error(text: str) -> None:
+    """Errors go to stderr unwrapped, so that file, line and column stay on one line."""
+    print(text, file=sys.stderr)
+
+
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     console = Console(stderr=False)
-    err = Console(stderr=True)
     if args.command == "demo":
         args.members, args.forces = SAMPLE / "members.csv", SAMPLE / "forces.csv"
         args.cases, args.map = SAMPLE / "cases.csv", None
         if not args.members.exists():
-            err.print(f"demo data not found in {SAMPLE}; install from a checkout with `pip install -e .`")
+            _error(f"demo data not found in {SAMPLE}; install from a checkout with `pip install -e .`")
             return EXIT_USAGE
     store = Store(args.store)
     try:
         name = args.run_name or store.new_name()
         store.check_new_name(name)
     except StoreError as exc:
-        err.print(f"error: {exc}", markup=False, highlight=False)
+        _error(f"error: {exc}")
         return EXIT_USAGE
     try:
         settings = load_settings(args.config)
@@ -74,8 +78,8 @@ def main(argv: list[str] | None = None) -> int:
         if cases is not None:
             csv_tables.check_cases_cover_forces(cases, forces, args.cases)
     except InputError as exc:
-        err.print(f"error: {exc}", markup=False, highlight=False)
-        err.print("nothing was written", markup=False, highlight=False)
+        _error(f"error: {exc}")
+        _error("nothing was written")
         return EXIT_INPUT
 
     inputs = {"members": args.members, "forces": args.forces}
@@ -88,7 +92,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         run = store.ingest(name, members, forces, cases, inputs, warnings, {"settings": settings.as_dict()})
     except StoreError as exc:
-        err.print(f"error: {exc}", markup=False, highlight=False)
+        _error(f"error: {exc}")
         return EXIT_USAGE
     result = engine.design_run(run, settings)
     result.warnings[:0] = warnings

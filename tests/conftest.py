@@ -1,0 +1,85 @@
+"""Shared helpers: write input CSVs, run the CLI, read a designed run back."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+
+from postproc import cli
+from postproc.store import Store
+
+BEAM = dict(kind="beam", b_mm=300.0, h_mm=600.0, cover_mm=60.0, fc_mpa=30.0, fyt_mpa=420.0,
+            support_i="column", support_j="column", face_i_mm=0.0, face_j_mm=0.0, load_face="top")
+
+
+def beam(member: str, length_m: float, **kw) -> dict:
+    return {"member": member, "length_m": length_m, **BEAM, **kw}
+
+
+def rows_from_function(member: str, case: str, length: float, shear, n: int = 21, jumps=()) -> list[dict]:
+    """Stations along a member from a shear function V(x) (kN); at each jump x, the left
+    and right values (shear(x - 0) and shear(x + 0)) as two rows."""
+    xs = sorted(set(np.linspace(0.0, length, n).round(6)) - set(jumps))
+    out = [dict(member=member, case=case, x_m=x, V_kN=shear(x)) for x in xs]
+    for xj in jumps:
+        out.append(dict(member=member, case=case, x_m=xj, V_kN=shear(xj - 1e-9)))
+        out.append(dict(member=member, case=case, x_m=xj, V_kN=shear(xj + 1e-9)))
+    return sorted(out, key=lambda r: r["x_m"])  # stable: the left row stays first
+
+
+@dataclass
+class Designed:
+    code: int
+    members: pd.DataFrame
+    zones: pd.DataFrame
+    stations: pd.DataFrame | None
+    out: Path
+    store: Path
+
+
+def write_inputs(tmp: Path, members: list[dict], forces: list[dict], cases: list[dict] | None = None) -> dict:
+    tmp.mkdir(parents=True, exist_ok=True)
+    paths = {"members": tmp / "members.csv", "forces": tmp / "forces.csv"}
+    pd.DataFrame(members).to_csv(paths["members"], index=False)
+    pd.DataFrame(forces).to_csv(paths["forces"], index=False)
+    if cases is not None:
+        paths["cases"] = tmp / "cases.csv"
+        pd.DataFrame(cases).to_csv(paths["cases"], index=False)
+    return paths
+
+
+def design(tmp: Path, members: list[dict], forces: list[dict], cases: list[dict] | None = None,
+           extra: list[str] = ()) -> Designed:
+    """Run `shearpost run` on the given rows and read back tables and the station trace."""
+    paths = write_inputs(tmp / "in", members, forces, cases)
+    out, store = tmp / "out", tmp / "store"
+    argv = ["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]),
+            "--store", str(store), "--out", str(out), "--json", *extra]
+    if "cases" in paths:
+        argv += ["--cases", str(paths["cases"])]
+    code = cli.main(argv)
+    runs = Store(store).runs()
+    st = pq.read_table(runs[-1].design_path / "stations.parquet").to_pandas() if runs and runs[-1].has_design() else None
+    zones = pd.read_csv(out / "zones.csv") if (out / "zones.csv").exists() else pd.DataFrame()
+    members_out = pd.read_csv(out / "members.csv", keep_default_na=False, na_values=[""]) if (out / "members.csv").exists() else pd.DataFrame()
+    return Designed(code, members_out, zones, st, out, store)
+
+
+@pytest.fixture
+def run_design(tmp_path):
+    counter = iter(range(1000))
+
+    def _run(members, forces, cases=None, extra=()):
+        return design(tmp_path / f"d{next(counter)}", members, forces, cases, extra)
+
+    return _run
+
+
+def tree_snapshot(root: Path) -> dict:
+    """Every file under root with its size: to show that nothing changed on disk."""
+    return {str(p.relative_to(root)): p.stat().st_size for p in root.rglob("*") if p.is_file()} if root.exists() else {}

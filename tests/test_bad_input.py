@@ -1,0 +1,149 @@
+"""Each bad input gives a clear error naming file, line and column, and writes nothing."""
+
+import json
+
+import pandas as pd
+import pytest
+
+from postproc import cli
+from tests.conftest import beam, rows_from_function, tree_snapshot, write_inputs
+
+GOOD_MEMBERS = [beam("B1", 6.0), beam("B2", 5.0)]
+GOOD_FORCES = rows_from_function("B1", "U", 6.0, lambda x: 100 - 30 * x, n=5) + \
+    rows_from_function("B2", "U", 5.0, lambda x: 80 - 30 * x, n=5)
+
+
+def run_cli(tmp_path, members_csv: str | None = None, forces_csv: str | None = None, cases_csv: str | None = None,
+            capsys=None):
+    paths = write_inputs(tmp_path / "in", GOOD_MEMBERS, GOOD_FORCES)
+    if members_csv is not None:
+        paths["members"].write_text(members_csv)
+    if forces_csv is not None:
+        paths["forces"].write_text(forces_csv)
+    argv = ["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]),
+            "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out")]
+    if cases_csv is not None:
+        (tmp_path / "in" / "cases.csv").write_text(cases_csv)
+        argv += ["--cases", str(tmp_path / "in" / "cases.csv")]
+    before = tree_snapshot(tmp_path / "in")
+    code = cli.main(argv)
+    assert tree_snapshot(tmp_path / "in") == before
+    return code
+
+
+def members_text(edit) -> str:
+    df = pd.DataFrame(GOOD_MEMBERS)
+    out = edit(df)
+    return (df if out is None else out).to_csv(index=False)
+
+
+def forces_text(edit) -> str:
+    df = pd.DataFrame(GOOD_FORCES)
+    df = edit(df) if edit else df
+    return df.to_csv(index=False)
+
+
+def _set(col, row, value):
+    def edit(df):
+        df[col] = df[col].astype(object) if col in df else None
+        df.loc[row, col] = value
+    return edit
+
+
+CASES = [
+    # (which file, text, expected line, expected column, words in the message)
+    ("members", members_text(lambda df: df.drop(columns="b_mm")), 1, "b_mm", "required column is missing"),
+    ("members", members_text(_set("h_mm", 1, "deep")), 3, "h_mm", "not a number"),
+    ("members", members_text(_set("fc_mpa", 0, "nan")), 2, "fc_mpa", "missing or NaN"),
+    ("members", members_text(_set("b_mm", 1, 0)), 3, "b_mm", "greater than zero"),
+    ("members", members_text(_set("length_m", 0, -6)), 2, "length_m", "greater than zero"),
+    ("members", members_text(_set("d_mm", 0, 650)), 2, "d_mm", "less than h_mm"),
+    ("members", members_text(_set("fc_mpa", 1, 15)), 3, "fc_mpa", "19.2.1.1"),
+    ("members", members_text(_set("support_j", 0, "pier")), 2, "support_j", "not one of"),
+    ("members", members_text(lambda df: df.loc.__setitem__((1, "member"), "B1")), 3, "member", "listed twice"),
+    ("forces", forces_text(lambda df: df.assign(x_m=df.x_m.where(df.index != 3, 6.5))), 5, "x_m", "beyond the member length"),
+    ("forces", forces_text(lambda df: df.assign(x_m=df.x_m.where(df.index != 0, -0.1))), 2, "x_m", "x_m < 0"),
+    ("forces", forces_text(lambda df: pd.concat([df, df.iloc[[2]]]).reset_index(drop=True)), 12, "member", "duplicate row"),
+    ("forces", forces_text(lambda df: df.drop(columns="V_kN")), 1, "V_kN", "required column is missing"),
+    ("forces", forces_text(None) + "B1,U,2.5,10,99\n", 12, None, "expected 4 fields"),
+    ("forces", forces_text(lambda df: df.assign(V_kN=df.V_kN.astype(object).where(df.index != 4, "twelve"))), 6, "V_kN", "not a number"),
+    ("forces", forces_text(lambda df: df.assign(V_kN=df.V_kN.where(df.index != 7, float("nan")))), 9, "V_kN", "missing or NaN"),
+    ("forces", "", 1, None, "empty"),
+    ("forces", "member,case,x_m,V_kN\n", 1, None, "no data rows"),
+]
+
+
+@pytest.mark.parametrize("which,text,line,column,words", CASES, ids=[c[4] for c in CASES])
+def test_bad_input_is_named_and_nothing_is_written(tmp_path, capsys, which, text, line, column, words):
+    kw = {f"{which}_csv": text}
+    code = run_cli(tmp_path, **kw)
+    err = capsys.readouterr().err
+    assert code == cli.EXIT_INPUT
+    assert f"{which}.csv" in err and words in err
+    if line is not None:
+        assert f"line {line}" in err
+    if column is not None:
+        assert f"column '{column}'" in err
+    assert not (tmp_path / "store").exists() and not (tmp_path / "out").exists()
+
+
+def test_quoted_comma_is_located_by_line(tmp_path, capsys):
+    text = forces_text(lambda df: df.assign(V_kN=df.V_kN.astype(object).where(df.index != 4, "12,5")))
+    assert run_cli(tmp_path, forces_csv=text) == cli.EXIT_INPUT
+    assert "line 6" in capsys.readouterr().err  # pandas quotes "12,5": a number-like text, not a number
+
+
+def test_not_utf8_names_the_line(tmp_path, capsys):
+    raw = forces_text(None).encode()
+    lines = raw.split(b"\n")
+    lines[3] = lines[3].replace(b"U", b"\xff\xfe")
+    (tmp_path / "bad.csv").write_bytes(b"\n".join(lines))
+    paths = write_inputs(tmp_path / "in", GOOD_MEMBERS, GOOD_FORCES)
+    code = cli.main(["run", "--members", str(paths["members"]), "--forces", str(tmp_path / "bad.csv"),
+                     "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    assert code == cli.EXIT_INPUT and "line 4" in err and "UTF-8" in err
+    assert not (tmp_path / "store").exists()
+
+
+def test_case_without_type_is_an_error(tmp_path, capsys):
+    assert run_cli(tmp_path, cases_csv="case,type\nX,D\n") == cli.EXIT_INPUT
+    err = capsys.readouterr().err
+    assert "cases.csv" in err and "'U'" in err
+
+
+def test_unknown_case_type(tmp_path, capsys):
+    assert run_cli(tmp_path, cases_csv="case,type\nU,Q\n") == cli.EXIT_INPUT
+    err = capsys.readouterr().err
+    assert "cases.csv, line 2, column 'type'" in err
+
+
+def test_fyt_above_420_is_capped_with_a_warning(tmp_path, capsys):
+    text = members_text(_set("fyt_mpa", 0, 520))
+    paths = write_inputs(tmp_path / "in", GOOD_MEMBERS, GOOD_FORCES)
+    paths["members"].write_text(text)
+    code = cli.main(["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]),
+                     "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--json"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 0
+    assert any("B1" in w and "20.2.2.4" in w for w in doc["warnings"])
+
+
+def test_several_problems_are_reported_together(tmp_path, capsys):
+    def edit(df):
+        df.loc[0, "b_mm"] = -1
+        df.loc[1, "fc_mpa"] = 10
+    assert run_cli(tmp_path, members_csv=members_text(edit)) == cli.EXIT_INPUT
+    err = capsys.readouterr().err
+    assert "line 2, column 'b_mm'" in err and "line 3, column 'fc_mpa'" in err
+
+
+def test_existing_run_name_is_refused(tmp_path, capsys):
+    paths = write_inputs(tmp_path / "in", GOOD_MEMBERS, GOOD_FORCES)
+    argv = ["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]),
+            "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--run", "first", "--json"]
+    assert cli.main(argv) == 0
+    snap = tree_snapshot(tmp_path / "store")
+    assert cli.main(argv) == cli.EXIT_USAGE
+    assert "already exists" in capsys.readouterr().err
+    assert tree_snapshot(tmp_path / "store") == snap

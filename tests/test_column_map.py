@@ -1,0 +1,80 @@
+"""A column-mapping file reads an export laid out differently from our schema, as it is."""
+
+import pandas as pd
+import pytest
+
+from adapters.errors import InputError
+from adapters.mapping import load_column_map, unit_factor
+from adapters.csv_tables import KNOWN_COLUMNS
+from postproc import cli
+from tests.conftest import beam, rows_from_function, write_inputs
+
+MAP = """
+[members]
+columns = { member = "Label", length_m = "Span", b_mm = "Width", h_mm = "Depth" }
+units = { length_m = "mm", b_mm = "m", h_mm = "m" }
+
+[forces]
+columns = { member = "Frame", case = "LoadCase", x_m = "Station", V_kN = "Shear", N_kN = "Axial", T_kNm = "Torque" }
+units = { x_m = "mm", V_kN = "N", N_kN = "N", T_kNm = "N*mm" }
+flip = ["V_kN", "N_kN"]
+"""
+
+
+def test_unit_factors():
+    # SI definitions (exact): 1 kip = 4448.2216152605 N, 1 ft = 0.3048 m
+    assert unit_factor("x_m", "mm") == 1e-3
+    assert unit_factor("V_kN", "N") == 1e-3
+    assert unit_factor("V_kN", "kip") == pytest.approx(4.4482216152605)
+    assert unit_factor("T_kNm", "N*mm") == pytest.approx(1e-6)
+    assert unit_factor("T_kNm", "kip*ft") == pytest.approx(4.4482216152605 * 0.3048)
+    assert unit_factor("fc_mpa", "psi") == pytest.approx(0.006894757293168)
+
+
+def test_export_with_other_names_units_and_signs_designs_identically(tmp_path, capsys):
+    L = 7.0
+    members = [beam("G1", L, face_i_mm=200.0, face_j_mm=200.0), beam("G2", 5.0)]
+    ours = (rows_from_function("G1", "C1", L, lambda x: 150 - 40 * x, n=8)
+            + rows_from_function("G2", "C1", 5.0, lambda x: 90 - 36 * x, n=8))
+    for r in ours:
+        r["N_kN"], r["T_kNm"] = 50.0, 2.0  # 50 kN tension and a little torsion
+    ref = write_inputs(tmp_path / "ours", members, ours)
+
+    exp_m = pd.DataFrame(members).rename(columns={"member": "Label", "length_m": "Span", "b_mm": "Width", "h_mm": "Depth"})
+    exp_m["Span"] *= 1000.0
+    exp_m["Width"] /= 1000.0
+    exp_m["Depth"] /= 1000.0
+    exp_f = pd.DataFrame(ours)
+    exp_f = pd.DataFrame({"Frame": exp_f.member, "LoadCase": exp_f.case, "Station": exp_f.x_m * 1000.0,
+                          "Shear": -exp_f.V_kN * 1000.0, "Axial": -exp_f.N_kN * 1000.0,
+                          "Torque": exp_f.T_kNm * 1e6, "Comment": "exported"})
+    (tmp_path / "exp").mkdir()
+    exp_m.to_csv(tmp_path / "exp" / "beams.csv", index=False)
+    exp_f.to_csv(tmp_path / "exp" / "frames.csv", index=False)
+    (tmp_path / "exp" / "map.toml").write_text(MAP)
+
+    def run(members_csv, forces_csv, out, extra=()):
+        code = cli.main(["run", "--members", str(members_csv), "--forces", str(forces_csv), "--store",
+                         str(tmp_path / "store"), "--out", str(out), "--json", *extra])
+        assert code == 0, capsys.readouterr().err
+        return pd.read_csv(out / "members.csv"), pd.read_csv(out / "zones.csv")
+
+    m1, z1 = run(ref["members"], ref["forces"], tmp_path / "o1")
+    m2, z2 = run(tmp_path / "exp" / "beams.csv", tmp_path / "exp" / "frames.csv", tmp_path / "o2",
+                 ["--map", str(tmp_path / "exp" / "map.toml")])
+    pd.testing.assert_frame_equal(m1, m2)
+    pd.testing.assert_frame_equal(z1, z2)
+    assert (m1.status == "designed").all()
+
+
+def test_mapping_errors_name_the_file(tmp_path):
+    bad = tmp_path / "map.toml"
+    bad.write_text('[forces]\nunits = { V_kN = "furlong" }\n')
+    with pytest.raises(InputError, match="map.toml.*furlong"):
+        load_column_map(bad, KNOWN_COLUMNS)
+    bad.write_text('[forces]\ncolumns = { shear = "V2" }\n')
+    with pytest.raises(InputError, match="'shear', which is not a column"):
+        load_column_map(bad, KNOWN_COLUMNS)
+    bad.write_text("[forces\n")
+    with pytest.raises(InputError, match="not a valid TOML"):
+        load_column_map(bad, KNOWN_COLUMNS)

@@ -1,0 +1,85 @@
+"""Property-based checks over random members and loads (hypothesis).
+
+Every designed layout must pass the engine's self-check (phi*Vn >= Vu at every station
+for every combination, s <= s_max, Av >= Av,min where required; a failure raises
+SelfCheckError and fails the test), every input member must appear in members.csv,
+and the zones must be constructible: contiguous, on the spacing module, never below
+the minimum spacing.
+"""
+
+import tempfile
+from pathlib import Path
+
+import numpy as np
+from hypothesis import HealthCheck, given, settings, strategies as st
+
+from tests.conftest import design
+
+SUPPORTS = ["column", "wall", "girder", "hanger"]
+
+
+@st.composite
+def frames(draw):
+    n = draw(st.integers(1, 5))
+    members, forces = [], []
+    for k in range(n):
+        L = draw(st.floats(2.0, 12.0))
+        h = draw(st.sampled_from([300.0, 450.0, 600.0, 750.0, 900.0, 1200.0]))
+        b = draw(st.sampled_from([200.0, 300.0, 400.0, 600.0, 900.0]))
+        free = draw(st.sampled_from(["none", "none", "i", "j"]))
+        si = "free" if free == "i" else draw(st.sampled_from(SUPPORTS))
+        sj = "free" if free == "j" else draw(st.sampled_from(SUPPORTS))
+        fi = 0.0 if si == "free" else draw(st.sampled_from([0.0, 150.0, 300.0]))
+        fj = 0.0 if sj == "free" else draw(st.sampled_from([0.0, 150.0, 300.0]))
+        m = dict(member=f"M{k}", length_m=L, b_mm=b, h_mm=h, cover_mm=draw(st.sampled_from([40.0, 60.0, 75.0])),
+                 fc_mpa=draw(st.floats(20.0, 70.0)), fyt_mpa=draw(st.sampled_from([280.0, 420.0, 520.0])),
+                 support_i=si, support_j=sj, face_i_mm=fi, face_j_mm=fj,
+                 load_face=draw(st.sampled_from(["top", "bottom"])))
+        if draw(st.booleans()):
+            m["as_tension_mm2"] = draw(st.floats(0.003, 0.03)) * b * (h - 60)
+        members.append(m)
+        for case in ("C1", "C2")[: draw(st.integers(1, 2))]:
+            w = draw(st.floats(0.0, 120.0))
+            loads = [(draw(st.floats(0.05, 0.95)) * L, draw(st.sampled_from([-1.0, 1.0])) * draw(st.floats(5.0, 300.0)))
+                     for _ in range(draw(st.integers(0, 2)))]
+            loads = list({round(a, 6): (a, P) for a, P in loads}.values())  # one load per point
+            N = draw(st.floats(-400.0, 400.0))
+            T = draw(st.sampled_from([0.0, 0.0, draw(st.floats(0.0, 60.0))]))
+            xs = np.linspace(0.0, L, 11)
+            if free == "j":  # cantilever fixed at i
+                V = lambda x: w * (L - x) + sum(P for a, P in loads if a > x)
+            elif free == "i":
+                V = lambda x: -w * x - sum(P for a, P in loads if a < x)
+            else:
+                V = lambda x: w * (L / 2 - x) + sum(P * (L - a) / L - (P if x > a else 0.0) for a, P in loads)
+            pts = sorted(set(np.round(xs, 6)) - {round(a, 6) for a, _ in loads})
+            rows = [(x, V(x)) for x in pts]
+            for a, _ in loads:
+                rows += [(round(a, 6), V(a - 1e-9)), (round(a, 6), V(a + 1e-9))]
+            for x, v in sorted(rows, key=lambda r: r[0]):
+                forces.append(dict(member=f"M{k}", case=case, x_m=x, V_kN=v, N_kN=N, T_kNm=T))
+    return members, forces
+
+
+@given(frame=frames(), throughout=st.booleans(), half=st.booleans())
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+def test_random_frames_pass_self_check_and_keep_every_member(frame, throughout, half):
+    members, forces = frame
+    with tempfile.TemporaryDirectory() as tmp:
+        cfg = Path(tmp) / "cfg.toml"
+        cfg.write_text(f"[detailing]\nstirrups_throughout = {str(throughout).lower()}\n"
+                       f"first_stirrup = \"{'half' if half else 'fixed'}\"\n")
+        res = design(Path(tmp), members, forces, extra=["--config", str(cfg)])
+    assert res.code in (0, 3)
+    assert sorted(res.members.member) == sorted(m["member"] for m in members)
+    lengths = {m["member"]: m["length_m"] * 1000 - m["face_i_mm"] - m["face_j_mm"] for m in members}
+    for name, z in res.zones.groupby("member"):
+        z = z.sort_values("zone")
+        assert z.start_mm.iloc[0] == 0.0 and abs(z.end_mm.iloc[-1] - lengths[name]) < 0.2
+        np.testing.assert_allclose(z.start_mm.iloc[1:].to_numpy(), z.end_mm.iloc[:-1].to_numpy(), atol=0.2)
+        sp = z.spacing_mm.dropna()
+        assert (sp >= 75).all() and np.allclose(sp % 25, 0)
+        row = res.members.set_index("member").loc[name]
+        assert row.stirrups_total == z["count"].sum()
+    designed = res.members[res.members.status == "designed"]
+    assert (designed.utilization <= 1.0 + 1e-9).all()
