@@ -1,0 +1,63 @@
+"""The store: manifest with input hashes, Parquet tables, immutable runs, atomic writes."""
+
+import hashlib
+import json
+
+import pyarrow.parquet as pq
+import pytest
+
+from postproc.store import Store, StoreError
+from tests.conftest import beam, rows_from_function, tree_snapshot
+
+
+def test_run_holds_manifest_with_sha256_and_tables(run_design, tmp_path):
+    res = run_design([beam("B", 6.0)], rows_from_function("B", "U", 6.0, lambda x: 90 - 30 * x, n=5))
+    (run,) = Store(res.store).runs()
+    man = run.manifest()
+    for role in ("members", "forces"):
+        path = man["inputs"][role]["path"]
+        # sha256 by the standard library, independently of the store's own hashing
+        assert man["inputs"][role]["sha256"] == hashlib.sha256(open(path, "rb").read()).hexdigest()
+    assert man["code_edition"] == "ACI 318-19" and man["tool"] == "shearpost"
+    assert pq.read_table(run.path / "forces.parquet").num_rows == 5
+    assert run.has_design()
+    for name in ("members", "zones", "stations", "combinations"):
+        assert (run.design_path / f"{name}.parquet").exists()
+    assert json.loads((run.design_path / "manifest.json").read_text())["code_edition"] == "ACI 318-19"
+    assert not [p for p in res.store.rglob(".tmp-*")]  # no temporary folder left behind
+
+
+def test_runs_are_never_overwritten(run_design):
+    res = run_design([beam("B", 6.0)], rows_from_function("B", "U", 6.0, lambda x: 90 - 30 * x, n=5))
+    store = Store(res.store)
+    (run,) = store.runs()
+    snap = tree_snapshot(res.store)
+    with pytest.raises(StoreError, match="never overwritten"):
+        store.ingest(run.name, run.members(), run.forces(), None, {}, [])
+    with pytest.raises(StoreError, match="already has a design"):
+        store.write_design(run, {}, {})
+    assert tree_snapshot(res.store) == snap
+
+
+def test_new_names_count_up_and_bad_names_are_refused(tmp_path):
+    store = Store(tmp_path)
+    import datetime
+    day = datetime.date(2026, 12, 1)
+    assert store.new_name(day) == "20261201-001"
+    (tmp_path / "20261201-001").mkdir()
+    assert store.new_name(day) == "20261201-002"
+    for bad in ("../escape", "a/b", ".hidden", "", "x" * 101):
+        with pytest.raises(StoreError):
+            store.check_new_name(bad)
+
+
+def test_failed_write_leaves_nothing_visible(tmp_path):
+    store = Store(tmp_path)
+
+    def boom(tmp):
+        (tmp / "half.parquet").write_text("partial")
+        raise RuntimeError("disk full")
+
+    with pytest.raises(RuntimeError):
+        store._atomic(tmp_path / "r1", boom)
+    assert list(tmp_path.iterdir()) == []
