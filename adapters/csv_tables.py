@@ -205,6 +205,12 @@ def _str(t: pa.Table, name: str) -> np.ndarray:
     return np.asarray(t.column(name).fill_null("").to_pylist(), dtype=object)
 
 
+def _blank(t: pa.Table, name: str) -> np.ndarray:
+    """True where a text column is empty (fast, for large tables)."""
+    col = t.column(name).fill_null("")
+    return pac.equal(col, "").to_numpy(zero_copy_only=False)
+
+
 def _check_required_numbers(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
     for c in cols:
         if not c.numeric:
@@ -218,7 +224,7 @@ def _check_required_numbers(t: pa.Table, cols: tuple[Col, ...], probs: Problems)
 def _check_required_strings(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
     for c in cols:
         if c.required and not c.numeric:
-            probs.add(_str(t, c.name) == "", c.name, "missing value")
+            probs.add(_blank(t, c.name), c.name, "missing value")
 
 
 def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, probs: Problems) -> None:
@@ -303,8 +309,7 @@ def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] |
     x = _num(t, "x_m")
     probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
     if lengths_m is not None:
-        member = _str(t, "member")
-        L = np.array([lengths_m.get(m, np.inf) for m in member]) if len(member) < 50_000 else _lookup(member, lengths_m)
+        L = _lookup(t.column("member"), lengths_m)
         beyond = x > L * (1 + 1e-9) + 1e-6
         probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
                                   for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
@@ -315,16 +320,25 @@ def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] |
     return t
 
 
-def _lookup(member: np.ndarray, lengths_m: dict[str, float]) -> np.ndarray:
-    names, inverse = np.unique(member, return_inverse=True)
-    return np.array([lengths_m.get(m, np.inf) for m in names])[inverse]
+def _lookup(member: pa.ChunkedArray, lengths_m: dict[str, float]) -> np.ndarray:
+    """Member length per force row (inf for members without geometry)."""
+    codes, names = _codes(member)
+    per_name = np.array([lengths_m.get(m, np.inf) for m in names])
+    return per_name[codes] if len(per_name) else np.full(len(member), np.inf)
+
+
+def _codes(col: pa.ChunkedArray | pa.Array) -> tuple[np.ndarray, list]:
+    """Integer code per row and the distinct values (pyarrow dictionary encoding)."""
+    arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
+    enc = pac.dictionary_encode(arr)
+    return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
 
 
 def _check_station_rows(t: pa.Table, probs: Problems) -> None:
     """At most two rows per (member, case, x) (a jump); no row repeated exactly."""
     key = pa.table({"member": t.column("member"), "case": t.column("case"), "x": t.column("x_m")})
-    m_idx = pac.dictionary_encode(key.column("member")).combine_chunks().indices.to_numpy()
-    c_idx = pac.dictionary_encode(key.column("case")).combine_chunks().indices.to_numpy()
+    m_idx, _ = _codes(key.column("member"))
+    c_idx, _ = _codes(key.column("case"))
     x = key.column("x").to_numpy()
     order = np.lexsort((x, c_idx, m_idx))
     ms, cs, xs = m_idx[order], c_idx[order], x[order]

@@ -90,33 +90,47 @@ def required(sec: Section, Vu: np.ndarray, Nu: np.ndarray, Tu: np.ndarray) -> De
     rho_c = np.where(np.isfinite(sec.rho_w), sec.rho_w, sec.rho_w_min)
     vc_lo = aci.vc_without_min_stirrups(fc, b, d, Nu, sec.Ag, rho_c, lam)  # Table 22.5.5.1 (c)
     av_min_s = aci.av_min_over_s(fc, b, fyt)
-    tth = aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
-    torsion = Tu >= phi * tth  # 22.7.1.1: below phi*Tth torsion may be neglected
-    exempt = sec.avmin_exempt
-    avmin_req = np.where(exempt, Vu > phi * vc_lo, Vu > aci.av_min_threshold(fc, b, d, lam)) | torsion
+    has_torsion = bool(np.any(Tu > 0))
+    if has_torsion:
+        tth = aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
+        torsion = Tu >= phi * tth  # 22.7.1.1: below phi*Tth torsion may be neglected
+    else:
+        torsion = np.zeros(Vu.shape, bool)
+    threshold = np.where(sec.avmin_exempt, np.inf, aci.av_min_threshold(fc, b, d, lam))
+    avmin_req = (Vu > threshold) | (sec.avmin_exempt & (Vu > phi * vc_lo)) | torsion
 
-    q_hi = np.maximum(aci.av_over_s_for_vs(Vu / phi - vc_hi, fyt, d), av_min_s)
+    vs_hi = Vu / phi - vc_hi
+    q_hi = np.maximum(aci.av_over_s_for_vs(vs_hi, fyt, d), av_min_s)
     q_lo = aci.av_over_s_for_vs(Vu / phi - vc_lo, fyt, d)
     av_s = np.where(avmin_req, q_hi, np.minimum(q_lo, q_hi))
-    at_s = np.where(torsion, aci.at_over_s(Tu, sec.Aoh, fyt), 0.0)
+    at_s = np.where(torsion, aci.at_over_s(Tu, sec.Aoh, fyt), 0.0) if has_torsion else np.zeros(Vu.shape)
 
-    vs = np.maximum(Vu / phi - vc_hi, 0.0) * (av_s > 0)
-    along, across = aci.max_spacing(vs, fc, b, d)
-    along = np.where(torsion, np.minimum(along, aci.torsion_max_spacing(sec.ph)), along)
+    # Table 9.7.6.2.2 depends on the combination only through "Vs > 0.33 sqrt(f'c) bw d"
+    heavy = (vs_hi > 0.33 * aci.sqrt_fc(fc) * b * d).any(axis=0)
+    along, across = aci.max_spacing(np.where(heavy, np.inf, 0.0), fc, b, d)
+    torsion_any = torsion.any(axis=0)
+    along = np.where(torsion_any, np.minimum(along, aci.torsion_max_spacing(sec.ph)), along)
     limit = aci.section_limit(vc_hi, fc, b, d)
-    ratio = np.where(torsion, aci.torsion_section_ok(Vu, Tu, vc_hi, fc, b, d, sec.Aoh, sec.ph), Vu / limit)
+    ratio = Vu / limit
+    if has_torsion:  # 22.7.7.1, evaluated only at the stations where some combination needs it
+        tc = np.flatnonzero(torsion_any)
+        st = sec.take(tc)
+        sub = aci.torsion_section_ok(Vu[:, tc], Tu[:, tc], vc_hi[:, tc], st.fc, st.b, st.d, st.Aoh, st.ph)
+        ratio[:, tc] = np.where(torsion[:, tc], sub, ratio[:, tc])
 
     demand = av_s + 2.0 * at_s
-    gov = np.lexsort((Vu, demand), axis=0)[-1] if demand.shape[0] > 1 else np.zeros(demand.shape[1], np.int64)
     cols = np.arange(demand.shape[1])
+    gov = np.argmax(demand, axis=0)
+    no_steel = demand[gov, cols] <= 0
+    gov = np.where(no_steel, np.argmax(Vu, axis=0), gov)  # nothing needed: the largest Vu governs
     pick = lambda a: np.broadcast_to(a, demand.shape)[gov, cols]
     return Demand(
         governing=gov, vu=Vu[gov, cols], vu_max=Vu.max(axis=0), av_s=av_s[gov, cols], at_s=at_s[gov, cols],
         av_s_env=av_s.max(axis=0), at_s_env=at_s.max(axis=0),
         avmin_required=avmin_req.any(axis=0), av_min_s=np.broadcast_to(av_min_s, cols.shape).copy(),
-        s_max=along.min(axis=0), s_max_across=across.min(axis=0),
+        s_max=along, s_max_across=across,
         phi_vc=phi * pick(vc_hi), phi_vc_plain=phi * pick(vc_lo), phi_vn_limit=pick(limit),
-        section_ratio=ratio.max(axis=0), torsion=torsion.any(axis=0),
+        section_ratio=ratio.max(axis=0), torsion=torsion_any,
     )
 
 
@@ -145,16 +159,14 @@ def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Dema
                   aci.vc_without_min_stirrups(fc, b, d, Nu, sec.Ag, rho_c, lam))
     vs = np.minimum(aci.vs_from_av_over_s(av_s, fyt, d), aci.vs_max(fc, b, d))
     phi_vn = phi * (vc + vs)
-    tth = aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
-    torsion = Tu >= phi * tth
     with np.errstate(divide="ignore", invalid="ignore"):
-        leg_s = np.where(np.isfinite(spacing) & (legs > 0), bar_area / spacing, 0.0)
-        shear_per_leg = aci.av_over_s_for_vs(Vu / phi - vc, fyt, d) / np.maximum(legs, 1)
-        torsion_need = shear_per_leg + aci.at_over_s(Tu, sec.Aoh, fyt)
-        torsion_util = np.where(torsion, torsion_need / np.where(leg_s > 0, leg_s, np.nan), 0.0)
-        util_v = Vu / phi_vn
-    torsion_util = np.where(torsion & (leg_s == 0), np.inf, np.nan_to_num(torsion_util, nan=0.0))
-    util = np.maximum(util_v, torsion_util).max(axis=0)
+        util = np.where(Vu > 0, Vu / phi_vn, 0.0)
+        if np.any(Tu > 0):
+            torsion = Tu >= phi * aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
+            leg_s = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)  # one leg's area per length
+            need = aci.av_over_s_for_vs(Vu / phi - vc, fyt, d) / np.maximum(legs, 1) + aci.at_over_s(Tu, sec.Aoh, fyt)
+            util = np.maximum(util, np.where(torsion, np.where(leg_s > 0, need / leg_s, np.inf), 0.0))
+    util = util.max(axis=0)
     ok = util <= 1.0 + tol
     ok &= np.where(np.isfinite(spacing), spacing <= demand.s_max * (1 + tol), ~demand.avmin_required)
     ok &= ~demand.avmin_required | has_min

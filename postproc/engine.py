@@ -24,7 +24,7 @@ MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_
                   "stirrup_mass_kg"]
 ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
 STATUSES = ("designed", "resize", "deep-beam", "no-forces", "no-geometry", "invalid", "not-covered")
-BATCH_CELLS = 4_000_000  # combinations x stations per batch: bounds memory, not results
+BATCH_CELLS = 500_000  # combinations x stations per batch: bounds memory (and stays in cache), not results
 
 
 class SelfCheckError(AssertionError):
@@ -88,9 +88,10 @@ def design_run(run: Run, settings: Settings) -> Result:
     values = {"V": forces.column("V_kN").to_numpy()[sel] * 1e3, "N": forces.column("N_kN").to_numpy()[sel] * 1e3,
               "T": forces.column("T_kNm").to_numpy()[sel] * 1e6}
     cidx = case_idx[sel].astype(np.int64)
-    order = np.argsort(f_member, kind="stable")
-    f_member, x, cidx = f_member[order], x[order], cidx[order]
-    values = {k: v[order] for k, v in values.items()}
+    if np.any(np.diff(f_member) < 0):  # the store sorts by member; other sources may not
+        order = np.argsort(f_member, kind="stable")
+        f_member, x, cidx = f_member[order], x[order], cidx[order]
+        values = {k: v[order] for k, v in values.items()}
     bounds = np.searchsorted(f_member, np.arange(len(beams) + 1))
 
     zones, st_tables = [], []

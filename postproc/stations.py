@@ -55,8 +55,15 @@ class Samples:
 
     @staticmethod
     def build(member, case, x, values) -> "Samples":
+        if _is_sorted(member, case, x):  # the store keeps forces in this order already
+            return Samples(member, case, x, values)
         order = np.lexsort((x, case, member))  # stable: jump rows keep their file order
         return Samples(member[order], case[order], x[order], {k: v[order] for k, v in values.items()})
+
+
+def _is_sorted(member, case, x) -> bool:
+    dm, dc, dx = np.diff(member), np.diff(case), np.diff(x)
+    return bool(np.all((dm > 0) | ((dm == 0) & ((dc > 0) | ((dc == 0) & (dx >= 0))))))
 
 
 @dataclass(frozen=True)
@@ -123,39 +130,69 @@ def build_grid(g: Geometry, s: Samples, settings: Stations) -> Grid:
     return Grid(member, x, side, offsets)
 
 
+def _weights(gp, seg_p, gq, seg_q, right):
+    """Bracketing input rows (lo, hi) and the weight t of hi for each query; missing where
+    the query's segment has no rows. Jumps: a right-limit query at an input station takes
+    the last row there, a left-limit query the first."""
+    i_r = np.searchsorted(gp, gq, side="right")
+    hi = i_r.copy()
+    if not right.all():
+        left = ~right
+        hi[left] = np.searchsorted(gp, gq[left], side="left")
+    lo = hi - 1
+    npts = len(gp)
+    lo_c, hi_c = np.clip(lo, 0, npts - 1), np.clip(hi, 0, npts - 1)
+    lo_ok = (lo >= 0) & (seg_p[lo_c] == seg_q)
+    hi_ok = (hi < npts) & (seg_p[hi_c] == seg_q)
+    exact_lo = lo_ok & right & (gp[lo_c] == gq)
+    exact_hi = hi_ok & ~right & (gp[hi_c] == gq)
+    dx = gp[hi_c] - gp[lo_c]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = np.where(lo_ok & hi_ok & (dx > 0), (gq - gp[lo_c]) / dx, 0.0)
+    t = np.where(exact_lo, 0.0, np.where(exact_hi, 1.0, t))
+    t = np.where(lo_ok & ~hi_ok, 0.0, np.where(hi_ok & ~lo_ok, 1.0, t))  # hold the end value
+    return lo_c, hi_c, t, ~(lo_ok | hi_ok)
+
+
 def interpolate(s: Samples, n_cases: int, q_member: np.ndarray, q_x: np.ndarray, q_side: np.ndarray,
                 span: float) -> tuple[dict[str, np.ndarray], np.ndarray]:
     """Piecewise-linear value of every case at every query point, keeping jumps.
 
     Returns ({quantity: (n_cases, n_q)}, missing (n_cases, n_q) bool): missing where a
     member has no rows for a case (value 0 there). Beyond the first or last input
-    station of a member the end value is held.
+    station of a member the end value is held. When every case of every member has
+    the same stations (the usual export), the brackets are found once per member and
+    reused for all cases.
     """
+    n_members = int(q_member.max()) + 1 if len(q_member) else 0
     seg_p = s.member.astype(np.int64) * n_cases + s.case
-    gp = seg_p * span + s.x
-    cases = np.arange(n_cases)
-    seg_q = q_member.astype(np.int64)[None, :] * n_cases + cases[:, None]
-    gq = seg_q * span + q_x[None, :]
-    right = np.broadcast_to(q_side.astype(bool)[None, :], gq.shape)
-    i_r = np.searchsorted(gp, gq, side="right")
-    i_l = np.searchsorted(gp, gq, side="left")
-    hi = np.where(right, i_r, i_l)
-    lo = hi - 1
-    npts = len(gp)
-    lo_c, hi_c = np.clip(lo, 0, npts - 1), np.clip(hi, 0, npts - 1)
-    lo_ok = (lo >= 0) & (seg_p[lo_c] == seg_q)
-    hi_ok = (hi < npts) & (seg_p[hi_c] == seg_q)
-    exact_lo = lo_ok & right & (gp[lo_c] == gq)  # right limit: last row at this station
-    exact_hi = hi_ok & ~right & (gp[hi_c] == gq)  # left limit: first row at this station
-    dx = gp[hi_c] - gp[lo_c]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t = np.where(lo_ok & hi_ok & (dx > 0), (gq - gp[lo_c]) / dx, 0.0)
-    t = np.where(exact_lo, 0.0, np.where(exact_hi, 1.0, t))
-    t = np.where(lo_ok & ~hi_ok, 0.0, np.where(hi_ok & ~lo_ok, 1.0, t))
-    missing = ~(lo_ok | hi_ok)
+    counts = np.bincount(seg_p, minlength=n_members * n_cases).reshape(n_members, n_cases)
+    seg_start = np.concatenate([[0], np.cumsum(counts.ravel())])
+    right = q_side.astype(bool)
+    same = bool(len(seg_p)) and bool((counts == counts[:, :1]).all()) and bool((counts > 0).all())
+    if same:
+        template = seg_start[seg_p - s.case] + (np.arange(len(seg_p)) - seg_start[seg_p])
+        same = bool(np.array_equal(s.x, s.x[template]))
+    if same:
+        first = s.case == 0
+        rows0 = np.flatnonzero(first)
+        gp0 = s.member[first].astype(np.int64) * span + s.x[first]
+        lo, hi, t, missing1 = _weights(gp0, s.member[first].astype(np.int64), q_member * span + q_x,
+                                       q_member.astype(np.int64), right)
+        shift = (seg_start[:-1].reshape(n_members, n_cases) - seg_start[:-1].reshape(n_members, n_cases)[:, :1])
+        offs = shift[q_member].T  # (n_cases, n_q)
+        lo2, hi2 = rows0[lo][None, :] + offs, rows0[hi][None, :] + offs
+        t2 = np.broadcast_to(t, lo2.shape)
+        missing = np.broadcast_to(missing1, lo2.shape)
+    else:
+        cases = np.arange(n_cases)
+        gp = seg_p * span + s.x
+        seg_q = q_member.astype(np.int64)[None, :] * n_cases + cases[:, None]
+        gq = seg_q * span + q_x[None, :]
+        lo2, hi2, t2, missing = _weights(gp, seg_p, gq, seg_q, np.broadcast_to(right, gq.shape))
     out = {}
     for key, v in s.values.items():
-        val = v[lo_c] * (1.0 - t) + v[hi_c] * t
+        val = v[lo2] * (1.0 - t2) + v[hi2] * t2
         out[key] = np.where(missing, 0.0, val)
     return out, missing
 

@@ -24,6 +24,7 @@ import uuid
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.parquet as pq
@@ -113,8 +114,11 @@ class Store:
                inputs: dict[str, Path], warnings: list[str], extra: dict | None = None) -> Run:
         """Write a new run atomically and return it."""
         self.check_new_name(name)
-        forces = forces.take(pac.sort_indices(forces, [("member", "ascending"), ("case", "ascending"),
-                                                        ("x_m", "ascending")]))
+        # file order breaks ties, so the two rows of a jump keep their left-then-right order
+        keyed = forces.append_column("_row", pa.array(np.arange(forces.num_rows)))
+        order = pac.sort_indices(keyed, [("member", "ascending"), ("case", "ascending"), ("x_m", "ascending"),
+                                         ("_row", "ascending")])
+        forces = forces.take(order)
         manifest = {
             "run": name,
             "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),

@@ -1,0 +1,74 @@
+"""Deterministic synthetic frames in the documented CSV schema, for benchmarks and scale tests.
+
+Not a building: a seeded mix of spans, sections, supports, cantilevers and point loads
+whose shear diagrams are exact for the loads drawn (uniform load plus point loads per
+case, concurrent axial force and torsion), written as members.csv and forces.csv.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.csv as pcsv
+
+
+def generate(folder: Path, members: int, cases: int, stations: int, seed: int = 1) -> dict[str, Path]:
+    """Write members.csv and forces.csv with ``members`` beams, ``cases`` factored
+    combinations and ``stations`` equally spaced stations per member (plus two rows
+    at each point load). Returns the paths."""
+    rng = np.random.default_rng(seed)
+    folder.mkdir(parents=True, exist_ok=True)
+    n = members
+    kind = rng.random(n)
+    cantilever = kind < 0.05
+    on_girder = (kind >= 0.05) & (kind < 0.25)
+    L = np.where(cantilever, rng.uniform(1.5, 3.0, n), rng.uniform(4.0, 12.0, n)).round(3)
+    h = np.where(cantilever, 500.0, rng.choice([500.0, 600.0, 700.0, 800.0, 900.0], n))
+    h = np.maximum(h, np.ceil(L * 1000 / 12 / 50) * 50)  # span/depth about 12 or less
+    b = rng.choice([300.0, 350.0, 400.0, 450.0, 500.0], n)
+    face = rng.choice([200.0, 250.0, 300.0], n)
+    names = np.char.add("SB", np.arange(n).astype(str))
+    mtab = pa.table({
+        "member": names, "length_m": L, "b_mm": b, "h_mm": h, "cover_mm": np.full(n, 60.0),
+        "fc_mpa": rng.choice([28.0, 35.0, 40.0], n), "fyt_mpa": np.full(n, 420.0),
+        "support_i": np.where(on_girder, "girder", "column"), "support_j": np.where(cantilever, "free", "column"),
+        "face_i_mm": np.where(on_girder, 150.0, face), "face_j_mm": np.where(cantilever, 0.0, face),
+        "as_tension_mm2": np.where(rng.random(n) < 0.5, (rng.uniform(0.005, 0.015, n) * b * (h - 60)).round(0), np.nan),
+        "level": np.char.add("L", (np.arange(n) % 20 + 1).astype(str)),
+    })
+    pcsv.write_csv(mtab, folder / "members.csv")
+
+    # shear of every member x case at the equally spaced stations, with one point load in 30 % of members
+    t = np.linspace(0.0, 1.0, stations)
+    w = rng.uniform(10.0, 90.0, (n, cases)) * np.where(rng.random((n, 1)) < 0.5, 1.0, 0.6)
+    has_p = (rng.random(n) < 0.3) & ~cantilever
+    a = np.where(has_p, rng.choice(np.arange(1, stations - 1), n) / (stations - 1) + 0.5 / (stations - 1), 2.0)
+    P = np.where(has_p[:, None], rng.uniform(50.0, 300.0, (n, cases)), 0.0)
+    x = L[:, None] * t[None, :]  # (n, s)
+    Lx = L[:, None, None]
+    xx = x[:, None, :]
+    V_udl = np.where(cantilever[:, None, None], w[:, :, None] * (Lx - xx), w[:, :, None] * (Lx / 2 - xx))
+    ax = (a * L)[:, None, None]
+    V_pt = P[:, :, None] * ((Lx - ax) / Lx - (xx > ax))
+    V = V_udl + V_pt
+    N = rng.uniform(-150.0, 150.0, (n, cases))
+    T = np.where(rng.random((n, 1)) < 0.1, rng.uniform(0.0, 25.0, (n, cases)), 0.0)
+
+    member = np.repeat(names, cases * stations)
+    case = np.tile(np.repeat(np.char.add("C", np.arange(1, cases + 1).astype(str)), stations), n)
+    cols = {"member": member, "case": case, "x_m": np.repeat(x[:, None, :], cases, axis=1).ravel().round(4),
+            "V_kN": V.ravel().round(3), "N_kN": np.repeat(N, stations).round(3), "T_kNm": np.repeat(T, stations).round(3)}
+    # two rows at each point load: left then right value
+    pm = np.flatnonzero(has_p)
+    jm = np.repeat(pm, cases)
+    jc = np.tile(np.arange(cases), len(pm))
+    xa = (a * L)[jm]
+    left = (w[jm, jc] * (L[jm] / 2 - xa) + P[jm, jc] * (L[jm] - xa) / L[jm])
+    jump = {"member": np.repeat(names[jm], 2), "case": np.repeat(np.char.add("C", (jc + 1).astype(str)), 2),
+            "x_m": np.repeat(xa, 2).round(4), "V_kN": np.column_stack([left, left - P[jm, jc]]).ravel().round(3),
+            "N_kN": np.repeat(N[jm, jc], 2).round(3), "T_kNm": np.repeat(T[jm, jc], 2).round(3)}
+    table = pa.concat_tables([pa.table(cols), pa.table(jump)])
+    pcsv.write_csv(table, folder / "forces.csv")
+    return {"members": folder / "members.csv", "forces": folder / "forces.csv"}
