@@ -248,6 +248,8 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     for end in ("support_i", "support_j"):
         s = _str(t, end)
         _check_choice(s, SUPPORTS, end, probs)
+    both_free = (_str(t, "support_i") == "free") & (_str(t, "support_j") == "free")
+    probs.add(both_free, "support_j", "both ends free: a member needs at least one support")
     load_face = _str(t, "load_face")
     load_face[load_face == ""] = "top"
     _check_choice(load_face, LOAD_FACES, "load_face", probs)

@@ -31,10 +31,6 @@ def prefactored(cases: list[str]) -> ComboSet:
     return ComboSet(list(cases), np.eye(len(cases)), list(cases), True)
 
 
-def _term(factor: float, label: str) -> str:
-    return f"{factor:g}{label}"
-
-
 def aci_5_3_1(case_types: dict[str, str], cases: list[str], settings: Combinations) -> ComboSet:
     """Table 5.3.1 combinations from typed basic cases (5.3.3 reduced live factor optional)."""
     index = {c: k for k, c in enumerate(cases)}
@@ -43,47 +39,48 @@ def aci_5_3_1(case_types: dict[str, str], cases: list[str], settings: Combinatio
         by_type.setdefault(case_types[c], []).append(c)
     n = len(cases)
 
-    def vec(parts: list[tuple[float, str | list[str]]]) -> np.ndarray:
+    def members_of(what: str) -> list[str]:
+        return by_type.get(what, []) if what in ("D", "L", "Lr", "S", "R") else [what]
+
+    out: list[tuple[str, np.ndarray]] = []
+
+    def add(clause: str, parts: list[tuple[float, str]]) -> None:
+        """One combination; its name lists only the terms present, e.g. '5.3.1d 1.2D-1.0Wx+1.0L'."""
         v = np.zeros(n)
+        terms = []
         for f, what in parts:
-            for c in (by_type.get(what, []) if isinstance(what, str) and what in ("D", "L", "Lr", "S", "R")
-                      else [what] if isinstance(what, str) else what):
+            cs = members_of(what)
+            if not cs:
+                continue
+            for c in cs:
                 v[index[c]] += f
-        return v
+            terms.append(f"{'-' if f < 0 else '+'}{abs(f):.1f}{what}")
+        out.append((f"5.3.1{clause} " + "".join(terms).lstrip("+"), v))
 
     l_factor = 0.5 if settings.reduced_live_factor else 1.0  # 5.3.3
     roofs = [t for t in ("Lr", "S", "R") if t in by_type] or [None]
     laterals = {t: [(s, c) for c in by_type.get(t, []) for s in (1.0, -1.0)] for t in ("W", "E")}
-    out: list[tuple[str, np.ndarray]] = []
+    roof = lambda r, f: [] if r is None else [(f, r)]
 
-    def add(name: str, parts):
-        out.append((name, vec(parts)))
-
-    add("5.3.1a 1.4D", [(1.4, "D")])
+    add("a", [(1.4, "D")])
     for r in roofs:
-        rp = [] if r is None else [(0.5, r)]
-        rn = "" if r is None else f"+0.5{r}"
-        add(f"5.3.1b 1.2D+1.6L{rn}", [(1.2, "D"), (1.6, "L"), *rp])
+        add("b", [(1.2, "D"), (1.6, "L"), *roof(r, 0.5)])
     for r in roofs:
         if r is None:
             continue
-        add(f"5.3.1c 1.2D+1.6{r}+{l_factor:g}L", [(1.2, "D"), (1.6, r), (l_factor, "L")])
+        add("c", [(1.2, "D"), (1.6, r), (l_factor, "L")])
         for s, w in laterals["W"]:
-            add(f"5.3.1c 1.2D+1.6{r}{'+' if s > 0 else '-'}0.5({w})", [(1.2, "D"), (1.6, r), (0.5 * s, w)])
+            add("c", [(1.2, "D"), (1.6, r), (0.5 * s, w)])
     for s, w in laterals["W"]:
-        sign = "+" if s > 0 else "-"
         for r in roofs:
-            rp = [] if r is None else [(0.5, r)]
-            rn = "" if r is None else f"+0.5{r}"
-            add(f"5.3.1d 1.2D{sign}1.0({w})+{l_factor:g}L{rn}", [(1.2, "D"), (s, w), (l_factor, "L"), *rp])
-        add(f"5.3.1f 0.9D{sign}1.0({w})", [(0.9, "D"), (s, w)])
+            add("d", [(1.2, "D"), (s, w), (l_factor, "L"), *roof(r, 0.5)])
+        add("f", [(0.9, "D"), (s, w)])
     for s, e in laterals["E"]:
-        sign = "+" if s > 0 else "-"
-        add(f"5.3.1e 1.2D{sign}1.0({e})+{l_factor:g}L+0.2S", [(1.2, "D"), (s, e), (l_factor, "L"), (0.2, "S")])
-        add(f"5.3.1g 0.9D{sign}1.0({e})", [(0.9, "D"), (s, e)])
+        add("e", [(1.2, "D"), (s, e), (l_factor, "L"), (0.2, "S")])
+        add("g", [(0.9, "D"), (s, e)])
 
     names, rows, seen = [], [], set()
-    for name, v in out:
+    for name, v in sorted(out, key=lambda item: item[0][5]):  # in the order of the table's rows
         key = tuple(np.round(v, 12))
         if not v.any() or key in seen:
             continue

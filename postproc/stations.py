@@ -213,10 +213,11 @@ def end_rules(g: Geometry, grid: Grid, s: Samples, settings: Stations) -> EndRul
     near_j = np.zeros(n, bool)
     deep_i = np.zeros(n, bool)
     deep_j = np.zeros(n, bool)
-    np.logical_or.at(near_i, jm, (jx >= a[jm]) & (jx <= a[jm] + g.d[jm]))
-    np.logical_or.at(near_j, jm, (jx <= b[jm]) & (jx >= b[jm] - g.d[jm]))
-    np.logical_or.at(deep_i, jm, (jx >= a[jm]) & (jx <= a[jm] + 2 * g.h[jm]))
-    np.logical_or.at(deep_j, jm, (jx <= b[jm]) & (jx >= b[jm] - 2 * g.h[jm]))
+    # a jump at or behind a face is the support's own reaction, not a load on the span
+    np.logical_or.at(near_i, jm, (jx > a[jm]) & (jx <= a[jm] + g.d[jm]))
+    np.logical_or.at(near_j, jm, (jx < b[jm]) & (jx >= b[jm] - g.d[jm]))
+    np.logical_or.at(deep_i, jm, (jx > a[jm]) & (jx <= a[jm] + 2 * g.h[jm]))
+    np.logical_or.at(deep_j, jm, (jx < b[jm]) & (jx >= b[jm] - 2 * g.h[jm]))
     bearing_i = np.isin(g.support_i, BEARING)
     bearing_j = np.isin(g.support_j, BEARING)
     free_i = g.support_i == "free"
