@@ -162,7 +162,9 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
 
     # per-station envelope pieces the layout needs
     stirrups_here = dem.avmin_required | (dem.av_s_env > 0) | (dem.at_s_env > 0) | st.stirrups_throughout
-    deep = aci.is_deep_by_span(g.clear_span, g.h) | rules.point_load_near_bearing
+    cantilever = (g.support_i == "free") | (g.support_j == "free")
+    why_deep = deep_beam_reasons(g.clear_span, g.h, g.d, cantilever, rules.point_load_near_bearing)
+    deep = why_deep != ""
     resize = np.zeros(n, bool)
     np.logical_or.at(resize, grid.member, dem.section_ratio > 1.0)
 
@@ -214,9 +216,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
             phi_vn_limit_kN=round(dem.phi_vn_limit[k] / 1e3, 2), utilization=round(float(util[k]), 3))
         name = bm["member"][m]
         if deep[m]:
-            why = ("clear span <= 4h (ACI 318-19 9.9.1.1(a))" if aci.is_deep_by_span(g.clear_span[m], g.h[m])
-                   else "concentrated load within 2h of a bearing face (ACI 318-19 9.9.1.1(b))")
-            rows.append(_row(name, "deep-beam", f"{why}: design by strut-and-tie (Ch. 23), not sectionally", **common))
+            rows.append(_row(name, "deep-beam", why_deep[m], **common))
         elif resize[m]:
             sl = slice(grid.offsets[m], grid.offsets[m + 1])
             ratio = float(dem.section_ratio[sl].max())
@@ -249,6 +249,25 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         "s_max_mm": dem.s_max, "spacing_mm": np.where(on, spacing, np.nan), "utilization": util,
     })
     return rows, zones, st_df, warnings
+
+
+def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
+    """Why a member is not designed by the sectional method ('' where it is).
+
+    Supported at both ends: clear span <= 4h (9.9.1.1(a)) or a concentrated load within
+    2h of a bearing face (9.9.1.1(b)). A cantilever is not supported on the face opposite
+    its load, so 9.9.1.1 does not apply; one shorter than d has bracket proportions
+    (a_v/d < 1, 16.5.1.1) and is not designed here either.
+    """
+    span_rule = aci.is_deep_by_span(clear_span, h) & ~cantilever
+    load_rule = point_near_bearing & ~cantilever & ~span_rule
+    bracket = cantilever & (clear_span < d)
+    out = np.full(len(clear_span), "", dtype=object)
+    out[span_rule] = "clear span <= 4h (ACI 318-19 9.9.1.1(a)): design by strut-and-tie (Ch. 23), not sectionally"
+    out[load_rule] = ("concentrated load within 2h of a bearing face (ACI 318-19 9.9.1.1(b)): "
+                      "design by strut-and-tie (Ch. 23), not sectionally")
+    out[bracket] = "cantilever shorter than d: bracket or corbel (ACI 318-19 16.5), not designed sectionally"
+    return out
 
 
 def _argmax_per_member(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:

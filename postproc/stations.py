@@ -164,7 +164,7 @@ def interpolate(s: Samples, n_cases: int, q_member: np.ndarray, q_x: np.ndarray,
     the same stations (the usual export), the brackets are found once per member and
     reused for all cases.
     """
-    n_members = int(q_member.max()) + 1 if len(q_member) else 0
+    n_members = int(max(s.member.max(initial=-1), q_member.max(initial=-1))) + 1
     seg_p = s.member.astype(np.int64) * n_cases + s.case
     counts = np.bincount(seg_p, minlength=n_members * n_cases).reshape(n_members, n_cases)
     seg_start = np.concatenate([[0], np.cumsum(counts.ravel())])
