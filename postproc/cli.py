@@ -6,6 +6,7 @@ Exit codes: 0 success, 1 bad input, 2 usage error, 3 some members need resizing.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
@@ -99,10 +100,13 @@ def main(argv: list[str] | None = None) -> int:
     store.write_design(run, engine.design_tables(result), engine.design_manifest(result, settings))
     report.write_tables(result, args.out)
     doc = report.summary(result, run.name, args.out)
-    if args.json:
-        print(report.dump_json(doc))
-    else:
-        report.print_summary(doc, console)
+    try:
+        if args.json:
+            print(report.dump_json(doc))
+        else:
+            report.print_summary(doc, console)
+    except BrokenPipeError:  # the reader of a pipe stopped early (e.g. `| head`): as the Python docs advise
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
     return EXIT_RESIZE if doc["status"]["resize"] else EXIT_OK
 
 

@@ -1,0 +1,400 @@
+"""Build the shearpost demo building in PyNite, analyse it, and write its input tables.
+
+The building is a scenario of our own: five office storeys (3.6 m) over a car park
+at ground level (3.0 m). The car-park floor is a slab on grade, so the framed levels
+are L1..L5 and the roof R. Plan grid 1-5 along X (spans 7.2, 8.4, 8.4, 6.0 m) and
+A-D along Y (6.6, 9.0, 6.6 m), girders on every grid line, one secondary beam per X bay
+at mid-bay of the 9.0 m bay B-C, a 2.4 m balcony cantilever at column A3 on every office
+level. Column B4 stops at L1 to clear the car-park aisle; a transfer girder on line B
+(from 3 to 5) carries it.
+
+Loads: D is the self weight (beams below the slab only) plus slab and finishes, L the
+office live load, Lr the roof live load; slabs act one way across the short side of each
+panel onto its two long-side beams. Wx, Wy (wind) and Ex, Ey (seismic, inverted
+triangle) are nodal loads shared equally by the grid nodes of each level. Column bases
+are fixed. The model's axes are PyNite's: global Y is vertical, so plan Y is the model's Z.
+
+forces.csv holds 21 equal stations per member plus, at every node along a beam where
+another member frames in, a row just left and a row just right of it (one row where the
+two agree after rounding). V and M are in the member's local x-y plane (for beams the
+vertical plane; for columns the global X-vertical plane). Signs: see member_values().
+
+Writes members.csv, forces.csv and cases.csv next to this script.
+Run: python sample_results/build_demo.py
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from Pynite import FEModel3D
+
+OUT = Path(__file__).resolve().parent
+
+X_LINES = {"1": 0.0, "2": 7.2, "3": 15.6, "4": 24.0, "5": 30.0}
+Y_LINES = {"A": 0.0, "B": 6.6, "C": 15.6, "D": 22.2}
+FLOORS = {"P1": 0.0, "L1": 3.0, "L2": 6.6, "L3": 10.2, "L4": 13.8, "L5": 17.4, "R": 21.0}
+LEVELS = tuple(FLOORS)[1:]  # framed levels
+OFFICE = LEVELS[:-1]
+SECONDARY_Y = 11.1  # mid-bay of B-C
+CUT_OFF = "B4"  # column carried by the transfer girder at L1
+TRANSFER = ("L1", "B", "3", "5")  # level, line, from, to
+BALCONY = "A3"  # edge column with a cantilever on each office level, projecting to -Y
+BALCONY_LENGTH = 2.4
+BALCONY_WIDTH = 3.0  # slab width carried by the cantilever, m
+# Posts of a rooftop plant screen standing on roof girders: (girder, x from node i in m, D kN, Lr kN).
+# The first stands 0.45 m from the column face, within d: a deep-beam region (ACI 318-19 9.9.1.1(b)).
+PLANT_POSTS = (("R-GX-B23", 0.70, 120.0, 15.0), ("R-GX-B34", 2.45, 120.0, 15.0))
+
+# Sections b x h (m) per group, cover to the tension-steel centroid (mm), f'c (MPa).
+SECTIONS = {"column": (0.5, 0.5), "girder-x": (0.4, 0.7), "girder-y": (0.4, 0.7),
+            "secondary": (0.3, 0.6), "cantilever": (0.3, 0.5), "transfer": (0.6, 1.1)}
+COVER_MM = {"transfer": 90.0}  # two layers of bars; 60 elsewhere
+FC_MPA = {"beam": 35.0, "column": 40.0}
+FY_MPA = 420.0
+CRACKED = {"beam": 0.35, "column": 0.70}  # ACI 318-19 6.6.3.1.1 stiffness factors
+
+# Loads (kN, m, kPa)
+UNIT_WEIGHT = 24.0
+SLAB = 0.150
+SDL = 1.5  # offices and roof
+LIVE = 2.4  # offices (case L)
+ROOF_LIVE = 1.0  # case Lr
+WIND_PRESSURE = 1.2  # windward plus leeward, on the projected face
+PARAPET = 1.0  # height above the roof that catches wind
+CS = 0.06  # seismic response coefficient: base shear = CS x seismic weight
+CASES = {"D": "D", "L": "L", "Lr": "Lr", "Wx": "W", "Wy": "W", "Ex": "E", "Ey": "E"}
+
+STATIONS = 21
+EPS = 1e-6  # offset each side of a concentrated load, m
+
+
+def grid_points():
+    for y_name, z in Y_LINES.items():
+        for x_name, x in X_LINES.items():
+            yield y_name + x_name, x, z
+
+
+class Building:
+    """The PyNite model plus the members.csv rows and what the loads need."""
+
+    def __init__(self):
+        self.model = FEModel3D()
+        self.rows: dict[str, dict] = {}
+        self.lines: dict[tuple, list] = {}  # (level, axis, coord) -> [(member, start, end, b)]
+        self.weight = dict.fromkeys(LEVELS, 0.0)  # dead load per level, kN (seismic weight)
+        for kind, fc in FC_MPA.items():
+            E = 4700 * math.sqrt(fc) * 1e3  # ACI 318-19 19.2.2.1(b), kPa
+            self.model.add_material(kind, E, E / 2.4, 0.2, UNIT_WEIGHT)
+        for group, (b, h) in SECTIONS.items():
+            f = CRACKED["column" if group == "column" else "beam"]
+            short, long = min(b, h), max(b, h)
+            J = short**3 * long * (1 / 3 - 0.21 * short / long * (1 - short**4 / (12 * long**4)))
+            self.model.add_section(group, b * h, f * h * b**3 / 12, f * b * h**3 / 12, f * J)
+
+    def node(self, level: str, label: str, x: float, z: float) -> str:
+        name = f"{level}-{label}"
+        if name not in self.model.nodes:
+            self.model.add_node(name, x, FLOORS[level], z)
+        return name
+
+    def add(self, name: str, i: str, j: str, group: str, level: str, ends) -> None:
+        """Add a member and its members.csv row; ends = ((support, face_mm), (support, face_mm))."""
+        kind = "column" if group == "column" else "beam"
+        b, h = SECTIONS[group]
+        self.model.add_member(name, i, j, kind, group)
+        (si, fi), (sj, fj) = ends
+        self.rows[name] = {
+            "member": name, "kind": kind, "length_m": round(self.model.members[name].L(), 4),
+            "b_mm": b * 1e3, "h_mm": h * 1e3, "cover_mm": COVER_MM.get(group, 60.0),
+            "fc_mpa": FC_MPA[kind], "fyt_mpa": FY_MPA, "fy_mpa": FY_MPA, "lambda": 1.0,
+            "support_i": si, "support_j": sj, "face_i_mm": fi, "face_j_mm": fj, "load_face": "top",
+            "bf_mm": None, "hf_mm": None, "as_tension_mm2": None, "level": level, "group": group,
+        }
+
+    def column_below(self, level: str, grid: str) -> bool:
+        below = tuple(FLOORS)[tuple(FLOORS).index(level) - 1]
+        return f"{below}-C-{grid}" in self.rows
+
+    def beam_end(self, level: str, axis: str, x: float, z: float, grid: str | None):
+        """Support and node-to-face distance (mm) of a beam end at (x, z): a column below the
+        node, else the girder running across the beam through that node."""
+        if grid and self.column_below(level, grid):
+            return "column", SECTIONS["column"][0] * 500
+        across, coord, pos = ("y", x, z) if axis == "x" else ("x", z, x)
+        for _, start, end, b in self.lines.get((level, across, coord), []):
+            if start < pos < end:
+                return "girder", b * 500
+        raise ValueError(f"beam end at {level} ({x}, {z}) has no support")
+
+    def beam(self, name: str, level: str, group: str, axis: str, coord: float, end_i, end_j) -> None:
+        """A beam along `axis` ('x' or 'y') on the line at `coord`, from end_i to end_j, each
+        (node label, position along the axis, grid point or None)."""
+        xz = (lambda p: (p, coord)) if axis == "x" else (lambda p: (coord, p))
+        nodes, supports = [], []
+        for label, pos, grid in (end_i, end_j):
+            nodes.append(self.node(level, label, *xz(pos)))
+            supports.append(self.beam_end(level, axis, *xz(pos), grid))
+        self.add(name, *nodes, group, level, supports)
+        self.lines.setdefault((level, axis, coord), []).append((name, end_i[1], end_j[1], SECTIONS[group][0]))
+
+
+def build_frame(bld: Building) -> None:
+    floors = tuple(FLOORS)
+    for lo, hi in zip(floors, floors[1:]):
+        for grid, x, z in grid_points():
+            if lo == "P1" and grid == CUT_OFF:
+                continue
+            bld.add(f"{lo}-C-{grid}", bld.node(lo, grid, x, z), bld.node(hi, grid, x, z), "column", lo,
+                    (("column", 0.0), ("column", 0.0)))
+            if lo == "P1":
+                bld.model.def_support(f"P1-{grid}", True, True, True, True, True, True)  # fixed base
+    xs, ys = list(X_LINES.items()), list(Y_LINES.items())
+    t_level, t_line, t_from, t_to = TRANSFER
+    for level in LEVELS:
+        for y_name, z in ys:  # X girders first: beams along Y may frame into them
+            spans = list(zip(xs, xs[1:]))
+            if level == t_level and y_name == t_line:
+                a, b = [k for k, (x_name, _) in enumerate(xs) if x_name in (t_from, t_to)]
+                spans = spans[:a] + [(xs[a], xs[b])] + spans[b:]
+            for (na, xa), (nb, xb) in spans:
+                group, tag = ("transfer", "TG") if (level, y_name, na, nb) == TRANSFER else ("girder-x", "GX")
+                gi, gj = y_name + na, y_name + nb
+                bld.beam(f"{level}-{tag}-{y_name}{na}{nb}", level, group, "x", z, (gi, xa, gi), (gj, xb, gj))
+        for x_name, x in xs:
+            for (na, za), (nb, zb) in zip(ys, ys[1:]):
+                gi, gj = na + x_name, nb + x_name
+                bld.beam(f"{level}-GY-{x_name}{na}{nb}", level, "girder-y", "y", x, (gi, za, gi), (gj, zb, gj))
+        for (na, xa), (nb, xb) in zip(xs, xs[1:]):
+            bld.beam(f"{level}-SB-{na}{nb}", level, "secondary", "x", SECONDARY_Y,
+                     (f"M{na}", xa, None), (f"M{nb}", xb, None))
+        if level in OFFICE:
+            x, z = X_LINES[BALCONY[1]], Y_LINES[BALCONY[0]]
+            bld.add(f"{level}-CB-{BALCONY}", bld.node(level, BALCONY, x, z),
+                    bld.node(level, "T" + BALCONY, x, z - BALCONY_LENGTH), "cantilever", level,
+                    (("column", SECTIONS["column"][0] * 500), ("free", 0.0)))
+    _flanges(bld)
+
+
+def column_faces(bld: Building) -> None:
+    """Column ends: node to the soffit or top of the deepest beam through the node (0 at the
+    footing). Runs after the analysis, which splits every beam at the nodes along it."""
+    depth: dict[str, float] = {}
+    for name, row in bld.rows.items():
+        if row["kind"] == "beam":
+            for sub in bld.model.members[name].sub_members.values():
+                for n in (sub.i_node.name, sub.j_node.name):
+                    depth[n] = max(depth.get(n, 0.0), row["h_mm"] / 2)
+    for name, row in bld.rows.items():
+        if row["kind"] == "column":
+            m = bld.model.members[name]
+            row["face_i_mm"], row["face_j_mm"] = depth.get(m.i_node.name, 0.0), depth.get(m.j_node.name, 0.0)
+
+
+def _flanges(bld: Building) -> None:
+    """Interior girders as T-beams: each overhang min(8 hf, sw/2, ln/8) (ACI 318-19 6.3.2.1)."""
+    hf = SLAB
+    for (level, axis, coord), members in bld.lines.items():
+        edges = X_LINES.values() if axis == "y" else Y_LINES.values()
+        parallel = sorted(c for (lv, ax, c) in bld.lines if lv == level and ax == axis)
+        for name, start, end, b in members:
+            row = bld.rows[name]
+            if row["group"] == "secondary" or coord in (min(edges), max(edges)):
+                continue
+            ln = end - start - (row["face_i_mm"] + row["face_j_mm"]) / 1e3
+            mid = (start + end) / 2
+            k = parallel.index(coord)
+            overhang = 0.0
+            for other in (parallel[k - 1], parallel[k + 1]):
+                b_other = next(bo for _, s, e, bo in bld.lines[(level, axis, other)] if s <= mid <= e)
+                sw = abs(other - coord) - b / 2 - b_other / 2
+                overhang += min(8 * hf, sw / 2, ln / 8)
+            row["bf_mm"], row["hf_mm"] = round((b + overhang) * 1e3), hf * 1e3
+
+
+def apply_loads(bld: Building) -> None:
+    m = bld.model
+    for name, row in bld.rows.items():  # self weight; beams below the slab only
+        b, h = row["b_mm"] / 1e3, row["h_mm"] / 1e3
+        w = UNIT_WEIGHT * b * (h if row["kind"] == "column" else h - SLAB)
+        m.add_member_dist_load(name, "FY", -w, -w, case="D")
+        L = row["length_m"]
+        if row["kind"] == "beam":
+            bld.weight[row["level"]] += w * L
+        else:
+            top = tuple(FLOORS)[tuple(FLOORS).index(row["level"]) + 1]
+            bld.weight[top] += w * L / 2
+            if row["level"] != "P1":
+                bld.weight[row["level"]] += w * L / 2
+    dead = UNIT_WEIGHT * SLAB + SDL
+    xs = sorted(X_LINES.values())
+    ys = sorted([*Y_LINES.values(), SECONDARY_Y])
+    for level in LEVELS:
+        live_case, live = ("Lr", ROOF_LIVE) if level == "R" else ("L", LIVE)
+        for x0, x1 in zip(xs, xs[1:]):
+            for z0, z1 in zip(ys, ys[1:]):
+                if z1 - z0 <= x1 - x0:  # spans along Y onto the X-direction beams at z0 and z1
+                    axis, lines, a0, a1, half = "x", (z0, z1), x0, x1, (z1 - z0) / 2
+                else:  # spans along X onto the Y-direction beams at x0 and x1
+                    axis, lines, a0, a1, half = "y", (x0, x1), z0, z1, (x1 - x0) / 2
+                for coord in lines:
+                    _line_load(bld, level, axis, coord, a0, a1, dead * half, "D")
+                    _line_load(bld, level, axis, coord, a0, a1, live * half, live_case)
+        if level in OFFICE:
+            name = f"{level}-CB-{BALCONY}"
+            m.add_member_dist_load(name, "FY", -dead * BALCONY_WIDTH, -dead * BALCONY_WIDTH, case="D")
+            m.add_member_dist_load(name, "FY", -LIVE * BALCONY_WIDTH, -LIVE * BALCONY_WIDTH, case="L")
+            bld.weight[level] += dead * BALCONY_WIDTH * BALCONY_LENGTH
+    for name, x, dead_kN, roof_kN in PLANT_POSTS:
+        m.add_member_pt_load(name, "FY", -dead_kN, x, case="D")
+        m.add_member_pt_load(name, "FY", -roof_kN, x, case="Lr")
+        bld.weight["R"] += dead_kN
+    _lateral(bld)
+
+
+def _line_load(bld: Building, level, axis, coord, a0, a1, w, case) -> None:
+    """Uniform load w over [a0, a1] of the beam line at coord (on the beam that holds it)."""
+    name, start = next((n, s) for n, s, e, _ in bld.lines[(level, axis, coord)]
+                       if s <= a0 + 1e-9 and a1 <= e + 1e-9)
+    bld.model.add_member_dist_load(name, "FY", -w, -w, a0 - start, a1 - start, case)
+    if case == "D":
+        bld.weight[level] += w * (a1 - a0)
+
+
+def _lateral(bld: Building) -> None:
+    """Wind on the projected face by tributary height; seismic as an inverted triangle
+    (F_k proportional to w_k h_k) of CS times the seismic weight. Equal shares to the
+    grid nodes of a level."""
+    floors = tuple(FLOORS)
+    width_x = max(X_LINES.values()) - min(X_LINES.values())
+    width_y = max(Y_LINES.values()) - min(Y_LINES.values())
+    base_shear = CS * sum(bld.weight.values())
+    wh = {lv: bld.weight[lv] * FLOORS[lv] for lv in LEVELS}
+    grids = [g for g, _, _ in grid_points()]
+    for level in LEVELS:
+        k = floors.index(level)
+        below = FLOORS[level] - FLOORS[floors[k - 1]]
+        above = PARAPET if level == "R" else (FLOORS[floors[k + 1]] - FLOORS[level]) / 2
+        trib = below / 2 + above  # height of facade that loads this level
+        seismic = base_shear * wh[level] / sum(wh.values())
+        for case, direction, force in (("Wx", "FX", WIND_PRESSURE * width_y * trib),
+                                       ("Wy", "FZ", WIND_PRESSURE * width_x * trib),
+                                       ("Ex", "FX", seismic), ("Ey", "FZ", seismic)):
+            for g in grids:
+                bld.model.add_node_load(f"{level}-{g}", direction, force / len(grids), case)
+
+
+def stations(member, n: int) -> list[tuple[float, float]]:
+    """(x_m, x queried) pairs: n equal stations, and both sides of every intermediate node and
+    point load (left first); an equal station that falls on such a point is dropped."""
+    nodes = np.cumsum([s.L() for s in member.sub_members.values()])[:-1]
+    posts = [p for name, p, _, _ in PLANT_POSTS if name == member.name]
+    inner = sorted({round(float(p), 6) for p in (*nodes, *posts)})
+    at_node = {round(float(p), 4) for p in inner}
+    out = [(float(x), float(x)) for x in np.linspace(0.0, member.L(), n) if round(float(x), 4) not in at_node]
+    out += [pair for p in inner for pair in ((float(p), p - EPS), (float(p), p + EPS))]
+    return sorted(out, key=lambda s: s[0])  # stable: the left side stays first
+
+
+def member_values(member, case: str, xq) -> np.ndarray:
+    """Rows of (V, N, T, M) at the queried x: V = PyNite Fy shear, N = -axial (PyNite takes
+    compression positive), T = torque, M = -Mz (sagging positive, so dM/dx = V)."""
+    return np.array([(member.shear("Fy", x, case), -member.axial(x, case), member.torque(x, case),
+                      -member.moment("Mz", x, case)) for x in xq])
+
+
+def extract(bld: Building) -> tuple[pd.DataFrame, dict[str, dict[str, np.ndarray]]]:
+    """forces.csv rows, and the unrounded values per member and case."""
+    rows, raw = [], {}
+    for name in bld.rows:
+        member = bld.model.members[name]
+        st = stations(member, STATIONS)
+        x = np.round([s[0] for s in st], 4) + 0.0
+        raw[name] = {}
+        for case in CASES:
+            v = member_values(member, case, [s[1] for s in st])
+            raw[name][case] = v
+            r = np.round(v, 3) + 0.0  # + 0.0 turns -0.0 into 0.0
+            # a pair with no jump after rounding would be one row written twice: keep one
+            keep = np.ones(len(x), bool)
+            keep[1:] = ~((x[1:] == x[:-1]) & np.all(r[1:] == r[:-1], axis=1))
+            rows.append(pd.DataFrame({"member": name, "case": case, "x_m": x[keep], "V_kN": r[keep, 0],
+                                      "N_kN": r[keep, 1], "T_kNm": r[keep, 2], "M_kNm": r[keep, 3]}))
+    return pd.concat(rows, ignore_index=True), raw
+
+
+def tension_steel(bld: Building, raw) -> None:
+    """A plausible As for the girders: the largest gravity moment 1.2D + 1.6(L + Lr) (a level
+    carries L or Lr, not both) over phi fy 0.9 d, not less than ACI 318-19 9.6.1.2, in bars."""
+    for name, row in bld.rows.items():
+        if row["group"] not in ("girder-x", "girder-y", "transfer"):
+            continue
+        mu = np.max(np.abs(1.2 * raw[name]["D"][:, 3] + 1.6 * (raw[name]["L"][:, 3] + raw[name]["Lr"][:, 3])))
+        b, d, fc = row["b_mm"], row["h_mm"] - row["cover_mm"], row["fc_mpa"]
+        need = max(mu * 1e6 / (0.9 * FY_MPA * 0.9 * d), max(0.25 * math.sqrt(fc), 1.4) / FY_MPA * b * d)
+        bar = 804.0 if row["group"] == "transfer" else 491.0  # 32 mm or 25 mm bars
+        row["as_tension_mm2"] = math.ceil(need / bar) * bar
+
+
+def checks(bld: Building, raw) -> list[str]:
+    """Equilibrium checks printed with the summary."""
+    m = bld.model
+    out = []
+    applied = sum(-ld[1] * (ld[4] - ld[3]) for mem in m.members.values() for ld in mem.DistLoads if ld[5] == "D")
+    applied += sum(-ld[1] for mem in m.members.values() for ld in mem.PtLoads if ld[3] == "D")
+    react = sum(n.RxnFY["D"] for n in m.nodes.values())
+    out.append(f"D: applied {applied:.1f} kN, base reactions {react:.1f} kN")
+    for case, comp in (("Wx", "RxnFX"), ("Ex", "RxnFX"), ("Wy", "RxnFZ"), ("Ey", "RxnFZ")):
+        lateral = sum(p for n in m.nodes.values() for d, p, c in n.NodeLoads if c == case)
+        shear = -sum(getattr(n, comp)[case] for n in m.nodes.values())
+        out.append(f"{case}: applied {lateral:.1f} kN, base shear {shear:.1f} kN")
+    sb = "L2-SB-23"
+    w = sum(-ld[1] * (ld[4] - ld[3]) for ld in m.members[sb].DistLoads if ld[5] == "D")
+    v = raw[sb]["D"][:, 0]
+    out.append(f"{sb} D: wL = {w:.1f} kN (wL/2 = {w / 2:.1f}), V(0) = {v[0]:.1f}, V(L) = {v[-1]:.1f}, "
+               f"V(0) - V(L) = {v[0] - v[-1]:.1f} kN")
+    level, line, a, b = TRANSFER
+    tg, col, node = f"{level}-TG-{line}{a}{b}", f"{level}-C-{CUT_OFF}", f"{level}-{CUT_OFF}"
+    x = [s[0] for s in stations(m.members[tg], STATIONS)]
+    k = next(i for i in range(1, len(x)) if x[i] == x[i - 1])
+    jump = raw[tg]["D"][k, 0] - raw[tg]["D"][k - 1, 0]
+    n_col = raw[col]["D"][0, 1]
+    # each beam ending at the node pushes it up by V(L) at its end j, down by V(0) at its end i
+    framing = sum(raw[n]["D"][-1, 0] if m.members[n].j_node.name == node else -raw[n]["D"][0, 0]
+                  for n, r in bld.rows.items() if r["kind"] == "beam" and n != tg
+                  and node in (m.members[n].i_node.name, m.members[n].j_node.name))
+    out.append(f"{tg} D: jump at x = {x[k]:.2f} m is {jump:.1f} kN; column {col} N = {n_col:.1f} kN, with the "
+               f"beams framing in: {n_col + framing:.1f} kN")
+    cb = f"L2-CB-{BALCONY}"
+    w = sum(-ld[1] * (ld[4] - ld[3]) for ld in m.members[cb].DistLoads if ld[5] == "D")
+    out.append(f"{cb} D: wL = {w:.1f} kN, V(0) = {raw[cb]['D'][0, 0]:.1f}, M(0) = {raw[cb]['D'][0, 3]:.1f} kNm "
+               f"(-wL^2/2 = {-w * BALCONY_LENGTH / 2:.1f}), V(L) = {raw[cb]['D'][-1, 0]:.1f}")
+    return out
+
+
+def main() -> None:
+    bld = Building()
+    build_frame(bld)
+    apply_loads(bld)
+    for case in CASES:
+        bld.model.add_load_combo(case, {case: 1.0})
+    bld.model.analyze_linear(check_statics=False)
+    column_faces(bld)
+    forces, raw = extract(bld)
+    tension_steel(bld, raw)
+    members = pd.DataFrame(list(bld.rows.values()))
+    members.to_csv(OUT / "members.csv", index=False)
+    forces.to_csv(OUT / "forces.csv", index=False)
+    pd.DataFrame({"case": list(CASES), "type": list(CASES.values())}).to_csv(OUT / "cases.csv", index=False)
+    counts = members["group"].value_counts().to_dict()
+    print(f"members: {len(members)} ({', '.join(f'{g} {n}' for g, n in counts.items())})")
+    print(f"forces: {len(forces)} rows, {forces['case'].nunique()} cases; cases.csv: {len(CASES)} rows")
+    for line in checks(bld, raw):
+        print("check  " + line)
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,53 @@
+"""The demo building: every member accounted for, and one member checked by hand."""
+
+import math
+
+import pandas as pd
+import pytest
+
+from postproc import cli
+
+SAMPLE = cli.SAMPLE
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("demo")
+    code = cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"])
+    return code, pd.read_csv(tmp / "out" / "members.csv").set_index("member"), pd.read_csv(tmp / "out" / "zones.csv")
+
+
+def test_every_member_appears_with_a_status(demo):
+    code, out, _ = demo
+    given = pd.read_csv(SAMPLE / "members.csv")
+    assert code == 0
+    assert sorted(out.index) == sorted(given.member)
+    kinds = given.set_index("member").kind
+    assert (out.status[kinds == "column"] == "not-covered").all()
+    assert (out.status[kinds == "beam"].isin(["designed", "deep-beam"])).all()
+    assert out.status["R-GX-B23"] == "deep-beam"  # plant post 0.45 m from the column face: 9.9.1.1(b)
+    assert out.status["L1-TG-B35"] == "designed"
+
+
+def test_secondary_beam_by_hand(demo):
+    _, out, zones = demo
+    f = pd.read_csv(SAMPLE / "forces.csv")
+    f = f[f.member == "L2-SB-23"]
+    # hand calculation, ACI 318-19, from the two end values of each case (uniform load: linear V)
+    L, face, b, d, fc = 8.4, 0.2, 300.0, 540.0, 35.0
+    end = lambda case, x: f[(f.case == case) & (f.x_m == x)].V_kN.iloc[0]
+    w = {c: (end(c, 0.0) - end(c, L)) / L for c in ("D", "L")}
+    v_face = {c: end(c, L) + w[c] * face for c in ("D", "L")}  # at the face of end j
+    vu = abs(1.2 * v_face["D"] + 1.6 * v_face["L"])  # Table 5.3.1(b); girder ends: face governs (9.4.3.2(a))
+    row = out.loc["L2-SB-23"]
+    assert (row.crit_i, row.crit_j) == ("face", "face")
+    assert row.vu_design_j_kN == pytest.approx(vu, abs=0.5)
+    vc = 0.17 * math.sqrt(fc) * b * d / 1e3  # Table 22.5.5.1(a), axial force negligible here
+    assert row.phi_vc_kN == pytest.approx(0.75 * vc, abs=0.5)
+    av_s = (vu / 0.75 - vc) * 1e3 / (420 * d)  # 22.5.8.5.3
+    s_strength = 2 * 71 / av_s  # #10, two legs
+    s_max = min(d / 2, 600)  # Table 9.7.6.2.2, Vs below 0.33 sqrt(f'c) bw d
+    s = math.floor(min(s_strength, s_max) / 25) * 25  # common practice: 25 mm module
+    z = zones[zones.member == "L2-SB-23"]
+    assert len(z) == 1 and z.spacing_mm.iloc[0] == s == 250
+    assert z["count"].iloc[0] == math.ceil((8000 - 2 * 50) / s) + 1  # first stirrup 50 mm from each face
