@@ -244,7 +244,10 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         "member": bm["member"].to_numpy(object)[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
         "governing_case": np.asarray(cset.names, object)[gov], "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
         "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[gov, cols], np.nan) / 1e3,
-        "phi_vn_limit_kN": dem.phi_vn_limit / 1e3, "av_s_req": dem.av_s, "at_s_req": dem.at_s,
+        "phi_vn_limit_kN": dem.phi_vn_limit / 1e3,
+        "avmin_threshold_kN": np.where(sec.avmin_exempt, dem.phi_vc_plain,
+                                       aci.av_min_threshold(sec.fc, sec.b, sec.d, sec.lam)) / 1e3,
+        "av_s_req": dem.av_s, "at_s_req": dem.at_s,
         "av_min_s": dem.av_min_s, "avmin_required": dem.avmin_required, "torsion": dem.torsion,
         "s_max_mm": dem.s_max, "spacing_mm": np.where(on, spacing, np.nan), "utilization": util,
     })
