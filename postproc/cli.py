@@ -10,13 +10,16 @@ import os
 import sys
 from pathlib import Path
 
-from rich.console import Console
+import pyarrow.compute as pac
 
-from adapters import csv_tables
+from rich.console import Console
+from rich.table import Table
+
+from adapters import csv_tables, ifc
 from adapters.errors import InputError
 from adapters.mapping import load_column_map
-from postproc import __version__, engine, report
-from postproc.settings import load_settings
+from postproc import __version__, engine, explain, govern, report, schedule
+from postproc.settings import load_settings, settings_from_dict
 from postproc.store import Store, StoreError
 
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
@@ -35,7 +38,10 @@ def _parser() -> argparse.ArgumentParser:
         q.add_argument("--json", action="store_true", help="print the summary as JSON")
 
     r = sub.add_parser("run", help="ingest analysis results, design every member, write the tables")
-    r.add_argument("--members", type=Path, required=True, help="members.csv")
+    r.add_argument("--members", type=Path, required=True, help="members.csv, or an IFC model (.ifc)")
+    r.add_argument("--ifc-key", choices=("auto", "globalid", "name", "tag"), default="auto",
+                   help="IFC attribute that matches the forces table's member ids (default: auto, the one of "
+                        "GlobalId, Name, Tag that matches most)")
     r.add_argument("--forces", type=Path, required=True, help="forces.csv")
     r.add_argument("--cases", type=Path, help="cases.csv (case,type); without it cases are factored combinations")
     r.add_argument("--map", type=Path, help="column-mapping TOML for an analysis program's own export")
@@ -45,7 +51,67 @@ def _parser() -> argparse.ArgumentParser:
     d = sub.add_parser("demo", help="design the demo building in sample_results/")
     d.add_argument("--out", type=Path, default=Path("shearpost-demo"), help="output folder (default ./shearpost-demo)")
     common(d)
+
+    def stored(q: argparse.ArgumentParser, run_arg: bool = True) -> None:
+        q.add_argument("--store", type=Path, default=Path("shearpost-store"), help="store folder (default ./shearpost-store)")
+        if run_arg:
+            q.add_argument("--run", dest="run_name", help="run to use (default: the latest)")
+
+    g = sub.add_parser("govern", help="rank members by utilization, failures first")
+    stored(g)
+    g.add_argument("--level", action="append", default=[], help="only this level (repeatable)")
+    g.add_argument("--group", action="append", default=[], help="only this group (repeatable)")
+    g.add_argument("--status", action="append", default=[], choices=engine.STATUSES, help="only this status (repeatable)")
+    g.add_argument("--top", type=int, help="first N members only")
+    g.add_argument("--format", choices=("table", "csv", "json"), default="table")
+
+    c = sub.add_parser("compare", help="what changed between two runs")
+    c.add_argument("run_a")
+    c.add_argument("run_b")
+    stored(c, run_arg=False)
+    c.add_argument("--threshold", type=float, default=0.02, help="utilization change to report (default 0.02)")
+    c.add_argument("--fail-on-new-resize", action="store_true",
+                   help="exit 3 when a member of RUN_B needs resizing that did not in RUN_A")
+    c.add_argument("--json", action="store_true")
+
+    rs = sub.add_parser("runs", help="list the store's runs")
+    stored(rs, run_arg=False)
+    rs.add_argument("--json", action="store_true")
+
+    sc = sub.add_parser("schedule", help="beam marks and bar schedule (CSV and Parquet)")
+    stored(sc)
+    sc.add_argument("--out", type=Path, required=True, help="folder for the schedule files")
+    sc.add_argument("--envelope-groups", action="store_true",
+                    help="members of one group with the same section and span share the most demanding layout")
+
+    e = sub.add_parser("explain", help="the whole calculation of one member, clause by clause")
+    e.add_argument("member")
+    stored(e)
+    e.add_argument("--json", action="store_true")
     return p
+
+
+def read_ifc(path: Path, key: str, st, forces):
+    """Members from an IFC model, with the settings' defaults for what the model lacks. With
+    key 'auto', the attribute (GlobalId, Name, Tag) that matches most force-table members."""
+    defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm)
+    if key != "auto":
+        return ifc.read_ifc_members(path, key=key, defaults=defaults)
+    wanted = set(pac.unique(forces.column("member")).to_pylist())
+    best, first_error = None, None
+    for k in ("globalid", "name", "tag"):
+        try:
+            table, warnings = ifc.read_ifc_members(path, key=k, defaults=defaults)
+        except InputError as exc:
+            first_error = first_error or exc
+            continue
+        hits = len(wanted & set(table.column("member").to_pylist()))
+        if best is None or hits > best[0]:
+            best = (hits, k, table, warnings)
+    if best is None:
+        raise first_error
+    hits, k, table, warnings = best
+    return table, [f"IFC members matched to the forces table by {k} ({hits} of {len(wanted)} members)", *warnings]
 
 
 def _error(text: str) -> None:
@@ -56,6 +122,12 @@ def _error(text: str) -> None:
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     console = Console(stderr=False)
+    if args.command in REVIEW:
+        try:
+            return REVIEW[args.command](args, Store(args.store), console)
+        except StoreError as exc:
+            _error(f"error: {exc}")
+            return EXIT_USAGE
     if args.command == "demo":
         args.members, args.forces = SAMPLE / "members.csv", SAMPLE / "forces.csv"
         args.cases, args.map = SAMPLE / "cases.csv", None
@@ -72,9 +144,16 @@ def main(argv: list[str] | None = None) -> int:
     try:
         settings = load_settings(args.config)
         cmap = load_column_map(args.map, csv_tables.KNOWN_COLUMNS)
-        members, warnings = csv_tables.read_members(args.members, cmap)
-        lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
-        forces = csv_tables.read_forces(args.forces, cmap, lengths)
+        if args.members.suffix.lower() == ".ifc":
+            forces = csv_tables.read_forces(args.forces, cmap)
+            members, warnings = read_ifc(args.members, args.ifc_key, settings.ifc, forces)
+            lengths = {m: L for m, L in zip(members.column("member").to_pylist(),
+                                            members.column("length_m").to_pylist()) if L is not None}
+            warnings += ifc.length_mismatches(lengths, forces, settings.ifc.length_tolerance_mm)
+        else:
+            members, warnings = csv_tables.read_members(args.members, cmap)
+            lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
+            forces = csv_tables.read_forces(args.forces, cmap, lengths)
         cases = csv_tables.read_cases(args.cases, cmap) if args.cases else None
         if cases is not None:
             csv_tables.check_cases_cover_forces(cases, forces, args.cases)
@@ -108,6 +187,117 @@ def main(argv: list[str] | None = None) -> int:
     except BrokenPipeError:  # the reader of a pipe stopped early (e.g. `| head`): as the Python docs advise
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
     return EXIT_RESIZE if doc["status"]["resize"] else EXIT_OK
+
+
+def _run_of(args, store: Store):
+    return store.run(args.run_name) if args.run_name else store.latest()
+
+
+def _print_frame(df, console: Console, title: str) -> None:
+    """A table with units-aware number formats: kN and kg to 0.1, ratios to 0.001."""
+    t = Table(title=title, title_justify="left")
+    digits = [1 if ("kN" in str(c) or "kg" in str(c)) else 3 for c in df.columns]
+    for col in df.columns:
+        numeric = df[col].dtype.kind in "if"
+        t.add_column(str(col), justify="right" if numeric else "left", no_wrap=str(col) in ("member", "rank", "status"),
+                     overflow="fold")
+    for row in df.itertuples(index=False):
+        t.add_row(*["" if (isinstance(v, float) and v != v) else (f"{v:,.{n}f}" if isinstance(v, float) else str(v))
+                    for v, n in zip(row, digits)])
+    console.print(t)
+
+
+def cmd_govern(args, store: Store, console: Console) -> int:
+    run = _run_of(args, store)
+    df = govern.rank(run, args.level, args.group, args.status, args.top)
+    if args.format == "csv":
+        df.to_csv(sys.stdout, index=False, lineterminator="\n")
+    elif args.format == "json":
+        print(df.to_json(orient="records", indent=2))
+    else:
+        shown = df[["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_i_kN",
+                    "vu_design_j_kN", "stirrups_total"]].rename(columns={
+            "utilization": "util.", "governing_case": "governing combination", "vu_design_i_kN": "Vu,i kN",
+            "vu_design_j_kN": "Vu,j kN", "stirrups_total": "sets"})
+        _print_frame(shown, console, f"Governing members of run {run.name}")
+        console.print(f"[italic]{report.CAUTION}[/italic]")
+    return EXIT_OK
+
+
+def cmd_compare(args, store: Store, console: Console) -> int:
+    diff = govern.compare(store.run(args.run_a), store.run(args.run_b), args.threshold)
+    if args.json:
+        print(report.dump_json(diff.as_dict()))
+    else:
+        console.print(f"[bold]{diff.run_a}[/bold] -> [bold]{diff.run_b}[/bold]")
+        console.print(f"added: {', '.join(diff.added) or 'none'}", markup=False)
+        console.print(f"removed: {', '.join(diff.removed) or 'none'}", markup=False)
+        for df, title in ((diff.status_changes, "Status changes"),
+                          (diff.utilization_changes, f"Utilization changes above {args.threshold:g}"),
+                          (diff.layout_changes, "Stirrup layouts changed (send these to the detailers)")):
+            if len(df):
+                _print_frame(df, console, title)
+            else:
+                console.print(f"{title}: none")
+        console.print(f"Stirrup mass {diff.mass_a_kg:,.1f} kg -> {diff.mass_b_kg:,.1f} kg "
+                      f"({diff.mass_b_kg - diff.mass_a_kg:+,.1f} kg)")
+        if diff.newly_resize:
+            console.print(f"[bold]Newly need resizing:[/bold] {', '.join(diff.newly_resize)}", markup=False)
+    return EXIT_RESIZE if args.fail_on_new_resize and diff.newly_resize else EXIT_OK
+
+
+def cmd_runs(args, store: Store, console: Console) -> int:
+    rows = []
+    for r in store.runs():
+        man = r.manifest()
+        rows.append({"run": r.name, "created": man["created"], "members": man["counts"]["members"],
+                     "force_rows": man["counts"]["force_rows"], "designed": r.has_design(),
+                     "inputs": {k: {"path": v["path"], "sha256": v["sha256"]} for k, v in man["inputs"].items()},
+                     "tool_version": man["tool_version"], "code_edition": man["code_edition"]})
+    if args.json:
+        print(report.dump_json({"store": str(store.root), "runs": rows}))
+        return EXIT_OK
+    t = Table(title=f"Runs in {store.root}", title_justify="left")
+    for col in ("run", "created (UTC)", "members", "force rows", "designed", "inputs"):
+        t.add_column(col, overflow="fold")
+    for r in rows:
+        t.add_row(r["run"], r["created"][:16].replace("T", " "), str(r["members"]), f"{r['force_rows']:,}",
+                  "yes" if r["designed"] else "no", ", ".join(Path(v["path"]).name for v in r["inputs"].values()))
+    console.print(t)
+    return EXIT_OK
+
+
+def cmd_schedule(args, store: Store, console: Console) -> int:
+    run = _run_of(args, store)
+    settings = settings_from_dict(run.manifest().get("settings", {}))
+    sched = schedule.for_run(store, run, settings.detailing, args.envelope_groups)
+    paths = sched.write(args.out)
+    console.print(f"run {run.name}: {len(sched.marks)} marks for {len(sched.members)} designed members, "
+                  f"{int(sched.bars['count'].sum()):,} bars, {sched.bars.mass_kg.sum():,.1f} kg")
+    _print_frame(sched.by_bar, console, "By bar size")
+    console.print(f"written: {', '.join(p.name for p in paths if p.suffix == '.csv')} (and .parquet) in {args.out}")
+    console.print(f"[italic]{report.CAUTION}[/italic]")
+    return EXIT_OK
+
+
+def cmd_explain(args, store: Store, console: Console) -> int:
+    run = _run_of(args, store)
+    steps = explain.explain(run, args.member, settings_from_dict(run.manifest().get("settings", {})))
+    if args.json:
+        print(report.dump_json({"run": run.name, "member": args.member, "steps": [s.__dict__ for s in steps],
+                                "caution": report.CAUTION}))
+        return EXIT_OK
+    console.print(f"[bold]{args.member}[/bold] in run {run.name}", markup=True, highlight=False)
+    for s in steps:
+        console.print(f"[bold]{s.title}[/bold]" + (f"  [dim]ACI 318-19 {s.clause}[/dim]" if s.clause else ""))
+        for line in s.lines:
+            console.print(f"  {line}", markup=False, highlight=False)
+    console.print(f"[italic]{report.CAUTION}[/italic]")
+    return EXIT_OK
+
+
+REVIEW = {"govern": cmd_govern, "compare": cmd_compare, "runs": cmd_runs, "schedule": cmd_schedule,
+          "explain": cmd_explain}
 
 
 if __name__ == "__main__":

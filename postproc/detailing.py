@@ -40,28 +40,75 @@ class Layout:
         return sum(z.count for z in self.zones)
 
 
-def hook_extension(db: float) -> float:
-    """Straight extension of a 90 or 135 degree stirrup hook, #10 to #16: max(6 db, 75 mm) (Table 25.3.2)."""
+def hook_extension(db: float, degrees: int) -> float:
+    """Straight extension of a stirrup hook (Table 25.3.2): 90 degrees, #10 to #16
+    max(6 db, 75 mm) and #19 to #25 12 db; 135 degrees, #10 to #25 max(6 db, 75 mm)."""
+    if degrees == 90 and db > 16.0:
+        return 12.0 * db
     return max(6.0 * db, 75.0)
 
 
-def stirrup_set_length(b: float, h: float, cover: float, db: float, legs: int) -> float:
-    """Cut length (mm) of the bars making one stirrup set of ``legs`` legs, for mass take-off.
+def bend_diameter(db: float) -> float:
+    """Minimum inside bend diameter of stirrups (Table 25.3.3): 4 db to #16, 6 db for #19 to #25."""
+    return 4.0 * db if db <= 16.0 else 6.0 * db
 
-    Closed hoops of two legs each (legs // 2; the outer one around the whole core, the
-    inner ones one leg spacing wide) and a crosstie for an odd leg, measured on the
-    bar centreline, each hoop with two 135-degree hooks (25.3.2, 25.7.1.3(b)). Bend
-    allowances are not deducted (common practice for a weight estimate).
+
+@dataclass(frozen=True)
+class Shape:
+    """One bent bar of a stirrup set. A and B are out-to-out dimensions, mm."""
+
+    name: str  # closed-135, inner-closed-135, open-90, open-135, single-leg-135-90
+    bar: str
+    A: float
+    B: float
+    hook_mm: float
+    bend_diameter_mm: float
+    cut_length_mm: float
+    per_set: int
+
+
+def _cut_length(straights: float, arcs_deg: float, r: float, tails: float) -> float:
+    return straights + np.pi * r * arcs_deg / 180.0 + tails
+
+
+def stirrup_set(b: float, h: float, cover: float, bar: str, legs: int, closed: bool, open_hook: int = 90) -> list[Shape]:
+    """The bars of one stirrup set and their cut lengths, measured on the bar centreline.
+
+    Outside dimensions A = b - 2 cover, B = h - 2 cover; centreline a = A - db, c = B - db;
+    bend radius to the centreline r = D/2 + db/2 with D from Table 25.3.3; tails from
+    Table 25.3.2. A closed stirrup with 135-degree hooks at one corner (25.7.1.6(a) where
+    torsion acts): straights 2a + 2c - 8r, arcs 3 x 90 + 2 x 135 = 540 degrees, two tails.
+    An open (U) stirrup: straights 2c + a - 6r, arcs 2 x 90 plus two hooks, two tails
+    (25.7.1.3). Sets of more than two legs add inner closed stirrups one leg-spacing
+    wide, and a single leg with a 135 and a 90 degree hook for an odd leg.
     """
-    w = b - 2 * cover - db  # centreline width of the outer hoop
-    v = h - 2 * cover - db
-    hoops = legs // 2
-    inner_w = w / max(legs - 1, 1)
-    length = 2 * (w + v) + 2 * hook_extension(db)
-    length += (hoops - 1) * (2 * (inner_w + v) + 2 * hook_extension(db))
+    db, _ = BAR_CATALOGUE[bar]
+    D = bend_diameter(db)
+    r = D / 2 + db / 2
+    A, B = b - 2 * cover, h - 2 * cover
+    a, c = A - db, B - db
+    e135, e90 = hook_extension(db, 135), hook_extension(db, 90)
+    shapes = []
+    if closed:
+        shapes.append(Shape("closed-135", bar, A, B, e135, D, _cut_length(2 * a + 2 * c - 8 * r, 540, r, 2 * e135), 1))
+    else:
+        e = e90 if open_hook == 90 else e135
+        shapes.append(Shape(f"open-{open_hook}", bar, A, B, e, D,
+                            _cut_length(2 * c + a - 6 * r, 180 + 2 * open_hook, r, 2 * e), 1))
+    inner = legs // 2 - 1
+    if inner > 0:
+        ai = a / (legs - 1)  # centreline width spanning one leg spacing
+        shapes.append(Shape("inner-closed-135", bar, ai + db, B, e135, D,
+                            _cut_length(2 * ai + 2 * c - 8 * r, 540, r, 2 * e135), inner))
     if legs % 2:
-        length += v + 2 * hook_extension(db)
-    return length
+        shapes.append(Shape("single-leg-135-90", bar, db, B, e135, D,
+                            _cut_length(c - 2 * r, 225, r, e135 + e90), 1))
+    return shapes
+
+
+def set_mass(shapes: list[Shape]) -> float:
+    """Mass of one stirrup set, kg (steel 7850 kg/m^3)."""
+    return sum(s.cut_length_mm * s.per_set * BAR_CATALOGUE[s.bar][1] for s in shapes) * STEEL_DENSITY
 
 
 def legs_for_width(b: float, cover: float, db: float, s_across: float) -> int:

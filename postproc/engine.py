@@ -66,12 +66,12 @@ def design_run(run: Run, settings: Settings) -> Result:
     for m in sorted(set(force_members) - geo_members):
         rows.append(_row(m, "no-geometry", "forces given but no row in the members table"))
 
-    has_forces = members["member"].isin(set(force_members))
     reason = members["invalid_reason"] if "invalid_reason" in members else pd.Series(None, index=members.index)
     invalid = reason.notna() & (reason != "")
     for m, why in zip(members.loc[invalid, "member"], reason[invalid]):
         rows.append(_row(m, "invalid", why))
     members = members[~invalid]
+    has_forces = members["member"].isin(set(force_members))
     is_column = members["kind"] == "column"
     for m in members.loc[is_column, "member"]:
         rows.append(_row(m, "not-covered", "column shear design is not covered yet"))
@@ -227,9 +227,11 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
             rows.append(_row(name, "resize", messages[m], **common))
         else:
             lay = layouts[m]
-            db, area = BAR_CATALOGUE[lay.bar]
-            one = detailing.stirrup_set_length(float(bm["b_mm"][m]), g.h[m], st.clear_cover_mm, db, lay.legs)
-            mass = lay.count * one * area * detailing.STEEL_DENSITY
+            sl = slice(grid.offsets[m], grid.offsets[m + 1])
+            closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any())  # 25.7.1.6
+            shapes = detailing.stirrup_set(float(bm["b_mm"][m]), g.h[m], st.clear_cover_mm, lay.bar, lay.legs,
+                                           closed, st.open_hook_deg)
+            mass = lay.count * detailing.set_mass(shapes)
             rows.append(_row(name, "designed", lay.message, stirrups_total=lay.count,
                              stirrup_mass_kg=round(mass, 2), **common))
             for z, zone in enumerate(lay.zones, start=1):
@@ -243,13 +245,16 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     st_df = pd.DataFrame({
         "member": bm["member"].to_numpy(object)[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
         "governing_case": np.asarray(cset.names, object)[gov], "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
+        "nu_kN": Nu[gov, cols] / 1e3, "tu_kNm": Tu[gov, cols] / 1e6,
         "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[gov, cols], np.nan) / 1e3,
         "phi_vn_limit_kN": dem.phi_vn_limit / 1e3,
         "avmin_threshold_kN": np.where(sec.avmin_exempt, dem.phi_vc_plain,
                                        aci.av_min_threshold(sec.fc, sec.b, sec.d, sec.lam)) / 1e3,
-        "av_s_req": dem.av_s, "at_s_req": dem.at_s,
+        "av_s_req": dem.av_s, "at_s_req": dem.at_s, "av_s_env": dem.av_s_env, "at_s_env": dem.at_s_env,
         "av_min_s": dem.av_min_s, "avmin_required": dem.avmin_required, "torsion": dem.torsion,
-        "s_max_mm": dem.s_max, "spacing_mm": np.where(on, spacing, np.nan), "utilization": util,
+        "s_max_mm": dem.s_max, "spacing_mm": np.where(on, spacing, np.nan),
+        "av_s_prov": np.where(on & np.isfinite(spacing), legs_st * area_st / spacing, np.where(on, 0.0, np.nan)),
+        "utilization": util,
     })
     return rows, zones, st_df, warnings
 

@@ -18,6 +18,15 @@
     max_zones_per_end = 3
     stirrups_throughout = true      # false: omit stirrups where the code permits
     clear_cover_mm = 40             # to the stirrup, for leg spacing and bar lengths
+    stirrup_shape = "closed"        # "closed" (135-degree hooks) or "open" (U); torsion forces closed
+    open_hook_deg = 90              # hooks of open stirrups: 90 or 135
+
+    [ifc]                           # members read from an IFC model
+    fc_mpa = 35                     # where the model gives no f'c
+    fyt_mpa = 420
+    cover_mm = 60
+    tolerance_mm = 50               # how far a beam end may be from its support
+    length_tolerance_mm = 20        # IFC length against the force table's last station
 """
 
 from __future__ import annotations
@@ -60,6 +69,17 @@ class Detailing:
     max_zones_per_end: int = 3
     stirrups_throughout: bool = True
     clear_cover_mm: float = 40.0
+    stirrup_shape: str = "closed"
+    open_hook_deg: int = 90
+
+
+@dataclass(frozen=True)
+class Ifc:
+    fc_mpa: float = 35.0  # where the model gives no f'c (a warning per member)
+    fyt_mpa: float = 420.0
+    cover_mm: float = 60.0  # face to centroid of the tension steel, where the model gives none
+    tolerance_mm: float = 50.0  # how far a beam end may be from what it frames into
+    length_tolerance_mm: float = 20.0  # IFC length against the force table's last station
 
 
 @dataclass(frozen=True)
@@ -67,6 +87,7 @@ class Settings:
     combinations: Combinations = field(default_factory=Combinations)
     stations: Stations = field(default_factory=Stations)
     detailing: Detailing = field(default_factory=Detailing)
+    ifc: Ifc = field(default_factory=Ifc)
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -110,6 +131,8 @@ def load_settings(path: str | Path | None) -> Settings:
         raise InputError(path, "[detailing].first_stirrup must be \"fixed\" or \"half\"")
     if d.spacing_module_mm <= 0 or d.min_spacing_mm < d.spacing_module_mm:
         raise InputError(path, "[detailing] needs spacing_module_mm > 0 and min_spacing_mm >= spacing_module_mm")
+    if d.stirrup_shape not in ("closed", "open") or d.open_hook_deg not in (90, 135):
+        raise InputError(path, "[detailing] needs stirrup_shape \"closed\" or \"open\" and open_hook_deg 90 or 135")
     if d.max_zones_per_end < 1:
         raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
     return s
@@ -126,3 +149,12 @@ def _ladder(path: Path, value) -> tuple[tuple[str, int], ...]:
     if not out:
         raise InputError(path, "[detailing].ladder must not be empty")
     return tuple(out)
+
+
+def settings_from_dict(doc: dict) -> Settings:
+    """The settings a run was designed with, from its manifest."""
+    d = dict(doc.get("detailing", {}))
+    if "ladder" in d:
+        d["ladder"] = tuple((bar, int(legs)) for bar, legs in d["ladder"])
+    return Settings(combinations=Combinations(**doc.get("combinations", {})), stations=Stations(**doc.get("stations", {})),
+                    detailing=Detailing(**d), ifc=Ifc(**doc.get("ifc", {})))

@@ -94,6 +94,13 @@ class Store:
             raise StoreError(f"no run named '{name}' in {self.root}")
         return r
 
+    def latest(self) -> Run:
+        """The most recently created run."""
+        runs = self.runs()
+        if not runs:
+            raise StoreError(f"no runs in {self.root}; create one with `shearpost run` or `shearpost demo`")
+        return max(runs, key=lambda r: (r.manifest()["created"], r.name))
+
     def new_name(self, today: _dt.date | None = None) -> str:
         stamp = (today or _dt.date.today()).strftime("%Y%m%d")
         taken = {r.name for r in self.runs()}

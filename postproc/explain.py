@@ -1,0 +1,165 @@
+"""The whole calculation of one member as a readable trace, each step with its clause.
+
+Values come from the stored run (inputs, station trace, zones); the concrete and steel
+terms at each zone's governing station are evaluated again with the same code
+functions so that every number shown can be followed by hand.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pyarrow.compute as pac
+
+from postproc import design, detailing, stations
+from postproc.codes import aci318_19 as aci
+from postproc.govern import design_table
+from postproc.settings import BAR_CATALOGUE, Settings, Stations
+from postproc.store import Run, StoreError
+
+
+@dataclass
+class Step:
+    title: str
+    clause: str
+    lines: list[str] = field(default_factory=list)
+
+
+def _fmt(v, unit="", nd=1) -> str:
+    return "-" if v is None or (isinstance(v, float) and np.isnan(v)) else f"{v:,.{nd}f}{(' ' + unit) if unit else ''}"
+
+
+def explain(run: Run, member: str, settings: Settings) -> list[Step]:
+    res = design_table(run, "members").set_index("member")
+    if member not in res.index:
+        raise StoreError(f"member '{member}' is not in run '{run.name}'")
+    r = res.loc[member]
+    steps = [Step("Status", "", [f"{member}: {r.status}" + (f" - {r.message}" if r.message else "")])]
+    inputs = run.members().to_pandas().set_index("member")
+    if member not in inputs.index:
+        return steps
+    m = inputs.loc[member]
+    ln = m.length_m * 1000 - m.face_i_mm - m.face_j_mm
+    fyt = min(m.fyt_mpa, aci.FYT_MAX_MPA)
+    rho = m.as_tension_mm2 / (m.b_mm * m.d_mm) if np.isfinite(m.as_tension_mm2) else np.nan
+    steps.append(Step("Inputs", "", [
+        f"bw = {m.b_mm:g} mm, h = {m.h_mm:g} mm, d = {m.d_mm:g} mm" +
+        (f", flange {m.bf_mm:g} x {m.hf_mm:g} mm" if np.isfinite(m.bf_mm) else ""),
+        f"f'c = {m.fc_mpa:g} MPa, sqrt(f'c) used = {float(aci.sqrt_fc(m.fc_mpa)):.3f} MPa (22.5.3.1), "
+        f"lambda = {m['lambda']:g}",
+        f"fyt = {m.fyt_mpa:g} MPa" + (f", {fyt:g} MPa used for shear (20.2.2.4)" if fyt < m.fyt_mpa else ""),
+        "rho_w = " + (f"{rho:.4f} from As = {m.as_tension_mm2:g} mm^2" if np.isfinite(rho) else
+                      f"not given: Table 22.5.5.1(c) takes {float(aci.rho_w_lower_bound(m.fc_mpa, m.fy_mpa)):.4f}, "
+                      "the As,min of 9.6.1.2"),
+        f"length {m.length_m:g} m, faces {m.face_i_mm:g} / {m.face_j_mm:g} mm, clear span ln = {ln:,.0f} mm",
+        f"supports: i {m.support_i}, j {m.support_j}; loads at the {m.load_face}",
+    ]))
+    if r.status in ("no-forces", "not-covered", "invalid"):
+        return steps
+    cset = design_table(run, "combinations")
+    man = run.manifest()
+    steps.append(Step("Combinations", "5.3.1", [
+        f"{len(cset)} combinations, " + ("cases taken as already factored" if run.cases() is None
+                                          else "built from basic load cases (Table 5.3.1)")]))
+    steps.append(_critical_sections(run, member, m, r, settings.stations))
+    steps.append(Step("Deep beam", "9.9.1.1", [
+        f"ln = {ln:,.0f} mm {'<=' if ln <= 4 * m.h_mm else '>'} 4h = {4 * m.h_mm:,.0f} mm"
+        + ("" if r.status != "deep-beam" else f"; {r.message}")]))
+    st = design_table(run, "stations")
+    st = st[st.member == member].reset_index(drop=True)
+    k = int(np.argmax(st.vu_max_kN.to_numpy() / st.phi_vn_limit_kN.to_numpy()))
+    steps.append(Step("Section limit", "22.5.1.2", [
+        f"largest Vu / phi(Vc + 0.66 sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
+        f"at x = {st.x_mm[k]:,.0f} mm (Vu = {_fmt(st.vu_max_kN[k], 'kN')}, limit {_fmt(st.phi_vn_limit_kN[k], 'kN')})"]))
+    if r.status != "designed":
+        return steps
+    zones = design_table(run, "zones")
+    zones = zones[zones.member == member].sort_values("zone")
+    sec = design.section_from_members(
+        b=np.array([m.b_mm]), h=np.array([m.h_mm]), d=np.array([m.d_mm]), fc=np.array([m.fc_mpa]),
+        fyt=np.array([m.fyt_mpa]), lam=np.array([m["lambda"]]), fy=np.array([m.fy_mpa]),
+        As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]),
+        cover_to_stirrup=settings.detailing.clear_cover_mm, stirrup_db=max(BAR_CATALOGUE[b][0] for b, _ in settings.detailing.ladder))
+    for z in zones.itertuples():
+        steps.append(_zone_step(z, st, sec, m))
+    worst = int(np.nanargmax(st.utilization.to_numpy()))
+    steps.append(Step("Self-check", "9.5.1.1, 9.6.3, 9.7.6.2.2", [
+        f"phi*Vn >= Vu at all {len(st)} stations for all {len(cset)} combinations; s <= s_max; Av >= Av,min where required",
+        f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} mm ({st.governing_case[worst]})"]))
+    steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
+        f"{r.stirrups_total} sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
+        f"code edition {man.get('code_edition')}, shearpost {man.get('tool_version')}"]))
+    return steps
+
+
+def _critical_sections(run: Run, member: str, m, r, settings: Stations) -> Step:
+    f = run.forces().filter(pac.equal(run.forces().column("member"), member))
+    cases = sorted(set(f.column("case").to_pylist()))
+    s = stations.Samples.build(np.zeros(f.num_rows, np.int64),
+                               np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),
+                               f.column("x_m").to_numpy() * 1e3, {"V": f.column("V_kN").to_numpy() * 1e3})
+    jm, jx = stations.jumps(s, settings, 1)
+    lines = []
+    for end, crit, support, face, vu in (("i", r.crit_i, m.support_i, m.face_i_mm, r.vu_design_i_kN),
+                                         ("j", r.crit_j, m.support_j, m.face_j_mm, r.vu_design_j_kN)):
+        if crit == "free":
+            lines.append(f"end {end}: free end, no critical section")
+            continue
+        if end == "i":
+            near = [x for x in jx if m.face_i_mm < x <= m.face_i_mm + m.d_mm]
+        else:
+            far = m.length_m * 1000 - m.face_j_mm
+            near = [x for x in jx if far - m.d_mm <= x < far]
+        why = []
+        if support not in stations.BEARING:
+            why.append(f"(a) a {support} support does not put the end region in compression")
+        if m.load_face != "top":
+            why.append("(b) loads act at the bottom (hung)")
+        if near:
+            why.append(f"(c) concentrated load between the face and d, at x = {near[0] / 1000:.3f} m")
+        rule = "at d from the face" if crit == "d" else "at the face"
+        lines.append(f"end {end}: {rule}; Vu = {_fmt(vu, 'kN')}" +
+                     (f" - {'; '.join(why)}" if why else " - bearing support, top loading, no concentrated load within d"))
+    return Step("Critical sections", "9.4.3.2", lines)
+
+
+def _zone_step(z, st, sec: design.Section, m) -> Step:
+    sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
+    title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} mm"
+    if not z.count:
+        return Step(title, "9.6.3.1", ["no stirrups: Vu <= the Av,min threshold and phi*Vc throughout"])
+    k = sub.utilization.idxmax()
+    row = st.loc[k]
+    vu, nu, tu = row.vu_kN * 1e3, row.nu_kN * 1e3, row.tu_kNm * 1e6
+    b, d, fc = sec.b[0], sec.d[0], sec.fc[0]
+    area = BAR_CATALOGUE[z.bar][1]
+    av_s_prov = z.legs * area / z.spacing_mm
+    has_min = av_s_prov >= float(aci.av_min_over_s(fc, b, sec.fyt[0]))
+    if has_min:
+        vc = float(aci.vc_with_min_stirrups(fc, b, d, nu, sec.Ag[0], sec.lam[0], sec.rho_w[0]))
+        eq = "(a)/(b), Av >= Av,min"
+    else:
+        rho = sec.rho_w[0] if np.isfinite(sec.rho_w[0]) else sec.rho_w_min[0]
+        vc = float(aci.vc_without_min_stirrups(fc, b, d, nu, sec.Ag[0], rho, sec.lam[0]))
+        eq = f"(c), Av < Av,min, lambda_s = {float(aci.size_effect_factor(d)):.3f}"
+    vs_req = max(vu / aci.PHI_SHEAR - vc, 0.0)
+    vs_prov = min(float(aci.vs_from_av_over_s(av_s_prov, sec.fyt[0], d)), float(aci.vs_max(fc, b, d)))
+    heavy = vs_req > 0.33 * float(aci.sqrt_fc(fc)) * b * d
+    lines = [
+        f"governing station x = {row.x_mm:,.0f} mm, combination {row.governing_case}",
+        f"Vu = {_fmt(vu / 1e3, 'kN')}, Nu = {_fmt(nu / 1e3, 'kN')} (compression +), Tu = {_fmt(tu / 1e6, 'kNm', 2)}",
+        f"Vc = {_fmt(vc / 1e3, 'kN')} by Table 22.5.5.1 {eq}; phi*Vc = {_fmt(0.75 * vc / 1e3, 'kN')} (21.2.1)",
+        f"Vs required = Vu/phi - Vc = {_fmt(vs_req / 1e3, 'kN')}; Av/s required = {row.av_s_req:.3f} mm^2/mm "
+        f"(22.5.8.5.3, with Av,min/s = {row.av_min_s:.3f} where required by 9.6.3.1: "
+        f"{'yes' if row.avmin_required else 'no'})",
+        f"provided {z.count} x {z.bar} ({area:g} mm^2) x {z.legs} legs @ {z.spacing_mm:g} mm: Av/s = {av_s_prov:.3f} mm^2/mm,"
+        f" Vs = {_fmt(vs_prov / 1e3, 'kN')}",
+        f"s_max = {row.s_max_mm:g} mm (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} 0.33 sqrt(f'c) bw d"
+        + (", torsion 9.7.6.3.3" if row.torsion else "") + ")",
+        f"phi*Vn = {_fmt(0.75 * (vc + vs_prov) / 1e3, 'kN')} >= Vu; utilization {row.utilization:.3f}",
+    ]
+    if row.torsion:
+        lines.append(f"torsion considered (Tu >= phi*Tth, 22.7.4.1): At/s = {row.at_s_req:.3f} mm^2/mm per leg "
+                     "(22.7.6.1), closed stirrups (25.7.1.6)")
+    return Step(title, "22.5, 9.6.3, 9.7.6.2.2", lines)

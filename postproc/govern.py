@@ -1,0 +1,112 @@
+"""Governing members of a designed run, and the differences between two runs."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pyarrow.parquet as pq
+
+from postproc.store import Run, StoreError
+
+RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "governing_case",
+                "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message"]
+FAILING = ("resize",)
+
+
+def design_table(run: Run, name: str) -> pd.DataFrame:
+    if not run.has_design():
+        raise StoreError(f"run '{run.name}' has no design yet")
+    return pq.read_table(run.design_path / f"{name}.parquet").to_pandas()
+
+
+def results_with_labels(run: Run) -> pd.DataFrame:
+    """Design results joined with the members' level and group labels."""
+    res = design_table(run, "members")
+    labels = run.members().select(["member", "level", "group"]).to_pandas()
+    return res.merge(labels, on="member", how="left").fillna({"level": "", "group": ""})
+
+
+def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) -> pd.DataFrame:
+    """Members ranked for review: failures first, then by utilization (the larger of
+    Vu/phi*Vn provided and Vu over the section limit), highest first; undesigned last."""
+    df = results_with_labels(run)
+    if levels:
+        df = df[df.level.isin(levels)]
+    if groups:
+        df = df[df.group.isin(groups)]
+    if statuses:
+        df = df[df.status.isin(statuses)]
+    df = df.assign(_fail=~df.status.isin(FAILING), _util=-df.utilization.fillna(-np.inf))
+    df = df.sort_values(["_fail", "_util", "member"], kind="stable").drop(columns=["_fail", "_util"])
+    if top:
+        df = df.head(top)
+    df.insert(0, "rank", np.arange(1, len(df) + 1))
+    return df[RANK_COLUMNS].reset_index(drop=True)
+
+
+def layout_text(zones: pd.DataFrame) -> str:
+    """A member's zones as one line, e.g. '17 #10x2 @75 | 12 #10x2 @250 | 17 #10x2 @75'."""
+    parts = []
+    for z in zones.itertuples():
+        parts.append("none" if not z.count else f"{z.count} {z.bar}x{z.legs} @{z.spacing_mm:g}")
+    return " | ".join(parts)
+
+
+@dataclass
+class Comparison:
+    run_a: str
+    run_b: str
+    added: list[str]
+    removed: list[str]
+    status_changes: pd.DataFrame
+    utilization_changes: pd.DataFrame
+    layout_changes: pd.DataFrame
+    mass_a_kg: float
+    mass_b_kg: float
+    newly_resize: list[str]
+
+    def as_dict(self) -> dict:
+        rec = lambda df: [{k: (None if isinstance(v, float) and np.isnan(v) else v) for k, v in r.items()}
+                          for r in df.to_dict("records")]
+        return {"run_a": self.run_a, "run_b": self.run_b, "added": self.added, "removed": self.removed,
+                "status_changes": rec(self.status_changes), "utilization_changes": rec(self.utilization_changes),
+                "layout_changes": rec(self.layout_changes), "stirrup_mass_a_kg": round(self.mass_a_kg, 1),
+                "stirrup_mass_b_kg": round(self.mass_b_kg, 1),
+                "stirrup_mass_change_kg": round(self.mass_b_kg - self.mass_a_kg, 1), "newly_resize": self.newly_resize}
+
+
+def compare(a: Run, b: Run, threshold: float = 0.02) -> Comparison:
+    """What changed from run a to run b, member by member."""
+    ma, mb = design_table(a, "members").set_index("member"), design_table(b, "members").set_index("member")
+    added = sorted(set(mb.index) - set(ma.index))
+    removed = sorted(set(ma.index) - set(mb.index))
+    both = sorted(set(ma.index) & set(mb.index))
+    sa, sb = ma.loc[both, "status"], mb.loc[both, "status"]
+    changed = sa != sb
+    status_changes = pd.DataFrame({"member": np.asarray(both)[changed.to_numpy()], "status_a": sa[changed].to_numpy(),
+                                   "status_b": sb[changed].to_numpy()})
+    ua, ub = ma.loc[both, "utilization"].astype(float), mb.loc[both, "utilization"].astype(float)
+    delta = ub - ua
+    big = (delta.abs() > threshold) | (ua.isna() != ub.isna())
+    util_changes = pd.DataFrame({"member": delta.index[big], "utilization_a": ua[big].to_numpy(),
+                                 "utilization_b": ub[big].to_numpy(), "change": delta[big].round(3).to_numpy()})
+    util_changes = util_changes.reindex(util_changes.change.abs().sort_values(ascending=False).index)
+
+    za, zb = design_table(a, "zones"), design_table(b, "zones")
+    key = ["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+    text_a = {m: layout_text(g) for m, g in za.groupby("member")}
+    text_b = {m: layout_text(g) for m, g in zb.groupby("member")}
+    sig = lambda z: {m: tuple(map(tuple, g[key].fillna(-1).to_numpy().tolist())) for m, g in z.groupby("member")}
+    sig_a, sig_b = sig(za), sig(zb)
+    rows = []
+    for m in both:
+        if sig_a.get(m) != sig_b.get(m):
+            rows.append({"member": m, "before": text_a.get(m, ""), "after": text_b.get(m, ""),
+                         "mass_change_kg": round(float(mb.stirrup_mass_kg[m] - ma.stirrup_mass_kg[m]), 2)})
+    layout_changes = pd.DataFrame(rows, columns=["member", "before", "after", "mass_change_kg"])
+    was_resize = set(ma.index[ma.status == "resize"])
+    newly = sorted(m for m in mb.index[mb.status == "resize"] if m not in was_resize)
+    return Comparison(a.name, b.name, added, removed, status_changes, util_changes.reset_index(drop=True),
+                      layout_changes, float(ma.stirrup_mass_kg.sum()), float(mb.stirrup_mass_kg.sum()), newly)

@@ -1,0 +1,197 @@
+"""Beam marks and the bar schedule a detailer builds from.
+
+Members with the same section, materials and stirrup layout share a mark, so each
+mark is drawn once. With ``envelope`` the members of one group label that share
+section, materials and clear span take the most demanding layout among them that
+satisfies every one of them at every station (checked against each member's stored
+demand); where none does, they keep their own layouts. Mark numbers carry over from
+the latest earlier run of the store for every mark whose signature is unchanged.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from postproc import detailing
+from postproc.govern import design_table, layout_text
+from postproc.settings import BAR_CATALOGUE, Detailing
+from postproc.store import Run, Store
+
+SECTION_KEYS = ["b_mm", "h_mm", "d_mm", "bf_mm", "hf_mm", "fc_mpa", "fyt_mpa"]
+ZONE_KEYS = ["start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+
+
+@dataclass
+class Schedule:
+    marks: pd.DataFrame  # one row per mark
+    members: pd.DataFrame  # member -> mark and the layout it is built with
+    bars: pd.DataFrame  # one row per member x bar shape
+    by_level: pd.DataFrame
+    by_bar: pd.DataFrame
+
+    def write(self, out: Path) -> list[Path]:
+        out.mkdir(parents=True, exist_ok=True)
+        paths = []
+        for name in ("marks", "members", "bars", "by_level", "by_bar"):
+            df = getattr(self, name)
+            for ext in ("csv", "parquet"):
+                p = out / f"schedule_{name}.{ext}"
+                tmp = p.with_name(f".{p.name}.tmp")
+                if ext == "csv":
+                    df.to_csv(tmp, index=False, lineterminator="\n")
+                else:
+                    pq.write_table(pa.Table.from_pandas(df, preserve_index=False), tmp)
+                tmp.replace(p)
+                paths.append(p)
+        return paths
+
+
+def _signature(section: pd.Series, zones: pd.DataFrame) -> str:
+    sec = [None if pd.isna(section[k]) else round(float(section[k]), 1) for k in SECTION_KEYS]
+    lay = [[None if pd.isna(v) else (round(float(v), 1) if isinstance(v, (int, float, np.number)) else v)
+            for v in row] for row in zones[ZONE_KEYS].itertuples(index=False)]
+    return json.dumps([sec, lay])
+
+
+def _satisfies(zones: pd.DataFrame, st: pd.DataFrame) -> bool:
+    """Does a layout meet a member's stored demand at every station? Provided Av/s against
+    the largest required over combinations (Av/s and, per leg, At/s), s_max, Av,min."""
+    starts, ends = zones.start_mm.to_numpy(float), zones.end_mm.to_numpy(float)
+    sp = zones.spacing_mm.to_numpy(float)
+    sp = np.where(np.isnan(sp), np.inf, sp)
+    lay = detailing.Layout(zones.bar.iloc[0], int(zones.legs.max()),
+                           [detailing.Zone(a, b, s, 0) for a, b, s in zip(starts, ends, sp)])
+    x = st.x_mm.to_numpy(float)
+    s = detailing.provided_spacing(lay, x)
+    bar = next((b for b in zones.bar if b), None)
+    area = BAR_CATALOGUE[bar][1] if bar else 0.0
+    legs = lay.legs
+    with np.errstate(divide="ignore"):
+        per_leg = np.where(np.isfinite(s), area / s, 0.0)
+    need = st.av_s_env.to_numpy() / max(legs, 1) + st.at_s_env.to_numpy()
+    ok = per_leg * (1 + 1e-9) >= need
+    ok &= np.where(np.isfinite(s), s <= st.s_max_mm.to_numpy() * (1 + 1e-9), ~st.avmin_required.to_numpy())
+    ok &= ~st.avmin_required.to_numpy() | (legs * per_leg * (1 + 1e-9) >= st.av_min_s.to_numpy())
+    return bool(ok.all())
+
+
+def build(run: Run, settings: Detailing, envelope: bool = False, previous: "Schedule | None" = None) -> Schedule:
+    res = design_table(run, "members").set_index("member")
+    zones = design_table(run, "zones")
+    inputs = run.members().to_pandas().set_index("member")
+    designed = res.index[res.status == "designed"]
+    zones = zones[zones.member.isin(designed)]
+    zmap = {m: g.sort_values("zone").reset_index(drop=True) for m, g in zones.groupby("member")}
+    layout_of = {m: m for m in designed}  # member -> member whose layout it is built with
+
+    if envelope:
+        st = design_table(run, "stations")
+        st_map = {m: g for m, g in st[st.member.isin(designed)].groupby("member")}
+        span = (inputs.length_m * 1000 - inputs.face_i_mm - inputs.face_j_mm).round(0)
+        info = inputs.loc[designed].assign(span=span.loc[designed])
+        for _, grp in info.groupby(["group", *SECTION_KEYS, "span"], dropna=False):
+            names = list(grp.index)
+            if len(names) < 2:
+                continue
+            order = sorted(names, key=lambda m: (-res.stirrups_total[m], m))  # most demanding first
+            for cand in order:
+                if all(_satisfies(zmap[cand], st_map[m]) for m in names):
+                    for m in names:
+                        layout_of[m] = cand
+                    break
+
+    prev = {} if previous is None else dict(zip(previous.marks.signature, previous.marks.mark))
+    sig_of = {m: _signature(inputs.loc[m], zmap[layout_of[m]]) for m in designed}
+    groups: dict[str, list[str]] = {}
+    for m in designed:
+        groups.setdefault(sig_of[m], []).append(m)
+    used = {int(v[1:]) for v in prev.values()}
+    next_no = max(used, default=0) + 1
+    mark_of_sig = {}
+    for sig in sorted(groups, key=lambda s: sorted(groups[s])[0]):
+        if sig in prev:
+            mark_of_sig[sig] = prev[sig]
+        else:
+            mark_of_sig[sig] = f"M{next_no:03d}"
+            next_no += 1
+
+    mark_rows, member_rows, bar_rows = [], [], []
+    for sig, names in groups.items():
+        names = sorted(names)
+        first = names[0]
+        z = zmap[layout_of[first]]
+        sec = inputs.loc[first]
+        mark_rows.append({"mark": mark_of_sig[sig], "members": " ".join(names), "member_count": len(names),
+                          "b_mm": sec.b_mm, "h_mm": sec.h_mm, "fc_mpa": sec.fc_mpa, "fyt_mpa": sec.fyt_mpa,
+                          "layout": layout_text(z), "sets_per_member": int(z["count"].sum()), "signature": sig})
+    marks = pd.DataFrame(mark_rows).sort_values("mark").reset_index(drop=True)
+    stations_torsion = _torsion_members(run) if settings.stirrup_shape == "open" else set()
+    for m in sorted(designed):
+        src = layout_of[m]
+        z = zmap[src]
+        sec = inputs.loc[m]
+        mark = mark_of_sig[sig_of[m]]
+        member_rows.append({"member": m, "mark": mark, "level": sec.level, "group": sec.group,
+                            "layout_from": src, "layout": layout_text(z)})
+        sets = int(z["count"].sum())
+        if not sets:
+            continue
+        bar = next(b for b in z.bar if b)
+        legs = int(z.legs.max())
+        closed = settings.stirrup_shape == "closed" or m in stations_torsion
+        for shape in detailing.stirrup_set(sec.b_mm, sec.h_mm, settings.clear_cover_mm, bar, legs, closed,
+                                           settings.open_hook_deg):
+            count = sets * shape.per_set
+            unit = shape.cut_length_mm * BAR_CATALOGUE[bar][1] * detailing.STEEL_DENSITY
+            bar_rows.append({"member": m, "mark": mark, "level": sec.level, "shape": shape.name, "bar": bar,
+                             "A_mm": round(shape.A, 1), "B_mm": round(shape.B, 1), "hook_mm": round(shape.hook_mm, 1),
+                             "bend_diameter_mm": round(shape.bend_diameter_mm, 1),
+                             "cut_length_mm": round(shape.cut_length_mm, 0), "count": count,
+                             "unit_mass_kg": round(unit, 3), "mass_kg": round(unit * count, 2)})
+    bars = pd.DataFrame(bar_rows, columns=["member", "mark", "level", "shape", "bar", "A_mm", "B_mm", "hook_mm",
+                                           "bend_diameter_mm", "cut_length_mm", "count", "unit_mass_kg", "mass_kg"])
+    per_mark = bars.groupby("mark").mass_kg.sum()
+    marks["mass_kg"] = marks.mark.map(per_mark).fillna(0.0).round(2)
+    agg = {"count": ("count", "sum"), "mass_kg": ("mass_kg", "sum")}
+    by_level = bars.groupby("level", as_index=False).agg(**agg).round(2)
+    by_bar = bars.groupby("bar", as_index=False).agg(**agg).round(2)
+    return Schedule(marks, pd.DataFrame(member_rows), bars, by_level, by_bar)
+
+
+def _torsion_members(run: Run) -> set[str]:
+    st = pq.read_table(run.design_path / "stations.parquet", columns=["member", "torsion"]).to_pandas()
+    return set(st.member[st.torsion])
+
+
+def previous_schedule(store: Store, run: Run, variant: str) -> Schedule | None:
+    """The latest earlier run's stored schedule of the same variant, for stable mark numbers."""
+    created = run.manifest()["created"]
+    earlier = [r for r in store.runs() if r.name != run.name and (r.path / "schedule" / variant).exists()
+               and r.manifest()["created"] <= created]
+    earlier.sort(key=lambda r: (r.manifest()["created"], r.name))
+    return load(earlier[-1], variant) if earlier else None
+
+
+def load(run: Run, variant: str) -> Schedule:
+    folder = run.path / "schedule" / variant
+    read = lambda n: pq.read_table(folder / f"schedule_{n}.parquet").to_pandas()
+    return Schedule(read("marks"), read("members"), read("bars"), read("by_level"), read("by_bar"))
+
+
+def for_run(store: Store, run: Run, settings: Detailing, envelope: bool) -> Schedule:
+    """The run's schedule: built once and kept in the run (runs are immutable), then reused."""
+    variant = "envelope" if envelope else "plain"
+    folder = run.path / "schedule" / variant
+    if folder.exists():
+        return load(run, variant)
+    sched = build(run, settings, envelope, previous_schedule(store, run, variant))
+    (run.path / "schedule").mkdir(exist_ok=True)
+    store._atomic(folder, sched.write, staging=run.path / "schedule")
+    return sched
