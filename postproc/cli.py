@@ -70,6 +70,8 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("run_b")
     stored(c, run_arg=False)
     c.add_argument("--threshold", type=float, default=0.02, help="utilization change to report (default 0.02)")
+    c.add_argument("--vu-threshold", type=float, default=0.05,
+                   help="relative change of the end design shears to report (default 0.05)")
     c.add_argument("--fail-on-new-resize", action="store_true",
                    help="exit 3 when a member of RUN_B needs resizing that did not in RUN_A")
     c.add_argument("--json", action="store_true")
@@ -225,7 +227,7 @@ def cmd_govern(args, store: Store, console: Console) -> int:
 
 
 def cmd_compare(args, store: Store, console: Console) -> int:
-    diff = govern.compare(store.run(args.run_a), store.run(args.run_b), args.threshold)
+    diff = govern.compare(store.run(args.run_a), store.run(args.run_b), args.threshold, args.vu_threshold)
     if args.json:
         print(report.dump_json(diff.as_dict()))
     else:
@@ -233,6 +235,7 @@ def cmd_compare(args, store: Store, console: Console) -> int:
         console.print(f"added: {', '.join(diff.added) or 'none'}", markup=False)
         console.print(f"removed: {', '.join(diff.removed) or 'none'}", markup=False)
         for df, title in ((diff.status_changes, "Status changes"),
+                          (diff.demand_changes, f"Design shear changes above {args.vu_threshold:.0%}"),
                           (diff.utilization_changes, f"Utilization changes above {args.threshold:g}"),
                           (diff.layout_changes, "Stirrup layouts changed (send these to the detailers)")):
             if len(df):

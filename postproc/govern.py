@@ -63,6 +63,7 @@ class Comparison:
     status_changes: pd.DataFrame
     utilization_changes: pd.DataFrame
     layout_changes: pd.DataFrame
+    demand_changes: pd.DataFrame
     mass_a_kg: float
     mass_b_kg: float
     newly_resize: list[str]
@@ -72,13 +73,15 @@ class Comparison:
                           for r in df.to_dict("records")]
         return {"run_a": self.run_a, "run_b": self.run_b, "added": self.added, "removed": self.removed,
                 "status_changes": rec(self.status_changes), "utilization_changes": rec(self.utilization_changes),
-                "layout_changes": rec(self.layout_changes), "stirrup_mass_a_kg": round(self.mass_a_kg, 1),
+                "layout_changes": rec(self.layout_changes), "demand_changes": rec(self.demand_changes),
+                "stirrup_mass_a_kg": round(self.mass_a_kg, 1),
                 "stirrup_mass_b_kg": round(self.mass_b_kg, 1),
                 "stirrup_mass_change_kg": round(self.mass_b_kg - self.mass_a_kg, 1), "newly_resize": self.newly_resize}
 
 
-def compare(a: Run, b: Run, threshold: float = 0.02) -> Comparison:
-    """What changed from run a to run b, member by member."""
+def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05) -> Comparison:
+    """What changed from run a to run b, member by member: utilization by more than
+    ``threshold``, the design shear at either end by more than ``vu_threshold`` (relative)."""
     ma, mb = design_table(a, "members").set_index("member"), design_table(b, "members").set_index("member")
     added = sorted(set(mb.index) - set(ma.index))
     removed = sorted(set(ma.index) - set(mb.index))
@@ -106,7 +109,17 @@ def compare(a: Run, b: Run, threshold: float = 0.02) -> Comparison:
             rows.append({"member": m, "before": text_a.get(m, ""), "after": text_b.get(m, ""),
                          "mass_change_kg": round(float(mb.stirrup_mass_kg[m] - ma.stirrup_mass_kg[m]), 2)})
     layout_changes = pd.DataFrame(rows, columns=["member", "before", "after", "mass_change_kg"])
+    demand = []
+    for m in both:
+        va = ma.loc[m, ["vu_design_i_kN", "vu_design_j_kN"]].astype(float).to_numpy()
+        vb = mb.loc[m, ["vu_design_i_kN", "vu_design_j_kN"]].astype(float).to_numpy()
+        with np.errstate(invalid="ignore", divide="ignore"):
+            rel = np.nanmax(np.abs(vb - va) / np.maximum(np.abs(va), 1e-9)) if np.isfinite(va).any() else np.nan
+        if np.isfinite(rel) and rel > vu_threshold:
+            demand.append({"member": m, "vu_i_a_kN": va[0], "vu_i_b_kN": vb[0], "vu_j_a_kN": va[1],
+                           "vu_j_b_kN": vb[1], "change": round(float(rel), 3)})
+    demand_changes = pd.DataFrame(demand, columns=["member", "vu_i_a_kN", "vu_i_b_kN", "vu_j_a_kN", "vu_j_b_kN", "change"])
     was_resize = set(ma.index[ma.status == "resize"])
     newly = sorted(m for m in mb.index[mb.status == "resize"] if m not in was_resize)
     return Comparison(a.name, b.name, added, removed, status_changes, util_changes.reset_index(drop=True),
-                      layout_changes, float(ma.stirrup_mass_kg.sum()), float(mb.stirrup_mass_kg.sum()), newly)
+                      layout_changes, demand_changes, float(ma.stirrup_mass_kg.sum()), float(mb.stirrup_mass_kg.sum()), newly)
