@@ -58,23 +58,29 @@ KNOWN_COLUMNS = {
 
 
 class Problems:
-    """Collects row problems of one file and raises them together with exact lines."""
+    """Collects row problems of one file and raises them together with exact lines.
 
-    def __init__(self, path: Path, table: TableMap):
+    ``row_ids`` maps the rows of the table being checked to data-row numbers of the file
+    (0 = the first record after the header); by default they are the same.
+    """
+
+    def __init__(self, path: Path, table: TableMap, row_ids: np.ndarray | None = None):
         self.path = path
         self.table = table
+        self.row_ids = row_ids
         self.items: list[tuple[int, str, str]] = []  # (data row index, our column, message)
 
     def add(self, rows: np.ndarray, column: str, message: str | list[str]) -> None:
         rows = np.flatnonzero(rows) if rows.dtype == bool else rows
         for k, r in enumerate(rows[:MAX_REPORTED]):
-            self.items.append((int(r), column, message[k] if isinstance(message, list) else message))
+            row = int(r) if self.row_ids is None else int(self.row_ids[r])
+            self.items.append((row, column, message[k] if isinstance(message, list) else message))
 
     def raise_if_any(self) -> None:
         if not self.items:
             return
-        lines = record_lines(self.path)
         self.items.sort()
+        lines = record_lines(self.path, self.items[min(len(self.items), MAX_REPORTED) - 1][0])
         shown = self.items[:MAX_REPORTED]
         errors = [InputError(self.path, msg, lines[r] if r < len(lines) else None, self.table.source_name(col))
                   for r, col, msg in shown]
@@ -94,16 +100,19 @@ class InputErrors(InputError):
         self.file, self.line, self.column, self.detail = first.file, first.line, first.column, text
 
 
-def record_lines(path: Path) -> list[int]:
-    """Line number on which each data record starts (pyarrow skips blank lines)."""
-    text = path.read_bytes().decode("utf-8-sig", errors="replace")
-    reader = csv.reader(io.StringIO(text, newline=""))
+def record_lines(path: Path, upto: int) -> list[int]:
+    """Line number on which each data record starts, for records 0..upto (pyarrow skips
+    blank lines and quoted fields may span lines, so the two differ)."""
     lines: list[int] = []
-    start = 1
-    for k, rec in enumerate(reader):
-        if k > 0 and rec:
-            lines.append(start)
-        start = reader.line_num + 1
+    with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
+        reader = csv.reader(fh)
+        start = 1
+        for k, rec in enumerate(reader):
+            if k > 0 and rec:
+                lines.append(start)
+                if len(lines) > upto:
+                    break
+            start = reader.line_num + 1
     return lines
 
 
@@ -155,8 +164,46 @@ def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, .
     return InputError(path, f"could not be read as CSV ({exc})")
 
 
-def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> tuple[pa.Table, Problems]:
-    """Read one CSV into a pyarrow table with our column names and units."""
+@dataclass(frozen=True)
+class CsvSpec:
+    """What to read from one CSV file: its header, and the export's columns and types."""
+
+    path: Path
+    cols: tuple[Col, ...]
+    table: TableMap
+    header: list[str]
+    present: frozenset
+    types: dict
+
+    def convert_options(self, only: list[str] | None = None) -> pcsv.ConvertOptions:
+        types = self.types if only is None else {self.table.source_name(c): self.types[self.table.source_name(c)]
+                                                 for c in only}
+        return pcsv.ConvertOptions(column_types=types, include_columns=list(types),
+                                   strings_can_be_null=False, quoted_strings_can_be_null=False)
+
+    def diagnose(self, exc: Exception) -> InputError:
+        return _diagnose(self.path, self.header, self.table, self.cols, exc)
+
+    def to_ours(self, raw: pa.Table) -> pa.Table:
+        """Our column names and units; columns the file lacks are null."""
+        arrays, names = [], []
+        for c in self.cols:
+            src = self.table.source_name(c.name)
+            if src in self.present:
+                arr = raw.column(src).combine_chunks() if raw.num_rows else pa.array([], type=self.types[src])
+                if c.numeric and c.name in self.table.factors:
+                    arr = pac.multiply(arr, self.table.factors[c.name])
+                if not c.numeric:
+                    arr = pac.utf8_trim_whitespace(arr)
+            else:
+                arr = pa.nulls(raw.num_rows, type=pa.float64() if c.numeric else pa.string())
+            arrays.append(arr)
+            names.append(c.name)
+        return pa.table(arrays, names=names)
+
+
+def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> CsvSpec:
+    """Check the header: no column named twice, every required column present."""
     path = Path(path)
     table = cmap.table(name)
     header = _header(path)
@@ -169,32 +216,21 @@ def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnM
         raise InputErrors([InputError(path, "required column is missing", 1, table.source_name(c.name)) for c in missing])
     wanted = [c for c in cols if table.source_name(c.name) in present]
     types = {table.source_name(c.name): (pa.float64() if c.numeric else pa.string()) for c in wanted}
+    return CsvSpec(path, cols, table, header, frozenset(present), types)
+
+
+def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> tuple[pa.Table, Problems]:
+    """Read one (small) CSV whole into a pyarrow table with our column names and units."""
+    spec = prepare(path, name, cols, cmap)
     try:
-        raw = pcsv.read_csv(
-            path,
-            read_options=pcsv.ReadOptions(use_threads=True),
-            convert_options=pcsv.ConvertOptions(column_types=types, include_columns=list(types),
-                                                strings_can_be_null=False, quoted_strings_can_be_null=False),
-        )
+        raw = pcsv.read_csv(spec.path, read_options=pcsv.ReadOptions(use_threads=True),
+                            convert_options=spec.convert_options())
     except (pa.ArrowInvalid, pa.ArrowException) as exc:
-        raise _diagnose(path, header, table, cols, exc) from None
-    arrays, names = [], []
-    for c in cols:
-        src = table.source_name(c.name)
-        if src in present:
-            arr = raw.column(src).combine_chunks() if raw.num_rows else pa.array([], type=types[src])
-            if c.numeric and c.name in table.factors:
-                arr = pac.multiply(arr, table.factors[c.name])
-            if not c.numeric:
-                arr = pac.utf8_trim_whitespace(arr)
-        else:
-            arr = pa.nulls(raw.num_rows, type=pa.float64() if c.numeric else pa.string())
-        arrays.append(arr)
-        names.append(c.name)
-    out = pa.table(arrays, names=names)
+        raise spec.diagnose(exc) from None
+    out = spec.to_ours(raw)
     if out.num_rows == 0:
-        raise InputError(path, "has a header but no data rows", 1)
-    return out, Problems(path, table)
+        raise InputError(spec.path, "has a header but no data rows", 1)
+    return out, Problems(spec.path, spec.table)
 
 
 def _num(t: pa.Table, name: str) -> np.ndarray:
@@ -303,23 +339,85 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     return out, warnings
 
 
+class ForcesReader:
+    """forces.csv, read and validated in blocks so that memory does not grow with the file.
+
+    ``batches()`` yields validated tables (our columns plus ``_row``, the data-row number
+    for exact error lines); ``check_part()`` runs the checks that need all rows of a
+    member (a third row at a station, exact duplicates) on a member-complete part.
+    """
+
+    BLOCK = 64 << 20  # bytes of CSV per block
+
+    def __init__(self, path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None,
+                 cases: pa.Table | None = None, cases_path: str | Path | None = None):
+        self.spec = prepare(path, "forces", FORCE_COLUMNS, cmap)
+        self.path = self.spec.path
+        self.lengths_m = lengths_m
+        self.cases, self.cases_path = cases, cases_path
+        self.case_names: set[str] = set()
+        self.rows = 0
+
+    def size(self) -> int:
+        return self.path.stat().st_size
+
+    def _stream(self, only: list[str] | None = None):
+        try:
+            reader = pcsv.open_csv(self.path, read_options=pcsv.ReadOptions(block_size=self.BLOCK),
+                                   convert_options=self.spec.convert_options(only))
+            for batch in reader:
+                yield pa.Table.from_batches([batch])
+        except (pa.ArrowInvalid, pa.ArrowException) as exc:
+            raise self.spec.diagnose(exc) from None
+
+    def member_ids(self) -> set[str]:
+        """The member ids of the file (reads one column)."""
+        out: set[str] = set()
+        for t in self._stream(["member"]):
+            out.update(pac.unique(pac.utf8_trim_whitespace(t.column(self.spec.table.source_name("member")))).to_pylist())
+        return out
+
+    def batches(self):
+        self.rows, self.case_names = 0, set()
+        for raw in self._stream():
+            t = self.spec.to_ours(raw)
+            ids = np.arange(self.rows, self.rows + t.num_rows, dtype=np.int64)
+            probs = Problems(self.path, self.spec.table, ids)
+            _check_required_numbers(t, FORCE_COLUMNS, probs)
+            _check_required_strings(t, FORCE_COLUMNS, probs)
+            x = _num(t, "x_m")
+            probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
+            if self.lengths_m is not None:
+                L = _lookup(t.column("member"), self.lengths_m)
+                beyond = x > L * (1 + 1e-9) + 1e-6
+                probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
+                                          for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
+            probs.raise_if_any()
+            for name in ("N_kN", "T_kNm", "M_kNm"):
+                t = t.set_column(t.schema.get_field_index(name), name, pac.fill_null(t.column(name), 0.0))
+            self.rows += t.num_rows
+            self.case_names.update(pac.unique(t.column("case")).to_pylist())
+            yield t.append_column("_row", pa.array(ids))
+        if self.rows == 0:
+            raise InputError(self.path, "has a header but no data rows", 1)
+        if self.cases is not None:
+            check_cases_cover_forces(self.cases, self.case_names, self.cases_path)
+
+    def check_part(self, t: pa.Table) -> None:
+        probs = Problems(self.path, self.spec.table, t.column("_row").to_numpy())
+        _check_station_rows(t, probs)
+        probs.raise_if_any()
+
+    def read_all(self) -> pa.Table:
+        """The whole file as one validated table (for small files and tests)."""
+        t = pa.concat_tables(list(self.batches()))
+        self.check_part(t)
+        return t.drop_columns(["_row"])
+
+
 def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None) -> pa.Table:
     """forces.csv -> validated table; optional N, T, M default to zero."""
-    t, probs = read_table(path, "forces", FORCE_COLUMNS, cmap)
-    _check_required_numbers(t, FORCE_COLUMNS, probs)
-    _check_required_strings(t, FORCE_COLUMNS, probs)
-    x = _num(t, "x_m")
-    probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
-    if lengths_m is not None:
-        L = _lookup(t.column("member"), lengths_m)
-        beyond = x > L * (1 + 1e-9) + 1e-6
-        probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
-                                  for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
-    _check_station_rows(t, probs)
-    probs.raise_if_any()
-    for name in ("N_kN", "T_kNm", "M_kNm"):
-        t = t.set_column(t.schema.get_field_index(name), name, pac.fill_null(t.column(name), 0.0))
-    return t
+    return ForcesReader(path, cmap, lengths_m).read_all()
 
 
 def _lookup(member: pa.ChunkedArray, lengths_m: dict[str, float]) -> np.ndarray:
@@ -368,10 +466,9 @@ def read_cases(path: str | Path, cmap: ColumnMap) -> pa.Table:
     return t
 
 
-def check_cases_cover_forces(cases: pa.Table, forces: pa.Table, cases_path: str | Path) -> None:
+def check_cases_cover_forces(cases: pa.Table, used: set[str], cases_path: str | Path) -> None:
     """With cases.csv, every case of forces.csv must have a type."""
     typed = set(cases.column("case").to_pylist())
-    used = pac.unique(forces.column("case")).to_pylist()
     untyped = sorted(set(used) - typed)
     if untyped:
         shown = ", ".join(f"'{c}'" for c in untyped[:10])

@@ -41,7 +41,8 @@ Design values (first source found wins)
 Supports (each beam end, within the settings' tolerance)
     A column or wall whose plan footprint is within reach and whose height range meets
     the beam end's depth gives ``column`` / ``wall``, the face offset being where the
-    beam axis, in plan, leaves the footprint. Another beam, not within 10 degrees of
+    beam axis, in plan, leaves the footprint; one that stands on the beam (its base at or
+    above the beam's top) does not carry it. Another beam, not within 10 degrees of
     parallel, whose web footprint (axis widened by half the web width) is within reach
     gives ``girder``, the face offset being where the axis leaves that web. Priority:
     column, wall, girder; else ``free``. In an analysis view, a restrained point
@@ -694,6 +695,13 @@ def _overlaps(a: tuple[float, float], b: tuple[float, float], tol: float) -> boo
     return a[0] <= b[1] + tol and b[0] <= a[1] + tol
 
 
+def _carries(carrier: _Part, end: tuple[float, float], tol: float) -> bool:
+    """Whether a column, wall or point support meets a beam end's depth range without merely
+    standing on the beam (its base at or above the beam's top, within ``tol``)."""
+    stands_on = carrier.role != "point" and carrier.z_range[0] >= end[1] - tol
+    return _overlaps(end, carrier.z_range, tol) and not stands_on
+
+
 def _supports(parts: list[_Part], tol: float, warnings: list[str], ids: dict[int, str]):
     """(support, face offset in m) at both ends of every beam with nodes."""
     carriers: list[tuple[str, object, _Part]] = []
@@ -720,12 +728,12 @@ def _supports(parts: list[_Part], tol: float, warnings: list[str], ids: dict[int
                 if q is p:
                     continue
                 if kind == "girder":
+                    if not _overlaps(here, q.z_range_at(node[:2]), tol):
+                        continue
                     if np.linalg.norm(np.cross(p.axis, q.axis)) < PARALLEL_SIN:
                         continued = True
                         continue
-                    if not _overlaps(here, q.z_range_at(node[:2]), tol):
-                        continue
-                elif not _overlaps(here, q.z_range, tol):
+                elif not _carries(q, here, tol):
                     continue
                 candidate = (PRIORITY[kind], -_face_offset(geometry, node, other, tol), kind)
                 best = candidate if best is None or candidate < best else best

@@ -10,8 +10,6 @@ import os
 import sys
 from pathlib import Path
 
-import pyarrow.compute as pac
-
 from rich.console import Console
 from rich.table import Table
 
@@ -93,13 +91,12 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
-def read_ifc(path: Path, key: str, st, forces):
+def read_ifc(path: Path, key: str, st, wanted: set[str]):
     """Members from an IFC model, with the settings' defaults for what the model lacks. With
     key 'auto', the attribute (GlobalId, Name, Tag) that matches most force-table members."""
     defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm)
     if key != "auto":
         return ifc.read_ifc_members(path, key=key, defaults=defaults)
-    wanted = set(pac.unique(forces.column("member")).to_pylist())
     best, first_error = None, None
     for k in ("globalid", "name", "tag"):
         try:
@@ -146,39 +143,41 @@ def main(argv: list[str] | None = None) -> int:
     try:
         settings = load_settings(args.config)
         cmap = load_column_map(args.map, csv_tables.KNOWN_COLUMNS)
+        cases = csv_tables.read_cases(args.cases, cmap) if args.cases else None
         if args.members.suffix.lower() == ".ifc":
-            forces = csv_tables.read_forces(args.forces, cmap)
-            members, warnings = read_ifc(args.members, args.ifc_key, settings.ifc, forces)
-            lengths = {m: L for m, L in zip(members.column("member").to_pylist(),
-                                            members.column("length_m").to_pylist()) if L is not None}
-            warnings += ifc.length_mismatches(lengths, forces, settings.ifc.length_tolerance_mm)
+            probe = csv_tables.ForcesReader(args.forces, cmap)
+            members, warnings = read_ifc(args.members, args.ifc_key, settings.ifc, probe.member_ids())
+            lengths = None
         else:
             members, warnings = csv_tables.read_members(args.members, cmap)
             lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
-            forces = csv_tables.read_forces(args.forces, cmap, lengths)
-        cases = csv_tables.read_cases(args.cases, cmap) if args.cases else None
-        if cases is not None:
-            csv_tables.check_cases_cover_forces(cases, forces, args.cases)
+        source = csv_tables.ForcesReader(args.forces, cmap, lengths, cases, args.cases)
+        inputs = {"members": args.members, "forces": args.forces}
+        for role, path in (("cases", args.cases), ("column_map", args.map), ("settings", args.config)):
+            if path:
+                inputs[role] = path
+        run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()})
     except InputError as exc:
         _error(f"error: {exc}")
         _error("nothing was written")
         return EXIT_INPUT
-
-    inputs = {"members": args.members, "forces": args.forces}
-    if args.cases:
-        inputs["cases"] = args.cases
-    if args.map:
-        inputs["column_map"] = args.map
-    if args.config:
-        inputs["settings"] = args.config
-    try:
-        run = store.ingest(name, members, forces, cases, inputs, warnings, {"settings": settings.as_dict()})
     except StoreError as exc:
         _error(f"error: {exc}")
         return EXIT_USAGE
-    result = engine.design_run(run, settings)
-    result.warnings[:0] = warnings
-    store.write_design(run, engine.design_tables(result), engine.design_manifest(result, settings))
+    if args.members.suffix.lower() == ".ifc":
+        lengths = {m: L for m, L in zip(members.column("member").to_pylist(), members.column("length_m").to_pylist())
+                   if L is not None}
+        warnings += ifc.length_mismatches(lengths, run.forces(["member", "x_m"]), settings.ifc.length_tolerance_mm)
+    holder = {}
+
+    def design(folder: Path) -> None:
+        holder["result"] = result = engine.design_into(run, settings, folder)
+        result.warnings[:0] = warnings
+        report_json = engine.design_manifest(result, settings)
+        (folder / "manifest.json").write_text(report.dump_json(report_json), encoding="utf-8")
+
+    store.write_design(run, design)
+    result = holder["result"]
     report.write_tables(result, args.out)
     doc = report.summary(result, run.name, args.out)
     try:

@@ -6,12 +6,15 @@ member's station arrays). Every member of the input leaves with a status.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pac
+import pyarrow.parquet as pq
 
 from postproc import combos as combos_mod
 from postproc import design, detailing, stations
@@ -35,7 +38,6 @@ class SelfCheckError(AssertionError):
 class Result:
     members: pd.DataFrame
     zones: pd.DataFrame
-    stations: pd.DataFrame
     combos: combos_mod.ComboSet
     warnings: list[str] = field(default_factory=list)
 
@@ -50,58 +52,94 @@ def combination_set(run: Run, case_names: list[str], settings: Settings) -> tupl
     return combos_mod.aci_5_3_1(types, case_names, settings.combinations), warnings
 
 
-def design_run(run: Run, settings: Settings) -> Result:
+@dataclass
+class PartResult:
+    rows: list[dict]
+    zones: list[dict]
+    stations: pd.DataFrame
+    warnings: list[str]
+    members: set[str]  # every member id found in the part's forces
+
+
+def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, map_parts=map,
+               progress=None) -> Result:
+    """Design every member of a stored run, part by part (each part holds whole members).
+
+    ``map_parts(fn, parts)`` runs the parts (the built-in map, or a distributed engine's);
+    each part's station trace is written to ``stations_dir`` as it arrives, so memory is
+    bounded by the part size.
+    """
     members = run.members().to_pandas()
     input_order = {m: k for k, m in enumerate(members["member"])}
-    forces = run.forces()
-    member_col = forces.column("member").combine_chunks()
-    case_col = forces.column("case").combine_chunks()
-    case_names = sorted(pac.unique(case_col).to_pylist())
-    cset, warnings = combination_set(run, case_names, settings)
-    case_idx = pac.index_in(case_col, value_set=pa.array(case_names)).to_numpy()
-
-    force_members = pac.unique(member_col).to_pylist()
-    geo_members = set(members["member"])
+    cset, warnings = combination_set(run, run.manifest()["cases"], settings)
     rows: list[dict] = []
-    for m in sorted(set(force_members) - geo_members):
-        rows.append(_row(m, "no-geometry", "forces given but no row in the members table"))
-
     reason = members["invalid_reason"] if "invalid_reason" in members else pd.Series(None, index=members.index)
     invalid = reason.notna() & (reason != "")
     for m, why in zip(members.loc[invalid, "member"], reason[invalid]):
         rows.append(_row(m, "invalid", why))
     members = members[~invalid]
-    has_forces = members["member"].isin(set(force_members))
     is_column = members["kind"] == "column"
     for m in members.loc[is_column, "member"]:
         rows.append(_row(m, "not-covered", "column shear design is not covered yet"))
-    for m in members.loc[~is_column & ~has_forces, "member"]:
-        rows.append(_row(m, "no-forces", "no rows in the forces table"))
-    beams = members[~is_column & has_forces].sort_values("member").reset_index(drop=True)
+    beams = members[~is_column].sort_values("member").reset_index(drop=True)
 
-    # force rows of the beams, as contiguous slices (the store keeps forces sorted by member)
+    zones: list[dict] = []
+    seen: set[str] = set()
+    task = functools.partial(design_part, beams=beams, cset=cset, settings=settings)
+    for k, part in enumerate(map_parts(task, [str(p) for p in run.force_parts()])):
+        rows.extend(part.rows)
+        zones.extend(part.zones)
+        warnings.extend(part.warnings)
+        seen |= part.members
+        if stations_dir is not None and len(part.stations):
+            stations_dir.mkdir(exist_ok=True)
+            pq.write_table(pa.Table.from_pandas(part.stations, preserve_index=False),
+                           stations_dir / f"part-{k:05d}.parquet")
+        if progress:
+            progress(1)
+    for m in sorted(seen - set(input_order)):
+        rows.append(_row(m, "no-geometry", "forces given but no row in the members table"))
+    for m in beams["member"][~beams["member"].isin(seen)]:
+        rows.append(_row(m, "no-forces", "no rows in the forces table"))
+
+    out = pd.DataFrame(rows, columns=MEMBER_COLUMNS)
+    out["_o"] = out["member"].map(lambda m: input_order.get(m, len(input_order)))
+    out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
+    zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
+    zdf = zdf.assign(_o=zdf["member"].map(input_order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
+    return Result(out, zdf.reset_index(drop=True), cset, warnings)
+
+
+def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings) -> PartResult:
+    """Design the beams whose forces are in one stored part (a pure function of its inputs,
+    so that any engine may run the parts in any order or place)."""
+    forces = pq.read_table(part_path, columns=["member", "case", "x_m", "V_kN", "N_kN", "T_kNm"])
+    member_col = forces.column("member").combine_chunks()
+    seen = set(pac.unique(member_col).to_pylist())
+    beams = beams[beams["member"].isin(seen)].reset_index(drop=True)
     names = pa.array(beams["member"].tolist(), pa.string())
     f_member = pac.index_in(member_col, value_set=names).fill_null(-1).to_numpy().astype(np.int64)
     sel = np.flatnonzero(f_member >= 0)
     f_member = f_member[sel]
+    cidx = pac.index_in(forces.column("case").combine_chunks(), value_set=pa.array(cset.cases)).to_numpy()
+    cidx = cidx[sel].astype(np.int64)
     x = forces.column("x_m").to_numpy()[sel] * 1e3
     values = {"V": forces.column("V_kN").to_numpy()[sel] * 1e3, "N": forces.column("N_kN").to_numpy()[sel] * 1e3,
               "T": forces.column("T_kNm").to_numpy()[sel] * 1e6}
-    cidx = case_idx[sel].astype(np.int64)
-    if np.any(np.diff(f_member) < 0):  # the store sorts by member; other sources may not
+    if np.any(np.diff(f_member) < 0):  # parts are sorted by member id; keep any other source safe
         order = np.argsort(f_member, kind="stable")
         f_member, x, cidx = f_member[order], x[order], cidx[order]
         values = {k: v[order] for k, v in values.items()}
     bounds = np.searchsorted(f_member, np.arange(len(beams) + 1))
 
-    zones, st_tables = [], []
+    rows, zones, st_tables, warnings = [], [], [], []
     d = beams["d_mm"].to_numpy()
     clear = beams["length_m"].to_numpy() * 1e3 - beams["face_i_mm"].to_numpy() - beams["face_j_mm"].to_numpy()
-    est = (clear / np.minimum(settings.stations.max_step_mm, d / settings.stations.steps_per_d) + 8) * max(len(cset.names), len(case_names))
+    est = (clear / np.minimum(settings.stations.max_step_mm, d / settings.stations.steps_per_d) + 8) \
+        * max(len(cset.names), len(cset.cases))
     start = 0
     while start < len(beams):
-        csum = np.cumsum(est[start:])
-        stop = start + max(1, int(np.searchsorted(csum, BATCH_CELLS)))
+        stop = start + max(1, int(np.searchsorted(np.cumsum(est[start:]), BATCH_CELLS)))
         r0, r1 = bounds[start], bounds[stop]
         res = _design_batch(beams.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start,
                             cidx[r0:r1], x[r0:r1], {k: v[r0:r1] for k, v in values.items()}, cset, settings)
@@ -110,13 +148,8 @@ def design_run(run: Run, settings: Settings) -> Result:
         st_tables.append(res[2])
         warnings.extend(res[3])
         start = stop
-
-    out = pd.DataFrame(rows, columns=MEMBER_COLUMNS)
-    out["_o"] = out["member"].map(lambda m: input_order.get(m, len(input_order)))
-    out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
-    zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
-    sdf = pd.concat(st_tables, ignore_index=True) if st_tables else pd.DataFrame()
-    return Result(out, zdf, sdf, cset, warnings)
+    st_df = pd.concat(st_tables, ignore_index=True) if st_tables else pd.DataFrame()
+    return PartResult(rows, zones, st_df, warnings, seen)
 
 
 def _row(member, status, message, **kw) -> dict:
@@ -286,15 +319,17 @@ def _argmax_per_member(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
     return order[offsets[1:] - 1]
 
 
-def design_tables(result: Result) -> dict[str, pa.Table]:
-    """The design folder's tables: member results, zones, and the per-station trace."""
-    return {
-        "members": pa.Table.from_pandas(result.members, preserve_index=False),
-        "zones": pa.Table.from_pandas(result.zones, preserve_index=False),
-        "stations": pa.Table.from_pandas(result.stations, preserve_index=False),
-        "combinations": pa.table({"combination": result.combos.names,
-                                  **{c: result.combos.factors[:, k] for k, c in enumerate(result.combos.cases)}}),
-    }
+def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progress=None) -> Result:
+    """Design a run and write its design folder's contents into ``folder`` (a temporary
+    folder the store renames into place): member results, zones, combinations, the
+    per-station trace (stations/, one file per part) and a manifest."""
+    result = design_run(run, settings, folder / "stations", map_parts, progress)
+    pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
+    pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
+    pq.write_table(pa.table({"combination": result.combos.names,
+                             **{c: result.combos.factors[:, k] for k, c in enumerate(result.combos.cases)}}),
+                   folder / "combinations.parquet")
+    return result
 
 
 def design_manifest(result: Result, settings: Settings) -> dict:

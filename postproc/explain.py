@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-import pyarrow.compute as pac
+import pyarrow.parquet as pq
 
 from postproc import design, detailing, stations
 from postproc.codes import aci318_19 as aci
@@ -66,8 +66,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     steps.append(Step("Deep beam", "9.9.1.1", [
         f"ln = {ln:,.0f} mm {'<=' if ln <= 4 * m.h_mm else '>'} 4h = {4 * m.h_mm:,.0f} mm"
         + ("" if r.status != "deep-beam" else f"; {r.message}")]))
-    st = design_table(run, "stations")
-    st = st[st.member == member].reset_index(drop=True)
+    st = design_table(run, "stations", member=member).sort_values(["x_mm", "side"], kind="stable").reset_index(drop=True)
     k = int(np.argmax(st.vu_max_kN.to_numpy() / st.phi_vn_limit_kN.to_numpy()))
     steps.append(Step("Section limit", "22.5.1.2", [
         f"largest Vu / phi(Vc + 0.66 sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
@@ -94,7 +93,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
 
 
 def _critical_sections(run: Run, member: str, m, r, settings: Stations) -> Step:
-    f = run.forces().filter(pac.equal(run.forces().column("member"), member))
+    f = pq.read_table(run.path / "forces", filters=[("member", "==", member)])
     cases = sorted(set(f.column("case").to_pylist()))
     s = stations.Samples.build(np.zeros(f.num_rows, np.int64),
                                np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),

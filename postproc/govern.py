@@ -15,10 +15,14 @@ RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "go
 FAILING = ("resize",)
 
 
-def design_table(run: Run, name: str) -> pd.DataFrame:
+def design_table(run: Run, name: str, member: str | None = None, columns: list[str] | None = None) -> pd.DataFrame:
+    """A table of a run's design folder (the station trace is a folder of parts)."""
     if not run.has_design():
         raise StoreError(f"run '{run.name}' has no design yet")
-    return pq.read_table(run.design_path / f"{name}.parquet").to_pandas()
+    path = run.design_path / name
+    path = path if path.is_dir() else path.with_suffix(".parquet")
+    filters = None if member is None else [("member", "==", member)]
+    return pq.read_table(path, columns=columns, filters=filters).to_pandas()
 
 
 def results_with_labels(run: Run) -> pd.DataFrame:

@@ -166,7 +166,7 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: "Sche
 
 
 def _torsion_members(run: Run) -> set[str]:
-    st = pq.read_table(run.design_path / "stations.parquet", columns=["member", "torsion"]).to_pandas()
+    st = design_table(run, "stations", columns=["member", "torsion"])
     return set(st.member[st.torsion])
 
 

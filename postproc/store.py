@@ -3,7 +3,8 @@
     STORE/
       RUN/manifest.json        inputs with sha256, units, code edition, tool version
       RUN/members.parquet      validated members table (input schema, SI units)
-      RUN/forces.parquet       validated forces, sorted by member, case, station
+      RUN/forces/part-*.parquet  validated forces in parts of whole members, each sorted by
+                                 member, case, station
       RUN/cases.parquet        basic load cases, where given
       RUN/design/...           written once, by the design stage
 
@@ -16,11 +17,13 @@ from __future__ import annotations
 
 import datetime as _dt
 import hashlib
+import math
 import json
 import os
 import re
 import shutil
 import uuid
+import zlib
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -33,7 +36,7 @@ from postproc import __version__
 from postproc.codes import aci318_19
 
 UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment": "kN*m", "stress": "MPa"}
-FORCE_ROW_GROUP = 1 << 20
+PART_BYTES = 96 << 20  # CSV bytes per stored part of the forces
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
 
 
@@ -63,8 +66,12 @@ class Run:
     def members(self) -> pa.Table:
         return pq.read_table(self.path / "members.parquet")
 
+    def force_parts(self) -> list[Path]:
+        """The forces, as parts that each hold whole members."""
+        return sorted((self.path / "forces").glob("part-*.parquet"))
+
     def forces(self, columns: list[str] | None = None) -> pa.Table:
-        return pq.read_table(self.path / "forces.parquet", columns=columns)
+        return pq.read_table(self.path / "forces", columns=columns)
 
     def cases(self) -> pa.Table | None:
         p = self.path / "cases.parquet"
@@ -117,56 +124,84 @@ class Store:
             raise StoreError(f"run '{name}' already exists in {self.root}; runs are never overwritten, "
                              "choose another --run name")
 
-    def ingest(self, name: str, members: pa.Table, forces: pa.Table, cases: pa.Table | None,
-               inputs: dict[str, Path], warnings: list[str], extra: dict | None = None) -> Run:
-        """Write a new run atomically and return it."""
+    def ingest(self, name: str, members: pa.Table, cases: pa.Table | None, source, inputs: dict[str, Path],
+               warnings: list[str], extra: dict | None = None, progress=None) -> Run:
+        """Write a new run atomically and return it.
+
+        ``source`` streams validated force batches (``batches()``, ``check_part()``,
+        ``size()``, see adapters.csv_tables.ForcesReader). Rows are spread over parts by a
+        hash of the member id, so that every part holds whole members; each part is then
+        checked, sorted by member, case, station and file row, and written. Memory is
+        bounded by the part size, not by the model.
+        """
         self.check_new_name(name)
-        # file order breaks ties, so the two rows of a jump keep their left-then-right order
-        keyed = forces.append_column("_row", pa.array(np.arange(forces.num_rows)))
-        order = pac.sort_indices(keyed, [("member", "ascending"), ("case", "ascending"), ("x_m", "ascending"),
-                                         ("_row", "ascending")])
-        forces = forces.take(order)
-        manifest = {
-            "run": name,
-            "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
-            "tool": "shearpost", "tool_version": __version__,
-            "code_edition": aci318_19.EDITION,
-            "units": UNITS,
-            "inputs": {role: {"path": str(p), "sha256": sha256_of(p)} for role, p in inputs.items()},
-            "counts": {"members": members.num_rows, "force_rows": forces.num_rows,
-                       "cases": None if cases is None else cases.num_rows},
-            "warnings": warnings,
-            **(extra or {}),
-        }
+        n_parts = max(1, math.ceil(source.size() / PART_BYTES))
 
         def write(tmp: Path) -> None:
             pq.write_table(members, tmp / "members.parquet")
-            pq.write_table(forces, tmp / "forces.parquet", row_group_size=FORCE_ROW_GROUP)
             if cases is not None:
                 pq.write_table(cases, tmp / "cases.parquet")
+            spill = tmp / "spill"
+            spill.mkdir()
+            writers: dict[int, pq.ParquetWriter] = {}
+            try:
+                for batch in source.batches():
+                    part = part_of(batch.column("member"), n_parts)
+                    order = np.argsort(part, kind="stable")
+                    batch = batch.take(order)
+                    bounds = np.searchsorted(part[order], np.arange(n_parts + 1))
+                    for k in np.flatnonzero(np.diff(bounds)):
+                        if k not in writers:
+                            writers[k] = pq.ParquetWriter(spill / f"{k:05d}.parquet", batch.schema)
+                        writers[k].write_table(batch.slice(bounds[k], bounds[k + 1] - bounds[k]))
+                    if progress:
+                        progress(batch.num_rows)
+            finally:
+                for w in writers.values():
+                    w.close()
+            (tmp / "forces").mkdir()
+            for k in sorted(writers):
+                t = pq.read_table(spill / f"{k:05d}.parquet")
+                source.check_part(t)
+                t = t.take(pac.sort_indices(t, [("member", "ascending"), ("case", "ascending"),
+                                                ("x_m", "ascending"), ("_row", "ascending")]))
+                # file order breaks ties above, so the two rows of a jump keep their left-then-right order
+                pq.write_table(t.drop_columns(["_row"]), tmp / "forces" / f"part-{k:05d}.parquet")
+                (spill / f"{k:05d}.parquet").unlink()
+            spill.rmdir()
+            manifest = {
+                "run": name,
+                "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+                "tool": "shearpost", "tool_version": __version__,
+                "code_edition": aci318_19.EDITION,
+                "units": UNITS,
+                "inputs": {role: {"path": str(p), "sha256": sha256_of(p)} for role, p in inputs.items()},
+                "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(writers),
+                           "cases": None if cases is None else cases.num_rows},
+                "cases": sorted(source.case_names),
+                "warnings": warnings,
+                **(extra or {}),
+            }
             _write_json(tmp / "manifest.json", manifest)
 
         self._atomic(self.root / name, write)
         return Run(self.root / name)
 
-    def write_design(self, run: Run, tables: dict[str, pa.Table], manifest: dict) -> Path:
-        """Write a run's design folder once, atomically."""
+    def write_design(self, run: Run, write) -> Path:
+        """Write a run's design folder once, atomically: ``write(folder)`` fills a temporary
+        folder, which is renamed into place only when it is complete."""
         if run.design_path.exists():
             raise StoreError(f"run '{run.name}' already has a design; runs are immutable")
-
-        def write(tmp: Path) -> None:
-            for key, table in tables.items():
-                pq.write_table(table, tmp / f"{key}.parquet")
-            _write_json(tmp / "manifest.json", manifest)
-
         self._atomic(run.design_path, write, staging=run.path)
         return run.design_path
 
     def _atomic(self, final: Path, write, staging: Path | None = None) -> None:
         staging = staging or self.root
+        created = not staging.exists()
         staging.mkdir(parents=True, exist_ok=True)
         tmp = staging / f".tmp-{final.name}-{uuid.uuid4().hex}"
         tmp.mkdir()
+        done = False
         try:
             write(tmp)
             _fsync_dir(tmp)
@@ -175,9 +210,21 @@ class Store:
             except OSError:
                 raise StoreError(f"'{final}' already exists; runs are never overwritten") from None
             _fsync_dir(staging)
+            done = True
         finally:
             if tmp.exists():
                 shutil.rmtree(tmp, ignore_errors=True)
+            if not done and created and not any(staging.iterdir()):
+                staging.rmdir()  # a failed first write leaves no empty store behind
+
+
+def part_of(member: pa.ChunkedArray | pa.Array, n_parts: int) -> np.ndarray:
+    """Part number of each row: CRC-32 of the member id modulo the number of parts (stable
+    across processes and machines, unlike Python's hash)."""
+    arr = member.combine_chunks() if isinstance(member, pa.ChunkedArray) else member
+    enc = pac.dictionary_encode(arr)
+    per_name = np.array([zlib.crc32(m.encode("utf-8")) % n_parts for m in enc.dictionary.to_pylist()], np.int64)
+    return per_name[enc.indices.to_numpy(zero_copy_only=False)] if len(per_name) else np.zeros(len(arr), np.int64)
 
 
 def _write_json(path: Path, doc: dict) -> None:

@@ -64,7 +64,7 @@ def design(tmp: Path, members: list[dict], forces: list[dict], cases: list[dict]
         argv += ["--cases", str(paths["cases"])]
     code = cli.main(argv)
     runs = Store(store).runs()
-    st = pq.read_table(runs[-1].design_path / "stations.parquet").to_pandas() if runs and runs[-1].has_design() else None
+    st = pq.read_table(runs[-1].design_path / "stations").to_pandas() if runs and runs[-1].has_design() else None
     zones = pd.read_csv(out / "zones.csv") if (out / "zones.csv").exists() else pd.DataFrame()
     members_out = pd.read_csv(out / "members.csv", keep_default_na=False, na_values=[""]) if (out / "members.csv").exists() else pd.DataFrame()
     return Designed(code, members_out, zones, st, out, store)
