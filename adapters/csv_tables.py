@@ -404,15 +404,23 @@ class ForcesReader:
             check_cases_cover_forces(self.cases, self.case_names, self.cases_path)
 
     def check_part(self, t: pa.Table) -> None:
+        """Checks of a member-complete part sorted by member, case, x_m and _row."""
         probs = Problems(self.path, self.spec.table, t.column("_row").to_numpy())
-        _check_station_rows(t, probs)
+        _check_station_rows(t, probs, presorted=True)
         probs.raise_if_any()
 
     def read_all(self) -> pa.Table:
         """The whole file as one validated table (for small files and tests)."""
-        t = pa.concat_tables(list(self.batches()))
+        t = sort_part(pa.concat_tables(list(self.batches())))
         self.check_part(t)
         return t.drop_columns(["_row"])
+
+
+def sort_part(t: pa.Table) -> pa.Table:
+    """Rows by member, case and station; the file row breaks ties, so the two rows of a
+    jump keep their left-then-right order."""
+    return t.take(pac.sort_indices(t, [("member", "ascending"), ("case", "ascending"), ("x_m", "ascending"),
+                                       ("_row", "ascending")]))
 
 
 def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None) -> pa.Table:
@@ -434,13 +442,13 @@ def _codes(col: pa.ChunkedArray | pa.Array) -> tuple[np.ndarray, list]:
     return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
 
 
-def _check_station_rows(t: pa.Table, probs: Problems) -> None:
-    """At most two rows per (member, case, x) (a jump); no row repeated exactly."""
-    key = pa.table({"member": t.column("member"), "case": t.column("case"), "x": t.column("x_m")})
-    m_idx, _ = _codes(key.column("member"))
-    c_idx, _ = _codes(key.column("case"))
-    x = key.column("x").to_numpy()
-    order = np.lexsort((x, c_idx, m_idx))
+def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False) -> None:
+    """At most two rows per (member, case, x) (a jump); no row repeated exactly.
+    ``presorted``: the rows are already grouped by member and case and sorted by x."""
+    m_idx, _ = _codes(t.column("member"))
+    c_idx, _ = _codes(t.column("case"))
+    x = t.column("x_m").to_numpy()
+    order = np.arange(len(x)) if presorted else np.lexsort((x, c_idx, m_idx))
     ms, cs, xs = m_idx[order], c_idx[order], x[order]
     same = (ms[1:] == ms[:-1]) & (cs[1:] == cs[:-1]) & (xs[1:] == xs[:-1])
     triple = np.zeros(len(order), bool)

@@ -96,12 +96,16 @@ def required(sec: Section, Vu: np.ndarray, Nu: np.ndarray, Tu: np.ndarray) -> De
         torsion = Tu >= phi * tth  # 22.7.1.1: below phi*Tth torsion may be neglected
     else:
         torsion = np.zeros(Vu.shape, bool)
-    threshold = np.where(sec.avmin_exempt, np.inf, aci.av_min_threshold(fc, b, d, lam))
-    avmin_req = (Vu > threshold) | (sec.avmin_exempt & (Vu > phi * vc_lo)) | torsion
+    avmin_req = Vu > np.where(sec.avmin_exempt, np.inf, aci.av_min_threshold(fc, b, d, lam))
+    if sec.avmin_exempt.any():  # Table 9.6.3.1 beams: Av,min only where Vu > phi Vc
+        avmin_req |= sec.avmin_exempt & (Vu > phi * vc_lo)
+    if has_torsion:
+        avmin_req |= torsion
 
-    vs_hi = Vu / phi - vc_hi
+    vn_req = Vu / phi
+    vs_hi = vn_req - vc_hi
     q_hi = np.maximum(aci.av_over_s_for_vs(vs_hi, fyt, d), av_min_s)
-    q_lo = aci.av_over_s_for_vs(Vu / phi - vc_lo, fyt, d)
+    q_lo = aci.av_over_s_for_vs(vn_req - vc_lo, fyt, d)
     av_s = np.where(avmin_req, q_hi, np.minimum(q_lo, q_hi))
     at_s = np.where(torsion, aci.at_over_s(Tu, sec.Aoh, fyt), 0.0) if has_torsion else np.zeros(Vu.shape)
 

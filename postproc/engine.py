@@ -166,6 +166,8 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         length=bm["length_m"].to_numpy() * 1e3, face_i=bm["face_i_mm"].to_numpy(), face_j=bm["face_j_mm"].to_numpy(),
         d=bm["d_mm"].to_numpy(), h=bm["h_mm"].to_numpy(), support_i=bm["support_i"].to_numpy(object),
         support_j=bm["support_j"].to_numpy(object), load_top=(bm["load_face"] == "top").to_numpy())
+    names = bm["member"].to_numpy(object)
+    width = bm["b_mm"].to_numpy(float)
     samples = stations.Samples.build(f_member, f_case, f_x, f_values)
     grid = stations.build_grid(g, samples, settings.stations)
     span = float(g.length.max() * 2 + 1e3)
@@ -181,7 +183,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     miss_m = np.unique(grid.member[missing.any(axis=0)])
     for m in miss_m:
         lacking = [cset.cases[c] for c in np.flatnonzero(missing[:, grid.member == m].any(axis=1))]
-        warnings.append(f"member {bm['member'][m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
+        warnings.append(f"member {names[m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
 
     largest_db = max(BAR_CATALOGUE[b][0] for b, _ in st.ladder)
     sec_m = design.section_from_members(
@@ -215,7 +217,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         lay = detailing.layout_member(
             x_clear[sl], g.clear_span[m], dem.av_s_env[sl], dem.at_s_env[sl], dem.s_max[sl],
             float(dem.s_max_across[sl][stirrups_here[sl]].min()) if stirrups_here[sl].any() else np.inf,
-            stirrups_here[sl], float(bm["b_mm"][m]), g.support_i[m] == "free", g.support_j[m] == "free", st)
+            stirrups_here[sl], float(width[m]), g.support_i[m] == "free", g.support_j[m] == "free", st)
         if isinstance(lay, str):
             messages[m] = lay
             continue
@@ -231,7 +233,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     if bad.any():
         k = np.flatnonzero(bad)[0]
         m = grid.member[k]
-        raise SelfCheckError(f"layout of member {bm['member'][m]} fails its self-check at x = {x_clear[k]:.0f} mm "
+        raise SelfCheckError(f"layout of member {names[m]} fails its self-check at x = {x_clear[k]:.0f} mm "
                              f"(utilization {cap.utilization[k]:.3f}, s = {spacing[k]:g} mm, "
                              f"s_max = {dem.s_max[k]:g} mm)")
 
@@ -247,13 +249,13 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
             vu_design_i_kN=round(vu_env[first_st[m]] / 1e3, 2), vu_design_j_kN=round(vu_env[last_st[m]] / 1e3, 2),
             governing_case=cset.names[dem.governing[k]], phi_vc_kN=round(dem.phi_vc[k] / 1e3, 2),
             phi_vn_limit_kN=round(dem.phi_vn_limit[k] / 1e3, 2), utilization=round(float(util[k]), 3))
-        name = bm["member"][m]
+        name = names[m]
         if deep[m]:
             rows.append(_row(name, "deep-beam", why_deep[m], **common))
         elif resize[m]:
             sl = slice(grid.offsets[m], grid.offsets[m + 1])
             ratio = float(dem.section_ratio[sl].max())
-            bd = float(bm["b_mm"][m] * g.d[m]) * ratio
+            bd = float(width[m] * g.d[m]) * ratio
             rows.append(_row(name, "resize", f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}); "
                                             f"needs bw*d of about {bd:,.0f} mm^2", **common))
         elif m in messages:
@@ -262,7 +264,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
             lay = layouts[m]
             sl = slice(grid.offsets[m], grid.offsets[m + 1])
             closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any())  # 25.7.1.6
-            shapes = detailing.stirrup_set(float(bm["b_mm"][m]), g.h[m], st.clear_cover_mm, lay.bar, lay.legs,
+            shapes = detailing.stirrup_set(float(width[m]), g.h[m], st.clear_cover_mm, lay.bar, lay.legs,
                                            closed, st.open_hook_deg)
             mass = lay.count * detailing.set_mass(shapes)
             rows.append(_row(name, "designed", lay.message, stirrups_total=lay.count,
@@ -276,7 +278,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     cols = np.arange(len(grid.x))
     gov = dem.governing
     st_df = pd.DataFrame({
-        "member": bm["member"].to_numpy(object)[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
+        "member": names[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
         "governing_case": np.asarray(cset.names, object)[gov], "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
         "nu_kN": Nu[gov, cols] / 1e3, "tu_kNm": Tu[gov, cols] / 1e6,
         "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[gov, cols], np.nan) / 1e3,

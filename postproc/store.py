@@ -32,6 +32,7 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
+from adapters.csv_tables import sort_part
 from postproc import __version__
 from postproc.codes import aci318_19
 
@@ -151,8 +152,8 @@ class Store:
                     batch = batch.take(order)
                     bounds = np.searchsorted(part[order], np.arange(n_parts + 1))
                     for k in np.flatnonzero(np.diff(bounds)):
-                        if k not in writers:
-                            writers[k] = pq.ParquetWriter(spill / f"{k:05d}.parquet", batch.schema)
+                        if k not in writers:  # uncompressed: read back once, soon
+                            writers[k] = pq.ParquetWriter(spill / f"{k:05d}.parquet", batch.schema, compression="none")
                         writers[k].write_table(batch.slice(bounds[k], bounds[k + 1] - bounds[k]))
                     if progress:
                         progress(batch.num_rows)
@@ -161,11 +162,8 @@ class Store:
                     w.close()
             (tmp / "forces").mkdir()
             for k in sorted(writers):
-                t = pq.read_table(spill / f"{k:05d}.parquet")
+                t = sort_part(pq.read_table(spill / f"{k:05d}.parquet"))
                 source.check_part(t)
-                t = t.take(pac.sort_indices(t, [("member", "ascending"), ("case", "ascending"),
-                                                ("x_m", "ascending"), ("_row", "ascending")]))
-                # file order breaks ties above, so the two rows of a jump keep their left-then-right order
                 pq.write_table(t.drop_columns(["_row"]), tmp / "forces" / f"part-{k:05d}.parquet")
                 (spill / f"{k:05d}.parquet").unlink()
             spill.rmdir()

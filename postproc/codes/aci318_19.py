@@ -49,12 +49,10 @@ def vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam=1.0, rho_w=None):
     (a) [0.17 lambda sqrt(f'c) + Nu/(6Ag)] bw d
     (b) [0.66 lambda rho_w^(1/3) sqrt(f'c) + Nu/(6Ag)] bw d, used where rho_w is known.
     """
-    axial = axial_stress_term(Nu, Ag, fc)
-    va = _vc_limited(0.17 * lam * sqrt_fc(fc) + axial, fc, bw, d, lam)
-    if rho_w is None:
-        return va
-    vb = _vc_limited(0.66 * lam * np.cbrt(rho_w) * sqrt_fc(fc) + axial, fc, bw, d, lam)
-    return np.where(np.isfinite(rho_w), np.maximum(va, vb), va)
+    coef = 0.17 * lam * sqrt_fc(fc)
+    if rho_w is not None:  # both add the same axial term, so the larger coefficient gives the larger Vc
+        coef = np.where(np.isfinite(rho_w), np.maximum(coef, 0.66 * lam * np.cbrt(rho_w) * sqrt_fc(fc)), coef)
+    return _vc_limited(coef + axial_stress_term(Nu, Ag, fc), fc, bw, d, lam)
 
 
 def vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_w, lam=1.0):
