@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -26,6 +27,9 @@ KINDS = ("beam", "column")
 LOAD_FACES = ("top", "bottom")
 CASE_TYPES = ("D", "L", "Lr", "S", "R", "W", "E")
 MAX_REPORTED = 20  # problems listed in one error before "and N more"
+BROKEN = "a quoted value runs over a line break: is a quote unbalanced?"
+# A number as pyarrow reads one: ASCII digits, optional sign, point and exponent, or inf/nan.
+NUMBER = re.compile(r"^[+-]?((\d+\.?\d*|\.\d+)([eE][+-]?\d+)?|inf|infinity|nan)$", re.IGNORECASE | re.ASCII)
 
 
 @dataclass(frozen=True)
@@ -68,9 +72,9 @@ class Problems:
         self.path = path
         self.table = table
         self.row_ids = row_ids
-        self.items: list[tuple[int, str, str]] = []  # (data row index, our column, message)
+        self.items: list[tuple[int, str | None, str]] = []  # (data row index, our column, message)
 
-    def add(self, rows: np.ndarray, column: str, message: str | list[str]) -> None:
+    def add(self, rows: np.ndarray, column: str | None, message: str | list[str]) -> None:
         rows = np.flatnonzero(rows) if rows.dtype == bool else rows
         for k, r in enumerate(rows[:MAX_REPORTED]):
             row = int(r) if self.row_ids is None else int(self.row_ids[r])
@@ -79,11 +83,11 @@ class Problems:
     def raise_if_any(self) -> None:
         if not self.items:
             return
-        self.items.sort()
+        self.items.sort(key=lambda item: item[0])
         lines = record_lines(self.path, self.items[min(len(self.items), MAX_REPORTED) - 1][0])
         shown = self.items[:MAX_REPORTED]
-        errors = [InputError(self.path, msg, lines[r] if r < len(lines) else None, self.table.source_name(col))
-                  for r, col, msg in shown]
+        errors = [InputError(self.path, msg, lines[r] if r < len(lines) else None,
+                             None if col is None else self.table.source_name(col)) for r, col, msg in shown]
         raise InputErrors(errors, len(self.items) - len(shown))
 
 
@@ -107,12 +111,15 @@ def record_lines(path: Path, upto: int) -> list[int]:
     with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
         reader = csv.reader(fh)
         start = 1
-        for k, rec in enumerate(reader):
-            if k > 0 and rec:
-                lines.append(start)
-                if len(lines) > upto:
-                    break
-            start = reader.line_num + 1
+        try:
+            for k, rec in enumerate(reader):
+                if k > 0 and rec:
+                    lines.append(start)
+                    if len(lines) > upto:
+                        break
+                start = reader.line_num + 1
+        except csv.Error:
+            pass  # lines past a malformed one are not known; their errors name no line
     return lines
 
 
@@ -154,9 +161,7 @@ def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, .
                     value = rec[pos].strip()
                     if value == "":
                         continue
-                    try:
-                        float(value)
-                    except ValueError:
+                    if not NUMBER.match(value):
                         return InputError(path, f"'{value[:40]}' is not a number", start, table.source_name(ours))
             start = reader.line_num + 1
     except csv.Error as err:
@@ -175,6 +180,11 @@ class CsvSpec:
     present: frozenset
     types: dict
 
+    def read_options(self, block_size: int | None = None) -> pcsv.ReadOptions:
+        """Our reading of the header (names trimmed) replaces pyarrow's."""
+        kw = {} if block_size is None else {"block_size": block_size}
+        return pcsv.ReadOptions(column_names=self.header, skip_rows=1, use_threads=True, **kw)
+
     def convert_options(self, only: list[str] | None = None) -> pcsv.ConvertOptions:
         types = self.types if only is None else {self.table.source_name(c): self.types[self.table.source_name(c)]
                                                  for c in only}
@@ -183,6 +193,15 @@ class CsvSpec:
 
     def diagnose(self, exc: Exception) -> InputError:
         return _diagnose(self.path, self.header, self.table, self.cols, exc)
+
+    def broken_rows(self, raw: pa.Table) -> np.ndarray:
+        """Rows where a text value holds a line break: an open quote ran on over lines."""
+        bad = np.zeros(raw.num_rows, bool)
+        for name in raw.column_names:
+            col = raw.column(name)
+            if pa.types.is_string(col.type):
+                bad |= pac.match_substring_regex(col.fill_null(""), "[\r\n]").to_numpy(zero_copy_only=False)
+        return bad
 
     def to_ours(self, raw: pa.Table) -> pa.Table:
         """Our column names and units; columns the file lacks are null."""
@@ -214,23 +233,47 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap)
     missing = [c for c in cols if c.required and table.source_name(c.name) not in present]
     if missing:
         raise InputErrors([InputError(path, "required column is missing", 1, table.source_name(c.name)) for c in missing])
-    wanted = [c for c in cols if table.source_name(c.name) in present]
-    types = {table.source_name(c.name): (pa.float64() if c.numeric else pa.string()) for c in wanted}
+    # every column is read, the export's others as text: a quote left open in any of them would
+    # otherwise swallow the lines after it unseen
+    types = {h: pa.string() for h in header if h}
+    types.update({table.source_name(c.name): (pa.float64() if c.numeric else pa.string())
+                  for c in cols if table.source_name(c.name) in present})
+    _check_quotes(path)
     return CsvSpec(path, cols, table, header, frozenset(present), types)
+
+
+def _check_quotes(path: Path) -> None:
+    """An odd number of quote characters means a quoted value never ends (a cut file, say)."""
+    count = 0
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(16 << 20), b""):
+            count += chunk.count(b'"')
+    if count % 2 == 0:
+        return
+    start = 1
+    with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
+        reader = csv.reader(fh, strict=True)
+        try:
+            for _ in reader:
+                start = reader.line_num + 1
+        except csv.Error:
+            pass
+    raise InputError(path, "a quoted value never ends (an unbalanced quote, or a cut file)", start)
 
 
 def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> tuple[pa.Table, Problems]:
     """Read one (small) CSV whole into a pyarrow table with our column names and units."""
     spec = prepare(path, name, cols, cmap)
     try:
-        raw = pcsv.read_csv(spec.path, read_options=pcsv.ReadOptions(use_threads=True),
-                            convert_options=spec.convert_options())
+        raw = pcsv.read_csv(spec.path, read_options=spec.read_options(), convert_options=spec.convert_options())
     except (pa.ArrowInvalid, pa.ArrowException) as exc:
         raise spec.diagnose(exc) from None
     out = spec.to_ours(raw)
     if out.num_rows == 0:
         raise InputError(spec.path, "has a header but no data rows", 1)
-    return out, Problems(spec.path, spec.table)
+    probs = Problems(spec.path, spec.table)
+    probs.add(spec.broken_rows(raw), None, BROKEN)
+    return out, probs
 
 
 def _num(t: pa.Table, name: str) -> np.ndarray:
@@ -257,10 +300,32 @@ def _check_required_numbers(t: pa.Table, cols: tuple[Col, ...], probs: Problems)
         probs.add(np.isinf(v), c.name, "value is infinite")
 
 
+# Magnitudes beyond which a value is taken as a unit mistake, not a structure (common practice).
+PLAUSIBLE_MEMBERS = {"length_m": (0.05, 500.0), "b_mm": (50.0, 20000.0), "h_mm": (50.0, 20000.0),
+                     "d_mm": (None, 20000.0), "cover_mm": (None, 1000.0), "fc_mpa": (None, 200.0),
+                     "fyt_mpa": (None, 2000.0), "fy_mpa": (None, 2000.0), "face_i_mm": (None, 20000.0),
+                     "face_j_mm": (None, 20000.0), "bf_mm": (None, 50000.0), "hf_mm": (None, 5000.0),
+                     "as_tension_mm2": (None, 1e7)}
+PLAUSIBLE_FORCES = {"x_m": (None, 500.0), "V_kN": (-1e6, 1e6), "N_kN": (-1e7, 1e7), "T_kNm": (-1e7, 1e7),
+                    "M_kNm": (-1e8, 1e8)}
+
+
+def _check_plausible(t: pa.Table, probs: Problems, limits: dict) -> None:
+    for name, (lo, hi) in limits.items():
+        v = _num(t, name)
+        with np.errstate(invalid="ignore"):
+            if lo is not None:
+                probs.add((v < lo) & (v > 0 if lo > 0 else True), name,
+                          f"{lo:g} is the least plausible value: check the units")
+            probs.add(np.abs(v) > hi if lo is not None and lo < 0 else v > hi, name,
+                      f"beyond {hi:g}, not plausible: check the units")
+
+
 def _check_required_strings(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
     for c in cols:
         if c.required and not c.numeric:
             probs.add(_blank(t, c.name), c.name, "missing value")
+
 
 
 def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, probs: Problems) -> None:
@@ -293,6 +358,7 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     L, b, h = _num(t, "length_m"), _num(t, "b_mm"), _num(t, "h_mm")
     for name, v in (("length_m", L), ("b_mm", b), ("h_mm", h)):
         probs.add(v <= 0, name, "must be greater than zero")
+    _check_plausible(t, probs, PLAUSIBLE_MEMBERS)
     d_given, cover = _num(t, "d_mm"), _num(t, "cover_mm")
     neither = np.isnan(d_given) & np.isnan(cover)
     probs.add(neither, "d_mm", "give d_mm or cover_mm")
@@ -363,7 +429,7 @@ class ForcesReader:
 
     def _stream(self, only: list[str] | None = None):
         try:
-            reader = pcsv.open_csv(self.path, read_options=pcsv.ReadOptions(block_size=self.BLOCK),
+            reader = pcsv.open_csv(self.path, read_options=self.spec.read_options(self.BLOCK),
                                    convert_options=self.spec.convert_options(only))
             for batch in reader:
                 yield pa.Table.from_batches([batch])
@@ -383,10 +449,12 @@ class ForcesReader:
             t = self.spec.to_ours(raw)
             ids = np.arange(self.rows, self.rows + t.num_rows, dtype=np.int64)
             probs = Problems(self.path, self.spec.table, ids)
+            probs.add(self.spec.broken_rows(raw), None, BROKEN)
             _check_required_numbers(t, FORCE_COLUMNS, probs)
             _check_required_strings(t, FORCE_COLUMNS, probs)
             x = _num(t, "x_m")
             probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
+            _check_plausible(t, probs, PLAUSIBLE_FORCES)
             if self.lengths_m is not None:
                 L = _lookup(t.column("member"), self.lengths_m)
                 beyond = x > L * (1 + 1e-9) + 1e-6

@@ -16,12 +16,26 @@ from rich.table import Table
 from adapters import csv_tables, ifc
 from adapters.errors import InputError
 from adapters.mapping import load_column_map
-from postproc import __version__, engine, explain, govern, report, schedule
+from postproc import __version__, bench, engine, engines, explain, govern, report, schedule
 from postproc.settings import load_settings, settings_from_dict
 from postproc.store import Store, StoreError
 
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
 SAMPLE = Path(__file__).resolve().parent.parent / "sample_results"
+
+
+def engine_options(q: argparse.ArgumentParser) -> None:
+    q.add_argument("--engine", choices=("local", "dask"), default="local",
+                   help="local (this machine) or dask (dask.distributed: a local cluster, or --scheduler)")
+    q.add_argument("--workers", type=int, default=min(2, os.cpu_count() or 1),
+                   help="worker processes (default: up to 2)")
+    q.add_argument("--scheduler", help="dask scheduler address, e.g. tcp://10.0.0.5:8786 (with --engine dask)")
+
+
+def map_parts(args):
+    if args.engine == "dask":
+        return engines.dask(args.scheduler, max(args.workers, 1))
+    return engines.local(args.workers)
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -45,10 +59,12 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--map", type=Path, help="column-mapping TOML for an analysis program's own export")
     r.add_argument("--out", type=Path, required=True, help="folder for members.csv and zones.csv")
     common(r)
+    engine_options(r)
 
     d = sub.add_parser("demo", help="design the demo building in sample_results/")
     d.add_argument("--out", type=Path, default=Path("shearpost-demo"), help="output folder (default ./shearpost-demo)")
     common(d)
+    engine_options(d)
 
     def stored(q: argparse.ArgumentParser, run_arg: bool = True) -> None:
         q.add_argument("--store", type=Path, default=Path("shearpost-store"), help="store folder (default ./shearpost-store)")
@@ -83,6 +99,16 @@ def _parser() -> argparse.ArgumentParser:
     sc.add_argument("--out", type=Path, required=True, help="folder for the schedule files")
     sc.add_argument("--envelope-groups", action="store_true",
                     help="members of one group with the same section and span share the most demanding layout")
+
+    b = sub.add_parser("bench", help="design a synthetic frame and time it against bare reads")
+    b.add_argument("--members", type=int, default=10_000, help="members (default 10,000)")
+    b.add_argument("--cases", type=int, default=40, help="factored combinations (default 40)")
+    b.add_argument("--stations", type=int, default=21, help="output stations per member (default 21)")
+    b.add_argument("--seed", type=int, default=1)
+    b.add_argument("--sample", type=int, default=30, help="members checked by the per-member reference")
+    b.add_argument("--keep", type=Path, help="keep the generated model and store in this folder")
+    b.add_argument("--json", action="store_true")
+    engine_options(b)
 
     e = sub.add_parser("explain", help="the whole calculation of one member, clause by clause")
     e.add_argument("member")
@@ -123,7 +149,7 @@ def main(argv: list[str] | None = None) -> int:
     console = Console(stderr=False)
     if args.command in REVIEW:
         try:
-            return REVIEW[args.command](args, Store(args.store), console)
+            return REVIEW[args.command](args, Store(getattr(args, "store", "shearpost-store")), console)
         except StoreError as exc:
             _error(f"error: {exc}")
             return EXIT_USAGE
@@ -140,6 +166,7 @@ def main(argv: list[str] | None = None) -> int:
     except StoreError as exc:
         _error(f"error: {exc}")
         return EXIT_USAGE
+    show_progress = not args.json and sys.stderr.isatty()
     try:
         settings = load_settings(args.config)
         cmap = load_column_map(args.map, csv_tables.KNOWN_COLUMNS)
@@ -156,7 +183,27 @@ def main(argv: list[str] | None = None) -> int:
         for role, path in (("cases", args.cases), ("column_map", args.map), ("settings", args.config)):
             if path:
                 inputs[role] = path
-        run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()})
+        holder = {}
+
+        def design(staged) -> None:
+            """Design the staged run into its design/ folder before the run becomes visible."""
+            if args.members.suffix.lower() == ".ifc":
+                found = {m: L for m, L in zip(members.column("member").to_pylist(),
+                                              members.column("length_m").to_pylist()) if L is not None}
+                warnings.extend(ifc.length_mismatches(found, staged.forces(["member", "x_m"]),
+                                                      settings.ifc.length_tolerance_mm))
+            folder = staged.design_path
+            folder.mkdir()
+            advance = holder["task"]("designing (parts)", len(staged.force_parts()))
+            holder["result"] = result = engine.design_into(staged, settings, folder, map_parts(args), advance)
+            result.warnings[:0] = warnings
+            (folder / "manifest.json").write_text(report.dump_json(engine.design_manifest(result, settings)),
+                                                  encoding="utf-8")
+
+        with report.progress_bars(show_progress) as task:
+            holder["task"] = task
+            run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()},
+                               progress=task("reading forces (rows)"), then=design)
     except InputError as exc:
         _error(f"error: {exc}")
         _error("nothing was written")
@@ -164,19 +211,6 @@ def main(argv: list[str] | None = None) -> int:
     except StoreError as exc:
         _error(f"error: {exc}")
         return EXIT_USAGE
-    if args.members.suffix.lower() == ".ifc":
-        lengths = {m: L for m, L in zip(members.column("member").to_pylist(), members.column("length_m").to_pylist())
-                   if L is not None}
-        warnings += ifc.length_mismatches(lengths, run.forces(["member", "x_m"]), settings.ifc.length_tolerance_mm)
-    holder = {}
-
-    def design(folder: Path) -> None:
-        holder["result"] = result = engine.design_into(run, settings, folder)
-        result.warnings[:0] = warnings
-        report_json = engine.design_manifest(result, settings)
-        (folder / "manifest.json").write_text(report.dump_json(report_json), encoding="utf-8")
-
-    store.write_design(run, design)
     result = holder["result"]
     report.write_tables(result, args.out)
     doc = report.summary(result, run.name, args.out)
@@ -203,7 +237,7 @@ def _print_frame(df, console: Console, title: str) -> None:
         t.add_column(str(col), justify="right" if numeric else "left", no_wrap=str(col) in ("member", "rank", "status"),
                      overflow="fold")
     for row in df.itertuples(index=False):
-        t.add_row(*["" if (isinstance(v, float) and v != v) else (f"{v:,.{n}f}" if isinstance(v, float) else str(v))
+        t.add_row(*["" if (isinstance(v, float) and v != v) else (f"{v:,.{n}f}" if isinstance(v, float) else report.shown(v))
                     for v, n in zip(row, digits)])
     console.print(t)
 
@@ -231,8 +265,8 @@ def cmd_compare(args, store: Store, console: Console) -> int:
         print(report.dump_json(diff.as_dict()))
     else:
         console.print(f"[bold]{diff.run_a}[/bold] -> [bold]{diff.run_b}[/bold]")
-        console.print(f"added: {', '.join(diff.added) or 'none'}", markup=False)
-        console.print(f"removed: {', '.join(diff.removed) or 'none'}", markup=False)
+        console.print(f"added: {report.shown(', '.join(diff.added) or 'none')}")
+        console.print(f"removed: {report.shown(', '.join(diff.removed) or 'none')}")
         for df, title in ((diff.status_changes, "Status changes"),
                           (diff.demand_changes, f"Design shear changes above {args.vu_threshold:.0%}"),
                           (diff.utilization_changes, f"Utilization changes above {args.threshold:g}"),
@@ -244,7 +278,7 @@ def cmd_compare(args, store: Store, console: Console) -> int:
         console.print(f"Stirrup mass {diff.mass_a_kg:,.1f} kg -> {diff.mass_b_kg:,.1f} kg "
                       f"({diff.mass_b_kg - diff.mass_a_kg:+,.1f} kg)")
         if diff.newly_resize:
-            console.print(f"[bold]Newly need resizing:[/bold] {', '.join(diff.newly_resize)}", markup=False)
+            console.print(f"[bold]Newly need resizing:[/bold] {report.shown(', '.join(diff.newly_resize))}")
     return EXIT_RESIZE if args.fail_on_new_resize and diff.newly_resize else EXIT_OK
 
 
@@ -289,16 +323,34 @@ def cmd_explain(args, store: Store, console: Console) -> int:
         print(report.dump_json({"run": run.name, "member": args.member, "steps": [s.__dict__ for s in steps],
                                 "caution": report.CAUTION}))
         return EXIT_OK
-    console.print(f"[bold]{args.member}[/bold] in run {run.name}", markup=True, highlight=False)
+    console.print(f"[bold]{report.shown(args.member)}[/bold] in run {report.shown(run.name)}", highlight=False)
     for s in steps:
-        console.print(f"[bold]{s.title}[/bold]" + (f"  [dim]ACI 318-19 {s.clause}[/dim]" if s.clause else ""))
+        console.print(f"[bold]{report.shown(s.title)}[/bold]" + (f"  [dim]ACI 318-19 {s.clause}[/dim]" if s.clause else ""),
+                      highlight=False)
         for line in s.lines:
-            console.print(f"  {line}", markup=False, highlight=False)
+            console.print(f"  {report.shown(line)}", highlight=False)
     console.print(f"[italic]{report.CAUTION}[/italic]")
     return EXIT_OK
 
 
-REVIEW = {"govern": cmd_govern, "compare": cmd_compare, "runs": cmd_runs, "schedule": cmd_schedule,
+def cmd_bench(args, store: Store, console: Console) -> int:
+    show = not args.json and sys.stderr.isatty()
+    with report.progress_bars(show) as task:
+        figures = bench.run(args.members, args.cases, args.stations, args.seed, args.sample, map_parts(args),
+                            args.workers if args.engine == "local" else 0, args.keep, task("bench: reading forces (rows)"))
+    if args.json:
+        print(report.dump_json({**figures.__dict__, "end_to_end_s": figures.end_to_end_s}))
+        return EXIT_OK
+    t = Table(title="shearpost bench (one run, this machine)", title_justify="left", show_header=False)
+    t.add_column("what")
+    t.add_column("measured", overflow="fold")
+    for what, text in figures.rows():
+        t.add_row(what, text)
+    console.print(t)
+    return EXIT_OK
+
+
+REVIEW = {"bench": cmd_bench, "govern": cmd_govern, "compare": cmd_compare, "runs": cmd_runs, "schedule": cmd_schedule,
           "explain": cmd_explain}
 
 

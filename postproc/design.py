@@ -93,7 +93,7 @@ def required(sec: Section, Vu: np.ndarray, Nu: np.ndarray, Tu: np.ndarray) -> De
     has_torsion = bool(np.any(Tu > 0))
     if has_torsion:
         tth = aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
-        torsion = Tu >= phi * tth  # 22.7.1.1: below phi*Tth torsion may be neglected
+        torsion = (Tu > 0) & (Tu >= phi * tth)  # 22.7.1.1: below phi*Tth torsion may be neglected
     else:
         torsion = np.zeros(Vu.shape, bool)
     avmin_req = Vu > np.where(sec.avmin_exempt, np.inf, aci.av_min_threshold(fc, b, d, lam))
@@ -166,7 +166,7 @@ def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Dema
     with np.errstate(divide="ignore", invalid="ignore"):
         util = np.where(Vu > 0, Vu / phi_vn, 0.0)
         if np.any(Tu > 0):
-            torsion = Tu >= phi * aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
+            torsion = (Tu > 0) & (Tu >= phi * aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam))
             leg_s = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)  # one leg's area per length
             need = aci.av_over_s_for_vs(Vu / phi - vc, fyt, d) / np.maximum(legs, 1) + aci.at_over_s(Tu, sec.Aoh, fyt)
             util = np.maximum(util, np.where(torsion, np.where(leg_s > 0, need / leg_s, np.inf), 0.0))

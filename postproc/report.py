@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import json
 import os
@@ -10,6 +11,8 @@ from pathlib import Path
 
 import pandas as pd
 from rich.console import Console
+from rich.markup import escape
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from postproc.engine import MEMBER_COLUMNS, STATUSES, ZONE_COLUMNS, Result
@@ -56,7 +59,7 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
 
 
 def print_summary(doc: dict, console: Console) -> None:
-    console.print(f"[bold]shearpost[/bold] run [cyan]{doc['run']}[/cyan]: {doc['members']} members, "
+    console.print(f"[bold]shearpost[/bold] run [cyan]{shown(doc['run'])}[/cyan]: {doc['members']} members, "
                   f"{doc['combinations']['count']} combinations ({doc['combinations']['source']})")
     st = Table(title="Members by status", title_justify="left")
     st.add_column("status")
@@ -70,19 +73,28 @@ def print_summary(doc: dict, console: Console) -> None:
                       ("governing combination", "left"), ("Vu,i kN", "right"), ("Vu,j kN", "right")):
         gov.add_column(col, justify=just, overflow="fold")
     for g in doc["governing"]:
-        gov.add_row(str(g["member"]), g["status"], f"{g['utilization']:.3f}", str(g["governing_case"]),
+        gov.add_row(shown(g["member"]), g["status"], f"{g['utilization']:.3f}", shown(g["governing_case"]),
                     _num(g["vu_design_i_kN"]), _num(g["vu_design_j_kN"]))
     console.print(gov)
     console.print(f"Stirrups: {doc['stirrups_total']:,} sets, {doc['stirrup_mass_kg']:,.1f} kg")
     if doc["warnings"]:
         console.print(f"[yellow]{len(doc['warnings'])} warning(s):[/yellow]")
         for w in doc["warnings"][:15]:
-            console.print(f"  - {w}", markup=False, highlight=False)
+            console.print(f"  - {shown(w)}", highlight=False)
         if len(doc["warnings"]) > 15:
             console.print(f"  ... and {len(doc['warnings']) - 15} more (see --json)")
     if doc["output"]:
         console.print(f"Tables written to {doc['output']}/members.csv and zones.csv")
     console.print(f"[italic]{doc['caution']}[/italic]")
+
+
+_CONTROL = {c: f"\\x{c:02x}" for c in [*range(0x00, 0x20), 0x7F]}
+
+
+def shown(value) -> str:
+    """Text for the terminal: control characters made visible (\\x1b, not an escape
+    sequence) and rich markup escaped, so member ids print exactly as they are."""
+    return escape(str(value).translate(_CONTROL))
 
 
 def _num(v) -> str:
@@ -91,3 +103,18 @@ def _num(v) -> str:
 
 def dump_json(doc: dict) -> str:
     return json.dumps(doc, indent=2, default=float)
+
+
+@contextlib.contextmanager
+def progress_bars(enabled: bool):
+    """Rich progress bars for long steps; ``task(description, total)`` returns an advance
+    function. Silent (no-op advances) when disabled: --json, or output not a terminal."""
+    if not enabled:
+        yield lambda description, total=None: (lambda n=1: None)
+        return
+    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
+    with Progress(*columns, console=Console(stderr=True), transient=True) as bars:
+        def task(description: str, total: float | None = None):
+            tid = bars.add_task(description, total=total)
+            return lambda n=1: bars.advance(tid, n)
+        yield task

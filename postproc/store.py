@@ -24,6 +24,7 @@ import re
 import shutil
 import uuid
 import zlib
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -37,7 +38,8 @@ from postproc import __version__
 from postproc.codes import aci318_19
 
 UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment": "kN*m", "stress": "MPa"}
-PART_BYTES = 96 << 20  # CSV bytes per stored part of the forces
+PART_BYTES = 48 << 20  # CSV bytes per stored part of the forces
+MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memory, larger ones spill to disk
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
 
 
@@ -98,7 +100,7 @@ class Store:
 
     def run(self, name: str) -> Run:
         r = Run(self.root / name)
-        if not _NAME.match(name) or not (r.path / "manifest.json").exists():
+        if not _NAME.fullmatch(name) or not (r.path / "manifest.json").exists():
             raise StoreError(f"no run named '{name}' in {self.root}")
         return r
 
@@ -118,7 +120,7 @@ class Store:
         return f"{stamp}-{k:03d}"
 
     def check_new_name(self, name: str) -> None:
-        if not _NAME.match(name):
+        if not _NAME.fullmatch(name):
             raise StoreError(f"run name '{name}' is not allowed: use letters, digits, '.', '_' and '-' "
                              "(at most 100, not starting with '.' or '-')")
         if (self.root / name).exists():
@@ -126,8 +128,10 @@ class Store:
                              "choose another --run name")
 
     def ingest(self, name: str, members: pa.Table, cases: pa.Table | None, source, inputs: dict[str, Path],
-               warnings: list[str], extra: dict | None = None, progress=None) -> Run:
-        """Write a new run atomically and return it.
+               warnings: list[str], extra: dict | None = None, progress=None, then=None) -> Run:
+        """Write a new run atomically and return it. ``then(run)``, if given, runs on the
+        complete but not yet visible run (the design stage writes its design/ there), so
+        that the run appears with its design or not at all.
 
         ``source`` streams validated force batches (``batches()``, ``check_part()``,
         ``size()``, see adapters.csv_tables.ForcesReader). Rows are spread over parts by a
@@ -142,9 +146,7 @@ class Store:
             pq.write_table(members, tmp / "members.parquet")
             if cases is not None:
                 pq.write_table(cases, tmp / "cases.parquet")
-            spill = tmp / "spill"
-            spill.mkdir()
-            writers: dict[int, pq.ParquetWriter] = {}
+            parts = _PartBuffer(tmp / "spill", in_memory=source.size() <= MEMORY_BYTES)
             try:
                 for batch in source.batches():
                     part = part_of(batch.column("member"), n_parts)
@@ -152,21 +154,21 @@ class Store:
                     batch = batch.take(order)
                     bounds = np.searchsorted(part[order], np.arange(n_parts + 1))
                     for k in np.flatnonzero(np.diff(bounds)):
-                        if k not in writers:  # uncompressed: read back once, soon
-                            writers[k] = pq.ParquetWriter(spill / f"{k:05d}.parquet", batch.schema, compression="none")
-                        writers[k].write_table(batch.slice(bounds[k], bounds[k + 1] - bounds[k]))
+                        parts.add(int(k), batch.slice(bounds[k], bounds[k + 1] - bounds[k]))
                     if progress:
                         progress(batch.num_rows)
             finally:
-                for w in writers.values():
-                    w.close()
+                parts.close()
             (tmp / "forces").mkdir()
-            for k in sorted(writers):
-                t = sort_part(pq.read_table(spill / f"{k:05d}.parquet"))
+
+            def finish(k: int) -> None:
+                t = sort_part(parts.take(k))
                 source.check_part(t)
                 pq.write_table(t.drop_columns(["_row"]), tmp / "forces" / f"part-{k:05d}.parquet")
-                (spill / f"{k:05d}.parquet").unlink()
-            spill.rmdir()
+
+            with ThreadPoolExecutor(max_workers=2) as pool:  # sorting and writing release the GIL
+                list(pool.map(finish, parts.keys()))
+            parts.remove()
             manifest = {
                 "run": name,
                 "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
@@ -174,13 +176,15 @@ class Store:
                 "code_edition": aci318_19.EDITION,
                 "units": UNITS,
                 "inputs": {role: {"path": str(p), "sha256": sha256_of(p)} for role, p in inputs.items()},
-                "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(writers),
+                "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(parts.keys()),
                            "cases": None if cases is None else cases.num_rows},
                 "cases": sorted(source.case_names),
                 "warnings": warnings,
                 **(extra or {}),
             }
             _write_json(tmp / "manifest.json", manifest)
+            if then is not None:
+                then(Run(tmp))
 
         self._atomic(self.root / name, write)
         return Run(self.root / name)
@@ -214,6 +218,44 @@ class Store:
                 shutil.rmtree(tmp, ignore_errors=True)
             if not done and created and not any(staging.iterdir()):
                 staging.rmdir()  # a failed first write leaves no empty store behind
+
+
+class _PartBuffer:
+    """Rows gathered per part: in memory for files up to MEMORY_BYTES, else in spill files."""
+
+    def __init__(self, folder: Path, in_memory: bool):
+        self.folder, self.in_memory = folder, in_memory
+        self.tables: dict[int, list[pa.Table]] = {}
+        self.writers: dict[int, pq.ParquetWriter] = {}
+        if not in_memory:
+            folder.mkdir()
+
+    def add(self, k: int, t: pa.Table) -> None:
+        if self.in_memory:
+            self.tables.setdefault(k, []).append(t)
+            return
+        if k not in self.writers:  # uncompressed: read back once, soon
+            self.writers[k] = pq.ParquetWriter(self.folder / f"{k:05d}.parquet", t.schema, compression="none")
+        self.writers[k].write_table(t)
+
+    def close(self) -> None:
+        for w in self.writers.values():
+            w.close()
+
+    def keys(self) -> list[int]:
+        return sorted(self.tables if self.in_memory else self.writers)
+
+    def take(self, k: int) -> pa.Table:
+        if self.in_memory:
+            return pa.concat_tables(self.tables.pop(k))
+        path = self.folder / f"{k:05d}.parquet"
+        t = pq.read_table(path)
+        path.unlink()
+        return t
+
+    def remove(self) -> None:
+        if not self.in_memory:
+            shutil.rmtree(self.folder, ignore_errors=True)
 
 
 def part_of(member: pa.ChunkedArray | pa.Array, n_parts: int) -> np.ndarray:

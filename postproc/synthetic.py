@@ -14,13 +14,32 @@ import pyarrow as pa
 import pyarrow.csv as pcsv
 
 
+CHUNK = 2000  # members generated and written at a time: memory stays flat for any size
+
+
 def generate(folder: Path, members: int, cases: int, stations: int, seed: int = 1) -> dict[str, Path]:
     """Write members.csv and forces.csv with ``members`` beams, ``cases`` factored
     combinations and ``stations`` equally spaced stations per member (plus two rows
-    at each point load). Returns the paths."""
-    rng = np.random.default_rng(seed)
+    at each point load). The same arguments always give the same files. Returns the paths."""
     folder.mkdir(parents=True, exist_ok=True)
-    n = members
+    paths = {"members": folder / "members.csv", "forces": folder / "forces.csv"}
+    m_writer = f_writer = None
+    try:
+        for first in range(0, members, CHUNK):
+            mtab, ftab = _chunk(first, min(CHUNK, members - first), cases, stations, np.random.default_rng([seed, first]))
+            if m_writer is None:
+                m_writer = pcsv.CSVWriter(paths["members"], mtab.schema)
+                f_writer = pcsv.CSVWriter(paths["forces"], ftab.schema)
+            m_writer.write_table(mtab)
+            f_writer.write_table(ftab)
+    finally:
+        for w in (m_writer, f_writer):
+            if w is not None:
+                w.close()
+    return paths
+
+
+def _chunk(first: int, n: int, cases: int, stations: int, rng) -> tuple[pa.Table, pa.Table]:
     kind = rng.random(n)
     cantilever = kind < 0.05
     on_girder = (kind >= 0.05) & (kind < 0.25)
@@ -29,16 +48,15 @@ def generate(folder: Path, members: int, cases: int, stations: int, seed: int = 
     h = np.maximum(h, np.ceil(L * 1000 / 12 / 50) * 50)  # span/depth about 12 or less
     b = rng.choice([300.0, 350.0, 400.0, 450.0, 500.0], n)
     face = rng.choice([200.0, 250.0, 300.0], n)
-    names = np.char.add("SB", np.arange(n).astype(str))
+    names = np.char.add("SB", np.arange(first, first + n).astype(str))
     mtab = pa.table({
         "member": names, "length_m": L, "b_mm": b, "h_mm": h, "cover_mm": np.full(n, 60.0),
         "fc_mpa": rng.choice([28.0, 35.0, 40.0], n), "fyt_mpa": np.full(n, 420.0),
         "support_i": np.where(on_girder, "girder", "column"), "support_j": np.where(cantilever, "free", "column"),
         "face_i_mm": np.where(on_girder, 150.0, face), "face_j_mm": np.where(cantilever, 0.0, face),
         "as_tension_mm2": np.where(rng.random(n) < 0.5, (rng.uniform(0.005, 0.015, n) * b * (h - 60)).round(0), np.nan),
-        "level": np.char.add("L", (np.arange(n) % 20 + 1).astype(str)),
+        "level": np.char.add("L", (np.arange(first, first + n) % 20 + 1).astype(str)),
     })
-    pcsv.write_csv(mtab, folder / "members.csv")
 
     # shear of every member x case at the equally spaced stations, with one point load in 30 % of members
     t = np.linspace(0.0, 1.0, stations)
@@ -69,6 +87,4 @@ def generate(folder: Path, members: int, cases: int, stations: int, seed: int = 
     jump = {"member": np.repeat(names[jm], 2), "case": np.repeat(np.char.add("C", (jc + 1).astype(str)), 2),
             "x_m": np.repeat(xa, 2).round(4), "V_kN": np.column_stack([left, left - P[jm, jc]]).ravel().round(3),
             "N_kN": np.repeat(N[jm, jc], 2).round(3), "T_kNm": np.repeat(T[jm, jc], 2).round(3)}
-    table = pa.concat_tables([pa.table(cols), pa.table(jump)])
-    pcsv.write_csv(table, folder / "forces.csv")
-    return {"members": folder / "members.csv", "forces": folder / "forces.csv"}
+    return mtab, pa.concat_tables([pa.table(cols), pa.table(jump)])

@@ -1,0 +1,142 @@
+"""`shearpost bench`: a synthetic frame designed end to end, timed against bare reads.
+
+Everything is measured in one run on this machine, so the ratios compare like with
+like; the absolute seconds depend on the machine and its load.
+"""
+
+from __future__ import annotations
+
+import resource
+import shutil
+import tempfile
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyarrow.csv as pcsv
+import pyarrow.parquet as pq
+
+from adapters import csv_tables
+from adapters.mapping import ColumnMap
+from postproc import engine, reference, synthetic
+from postproc.settings import Settings
+from postproc.store import Store
+
+
+@dataclass
+class Figures:
+    members: int
+    cases: int
+    stations: int
+    force_rows: int
+    csv_mb: float
+    generate_s: float
+    csv_read_s: float
+    ingest_s: float
+    store_read_s: float
+    design_s: float
+    reference_members: int
+    reference_s_per_member: float
+    engine_s_per_member: float
+    peak_rss_mb: float
+    workers: int
+
+    @property
+    def end_to_end_s(self) -> float:
+        return self.ingest_s + self.design_s
+
+    def rows(self) -> list[tuple[str, str]]:
+        return [
+            ("model", f"{self.members:,} members x {self.cases} combinations x {self.stations} stations "
+                      f"= {self.force_rows:,} force rows ({self.csv_mb:,.0f} MB of CSV)"),
+            ("ingest from CSV", f"{self.ingest_s:.2f} s = {self.ingest_s / self.csv_read_s:.1f} x the bare pyarrow "
+                                f"CSV read ({self.csv_read_s:.2f} s)"),
+            ("design from the store", f"{self.design_s:.2f} s = {self.design_s / self.store_read_s:.1f} x the bare "
+                                      f"read of the force columns ({self.store_read_s:.2f} s)"),
+            ("per-member reference", f"{self.reference_s_per_member * 1e3:.1f} ms/member on {self.reference_members} "
+                                     f"members, identical results; the engine is "
+                                     f"{self.reference_s_per_member / self.engine_s_per_member:,.0f} x faster"),
+            ("end to end (ingest + design)", f"{self.end_to_end_s:.2f} s with {self.workers} worker(s)"),
+            ("peak resident memory", f"{self.peak_rss_mb:,.0f} MB"),
+        ]
+
+
+def _peak_rss_mb() -> float:
+    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    return max(own, children) / 1024.0  # ru_maxrss is in KiB on Linux
+
+
+def run(members: int, cases: int, stations: int, seed: int, sample: int, map_parts, workers: int,
+        folder: Path | None = None, progress=None) -> Figures:
+    tmp = Path(folder) if folder else Path(tempfile.mkdtemp(prefix="shearpost-bench-"))
+    try:
+        t = time.perf_counter()
+        paths = synthetic.generate(tmp / "model", members, cases, stations, seed)
+        generate_s = time.perf_counter() - t
+
+        t = time.perf_counter()
+        bare = pcsv.read_csv(paths["forces"])
+        pcsv.read_csv(paths["members"])
+        csv_read_s = time.perf_counter() - t
+        n_rows = bare.num_rows
+        del bare
+
+        t = time.perf_counter()
+        table, warnings = csv_tables.read_members(paths["members"], ColumnMap())
+        lengths = dict(zip(table.column("member").to_pylist(), table.column("length_m").to_pylist()))
+        source = csv_tables.ForcesReader(paths["forces"], ColumnMap(), lengths)
+        store = Store(tmp / "store")
+        run_ = store.ingest("bench", table, None, source, dict(paths), warnings, progress=progress)
+        ingest_s = time.perf_counter() - t
+
+        t = time.perf_counter()
+        pq.read_table(run_.path / "forces", columns=["member", "case", "x_m", "V_kN", "N_kN", "T_kNm"])
+        store_read_s = time.perf_counter() - t
+
+        settings = Settings()
+        holder = {}
+        t = time.perf_counter()
+        store.write_design(run_, lambda f: holder.setdefault("r", engine.design_into(run_, settings, f, map_parts)))
+        design_s = time.perf_counter() - t
+        result = holder["r"]
+
+        ref_s, n_ref = _reference_check(run_, result, settings, sample, seed)
+        return Figures(members, cases, stations, n_rows, paths["forces"].stat().st_size / 1e6, generate_s, csv_read_s,
+                       ingest_s, store_read_s, design_s, n_ref, ref_s / max(n_ref, 1), design_s / members,
+                       _peak_rss_mb(), workers)
+    finally:
+        if folder is None:
+            shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -> tuple[float, int]:
+    """Design a random sample of members with the per-member reference; results must be identical."""
+    members = run_.members().to_pandas().set_index("member", drop=False)
+    rng = np.random.default_rng(seed)
+    names = sorted(rng.choice(members.index.to_numpy(), size=min(sample, len(members)), replace=False))
+    forces = pq.read_table(run_.path / "forces", filters=[("member", "in", names)]).to_pandas()
+    cset = result.combos
+    out = result.members.set_index("member")
+    zones = result.zones
+    t = time.perf_counter()
+    refs = [reference.design_member(members.loc[m], forces[forces.member == m], cset.names, cset.factors, cset.cases,
+                                    settings) for m in names]
+    elapsed = time.perf_counter() - t
+    for m, (row, ref_zones) in zip(names, refs):
+        got = out.loc[m]
+        for key, value in row.items():
+            if key == "member":
+                continue
+            ok = np.isclose(float(got[key]), float(value), rtol=1e-9, atol=1e-9) if isinstance(value, float) \
+                else got[key] == value
+            if not ok:
+                raise AssertionError(f"reference and engine differ for {m}, {key}: {value!r} against {got[key]!r}")
+        mine = zones[zones.member == m].reset_index(drop=True)
+        theirs = pd.DataFrame(ref_zones, columns=list(mine.columns))
+        if len(mine) or len(theirs):
+            pd.testing.assert_frame_equal(mine.astype(theirs.dtypes.to_dict()) if len(theirs) else mine, theirs,
+                                          check_dtype=False, obj=f"zones of {m}")
+    return elapsed, len(names)
