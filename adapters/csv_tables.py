@@ -1,8 +1,9 @@
 """Readers and validators for members.csv, forces.csv and cases.csv (schema in DESIGN.md).
 
 Files are parsed by pyarrow. Validation is vectorised; only when something is wrong
-is the file looked at again to tell the exact line (blank lines and quoted line
-breaks make the data-row index differ from the line number).
+is the file looked at again to tell the exact line (blank lines make the data-row
+index differ from the line number). A value holding a line break is refused: no id,
+label or number has one, and it is the mark of a quote left open.
 """
 
 from __future__ import annotations
@@ -27,6 +28,7 @@ KINDS = ("beam", "column")
 LOAD_FACES = ("top", "bottom")
 CASE_TYPES = ("D", "L", "Lr", "S", "R", "W", "E")
 MAX_REPORTED = 20  # problems listed in one error before "and N more"
+csv.field_size_limit(2**31 - 1)  # the error path reads files with csv too: values of any length
 BROKEN = "a quoted value runs over a line break: is a quote unbalanced?"
 # A number as pyarrow reads one: ASCII digits, optional sign, point and exponent, or inf/nan.
 NUMBER = re.compile(r"^[+-]?((\d+\.?\d*|\.\d+)([eE][+-]?\d+)?|inf|infinity|nan)$", re.IGNORECASE | re.ASCII)
@@ -129,11 +131,16 @@ def _header(path: Path) -> list[str]:
     if path.is_dir():
         raise InputError(path, "is a folder, not a CSV file")
     with path.open("rb") as fh:
-        first = fh.readline()
-    if not first.strip():
+        head = fh.read(1 << 20)
+    if not head.strip():
         raise InputError(path, "the file is empty (no header line)", 1)
+    lines = head.splitlines()  # LF, CRLF and CR-only line ends alike
+    if not lines[0].strip():
+        raise InputError(path, "the first line is blank; the header must be on line 1", 1)
+    if len(lines) == 1 or not any(line.strip() for line in lines[1:]):
+        raise InputError(path, "has a header but no data rows", 1)
     try:
-        text = first.decode("utf-8-sig")
+        text = lines[0].decode("utf-8-sig")
     except UnicodeDecodeError:
         raise InputError(path, "the header is not UTF-8 text; save the file as UTF-8 CSV", 1) from None
     return [h.strip() for h in next(csv.reader([text]))]
@@ -142,13 +149,13 @@ def _header(path: Path) -> list[str]:
 def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, ...], exc: Exception) -> InputError:
     """Find the line and column behind a pyarrow parse or conversion failure."""
     raw = path.read_bytes()
+    raw = raw[3:] if raw.startswith(b"\xef\xbb\xbf") else raw  # offsets below count from after a BOM
     try:
-        raw.decode("utf-8-sig")
+        raw.decode("utf-8")
     except UnicodeDecodeError as bad:
         line = raw[: bad.start].count(b"\n") + 1
         return InputError(path, "not UTF-8 text (bytes that no UTF-8 text has); save the file as UTF-8 CSV", line)
-    text = raw.decode("utf-8-sig")
-    reader = csv.reader(io.StringIO(text, newline=""))
+    reader = csv.reader(io.StringIO(raw.decode("utf-8"), newline=""))
     index = {name: k for k, name in enumerate(header)}
     numeric = [(c.name, index[table.source_name(c.name)]) for c in cols if c.numeric and table.source_name(c.name) in index]
     start = 1
@@ -179,6 +186,7 @@ class CsvSpec:
     header: list[str]
     present: frozenset
     types: dict
+    quoted: bool  # the file has quote characters
 
     def read_options(self, block_size: int | None = None) -> pcsv.ReadOptions:
         """Our reading of the header (names trimmed) replaces pyarrow's."""
@@ -195,12 +203,16 @@ class CsvSpec:
         return _diagnose(self.path, self.header, self.table, self.cols, exc)
 
     def broken_rows(self, raw: pa.Table) -> np.ndarray:
-        """Rows where a text value holds a line break: an open quote ran on over lines."""
+        """Rows where a text value holds a line break: an open quote ran on over lines
+        (only possible where the file has quotes at all)."""
         bad = np.zeros(raw.num_rows, bool)
+        if not self.quoted:
+            return bad
         for name in raw.column_names:
             col = raw.column(name)
             if pa.types.is_string(col.type):
-                bad |= pac.match_substring_regex(col.fill_null(""), "[\r\n]").to_numpy(zero_copy_only=False)
+                for brk in ("\n", "\r"):
+                    bad |= pac.match_substring(col.fill_null(""), brk).to_numpy(zero_copy_only=False)
         return bad
 
     def to_ours(self, raw: pa.Table) -> pa.Table:
@@ -238,34 +250,37 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap)
     types = {h: pa.string() for h in header if h}
     types.update({table.source_name(c.name): (pa.float64() if c.numeric else pa.string())
                   for c in cols if table.source_name(c.name) in present})
-    _check_quotes(path)
-    return CsvSpec(path, cols, table, header, frozenset(present), types)
+    quotes = _check_quotes(path)
+    return CsvSpec(path, cols, table, header, frozenset(present), types, quotes > 0)
 
 
-def _check_quotes(path: Path) -> None:
-    """An odd number of quote characters means a quoted value never ends (a cut file, say)."""
+def _check_quotes(path: Path) -> int:
+    """An odd number of quote characters means a quoted value never ends (a cut file, say).
+    Returns the number of quote characters."""
     count = 0
     with open(path, "rb") as fh:
         for chunk in iter(lambda: fh.read(16 << 20), b""):
             count += chunk.count(b'"')
     if count % 2 == 0:
-        return
-    start = 1
+        return count
+    start = 1  # an odd count may also be a quote inside a value (B"1), which is text: find out
     with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
         reader = csv.reader(fh, strict=True)
         try:
             for _ in reader:
                 start = reader.line_num + 1
         except csv.Error:
-            pass
-    raise InputError(path, "a quoted value never ends (an unbalanced quote, or a cut file)", start)
+            raise InputError(path, "a quoted value never ends (an unbalanced quote, or a cut file)", start) from None
+    return count
 
 
 def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> tuple[pa.Table, Problems]:
     """Read one (small) CSV whole into a pyarrow table with our column names and units."""
     spec = prepare(path, name, cols, cmap)
     try:
-        raw = pcsv.read_csv(spec.path, read_options=spec.read_options(), convert_options=spec.convert_options())
+        # one block for the whole (small) file, so that no value, however long, straddles two blocks
+        block = max(1 << 20, spec.path.stat().st_size + 1)
+        raw = pcsv.read_csv(spec.path, read_options=spec.read_options(block), convert_options=spec.convert_options())
     except (pa.ArrowInvalid, pa.ArrowException) as exc:
         raise spec.diagnose(exc) from None
     out = spec.to_ours(raw)
@@ -302,7 +317,7 @@ def _check_required_numbers(t: pa.Table, cols: tuple[Col, ...], probs: Problems)
 
 # Magnitudes beyond which a value is taken as a unit mistake, not a structure (common practice).
 PLAUSIBLE_MEMBERS = {"length_m": (0.05, 500.0), "b_mm": (50.0, 20000.0), "h_mm": (50.0, 20000.0),
-                     "d_mm": (None, 20000.0), "cover_mm": (None, 1000.0), "fc_mpa": (None, 200.0),
+                     "d_mm": (25.0, 20000.0), "cover_mm": (None, 1000.0), "fc_mpa": (None, 200.0),
                      "fyt_mpa": (None, 2000.0), "fy_mpa": (None, 2000.0), "face_i_mm": (None, 20000.0),
                      "face_j_mm": (None, 20000.0), "bf_mm": (None, 50000.0), "hf_mm": (None, 5000.0),
                      "as_tension_mm2": (None, 1e7)}
@@ -367,6 +382,8 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     probs.add(~np.isnan(d_given) & (d_given >= h), "d_mm", "effective depth must be less than h_mm")
     probs.add(np.isnan(d_given) & ~np.isnan(cover) & ((cover <= 0) | (cover >= h)), "cover_mm",
               "must be greater than zero and less than h_mm")
+    probs.add(np.isnan(d_given) & (cover > 0) & (cover < h) & (h - cover < 25.0), "cover_mm",
+              "leaves an effective depth under 25 mm, not plausible: check the units")
 
     fc, fyt = _num(t, "fc_mpa"), _num(t, "fyt_mpa")
     probs.add(fc < aci.FC_MIN_MPA, "fc_mpa", f"f'c below {aci.FC_MIN_MPA:g} MPa, the least ACI 318-19 19.2.1.1 admits")
@@ -378,7 +395,8 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     face_i, face_j = np.nan_to_num(_num(t, "face_i_mm")), np.nan_to_num(_num(t, "face_j_mm"))
     probs.add(face_i < 0, "face_i_mm", "must not be negative")
     probs.add(face_j < 0, "face_j_mm", "must not be negative")
-    probs.add((face_i + face_j) >= L * 1000.0, "face_j_mm", "support faces leave no clear span")
+    with np.errstate(over="ignore"):  # an absurd length is reported by the plausibility check
+        probs.add((face_i + face_j) >= L * 1000.0, "face_j_mm", "support faces leave no clear span")
     bf, hf = _num(t, "bf_mm"), _num(t, "hf_mm")
     probs.add(~np.isnan(bf) & (bf < b), "bf_mm", "flange width must be at least the web width b_mm")
     probs.add(~np.isnan(hf) & ((hf <= 0) | (hf >= h)), "hf_mm", "flange thickness must be in (0, h_mm)")
@@ -486,9 +504,19 @@ class ForcesReader:
 
 def sort_part(t: pa.Table) -> pa.Table:
     """Rows by member, case and station; the file row breaks ties, so the two rows of a
-    jump keep their left-then-right order."""
-    return t.take(pac.sort_indices(t, [("member", "ascending"), ("case", "ascending"), ("x_m", "ascending"),
-                                       ("_row", "ascending")]))
+    jump keep their left-then-right order. Ids are sorted once as distinct values and
+    the rows by their ranks (much faster than comparing strings row by row)."""
+    keys = [_ranks(t.column("member")), _ranks(t.column("case")), t.column("x_m").to_numpy(),
+            t.column("_row").to_numpy()]
+    return t.take(pa.array(np.lexsort(keys[::-1])))
+
+
+def _ranks(col: pa.ChunkedArray) -> np.ndarray:
+    """Rank of each row's value among the distinct values, in the order Arrow sorts text."""
+    codes, values = _codes(col)
+    rank = np.empty(len(values), np.int64)
+    rank[np.argsort(np.array(values, dtype=object), kind="stable")] = np.arange(len(values))
+    return rank[codes]
 
 
 def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None) -> pa.Table:

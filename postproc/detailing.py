@@ -11,7 +11,7 @@ counting the middle zone, with spacings chosen to use the fewest stirrups.
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -25,7 +25,11 @@ class Zone:
     start: float  # mm from the face at end i
     end: float
     spacing: float  # inf: no stirrups in this zone
-    count: int
+    positions: np.ndarray = field(default_factory=lambda: np.empty(0))  # the zone's stirrups, mm from face i
+
+    @property
+    def count(self) -> int:
+        return len(self.positions)
 
 
 @dataclass
@@ -38,6 +42,10 @@ class Layout:
     @property
     def count(self) -> int:
         return sum(z.count for z in self.zones)
+
+    @property
+    def positions(self) -> np.ndarray:
+        return np.sort(np.concatenate([z.positions for z in self.zones])) if self.zones else np.empty(0)
 
 
 def hook_extension(db: float, degrees: int) -> float:
@@ -156,9 +164,12 @@ def _end_zones(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
                to_end: float | None) -> tuple[list[Zone], float, float]:
     """Zones from one face (u measured from it, ascending).
 
-    Returns the zones before the middle, the position of their last stirrup (0: none)
-    and the spacing of the middle zone. With ``to_end`` (a cantilever) the last zone
-    is included and its stirrups reach that distance from the face.
+    Each zone's stirrups follow the last stirrup of the zone before it at the zone's
+    spacing (the first one at the first-stirrup distance from the face), and the zone
+    ends on its last stirrup, past every station that needs its spacing. Returns the
+    zones before the middle, the position of their last stirrup (0: none) and the
+    spacing of the middle zone. With ``to_end`` (a cantilever) the last zone is included
+    and its stirrups reach that distance from the face.
     """
     suffix_min = np.minimum.accumulate(s_env[::-1])[::-1]  # nondecreasing toward the middle
     levels = choose_levels(u, suffix_min, max_zones)
@@ -173,7 +184,7 @@ def _end_zones(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
         # every station before the next level's first station needs a spacing <= s
         boundary = float(to_end) if is_last else float(u[starts[k + 1]])
         if not np.isfinite(s):
-            zones.append(Zone(last, boundary, np.inf, 0))
+            zones.append(Zone(last, boundary, np.inf))
             last = boundary
             continue
         if zones and last >= boundary:
@@ -183,10 +194,31 @@ def _end_zones(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
             n = max(1, int(np.floor((boundary - begin) / s + 1e-9)) + 1)
         else:
             n = max(1, int(np.ceil((boundary - begin) / s - 1e-9)) + 1)
-        end = begin + (n - 1) * s
-        zones.append(Zone(last, end, s, n))
-        last = end
+        pos = begin + s * np.arange(n)
+        zones.append(Zone(last, float(pos[-1]), s, pos))
+        last = float(pos[-1])
     return zones, last, float(levels[-1])
+
+
+def _middle(lo: float, hi: float, s: float, fixed_lo: float | None, fixed_hi: float | None) -> np.ndarray:
+    """Stirrups of the middle zone between the end zones' last stirrups lo and hi.
+
+    Between two end zones they sit at the spacing, centred, so that the two end gaps are
+    equal and between s/2 and s (no odd short gap). Where a side has no end zone its
+    first stirrup is at the first-stirrup distance (fixed_lo / fixed_hi) and the run
+    starts there; the far gap is then at most s.
+    """
+    if fixed_lo is None and fixed_hi is None:
+        n = max(int(np.ceil((hi - lo) / s - 1e-9)) - 1, 0)
+        g = (hi - lo - (n - 1) * s) / 2
+        return lo + g + s * np.arange(n)
+    if fixed_lo is not None:
+        end = hi if fixed_hi is None else fixed_hi
+        n = int(np.ceil((end - fixed_lo) / s - 1e-9)) + (0 if fixed_hi is None else 1)
+        pos = fixed_lo + s * np.arange(n)
+        return np.append(pos[pos < end - 1e-9], [] if fixed_hi is None else [fixed_hi])
+    n = int(np.ceil((fixed_hi - lo) / s - 1e-9))
+    return np.sort(fixed_hi - s * np.arange(n))
 
 
 def layout_member(x: np.ndarray, clear_span: float, need_av_s, need_at_s, s_max, s_across, stirrups_here,
@@ -206,7 +238,7 @@ def layout_member(x: np.ndarray, clear_span: float, need_av_s, need_at_s, s_max,
     else:
         return (f"no (bar, legs) of the ladder works at the {smin:g} mm minimum spacing: {'; '.join(tried)}")
     if np.all(np.isinf(s_env)):
-        return Layout(bar, legs, [Zone(0.0, clear_span, np.inf, 0)], "no stirrups required")
+        return Layout(bar, legs, [Zone(0.0, clear_span, np.inf)], "no stirrups required")
     zmax = st.max_zones_per_end
     if free_i or free_j:  # a cantilever: zones from the fixed end to the free end
         u = x if free_j else (clear_span - x)[::-1]
@@ -220,22 +252,28 @@ def layout_member(x: np.ndarray, clear_span: float, need_av_s, need_at_s, s_max,
     zi, last_i, mid_i = _end_zones(x[: m + 1], s_env[: m + 1], first, zmax, None)
     zj, last_j, mid_j = _end_zones((clear_span - x[m:])[::-1], s_env[m:][::-1], first, zmax, None)
     s_mid = min(mid_i, mid_j)
-    if np.isfinite(s_mid):
-        a = last_i if zi else first(s_mid)  # a stirrup of the middle zone where no end zone is
-        bnd = clear_span - (last_j if zj else first(s_mid))
-        if bnd - a <= 0:  # end zones meet: one zone at the tightest spacing throughout
-            s = float(np.min(s_env))
-            n = int(np.ceil((clear_span - 2 * first(s)) / s - 1e-9)) + 1
-            return Layout(bar, legs, [Zone(0.0, clear_span, s, n)], "end zones meet; one zone throughout")
-        n_mid = int(np.ceil((bnd - a) / s_mid - 1e-9)) - 1 + (not zi) + (not zj)
+    for side in (zi, zj):  # an end zone as wide as the middle is part of it
+        while side and side[-1].spacing >= s_mid:
+            side.pop()
+    last_i = zi[-1].end if zi else 0.0
+    last_j = zj[-1].end if zj else 0.0
+    lo, hi = last_i, clear_span - last_j
+    if not np.isfinite(s_mid):
+        middle = Zone(lo, hi, np.inf)
     else:
-        n_mid = 0
-    middle = Zone(last_i if zi else 0.0, clear_span - last_j if zj else clear_span, s_mid, n_mid)
+        f = first(s_mid)
+        if hi - lo <= 0 or (not zi and not zj and clear_span <= 2 * f):
+            s = float(np.min(s_env))  # end zones meet: one zone at the tightest spacing
+            n = int(np.ceil((clear_span - 2 * first(s)) / s - 1e-9)) + 1
+            pos = first(s) + np.linspace(0.0, clear_span - 2 * first(s), n) if n > 1 else np.array([clear_span / 2])
+            return Layout(bar, legs, [Zone(0.0, clear_span, s, pos)], "end zones meet; one zone throughout")
+        pos = _middle(lo, hi, s_mid, None if zi else f, None if zj else clear_span - f)
+        middle = Zone(lo, hi, s_mid, pos)
     return Layout(bar, legs, zi + [middle] + _mirror(zj, clear_span))
 
 
 def _mirror(zones: list[Zone], span: float) -> list[Zone]:
-    return [Zone(span - z.end, span - z.start, z.spacing, z.count) for z in reversed(zones)]
+    return [Zone(span - z.end, span - z.start, z.spacing, np.sort(span - z.positions)) for z in reversed(zones)]
 
 
 def provided_spacing(layout: Layout, x: np.ndarray) -> np.ndarray:

@@ -40,6 +40,7 @@ class Result:
     zones: pd.DataFrame
     combos: combos_mod.ComboSet
     warnings: list[str] = field(default_factory=list)
+    stirrups: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=["member", "x_mm"]))
 
 
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
@@ -59,6 +60,7 @@ class PartResult:
     stations: pd.DataFrame
     warnings: list[str]
     members: set[str]  # every member id found in the part's forces
+    stirrups: pd.DataFrame  # member, x_mm: every stirrup's position from face i
 
 
 def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, map_parts=map,
@@ -84,6 +86,7 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     beams = members[~is_column].sort_values("member").reset_index(drop=True)
 
     zones: list[dict] = []
+    stirrups: list[pd.DataFrame] = []
     seen: set[str] = set()
     task = functools.partial(design_part, beams=beams, cset=cset, settings=settings)
     for k, part in enumerate(map_parts(task, [str(p) for p in run.force_parts()])):
@@ -91,6 +94,7 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
         zones.extend(part.zones)
         warnings.extend(part.warnings)
         seen |= part.members
+        stirrups.append(part.stirrups)
         if stations_dir is not None and len(part.stations):
             stations_dir.mkdir(exist_ok=True)
             pq.write_table(pa.Table.from_pandas(part.stations, preserve_index=False),
@@ -107,7 +111,8 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
     zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
     zdf = zdf.assign(_o=zdf["member"].map(input_order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
-    return Result(out, zdf.reset_index(drop=True), cset, warnings)
+    positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
+    return Result(out, zdf.reset_index(drop=True), cset, warnings, positions)
 
 
 def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings) -> PartResult:
@@ -132,7 +137,7 @@ def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, 
         values = {k: v[order] for k, v in values.items()}
     bounds = np.searchsorted(f_member, np.arange(len(beams) + 1))
 
-    rows, zones, st_tables, warnings = [], [], [], []
+    rows, zones, st_tables, warnings, stirrups = [], [], [], [], []
     d = beams["d_mm"].to_numpy()
     clear = beams["length_m"].to_numpy() * 1e3 - beams["face_i_mm"].to_numpy() - beams["face_j_mm"].to_numpy()
     est = (clear / np.minimum(settings.stations.max_step_mm, d / settings.stations.steps_per_d) + 8) \
@@ -147,9 +152,11 @@ def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, 
         zones.extend(res[1])
         st_tables.append(res[2])
         warnings.extend(res[3])
+        stirrups.append(res[4])
         start = stop
     st_df = pd.concat(st_tables, ignore_index=True) if st_tables else pd.DataFrame()
-    return PartResult(rows, zones, st_df, warnings, seen)
+    positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
+    return PartResult(rows, zones, st_df, warnings, seen, positions)
 
 
 def _row(member, status, message, **kw) -> dict:
@@ -185,6 +192,14 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         lacking = [cset.cases[c] for c in np.flatnonzero(missing[:, grid.member == m].any(axis=1))]
         warnings.append(f"member {names[m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
 
+    first_row = np.searchsorted(samples.member, np.arange(n))
+    x_lo = np.minimum.reduceat(samples.x, first_row)
+    x_hi = np.maximum.reduceat(samples.x, first_row)
+    short = (x_lo > g.start + 10.0) | (x_hi < g.end - 10.0)  # 10 mm: rounding of exported stations
+    for m in np.flatnonzero(short):
+        warnings.append(f"member {names[m]}: forces cover x = {x_lo[m] / 1e3:.3f} to {x_hi[m] / 1e3:.3f} m only; "
+                        "the end values are held over the rest of the clear span")
+
     largest_db = max(BAR_CATALOGUE[b][0] for b, _ in st.ladder)
     sec_m = design.section_from_members(
         b=bm["b_mm"].to_numpy(), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
@@ -203,7 +218,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     resize = np.zeros(n, bool)
     np.logical_or.at(resize, grid.member, dem.section_ratio > 1.0)
 
-    rows, zones = [], []
+    rows, zones, stirrups = [], [], []
     spacing = np.full(len(grid.x), np.inf)
     legs_st = np.zeros(len(grid.x))
     area_st = np.zeros(len(grid.x))
@@ -269,6 +284,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
             mass = lay.count * detailing.set_mass(shapes)
             rows.append(_row(name, "designed", lay.message, stirrups_total=lay.count,
                              stirrup_mass_kg=round(mass, 2), **common))
+            stirrups.append(pd.DataFrame({"member": name, "x_mm": np.round(lay.positions, 1)}))
             for z, zone in enumerate(lay.zones, start=1):
                 zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
                                   bar=lay.bar if zone.count else "", legs=lay.legs if zone.count else 0,
@@ -281,7 +297,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         "member": names[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
         "governing_case": np.asarray(cset.names, object)[gov], "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
         "nu_kN": Nu[gov, cols] / 1e3, "tu_kNm": Tu[gov, cols] / 1e6,
-        "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[gov, cols], np.nan) / 1e3,
+        "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[np.argmax(Vu, axis=0), cols], np.nan) / 1e3,  # with vu_max's combination
         "phi_vn_limit_kN": dem.phi_vn_limit / 1e3,
         "avmin_threshold_kN": np.where(sec.avmin_exempt, dem.phi_vc_plain,
                                        aci.av_min_threshold(sec.fc, sec.b, sec.d, sec.lam)) / 1e3,
@@ -291,7 +307,8 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         "av_s_prov": np.where(on & np.isfinite(spacing), legs_st * area_st / spacing, np.where(on, 0.0, np.nan)),
         "utilization": util,
     })
-    return rows, zones, st_df, warnings
+    positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
+    return rows, zones, st_df, warnings, positions
 
 
 def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
@@ -328,6 +345,8 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     result = design_run(run, settings, folder / "stations", map_parts, progress)
     pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
+    pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, "x_mm": float}), preserve_index=False),
+                   folder / "stirrups.parquet")
     pq.write_table(pa.table({"combination": result.combos.names,
                              **{c: result.combos.factors[:, k] for k, c in enumerate(result.combos.cases)}}),
                    folder / "combinations.parquet")

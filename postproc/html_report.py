@@ -9,16 +9,18 @@ change the picture (the shear between loads is linear, and the stations are dens
 
 from __future__ import annotations
 
+import itertools
 import json
 import math
 import os
-import re
 import tempfile
 from html import escape
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
 from postproc.engine import STATUSES
@@ -35,15 +37,18 @@ W, LEFT, RIGHT = 960, 66, 22
 PW = W - LEFT - RIGHT
 TOP, PH = 52, 200  # plot area of the shear diagram
 BEAM_Y = TOP + PH + 56  # top of the beam in the elevation
-CHAR_W = 6.9  # mean advance of an 11 px sans-serif character, for label layout
-THIN_TOL_PX = 0.01  # a station this close to the chord of its neighbours is not drawn...
-THIN_EVERY = 16  # ...but one in this many always is, which bounds the error on curved envelopes
+CHAR_W = 7.2  # mean advance of an 11 px sans-serif character, for label layout
+THIN_TOL_PX = 0.25  # largest distance of a station left out of a line from the line drawn
 
 # sequential, perceptually uniform ramp, low -> high: evenly spaced anchors of a viridis-like map,
 # starting above its darkest fifth so that low values still show on the dark panel
 RAMP = np.array([[0x41, 0x44, 0x87], [0x2a, 0x78, 0x8e], [0x22, 0xa8, 0x84], [0x7a, 0xd1, 0x51],
                  [0xfd, 0xe7, 0x25]], float)
 NOT_DESIGNED = "#8d939b"
+# control characters, DEL and the bidirectional overrides and isolates, shown as escapes
+UNSEEN = {c: f"\\x{c:02x}" for c in (*range(0x20), 0x7F, *range(0x80, 0xA0))} | {
+    c: f"\\u{c:04x}" for c in (*range(0x202A, 0x202F), *range(0x2066, 0x206A))}
+VIEW_ANGLE = math.radians(20)  # plan axes X and Y rise this far from the horizontal (30 would be isometric)
 
 
 def write_html_report(run: Run, out_path: Path, members: list[str] | None = None) -> Path:
@@ -56,7 +61,8 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
         raise ValueError(f"run '{run.name}' has no design; design it with `shearpost run` first")
     data = _Data.load(run)
     detail = data.detail_codes(members)
-    body = [_header(data), _index(data, set(detail)), _overview(data), _details(data, detail)]
+    linked = set(detail)
+    body = [_header(data), _index(data, linked), _overview(data, linked), _details(data, detail)]
     page = _page(run.name, "".join(body), _legend_defs())
     out_path = Path(out_path)
     out_path.parent.mkdir(parents=True, exist_ok=True)
@@ -87,8 +93,10 @@ class _Data:
         slug = m["member"].astype(str).str.replace(r"[^A-Za-z0-9_-]+", "-", regex=True).str.strip("-").str[:40]
         m["anchor"] = "m" + pd.Series(np.arange(len(m)), dtype=str) + "-" + slug
         m["rank"] = m["status"].map(STATUS_RANK).fillna(len(STATUS_RANK))
-        m["order"] = np.lexsort((-m["utilization"].fillna(-np.inf).to_numpy(), m["rank"] > 0))
-        m["order"] = np.argsort(m["order"].to_numpy())  # position of each member in the default order
+        ranked = np.lexsort((-m["utilization"].fillna(-np.inf).to_numpy(), m["rank"].to_numpy() > 0))
+        order = np.empty(len(m), np.int64)
+        order[ranked] = np.arange(len(m))
+        m["order"] = order  # place in the default order: resize first, then utilization, largest first
         zones = pq.read_table(dp / "zones.parquet").to_pandas()
         manifest = json.loads((dp / "manifest.json").read_text(encoding="utf-8"))
         combos = pq.read_metadata(dp / "combinations.parquet").num_rows
@@ -105,21 +113,19 @@ class _Data:
             codes = np.unique([self.code[name] for name in members])
         return sorted(codes.tolist(), key=lambda k: self.m["order"].iat[k])
 
-    def stations(self, codes: list[int]) -> pd.DataFrame:
-        """The station trace of the given members, grouped by code, in station order."""
-        st = pq.read_table(self.run.design_path / "stations.parquet", columns=STATION_COLUMNS).to_pandas()
-        code = pd.Categorical(st["member"], categories=self.m["member"]).codes
-        sel = np.isin(code, codes)
-        st = st.loc[sel].drop(columns="member")
-        st.insert(0, "code", code[sel].astype(np.int64))
-        return st.sort_values("code", kind="stable").reset_index(drop=True)
+    def stations(self, codes: list[int]) -> dict[str, np.ndarray]:
+        """The station trace of the given members as arrays, grouped by code, in station order."""
+        t = pq.read_table(self.run.design_path / "stations", columns=STATION_COLUMNS)  # one file per part
+        names = pa.array([str(v) for v in self.m["member"]], pa.string())
+        code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
+        wanted = np.zeros(len(self.m) + 1, bool)  # the last entry stands for "not a member" (-1)
+        wanted[codes] = True
+        sel = np.flatnonzero(wanted[code])
+        sel = sel[np.argsort(code[sel], kind="stable")]
+        out = {c: t.column(c).to_numpy()[sel].astype(float) for c in STATION_COLUMNS[1:]}
+        out["code"] = code[sel]
+        return out
 
-    def first_stirrup(self, s: np.ndarray) -> np.ndarray:
-        """Distance of the first stirrup from a face, by the detailing setting it was designed with."""
-        det = self.design_manifest.get("settings", {}).get("detailing", {})
-        if det.get("first_stirrup", "fixed") == "half":
-            return s / 2.0
-        return np.full_like(s, float(det.get("first_stirrup_mm", 50.0)))
 
 
 # ----------------------------------------------------------------------------- page
@@ -128,21 +134,24 @@ class _Data:
 CSS = """
 :root{--ink:#1b1d21;--mute:#5d636b;--line:#d9dce0;--panel:#262a31}
 *{box-sizing:border-box}
-body{font:14px/1.45 system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;color:var(--ink);margin:0;background:#fafaf8}
+body{font:14px/1.45 system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;color:var(--ink);margin:0;
+background:#fafaf8}
 main{max-width:1000px;margin:0 auto;padding:16px 20px 60px}
 h1{font-size:22px;margin:8px 0 4px}h2{font-size:18px;margin:28px 0 8px;border-bottom:1px solid var(--line)}
 h3{font-size:16px;margin:0 0 4px;word-break:break-all}h3 a{font-size:12px;font-weight:400}
 nav a{margin-right:14px}a{color:#0b5394}
 .meta{color:var(--mute);margin:2px 0}
 .caution{border:2px solid var(--ink);background:#fff;padding:10px 14px;margin:12px 0;font-size:15px}
-.chips span{display:inline-block;border:1px solid var(--line);border-radius:10px;padding:1px 9px;margin:2px 4px 2px 0;background:#fff}
+.chips span{display:inline-block;border:1px solid var(--line);border-radius:10px;padding:1px 9px;margin:2px 4px 2px 0;
+background:#fff}
 .st{font-size:12px;border:1px solid var(--line);border-radius:9px;padding:0 7px;white-space:nowrap;background:#fff}
 .st-resize{font-weight:700;border:2px solid var(--ink)}
 .st-designed{color:var(--ink)}
 .st-other{color:var(--mute);font-style:italic}
 .scroll{max-height:460px;overflow:auto;border:1px solid var(--line);background:#fff}
 table{border-collapse:collapse;width:100%;font-size:13px}
-th{position:sticky;top:0;background:#eef0f2;text-align:left;padding:4px 8px;cursor:pointer;user-select:none;white-space:nowrap}
+th{position:sticky;top:0;background:#eef0f2;text-align:left;padding:4px 8px;cursor:pointer;user-select:none;
+white-space:nowrap}
 th[aria-sort=ascending]::after{content:" \\25B2"}th[aria-sort=descending]::after{content:" \\25BC"}
 td{padding:2px 8px;border-top:1px solid #eef0f2;white-space:nowrap}
 td.n,th.n{text-align:right;font-variant-numeric:tabular-nums}
@@ -164,7 +173,7 @@ svg .ttl{font-size:12px;fill:var(--ink)}
 .crit{stroke:#6b7079;stroke-width:1.2;stroke-dasharray:4 3}
 .beam{fill:#f2f0ea;stroke:#4a4f56;stroke-width:1.2}.sup{fill:#c9ccd1}
 .stir{stroke:#1b1d21;stroke-width:1}.dim{stroke:#6b7079;fill:none}
-.panel{fill:var(--panel)}.strip{fill:#30353d}.pt{fill:#e8eaed}.pt2{fill:#aeb4bb}
+.panel{fill:var(--panel)}.strip{fill:#30353d}.pt{fill:#e8eaed}
 .ov{stroke-width:2;stroke-linecap:round}.ovr{stroke-width:3.2;stroke-dasharray:7 4}
 .nd{stroke:#8d939b;stroke-width:1.3;stroke-dasharray:5 4}
 """
@@ -195,7 +204,7 @@ JS = """
 def _page(run_name: str, body: str, defs: str) -> str:
     return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
             f'<meta name="viewport" content="width=device-width,initial-scale=1">'
-            f"<title>shearpost report: {escape(run_name)}</title><style>{CSS}</style></head><body>"
+            f"<title>shearpost report: {_text(run_name)}</title><style>{CSS}</style></head><body>"
             f'<svg width="0" height="0" style="position:absolute" aria-hidden="true"><defs>{defs}</defs></svg>'
             f"<main>{body}</main><script>{JS}</script></body></html>\n")
 
@@ -208,40 +217,46 @@ def _header(data: _Data) -> str:
     source = ("cases taken as already factored combinations" if data.design_manifest.get("combinations_prefactored")
               else "ACI 318-19 Table 5.3.1 from basic load cases")
     counts = m["status"].value_counts()
-    chips = "".join(f"<span>{int(counts[s]):,} {escape(s)}</span>" for s in (*STATUSES, *sorted(set(counts.index) - set(STATUSES)))
-                    if s in counts.index)
+    shown = [*STATUSES, *sorted(set(counts.index) - set(STATUSES))]
+    chips = "".join(f"<span>{int(counts[s]):,} {_text(s)}</span>" for s in shown if s in counts.index)
     warnings = [*man.get("warnings", []), *data.design_manifest.get("warnings", [])]
     warn = ""
     if warnings:
-        items = "".join(f"<li>{escape(str(w))}</li>" for w in warnings[:200])
+        items = "".join(f"<li>{_text(w)}</li>" for w in warnings[:200])
         more = f"<li>... and {len(warnings) - 200:,} more</li>" if len(warnings) > 200 else ""
         warn = f"<details><summary>{len(warnings):,} warning(s)</summary><ul>{items}{more}</ul></details>"
     return (f'<header id="top"><h1>shearpost design report</h1>'
-            f'<p class="meta">run <b>{escape(str(man.get("run", data.run.name)))}</b> &middot; created {escape(when)} '
-            f"&middot; {escape(str(edition))} &middot; shearpost {escape(str(man.get('tool_version', '')))}</p>"
-            f'<p class="meta">{len(m):,} members &middot; {data.combinations:,} combinations ({escape(source)}) '
+            f'<p class="meta">run <b>{_text(man.get("run", data.run.name))}</b> &middot; created {_text(when)} '
+            f"&middot; {_text(edition)} &middot; shearpost {_text(man.get('tool_version', ''))}</p>"
+            f'<p class="meta">{len(m):,} members &middot; {data.combinations:,} combinations ({_text(source)}) '
             f"&middot; {int(m['stirrups_total'].fillna(0).sum()):,} stirrup sets, "
             f"{float(m['stirrup_mass_kg'].fillna(0).sum()):,.1f} kg</p>"
             f'<p class="chips">{chips}</p>'
-            f'<div class="caution" role="note"><strong>Caution.</strong> {escape(CAUTION)}</div>{warn}'
-            f'<nav><a href="#index">Index</a><a href="#overview">Overview</a><a href="#members">Members</a></nav></header>')
+            f'<div class="caution" role="note"><strong>Caution.</strong> {_text(CAUTION)}</div>{warn}'
+            f'<nav><a href="#index">Index</a><a href="#overview">Overview</a><a href="#members">Members</a></nav>'
+            f"</header>")
+
+
+def _text(value) -> str:
+    """Untrusted text (ids, labels, messages) for HTML: escaped, invisible controls made visible."""
+    return escape(str(value).translate(UNSEEN))
 
 
 def _status(status: str) -> str:
     cls = "st-resize" if status == "resize" else "st-designed" if status == "designed" else "st-other"
-    return f'<span class="st {cls}">{escape(status)}</span>'
+    return f'<span class="st {cls}">{_text(status)}</span>'
 
 
 def _index(data: _Data, linked: set[int]) -> str:
     m = data.m.sort_values("order")
     util = m["utilization"].map(lambda u: "" if pd.isna(u) else f"{u:.3f}")
     mass = m["stirrup_mass_kg"].map(lambda v: "" if pd.isna(v) else f"{v:.1f}")
-    text = {c: m[c].map(lambda v: "" if pd.isna(v) else escape(str(v))) for c in ("level", "group", "governing_case")}
+    text = {c: m[c].map(lambda v: "" if pd.isna(v) else _text(v)) for c in ("level", "group", "governing_case")}
     rows = []
     for k, name, anchor, status, rank, u, gov, lvl, grp, n, kg in zip(
             m.index, m["member"], m["anchor"], m["status"], m["rank"], util, text["governing_case"], text["level"],
             text["group"], m["stirrups_total"].fillna(0).astype(int), mass):
-        label = escape(str(name))
+        label = _text(name)
         ref = f'<a href="#{anchor}">{label}</a>' if k in linked else label
         cls = ' class="resize"' if status == "resize" else ""
         rows.append(f"<tr{cls}><td>{ref}</td><td>{lvl}</td><td>{grp}</td><td data-k=\"{int(rank)}\">{_status(status)}"
@@ -253,7 +268,8 @@ def _index(data: _Data, linked: set[int]) -> str:
     return (f'<section id="index"><h2>Index of members</h2>'
             f'<p class="meta">Members needing a resize first, then by utilization (largest first). '
             f"Click a column heading to sort.</p>"
-            f'<input id="filter" type="search" placeholder="filter rows (member, level, status...)" aria-label="filter">'
+            f'<input id="filter" type="search" placeholder="filter rows (member, level, status...)" '
+            f'aria-label="filter">'
             f'<div class="scroll"><table id="index-table"><thead><tr>{head}</tr></thead>'
             f"<tbody>{''.join(rows)}</tbody></table></div></section>")
 
@@ -293,22 +309,49 @@ def _points(code: np.ndarray, px: np.ndarray, py: np.ndarray) -> dict[int, str]:
 
 
 def thin(code: np.ndarray, px: np.ndarray, py: np.ndarray) -> np.ndarray:
-    """Mask of the points worth drawing: each member's ends, every corner, and one in THIN_EVERY."""
-    n = len(code)
-    keep = np.ones(n, bool)
-    if n < 3:
-        return keep
-    first = np.r_[True, code[1:] != code[:-1]]
-    last = np.r_[code[1:] != code[:-1], True]
-    ax, ay = px[1:-1] - px[:-2], py[1:-1] - py[:-2]
-    cx, cy = px[2:] - px[:-2], py[2:] - py[:-2]
-    chord = np.hypot(cx, cy)
+    """Mask of the points worth drawing (pixel coordinates, grouped by member code).
+
+    Repeated points go; each member's ends and every kink stay; then, as in Douglas-Peucker
+    but for all members at once, the point farthest from the line drawn between two kept
+    points comes back while it is more than THIN_TOL_PX away, so curves keep their shape.
+    """
+    if len(code) == 0:
+        return np.zeros(0, bool)
+    same = np.r_[False, (code[1:] == code[:-1]) & (np.abs(np.diff(px)) < 0.05) & (np.abs(np.diff(py)) < 0.05)]
+    idx = np.flatnonzero(~same)
+    code, x, y = code[idx], px[idx], py[idx]
+    n = len(idx)
+    k = np.arange(n)
+    keep = np.r_[True, code[1:] != code[:-1]] | np.r_[code[1:] != code[:-1], True]
+    inner = k[1:-1]
+    keep[1:-1] |= _from_segment(x, y, inner, inner - 1, inner + 1) > THIN_TOL_PX / 10
+    active = k  # points whose stretch between kept points may still need one back
+    while len(active):
+        a = np.maximum.accumulate(np.where(keep, k, 0))  # kept point before each point (or itself)
+        b = np.minimum.accumulate(np.where(keep, k, n - 1)[::-1])[::-1]  # and after
+        stretch = np.cumsum(keep) - 1
+        dist = _from_segment(x, y, active, a[active], b[active])
+        within = stretch[active]
+        starts = np.flatnonzero(np.r_[True, within[1:] != within[:-1]])
+        worst = np.repeat(np.maximum.reduceat(dist, starts), np.diff(np.r_[starts, len(within)]))
+        back = (dist > THIN_TOL_PX) & (dist == worst)
+        keep[active[back]] = True
+        split = np.zeros(stretch[-1] + 1, bool)
+        split[within[back]] = True
+        active = active[split[within]]
+    out = np.zeros(len(same), bool)
+    out[idx[keep]] = True
+    return out
+
+
+def _from_segment(x: np.ndarray, y: np.ndarray, p: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Distance of the points p from the segments a-b (indices into x, y)."""
+    dx, dy = x[b] - x[a], y[b] - y[a]
+    ex, ey = x[p] - x[a], y[p] - y[a]
+    length2 = dx * dx + dy * dy
     with np.errstate(invalid="ignore", divide="ignore"):
-        dev = np.abs(ax * cy - ay * cx) / chord
-    corner = ~(dev <= THIN_TOL_PX)  # NaN (a zero chord) counts as a corner
-    rank = np.arange(n) - np.maximum.accumulate(np.where(first, np.arange(n), 0))
-    keep[1:-1] = corner | (rank[1:-1] % THIN_EVERY == 0)
-    return keep | first | last
+        t = np.clip(np.where(length2 > 0, (ex * dx + ey * dy) / length2, 0.0), 0.0, 1.0)
+    return np.hypot(ex - t * dx, ey - t * dy)
 
 
 # ----------------------------------------------------------------------------- member sections
@@ -316,14 +359,21 @@ def thin(code: np.ndarray, px: np.ndarray, py: np.ndarray) -> np.ndarray:
 
 def _details(data: _Data, codes: list[int]) -> str:
     m = data.m
-    limited = len(codes) < len(m)
-    note = (f'<p class="meta">Detail sections for {len(codes):,} of {len(m):,} members.</p>' if limited else "")
+    note = ('<p class="meta">Each diagram runs along the clear span from the face of support i. The envelope is '
+            "the largest |Vu| of all combinations at each station, after the critical-section rule (9.4.3.2). "
+            "&phi;Vn provided is the capacity of the stirrup layout for the combination that governs the station, "
+            "with that combination's axial force and torsion; where another combination has the larger |Vu| but a "
+            "kinder axial force, the capacity line can pass below the envelope without a shortfall, and the dotted "
+            "line then shows Vu of the governing combination.</p>")
+    if len(codes) < len(m):
+        note += f'<p class="meta">Detail sections for {len(codes):,} of {len(m):,} members.</p>'
     if not codes:
         return f'<section id="members"><h2>Members</h2>{note}</section>'
     drawn = _Drawings(data, data.stations(codes), codes)
     parts = [f'<section id="members"><h2>Members</h2>{note}']
+    records = data.m.to_dict("records")
     for k in codes:
-        parts.append(_member_section(data, k, drawn))
+        parts.append(_member_section(records[k], k, drawn))
     parts.append("</section>")
     return "".join(parts)
 
@@ -331,45 +381,48 @@ def _details(data: _Data, codes: list[int]) -> str:
 class _Drawings:
     """Per-member SVG fragments computed for all stations at once."""
 
-    def __init__(self, data: _Data, st: pd.DataFrame, codes: list[int]):
+    def __init__(self, data: _Data, st: dict[str, np.ndarray], codes: list[int]):
         m = data.m
         n = len(m)
-        code = st["code"].to_numpy()
+        code = st["code"]
         self.has_st = np.zeros(n, bool)
         self.has_st[np.unique(code)] = True
         cs = m["clear_mm"].to_numpy(float)
         st_span = np.full(n, np.nan)
-        np.fmax.at(st_span, code, st["x_mm"].to_numpy())
+        np.fmax.at(st_span, code, st["x_mm"])
         self.cs = np.where(np.isfinite(cs) & (cs > 0), cs, st_span)
         self.sx = PW / np.where(self.cs > 0, self.cs, 1.0)
 
-        cols = {c: st[c].to_numpy(float) for c in STATION_COLUMNS[1:]}
         top = np.zeros(n)
         for c in ("vu_max_kN", "phi_vc_kN", "phi_vn_kN", "avmin_threshold_kN"):
-            np.fmax.at(top, code, cols[c])
+            np.fmax.at(top, code, st[c])
         lim_lo = np.full(n, np.inf)
-        np.fmin.at(lim_lo, code, cols["phi_vn_limit_kN"])
-        self.show_lim = lim_lo <= 1.25 * top
+        np.fmin.at(lim_lo, code, st["phi_vn_limit_kN"])
+        self.show_lim = lim_lo <= 1.25 * top  # the section limit (22.5.1.2) is drawn when it is near the plot
         lim_hi = np.zeros(n)
-        np.fmax.at(lim_hi, code, cols["phi_vn_limit_kN"])
+        np.fmax.at(lim_hi, code, st["phi_vn_limit_kN"])
         top = np.where(self.show_lim, np.fmax(top, lim_hi), top)
         top = np.where(top > 0, top, 1.0)
         self.ystep = nice_step(top * 1.04 / 5)
         self.ymax = np.ceil(top * 1.04 / self.ystep) * self.ystep
+        self.xstep = nice_step(self.cs / 9)
         under = np.zeros(n, bool)
-        np.logical_or.at(under, code, cols["phi_vn_kN"] < cols["vu_max_kN"] - 1e-6)
+        np.logical_or.at(under, code, st["phi_vn_kN"] < st["vu_max_kN"] - 1e-6)
         self.gov_line = under  # capacity of the governing combination below the envelope: draw that Vu too
 
-        x = cols["x_mm"]
+        x = st["x_mm"]
         px = LEFT + x * self.sx[code]
         self._yscale = PH / self.ymax
-        ypx = lambda v, c=code: TOP + PH - v * self._yscale[c]
-        self.env = _points(*self._thin(code, px, ypx(cols["vu_max_kN"])))
-        self.vc = _points(*self._thin(code, px, ypx(cols["phi_vc_kN"])))
-        self.avm = _points(*self._thin(code, px, ypx(cols["avmin_threshold_kN"])))
-        self.lim = _points(*self._thin(code, px, ypx(cols["phi_vn_limit_kN"]), self.show_lim[code]))
-        self.vug = _points(*self._thin(code, px, ypx(cols["vu_kN"]), self.gov_line[code]))
-        self.cap = _points(*self._thin(*self._steps(data, code, x, cols["phi_vn_kN"], cols["spacing_mm"])))
+
+        def line(column: str, sel: np.ndarray | None = None) -> dict[int, str]:
+            return _points(*self._thin(code, px, TOP + PH - st[column] * self._yscale[code], sel))
+
+        self.env = line("vu_max_kN")
+        self.vc = line("phi_vc_kN")
+        self.avm = line("avmin_threshold_kN")
+        self.lim = line("phi_vn_limit_kN", self.show_lim[code])
+        self.vug = line("vu_kN", self.gov_line[code])
+        self.cap = _points(*self._thin(*self._steps(data, code, x, st["phi_vn_kN"], st["spacing_mm"])))
         self.stirrups, self.zone_labels = _stirrups(data, codes)
 
     @staticmethod
@@ -399,98 +452,60 @@ class _Drawings:
         return ac, LEFT + ax * self.sx[ac], TOP + PH - av * self._yscale[ac]
 
 
-
 def _stirrups(data: _Data, codes: list[int]) -> tuple[dict[int, np.ndarray], dict[int, list]]:
-    """Stirrup positions (mm from face i) and zone labels per member, rebuilt from the zones.
-
-    End zones toward i end at their last stirrup (end_mm) and step back by the spacing;
-    end zones toward j start at their first stirrup (start_mm); the middle zone (the
-    widest spacing) starts one spacing after the zone before it, or at the first-stirrup
-    distance from a face, and its last gap may be shorter. A cantilever's zones run from
-    the fixed end; the one at the free end stops the first-stirrup distance short of it.
-    """
+    """Stirrup positions (mm from face i), as the detailing placed them, and zone labels per member."""
+    wanted = set(codes)
+    pos = pq.read_table(data.run.design_path / "stirrups.parquet").to_pandas()
+    pos = pos.assign(code=pos["member"].map(data.code))
+    out = {int(c): np.sort(g["x_mm"].to_numpy(float)) for c, g in pos[pos["code"].isin(wanted)].groupby("code")}
     z = data.zones.assign(code=data.zones["member"].map(data.code))
-    z = z[z["code"].isin(codes)].sort_values(["code", "zone"], kind="stable").reset_index(drop=True)
-    if z.empty:
-        return {}, {}
-    m = data.m
-    c = z["code"].to_numpy(np.int64)
-    s = z["spacing_mm"].to_numpy(float)
-    s_eff = np.where(np.isfinite(s), s, np.inf)
-    start, end, n = z["start_mm"].to_numpy(float), z["end_mm"].to_numpy(float), z["count"].to_numpy(np.int64)
-    first = np.r_[True, c[1:] != c[:-1]]
-    last = np.r_[c[1:] != c[:-1], True]
-    free_i = (m["support_i"].to_numpy(object) == "free")[c]
-    free_j = (m["support_j"].to_numpy(object) == "free")[c]
-    half = (m["clear_mm"].to_numpy(float) / 2)[c]
-
-    widest = s_eff == pd.Series(s_eff).groupby(c).transform("max").to_numpy()
-    score = pd.Series(widest * (2.0 + ((start <= half) & (half <= end))))
-    is_mid = np.zeros(len(z), bool)
-    is_mid[score.groupby(c).idxmax().to_numpy()] = True
-    is_mid = np.where(free_j, last, np.where(free_i, first, is_mid))
-    toward_i = ~is_mid & (pd.Series(is_mid).groupby(c).cumsum().to_numpy() == 0)
-    mirrored = is_mid & free_i  # the free-end zone of a cantilever fixed at j
-
-    f = data.first_stirrup(np.where(np.isfinite(s), s, 0.0))
-    anchor = np.where(toward_i, end, start)
-    anchor = np.where(is_mid & ~mirrored, start + np.where(first, f, s_eff), anchor)
-    anchor = np.where(mirrored, end - np.where(last, f, s_eff), anchor)
-    step = np.where(toward_i | mirrored, -s_eff, s_eff)
-    hi = np.where(is_mid & ~mirrored, end - np.where(last, f, 0.0), np.inf)
-    lo = np.where(mirrored, start + np.where(first, f, 0.0), -np.inf)
-
-    zi = np.flatnonzero((n > 0) & np.isfinite(s))
-    reps = n[zi]
-    k = np.arange(reps.sum()) - np.repeat(np.cumsum(reps) - reps, reps)
-    pos = np.clip(np.repeat(anchor[zi], reps) + np.repeat(step[zi], reps) * k,
-                  np.repeat(lo[zi], reps), np.repeat(hi[zi], reps))
-    pc = np.repeat(c[zi], reps)
-    out: dict[int, np.ndarray] = {}
-    bounds = np.flatnonzero(np.r_[True, pc[1:] != pc[:-1]]) if len(pc) else np.array([], int)
-    for a, e in zip(bounds.tolist(), np.r_[bounds[1:], len(pc)].tolist()):
-        out[int(pc[a])] = np.sort(pos[a:e])
+    z = z[z["code"].isin(wanted)].sort_values(["code", "zone"], kind="stable")
     labels: dict[int, list] = {}
-    for code, z0, z1, cnt, bar, legs, sp in zip(c.tolist(), start.tolist(), end.tolist(), n.tolist(),
-                                                z["bar"].tolist(), z["legs"].tolist(), s.tolist()):
+    for code, z0, z1, cnt, bar, legs, sp in zip(z["code"].tolist(), z["start_mm"].tolist(), z["end_mm"].tolist(),
+                                                z["count"].tolist(), z["bar"].tolist(), z["legs"].tolist(),
+                                                z["spacing_mm"].tolist()):
         text = f"{cnt} {bar} x{legs} @ {sp:g}" if cnt and math.isfinite(sp) else "no stirrups"
-        labels.setdefault(code, []).append((z0, z1, text))
+        labels.setdefault(int(code), []).append((z0, z1, text))
     return out, labels
 
 
+def _given(v) -> bool:
+    """Not missing: neither None, NA, NaN nor an empty string."""
+    return v is not None and v is not pd.NA and v == v and v != ""
+
+
 def _fmt(v, spec: str = ".1f", unit: str = "") -> str:
-    return "n/a" if v is None or pd.isna(v) else f"{v:{spec}}{unit}"
+    return f"{v:{spec}}{unit}" if _given(v) else "n/a"
 
 
-def _member_section(data: _Data, k: int, d: _Drawings) -> str:
-    r = data.m.iloc[k]
-    name = escape(str(r["member"]))
-    where = " &middot; ".join(f"{lab} {escape(str(r[c]))}" for c, lab in (("level", "level"), ("group", "group"))
-                              if pd.notna(r[c]) and str(r[c]))
+def _member_section(r: dict, k: int, d: _Drawings) -> str:
+    name = _text(r["member"])
+    where = " &middot; ".join(f"{c} {_text(r[c])}" for c in ("level", "group") if _given(r[c]))
     geo = ""
-    if pd.notna(r["b_mm"]):
+    if _given(r["b_mm"]):
         geo = (f"b &times; h = {r['b_mm']:g} &times; {r['h_mm']:g} mm, d = {r['d_mm']:g} mm &middot; "
-               f"f&prime;c {r['fc_mpa']:g} MPa, fyt {r['fyt_mpa']:g} MPa &middot; clear span {d.cs[k]:,.0f} mm &middot; "
-               f"supports {escape(str(r['support_i']))} / {escape(str(r['support_j']))}")
+               f"f&prime;c {r['fc_mpa']:g} MPa, fyt {r['fyt_mpa']:g} MPa &middot; "
+               f"clear span {d.cs[k]:,.0f} mm &middot; "
+               f"supports {_text(r['support_i'])} / {_text(r['support_j'])}")
     facts = [p for p in (where, geo) if p]
-    if pd.notna(r["utilization"]):
-        crit = lambda c: "" if pd.isna(r[c]) else f" ({escape(str(r[c]))})"
-        facts.append(f"utilization {r['utilization']:.3f}, {escape(str(r['governing_case']))} &middot; "
+    if _given(r["utilization"]):
+        crit = lambda c: f" ({_text(r[c])})" if _given(r[c]) else ""
+        facts.append(f"utilization {r['utilization']:.3f}, {_text(r['governing_case'])} &middot; "
                      f"design Vu: i {_fmt(r['vu_design_i_kN'], '.1f', ' kN')}{crit('crit_i')}, "
                      f"j {_fmt(r['vu_design_j_kN'], '.1f', ' kN')}{crit('crit_j')} &middot; "
                      f"&phi;Vc {_fmt(r['phi_vc_kN'], '.1f', ' kN')} &middot; "
                      f"&phi;Vn,max {_fmt(r['phi_vn_limit_kN'], '.1f', ' kN')} (22.5.1.2)")
     if r["status"] == "designed":
         facts.append(f"{int(r['stirrups_total']):,} stirrup sets, {_fmt(r['stirrup_mass_kg'], '.1f', ' kg')}")
-    msg = f'<p class="msg">{escape(str(r["message"]))}</p>' if pd.notna(r["message"]) and str(r["message"]) else ""
-    svg = _member_svg(data, k, d) if d.has_st[k] else ""
+    msg = f'<p class="msg">{_text(r["message"])}</p>' if _given(r["message"]) else ""
+    svg = _member_svg(r, k, d) if d.has_st[k] else ""
     lines = "".join(f'<p class="facts">{p}</p>' for p in facts)
     return (f'<section class="member" id="{r["anchor"]}"><h3>{name} {_status(r["status"])} '
             f'<a class="meta" href="#index" title="back to the index">&uarr; index</a></h3>{lines}{msg}{svg}</section>')
 
 
-LEGEND = (("env", "Vu envelope, all combinations"), ("vug", "Vu, governing combination"),
-          ("cap", "\u03c6Vn provided (governing comb.)"), ("vc", "\u03c6Vc"),
+LEGEND = (("env", "Vu envelope (all combinations)"), ("vug", "Vu of the governing combination"),
+          ("cap", "\u03c6Vn provided"), ("vc", "\u03c6Vc"),
           ("avm", "Av,min threshold (9.6.3.1)"), ("lim", "\u03c6Vn,max (22.5.1.2)"),
           ("crit", "critical section (9.4.3.2)"))
 
@@ -502,48 +517,46 @@ def _legend_id(cap: bool, vug: bool, lim: bool) -> str:
 def _legend_defs() -> str:
     """One legend per combination of optional series, defined once and placed with <use>."""
     out = []
-    for cap in (False, True):
-        for vug in (False, True):
-            for lim in (False, True):
-                shown = {"env", "vc", "avm", "crit"} | {k for k, on in (("cap", cap), ("vug", vug), ("lim", lim)) if on}
-                x, y, items = 0.0, 0.0, []
-                for key, text in LEGEND:
-                    if key not in shown:
-                        continue
-                    width = 23 + CHAR_W * len(text)
-                    if x > 0 and x + width > PW:
-                        x, y = 0.0, y + 16
-                    sample = (f'<rect class="env" x="{x:g}" y="{y - 7:g}" width="18" height="9"/>' if key == "env" else
-                              f'<path class="{key}" d="M{x:g},{y - 2.5:g}h18"/>')
-                    items.append(f'{sample}<text x="{x + 23:g}" y="{y + 1:g}">{escape(text)}</text>')
-                    x += width + 18
-                out.append(f'<g id="{_legend_id(cap, vug, lim)}">{"".join(items)}</g>')
+    for cap, vug, lim in itertools.product((False, True), repeat=3):
+        shown = {"env", "vc", "avm", "crit"} | {k for k, on in (("cap", cap), ("vug", vug), ("lim", lim)) if on}
+        x, y, items = 0.0, 0.0, []
+        for key, text in LEGEND:
+            if key not in shown:
+                continue
+            width = 23 + CHAR_W * len(text)
+            if x > 0 and x + width > PW:
+                x, y = 0.0, y + 16
+            sample = (f'<rect class="env" x="{x:g}" y="{y - 7:g}" width="18" height="9"/>' if key == "env" else
+                      f'<path class="{key}" d="M{x:g},{y - 2.5:g}h18"/>')
+            items.append(f'{sample}<text x="{x + 23:g}" y="{y + 1:g}">{_text(text)}</text>')
+            x += width + 22
+        out.append(f'<g id="{_legend_id(cap, vug, lim)}">{"".join(items)}</g>')
     return "".join(out)
 
 
-def _ticks(hi: float, target: int) -> tuple[float, np.ndarray]:
-    step = float(nice_step(hi / target))
-    return step, np.arange(0.0, hi + step * 1e-6, step)
+def _tspans(xs, ys, labels) -> str:
+    return "".join(f'<tspan x="{_g(x)}" y="{_g(y)}">{t}</tspan>' for x, y, t in zip(xs, ys, labels))
 
 
-def _member_svg(data: _Data, k: int, d: _Drawings) -> str:
-    r = data.m.iloc[k]
+def _member_svg(r: dict, k: int, d: _Drawings) -> str:
     cs, sx = float(d.cs[k]), float(d.sx[k])
     x_end = LEFT + cs * sx
     base = TOP + PH
-    ymax = float(d.ymax[k])
-    yv = np.arange(0.0, ymax + d.ystep[k] * 1e-6, d.ystep[k])
+    ymax, ystep, xstep = float(d.ymax[k]), float(d.ystep[k]), float(d.xstep[k])
+    yv = [ystep * i for i in range(int(round(ymax / ystep)) + 1)]
     ypx = [base - v * PH / ymax for v in yv]
-    _, xv = _ticks(cs, 9)
-    xpx = (LEFT + xv * sx).tolist()
-    if xpx and x_end - xpx[-1] > 48:  # label the clear span at the far face
-        xv, xpx = np.r_[xv, cs], [*xpx, x_end]
+    xv = [xstep * i for i in range(int(cs / xstep + 1e-9) + 1)]
+    if x_end - (LEFT + xv[-1] * sx) > 48:  # label the clear span at the far face
+        xv.append(cs)
+    xpx = [LEFT + v * sx for v in xv]
     p = [f'<use href="#{_legend_id(k in d.cap, bool(d.gov_line[k]), bool(d.show_lim[k]))}" x="{LEFT}" y="16"/>',
          f'<path class="g" d="{"".join(f"M{LEFT},{_g(y)}h{PW}" for y in ypx[1:])}'
          f'{"".join(f"M{_g(x)},{TOP}V{base}" for x in xpx[1:])}"/>',
-         f'<text text-anchor="end">{"".join(f"<tspan x={chr(34)}{LEFT - 6}{chr(34)} y={chr(34)}{_g(y + 4)}{chr(34)}>{v:g}</tspan>" for v, y in zip(yv, ypx))}</text>',
-         f'<text text-anchor="middle">{"".join(f"<tspan x={chr(34)}{_g(x)}{chr(34)} y={chr(34)}{base + 15}{chr(34)}>{v:,.0f}</tspan>" for v, x in zip(xv, xpx))}</text>',
-         f'<text class="ttl" text-anchor="middle" transform="rotate(-90)" x="{-(TOP + PH / 2):g}" y="16">shear (kN)</text>',
+         f'<text text-anchor="end">{_tspans([LEFT - 6] * len(yv), [y + 4 for y in ypx], map("{:g}".format, yv))}'
+         f"</text>",
+         f'<text text-anchor="middle">{_tspans(xpx, [base + 15] * len(xv), map("{:,.0f}".format, xv))}</text>',
+         f'<text class="ttl" text-anchor="middle" transform="rotate(-90)" x="{-(TOP + PH / 2):g}" y="16">'
+         f"shear (kN)</text>",
          f'<text class="ttl" text-anchor="middle" x="{LEFT + PW / 2:g}" y="{base + 32}">'
          f"distance from the face of support i (mm)</text>"]
     if k in d.env:
@@ -552,25 +565,25 @@ def _member_svg(data: _Data, k: int, d: _Drawings) -> str:
         pts = getattr(d, key).get(k)
         if pts:
             p.append(f'<polyline class="{key}" points="{pts}"/>')
-    for side, at in (("crit_i", lambda dd: dd), ("crit_j", lambda dd: cs - dd)):
-        rule = r[side]
-        if rule in ("d", "face"):
-            x = LEFT + at(float(r["d_mm"]) if rule == "d" else 0.0) * sx
+    offset = {"d": float(r["d_mm"]), "face": 0.0}  # critical section from its face (9.4.3.2)
+    for rule, at_j in ((r["crit_i"], False), (r["crit_j"], True)):
+        if rule in offset:
+            x = LEFT + (cs - offset[rule] if at_j else offset[rule]) * sx
             p.append(f'<path class="crit" d="M{_g(x)},{TOP - 4}V{base}"/>')
     p.append(f'<path class="ax" d="M{LEFT},{TOP - 4}V{base}H{LEFT + PW}"/>')
     height = base + 42
     if k in d.stirrups or k in d.zone_labels:
         elev, height = _elevation(r, cs, sx, d.stirrups.get(k, np.array([])), d.zone_labels.get(k, []))
         p.append(elev)
-    label = escape(f"shear diagram and stirrup elevation of member {r['member']}")
+    label = _text(f"shear diagram and stirrup elevation of member {r['member']}")
     return (f'<svg class="mem" viewBox="0 0 {W} {height:g}" width="{W}" height="{height:g}" role="img" '
             f'aria-label="{label}">{"".join(p)}</svg>')
 
 
-def _elevation(r: pd.Series, cs: float, sx: float, pos: np.ndarray, labels: list) -> tuple[str, float]:
+def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list) -> tuple[str, float]:
     """The beam outline over the clear span, a line per stirrup, the zones dimensioned below."""
     y0 = BEAM_Y
-    hpx = float(np.clip(r["h_mm"] * sx, 30.0, 80.0)) if pd.notna(r["h_mm"]) else 40.0
+    hpx = float(np.clip(r["h_mm"] * sx, 30.0, 80.0))
     wpx = cs * sx
     p = [f'<text class="ttl" x="{LEFT}" y="{y0 - 9}">stirrup elevation, h = {r["h_mm"]:g} mm '
          f'{"(to scale)" if hpx == r["h_mm"] * sx else "(depth not to scale)"}</text>']
@@ -595,47 +608,46 @@ def _elevation(r: pd.Series, cs: float, sx: float, pos: np.ndarray, labels: list
         if row == len(rows_end):
             rows_end.append(-np.inf)
         rows_end[row] = cx + w / 2
-        texts.append(f'<tspan x="{_g(cx)}" y="{_g(dim_y + 15 + 14 * row)}">{escape(text)}</tspan>')
+        texts.append(f'<tspan x="{_g(cx)}" y="{_g(dim_y + 15 + 14 * row)}">{_text(text)}</tspan>')
     p.append(f'<text text-anchor="middle">{"".join(texts)}</text>')
-    return "".join(p), dim_y + 15 + 14 * max(len(rows_end) - 1, 0) + 10
+    return "".join(p), round(dim_y + 15 + 14 * max(len(rows_end) - 1, 0) + 10)
 
 
 # ----------------------------------------------------------------------------- overview
 
 
-def _overview(data: _Data) -> str:
+def _overview(data: _Data, linked: set[int]) -> str:
     m = data.m
     xyz = m[COORDS].to_numpy(float)
     ok = np.isfinite(xyz).all(axis=1)
     if ok.any():
         missing = int((~ok).sum())
         note = f" {missing:,} member(s) without coordinates are not drawn." if missing else ""
-        return (f'<section id="overview"><h2>Frame overview</h2><p class="meta">Isometric view of the members '
+        return (f'<section id="overview"><h2>Frame overview</h2><p class="meta">Axonometric view of the members '
                 f"from their end coordinates, coloured by utilization; members not designed are grey and dashed, "
                 f"members needing a resize are dashed in the top colour. Click a member to open its section.{note}</p>"
-                f"{_frame_svg(data, ok)}</section>")
+                f"{_frame_svg(data, ok, linked)}</section>")
     return (f'<section id="overview"><h2>Utilization by level</h2><p class="meta">The frame overview needs member '
             f"coordinates (IFC geometry); this run's members table has none, so each member's utilization is shown "
             f"as a tick on the strip of its level.</p>{_levels_svg(data)}</section>")
 
 
-def _colour_bar(x: float, y: float, light: bool) -> str:
+def _colour_bar(x: float, y: float) -> str:
     stops = "".join(f'<stop offset="{k / (len(RAMP) - 1):g}" stop-color="{c}"/>'
                     for k, c in enumerate(ramp(np.linspace(0, 1, len(RAMP)))))
-    cls = "pt" if light else ""
     ticks = "".join(f'<tspan x="{x + 240 * t:g}" y="{y + 26}">{t:g}</tspan>' for t in (0, 0.25, 0.5, 0.75, 1.0))
-    return (f'<linearGradient id="ramp-{int(light)}">{stops}</linearGradient>'
-            f'<text class="{cls}" x="{x}" y="{y - 6}">utilization (Vu / capacity, worst station)</text>'
-            f'<rect x="{x}" y="{y}" width="240" height="12" fill="url(#ramp-{int(light)})"/>'
-            f'<text class="{cls}" text-anchor="middle">{ticks}</text>')
+    return (f'<linearGradient id="ramp">{stops}</linearGradient>'
+            f'<text class="pt" x="{x}" y="{y - 6}">utilization (Vu / capacity, worst station)</text>'
+            f'<rect x="{x}" y="{y}" width="240" height="12" fill="url(#ramp)"/>'
+            f'<text class="pt" text-anchor="middle">{ticks}</text>')
 
 
-def _frame_svg(data: _Data, ok: np.ndarray) -> str:
+def _frame_svg(data: _Data, ok: np.ndarray, linked: set[int]) -> str:
     m = data.m[ok]
     x1, y1, z1, x2, y2, z2 = (m[c].to_numpy(float) for c in COORDS)
-    c30 = math.cos(math.pi / 6)
-    u1, u2 = (x1 - y1) * c30, (x2 - y2) * c30
-    w1, w2 = z1 + (x1 + y1) / 2, z2 + (x2 + y2) / 2
+    ca, sa = math.cos(VIEW_ANGLE), math.sin(VIEW_ANGLE)
+    u1, u2 = (x1 - y1) * ca, (x2 - y2) * ca
+    w1, w2 = z1 + (x1 + y1) * sa, z2 + (x2 + y2) * sa
     umin, umax = min(u1.min(), u2.min()), max(u1.max(), u2.max())
     wmin, wmax = min(w1.min(), w2.min()), max(w1.max(), w2.max())
     pad, legend_h = 24.0, 64.0
@@ -649,23 +661,33 @@ def _frame_svg(data: _Data, ok: np.ndarray) -> str:
     kind = np.where(status == "designed", 1, np.where(status == "resize", 2, 0))
     order = np.lexsort((np.nan_to_num(util, nan=-1.0), kind))
     lines = []
-    for i, a, b, c, e, name, st, u, col, kd in zip(
-            m["anchor"].to_numpy(object)[order], X(u1)[order], Y(w1)[order], X(u2)[order], Y(w2)[order],
-            m["member"].to_numpy(object)[order], status[order], util[order], colour[order], kind[order]):
+    for k, anchor, a, b, c, e, name, st, u, col, kd in zip(
+            m.index[order], m["anchor"].to_numpy(object)[order], X(u1)[order], Y(w1)[order], X(u2)[order],
+            Y(w2)[order], m["member"].to_numpy(object)[order], status[order], util[order], colour[order], kind[order]):
         cls = "ov" if kd == 1 else "ov ovr" if kd == 2 else "nd"
         stroke = f' stroke="{col}"' if kd else ""
-        tip = escape(f"{name}: {st}" + ("" if np.isnan(u) else f", utilization {u:.3f}"))
-        lines.append(f'<a href="#{i}"><path class="{cls}"{stroke} d="M{a:.1f},{b:.1f}L{c:.1f},{e:.1f}">'
-                     f"<title>{tip}</title></path></a>")
+        tip = _text(f"{name}: {st}" + ("" if np.isnan(u) else f", utilization {u:.3f}"))
+        line = f'<path class="{cls}"{stroke} d="M{a:.1f},{b:.1f}L{c:.1f},{e:.1f}"><title>{tip}</title></path>'
+        lines.append(f'<a href="#{anchor}">{line}</a>' if k in linked else line)
     ly = height - legend_h + 26
-    legend = (_colour_bar(pad + 70, ly, True)
+    legend = (_colour_bar(pad + 70, ly)
               + f'<path class="nd" d="M{pad + 380},{ly + 6}h28"/><text class="pt" x="{pad + 414}" y="{ly + 10}">'
               f"not designed</text>"
               + f'<path class="ov ovr" stroke="{ramp(np.array([1.0]))[0]}" d="M{pad + 520},{ly + 6}h28"/>'
-              f'<text class="pt" x="{pad + 554}" y="{ly + 10}">resize (section too small)</text>')
+              f'<text class="pt" x="{pad + 554}" y="{ly + 10}">resize (section too small)</text>'
+              + _axes(W - 60.0, ly + 12))
     return (f'<svg viewBox="0 0 {W} {height:.0f}" width="{W}" height="{height:.0f}" role="img" '
             f'aria-label="isometric view of the frame coloured by utilization">'
             f'<rect class="panel" width="{W}" height="{height:.0f}" rx="4"/>{"".join(lines)}{legend}</svg>')
+
+
+def _axes(x: float, y: float) -> str:
+    """A small triad showing the model's X, Y and Z directions in the view."""
+    ca, sa, r = math.cos(VIEW_ANGLE), math.sin(VIEW_ANGLE), 26.0
+    tips = (("X", r * ca, -r * sa), ("Y", -r * ca, -r * sa), ("Z", 0.0, -r))
+    return "".join(f'<path stroke="#e8eaed" d="M{x:g},{y:g}l{dx:.1f},{dy:.1f}"/>'
+                   f'<text class="pt" text-anchor="middle" x="{x + 1.3 * dx:.1f}" y="{y + 1.3 * dy + 4:.1f}">{t}</text>'
+                   for t, dx, dy in tips)
 
 
 def _levels_svg(data: _Data) -> str:
@@ -682,12 +704,13 @@ def _levels_svg(data: _Data) -> str:
     status = m["status"].to_numpy(object)
     colour = np.where(status == "designed", ramp(util), np.where(status == "resize", ramp(np.ones(len(m))),
                                                                 NOT_DESIGNED))
-    ticks = [f'<path class="{"ovr" if st == "resize" else ""}" stroke="{col}" d="M{xx:.1f} {yy + 4:g}v{row - 8:g}">'
-             f"<title>{escape(f'{name} ({st}): utilization {u:.3f}')}</title></path>"
+    resize = ' class="ovr"'
+    ticks = [f'<path{resize if st == "resize" else ""} stroke="{col}" d="M{xx:.1f} {yy + 4:g}v{row - 8:g}">'
+             f"<title>{_text(f'{name} ({st}): utilization {u:.3f}')}</title></path>"
              for name, st, u, col, xx, yy in zip(m["member"][finite], status[finite], util[finite], colour[finite],
                                                  X(util[finite]), y[finite])]
     counts = level.value_counts()
-    labels = "".join(f'<tspan x="{x0 - 12}" y="{top + k * row + row / 2 + 4:g}">{escape(lv)} ({counts[lv]:,})</tspan>'
+    labels = "".join(f'<tspan x="{x0 - 12}" y="{top + k * row + row / 2 + 4:g}">{_text(lv)} ({counts[lv]:,})</tspan>'
                      for k, lv in enumerate(levels))
     bottom = top + len(levels) * row
     step = 0.1 if hi <= 1.0 else 0.25
@@ -705,4 +728,4 @@ def _levels_svg(data: _Data) -> str:
             f'<text class="pt" text-anchor="end">{labels}</text>'
             f'<text class="pt" text-anchor="middle">{axis}</text>'
             f'<text class="pt" x="{x0}" y="{top - 16:g}">level (members); grey: not designed; utilization &rarr;</text>'
-            f'{_colour_bar(x0, bottom + 50, True)}</svg>')
+            f'{_colour_bar(x0, bottom + 50)}</svg>')

@@ -67,7 +67,7 @@ def _satisfies(zones: pd.DataFrame, st: pd.DataFrame) -> bool:
     sp = zones.spacing_mm.to_numpy(float)
     sp = np.where(np.isnan(sp), np.inf, sp)
     lay = detailing.Layout(zones.bar.iloc[0], int(zones.legs.max()),
-                           [detailing.Zone(a, b, s, 0) for a, b, s in zip(starts, ends, sp)])
+                           [detailing.Zone(a, b, s) for a, b, s in zip(starts, ends, sp)])
     x = st.x_mm.to_numpy(float)
     s = detailing.provided_spacing(lay, x)
     bar = next((b for b in zones.bar if b), None)

@@ -1,0 +1,247 @@
+"""The HTML report: self-contained, one section per member, drawings that match the design
+tables, untrusted ids escaped, an overview from coordinates, and a real browser render."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from postproc import cli
+from postproc.html_report import COORDS, LEFT, PW, THIN_TOL_PX, ramp, thin, write_html_report
+from postproc.report import CAUTION
+from postproc.store import Run, Store
+from tests.conftest import beam, design, rows_from_function
+
+CHROMIUM = Path("/usr/bin/chromium")
+ODD_ID = '<b>&"x'
+UNSEEN_IDS = ["\x1b[31mred\x1b[0m", "tab\there", "\u202eB1", "L" * 300]  # controls, a bidi override, a long id
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("html")
+    assert cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"]) == 0
+    run = Store(tmp / "store").runs()[-1]
+    path = write_html_report(run, tmp / "report.html")
+    members = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
+    zones = pq.read_table(run.design_path / "zones.parquet").to_pandas()
+    return run, path, path.read_text(encoding="utf-8"), members, zones
+
+
+@pytest.fixture(scope="module")
+def small(tmp_path_factory):
+    """A run with ids full of markup and control characters, a resize, a column and a plain beam."""
+    tmp = tmp_path_factory.mktemp("odd")
+    members = [beam(ODD_ID, 6.0, level="<i>L1</i>"), beam("OK", 6.0), *(beam(i, 6.0) for i in UNSEEN_IDS),
+               beam("SMALL", 6.0, b_mm=250.0, h_mm=500.0), {**beam("COL", 3.0), "kind": "column"}]
+    forces = (rows_from_function(ODD_ID, "U", 6.0, lambda x: 150 - 50 * x, n=7)
+              + rows_from_function("OK", "U", 6.0, lambda x: 100 - 33 * x, n=7)
+              + sum((rows_from_function(i, "U", 6.0, lambda x: 90 - 30 * x, n=7) for i in UNSEEN_IDS), [])
+              + rows_from_function("SMALL", "U", 6.0, lambda x: 900 * (1 - x / 3), n=3))
+    res = design(tmp, members, forces)
+    assert res.code == cli.EXIT_RESIZE
+    return Store(res.store).runs()[-1]
+
+
+def sections(html: str) -> dict[str, str]:
+    """Member name (as written, escaped) -> the HTML of its detail section."""
+    starts = [m.start() for m in re.finditer(r'<section class="member"', html)]
+    ends = [*starts[1:], html.index("</main>")]
+    out = {}
+    for a, b in zip(starts, ends):
+        name = re.match(r'<section class="member" id="[^"]*"><h3>(.*?) <span', html[a:b]).group(1)
+        out[name] = html[a:b]
+    return out
+
+
+def scale_of(section: str) -> tuple[float, float]:
+    """kN per px and the y of 0 kN, from the tick labels of the shear axis."""
+    ticks = re.search(r'<text text-anchor="end">(.*?)</text>', section).group(1)
+    pairs = [(float(y), float(v)) for y, v in re.findall(r'y="([\d.]+)">([\d.]+)</tspan>', ticks)]
+    (y0, v0), (y1, v1) = pairs[0], pairs[-1]
+    return (v1 - v0) / (y0 - y1), y0 - 4  # labels sit 4 px below their gridline
+
+
+def points(attr: str) -> np.ndarray:
+    return np.array([[float(a) for a in p.split(",")] for p in attr.split()])
+
+
+def test_self_contained_with_the_caution(demo):
+    run, _, html, _, _ = demo
+    for bad in ("http://", "https://", "<script src", "<link", "@import", "url(http"):
+        assert bad not in html
+    assert html.startswith("<!DOCTYPE html>") and CAUTION in html
+    assert "ACI 318-19" in html and f"created {run.manifest()['created'][:10]}" in html
+
+
+def test_one_section_per_member_and_every_link_lands(demo):
+    _, _, html, members, _ = demo
+    found = sections(html)
+    assert sorted(found) == sorted(members.index)
+    ids = re.findall(r'<section class="member" id="([^"]+)"', html)
+    assert len(set(ids)) == len(members)
+    links = set(re.findall(r'<td><a href="#([^"]+)">', html))
+    assert links == set(ids)
+    assert html.count("<tr") == len(members) + 1  # the index lists every member once, plus its heading
+
+
+def test_index_puts_failures_first_then_utilization(small, tmp_path):
+    run = small
+    html = write_html_report(run, tmp_path / "r.html").read_text(encoding="utf-8")
+    rows = re.findall(r"<tr[^>]*><td>(?:<a [^>]*>)?(.*?)(?:</a>)?</td>.*?<td class=\"n\">([\d.]*)</td>", html)
+    names = [n for n, _ in rows]
+    assert names[0] == "SMALL" and names[-1] == "COL"  # resize first; no utilization last
+    utils = [float(u) for n, u in rows[1:-1]]
+    assert utils == sorted(utils, reverse=True)
+
+
+def test_known_member_draws_envelope_capacity_and_its_values(demo):
+    run, _, html, members, _ = demo
+    sec = sections(html)["L2-SB-23"]
+    assert '<path class="env"' in sec and '<polyline class="cap"' in sec
+    assert '<polyline class="vc"' in sec and '<polyline class="avm"' in sec
+    assert sec.count('class="crit"') == 2  # girder ends: critical section at both faces
+    kn_per_px, y_zero = scale_of(sec)
+    env = points(re.search(r'class="env" d="M[\d.,]+L(.*?)L[\d.,]+Z"', sec).group(1))
+    cap = points(re.search(r'class="cap" points="([^"]+)"', sec).group(1))
+    st = pq.read_table(run.design_path / "stations").to_pandas()
+    st = st[st.member == "L2-SB-23"]
+    assert (y_zero - env[:, 1]).max() * kn_per_px == pytest.approx(st.vu_max_kN.max(), rel=0.01)
+    assert (y_zero - cap[:, 1]).min() * kn_per_px == pytest.approx(st.phi_vn_kN.min(), rel=0.01)
+    assert len(env) < len(st) / 4  # the linear envelope is drawn with few points
+    assert env[:, 0].min() == pytest.approx(LEFT) and env[:, 0].max() == pytest.approx(LEFT + PW)
+
+
+def test_stirrup_lines_match_the_counts_and_the_zones(demo):
+    run, _, html, members, zones = demo
+    found = sections(html)
+    geo = run.members().to_pandas().set_index("member")
+    clear = geo.length_m * 1e3 - geo.face_i_mm - geo.face_j_mm
+    for name, row in members[members.status == "designed"].iterrows():
+        d = re.search(r'class="stir" d="([^"]*)"', found[name])
+        xs = np.array([float(v) for v in re.findall(r"M([\d.]+) ", d.group(1))])
+        assert len(xs) == row.stirrups_total, name
+        sx = PW / clear[name]
+        widest = zones[zones.member == name].spacing_mm.max()
+        assert np.diff(xs).max() <= widest * sx + 0.1, name  # no gap wider than a zone's spacing
+        if geo.support_i[name] != "free":  # first stirrup 50 mm from a supported face (README default)
+            assert xs[0] == pytest.approx(LEFT + 50 * sx, abs=0.06), name
+        if geo.support_j[name] != "free":
+            assert xs[-1] == pytest.approx(LEFT + (clear[name] - 50) * sx, abs=0.06), name
+    # L2-SB-23: one zone of 33 @ 250, 50 mm from each face, the last gap shorter (clear span 8000 mm)
+    xs = np.array([float(v) for v in re.findall(r"M([\d.]+) ", re.search(r'class="stir" d="([^"]*)"',
+                                                                        found["L2-SB-23"]).group(1))])
+    mm = (xs - LEFT) * 8000.0 / PW
+    assert len(mm) == 33 and mm[0] == pytest.approx(50, abs=1) and mm[-1] == pytest.approx(7950, abs=1)
+    assert np.diff(mm)[:-1] == pytest.approx(250, abs=1.5)
+    z = zones[zones.member == "L2-SB-23"].iloc[0]
+    assert f"{z['count']} {z.bar} x{z.legs} @ {z.spacing_mm:g}" in found["L2-SB-23"]
+
+
+def test_members_not_designed_show_status_and_message(demo):
+    _, _, html, members, _ = demo
+    found = sections(html)
+    deep = found["R-GX-B23"]
+    assert "deep-beam" in deep and "9.9.1.1" in deep and '<path class="env"' in deep
+    assert 'class="cap"' not in deep and 'class="stir"' not in deep
+    col = found["P1-C-A1"]
+    assert "not-covered" in col and "column shear design is not covered yet" in col and "<svg" not in col
+
+
+def test_members_argument_limits_the_details_not_the_index(demo, tmp_path):
+    run, _, _, members, _ = demo
+    html = write_html_report(run, tmp_path / "one.html", ["L2-SB-23"]).read_text(encoding="utf-8")
+    assert list(sections(html)) == ["L2-SB-23"]
+    assert html.count("<tr") == len(members) + 1
+    assert len(re.findall(r'<td><a href="#', html)) == 1
+    with pytest.raises(ValueError, match="NOPE"):
+        write_html_report(run, tmp_path / "bad.html", ["NOPE"])
+
+
+def test_untrusted_ids_are_escaped_and_anchors_safe(small, tmp_path):
+    run = small
+    html = write_html_report(run, tmp_path / "r.html").read_text(encoding="utf-8")
+    assert ODD_ID not in html and "<i>L1</i>" not in html
+    assert "&lt;b&gt;&amp;&quot;x" in html and "&lt;i&gt;L1&lt;/i&gt;" in html
+    for ref in re.findall(r'(?:id|href)="#?([^"]*)"', html):
+        assert re.fullmatch(r"[A-Za-z0-9_-]*", ref), ref
+    assert "&lt;b&gt;&amp;&quot;x" in sections(html)
+    assert not any(ch in html for ch in "\x1b\t\u202e")  # invisible characters are shown, not passed on
+    for shown in ("\\x1b[31mred\\x1b[0m", "tab\\x09here", "\\u202eB1", "L" * 300):
+        assert shown in sections(html)
+
+
+def test_level_strips_without_coordinates(demo):
+    _, _, html, _, _ = demo
+    assert "Utilization by level" in html and "needs member coordinates (IFC geometry)" in html
+
+
+def test_frame_overview_from_coordinates(small, tmp_path):
+    run = small
+    copy = Run(shutil.copytree(run.path, tmp_path / "store" / run.name))  # the same run, its members placed in 3-D
+    table = run.members()
+    n = table.num_rows
+    at = np.arange(n, dtype=float) * 6.0
+    coords = {"x_i_m": at, "y_i_m": np.zeros(n), "z_i_m": np.full(n, 3.0),
+              "x_j_m": at + 6.0, "y_j_m": np.zeros(n), "z_j_m": np.full(n, 3.0)}
+    for name in COORDS:
+        table = table.append_column(name, pa.array(coords[name]))
+    pq.write_table(table, copy.path / "members.parquet")
+    html = write_html_report(copy, tmp_path / "r.html").read_text(encoding="utf-8")
+    overview = html[html.index('<section id="overview">'):html.index('<section id="members">')]
+    assert "Frame overview" in overview and "IFC geometry" not in overview
+    assert overview.count('<a href="#m') == n  # every member drawn, each a link to its section
+    assert overview.count('class="nd"') == 2  # the column, and the legend's sample
+    assert overview.count('class="ov ovr"') == 2  # the resize member, and the legend's sample
+    strokes = re.findall(r'<path class="ov" stroke="(#[0-9a-f]{6})"', overview)
+    assert len(strokes) == 2 + len(UNSEEN_IDS)  # the designed members
+    assert len(set(strokes)) >= 2  # coloured by their utilizations
+
+
+def test_ramp_is_sequential():
+    rgb = np.array([[int(c[k:k + 2], 16) for k in (1, 3, 5)] for c in ramp(np.linspace(0, 1, 21))]) / 255.0
+    lin = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
+    luminance = lin @ np.array([0.2126, 0.7152, 0.0722])
+    assert np.all(np.diff(luminance) > 0)  # lighter with every step: no traffic-light hues
+    assert ramp(np.array([2.0]))[0] == ramp(np.array([1.0]))[0]  # clamped above 1
+
+
+def test_thinning_keeps_corners_jumps_and_curves():
+    x = np.linspace(0, 800, 161)
+    line = thin(np.zeros(161, int), x, 100 + 0.1 * x)
+    assert line.sum() == 2
+    xj = np.r_[x[:81], x[80:]]  # a jump: two points at one x
+    yj = np.r_[np.full(81, 50.0), np.full(81, 120.0)]
+    kept = thin(np.zeros(162, int), xj, yj)
+    assert kept.sum() == 4 and kept[80] and kept[81]
+    y = 100 + 30 * (x / 800) * (1 - x / 800) * 4  # a gentle curve, 30 px high
+    k = thin(np.zeros(161, int), x, y)
+    drawn = np.interp(x, x[k], y[k])
+    assert np.abs(drawn - y).max() <= THIN_TOL_PX * 1.02 and k.sum() < 30  # slope <= 0.15: vertical ~ normal
+    two = thin(np.r_[np.zeros(5, int), np.ones(5, int)], np.tile(np.arange(5.0), 2), np.zeros(10))
+    assert list(np.flatnonzero(two)) == [0, 4, 5, 9]  # members never share a line
+
+
+@pytest.mark.skipif(not CHROMIUM.exists(), reason="Debian chromium not installed (apt-get install chromium)")
+def test_renders_in_a_headless_browser(demo, tmp_path):
+    _, path, _, _, _ = demo
+    png = tmp_path / "report.png"
+    subprocess.run([str(CHROMIUM), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                    f"--user-data-dir={tmp_path / 'profile'}", f"--screenshot={png}", "--window-size=1400,2000",
+                    path.as_uri()], check=True, capture_output=True, timeout=180)
+    assert png.exists() and png.stat().st_size > 20_000
+    try:
+        from PIL import Image
+    except ImportError:  # Pillow is optional: the size check stands
+        return
+    with Image.open(png) as im:
+        assert im.size == (1400, 2000)
+        assert im.convert("RGB").getcolors(maxcolors=256) is None  # far more than a few colours
