@@ -16,7 +16,7 @@ from rich.table import Table
 from adapters import csv_tables, ifc
 from adapters.errors import InputError
 from adapters.mapping import load_column_map
-from postproc import __version__, bench, engine, engines, explain, govern, report, schedule
+from postproc import __version__, bench, engine, engines, explain, govern, html_report, report, schedule
 from postproc.settings import load_settings, settings_from_dict
 from postproc.store import Store, StoreError
 
@@ -48,6 +48,7 @@ def _parser() -> argparse.ArgumentParser:
         q.add_argument("--store", type=Path, default=Path("shearpost-store"), help="store folder (default ./shearpost-store)")
         q.add_argument("--run", dest="run_name", help="name of the new run (default: date and a counter)")
         q.add_argument("--json", action="store_true", help="print the summary as JSON")
+        q.add_argument("--no-report", action="store_true", help="do not write report.html")
 
     r = sub.add_parser("run", help="ingest analysis results, design every member, write the tables")
     r.add_argument("--members", type=Path, required=True, help="members.csv, or an IFC model (.ifc)")
@@ -57,12 +58,15 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--forces", type=Path, required=True, help="forces.csv")
     r.add_argument("--cases", type=Path, help="cases.csv (case,type); without it cases are factored combinations")
     r.add_argument("--map", type=Path, help="column-mapping TOML for an analysis program's own export")
-    r.add_argument("--out", type=Path, required=True, help="folder for members.csv and zones.csv")
+    r.add_argument("--out", type=Path, required=True, help="folder for members.csv, zones.csv and report.html")
     common(r)
     engine_options(r)
 
     d = sub.add_parser("demo", help="design the demo building in sample_results/")
     d.add_argument("--out", type=Path, default=Path("shearpost-demo"), help="output folder (default ./shearpost-demo)")
+    d.add_argument("--ifc", action="store_true", help="read the demo's geometry from its IFC model")
+    d.add_argument("--scale", action="append", default=[], metavar="CASE=FACTOR",
+                   help="scale one load case of the demo, e.g. L=1.3 (a changed load, for `compare`)")
     common(d)
     engine_options(d)
 
@@ -110,6 +114,11 @@ def _parser() -> argparse.ArgumentParser:
     b.add_argument("--json", action="store_true")
     engine_options(b)
 
+    h = sub.add_parser("report", help="the HTML report of a designed run (one self-contained file)")
+    stored(h)
+    h.add_argument("--out", type=Path, required=True, help="the HTML file to write")
+    h.add_argument("--member", action="append", default=[], help="detail sections for these members only")
+
     e = sub.add_parser("explain", help="the whole calculation of one member, clause by clause")
     e.add_argument("member")
     stored(e)
@@ -139,6 +148,28 @@ def read_ifc(path: Path, key: str, st, wanted: set[str]):
     return table, [f"IFC members matched to the forces table by {k} ({hits} of {len(wanted)} members)", *warnings]
 
 
+def scaled_demo_forces(scales: list[str], out: Path) -> Path:
+    """The demo's forces with some load cases scaled, written beside the outputs (so that
+    the run's manifest points at the file that was designed)."""
+    import pandas as pd
+
+    factors = {}
+    for item in scales:
+        case, _, value = item.partition("=")
+        factors[case.strip()] = float(value)
+    forces = pd.read_csv(SAMPLE / "forces.csv")
+    unknown = sorted(set(factors) - set(forces["case"]))
+    if unknown:
+        raise ValueError(f"no case {', '.join(unknown)} in the demo (cases: {', '.join(sorted(forces['case'].unique()))})")
+    f = forces["case"].map(factors).fillna(1.0)
+    for col in ("V_kN", "N_kN", "T_kNm", "M_kNm"):
+        forces[col] = (forces[col] * f).round(3)
+    out.mkdir(parents=True, exist_ok=True)
+    path = out / ("forces-" + "-".join(f"{c}x{v:g}" for c, v in sorted(factors.items())) + ".csv")
+    forces.to_csv(path, index=False)
+    return path
+
+
 def _error(text: str) -> None:
     """Errors go to stderr unwrapped, so that file, line and column stay on one line."""
     print(text, file=sys.stderr)
@@ -154,11 +185,17 @@ def main(argv: list[str] | None = None) -> int:
             _error(f"error: {exc}")
             return EXIT_USAGE
     if args.command == "demo":
-        args.members, args.forces = SAMPLE / "members.csv", SAMPLE / "forces.csv"
-        args.cases, args.map = SAMPLE / "cases.csv", None
+        args.members = SAMPLE / ("demo_building.ifc" if args.ifc else "members.csv")
+        args.forces, args.cases, args.map, args.ifc_key = SAMPLE / "forces.csv", SAMPLE / "cases.csv", None, "auto"
         if not args.members.exists():
             _error(f"demo data not found in {SAMPLE}; install from a checkout with `pip install -e .`")
             return EXIT_USAGE
+        if args.scale:
+            try:
+                args.forces = scaled_demo_forces(args.scale, args.out)
+            except ValueError as exc:
+                _error(f"error: --scale: {exc}")
+                return EXIT_USAGE
     store = Store(args.store)
     try:
         name = args.run_name or store.new_name()
@@ -213,6 +250,8 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_USAGE
     result = holder["result"]
     report.write_tables(result, args.out)
+    if not args.no_report:
+        html_report.write_html_report(run, args.out / "report.html")
     doc = report.summary(result, run.name, args.out)
     try:
         if args.json:
@@ -350,7 +389,18 @@ def cmd_bench(args, store: Store, console: Console) -> int:
     return EXIT_OK
 
 
-REVIEW = {"bench": cmd_bench, "govern": cmd_govern, "compare": cmd_compare, "runs": cmd_runs, "schedule": cmd_schedule,
+def cmd_report(args, store: Store, console: Console) -> int:
+    run = _run_of(args, store)
+    try:
+        path = html_report.write_html_report(run, args.out, args.member or None)
+    except ValueError as exc:
+        _error(f"error: {exc}")
+        return EXIT_USAGE
+    console.print(f"report of run {report.shown(run.name)} written to {report.shown(path)}")
+    return EXIT_OK
+
+
+REVIEW = {"report": cmd_report, "bench": cmd_bench, "govern": cmd_govern, "compare": cmd_compare, "runs": cmd_runs, "schedule": cmd_schedule,
           "explain": cmd_explain}
 
 

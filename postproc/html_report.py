@@ -165,7 +165,6 @@ svg text{font:11px system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;fi
 svg .ttl{font-size:12px;fill:var(--ink)}
 .g{stroke:#eceef0}.ax{stroke:#4a4f56;fill:none}
 .env{fill:#56b4e9;fill-opacity:.32;stroke:#0072b2;stroke-width:1.6;stroke-linejoin:round}
-.vug{fill:none;stroke:#0072b2;stroke-width:1;stroke-dasharray:1.5 2.5}
 .cap{fill:none;stroke:#1b1d21;stroke-width:2.2;stroke-linejoin:round}
 .vc{fill:none;stroke:#009e73;stroke-width:1.6;stroke-dasharray:7 4}
 .avm{fill:none;stroke:#cc79a7;stroke-width:1.6;stroke-dasharray:2 3}
@@ -361,10 +360,8 @@ def _details(data: _Data, codes: list[int]) -> str:
     m = data.m
     note = ('<p class="meta">Each diagram runs along the clear span from the face of support i. The envelope is '
             "the largest |Vu| of all combinations at each station, after the critical-section rule (9.4.3.2). "
-            "&phi;Vn provided is the capacity of the stirrup layout for the combination that governs the station, "
-            "with that combination's axial force and torsion; where another combination has the larger |Vu| but a "
-            "kinder axial force, the capacity line can pass below the envelope without a shortfall, and the dotted "
-            "line then shows Vu of the governing combination.</p>")
+            "&phi;Vn provided is the capacity of the stirrup layout for the combination with the largest |Vu| there, "
+            "with that combination's axial force; the self-check holds it for every combination.</p>")
     if len(codes) < len(m):
         note += f'<p class="meta">Detail sections for {len(codes):,} of {len(m):,} members.</p>'
     if not codes:
@@ -406,9 +403,6 @@ class _Drawings:
         self.ystep = nice_step(top * 1.04 / 5)
         self.ymax = np.ceil(top * 1.04 / self.ystep) * self.ystep
         self.xstep = nice_step(self.cs / 9)
-        under = np.zeros(n, bool)
-        np.logical_or.at(under, code, st["phi_vn_kN"] < st["vu_max_kN"] - 1e-6)
-        self.gov_line = under  # capacity of the governing combination below the envelope: draw that Vu too
 
         x = st["x_mm"]
         px = LEFT + x * self.sx[code]
@@ -421,7 +415,6 @@ class _Drawings:
         self.vc = line("phi_vc_kN")
         self.avm = line("avmin_threshold_kN")
         self.lim = line("phi_vn_limit_kN", self.show_lim[code])
-        self.vug = line("vu_kN", self.gov_line[code])
         self.cap = _points(*self._thin(*self._steps(data, code, x, st["phi_vn_kN"], st["spacing_mm"])))
         self.stirrups, self.zone_labels = _stirrups(data, codes)
 
@@ -504,21 +497,20 @@ def _member_section(r: dict, k: int, d: _Drawings) -> str:
             f'<a class="meta" href="#index" title="back to the index">&uarr; index</a></h3>{lines}{msg}{svg}</section>')
 
 
-LEGEND = (("env", "Vu envelope (all combinations)"), ("vug", "Vu of the governing combination"),
-          ("cap", "\u03c6Vn provided"), ("vc", "\u03c6Vc"),
+LEGEND = (("env", "Vu envelope (all combinations)"), ("cap", "\u03c6Vn provided"), ("vc", "\u03c6Vc"),
           ("avm", "Av,min threshold (9.6.3.1)"), ("lim", "\u03c6Vn,max (22.5.1.2)"),
           ("crit", "critical section (9.4.3.2)"))
 
 
-def _legend_id(cap: bool, vug: bool, lim: bool) -> str:
-    return f"lg{int(cap)}{int(vug)}{int(lim)}"
+def _legend_id(cap: bool, lim: bool) -> str:
+    return f"lg{int(cap)}{int(lim)}"
 
 
 def _legend_defs() -> str:
     """One legend per combination of optional series, defined once and placed with <use>."""
     out = []
-    for cap, vug, lim in itertools.product((False, True), repeat=3):
-        shown = {"env", "vc", "avm", "crit"} | {k for k, on in (("cap", cap), ("vug", vug), ("lim", lim)) if on}
+    for cap, lim in itertools.product((False, True), repeat=2):
+        shown = {"env", "vc", "avm", "crit"} | {k for k, on in (("cap", cap), ("lim", lim)) if on}
         x, y, items = 0.0, 0.0, []
         for key, text in LEGEND:
             if key not in shown:
@@ -530,7 +522,7 @@ def _legend_defs() -> str:
                       f'<path class="{key}" d="M{x:g},{y - 2.5:g}h18"/>')
             items.append(f'{sample}<text x="{x + 23:g}" y="{y + 1:g}">{_text(text)}</text>')
             x += width + 22
-        out.append(f'<g id="{_legend_id(cap, vug, lim)}">{"".join(items)}</g>')
+        out.append(f'<g id="{_legend_id(cap, lim)}">{"".join(items)}</g>')
     return "".join(out)
 
 
@@ -549,7 +541,7 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
     if x_end - (LEFT + xv[-1] * sx) > 48:  # label the clear span at the far face
         xv.append(cs)
     xpx = [LEFT + v * sx for v in xv]
-    p = [f'<use href="#{_legend_id(k in d.cap, bool(d.gov_line[k]), bool(d.show_lim[k]))}" x="{LEFT}" y="16"/>',
+    p = [f'<use href="#{_legend_id(k in d.cap, bool(d.show_lim[k]))}" x="{LEFT}" y="16"/>',
          f'<path class="g" d="{"".join(f"M{LEFT},{_g(y)}h{PW}" for y in ypx[1:])}'
          f'{"".join(f"M{_g(x)},{TOP}V{base}" for x in xpx[1:])}"/>',
          f'<text text-anchor="end">{_tspans([LEFT - 6] * len(yv), [y + 4 for y in ypx], map("{:g}".format, yv))}'
@@ -561,7 +553,7 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
          f"distance from the face of support i (mm)</text>"]
     if k in d.env:
         p.append(f'<path class="env" d="M{LEFT},{base}L{d.env[k]}L{_g(x_end)},{base}Z"/>')
-    for key in ("lim", "avm", "vc", "vug", "cap"):
+    for key in ("lim", "avm", "vc", "cap"):
         pts = getattr(d, key).get(k)
         if pts:
             p.append(f'<polyline class="{key}" points="{pts}"/>')

@@ -84,7 +84,7 @@ def print_summary(doc: dict, console: Console) -> None:
         if len(doc["warnings"]) > 15:
             console.print(f"  ... and {len(doc['warnings']) - 15} more (see --json)")
     if doc["output"]:
-        console.print(f"Tables written to {doc['output']}/members.csv and zones.csv")
+        console.print(f"Tables written to {shown(doc['output'])}/members.csv and zones.csv")
     console.print(f"[italic]{doc['caution']}[/italic]")
 
 
