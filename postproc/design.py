@@ -77,6 +77,7 @@ class Demand:
     phi_vn_limit: np.ndarray  # phi (Vc + 0.66 sqrt(f'c) bw d), same combination
     section_ratio: np.ndarray  # largest Vu / section limit, or torsion interaction ratio
     torsion: np.ndarray  # torsion must be considered in some combination
+    vc: tuple[np.ndarray, np.ndarray]  # Vc (combinations, stations) with and without Av,min, for the self-check
 
 
 def required(sec: Section, Vu: np.ndarray, Nu: np.ndarray, Tu: np.ndarray) -> Demand:
@@ -134,7 +135,7 @@ def required(sec: Section, Vu: np.ndarray, Nu: np.ndarray, Tu: np.ndarray) -> De
         avmin_required=avmin_req.any(axis=0), av_min_s=np.broadcast_to(av_min_s, cols.shape).copy(),
         s_max=along, s_max_across=across,
         phi_vc=phi * pick(vc_hi), phi_vc_plain=phi * pick(vc_lo), phi_vn_limit=pick(limit),
-        section_ratio=ratio.max(axis=0), torsion=torsion_any,
+        section_ratio=ratio.max(axis=0), torsion=torsion_any, vc=(vc_hi, vc_lo),
     )
 
 
@@ -158,9 +159,7 @@ def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Dema
     with np.errstate(divide="ignore"):
         av_s = np.where(np.isfinite(spacing), legs * bar_area / spacing, 0.0)
     has_min = av_s >= aci.av_min_over_s(fc, b, fyt) * (1 - tol)
-    rho_c = np.where(np.isfinite(sec.rho_w), sec.rho_w, sec.rho_w_min)
-    vc = np.where(has_min, aci.vc_with_min_stirrups(fc, b, d, Nu, sec.Ag, lam, sec.rho_w),
-                  aci.vc_without_min_stirrups(fc, b, d, Nu, sec.Ag, rho_c, lam))
+    vc = np.where(has_min, *demand.vc)  # Table 22.5.5.1: (a)/(b) with Av >= Av,min provided, else (c)
     vs = np.minimum(aci.vs_from_av_over_s(av_s, fyt, d), aci.vs_max(fc, b, d))
     phi_vn = phi * (vc + vs)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -57,7 +57,6 @@ def combination_set(run: Run, case_names: list[str], settings: Settings) -> tupl
 class PartResult:
     rows: list[dict]
     zones: list[dict]
-    stations: pd.DataFrame
     warnings: list[str]
     members: set[str]  # every member id found in the part's forces
     stirrups: pd.DataFrame  # member, x_mm: every stirrup's position from face i
@@ -88,17 +87,16 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     zones: list[dict] = []
     stirrups: list[pd.DataFrame] = []
     seen: set[str] = set()
-    task = functools.partial(design_part, beams=beams, cset=cset, settings=settings)
-    for k, part in enumerate(map_parts(task, [str(p) for p in run.force_parts()])):
+    if stations_dir is not None:
+        stations_dir.mkdir(exist_ok=True)
+    task = functools.partial(design_part, beams=beams, cset=cset, settings=settings,
+                             stations_dir=None if stations_dir is None else str(stations_dir))
+    for part in map_parts(task, [str(p) for p in run.force_parts()]):
         rows.extend(part.rows)
         zones.extend(part.zones)
         warnings.extend(part.warnings)
         seen |= part.members
         stirrups.append(part.stirrups)
-        if stations_dir is not None and len(part.stations):
-            stations_dir.mkdir(exist_ok=True)
-            pq.write_table(pa.Table.from_pandas(part.stations, preserve_index=False),
-                           stations_dir / f"part-{k:05d}.parquet")
         if progress:
             progress(1)
     for m in sorted(seen - set(input_order)):
@@ -115,9 +113,11 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     return Result(out, zdf.reset_index(drop=True), cset, warnings, positions)
 
 
-def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings) -> PartResult:
+def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings,
+                stations_dir: str | None = None) -> PartResult:
     """Design the beams whose forces are in one stored part (a pure function of its inputs,
-    so that any engine may run the parts in any order or place)."""
+    so that any engine may run the parts in any order or place). The part's station trace
+    is written to ``stations_dir`` under the part's own file name, by the worker itself."""
     forces = pq.read_table(part_path, columns=["member", "case", "x_m", "V_kN", "N_kN", "T_kNm"])
     member_col = forces.column("member").combine_chunks()
     seen = set(pac.unique(member_col).to_pylist())
@@ -154,9 +154,10 @@ def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, 
         warnings.extend(res[3])
         stirrups.append(res[4])
         start = stop
-    st_df = pd.concat(st_tables, ignore_index=True) if st_tables else pd.DataFrame()
+    if stations_dir is not None and st_tables:
+        pq.write_table(pa.concat_tables(st_tables), Path(stations_dir) / Path(part_path).name)
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
-    return PartResult(rows, zones, st_df, warnings, seen, positions)
+    return PartResult(rows, zones, warnings, seen, positions)
 
 
 def _row(member, status, message, **kw) -> dict:
@@ -293,11 +294,13 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
 
     cols = np.arange(len(grid.x))
     gov = dem.governing
-    st_df = pd.DataFrame({
-        "member": names[grid.member], "x_mm": np.round(x_clear, 2), "side": grid.side,
-        "governing_case": np.asarray(cset.names, object)[gov], "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
-        "nu_kN": Nu[gov, cols] / 1e3, "tu_kNm": Tu[gov, cols] / 1e6,
-        "phi_vc_kN": dem.phi_vc / 1e3, "phi_vn_kN": np.where(on, cap.phi_vn[np.argmax(Vu, axis=0), cols], np.nan) / 1e3,  # with vu_max's combination
+    take = lambda values, idx: pa.array(list(values), pa.string()).take(pa.array(idx))  # strings built in Arrow
+    st_df = pa.table({
+        "member": take(names, grid.member), "x_mm": np.round(x_clear, 2), "side": grid.side,
+        "governing_case": take(cset.names, gov), "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
+        "nu_kN": Nu[gov, cols] / 1e3, "tu_kNm": Tu[gov, cols] / 1e6, "phi_vc_kN": dem.phi_vc / 1e3,
+        # phi*Vn of the combination with the largest Vu, so that it compares with vu_max
+        "phi_vn_kN": np.where(on, cap.phi_vn[np.argmax(Vu, axis=0), cols], np.nan) / 1e3,
         "phi_vn_limit_kN": dem.phi_vn_limit / 1e3,
         "avmin_threshold_kN": np.where(sec.avmin_exempt, dem.phi_vc_plain,
                                        aci.av_min_threshold(sec.fc, sec.b, sec.d, sec.lam)) / 1e3,

@@ -38,7 +38,7 @@ from postproc import __version__
 from postproc.codes import aci318_19
 
 UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment": "kN*m", "stress": "MPa"}
-PART_BYTES = 48 << 20  # CSV bytes per stored part of the forces
+PART_BYTES = 24 << 20  # CSV bytes per stored part of the forces (small enough to balance 2 workers)
 MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memory, larger ones spill to disk
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
 

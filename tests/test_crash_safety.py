@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import shutil
 import signal
 import subprocess
@@ -133,8 +134,9 @@ def start_and_kill(model: dict[str, Path], store: Path, out: Path, moment: str) 
     """Start the CLI in a subprocess, SIGKILL it at the moment named; the exit status and time."""
     cond, delay = MOMENTS[moment]
     t0 = time.monotonic()
+    # its own process group, so that the kill takes the run's worker processes with it
     proc = subprocess.Popen([sys.executable, "-m", "postproc.cli", *run_argv(model["members"], model["forces"], store, out)],
-                            cwd=store.parent, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+                            cwd=store.parent, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
     try:
         while cond is not None and not cond(store):
             assert proc.poll() is None, f"the run ended (exit {proc.returncode}) before the moment '{moment}': " \
@@ -143,11 +145,11 @@ def start_and_kill(model: dict[str, Path], store: Path, out: Path, moment: str) 
             time.sleep(0.002)
         time.sleep(delay)
         assert proc.poll() is None, f"the run ended before it could be killed {moment}"
-        proc.send_signal(signal.SIGKILL)
+        os.killpg(proc.pid, signal.SIGKILL)
         return proc.wait(timeout=10), time.monotonic() - t0
     finally:
         if proc.poll() is None:
-            proc.kill()
+            os.killpg(proc.pid, signal.SIGKILL)
             proc.wait()
         proc.stderr.close()
 
