@@ -251,8 +251,12 @@ def main(argv: list[str] | None = None) -> int:
     result = holder["result"]
     report.write_tables(result, args.out)
     if not args.no_report:
-        html_report.write_html_report(run, args.out / "report.html")
+        with report.progress_bars(show_progress) as task:
+            done = task("writing report.html", 1)
+            html_report.write_html_report(run, args.out / "report.html")
+            done()
     doc = report.summary(result, run.name, args.out)
+    doc["report"] = None if args.no_report else str(args.out / "report.html")
     try:
         if args.json:
             print(report.dump_json(doc))

@@ -84,7 +84,8 @@ def print_summary(doc: dict, console: Console) -> None:
         if len(doc["warnings"]) > 15:
             console.print(f"  ... and {len(doc['warnings']) - 15} more (see --json)")
     if doc["output"]:
-        console.print(f"Tables written to {shown(doc['output'])}/members.csv and zones.csv")
+        files = "members.csv, zones.csv" + (" and report.html" if doc.get("report") else "")
+        console.print(f"Written to {shown(doc['output'])}: {files}")
     console.print(f"[italic]{doc['caution']}[/italic]")
 
 
