@@ -191,12 +191,23 @@ def _end_zones(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
             continue  # already covered by the tighter zone before
         begin = first(s) if not zones else last + s
         if is_last:  # cantilever: the last stirrup stays within the free end's cover allowance
-            n = max(1, int(np.floor((boundary - begin) / s + 1e-9)) + 1)
+            if begin > boundary + 1e-9:
+                if zones:
+                    continue  # the zone before reaches the free end already
+                begin = boundary  # a very short cantilever: one stirrup
+            n = int(np.floor((boundary - begin) / s + 1e-9)) + 1
         else:
             n = max(1, int(np.ceil((boundary - begin) / s - 1e-9)) + 1)
+            if to_end is not None:  # a cantilever's zones never run past its free end
+                n = min(n, int(np.floor((to_end - begin) / s + 1e-9)) + 1)
+                if n < 1:
+                    continue
         pos = begin + s * np.arange(n)
-        zones.append(Zone(last, float(pos[-1]), s, pos))
-        last = float(pos[-1])
+        # a zone ends on its last stirrup; one held back from a cantilever's free end still
+        # serves up to its boundary (the gap there is less than its spacing)
+        end = max(float(pos[-1]), boundary) if to_end is not None and not is_last else float(pos[-1])
+        zones.append(Zone(last, end, s, pos))
+        last = end
     return zones, last, float(levels[-1])
 
 

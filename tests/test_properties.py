@@ -95,8 +95,9 @@ def test_random_frames_pass_self_check_and_keep_every_member(frame, throughout, 
         assert len(x) == row.stirrups_total
         if len(x):
             assert x[0] > 0 and x[-1] < lengths[name]
-            widest = res.zones[res.zones.member == name].spacing_mm.max()
-            assert np.all(np.diff(x) <= widest + 0.2)
+            spacing = res.zones[res.zones.member == name].spacing_mm
+            if spacing.notna().all():  # a zone without stirrups (omitted where permitted) leaves a wide gap
+                assert np.all(np.diff(x) <= spacing.max() + 0.2)
 
 
 @given(frame=frames(), seed=st.integers(0, 2**31 - 1))
