@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import tomllib
+from pathlib import Path
+
 
 class InputError(Exception):
     """A problem in an input file, located as precisely as the file allows.
@@ -21,3 +24,14 @@ class InputError(Exception):
         if column is not None:
             where.append(f"column '{column}'")
         super().__init__(f"{', '.join(where)}: {message}")
+
+
+def read_toml(path, what: str) -> dict:
+    """A TOML file as a dict; a missing or malformed file is an InputError naming it."""
+    path = Path(path)
+    try:
+        return tomllib.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputError(path, f"{what} file not found") from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(path, f"not a valid TOML file ({exc})") from None

@@ -15,11 +15,10 @@ by -1 after conversion. Anything not mentioned is read under our own name and un
 
 from __future__ import annotations
 
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from adapters.errors import InputError
+from adapters.errors import InputError, read_toml
 
 # Factors to the SI base unit of each quantity (m, N, N*m, Pa, m^2).
 _LENGTH = {"m": 1.0, "mm": 1e-3, "cm": 1e-2, "ft": 0.3048, "in": 0.0254}
@@ -78,12 +77,7 @@ def load_column_map(path: str | Path | None, known: dict[str, tuple[str, ...]]) 
     if path is None:
         return ColumnMap()
     path = Path(path)
-    try:
-        doc = tomllib.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError(path, "mapping file not found") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"not a valid TOML file ({exc})") from None
+    doc = read_toml(path, "mapping")
     tables = {}
     for name, spec in doc.items():
         if name not in known:

@@ -31,11 +31,10 @@
 
 from __future__ import annotations
 
-import tomllib
 from dataclasses import asdict, dataclass, field, fields, replace
 from pathlib import Path
 
-from adapters.errors import InputError
+from adapters.errors import InputError, read_toml
 
 # ASTM A615/A615M Table 1: nominal diameter (mm) and area (mm^2) of deformed bars.
 BAR_CATALOGUE = {
@@ -99,12 +98,7 @@ def load_settings(path: str | Path | None) -> Settings:
     if path is None:
         return s
     path = Path(path)
-    try:
-        doc = tomllib.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError(path, "settings file not found") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"not a valid TOML file ({exc})") from None
+    doc = read_toml(path, "settings")
     sections = {f.name: f for f in fields(Settings)}
     for name, values in doc.items():
         if name not in sections or not isinstance(values, dict):
