@@ -34,7 +34,7 @@ class Section:
     Aoh: np.ndarray
     ph: np.ndarray
 
-    def take(self, idx: np.ndarray) -> "Section":
+    def take(self, idx: np.ndarray) -> Section:
         return Section(**{k: getattr(self, k)[idx] for k in self.__dataclass_fields__})
 
 

@@ -98,10 +98,10 @@ def _critical_sections(run: Run, member: str, m, r, settings: Stations) -> Step:
     s = stations.Samples.build(np.zeros(f.num_rows, np.int64),
                                np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),
                                f.column("x_m").to_numpy() * 1e3, {"V": f.column("V_kN").to_numpy() * 1e3})
-    jm, jx = stations.jumps(s, settings, 1)
+    _, jx = stations.jumps(s, settings, 1)
     lines = []
-    for end, crit, support, face, vu in (("i", r.crit_i, m.support_i, m.face_i_mm, r.vu_design_i_kN),
-                                         ("j", r.crit_j, m.support_j, m.face_j_mm, r.vu_design_j_kN)):
+    for end, crit, support, vu in (("i", r.crit_i, m.support_i, r.vu_design_i_kN),
+                                   ("j", r.crit_j, m.support_j, r.vu_design_j_kN)):
         if crit == "free":
             lines.append(f"end {end}: free end, no critical section")
             continue

@@ -82,7 +82,7 @@ def _satisfies(zones: pd.DataFrame, st: pd.DataFrame) -> bool:
     return bool(ok.all())
 
 
-def build(run: Run, settings: Detailing, envelope: bool = False, previous: "Schedule | None" = None) -> Schedule:
+def build(run: Run, settings: Detailing, envelope: bool = False, previous: Schedule | None = None) -> Schedule:
     res = design_table(run, "members").set_index("member")
     zones = design_table(run, "zones")
     inputs = run.members().to_pandas().set_index("member")

@@ -54,7 +54,7 @@ class Samples:
     values: dict[str, np.ndarray]  # V, N (N), T, M (N*mm)
 
     @staticmethod
-    def build(member, case, x, values) -> "Samples":
+    def build(member, case, x, values) -> Samples:
         if _is_sorted(member, case, x):  # the store keeps forces in this order already
             return Samples(member, case, x, values)
         order = np.lexsort((x, case, member))  # stable: jump rows keep their file order

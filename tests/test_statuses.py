@@ -2,7 +2,6 @@
 
 import math
 
-import pytest
 
 from postproc import cli
 from tests.conftest import beam, rows_from_function
