@@ -146,13 +146,17 @@ class Capacity:
     ok: np.ndarray  # per station, every check passes
 
 
-def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Demand, tol: float = 1e-9) -> Capacity:
+def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Demand, leg_spacing=None,
+                 tol: float = 1e-9) -> Capacity:
     """Self-check of a provided layout at every station for every combination.
 
     phi*Vn = phi (Vc + Av fyt d / s) with Vc by Table 22.5.5.1 (a)/(b) where the provided
     Av >= Av,min, else (c); with torsion, each outer leg must carry its share of shear
     plus At/s (22.7.6.1); s <= s_max (9.7.6.2.2, 9.7.6.3.3); Av >= Av,min where required
-    (9.6.3.1, 9.6.4.2). ``spacing`` is inf where no stirrups are provided.
+    (9.6.3.1, 9.6.4.2); legs across the width at most s_max across apart where shear
+    reinforcement is required (Table 9.7.6.2.2); the section limits (22.5.1.2, 22.7.7.1).
+    ``spacing`` is inf where no stirrups are provided; ``leg_spacing`` is the distance
+    between legs across the width.
     """
     fc, b, d, lam, fyt = sec.fc, sec.b, sec.d, sec.lam, sec.fyt
     phi = aci.PHI_SHEAR
@@ -173,4 +177,8 @@ def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Dema
     ok = util <= 1.0 + tol
     ok &= np.where(np.isfinite(spacing), spacing <= demand.s_max * (1 + tol), ~demand.avmin_required)
     ok &= ~demand.avmin_required | has_min
+    ok &= demand.section_ratio <= 1.0 + tol
+    if leg_spacing is not None:
+        needed = np.isfinite(spacing) & (demand.avmin_required | (demand.av_s_env > 0) | (demand.at_s_env > 0))
+        ok &= ~needed | (leg_spacing <= demand.s_max_across * (1 + tol))
     return Capacity(phi_vn=phi_vn, utilization=util, ok=ok)

@@ -125,6 +125,27 @@ def legs_for_width(b: float, cover: float, db: float, s_across: float) -> int:
     return max(2, int(np.ceil(w / s_across - 1e-9)) + 1)
 
 
+def leg_spacing(b: float, cover: float, db: float, legs: int) -> float:
+    """Centre distance between adjacent legs across the width, legs evenly spread."""
+    return (b - 2 * cover - db) / max(legs - 1, 1)
+
+
+def gaps_within_spacing(layout: "Layout", clear_span: float, free_i: bool, free_j: bool) -> bool:
+    """Every gap between neighbouring stirrups, and from a supported face to the stirrup
+    next to it, is within the spacing the zones state there (what the self-check uses)."""
+    x = layout.positions
+    if not len(x):
+        return True
+    edges = [x[0]] if not free_i else []
+    mids = [x[0] / 2] if not free_i else []
+    if not free_j:
+        edges.append(clear_span - x[-1])
+        mids.append((clear_span + x[-1]) / 2)
+    gaps = np.concatenate([np.diff(x), edges])
+    where = np.concatenate([(x[1:] + x[:-1]) / 2, mids])
+    return bool(np.all(gaps <= provided_spacing(layout, where) + 1e-6))
+
+
 def floor_to_module(s: np.ndarray, module: float) -> np.ndarray:
     """Round a spacing down to the practical module (common practice: 25 mm)."""
     with np.errstate(invalid="ignore"):

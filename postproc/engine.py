@@ -223,6 +223,7 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     spacing = np.full(len(grid.x), np.inf)
     legs_st = np.zeros(len(grid.x))
     area_st = np.zeros(len(grid.x))
+    leg_gap = np.zeros(len(grid.x))
     designed = np.zeros(n, bool)
     layouts: dict[int, detailing.Layout] = {}
     messages: dict[int, str] = {}
@@ -242,8 +243,11 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
         spacing[sl] = detailing.provided_spacing(lay, x_clear[sl])
         legs_st[sl] = lay.legs
         area_st[sl] = BAR_CATALOGUE[lay.bar][1]
+        leg_gap[sl] = detailing.leg_spacing(float(width[m]), st.clear_cover_mm, BAR_CATALOGUE[lay.bar][0], lay.legs)
+        if not detailing.gaps_within_spacing(lay, g.clear_span[m], g.support_i[m] == "free", g.support_j[m] == "free"):
+            raise SelfCheckError(f"stirrups of member {names[m]} leave a gap wider than their zone's spacing")
 
-    cap = design.check_layout(sec, Vu, Nu, Tu, area_st, legs_st, spacing, dem)
+    cap = design.check_layout(sec, Vu, Nu, Tu, area_st, legs_st, spacing, dem, leg_gap)
     on = designed[grid.member]
     bad = on & ~cap.ok
     if bad.any():

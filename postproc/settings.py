@@ -127,6 +127,9 @@ def load_settings(path: str | Path | None) -> Settings:
         raise InputError(path, "[detailing] needs spacing_module_mm > 0 and min_spacing_mm >= spacing_module_mm")
     if d.stirrup_shape not in ("closed", "open") or d.open_hook_deg not in (90, 135):
         raise InputError(path, "[detailing] needs stirrup_shape \"closed\" or \"open\" and open_hook_deg 90 or 135")
+    if d.stirrup_shape == "open" and any(bar == "#19" for bar, _ in d.ladder):
+        raise InputError(path, "[detailing] open #19 stirrups need the extra embedment of ACI 318-19 25.7.1.3(b), "
+                               "which is not checked: use stirrup_shape = \"closed\" or bars up to #16")
     if d.max_zones_per_end < 1:
         raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
     return s

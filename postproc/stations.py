@@ -84,14 +84,16 @@ class EndRules:
     point_load_near_bearing: np.ndarray  # per member: a concentrated load within 2h of a bearing face
 
 
-def jumps(s: Samples, settings: Stations, n_members: int) -> tuple[np.ndarray, np.ndarray]:
-    """Concentrated loads: (member, x) of jumps in V larger than the tolerance (any case)."""
+def jumps(s: Samples, settings: Stations, n_members: int, key: str = "V") -> tuple[np.ndarray, np.ndarray]:
+    """Concentrated loads (key "V", N) or torques (key "T", N*mm): (member, x) of jumps
+    larger than the tolerance in any case (the tolerance in kN, or kN*m for torque)."""
     same = (s.member[1:] == s.member[:-1]) & (s.case[1:] == s.case[:-1]) & (s.x[1:] == s.x[:-1])
-    V = s.values["V"]
+    v = s.values[key]
     vmax = np.zeros(n_members)
-    np.maximum.at(vmax, s.member, np.abs(V))
-    size = np.abs(V[1:] - V[:-1])
-    tol = np.maximum(settings.point_load_kN * 1e3, settings.point_load_fraction * vmax[s.member[1:]])
+    np.maximum.at(vmax, s.member, np.abs(v))
+    size = np.abs(v[1:] - v[:-1])
+    unit = 1e3 if key == "V" else 1e6
+    tol = np.maximum(settings.point_load_kN * unit, settings.point_load_fraction * vmax[s.member[1:]])
     hit = same & (size > tol)
     return s.member[1:][hit], s.x[1:][hit]
 
@@ -218,6 +220,10 @@ def end_rules(g: Geometry, grid: Grid, s: Samples, settings: Stations) -> EndRul
     np.logical_or.at(near_j, jm, (jx < b[jm]) & (jx >= b[jm] - g.d[jm]))
     np.logical_or.at(deep_i, jm, (jx > a[jm]) & (jx <= a[jm] + 2 * g.h[jm]))
     np.logical_or.at(deep_j, jm, (jx < b[jm]) & (jx >= b[jm] - 2 * g.h[jm]))
+    if "T" in s.values:  # 9.4.4.3: a concentrated torque within d of the face puts the section at the face
+        tm, tx = jumps(s, settings, n, "T")
+        np.logical_or.at(near_i, tm, (tx > a[tm]) & (tx <= a[tm] + g.d[tm]))
+        np.logical_or.at(near_j, tm, (tx < b[tm]) & (tx >= b[tm] - g.d[tm]))
     bearing_i = np.isin(g.support_i, BEARING)
     bearing_j = np.isin(g.support_j, BEARING)
     free_i = g.support_i == "free"

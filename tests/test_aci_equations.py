@@ -71,6 +71,11 @@ def test_av_min_two_expressions_cross_near_32_mpa():
     assert aci.av_min_over_s(fc_cross, 300.0, 420.0) == pytest.approx(0.35 * 300 / 420)
 
 
+def test_av_min_uses_the_full_sqrt_fc():
+    # Table 9.6.3.4 uses sqrt(f'c) itself; the 8.3 MPa limit of 22.5.3.1 is for Vc only
+    assert aci.av_min_over_s(100.0, 300.0, 420.0) == pytest.approx(0.062 * 10.0 * 300 / 420)
+
+
 def test_av_min_threshold():
     # 9.6.3.1: Av,min required where Vu > phi 0.083 lambda sqrt(f'c) bw d (1 sqrt(psi) in US units)
     assert aci.av_min_threshold(25.0, 300.0, 500.0) == pytest.approx(0.75 * 0.083 * 5 * 300 * 500)

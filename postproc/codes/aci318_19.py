@@ -86,8 +86,11 @@ def vs_from_av_over_s(av_s, fyt, d):
 
 
 def av_min_over_s(fc, bw, fyt):
-    """Av,min/s, the greater of 0.062 sqrt(f'c) bw/fyt and 0.35 bw/fyt (Table 9.6.3.4 (a), (b))."""
-    return np.maximum(0.062 * sqrt_fc(fc) * bw / fyt, 0.35 * bw / fyt)
+    """Av,min/s, the greater of 0.062 sqrt(f'c) bw/fyt and 0.35 bw/fyt (Table 9.6.3.4 (a), (b)).
+
+    The full sqrt(f'c): the 8.3 MPa limit of 22.5.3.1 is for Vc, and capping it here
+    would lower the minimum for f'c above 69 MPa."""
+    return np.maximum(0.062 * np.sqrt(fc) * bw / fyt, 0.35 * bw / fyt)
 
 
 def av_min_threshold(fc, bw, d, lam=1.0):
