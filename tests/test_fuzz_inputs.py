@@ -154,7 +154,7 @@ def finish(doc: Doc, which: str, expect: str, row: int | None = None, columns=()
     for ph, repl in (raw or {}).items():
         data = data.replace(ph.encode("utf-8"), repl)
     line = lines[row + 1] if row is not None else None
-    for ph, repl in (raw or {}).items():  # bytes that are not UTF-8: the line they stand on
+    for repl in (raw or {}).values():  # bytes that are not UTF-8: the line they stand on
         line = data[:data.index(repl)].count(b"\n") + 1
     return Case(which, data, expect, line, tuple(columns), note)
 
