@@ -106,21 +106,43 @@ class InputErrors(InputError):
         self.file, self.line, self.column, self.detail = first.file, first.line, first.column, text
 
 
+class _Malformed(Exception):
+    """The csv module could not read a record; ``line`` is where that record starts."""
+
+    def __init__(self, line: int, error: csv.Error):
+        super().__init__(str(error))
+        self.line = line
+
+
+def _records(fh, strict: bool = False):
+    """(line, record) for every non-blank record after the header, ``line`` being the one
+    the record starts on; a malformed record raises _Malformed."""
+    reader = csv.reader(fh, strict=strict)
+    start, k = 1, 0
+    while True:
+        try:
+            rec = next(reader)
+        except StopIteration:
+            return
+        except csv.Error as err:
+            raise _Malformed(start, err) from None
+        if k > 0 and rec:
+            yield start, rec
+        k += 1
+        start = reader.line_num + 1
+
+
 def record_lines(path: Path, upto: int) -> list[int]:
     """Line number on which each data record starts, for records 0..upto (pyarrow skips
     blank lines and quoted fields may span lines, so the two differ)."""
     lines: list[int] = []
     with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
-        reader = csv.reader(fh)
-        start = 1
         try:
-            for k, rec in enumerate(reader):
-                if k > 0 and rec:
-                    lines.append(start)
-                    if len(lines) > upto:
-                        break
-                start = reader.line_num + 1
-        except csv.Error:
+            for line, _ in _records(fh):
+                lines.append(line)
+                if len(lines) > upto:
+                    break
+        except _Malformed:
             pass  # lines past a malformed one are not known; their errors name no line
     return lines
 
@@ -155,24 +177,18 @@ def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, .
     except UnicodeDecodeError as bad:
         line = raw[: bad.start].count(b"\n") + 1
         return InputError(path, "not UTF-8 text (bytes that no UTF-8 text has); save the file as UTF-8 CSV", line)
-    reader = csv.reader(io.StringIO(raw.decode("utf-8"), newline=""))
     index = {name: k for k, name in enumerate(header)}
     numeric = [(c.name, index[table.source_name(c.name)]) for c in cols if c.numeric and table.source_name(c.name) in index]
-    start = 1
     try:
-        for k, rec in enumerate(reader):
-            if k > 0 and rec:
-                if len(rec) != len(header):
-                    return InputError(path, f"expected {len(header)} fields as in the header, found {len(rec)}", start)
-                for ours, pos in numeric:
-                    value = rec[pos].strip()
-                    if value == "":
-                        continue
-                    if not NUMBER.match(value):
-                        return InputError(path, f"'{value[:40]}' is not a number", start, table.source_name(ours))
-            start = reader.line_num + 1
-    except csv.Error as err:
-        return InputError(path, f"malformed CSV ({err})", start)
+        for line, rec in _records(io.StringIO(raw.decode("utf-8"), newline="")):
+            if len(rec) != len(header):
+                return InputError(path, f"expected {len(header)} fields as in the header, found {len(rec)}", line)
+            for ours, pos in numeric:
+                value = rec[pos].strip()
+                if value and not NUMBER.match(value):
+                    return InputError(path, f"'{value[:40]}' is not a number", line, table.source_name(ours))
+    except _Malformed as bad:
+        return InputError(path, f"malformed CSV ({bad})", bad.line)
     return InputError(path, f"could not be read as CSV ({exc})")
 
 
@@ -263,14 +279,13 @@ def _check_quotes(path: Path) -> int:
             count += chunk.count(b'"')
     if count % 2 == 0:
         return count
-    start = 1  # an odd count may also be a quote inside a value (B"1), which is text: find out
+    # an odd count may also be a quote inside a value (B"1), which is text: find out
     with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
-        reader = csv.reader(fh, strict=True)
         try:
-            for _ in reader:
-                start = reader.line_num + 1
-        except csv.Error:
-            raise InputError(path, "a quoted value never ends (an unbalanced quote, or a cut file)", start) from None
+            for _ in _records(fh, strict=True):
+                pass
+        except _Malformed as bad:
+            raise InputError(path, "a quoted value never ends (an unbalanced quote, or a cut file)", bad.line) from None
     return count
 
 
