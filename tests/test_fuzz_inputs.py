@@ -162,42 +162,35 @@ def finish(doc: Doc, which: str, expect: str, row: int | None = None, columns=()
 # ---------------------------------------------------------------- mutation operators
 
 
-def op_bad_number(rng, which, k=0):
+def put_number(rng, which, tokens, with_cover=False):
+    """A valid pair with one numeric cell replaced by one of ``tokens``: (doc, column, row, token)."""
     doc = base_doc(which)
     layout(rng, doc)
-    col = rng.choice(REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which])
+    extra = ["cover_mm"] if with_cover and which == "members" else []
+    col = rng.choice(REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which] + extra)
     r = rng.randrange(len(doc.rows))
-    token = rng.choice(NOT_NUMBERS)
+    token = rng.choice(tokens)
     doc.rows[r][doc.header.index(col)] = token
+    return doc, col, r, token
+
+
+def op_bad_number(rng, which, k=0):
+    doc, col, r, token = put_number(rng, which, NOT_NUMBERS)
     return finish(doc, which, "invalid", r, [col], f"{col}={token!r}")
 
 
 def op_unquoted_comma(rng, which, k=0):
-    doc = base_doc(which)
-    layout(rng, doc)
-    col = rng.choice(REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which])
-    r = rng.randrange(len(doc.rows))
-    doc.rows[r][doc.header.index(col)] = rng.choice(["1,5", "12,50", "-3,0"])
+    doc, col, r, _ = put_number(rng, which, ["1,5", "12,50", "-3,0"])
     return finish(doc, which, "invalid", r, (), f"{col} with a decimal comma")  # one field too many
 
 
 def op_infinite(rng, which, k=0):
-    doc = base_doc(which)
-    layout(rng, doc)
-    col = rng.choice(REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which])
-    r = rng.randrange(len(doc.rows))
-    token = rng.choice(INFINITE)
-    doc.rows[r][doc.header.index(col)] = token
+    doc, col, r, token = put_number(rng, which, INFINITE)
     return finish(doc, which, "invalid", r, [col], f"{col}={token[:12]!r}")
 
 
 def op_missing_number(rng, which, k=0):
-    doc = base_doc(which)
-    layout(rng, doc)
-    col = rng.choice(REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which] + (["cover_mm"] if which == "members" else []))
-    r = rng.randrange(len(doc.rows))
-    token = rng.choice(MISSING)
-    doc.rows[r][doc.header.index(col)] = token
+    doc, col, r, token = put_number(rng, which, MISSING, with_cover=True)
     if col == "cover_mm":  # without d_mm, cover_mm is needed: "give d_mm or cover_mm"
         return finish(doc, which, "invalid", r, ["d_mm", "cover_mm"], f"cover_mm={token!r}")
     if col in OPTIONAL_NUMERIC[which]:
@@ -206,12 +199,7 @@ def op_missing_number(rng, which, k=0):
 
 
 def op_huge_number(rng, which, k=0):
-    doc = base_doc(which)
-    layout(rng, doc)
-    col = rng.choice(REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which] + (["cover_mm"] if which == "members" else []))
-    r = rng.randrange(len(doc.rows))
-    token = rng.choice(HUGE)
-    doc.rows[r][doc.header.index(col)] = token
+    doc, col, r, token = put_number(rng, which, HUGE, with_cover=True)
     # the documents do not bound these; they must give a design (0/3) or a located error (1),
     # which may name another column (e.g. a huge face leaves no clear span: face_j_mm)
     case = finish(doc, which, "either", r, (), f"{col}={token}")
