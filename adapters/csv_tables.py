@@ -19,8 +19,8 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.csv as pcsv
 
-from adapters.errors import InputError
-from adapters.mapping import ColumnMap, TableMap
+from postproc.adapters.errors import InputError
+from postproc.adapters.mapping import ColumnMap, TableMap
 from postproc.codes import aci318_19 as aci
 
 SUPPORTS = ("column", "wall", "girder", "hanger", "free")

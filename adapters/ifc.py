@@ -69,9 +69,9 @@ from shapely import affinity
 from shapely.geometry import LineString, Point, Polygon
 from shapely.strtree import STRtree
 
-from adapters.csv_tables import MEMBER_COLUMNS
-from adapters.errors import InputError
-from adapters.mapping import unit_factor
+from postproc.adapters.csv_tables import MEMBER_COLUMNS
+from postproc.adapters.errors import InputError
+from postproc.adapters.mapping import unit_factor
 from postproc.codes import aci318_19 as aci
 
 DESIGN_PSET = "ShearpostDesign"

@@ -18,7 +18,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from adapters.errors import InputError, read_toml
+from postproc.adapters.errors import InputError, read_toml
 
 # Factors to the SI base unit of each quantity (m, N, N*m, Pa, m^2).
 _LENGTH = {"m": 1.0, "mm": 1e-3, "cm": 1e-2, "ft": 0.3048, "in": 0.0254}

@@ -18,8 +18,8 @@ import pandas as pd
 import pyarrow.csv as pcsv
 import pyarrow.parquet as pq
 
-from adapters import csv_tables
-from adapters.mapping import ColumnMap
+from postproc.adapters import csv_tables
+from postproc.adapters.mapping import ColumnMap
 from postproc import engine, reference, synthetic
 from postproc.settings import Settings
 from postproc.store import Store

@@ -6,6 +6,7 @@ Exit codes: 0 success, 1 bad input, 2 usage error, 3 some members need resizing.
 from __future__ import annotations
 
 import argparse
+import importlib.resources
 import os
 import sys
 from pathlib import Path
@@ -13,15 +14,15 @@ from pathlib import Path
 from rich.console import Console
 from rich.table import Table
 
-from adapters import csv_tables, ifc
-from adapters.errors import InputError
-from adapters.mapping import load_column_map
+from postproc.adapters import csv_tables, ifc
+from postproc.adapters.errors import InputError
+from postproc.adapters.mapping import load_column_map
 from postproc import __version__, bench, engine, engines, explain, govern, html_report, report, schedule
 from postproc.settings import load_settings, settings_from_dict
 from postproc.store import Store, StoreError
 
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
-SAMPLE = Path(__file__).resolve().parent.parent / "sample_results"
+SAMPLE = Path(str(importlib.resources.files("postproc.sample_results")))
 
 
 def engine_options(q: argparse.ArgumentParser) -> None:

@@ -34,7 +34,7 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass, field, fields, replace
 from pathlib import Path
 
-from adapters.errors import InputError, read_toml
+from postproc.adapters.errors import InputError, read_toml
 
 # ASTM A615/A615M Table 1: nominal diameter (mm) and area (mm^2) of deformed bars.
 BAR_CATALOGUE = {

@@ -33,7 +33,7 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
-from adapters.csv_tables import sort_part
+from postproc.adapters.csv_tables import sort_part
 from postproc import __version__
 from postproc.codes import aci318_19
 
@@ -134,7 +134,7 @@ class Store:
         that the run appears with its design or not at all.
 
         ``source`` streams validated force batches (``batches()``, ``check_part()``,
-        ``size()``, see adapters.csv_tables.ForcesReader). Rows are spread over parts by a
+        ``size()``, see postproc.adapters.csv_tables.ForcesReader). Rows are spread over parts by a
         hash of the member id, so that every part holds whole members; each part is then
         checked, sorted by member, case, station and file row, and written. Memory is
         bounded by the part size, not by the model.

@@ -3,9 +3,9 @@
 import pandas as pd
 import pytest
 
-from adapters.errors import InputError
-from adapters.mapping import load_column_map, unit_factor
-from adapters.csv_tables import KNOWN_COLUMNS
+from postproc.adapters.errors import InputError
+from postproc.adapters.mapping import load_column_map, unit_factor
+from postproc.adapters.csv_tables import KNOWN_COLUMNS
 from postproc import cli
 from tests.conftest import beam, rows_from_function, write_inputs
 

@@ -4,8 +4,8 @@ import pandas as pd
 import pyarrow.parquet as pq
 import pytest
 
-from adapters import csv_tables
-from adapters.mapping import ColumnMap
+from postproc.adapters import csv_tables
+from postproc.adapters.mapping import ColumnMap
 from postproc import engine, engines, store as store_mod, synthetic
 from postproc.settings import Settings
 from postproc.store import Store

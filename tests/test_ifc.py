@@ -22,10 +22,10 @@ import ifcopenshell.api.root
 import ifcopenshell.api.spatial
 import ifcopenshell.api.structural
 import ifcopenshell.api.unit
-from adapters.csv_tables import read_members
-from adapters.errors import InputError
-from adapters.ifc import EXTRA_COLUMNS, IfcDefaults, fc_from_text, measure, read_ifc_members
-from adapters.mapping import ColumnMap
+from postproc.adapters.csv_tables import read_members
+from postproc.adapters.errors import InputError
+from postproc.adapters.ifc import EXTRA_COLUMNS, IfcDefaults, fc_from_text, measure, read_ifc_members
+from postproc.adapters.mapping import ColumnMap
 
 api = ifcopenshell.api
 SITE = np.array([100.0, 50.0, 0.0])  # world position of the site origin (authored)
