@@ -39,8 +39,10 @@ _C_MAX_OVER_H = 1000.0  # at c = 1000 h every fibre is practically at eps_cu
 
 
 def beta1(fc):
-    """Stress-block depth factor (Table 22.2.2.4.3): 0.85 up to 28 MPa, less 0.05 per 7 MPa, not below 0.65."""
-    return np.clip(0.85 - 0.05 * (np.asarray(fc, dtype=float) - 28.0) / 7.0, 0.65, 0.85)
+    """Stress-block depth factor (Table 22.2.2.4.3): 0.85 up to 28 MPa, 0.85 - 0.05 (f'c - 28)/7
+    between, 0.65 from 55 MPa."""
+    fc = np.asarray(fc, dtype=float)
+    return np.where(fc >= 55.0, 0.65, np.clip(0.85 - 0.05 * (fc - 28.0) / 7.0, 0.65, 0.85))
 
 
 def phi_axial_flexure(eps_t, fy, spiral=False):
