@@ -34,7 +34,7 @@ PHI_COMPRESSION_TIED = 0.65  # Table 21.2.2, other transverse reinforcement
 PHI_COMPRESSION_SPIRAL = 0.75  # Table 21.2.2, spirals conforming to 25.7.3
 TRANSITION_STRAIN = 0.003  # Table 21.2.2: tension-controlled where eps_t >= eps_ty + 0.003
 
-_BISECTION_STEPS = 64  # the bracket [0, 1000 h] shrinks to about 5e-17 h
+_BISECTION_STEPS = 48  # the bracket [0, 1000 h] shrinks to about 4e-12 h
 _C_MAX_OVER_H = 1000.0  # at c = 1000 h every fibre is practically at eps_cu
 
 
@@ -217,22 +217,67 @@ def layered_sections(b, h, bar_area, bar_z, bar_db, fc, fy, spiral=False) -> Sec
                      np.atleast_2d(np.asarray(bar_z, float)), bar_db, fc, fy, spiral)
 
 
-def _compression_block(sec: Sections, a, sign):
-    """Area of concrete within depth a of the compression face, and its first moment about that face."""
-    flip = (sign < 0)[:, None]
-    top = np.where(flip, sec.h[:, None] - sec.piece_bottom, sec.piece_top)
-    bottom = np.where(flip, sec.h[:, None] - sec.piece_top, sec.piece_bottom)
-    overlap = np.clip(np.minimum(a[:, None], bottom) - top, 0.0, None)
-    area = (sec.piece_width * overlap).sum(axis=1)
-    first = (sec.piece_width * overlap * (top + overlap / 2.0)).sum(axis=1)
-    # circular segment of depth a: half-angle t, area r^2 (t - sin t cos t), centroid 2 r sin^3 t / (3 (t - sin t cos t)) from the centre
-    r = sec.diameter / 2.0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        t = np.arccos(np.clip(1.0 - np.minimum(a, sec.diameter) / r, -1.0, 1.0))
-        seg = r**2 * (t - np.sin(t) * np.cos(t))
-        from_centre = np.where(seg > 0.0, 2.0 * r**3 * np.sin(t) ** 3 / (3.0 * seg), 0.0)
-    seg = np.nan_to_num(seg)
-    return area + seg, first + seg * np.nan_to_num(r - from_centre)
+@dataclass(frozen=True)
+class _Oriented:
+    """A batch of sections seen from its compression face (sign applied), fixed during a solve."""
+
+    sec: Sections
+    piece_top: np.ndarray  # depths from the compression face
+    piece_bottom: np.ndarray
+    bar_u: np.ndarray
+    half_db: np.ndarray
+    centroid_u: np.ndarray
+    extreme_tension_u: np.ndarray
+    has_circle: bool
+
+    @classmethod
+    def of(cls, sec: Sections, sign) -> _Oriented:
+        flip = np.broadcast_to(np.asarray(sign), sec.h.shape) < 0
+        h = sec.h[:, None]
+        bar_u = np.where(flip[:, None], h - sec.bar_z, sec.bar_z)
+        return cls(
+            sec=sec,
+            piece_top=np.where(flip[:, None], h - sec.piece_bottom, sec.piece_top),
+            piece_bottom=np.where(flip[:, None], h - sec.piece_top, sec.piece_bottom),
+            bar_u=bar_u,
+            half_db=np.maximum(sec.bar_db / 2.0, 1e-6 * h),
+            centroid_u=np.where(flip, sec.h - sec.centroid_z, sec.centroid_z),
+            extreme_tension_u=np.where(sec.bar_area > 0.0, bar_u, -np.inf).max(axis=1),
+            has_circle=bool(np.any(sec.diameter > 0.0)),
+        )
+
+    def block(self, a):
+        """Area of concrete within depth a of the compression face, and its first moment about that face."""
+        sec = self.sec
+        overlap = np.clip(np.minimum(a[:, None], self.piece_bottom) - self.piece_top, 0.0, None)
+        area = (sec.piece_width * overlap).sum(axis=1)
+        first = (sec.piece_width * overlap * (self.piece_top + overlap / 2.0)).sum(axis=1)
+        if not self.has_circle:
+            return area, first
+        # circular segment of depth a, half-angle t: area r^2 (t - sin t cos t),
+        # centroid 2 r sin^3 t / (3 (t - sin t cos t)) from the centre
+        r = sec.diameter / 2.0
+        with np.errstate(invalid="ignore", divide="ignore"):
+            t = np.arccos(np.clip(1.0 - np.minimum(a, sec.diameter) / r, -1.0, 1.0))
+            seg = np.nan_to_num(r**2 * (t - np.sin(t) * np.cos(t)))
+            from_centre = np.where(seg > 0.0, 2.0 * r**3 * np.sin(t) ** 3 / (3.0 * seg), 0.0)
+        return area + seg, first + seg * np.nan_to_num(r - from_centre)
+
+    def actions(self, c, steel_factor):
+        sec = self.sec
+        fc, fy = sec.fc, sec.fy * steel_factor
+        a = beta1(fc) * c
+        block_area, block_first = self.block(a)
+        concrete = ALPHA1 * fc * block_area
+        depth_c = block_first / np.where(block_area > 0.0, block_area, 1.0)
+        u = self.bar_u
+        stress = np.clip(ES_MPA * EPS_CU * (c[:, None] - u) / c[:, None], -fy[:, None], fy[:, None])
+        displaced = np.clip((a[:, None] - (u - self.half_db)) / (2.0 * self.half_db), 0.0, 1.0)
+        bar_force = sec.bar_area * (stress - ALPHA1 * fc[:, None] * displaced)
+        axial = concrete + bar_force.sum(axis=1)
+        moment = concrete * (self.centroid_u - depth_c) + (bar_force * (self.centroid_u[:, None] - u)).sum(axis=1)
+        eps_t = EPS_CU * (self.extreme_tension_u - c) / c
+        return axial, moment, eps_t
 
 
 def section_actions(sec: Sections, c, sign, steel_factor=1.0):
@@ -241,26 +286,7 @@ def section_actions(sec: Sections, c, sign, steel_factor=1.0):
 
     steel_factor scales fy (1.25 for Mpr). eps_t is at the extreme tension layer (21.2.2).
     """
-    sign = np.broadcast_to(np.asarray(sign), sec.h.shape)
-    fc, fy = sec.fc, sec.fy * steel_factor
-    a = beta1(fc) * c
-    block_area, block_first = _compression_block(sec, a, sign)
-    concrete = ALPHA1 * fc * block_area
-    depth_c = np.where(block_area > 0.0, block_first / np.where(block_area > 0.0, block_area, 1.0), 0.0)
-
-    u = np.where((sign < 0)[:, None], sec.h[:, None] - sec.bar_z, sec.bar_z)
-    strain = EPS_CU * (c[:, None] - u) / c[:, None]
-    stress = np.clip(ES_MPA * strain, -fy[:, None], fy[:, None])
-    half = np.maximum(sec.bar_db / 2.0, 1e-6 * sec.h[:, None])
-    displaced = np.clip((a[:, None] - (u - half)) / (2.0 * half), 0.0, 1.0)
-    bar_force = sec.bar_area * (stress - ALPHA1 * fc[:, None] * displaced)
-
-    u_g = np.where(sign < 0, sec.h - sec.centroid_z, sec.centroid_z)
-    axial = concrete + bar_force.sum(axis=1)
-    moment = concrete * (u_g - depth_c) + (bar_force * (u_g[:, None] - u)).sum(axis=1)
-    u_t = np.where(sec.bar_area > 0.0, u, -np.inf).max(axis=1)
-    eps_t = EPS_CU * (u_t - c) / c
-    return axial, moment, eps_t
+    return _Oriented.of(sec, sign).actions(_column(c, sec.h.shape[0]), steel_factor)
 
 
 @dataclass(frozen=True)
@@ -294,15 +320,15 @@ def pn_max(sec: Sections):
 def _solve(sec: Sections, target, sign, steel_factor, with_phi):
     n = sec.h.shape[0]
     target = _column(target, n)
-    sign = np.broadcast_to(np.asarray(sign), (n,))
+    oriented = _Oriented.of(sec, sign)
 
     def axial(c):
-        p, m, eps_t = section_actions(sec, c, sign, steel_factor)
+        p, m, eps_t = oriented.actions(c, steel_factor)
         phi = phi_axial_flexure(eps_t, sec.fy, sec.spiral) if with_phi else np.ones(n)
         return phi * p, m, eps_t, phi
 
-    lo, hi = np.full(n, 1e-9) * sec.h, _C_MAX_OVER_H * sec.h
-    p_lo, p_hi = axial(lo)[0], axial(hi)[0]
+    lo, hi = np.zeros(n), _C_MAX_OVER_H * sec.h
+    p_lo, p_hi = axial(1e-9 * sec.h)[0], axial(hi)[0]
     reachable = (target >= p_lo) & (target <= p_hi)
     for _ in range(_BISECTION_STEPS):
         mid = 0.5 * (lo + hi)
