@@ -7,6 +7,7 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings, strategies as st
 
 from postproc import sections as s
 from tests import section_reference as ref
@@ -251,3 +252,38 @@ def test_batch_results_do_not_depend_on_order():
 def test_odd_bar_count_of_a_rectangular_column_is_refused():
     with pytest.raises(ValueError, match="even number of bars"):
         s.rectangular_column_sections(400.0, 400.0, 7, 25.0, 60.0, 30.0, 420.0)
+
+
+def test_explicit_layers_against_concreteproperties():
+    # A wall-like section with explicit layers (area, depth, bar diameter), at two axial loads
+    b, h, fc, fy = 300.0, 900.0, 30.0, 420.0
+    layers = np.array([[1000.0, 400.0, 400.0, 1500.0]])
+    depths = np.array([[60.0, 330.0, 570.0, 840.0]])
+    sec = s.layered_sections(b, h, layers, depths, 20.0, fc, fy)
+    bars = []
+    for area, z in zip(layers[0], depths[0]):
+        n = int(round(area / 200.0)) if area > 500 else 2
+        bars += [(area / n, x, h - z, 20.0) for x in np.linspace(60.0, b - 60.0, n)]
+    section = ref.rectangle(b, h, fc, fy, bars)
+    for P in (0.0, 1.5e6):
+        for top, sign in ((True, 1), (False, -1)):
+            assert s.nominal_moment(sec, P, sign).moment[0] == pytest.approx(ref.ultimate_moment(section, P, top), rel=3e-3)
+
+
+@settings(max_examples=40, deadline=None)
+@given(b=st.floats(250, 600), h=st.floats(400, 1000), ratio_top=st.floats(0.002, 0.02), ratio_bot=st.floats(0.002, 0.02),
+       fc=st.floats(21, 80), fy=st.sampled_from([420.0, 520.0]), P_fraction=st.floats(-0.1, 0.6))
+def test_equilibrium_and_ordering_properties(b, h, ratio_top, ratio_bot, fc, fy, P_fraction):
+    # At the solved neutral axis the section's axial force equals P (22.2.1.1 equilibrium);
+    # Mpr (1.25 fy) is never below Mn at P = 0; more tension steel never lowers Mn at P = 0.
+    sec = s.layered_sections(b, h, [[ratio_top * b * h, ratio_bot * b * h]], [[0.1 * h, 0.9 * h]], 20.0, fc, fy)
+    P = P_fraction * float(s.squash_load(sec)[0])
+    result = s.nominal_moment(sec, P)
+    if np.isfinite(result.moment[0]):
+        axial, moment, _ = s.section_actions(sec, result.c, 1)
+        assert axial[0] == pytest.approx(P, abs=1e-6 * s.squash_load(sec)[0])
+        assert moment[0] == pytest.approx(result.moment[0])
+    mn, mpr = s.nominal_moment(sec, 0.0).moment[0], s.probable_moment(sec, 0.0).moment[0]
+    assert mpr >= mn * (1 - 1e-9)
+    more = s.layered_sections(b, h, [[ratio_top * b * h, 1.2 * ratio_bot * b * h]], [[0.1 * h, 0.9 * h]], 20.0, fc, fy)
+    assert s.nominal_moment(more, 0.0).moment[0] >= mn * (1 - 1e-9)
