@@ -125,6 +125,7 @@ def test_intermediate_frame_beam_hoops():
     assert aci.imf_beam_hoop_spacing(900.0, 22.0, 10.0) == pytest.approx(176.0)
     assert aci.imf_beam_hoop_spacing(900.0, 32.0, 9.5) == pytest.approx(225.0)
     assert aci.imf_beam_hoop_spacing(1400.0, 40.0, 16.0) == pytest.approx(300.0)
+    assert aci.imf_beam_hoop_spacing(900.0, 22.0, 10.0, fy=550.0) == pytest.approx(132.0)  # 6 db for Grade 550 (from memory)
     # 18.4.2.5: d/2 elsewhere
     assert aci.imf_beam_stirrup_spacing_elsewhere(590.0) == 295.0
 

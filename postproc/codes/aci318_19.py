@@ -195,6 +195,7 @@ OMEGA_O_MOMENT_FRAME = 3.0  # overstrength factor commonly tabulated by the gene
 
 
 def _grade_550(fy):
+    # the Grade 550 rows apply to fy above 420 MPa (the stricter rule for any grade between)
     return np.asarray(fy, dtype=float) > 420.0
 
 
@@ -301,10 +302,12 @@ def smf_beam_stirrup_spacing_elsewhere(d):
 
 # --- beams of intermediate and ordinary moment frames (18.4.2, 18.3) ----------------------
 
-def imf_beam_hoop_spacing(d, db_long_min, db_hoop):
+def imf_beam_hoop_spacing(d, db_long_min, db_hoop, fy=420.0):
     """Hoop spacing over 2h from each face (18.4.2.4): the least of d/4, 8 db of the smallest
-    longitudinal bar enclosed, 24 db of the hoop bar and 300 mm. First hoop within 50 mm."""
-    return np.minimum.reduce(np.broadcast_arrays(np.asarray(d, float) / 4.0, 8.0 * np.asarray(db_long_min, float),
+    longitudinal bar enclosed (6 db for Grade 550, from memory), 24 db of the hoop bar and
+    300 mm. First hoop within 50 mm."""
+    multiple = np.where(_grade_550(fy), 6.0, 8.0)
+    return np.minimum.reduce(np.broadcast_arrays(np.asarray(d, float) / 4.0, multiple * np.asarray(db_long_min, float),
                                                  24.0 * np.asarray(db_hoop, float), 300.0))
 
 
