@@ -54,7 +54,7 @@ FORCE_COLUMNS = (
     Col("member", False, True), Col("case", False, True), Col("x_m", True, True),
     Col("V_kN", True, True), Col("N_kN", True), Col("T_kNm", True), Col("M_kNm", True),
 )
-CASE_COLUMNS = (Col("case", False, True), Col("type", False, True))
+CASE_COLUMNS = (Col("case", False, True), Col("type", False, True), Col("pattern", False))
 
 KNOWN_COLUMNS = {
     "members": tuple(c.name for c in MEMBER_COLUMNS),
@@ -449,8 +449,9 @@ class ForcesReader:
     BLOCK = 64 << 20  # bytes of CSV per block
 
     def __init__(self, path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None,
-                 cases: pa.Table | None = None, cases_path: str | Path | None = None):
+                 cases: pa.Table | None = None, cases_path: str | Path | None = None, tolerance_mm: float = 1.0):
         self.spec = prepare(path, "forces", FORCE_COLUMNS, cmap)
+        self.tolerance_mm = tolerance_mm
         self.path = self.spec.path
         self.lengths_m = lengths_m
         self.cases, self.cases_path = cases, cases_path
@@ -507,7 +508,7 @@ class ForcesReader:
     def check_part(self, t: pa.Table) -> None:
         """Checks of a member-complete part sorted by member, case, x_m and _row."""
         probs = Problems(self.path, self.spec.table, t.column("_row").to_numpy())
-        _check_station_rows(t, probs, presorted=True)
+        _check_station_rows(t, probs, presorted=True, tolerance_mm=self.tolerance_mm)
         probs.raise_if_any()
 
     def read_all(self) -> pa.Table:
@@ -534,9 +535,10 @@ def _ranks(col: pa.ChunkedArray) -> np.ndarray:
     return rank[codes]
 
 
-def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None) -> pa.Table:
+def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None,
+                tolerance_mm: float = 1.0) -> pa.Table:
     """forces.csv -> validated table; optional N, T, M default to zero."""
-    return ForcesReader(path, cmap, lengths_m).read_all()
+    return ForcesReader(path, cmap, lengths_m, tolerance_mm=tolerance_mm).read_all()
 
 
 def _lookup(member: pa.ChunkedArray, lengths_m: dict[str, float]) -> np.ndarray:
@@ -553,22 +555,21 @@ def _codes(col: pa.ChunkedArray | pa.Array) -> tuple[np.ndarray, list]:
     return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
 
 
-def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False) -> None:
-    """At most two rows per (member, case, x) (a jump); no row repeated exactly.
-    ``presorted``: the rows are already grouped by member and case and sorted by x."""
+def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False, tolerance_mm: float = 0.0) -> None:
+    """At most two rows per (member, case, station): two are a jump (equal rows a jump of
+    zero, as chained elements give at a node). Rows closer than ``tolerance_mm`` are one
+    station. ``presorted``: rows already grouped by member and case and sorted by x."""
     m_idx, _ = _codes(t.column("member"))
     c_idx, _ = _codes(t.column("case"))
     x = t.column("x_m").to_numpy()
     order = np.arange(len(x)) if presorted else np.lexsort((x, c_idx, m_idx))
     ms, cs, xs = m_idx[order], c_idx[order], x[order]
-    same = (ms[1:] == ms[:-1]) & (cs[1:] == cs[:-1]) & (xs[1:] == xs[:-1])
+    dx = np.diff(xs)
+    same = (ms[1:] == ms[:-1]) & (cs[1:] == cs[:-1]) & ((dx == 0) | (dx * 1e3 < tolerance_mm))
     triple = np.zeros(len(order), bool)
     triple[2:] = same[1:] & same[:-1]
-    probs.add(np.sort(order[triple]), "x_m", "a third row at one station (a jump takes exactly two rows)")
-    vals = np.column_stack([_num(t, n) for n in ("V_kN", "N_kN", "T_kNm", "M_kNm")])[order]
-    ident = same & np.all((vals[1:] == vals[:-1]) | (np.isnan(vals[1:]) & np.isnan(vals[:-1])), axis=1)
-    rows = order[1:][ident]
-    probs.add(np.sort(rows), "member", "duplicate row: the same member, case, station and forces appear twice")
+    where = "one station" if tolerance_mm <= 0 else f"one station (rows within {tolerance_mm:g} mm are one)"
+    probs.add(np.sort(order[triple]), "x_m", f"a third row at {where}; a jump takes exactly two rows")
 
 
 def read_cases(path: str | Path, cmap: ColumnMap) -> pa.Table:
@@ -581,8 +582,12 @@ def read_cases(path: str | Path, cmap: ColumnMap) -> pa.Table:
     _, first = np.unique(case, return_index=True)
     dup = np.setdiff1d(np.arange(len(case)), first)
     probs.add(dup, "case", "case listed twice")
+    pattern = _str(t, "pattern")
+    probs.add((pattern != "") & ~np.isin(types, ("L", "Lr", "S", "R")), "pattern",
+              "a pattern label groups alternative arrangements of a variable load (L, Lr, S, R); dead loads always "
+              "act, and W and E cases are alternatives already")
     probs.raise_if_any()
-    return t
+    return t.set_column(t.schema.get_field_index("pattern"), "pattern", pa.array(pattern.tolist(), pa.string()))
 
 
 def check_cases_cover_forces(cases: pa.Table, used: set[str], cases_path: str | Path) -> None:

@@ -6,7 +6,6 @@ like; the absolute seconds depend on the machine and its load.
 
 from __future__ import annotations
 
-import resource
 import shutil
 import tempfile
 import time
@@ -64,6 +63,13 @@ class Figures:
 
 
 def _peak_rss_mb() -> float:
+    """Peak resident memory of this process and its finished children (POSIX), else the
+    current resident memory of this process (psutil, on every platform)."""
+    try:
+        import resource
+    except ImportError:
+        import psutil
+        return psutil.Process().memory_info().rss / 2**20
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
     children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
     return max(own, children) / 1024.0  # ru_maxrss is in KiB on Linux
@@ -125,18 +131,27 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
     refs = [reference.design_member(members.loc[m], forces[forces.member == m], cset.names, cset.factors, cset.cases,
                                     settings) for m in names]
     elapsed = time.perf_counter() - t
-    for m, (row, ref_zones) in zip(names, refs):
-        got = out.loc[m]
-        for key, value in row.items():
-            if key == "member":
-                continue
-            ok = np.isclose(float(got[key]), float(value), rtol=1e-9, atol=1e-9) if isinstance(value, float) \
-                else got[key] == value
-            if not ok:
-                raise AssertionError(f"reference and engine differ for {m}, {key}: {value!r} against {got[key]!r}")
-        mine = zones[zones.member == m].reset_index(drop=True)
-        theirs = pd.DataFrame(ref_zones, columns=list(mine.columns))
-        if len(mine) or len(theirs):
-            pd.testing.assert_frame_equal(mine.astype(theirs.dtypes.to_dict()) if len(theirs) else mine, theirs,
-                                          check_dtype=False, obj=f"zones of {m}")
+    for m, (row, ref_zones, winners) in zip(names, refs):
+        compare_with_reference(m, out.loc[m], row, ref_zones, winners, zones[zones.member == m])
     return elapsed, len(names)
+
+
+def compare_with_reference(m: str, got: pd.Series, row: dict, ref_zones: list[dict], winners: set[str],
+                           mine: pd.DataFrame) -> None:
+    """The engine's members.csv row and zones of one member against the reference's; the
+    governing combination may be any of those that tie for the utilization."""
+    for key, value in row.items():
+        if key == "member":
+            continue
+        ok = np.isclose(float(got[key]), float(value), rtol=1e-9, atol=1e-9) if isinstance(value, float) \
+            else got[key] == value
+        if not ok:
+            raise AssertionError(f"reference and engine differ for {m}, {key}: {value!r} against {got[key]!r}")
+    if winners and got["governing_case"] not in winners:
+        raise AssertionError(f"reference and engine differ for {m}: governing combination {got['governing_case']!r} "
+                             f"is not one of {sorted(winners)}")
+    mine = mine.reset_index(drop=True)
+    theirs = pd.DataFrame(ref_zones, columns=list(mine.columns))
+    if len(mine) or len(theirs):
+        pd.testing.assert_frame_equal(mine.astype(theirs.dtypes.to_dict()) if len(theirs) else mine, theirs,
+                                      check_dtype=False, obj=f"zones of {m}")

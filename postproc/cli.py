@@ -216,7 +216,8 @@ def main(argv: list[str] | None = None) -> int:
         else:
             members, warnings = csv_tables.read_members(args.members, cmap)
             lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
-        source = csv_tables.ForcesReader(args.forces, cmap, lengths, cases, args.cases)
+        source = csv_tables.ForcesReader(args.forces, cmap, lengths, cases, args.cases,
+                                          settings.stations.tolerance_mm)
         inputs = {"members": args.members, "forces": args.forces}
         for role, path in (("cases", args.cases), ("column_map", args.map), ("settings", args.config)):
             if path:

@@ -1,9 +1,9 @@
-"""Required transverse reinforcement at every station for every combination (ACI 318-19).
+"""Required transverse reinforcement of beams at every station (ACI 318-19 Ch. 9, 22).
 
-Arrays are (combinations, stations); every combination uses its own concurrent axial
-force and torsion. The governing combination at a station is the one that needs
-the most stirrup steel. ``check_layout`` re-derives phi*Vn from a provided layout
-for every combination: the detailing self-check.
+The candidate combinations of each station (``combos.candidates``) are evaluated with
+their own concurrent axial force and torsion; per station the envelope is what the
+layout needs. ``check_layout`` re-derives phi*Vn of a provided layout for every
+candidate of every station: the detailing self-check. Any NaN fails a check.
 """
 
 from __future__ import annotations
@@ -13,17 +13,19 @@ from dataclasses import dataclass
 import numpy as np
 
 from postproc.codes import aci318_19 as aci
+from postproc.combos import Candidates
 
 
 @dataclass(frozen=True)
 class Section:
-    """Per-member section and material arrays (N, mm, MPa)."""
+    """Per-member (or per-station, after ``take``) section and material arrays (N, mm, MPa)."""
 
     b: np.ndarray
     h: np.ndarray
     d: np.ndarray
     fc: np.ndarray
     fyt: np.ndarray  # already capped at 420 MPa (20.2.2.4)
+    fy: np.ndarray
     lam: np.ndarray
     Ag: np.ndarray
     rho_w: np.ndarray  # NaN where the tension steel is not given
@@ -31,154 +33,190 @@ class Section:
     avmin_exempt: np.ndarray  # Table 9.6.3.1 rows
     Acp: np.ndarray
     pcp: np.ndarray
-    Aoh: np.ndarray
-    ph: np.ndarray
 
     def take(self, idx: np.ndarray) -> Section:
         return Section(**{k: getattr(self, k)[idx] for k in self.__dataclass_fields__})
 
 
-def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf, cover_to_stirrup, stirrup_db) -> Section:
+def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf) -> Section:
     """Derived section quantities: Ag with any flange, rho_w, torsion geometry of the web rectangle.
 
     Acp and pcp are taken for the web rectangle bw x h alone: ignoring the overhangs
     (which 9.2.4.4 would admit) lowers Tth, so torsion is considered more often (safe).
     """
     overhang = np.where(np.isfinite(bf), (np.nan_to_num(bf) - b) * np.nan_to_num(hf), 0.0)
-    Ag = b * h + overhang
-    rho_w = np.where(np.isfinite(As), As / (b * d), np.nan)
-    x1 = b - 2 * cover_to_stirrup - stirrup_db
-    y1 = h - 2 * cover_to_stirrup - stirrup_db
     return Section(
-        b=b, h=h, d=d, fc=fc, fyt=np.minimum(fyt, aci.FYT_MAX_MPA), lam=lam, Ag=Ag, rho_w=rho_w,
-        rho_w_min=aci.rho_w_lower_bound(fc, fy), avmin_exempt=aci.av_min_exempt(h, b, hf),
-        Acp=b * h, pcp=2 * (b + h), Aoh=np.maximum(x1, 1.0) * np.maximum(y1, 1.0),
-        ph=2 * (np.maximum(x1, 1.0) + np.maximum(y1, 1.0)),
-    )
+        b=b, h=h, d=d, fc=fc, fyt=np.minimum(fyt, aci.FYT_MAX_MPA), fy=fy, lam=lam, Ag=b * h + overhang,
+        rho_w=np.where(np.isfinite(As), As / (b * d), np.nan), rho_w_min=aci.rho_w_lower_bound(fc, fy),
+        avmin_exempt=aci.av_min_exempt(h, b, hf), Acp=b * h, pcp=2 * (b + h))
+
+
+def torsion_geometry(b, h, cover_to_stirrup, stirrup_db):
+    """Aoh and ph: area and perimeter enclosed by the centreline of the outermost closed
+    stirrup of the bar actually used (R22.7.6.1)."""
+    x1 = np.maximum(b - 2 * cover_to_stirrup - stirrup_db, 1.0)
+    y1 = np.maximum(h - 2 * cover_to_stirrup - stirrup_db, 1.0)
+    return x1 * y1, 2 * (x1 + y1)
+
+
+@dataclass(frozen=True)
+class PairDemand:
+    """Per candidate combination of a station (flat, as ``Candidates``)."""
+
+    vu: np.ndarray  # |Vu|, N
+    nu: np.ndarray  # Nu, compression positive, N
+    tu: np.ndarray  # |Tu|, N*mm
+    vc_hi: np.ndarray  # Vc with Av >= Av,min (Table 22.5.5.1 (a)/(b))
+    vc_lo: np.ndarray  # Vc with Av < Av,min (Table 22.5.5.1 (c))
+    av: np.ndarray  # Av/s for strength, Vs/(fyt d) (22.5.8.5.3): no minimum, mm^2/mm
+    ata: np.ndarray  # At/s x Aoh (22.7.6.1 with theta = 45 deg, Ao = 0.85 Aoh): divide by Aoh of the bar
+    torsion: np.ndarray  # torsion considered, Tu >= phi Tth (22.7.4.1)
+    minimum: np.ndarray  # Av,min (9.6.3.1) or the combined minimum (9.6.4.2) applies
+    shear_ratio: np.ndarray  # Vu / phi (Vc + 0.66 sqrt(f'c) bw d) (22.5.1.2)
 
 
 @dataclass(frozen=True)
 class Demand:
-    """Per-station envelope over combinations."""
+    """Per-station envelope over the candidate combinations."""
 
-    governing: np.ndarray  # combination index that needs the most steel
-    vu: np.ndarray  # |Vu| of the governing combination, N
+    pairs: PairDemand
     vu_max: np.ndarray  # largest |Vu| of any combination, N
-    av_s: np.ndarray  # Av/s for shear of the governing combination, mm^2/mm
-    at_s: np.ndarray  # At/s (one leg) of the governing combination
-    av_s_env: np.ndarray  # largest Av/s over combinations
-    at_s_env: np.ndarray  # largest At/s over combinations (per leg: (Av/s)/legs + At/s is conservative)
-    avmin_required: np.ndarray  # any combination needs Av,min (9.6.3.1 or torsion 9.6.4.1)
-    av_min_s: np.ndarray
-    s_max: np.ndarray  # along the member, smallest over combinations (9.7.6.2.2, 9.7.6.3.3)
+    av_env: np.ndarray  # largest strength Av/s
+    ata_env: np.ndarray  # largest At/s x Aoh where torsion is considered
+    minimum: np.ndarray  # the minimum of 9.6.3.1 / 9.6.4.2 applies in some combination
+    torsion: np.ndarray  # torsion considered in some combination
+    av_min_s: np.ndarray  # Av,min/s = (Av + 2At)min/s (Table 9.6.3.4, 9.6.4.2)
+    heavy: np.ndarray  # Vs > 0.33 sqrt(f'c) bw d in some combination (Table 9.7.6.2.2)
+    s_max: np.ndarray  # along the member, Table 9.7.6.2.2 (torsion's ph/8 depends on the bar)
     s_max_across: np.ndarray
-    phi_vc: np.ndarray  # phi Vc (Av >= Av,min) of the governing combination
-    phi_vc_plain: np.ndarray  # phi Vc (Av < Av,min), same combination
-    phi_vn_limit: np.ndarray  # phi (Vc + 0.66 sqrt(f'c) bw d), same combination
-    section_ratio: np.ndarray  # largest Vu / section limit, or torsion interaction ratio
-    torsion: np.ndarray  # torsion must be considered in some combination
-    vc: tuple[np.ndarray, np.ndarray]  # Vc (combinations, stations) with and without Av,min, for the self-check
+    shear_ratio: np.ndarray  # largest Vu / phi (Vc + 0.66 sqrt(f'c) bw d)
+
+    @property
+    def stirrups_needed(self) -> np.ndarray:
+        return self.minimum | (self.av_env > 0) | (self.ata_env > 0)
 
 
-def required(sec: Section, Vu: np.ndarray, Nu: np.ndarray, Tu: np.ndarray) -> Demand:
-    """Steel needed at each station (columns of the arrays), each combination (rows).
+def _segment_max(values: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+    return np.maximum.reduceat(values, bounds[:-1])
 
-    Vu, Tu are magnitudes (N, N*mm); Nu is compression positive (N).
-    """
-    fc, b, d, lam, fyt = sec.fc, sec.b, sec.d, sec.lam, sec.fyt
+
+def _segment_any(values: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+    return np.logical_or.reduceat(values, bounds[:-1])
+
+
+def pair_demand(sec: Section, cand: Candidates) -> PairDemand:
+    """Every candidate combination's own requirement. ``sec`` is per station."""
+    s = sec.take(cand.station)
+    vu = np.abs(cand.values["V"])
+    nu = -cand.values["N"]  # ACI sign: compression positive
+    tu = np.abs(cand.values["T"])
     phi = aci.PHI_SHEAR
-    vc_hi = aci.vc_with_min_stirrups(fc, b, d, Nu, sec.Ag, lam, sec.rho_w)  # Table 22.5.5.1 (a)/(b)
-    rho_c = np.where(np.isfinite(sec.rho_w), sec.rho_w, sec.rho_w_min)
-    vc_lo = aci.vc_without_min_stirrups(fc, b, d, Nu, sec.Ag, rho_c, lam)  # Table 22.5.5.1 (c)
-    av_min_s = aci.av_min_over_s(fc, b, fyt)
-    has_torsion = bool(np.any(Tu > 0))
-    if has_torsion:
-        tth = aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam)
-        torsion = (Tu > 0) & (Tu >= phi * tth)  # 22.7.1.1: below phi*Tth torsion may be neglected
-    else:
-        torsion = np.zeros(Vu.shape, bool)
-    avmin_req = Vu > np.where(sec.avmin_exempt, np.inf, aci.av_min_threshold(fc, b, d, lam))
-    if sec.avmin_exempt.any():  # Table 9.6.3.1 beams: Av,min only where Vu > phi Vc
-        avmin_req |= sec.avmin_exempt & (Vu > phi * vc_lo)
-    if has_torsion:
-        avmin_req |= torsion
+    vc_hi = aci.vc_with_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, s.lam, s.rho_w)
+    rho_c = np.where(np.isfinite(s.rho_w), s.rho_w, s.rho_w_min)
+    vc_lo = aci.vc_without_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, rho_c, s.lam)
+    minimum = vu > np.where(s.avmin_exempt, np.inf, aci.av_min_threshold(s.fc, s.b, s.d, s.lam))
+    minimum |= s.avmin_exempt & (vu > phi * vc_lo)  # Table 9.6.3.1 beams: only where Vu > phi Vc
+    torsion = np.zeros(len(vu), bool)
+    ata = np.zeros(len(vu))
+    if np.any(tu > 0):
+        torsion = (tu > 0) & (tu >= phi * aci.torsion_threshold(s.fc, s.Acp, s.pcp, nu, s.Ag, s.lam))
+        ata = np.where(torsion, aci.at_over_s(tu, 1.0, s.fyt), 0.0)
+        minimum |= torsion  # 9.6.4.1
+    # strength: Av/s = (Vu/phi - Vc)/(fyt d); where the minimum is not required, the smaller
+    # of the steel with Vc by (c) and with Vc by (a)/(b) topped up to Av,min suffices
+    q_hi = aci.av_over_s_for_vs(vu / phi - vc_hi, s.fyt, s.d)
+    q_lo = aci.av_over_s_for_vs(vu / phi - vc_lo, s.fyt, s.d)
+    av_min = aci.av_min_over_s(s.fc, s.b, s.fyt)
+    av = np.where(minimum, q_hi, np.minimum(q_lo, np.maximum(q_hi, av_min)))
+    return PairDemand(vu=vu, nu=nu, tu=tu, vc_hi=vc_hi, vc_lo=vc_lo, av=av, ata=ata, torsion=torsion,
+                      minimum=minimum, shear_ratio=vu / aci.section_limit(vc_hi, s.fc, s.b, s.d))
 
-    vn_req = Vu / phi
-    vs_hi = vn_req - vc_hi
-    q_hi = np.maximum(aci.av_over_s_for_vs(vs_hi, fyt, d), av_min_s)
-    q_lo = aci.av_over_s_for_vs(vn_req - vc_lo, fyt, d)
-    av_s = np.where(avmin_req, q_hi, np.minimum(q_lo, q_hi))
-    at_s = np.where(torsion, aci.at_over_s(Tu, sec.Aoh, fyt), 0.0) if has_torsion else np.zeros(Vu.shape)
 
-    # Table 9.7.6.2.2 depends on the combination only through "Vs > 0.33 sqrt(f'c) bw d"
-    heavy = (vs_hi > 0.33 * aci.sqrt_fc(fc) * b * d).any(axis=0)
-    along, across = aci.max_spacing(np.where(heavy, np.inf, 0.0), fc, b, d)
-    torsion_any = torsion.any(axis=0)
-    along = np.where(torsion_any, np.minimum(along, aci.torsion_max_spacing(sec.ph)), along)
-    limit = aci.section_limit(vc_hi, fc, b, d)
-    ratio = Vu / limit
-    if has_torsion:  # 22.7.7.1, evaluated only at the stations where some combination needs it
-        tc = np.flatnonzero(torsion_any)
-        st = sec.take(tc)
-        sub = aci.torsion_section_ok(Vu[:, tc], Tu[:, tc], vc_hi[:, tc], st.fc, st.b, st.d, st.Aoh, st.ph)
-        ratio[:, tc] = np.where(torsion[:, tc], sub, ratio[:, tc])
-
-    demand = av_s + 2.0 * at_s
-    cols = np.arange(demand.shape[1])
-    gov = np.argmax(demand, axis=0)
-    no_steel = demand[gov, cols] <= 0
-    gov = np.where(no_steel, np.argmax(Vu, axis=0), gov)  # nothing needed: the largest Vu governs
-    pick = lambda a: np.broadcast_to(a, demand.shape)[gov, cols]
+def required(sec: Section, cand: Candidates) -> Demand:
+    """Steel needed at each station over all candidate combinations. ``sec`` is per station."""
+    p = pair_demand(sec, cand)
+    bounds = cand.bounds
+    s = sec.take(cand.station)
+    heavy_pair = p.vu / aci.PHI_SHEAR - p.vc_hi > 0.33 * aci.sqrt_fc(s.fc) * s.b * s.d  # Table 9.7.6.2.2
+    heavy = _segment_any(heavy_pair, bounds)
+    along, across = aci.max_spacing(np.where(heavy, np.inf, 0.0), sec.fc, sec.b, sec.d)
     return Demand(
-        governing=gov, vu=Vu[gov, cols], vu_max=Vu.max(axis=0), av_s=av_s[gov, cols], at_s=at_s[gov, cols],
-        av_s_env=av_s.max(axis=0), at_s_env=at_s.max(axis=0),
-        avmin_required=avmin_req.any(axis=0), av_min_s=np.broadcast_to(av_min_s, cols.shape).copy(),
-        s_max=along, s_max_across=across,
-        phi_vc=phi * pick(vc_hi), phi_vc_plain=phi * pick(vc_lo), phi_vn_limit=pick(limit),
-        section_ratio=ratio.max(axis=0), torsion=torsion_any, vc=(vc_hi, vc_lo),
-    )
+        pairs=p, vu_max=_segment_max(p.vu, bounds), av_env=_segment_max(p.av, bounds),
+        ata_env=_segment_max(p.ata, bounds), minimum=_segment_any(p.minimum, bounds),
+        torsion=_segment_any(p.torsion, bounds), av_min_s=aci.av_min_over_s(sec.fc, sec.b, sec.fyt),
+        heavy=heavy, s_max=along, s_max_across=across, shear_ratio=_segment_max(p.shear_ratio, bounds))
+
+
+def torsion_limit_ratio(sec: Section, cand: Candidates, dem: Demand, Aoh, ph) -> np.ndarray:
+    """Per station, the largest ratio of 22.7.7.1(a) over the candidates where torsion is
+    considered (0 elsewhere); ``Aoh``, ``ph`` per station for the bar in question."""
+    p = dem.pairs
+    if not p.torsion.any():
+        return np.zeros(len(dem.vu_max))
+    s = sec.take(cand.station)
+    r = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[cand.station], ph[cand.station])
+    return _segment_max(np.where(p.torsion, r, 0.0), cand.bounds)
+
+
+def per_leg_need(cand: Candidates, dem: Demand, legs, Aoh) -> np.ndarray:
+    """Per station, the largest area per unit length one outer leg must give: its share of
+    the shear steel plus At/s (22.5.8.5.3, 22.7.6.1), over the candidates. ``legs`` and
+    ``Aoh`` per station for the bar and legs in question."""
+    need = dem.av_env / legs
+    if dem.torsion.any():
+        p = dem.pairs
+        pair_need = p.av / legs[cand.station] + p.ata / Aoh[cand.station]
+        need = np.where(dem.torsion, _segment_max(pair_need, cand.bounds), need)
+    return need
 
 
 @dataclass(frozen=True)
 class Capacity:
-    phi_vn: np.ndarray  # (combinations, stations): phi (Vc + Vs) of the provided layout, N
-    utilization: np.ndarray  # per station, largest demand/capacity over combinations
-    ok: np.ndarray  # per station, every check passes
+    phi_vn: np.ndarray  # per candidate: phi (Vc + Vs) of the provided layout, N
+    pair_utilization: np.ndarray  # per candidate: the largest demand/capacity ratio
+    utilization: np.ndarray  # per station: the largest over its candidates
+    ok: np.ndarray  # per station: every check passes
 
 
-def check_layout(sec: Section, Vu, Nu, Tu, bar_area, legs, spacing, demand: Demand, leg_spacing=None,
-                 tol: float = 1e-9) -> Capacity:
-    """Self-check of a provided layout at every station for every combination.
+def check_layout(sec: Section, cand: Candidates, dem: Demand, bar_area, legs, spacing, Aoh, ph,
+                 leg_spacing, here, tol: float = 1e-9) -> Capacity:
+    """Self-check of a provided layout at every station for every candidate combination.
 
-    phi*Vn = phi (Vc + Av fyt d / s) with Vc by Table 22.5.5.1 (a)/(b) where the provided
-    Av >= Av,min, else (c); with torsion, each outer leg must carry its share of shear
-    plus At/s (22.7.6.1); s <= s_max (9.7.6.2.2, 9.7.6.3.3); Av >= Av,min where required
-    (9.6.3.1, 9.6.4.2); legs across the width at most s_max across apart where shear
-    reinforcement is required (Table 9.7.6.2.2); the section limits (22.5.1.2, 22.7.7.1).
-    ``spacing`` is inf where no stirrups are provided; ``leg_spacing`` is the distance
-    between legs across the width.
+    ``spacing`` per station is the actual gap between the stirrups around it (inf where
+    there are none). phi*Vn = phi (Vc + Av fyt d / s) with Vc by Table 22.5.5.1 (a)/(b)
+    where the provided Av >= Av,min, else (c); Vs not above 0.66 sqrt(f'c) bw d (22.5.1.2);
+    with torsion, each outer leg carries its share of the shear plus At/s (22.7.6.1);
+    s <= s_max (9.7.6.2.2, and ph/8, 300 mm with torsion, 9.7.6.3.3); Av >= Av,min, or
+    Av + 2At >= the combined minimum, where required (9.6.3.1, 9.6.4.2); legs across at
+    most s_max across apart where stirrups are needed; the section limits (22.5.1.2,
+    22.7.7.1). ``here``: stations where stirrups are placed (s_max holds there). NaN
+    anywhere fails.
     """
-    fc, b, d, lam, fyt = sec.fc, sec.b, sec.d, sec.lam, sec.fyt
+    p = dem.pairs
+    st = cand.station
+    s = sec.take(st)
     phi = aci.PHI_SHEAR
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore"):
         av_s = np.where(np.isfinite(spacing), legs * bar_area / spacing, 0.0)
-    has_min = av_s >= aci.av_min_over_s(fc, b, fyt) * (1 - tol)
-    vc = np.where(has_min, *demand.vc)  # Table 22.5.5.1: (a)/(b) with Av >= Av,min provided, else (c)
-    vs = np.minimum(aci.vs_from_av_over_s(av_s, fyt, d), aci.vs_max(fc, b, d))
+    has_min = av_s >= dem.av_min_s * (1 - tol)
+    vc = np.where(has_min[st], p.vc_hi, p.vc_lo)
+    vs = np.minimum(aci.vs_from_av_over_s(av_s[st], s.fyt, s.d), aci.vs_max(s.fc, s.b, s.d))
     phi_vn = phi * (vc + vs)
     with np.errstate(divide="ignore", invalid="ignore"):
-        util = np.where(Vu > 0, Vu / phi_vn, 0.0)
-        if np.any(Tu > 0):
-            torsion = (Tu > 0) & (Tu >= phi * aci.torsion_threshold(fc, sec.Acp, sec.pcp, Nu, sec.Ag, lam))
-            leg_s = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)  # one leg's area per length
-            need = aci.av_over_s_for_vs(Vu / phi - vc, fyt, d) / np.maximum(legs, 1) + aci.at_over_s(Tu, sec.Aoh, fyt)
-            util = np.maximum(util, np.where(torsion, np.where(leg_s > 0, need / leg_s, np.inf), 0.0))
-    util = util.max(axis=0)
-    ok = util <= 1.0 + tol
-    ok &= np.where(np.isfinite(spacing), spacing <= demand.s_max * (1 + tol), ~demand.avmin_required)
-    ok &= ~demand.avmin_required | has_min
-    ok &= demand.section_ratio <= 1.0 + tol
-    if leg_spacing is not None:
-        needed = np.isfinite(spacing) & (demand.avmin_required | (demand.av_s_env > 0) | (demand.at_s_env > 0))
-        ok &= ~needed | (leg_spacing <= demand.s_max_across * (1 + tol))
-    return Capacity(phi_vn=phi_vn, utilization=util, ok=ok)
+        util = np.where(p.vu > 0, p.vu / phi_vn, 0.0)
+        if p.torsion.any():
+            leg = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)[st]
+            need = aci.av_over_s_for_vs(p.vu / phi - vc, s.fyt, s.d) / np.maximum(legs[st], 1) + p.ata / Aoh[st]
+            util = np.maximum(util, np.where(p.torsion, np.where(leg > 0, need / leg, np.inf), 0.0))
+            tl = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[st], ph[st])
+            util = np.maximum(util, np.where(p.torsion, tl, 0.0))
+    util = np.where(np.isnan(util), np.inf, util)  # NaN fails
+    station_util = _segment_max(util, cand.bounds)
+    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph)), dem.s_max)
+    ok = station_util <= 1.0 + tol
+    ok &= np.where(here, spacing <= s_max * (1 + tol), True)
+    ok &= ~dem.minimum | has_min
+    ok &= dem.shear_ratio <= 1.0 + tol
+    needed = np.isfinite(spacing) & dem.stirrups_needed
+    ok &= ~needed | (leg_spacing <= dem.s_max_across * (1 + tol))
+    return Capacity(phi_vn=phi_vn, pair_utilization=util, utilization=station_util, ok=ok)

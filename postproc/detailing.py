@@ -1,11 +1,16 @@
-"""Stirrup zones a detailer can build, from the per-station demand.
+"""Stirrup layouts a detailer can build, from the per-station demand.
 
 For each member one (bar, legs) is chosen from the settings' ladder: the first whose
 spacing at the highest demand, rounded down to the spacing module, is not below the
 practical minimum, and whose legs satisfy the spacing across the width (Table
-9.7.6.2.2). Zones then run from each supported end toward the point of least demand
-(a cantilever from its fixed end), at most ``max_zones_per_end`` from each end
-counting the middle zone, with spacings chosen to use the fewest stirrups.
+9.7.6.2.2). Stirrup positions are then set out: runs from each supported end toward
+the point of least demand (a cantilever from its fixed end), at most
+``max_zones_per_end`` spacings from each end counting the middle run, which is
+centred between the end runs. Every gap between neighbouring stirrups lies between
+the practical minimum spacing and the spacing the demand allows everywhere in it; the
+gap from a face or a free end to the nearest stirrup is held to the same limit. The
+zones of zones.csv are derived from the positions (``zones_from_positions``), so the
+two can never disagree.
 """
 
 from __future__ import annotations
@@ -18,34 +23,31 @@ import numpy as np
 from postproc.settings import BAR_CATALOGUE, Detailing
 
 STEEL_DENSITY = 7850e-9  # kg/mm^3 (common practice)
+SAME_GAP_MM = 0.5  # gaps closer than this belong to one zone (positions are kept to 0.1 mm)
 
 
-@dataclass
+@dataclass(frozen=True)
 class Zone:
-    start: float  # mm from the face at end i
-    end: float
-    spacing: float  # inf: no stirrups in this zone
-    positions: np.ndarray = field(default_factory=lambda: np.empty(0))  # the zone's stirrups, mm from face i
+    """Stirrups at ``start``, ``start + spacing``, ... ``end`` (mm from face i); an empty
+    zone (count 0) runs between the stirrups that bound it; a single stirrup has no spacing."""
 
-    @property
-    def count(self) -> int:
-        return len(self.positions)
+    start: float
+    end: float
+    spacing: float  # nan: one stirrup or none
+    count: int
 
 
 @dataclass
 class Layout:
     bar: str
     legs: int
-    zones: list[Zone]
+    positions: np.ndarray  # every stirrup, mm from face i, ascending
+    empty: list[tuple[float, float]] = field(default_factory=list)  # spans left without stirrups on purpose
     message: str = ""
 
     @property
     def count(self) -> int:
-        return sum(z.count for z in self.zones)
-
-    @property
-    def positions(self) -> np.ndarray:
-        return np.sort(np.concatenate([z.positions for z in self.zones])) if self.zones else np.empty(0)
+        return len(self.positions)
 
 
 def hook_extension(db: float, degrees: int) -> float:
@@ -119,6 +121,8 @@ def set_mass(shapes: list[Shape]) -> float:
     return sum(s.cut_length_mm * s.per_set * BAR_CATALOGUE[s.bar][1] for s in shapes) * STEEL_DENSITY
 
 
+
+
 def legs_for_width(b: float, cover: float, db: float, s_across: float) -> int:
     """Least number of legs so that legs are at most s_across apart across the width (Table 9.7.6.2.2)."""
     w = b - 2 * cover - db
@@ -127,39 +131,13 @@ def legs_for_width(b: float, cover: float, db: float, s_across: float) -> int:
 
 def leg_spacing(b: float, cover: float, db: float, legs: int) -> float:
     """Centre distance between adjacent legs across the width, legs evenly spread."""
-    return (b - 2 * cover - db) / max(legs - 1, 1)
-
-
-def gaps_within_spacing(layout: "Layout", clear_span: float, free_i: bool, free_j: bool) -> bool:
-    """Every gap between neighbouring stirrups, and from a supported face to the stirrup
-    next to it, is within the spacing the zones state there (what the self-check uses)."""
-    x = layout.positions
-    if not len(x):
-        return True
-    edges = [x[0]] if not free_i else []
-    mids = [x[0] / 2] if not free_i else []
-    if not free_j:
-        edges.append(clear_span - x[-1])
-        mids.append((clear_span + x[-1]) / 2)
-    gaps = np.concatenate([np.diff(x), edges])
-    where = np.concatenate([(x[1:] + x[:-1]) / 2, mids])
-    return bool(np.all(gaps <= provided_spacing(layout, where) + 1e-6))
+    return (b - 2 * cover - db) / np.maximum(legs - 1, 1)
 
 
 def floor_to_module(s: np.ndarray, module: float) -> np.ndarray:
     """Round a spacing down to the practical module (common practice: 25 mm)."""
     with np.errstate(invalid="ignore"):
         return np.where(np.isfinite(s), np.floor(s / module + 1e-9) * module, s)
-
-
-def allowed_spacing(need_av_s: np.ndarray, need_at_s: np.ndarray, s_max: np.ndarray, stirrups_here: np.ndarray,
-                    bar_area: float, legs: int, module: float) -> np.ndarray:
-    """Largest spacing, on the module, that the demand at each station admits (inf: none needed)."""
-    per_leg = need_av_s / legs + need_at_s
-    with np.errstate(divide="ignore"):
-        s = np.where(per_leg > 0, bar_area / per_leg, np.inf)
-    s = np.where(stirrups_here | (per_leg > 0), np.minimum(s, s_max), np.inf)
-    return floor_to_module(s, module)
 
 
 def choose_levels(u: np.ndarray, s_env: np.ndarray, max_levels: int) -> np.ndarray:
@@ -181,138 +159,260 @@ def choose_levels(u: np.ndarray, s_env: np.ndarray, max_levels: int) -> np.ndarr
     return values[best][pos]
 
 
-def _end_zones(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
-               to_end: float | None) -> tuple[list[Zone], float, float]:
-    """Zones from one face (u measured from it, ascending).
+@dataclass
+class _Run:
+    spacing: float
+    positions: list[float]
 
-    Each zone's stirrups follow the last stirrup of the zone before it at the zone's
-    spacing (the first one at the first-stirrup distance from the face), and the zone
-    ends on its last stirrup, past every station that needs its spacing. Returns the
-    zones before the middle, the position of their last stirrup (0: none) and the
-    spacing of the middle zone. With ``to_end`` (a cantilever) the last zone is included
-    and its stirrups reach that distance from the face.
-    """
+
+def _end_runs(u: np.ndarray, s_env: np.ndarray, first, max_zones: int) -> tuple[list[_Run], float]:
+    """Runs of stirrups from one face (u measured from it, ascending), tightest first.
+
+    The first stirrup is ``first`` from the face; each run's stirrups follow the last
+    stirrup before them at the run's spacing, and a run ends on the first stirrup at or
+    past every station that needs its spacing; the first run has two stirrups at least, as
+    the stations between the face and its first stirrup take the gap after it. ``first(s)``
+    is the first stirrup's distance from the face for a first run at spacing s. Returns the runs before the middle and
+    the spacing of the middle (the last level; inf where no stirrups are needed)."""
     suffix_min = np.minimum.accumulate(s_env[::-1])[::-1]  # nondecreasing toward the middle
     levels = choose_levels(u, suffix_min, max_zones)
     starts = np.concatenate([[0], np.flatnonzero(levels[1:] != levels[:-1]) + 1])
-    zones: list[Zone] = []
-    last = 0.0
-    for k, i0 in enumerate(starts):
+    runs: list[_Run] = []
+    last = None
+    for k, i0 in enumerate(starts[:-1]):
         s = float(levels[i0])
-        is_last = k == len(starts) - 1
-        if is_last and to_end is None:
-            return zones, last, s
-        # every station before the next level's first station needs a spacing <= s
-        boundary = float(to_end) if is_last else float(u[starts[k + 1]])
-        if not np.isfinite(s):
-            zones.append(Zone(last, boundary, np.inf))
-            last = boundary
-            continue
-        if zones and last >= boundary:
-            continue  # already covered by the tighter zone before
-        begin = first(s) if not zones else last + s
-        if is_last:  # cantilever: the last stirrup stays within the free end's cover allowance
-            if begin > boundary + 1e-9:
-                if zones:
-                    continue  # the zone before reaches the free end already
-                begin = boundary  # a very short cantilever: one stirrup
-            n = int(np.floor((boundary - begin) / s + 1e-9)) + 1
-        else:
-            n = max(1, int(np.ceil((boundary - begin) / s - 1e-9)) + 1)
-            if to_end is not None:  # a cantilever's zones never run past its free end
-                n = min(n, int(np.floor((to_end - begin) / s + 1e-9)) + 1)
-                if n < 1:
-                    continue
-        pos = begin + s * np.arange(n)
-        # a zone ends on its last stirrup; one held back from a cantilever's free end still
-        # serves up to its boundary (the gap there is less than its spacing)
-        end = max(float(pos[-1]), boundary) if to_end is not None and not is_last else float(pos[-1])
-        zones.append(Zone(last, end, s, pos))
-        last = end
-    return zones, last, float(levels[-1])
+        boundary = float(u[starts[k + 1]])  # stations before it need a spacing <= s
+        x = first(s) if last is None else last + s
+        pos = [x]
+        # the stations between the face and the first stirrup take the gap after it: the
+        # first run has at least two stirrups
+        while pos[-1] < boundary - 1e-9 or (last is None and len(pos) < 2):
+            pos.append(pos[-1] + s)
+        runs.append(_Run(s, pos))
+        last = pos[-1]
+    return runs, float(levels[starts[-1]])
 
 
-def _middle(lo: float, hi: float, s: float, fixed_lo: float | None, fixed_hi: float | None) -> np.ndarray:
-    """Stirrups of the middle zone between the end zones' last stirrups lo and hi.
+def _continued(a: float, b: float, s: float, smin: float, fixed_a: bool, face_b: float | None) -> list[float] | None:
+    """The run carries on from a at spacing s and closes at b with one gap in [smin, s].
+    With ``face_b`` (b is where a stirrup first-stirrup distance from that face or free
+    end would go), the run may instead end anywhere leaving at most s to the face."""
+    pos = [a] if fixed_a else []
+    if face_b is None:
+        k = int(np.floor((b - smin - a) / s + 1e-9))
+        if k < 0 or b - (a + k * s) > s + 1e-9:
+            return None
+        return pos + [a + j * s for j in range(1, k + 1)]
+    k = int(np.floor((b - a) / s + 1e-9))
+    if k < 0:
+        return None
+    run = pos + [a + j * s for j in range(1, k + 1)]
+    last = a + k * s
+    if face_b - last <= s + 1e-9:
+        return run
+    if smin - 1e-9 <= b - last <= s + 1e-9:  # one more, first-stirrup distance from the face
+        return run + [b]
+    return None
 
-    Between two end zones they sit at the spacing, centred, so that the two end gaps are
-    equal and between s/2 and s (no odd short gap). Where a side has no end zone its
-    first stirrup is at the first-stirrup distance (fixed_lo / fixed_hi) and the run
-    starts there; the far gap is then at most s.
-    """
-    if fixed_lo is None and fixed_hi is None:
-        n = max(int(np.ceil((hi - lo) / s - 1e-9)) - 1, 0)
-        g = (hi - lo - (n - 1) * s) / 2
-        return lo + g + s * np.arange(n)
-    if fixed_lo is not None:
-        end = hi if fixed_hi is None else fixed_hi
-        n = int(np.ceil((end - fixed_lo) / s - 1e-9)) + (0 if fixed_hi is None else 1)
-        pos = fixed_lo + s * np.arange(n)
-        return np.append(pos[pos < end - 1e-9], [] if fixed_hi is None else [fixed_hi])
-    n = int(np.ceil((fixed_hi - lo) / s - 1e-9))
-    return np.sort(fixed_hi - s * np.arange(n))
+
+def _centred(a: float, b: float, s: float, smin: float, fixed_a: bool, fixed_b: bool) -> list[float] | None:
+    """Stirrups at spacing s between a and b, centred, so that the gaps at both ends lie in
+    [smin, s]. ``fixed_a``: a is a stirrup to be placed (not one already there), and the
+    same for b. Returns the new positions (with a and b where fixed), or None."""
+    d = b - a
+    if d < -1e-9:
+        return None
+    if d <= s + 1e-9:  # one gap
+        if d >= smin - 1e-9:
+            return [a] * fixed_a + [b] * fixed_b
+        if fixed_a and fixed_b:  # both to be placed and closer than smin: one stirrup between
+            return [round((a + b) / 2, 1)]
+        return None
+    n = int(np.ceil(d / s - 1e-9)) - 1  # stirrups strictly between
+    g = d - (n - 1) * s  # the two end gaps together, in (s, 2s]
+    if g < 2 * smin - 1e-9:
+        return None
+    g_a = np.floor(g / 2)  # whole millimetres where the anchors are
+    inner = [a + g_a + k * s for k in range(n)]
+    return [a] * fixed_a + inner + [b] * fixed_b
 
 
-def layout_member(x: np.ndarray, clear_span: float, need_av_s, need_at_s, s_max, s_across, stirrups_here,
-                  b: float, free_i: bool, free_j: bool, st: Detailing) -> Layout | str:
-    """Zones for one member (x: stations from face i); a string explains why none can be built."""
-    module, smin = st.spacing_module_mm, st.min_spacing_mm
+def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: float, st: Detailing,
+                 fixed_a: bool, face_b: float | None) -> list[float] | None:
+    """The middle run from a to b: carried on from a at its spacing and closed at b
+    (``_continued``), else centred between them; where neither keeps every gap between
+    the practical minimum and its spacing, an end run is extended by one or more of its
+    own stirrups, or the spacing is made one or more modules tighter (least change first)."""
+    smin, module = st.min_spacing_mm, st.spacing_module_mm
+    tries = []
+    for extra in range(4):
+        for i in range(extra + 1):
+            j = extra - i
+            if (i and not left) or (j and not right):
+                continue
+            tries.append((i, j))
+    spacings = [s - k * module for k in range(int((s - smin) // module) + 1)]
+    for s_try in spacings:
+        for i, j in tries:
+            a2 = a + i * left[-1].spacing if i else a
+            b2 = b - j * right[-1].spacing if j else b
+            got = _continued(a2, b2, s_try, smin, fixed_a, face_b) if not j else None
+            if got is None:
+                got = _centred(a2, b2, s_try, smin, fixed_a, face_b is not None)
+            if got is not None:
+                ext_a = [a + k * left[-1].spacing for k in range(1, i + 1)]
+                ext_b = [b - k * right[-1].spacing for k in range(j, 0, -1)]
+                return ext_a + got + ext_b
+    return None
+
+
+def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i: bool, free_j: bool,
+                     st: Detailing) -> tuple[np.ndarray, list[tuple[float, float]], str] | str:
+    """Stirrup positions for one member from the allowed spacing at each station (u from
+    face i; inf where none is needed). Returns (positions, empty spans, note), or a
+    string that says why no layout is possible."""
     first = (lambda s: st.first_stirrup_mm) if st.first_stirrup == "fixed" else (lambda s: s / 2.0)
-    tried = []
-    for bar, ladder_legs in st.ladder:
-        db, area = BAR_CATALOGUE[bar]
-        legs = max(ladder_legs, legs_for_width(b, st.clear_cover_mm, db, s_across))
-        s_env = allowed_spacing(need_av_s, need_at_s, s_max, stirrups_here, area, legs, module)
-        tight = float(np.min(s_env))
-        tried.append(f"{bar} x{legs} legs at {tight:g} mm")
-        if tight >= smin:
-            break
-    else:
-        return (f"no (bar, legs) of the ladder works at the {smin:g} mm minimum spacing: {'; '.join(tried)}")
     if np.all(np.isinf(s_env)):
-        return Layout(bar, legs, [Zone(0.0, clear_span, np.inf)], "no stirrups required")
+        return np.empty(0), [(0.0, clear_span)], "no stirrups required"
     zmax = st.max_zones_per_end
-    if free_i or free_j:  # a cantilever: zones from the fixed end to the free end
-        u = x if free_j else (clear_span - x)[::-1]
+    if free_i or free_j:  # a cantilever, set out from its fixed end
+        v = u if free_j else (clear_span - u)[::-1]
         env = s_env if free_j else s_env[::-1]
-        zones, _, _ = _end_zones(u, env, first, zmax, to_end=clear_span - first(float(env.min())))
-        zones[-1].end = clear_span
-        return Layout(bar, legs, zones if free_j else _mirror(zones, clear_span))
+        pos, empty = _cantilever(v, env, clear_span, first, zmax, st)
+        if pos is None:
+            return "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
+        if not free_j:
+            pos = clear_span - pos[::-1]
+            empty = [(clear_span - e, clear_span - s) for s, e in reversed(empty)]
+        return _rounded(pos), empty, ""
     finite = np.where(np.isfinite(s_env), s_env, 1e12)
     best = np.flatnonzero(finite == finite.max())
-    m = best[np.argmin(np.abs(x[best] - clear_span / 2))]  # least demand, nearest mid-span
-    zi, last_i, mid_i = _end_zones(x[: m + 1], s_env[: m + 1], first, zmax, None)
-    zj, last_j, mid_j = _end_zones((clear_span - x[m:])[::-1], s_env[m:][::-1], first, zmax, None)
-    s_mid = min(mid_i, mid_j)
-    for side in (zi, zj):  # an end zone as wide as the middle is part of it
+    m = best[np.argmin(np.abs(u[best] - clear_span / 2))]  # least demand, nearest mid-span
+    left, s_l = _end_runs(u[: m + 1], s_env[: m + 1], first, zmax)
+    right, s_r = _end_runs((clear_span - u[m:])[::-1], s_env[m:][::-1], first, zmax)
+    right = [_Run(r.spacing, [clear_span - x for x in r.positions]) for r in right]  # from face j, descending
+    s_mid = min(s_l, s_r)
+    for side in (left, right):  # an end run as wide as the middle is part of it
         while side and side[-1].spacing >= s_mid:
             side.pop()
-    last_i = zi[-1].end if zi else 0.0
-    last_j = zj[-1].end if zj else 0.0
-    lo, hi = last_i, clear_span - last_j
-    if not np.isfinite(s_mid):
-        middle = Zone(lo, hi, np.inf)
-    else:
-        f = first(s_mid)
-        if hi - lo <= 0 or (not zi and not zj and clear_span <= 2 * f):
-            s = float(np.min(s_env))  # end zones meet: one zone at the tightest spacing
-            n = int(np.ceil((clear_span - 2 * first(s)) / s - 1e-9)) + 1
-            pos = first(s) + np.linspace(0.0, clear_span - 2 * first(s), n) if n > 1 else np.array([clear_span / 2])
-            return Layout(bar, legs, [Zone(0.0, clear_span, s, pos)], "end zones meet; one zone throughout")
-        pos = _middle(lo, hi, s_mid, None if zi else f, None if zj else clear_span - f)
-        middle = Zone(lo, hi, s_mid, pos)
-    return Layout(bar, legs, zi + [middle] + _mirror(zj, clear_span))
+    note = ""
+    a = left[-1].positions[-1] if left else None
+    b = right[-1].positions[-1] if right else None
+    if a is not None and b is not None and b - a < st.min_spacing_mm - 1e-9:
+        left, right, note = [], [], "end zones meet; one zone throughout"  # the tightest spacing throughout
+        s_mid = float(np.min(s_env))
+        a = b = None
+    if not np.isfinite(s_mid):  # nothing needed in the middle
+        pos = [x for r in left for x in r.positions] + [x for r in reversed(right) for x in r.positions[::-1]]
+        lo = a if a is not None else 0.0
+        hi = b if b is not None else clear_span
+        return _rounded(np.array(sorted(pos))), [(lo, hi)], ""
+    fixed_a, face_b = a is None, (clear_span if b is None else None)
+    a = first(s_mid) if a is None else a
+    b = clear_span - first(s_mid) if b is None else b
+    mid = _fit_between(left, right, a, b, s_mid, st, fixed_a, face_b)
+    if mid is None:
+        return "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
+    pos = [x for r in left for x in r.positions] + mid + [x for r in reversed(right) for x in r.positions[::-1]]
+    return _rounded(np.array(sorted(pos))), [], note
 
 
-def _mirror(zones: list[Zone], span: float) -> list[Zone]:
-    return [Zone(span - z.end, span - z.start, z.spacing, np.sort(span - z.positions)) for z in reversed(zones)]
+def _cantilever(v, env, span, first, zmax, st: Detailing):
+    """Positions from the fixed face (v from it) to the free end; the stirrup nearest the
+    tip is ``first`` from it wherever the tip region needs stirrups."""
+    runs, s_tip = _end_runs(v, env, first, zmax)
+    if not np.isfinite(s_tip):  # the tip region needs none
+        pos = [x for r in runs for x in r.positions]
+        return np.array(pos), [(pos[-1] if pos else 0.0, span)]
+    tip = span - first(s_tip)
+    while runs and runs[-1].positions[-1] > tip - st.min_spacing_mm + 1e-9:
+        runs.pop()  # a run reaching the tip: the tighter spacing carries on to it instead
+        s_tip = float(np.min(env))
+    a = runs[-1].positions[-1] if runs else first(s_tip)
+    mid = _fit_between(runs, [], a, tip, s_tip, st, not runs, span)
+    if mid is None:
+        return None, []
+    return np.array([x for r in runs for x in r.positions] + mid), []
 
 
-def provided_spacing(layout: Layout, x: np.ndarray) -> np.ndarray:
-    """Spacing in force at each station; on a zone boundary the smaller of the two."""
-    starts = np.array([z.start for z in layout.zones])
-    ends = np.array([z.end for z in layout.zones])
-    sp = np.array([z.spacing for z in layout.zones])
-    k_hi = np.clip(np.searchsorted(ends, x, side="left"), 0, len(sp) - 1)
-    k_lo = np.clip(np.searchsorted(starts, x, side="right") - 1, 0, len(sp) - 1)
-    return np.minimum(sp[k_hi], sp[k_lo])
+def _rounded(pos: np.ndarray) -> np.ndarray:
+    return np.round(pos, 1)
+
+
+def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[float, float]]) -> list[Zone]:
+    """Zones as a detailer sets them out, derived from the stirrup positions.
+
+    Runs of equal gaps are zones; where two runs meet, the stirrup between them belongs
+    to the tighter one; a lone gap between two runs (a transition) belongs to neither,
+    so each zone is "count stirrups from start to end at spacing". Spans left without
+    stirrups on purpose are zones of count 0."""
+    n = len(x)
+    if not n:
+        return [Zone(0.0, clear_span, np.nan, 0)]
+    holes = [(a, b) for a, b in empty if b > a]
+    gaps = np.diff(x)
+    hole_gap = np.array([any(a <= x[k] + 1e-6 and b >= x[k + 1] - 1e-6 for a, b in holes) for k in range(n - 1)],
+                        bool)
+    runs = []  # (first gap, last gap) of each run of equal gaps, holes excluded
+    k = 0
+    while k < n - 1:
+        j = k
+        while j + 1 < n - 1 and not hole_gap[k] and not hole_gap[j + 1] and abs(gaps[j + 1] - gaps[k]) < SAME_GAP_MM:
+            j += 1
+        if not hole_gap[k]:
+            runs.append((k, j))
+        k = j + 1
+    owner = np.full(n, -1)
+    multi = sorted((r for r in range(len(runs)) if runs[r][1] > runs[r][0]), key=lambda r: gaps[runs[r][0]])
+    for r in multi:  # tighter runs first
+        p, q = runs[r]
+        free = owner[p:q + 2] < 0
+        owner[p:q + 2][free] = r
+    for r, (p, q) in enumerate(runs):
+        if q == p and owner[p] < 0 and owner[p + 1] < 0:  # a lone gap between two lone stirrups
+            owner[p:p + 2] = r
+    zones: list[Zone] = []
+    if holes and holes[0][0] <= 0.0 < x[0]:
+        zones.append(Zone(0.0, float(x[0]), np.nan, 0))
+    i = 0
+    while i < n:
+        j = i
+        while j + 1 < n and owner[i] >= 0 and owner[j + 1] == owner[i]:
+            j += 1
+        count = j - i + 1
+        zones.append(Zone(float(x[i]), float(x[j]), float(gaps[i]) if count > 1 else np.nan, count))
+        if j < n - 1 and hole_gap[j]:
+            zones.append(Zone(float(x[j]), float(x[j + 1]), np.nan, 0))
+        i = j + 1
+    if holes and holes[-1][1] >= clear_span and x[-1] < clear_span:
+        zones.append(Zone(float(x[-1]), clear_span, np.nan, 0))
+    return zones
+
+
+def provided_spacing(x: np.ndarray, stations: np.ndarray, clear_span: float, side: np.ndarray | None = None) -> np.ndarray:
+    """Spacing in force at each station: the gap between the stirrups on either side;
+    beyond the first or last stirrup, the larger of the gap to the face or free end and
+    the gap next to it; inf where there are none. At a station on a stirrup, ``side``
+    says which gap it stands for: -1 the one before it (the left limit of a jump), +1 the
+    one after it (the right limit), 0 the larger of the two (shear continuous there)."""
+    n = len(x)
+    if n == 0:
+        return np.full(len(stations), np.inf)
+    gaps = np.diff(x)
+    edge_lo = max(x[0], gaps[0] if n > 1 else 0.0)
+    edge_hi = max(clear_span - x[-1], gaps[-1] if n > 1 else 0.0)
+    ext = np.concatenate([[edge_lo], gaps, [edge_hi]])  # ext[k]: the gap before stirrup k
+    k = np.searchsorted(x, stations, side="left")  # stirrups before each station
+    on = (k < n) & (x[np.minimum(k, n - 1)] == stations)
+    before, after = ext[k], ext[np.minimum(k + 1, n)]
+    side = np.zeros(len(stations), np.int8) if side is None else side
+    at_stirrup = np.where(side < 0, before, np.where(side > 0, after, np.maximum(before, after)))
+    return np.where(on, at_stirrup, before)
+
+
+def jump_sides(member: np.ndarray, x: np.ndarray, side: np.ndarray) -> np.ndarray:
+    """Per station of a grid sorted by (member, x, side): -1 for the left limit of a
+    jump, +1 for its right limit, 0 where the shear is continuous (see provided_spacing)."""
+    partner = np.zeros(len(x), bool)
+    partner[1:] = (member[1:] == member[:-1]) & (x[1:] == x[:-1]) & (side[:-1] == 0) & (side[1:] == 1)
+    return np.where(side == 0, -1, np.where(partner, 1, 0)).astype(np.int8)

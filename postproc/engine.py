@@ -24,7 +24,9 @@ from postproc.store import Run
 
 MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_kN", "vu_design_j_kN",
                   "crit_i", "crit_j", "phi_vc_kN", "phi_vn_limit_kN", "utilization", "stirrups_total",
-                  "stirrup_mass_kg"]
+                  "stirrup_mass_kg",
+                  # added after the first release, at the end (the table's columns are a contract)
+                  "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2"]
 ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
 STATUSES = ("designed", "resize", "deep-beam", "no-forces", "no-geometry", "invalid", "not-covered")
 BATCH_CELLS = 500_000  # combinations x stations per batch: bounds memory (and stays in cache), not results
@@ -48,9 +50,12 @@ def combination_set(run: Run, case_names: list[str], settings: Settings) -> tupl
     if cases is None:
         return combos_mod.prefactored(case_names), []
     types = dict(zip(cases.column("case").to_pylist(), cases.column("type").to_pylist()))
+    patterns = {}
+    if "pattern" in cases.column_names:
+        patterns = dict(zip(cases.column("case").to_pylist(), cases.column("pattern").fill_null("").to_pylist()))
     unused = sorted(set(types) - set(case_names))
     warnings = [f"cases.csv lists case '{c}', which has no rows in forces.csv" for c in unused]
-    return combos_mod.aci_5_3_1(types, case_names, settings.combinations), warnings
+    return combos_mod.aci_5_3_1(types, case_names, settings.combinations, patterns), warnings
 
 
 @dataclass
@@ -141,13 +146,14 @@ def design_part(part_path: str, beams: pd.DataFrame, cset: combos_mod.ComboSet, 
     d = beams["d_mm"].to_numpy()
     clear = beams["length_m"].to_numpy() * 1e3 - beams["face_i_mm"].to_numpy() - beams["face_j_mm"].to_numpy()
     est = (clear / np.minimum(settings.stations.max_step_mm, d / settings.stations.steps_per_d) + 8) \
-        * max(len(cset.names), len(cset.cases))
+        * max(2 * len(cset.rows), len(cset.cases))
     start = 0
     while start < len(beams):
         stop = start + max(1, int(np.searchsorted(np.cumsum(est[start:]), BATCH_CELLS)))
         r0, r1 = bounds[start], bounds[stop]
-        res = _design_batch(beams.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start,
-                            cidx[r0:r1], x[r0:r1], {k: v[r0:r1] for k, v in values.items()}, cset, settings)
+        batch = BatchInput(beams.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start, cidx[r0:r1],
+                           x[r0:r1], {k: v[r0:r1] for k, v in values.items()})
+        res = _design_batch(batch, cset, settings)
         rows.extend(res[0])
         zones.extend(res[1])
         st_tables.append(res[2])
@@ -167,32 +173,92 @@ def _row(member, status, message, **kw) -> dict:
     return row
 
 
-def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, settings: Settings):
-    st = settings.detailing
-    n = len(bm)
+# ----------------------------------------------------------------------------- the batch pipeline
+#
+# geometry -> resample -> end rules -> demand -> layout -> check -> records: each step a
+# function of typed arrays over all stations of all members of the batch.
+
+
+@dataclass(frozen=True)
+class BatchInput:
+    beams: pd.DataFrame  # members of the batch (inputs, SI)
+    f_member: np.ndarray  # per force row: index into beams
+    f_case: np.ndarray  # per force row: index into cset.cases
+    f_x: np.ndarray  # mm from node i
+    f_values: dict[str, np.ndarray]  # V, N (N), T (N*mm)
+
+
+@dataclass(frozen=True)
+class Members:
+    """Step 1, geometry: per-member arrays."""
+
+    names: np.ndarray
+    geo: stations.Geometry
+    sec: design.Section
+    free_i: np.ndarray
+    free_j: np.ndarray
+
+
+@dataclass(frozen=True)
+class Resampled:
+    """Steps 2 and 3: the station grid, every case at every station, and the end rules."""
+
+    samples: stations.Samples
+    grid: stations.Grid
+    x_clear: np.ndarray  # station position from face i
+    case_values: dict[str, np.ndarray]  # (n_cases, S) at the station each station takes its forces from
+    rules: stations.EndRules
+    warnings: list[str]
+
+
+@dataclass(frozen=True)
+class Options:
+    """The ladder's (bar, legs) choices, per member: legs, bar area, Aoh, ph."""
+
+    bars: list[str]
+    legs: np.ndarray  # (K, members)
+    area: np.ndarray  # (K,)
+    db: np.ndarray  # (K,)
+    Aoh: np.ndarray  # (K, members)
+    ph: np.ndarray  # (K, members)
+
+
+@dataclass(frozen=True)
+class Layouts:
+    """Step 5: the chosen option and stirrup positions of each member that has one."""
+
+    option: np.ndarray  # per member: ladder index, -1 where not laid out
+    layouts: dict[int, detailing.Layout]
+    reasons: dict[int, tuple[str, str]]  # member -> (status, message) where not designed
+    stirrups_here: np.ndarray  # per station: stirrups are placed there (needed, or throughout)
+    allowed: np.ndarray  # per station: the allowed spacing for the chosen option (inf: none needed)
+
+
+def _geometry(bm: pd.DataFrame) -> Members:
     g = stations.Geometry(
         length=bm["length_m"].to_numpy() * 1e3, face_i=bm["face_i_mm"].to_numpy(), face_j=bm["face_j_mm"].to_numpy(),
         d=bm["d_mm"].to_numpy(), h=bm["h_mm"].to_numpy(), support_i=bm["support_i"].to_numpy(object),
         support_j=bm["support_j"].to_numpy(object), load_top=(bm["load_face"] == "top").to_numpy())
-    names = bm["member"].to_numpy(object)
-    width = bm["b_mm"].to_numpy(float)
-    samples = stations.Samples.build(f_member, f_case, f_x, f_values)
+    sec = design.section_from_members(
+        b=bm["b_mm"].to_numpy(float), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
+        lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
+        bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float))
+    return Members(bm["member"].to_numpy(object), g, sec, g.support_i == "free", g.support_j == "free")
+
+
+def _resample(mb: Members, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> Resampled:
+    g, n, names = mb.geo, len(mb.names), mb.names
+    samples = stations.Samples.build(bi.f_member, bi.f_case, bi.f_x, bi.f_values, settings.stations.tolerance_mm)
     grid = stations.build_grid(g, samples, settings.stations)
     span = float(g.length.max() * 2 + 1e3)
     case_vals, missing = stations.interpolate(samples, len(cset.cases), grid.member, grid.x, grid.side, span)
     rules = stations.end_rules(g, grid, samples, settings.stations)
-    src = rules.source
-    C = cset.factors
-    Vu = np.abs(C @ case_vals["V"])[:, src]
-    Nu = -(C @ case_vals["N"])[:, src]  # ACI sign: compression positive
-    Tu = np.abs(C @ case_vals["T"])[:, src]
+    case_vals = {k: v[:, rules.source] for k, v in case_vals.items()}
 
     warnings = []
-    miss_m = np.unique(grid.member[missing.any(axis=0)])
-    for m in miss_m:
+    for m in np.unique(grid.member[missing.any(axis=0)]):
         lacking = [cset.cases[c] for c in np.flatnonzero(missing[:, grid.member == m].any(axis=1))]
         warnings.append(f"member {names[m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
-
     first_row = np.searchsorted(samples.member, np.arange(n))
     x_lo = np.minimum.reduceat(samples.x, first_row)
     x_hi = np.maximum.reduceat(samples.x, first_row)
@@ -200,122 +266,318 @@ def _design_batch(bm: pd.DataFrame, f_member, f_case, f_x, f_values, cset, setti
     for m in np.flatnonzero(short):
         warnings.append(f"member {names[m]}: forces cover x = {x_lo[m] / 1e3:.3f} to {x_hi[m] / 1e3:.3f} m only; "
                         "the end values are held over the rest of the clear span")
+    sm, sc, sx, sdv = stations.steep_slopes(samples, settings.stations, n)
+    for m in np.unique(sm):
+        k = np.flatnonzero(sm == m)
+        warnings.append(f"member {names[m]}, case {cset.cases[sc[k[0]]]}: V changes by {abs(sdv[k[0]]) / 1e3:,.1f} kN "
+                        f"within {settings.stations.steep_slope_kN_per_m:g} kN/m at x = {sx[k[0]] / 1e3:.4f} m"
+                        + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
+                        + ": a concentrated load spread by the export? It is designed as a steep linear change; "
+                          "give the two rows one station to make it a concentrated load")
+    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings)
 
-    largest_db = max(BAR_CATALOGUE[b][0] for b, _ in st.ladder)
-    sec_m = design.section_from_members(
-        b=bm["b_mm"].to_numpy(), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
-        lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
-        bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float),
-        cover_to_stirrup=st.clear_cover_mm, stirrup_db=largest_db)
-    sec = sec_m.take(grid.member)
-    dem = design.required(sec, Vu, Nu, Tu)
-    x_clear = grid.x - g.start[grid.member]
 
-    # per-station envelope pieces the layout needs
-    stirrups_here = dem.avmin_required | (dem.av_s_env > 0) | (dem.at_s_env > 0) | st.stirrups_throughout
-    cantilever = (g.support_i == "free") | (g.support_j == "free")
-    why_deep = deep_beam_reasons(g.clear_span, g.h, g.d, cantilever, rules.point_load_near_bearing)
-    deep = why_deep != ""
-    resize = np.zeros(n, bool)
-    np.logical_or.at(resize, grid.member, dem.section_ratio > 1.0)
+def _options(mb: Members, dem: design.Demand, grid: stations.Grid, st) -> Options:
+    """Every ladder choice for every member: legs enough for the spacing across the width
+    (Table 9.7.6.2.2) where stirrups are needed, and the torsion geometry of that bar."""
+    here = dem.stirrups_needed | st.stirrups_throughout
+    across = np.full(len(mb.names), np.inf)
+    np.minimum.at(across, grid.member[here], dem.s_max_across[here])
+    bars = [bar for bar, _ in st.ladder]
+    db = np.array([BAR_CATALOGUE[b][0] for b in bars])
+    legs = np.array([[max(base, detailing.legs_for_width(b, st.clear_cover_mm, dbk, a)) if np.isfinite(a) else base
+                      for b, a in zip(mb.sec.b, across)] for (_, base), dbk in zip(st.ladder, db)], dtype=float)
+    geo = [design.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover_mm, dbk) for dbk in db]
+    return Options(bars, legs, np.array([BAR_CATALOGUE[b][1] for b in bars]), db,
+                   np.array([a for a, _ in geo]), np.array([p for _, p in geo]))
 
-    rows, zones, stirrups = [], [], []
-    spacing = np.full(len(grid.x), np.inf)
-    legs_st = np.zeros(len(grid.x))
-    area_st = np.zeros(len(grid.x))
-    leg_gap = np.zeros(len(grid.x))
-    designed = np.zeros(n, bool)
-    layouts: dict[int, detailing.Layout] = {}
-    messages: dict[int, str] = {}
+
+def _allowed_spacing(k: int, opt: Options, dem: design.Demand, cand, grid: stations.Grid, here, module) -> np.ndarray:
+    """Per station, the largest spacing on the module that option k admits (inf: none needed):
+    strength per outer leg (22.5.8.5.3, 22.7.6.1), the minimum of 9.6.3.4 / 9.6.4.2, s_max
+    (9.7.6.2.2; ph/8 and 300 mm with torsion, 9.7.6.3.3)."""
+    mem = grid.member
+    legs, area = opt.legs[k][mem], opt.area[k]
+    need = design.per_leg_need(cand, dem, legs, opt.Aoh[k][mem])
+    with np.errstate(divide="ignore"):
+        s = np.where(need > 0, area / need, np.inf)
+        s = np.where(dem.minimum, np.minimum(s, legs * area / dem.av_min_s), s)
+    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(opt.ph[k][mem])), dem.s_max)
+    s = np.where(here | (need > 0), np.minimum(s, s_max), np.inf)
+    return detailing.floor_to_module(s, module)
+
+
+def _layout(mb: Members, rs: Resampled, cand, dem: design.Demand, opt: Options, deep: np.ndarray,
+            settings: Settings) -> Layouts:
+    """Step 5: the first ladder option that fits the minimum spacing and the torsion section
+    limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member."""
+    st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    here = dem.stirrups_needed | st.stirrups_throughout
+    shear_bad = np.zeros(n, bool)
+    np.logical_or.at(shear_bad, grid.member, dem.shear_ratio > 1.0)
+    starts = grid.offsets[:-1]
+    allowed = np.full((len(opt.bars), len(grid.x)), np.inf)
+    fits = np.zeros((len(opt.bars), n), bool)
+    torsion_ok = np.ones((len(opt.bars), n), bool)
+    for k in range(len(opt.bars)):
+        allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module_mm)
+        fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing_mm
+        ratio = design.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
+                                           opt.ph[k][grid.member])
+        torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
+    usable = fits & torsion_ok
+    option = np.where(usable.any(axis=0), np.argmax(usable, axis=0), -1)
+    layouts, reasons = {}, {}
+    chosen = np.full(len(grid.x), np.inf)
     for m in range(n):
-        if deep[m] or resize[m]:
+        if deep[m] or shear_bad[m]:
+            option[m] = -1
             continue
         sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        lay = detailing.layout_member(
-            x_clear[sl], g.clear_span[m], dem.av_s_env[sl], dem.at_s_env[sl], dem.s_max[sl],
-            float(dem.s_max_across[sl][stirrups_here[sl]].min()) if stirrups_here[sl].any() else np.inf,
-            stirrups_here[sl], float(width[m]), g.support_i[m] == "free", g.support_j[m] == "free", st)
-        if isinstance(lay, str):
-            messages[m] = lay
+        k = option[m]
+        if k < 0:
+            if not torsion_ok[:, m].any():
+                reasons[m] = ("resize", _torsion_message(mb, rs, cand, dem, opt, m))
+            else:
+                tight = [f"{opt.bars[j]} x{int(opt.legs[j][m])} legs at {allowed[j][sl].min():g} mm"
+                         for j in range(len(opt.bars)) if torsion_ok[j, m]]
+                reasons[m] = ("resize", f"no (bar, legs) of the ladder works at the {st.min_spacing_mm:g} mm minimum "
+                                        f"spacing: {'; '.join(tight)}")
             continue
-        layouts[m] = lay
-        designed[m] = True
-        spacing[sl] = detailing.provided_spacing(lay, x_clear[sl])
-        legs_st[sl] = lay.legs
-        area_st[sl] = BAR_CATALOGUE[lay.bar][1]
-        leg_gap[sl] = detailing.leg_spacing(float(width[m]), st.clear_cover_mm, BAR_CATALOGUE[lay.bar][0], lay.legs)
-        if not detailing.gaps_within_spacing(lay, g.clear_span[m], g.support_i[m] == "free", g.support_j[m] == "free"):
-            raise SelfCheckError(f"stirrups of member {names[m]} leave a gap wider than their zone's spacing")
+        got = detailing.layout_positions(rs.x_clear[sl], allowed[k][sl], float(mb.geo.clear_span[m]),
+                                         bool(mb.free_i[m]), bool(mb.free_j[m]), st)
+        if isinstance(got, str):
+            option[m] = -1
+            reasons[m] = ("resize", got)
+            continue
+        positions, empty, note = got
+        layouts[m] = detailing.Layout(opt.bars[k], int(opt.legs[k][m]), positions, empty, note)
+        chosen[sl] = allowed[k][sl]
+    return Layouts(option, layouts, reasons, here, chosen)
 
-    cap = design.check_layout(sec, Vu, Nu, Tu, area_st, legs_st, spacing, dem, leg_gap)
-    on = designed[grid.member]
-    bad = on & ~cap.ok
+
+def _torsion_message(mb, rs, cand, dem, opt, m) -> str:
+    sl = slice(rs.grid.offsets[m], rs.grid.offsets[m + 1])
+    best = int(np.argmax(opt.Aoh[:, m]))
+    ratio = design.torsion_limit_ratio(mb.sec.take(rs.grid.member), cand, dem, opt.Aoh[best][rs.grid.member],
+                                       opt.ph[best][rs.grid.member])[sl].max()
+    return (f"Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) (ratio {ratio:.2f} with {opt.bars[best]} "
+            "stirrups): enlarge the section (the limit grows with bw*d and with Aoh^2/ph) or raise f'c; "
+            "more stirrups do not help")
+
+
+@dataclass(frozen=True)
+class Provided:
+    """Per station, what the layout provides (designed members only; elsewhere inf / 0)."""
+
+    on: np.ndarray  # the station belongs to a designed member
+    spacing: np.ndarray
+    legs: np.ndarray
+    area: np.ndarray
+    Aoh: np.ndarray
+    ph: np.ndarray
+    leg_gap: np.ndarray
+
+
+def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Provided:
+    grid = rs.grid
+    S = len(grid.x)
+    on = lay.option[grid.member] >= 0
+    spacing = np.full(S, np.inf)
+    k = np.maximum(lay.option, 0)[grid.member]
+    cols = grid.member
+    sides = detailing.jump_sides(grid.member, grid.x, grid.side)
+    for m, layout in lay.layouts.items():
+        sl = slice(grid.offsets[m], grid.offsets[m + 1])
+        spacing[sl] = detailing.provided_spacing(layout.positions, rs.x_clear[sl], float(mb.geo.clear_span[m]),
+                                                 sides[sl])
+    legs = np.where(on, opt.legs[k, cols], 0.0)
+    leg_gap = detailing.leg_spacing(mb.sec.b[cols], st.clear_cover_mm, opt.db[k], np.maximum(legs, 1))
+    return Provided(on, spacing, legs, np.where(on, opt.area[k], 0.0), opt.Aoh[k, cols], opt.ph[k, cols], leg_gap)
+
+
+def _check(mb: Members, rs: Resampled, cand, dem: design.Demand, prov: Provided, lay: Layouts,
+           settings: Settings) -> design.Capacity:
+    """Step 6, the self-check: every station of every designed member, every candidate
+    combination, and every gap between stirrups against the practical minimum."""
+    sec = mb.sec.take(rs.grid.member)
+    cap = design.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
+                              lay.stirrups_here)
+    bad = prov.on & ~cap.ok
     if bad.any():
         k = np.flatnonzero(bad)[0]
-        m = grid.member[k]
-        raise SelfCheckError(f"layout of member {names[m]} fails its self-check at x = {x_clear[k]:.0f} mm "
-                             f"(utilization {cap.utilization[k]:.3f}, s = {spacing[k]:g} mm, "
+        m = rs.grid.member[k]
+        raise SelfCheckError(f"layout of member {mb.names[m]} fails its self-check at x = {rs.x_clear[k]:.0f} mm "
+                             f"(utilization {cap.utilization[k]:.3f}, s = {prov.spacing[k]:g} mm, "
                              f"s_max = {dem.s_max[k]:g} mm)")
+    smin = settings.detailing.min_spacing_mm
+    for m, layout in lay.layouts.items():
+        gaps = np.diff(layout.positions)
+        if len(gaps) and gaps.min() < smin - 0.05 and "one zone throughout" not in layout.message:
+            raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} mm apart, under the "
+                                 f"{smin:g} mm minimum")
+    return cap
 
-    util = np.maximum(np.where(on, cap.utilization, 0.0), dem.section_ratio)
-    k_gov = _argmax_per_member(util, grid.offsets)
-    first_st = grid.offsets[:-1]
-    last_st = grid.offsets[1:] - 1
-    vu_env = dem.vu_max
+
+def _governing(values: np.ndarray, tie: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+    """Index of the largest value within each segment, ties (to 1e-9) broken by the largest
+    ``tie``, then by the first in order."""
+    seg = np.repeat(np.arange(len(bounds) - 1), np.diff(bounds))
+    first = -np.arange(len(values))
+    order = np.lexsort((first, np.round(tie, 9), np.round(values, 9), seg))
+    return order[bounds[1:] - 1]
+
+
+def _records(mb: Members, rs: Resampled, cset, cand, dem: design.Demand, opt: Options, lay: Layouts,
+             prov: Provided, cap: design.Capacity | None, why_deep: np.ndarray, settings: Settings):
+    """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace."""
+    st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    p = dem.pairs
+    cs = cand.station
+    k_ref = np.where(lay.option >= 0, lay.option, int(np.argmax(opt.Aoh.mean(axis=1))))  # bar for undesigned
+    torsion_ratio = design.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem,
+                                               opt.Aoh[k_ref[grid.member], grid.member],
+                                               opt.ph[k_ref[grid.member], grid.member]) if p.torsion.any() else None
+    # per candidate: the utilization it produces (provided layout, else the section limits)
+    if cap is not None:
+        pair_u = np.where(prov.on[cs], np.maximum(cap.pair_utilization, p.shear_ratio), p.shear_ratio)
+        tie = np.where(prov.on[cs], np.where(cap.phi_vn > 0, p.vu / cap.phi_vn, 0.0), p.vu)
+    else:
+        pair_u, tie = p.shear_ratio, p.vu
+    if torsion_ratio is not None:
+        s_ = mb.sec.take(grid.member[cs])
+        tr = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s_.fc, s_.b, s_.d, opt.Aoh[k_ref[grid.member[cs]],
+                                    grid.member[cs]], opt.ph[k_ref[grid.member[cs]], grid.member[cs]])
+        pair_u = np.maximum(pair_u, np.where(p.torsion & ~prov.on[cs], tr, 0.0))
+    gov_station = _governing(pair_u, tie, cand.bounds)  # per station: its governing candidate
+    station_util = pair_u[gov_station]
+    member_bounds = cand.bounds[grid.offsets]
+    gov_member = _governing(pair_u, tie, member_bounds)  # per member
+    names_gov = cand.names(cset, np.concatenate([gov_station, gov_member]))
+    name_station, name_member = names_gov[:len(gov_station)], names_gov[len(gov_station):]
+
+    has_min = np.zeros(len(cs), bool)
+    if cap is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            av_prov = np.where(prov.on & np.isfinite(prov.spacing), prov.legs * prov.area / prov.spacing, 0.0)
+        has_min = (av_prov >= dem.av_min_s * (1 - 1e-9))[cs] & prov.on[cs]
+    vc_used = np.where(has_min, p.vc_hi, np.where(prov.on[cs], p.vc_lo, p.vc_hi))
+    sec_p = mb.sec.take(grid.member[cs])
+    limit = aci.section_limit(p.vc_hi, sec_p.fc, sec_p.b, sec_p.d)
+    eq = _vc_equation(sec_p, p, has_min | ~prov.on[cs])
+    at_chosen = p.ata / opt.Aoh[k_ref[grid.member[cs]], grid.member[cs]]
+    al = aci.al_required(at_chosen, opt.ph[k_ref[grid.member[cs]], grid.member[cs]], sec_p.fyt, sec_p.fy,
+                         sec_p.fc, sec_p.Acp, sec_p.b)
+    al = np.where(p.torsion, al, 0.0)
+    al_member = np.maximum.reduceat(al, member_bounds[:-1]) if len(al) else np.zeros(n)
+
+    rows, zones, stirrups = [], [], []
+    first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
     for m in range(n):
-        k = k_gov[m]
+        j = gov_member[m]
         common = dict(
-            crit_i=rules.crit_i[m], crit_j=rules.crit_j[m],
-            vu_design_i_kN=round(vu_env[first_st[m]] / 1e3, 2), vu_design_j_kN=round(vu_env[last_st[m]] / 1e3, 2),
-            governing_case=cset.names[dem.governing[k]], phi_vc_kN=round(dem.phi_vc[k] / 1e3, 2),
-            phi_vn_limit_kN=round(dem.phi_vn_limit[k] / 1e3, 2), utilization=round(float(util[k]), 3))
-        name = names[m]
-        if deep[m]:
+            crit_i=rs.rules.crit_i[m], crit_j=rs.rules.crit_j[m],
+            vu_design_i_kN=round(dem.vu_max[first_st[m]] / 1e3, 2), vu_design_j_kN=round(dem.vu_max[last_st[m]] / 1e3, 2),
+            governing_case=name_member[m], phi_vc_kN=round(aci.PHI_SHEAR * vc_used[j] / 1e3, 2),
+            phi_vn_limit_kN=round(limit[j] / 1e3, 2), utilization=round(float(pair_u[j]), 3),
+            x_governing_mm=round(float(rs.x_clear[cs[j]]), 1), vu_kN=round(p.vu[j] / 1e3, 2),
+            nu_kN=round(p.nu[j] / 1e3, 2), tu_kNm=round(p.tu[j] / 1e6, 3), vc_equation=eq[j],
+            al_torsion_mm2=round(float(al_member[m]), 0) if al_member[m] > 0 else None)
+        name = mb.names[m]
+        if why_deep[m]:
             rows.append(_row(name, "deep-beam", why_deep[m], **common))
-        elif resize[m]:
+            continue
+        if lay.option[m] < 0:
             sl = slice(grid.offsets[m], grid.offsets[m + 1])
-            ratio = float(dem.section_ratio[sl].max())
-            bd = float(width[m] * g.d[m]) * ratio
-            rows.append(_row(name, "resize", f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}); "
-                                            f"needs bw*d of about {bd:,.0f} mm^2", **common))
-        elif m in messages:
-            rows.append(_row(name, "resize", messages[m], **common))
-        else:
-            lay = layouts[m]
-            sl = slice(grid.offsets[m], grid.offsets[m + 1])
-            closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any())  # 25.7.1.6
-            shapes = detailing.stirrup_set(float(width[m]), g.h[m], st.clear_cover_mm, lay.bar, lay.legs,
-                                           closed, st.open_hook_deg)
-            mass = lay.count * detailing.set_mass(shapes)
-            rows.append(_row(name, "designed", lay.message, stirrups_total=lay.count,
-                             stirrup_mass_kg=round(mass, 2), **common))
-            stirrups.append(pd.DataFrame({"member": name, "x_mm": np.round(lay.positions, 1)}))
-            for z, zone in enumerate(lay.zones, start=1):
-                zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
-                                  bar=lay.bar if zone.count else "", legs=lay.legs if zone.count else 0,
-                                  spacing_mm=zone.spacing if np.isfinite(zone.spacing) else None,
-                                  count=zone.count))
+            ratio = float(dem.shear_ratio[sl].max())
+            if ratio > 1.0:
+                bd = float(mb.sec.b[m] * mb.sec.d[m]) * ratio
+                msg = (f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}); needs bw*d of about "
+                       f"{bd:,.0f} mm^2")
+            else:
+                msg = lay.reasons[m][1]
+            rows.append(_row(name, "resize", msg, **common))
+            continue
+        layout = lay.layouts[m]
+        sl = slice(grid.offsets[m], grid.offsets[m + 1])
+        closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any())  # 25.7.1.6
+        shapes = detailing.stirrup_set(float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover_mm, layout.bar, layout.legs,
+                                       closed, st.open_hook_deg)
+        mass = layout.count * detailing.set_mass(shapes)
+        message = layout.message
+        if al_member[m] > 0:
+            message = "; ".join(filter(None, [message, f"torsion: add Al = {al_member[m]:,.0f} mm^2 of longitudinal "
+                                                      "bars around the perimeter (22.7.6.1, 9.6.4.3, 9.7.5)"]))
+        rows.append(_row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
+                         **common))
+        stirrups.append(pd.DataFrame({"member": name, "x_mm": layout.positions}))
+        for z, zone in enumerate(detailing.zones_from_positions(layout.positions, float(mb.geo.clear_span[m]),
+                                                                layout.empty), start=1):
+            zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
+                              bar=layout.bar if zone.count else "", legs=layout.legs if zone.count else 0,
+                              spacing_mm=round(zone.spacing, 1) if np.isfinite(zone.spacing) else None,
+                              count=zone.count))
 
-    cols = np.arange(len(grid.x))
-    gov = dem.governing
+    g = gov_station
+    S = len(grid.x)
+    cols = np.arange(S)
+    k_st = k_ref[grid.member]
+    Aoh_st, ph_st = opt.Aoh[k_st, grid.member], opt.ph[k_st, grid.member]
+    largest_v = _governing(p.vu, np.zeros(len(p.vu)), cand.bounds)
+    on = prov.on
+    with np.errstate(divide="ignore", invalid="ignore"):
+        av_prov = np.where(on & np.isfinite(prov.spacing), prov.legs * prov.area / prov.spacing,
+                           np.where(on, 0.0, np.nan))
+    sec_st = mb.sec.take(grid.member)
     take = lambda values, idx: pa.array(list(values), pa.string()).take(pa.array(idx))  # strings built in Arrow
-    st_df = pa.table({
-        "member": take(names, grid.member), "x_mm": np.round(x_clear, 2), "side": grid.side,
-        "governing_case": take(cset.names, gov), "vu_kN": dem.vu / 1e3, "vu_max_kN": dem.vu_max / 1e3,
-        "nu_kN": Nu[gov, cols] / 1e3, "tu_kNm": Tu[gov, cols] / 1e6, "phi_vc_kN": dem.phi_vc / 1e3,
+    trace = pa.table({
+        "member": take(mb.names, grid.member), "x_mm": np.round(rs.x_clear, 2), "side": grid.side,
+        "governing_case": pa.array(list(name_station), pa.string()), "vu_kN": p.vu[g] / 1e3,
+        "vu_max_kN": dem.vu_max / 1e3, "nu_kN": p.nu[g] / 1e3, "tu_kNm": p.tu[g] / 1e6,
+        "phi_vc_kN": aci.PHI_SHEAR * vc_used[g] / 1e3,
         # phi*Vn of the combination with the largest Vu, so that it compares with vu_max
-        "phi_vn_kN": np.where(on, cap.phi_vn[np.argmax(Vu, axis=0), cols], np.nan) / 1e3,
-        "phi_vn_limit_kN": dem.phi_vn_limit / 1e3,
-        "avmin_threshold_kN": np.where(sec.avmin_exempt, dem.phi_vc_plain,
-                                       aci.av_min_threshold(sec.fc, sec.b, sec.d, sec.lam)) / 1e3,
-        "av_s_req": dem.av_s, "at_s_req": dem.at_s, "av_s_env": dem.av_s_env, "at_s_env": dem.at_s_env,
-        "av_min_s": dem.av_min_s, "avmin_required": dem.avmin_required, "torsion": dem.torsion,
-        "s_max_mm": dem.s_max, "spacing_mm": np.where(on, spacing, np.nan),
-        "av_s_prov": np.where(on & np.isfinite(spacing), legs_st * area_st / spacing, np.where(on, 0.0, np.nan)),
-        "utilization": util,
+        "phi_vn_kN": np.where(on, cap.phi_vn[largest_v] if cap is not None else np.nan, np.nan) / 1e3,
+        "phi_vn_limit_kN": limit[g] / 1e3,
+        "avmin_threshold_kN": np.where(sec_st.avmin_exempt, aci.PHI_SHEAR * p.vc_lo[g],
+                                       aci.av_min_threshold(sec_st.fc, sec_st.b, sec_st.d, sec_st.lam)) / 1e3,
+        "vc_equation": pa.array(list(eq[g]), pa.string()),
+        "av_s_req": p.av[g], "at_s_req": p.ata[g] / Aoh_st, "av_s_env": dem.av_env, "at_s_env": dem.ata_env / Aoh_st,
+        "av_min_s": dem.av_min_s, "avmin_required": dem.minimum, "torsion": dem.torsion,
+        "s_max_mm": np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st)), dem.s_max),
+        "s_allowed_mm": np.where(on, lay.allowed, np.nan),
+        "spacing_mm": np.where(on, prov.spacing, np.nan), "av_s_prov": av_prov,
+        "al_mm2": al[g], "utilization": station_util,
     })
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
-    return rows, zones, st_df, warnings, positions
+    return rows, zones, trace, positions
+
+
+def _vc_equation(sec: design.Section, p: design.PairDemand, with_min: np.ndarray) -> np.ndarray:
+    """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, or zero under tension)."""
+    a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam)
+    cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam)
+    vc = np.where(with_min, p.vc_hi, p.vc_lo)
+    out = np.where(with_min, np.where(np.isclose(p.vc_hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
+                   "22.5.5.1(c)").astype(object)
+    out = np.where(np.isclose(vc, cap, rtol=1e-9) & (vc > 0), "22.5.5.1.1 cap", out)
+    return np.where(vc <= 0, "Vc = 0 (axial tension)", out)
+
+
+def _design_batch(bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings):
+    """One batch of beams: geometry, resampling and end rules, demand, layout, self-check, records."""
+    mb = _geometry(bi.beams)
+    rs = _resample(mb, bi, cset, settings)
+    cand = combos_mod.candidates(cset, rs.case_values)
+    sec_st = mb.sec.take(rs.grid.member)
+    dem = design.required(sec_st, cand)
+    cantilever = mb.free_i | mb.free_j
+    why_deep = deep_beam_reasons(mb.geo.clear_span, mb.geo.h, mb.geo.d, cantilever, rs.rules.point_load_near_bearing)
+    opt = _options(mb, dem, rs.grid, settings.detailing)
+    lay = _layout(mb, rs, cand, dem, opt, why_deep != "", settings)
+    prov = _provided(mb, rs, opt, lay, settings.detailing)
+    cap = _check(mb, rs, cand, dem, prov, lay, settings)
+    rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, why_deep, settings)
+    return rows, zones, trace, rs.warnings, positions
 
 
 def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
@@ -337,14 +599,6 @@ def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.nd
     return out
 
 
-def _argmax_per_member(values: np.ndarray, offsets: np.ndarray) -> np.ndarray:
-    """Index of the largest value within each member's slice of stations."""
-    n = len(offsets) - 1
-    member = np.repeat(np.arange(n), np.diff(offsets))
-    order = np.lexsort((values, member))
-    return order[offsets[1:] - 1]
-
-
 def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progress=None) -> Result:
     """Design a run and write its design folder's contents into ``folder`` (a temporary
     folder the store renames into place): member results, zones, combinations, the
@@ -354,12 +608,17 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
     pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, "x_mm": float}), preserve_index=False),
                    folder / "stirrups.parquet")
-    pq.write_table(pa.table({"combination": result.combos.names,
-                             **{c: result.combos.factors[:, k] for k, c in enumerate(result.combos.cases)}}),
+    try:  # every distinct combination with its factors, where they can be listed one by one
+        names, factors = result.combos.explicit
+    except ValueError:
+        names, factors = [], np.zeros((0, len(result.combos.cases)))
+    pq.write_table(pa.table({"combination": pa.array(names, pa.string()),
+                             **{c: factors[:, k] for k, c in enumerate(result.combos.cases)}}),
                    folder / "combinations.parquet")
     return result
 
 
 def design_manifest(result: Result, settings: Settings) -> dict:
     return {"code_edition": aci.EDITION, "settings": settings.as_dict(),
-            "combinations_prefactored": result.combos.prefactored, "warnings": result.warnings}
+            "combinations_prefactored": result.combos.prefactored, "combination_rules": result.combos.describe(),
+            "combinations_counted": result.combos.count, "warnings": result.warnings}

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import json
+
 import numpy as np
 import pyarrow.parquet as pq
 
@@ -57,12 +59,15 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     ]))
     if r.status in ("no-forces", "not-covered", "invalid"):
         return steps
-    cset = design_table(run, "combinations")
-    man = run.manifest()
-    steps.append(Step("Combinations", "5.3.1", [
-        f"{len(cset)} combinations, " + ("cases taken as already factored" if run.cases() is None
-                                          else "built from basic load cases (Table 5.3.1)")]))
-    steps.append(_critical_sections(run, member, m, r, settings.stations))
+    steps.append(_combinations(run))
+    f = pq.read_table(run.path / "forces", filters=[("member", "==", member)])
+    cases = sorted(set(f.column("case").to_pylist()))
+    samples = stations.Samples.build(
+        np.zeros(f.num_rows, np.int64), np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),
+        f.column("x_m").to_numpy() * 1e3, {"V": f.column("V_kN").to_numpy() * 1e3, "T": f.column("T_kNm").to_numpy() * 1e6},
+        settings.stations.tolerance_mm)
+    steps.append(_point_loads(samples, cases, m, settings.stations))
+    steps.append(_critical_sections(samples, m, r, settings.stations))
     steps.append(Step("Deep beam", "9.9.1.1", [
         f"ln = {ln:,.0f} mm {'<=' if ln <= 4 * m.h_mm else '>'} 4h = {4 * m.h_mm:,.0f} mm"
         + ("" if r.status != "deep-beam" else f"; {r.message}")]))
@@ -71,6 +76,9 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     steps.append(Step("Section limit", "22.5.1.2", [
         f"largest Vu / phi(Vc + 0.66 sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
         f"at x = {st.x_mm[k]:,.0f} mm (Vu = {_fmt(st.vu_max_kN[k], 'kN')}, limit {_fmt(st.phi_vn_limit_kN[k], 'kN')})"]))
+    steps.append(_governing(r))
+    if st.torsion.any():
+        steps.append(_torsion(st, r, m, settings))
     if r.status != "designed":
         return steps
     zones = design_table(run, "zones")
@@ -78,13 +86,14 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     sec = design.section_from_members(
         b=np.array([m.b_mm]), h=np.array([m.h_mm]), d=np.array([m.d_mm]), fc=np.array([m.fc_mpa]),
         fyt=np.array([m.fyt_mpa]), lam=np.array([m["lambda"]]), fy=np.array([m.fy_mpa]),
-        As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]),
-        cover_to_stirrup=settings.detailing.clear_cover_mm, stirrup_db=max(BAR_CATALOGUE[b][0] for b, _ in settings.detailing.ladder))
+        As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]))
     for z in zones.itertuples():
         steps.append(_zone_step(z, st, sec, m))
     worst = int(np.nanargmax(st.utilization.to_numpy()))
+    man = run.manifest()
     steps.append(Step("Self-check", "9.5.1.1, 9.6.3, 9.7.6.2.2", [
-        f"phi*Vn >= Vu at all {len(st)} stations for all {len(cset)} combinations; s <= s_max; Av >= Av,min where required",
+        f"phi*Vn >= Vu at all {len(st)} stations for every combination; every gap between stirrups (and to a face "
+        "or free end) within the spacing the demand allows there; s <= s_max; Av >= Av,min where required",
         f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} mm ({st.governing_case[worst]})"]))
     steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
         f"{r.stirrups_total} sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
@@ -92,12 +101,73 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     return steps
 
 
-def _critical_sections(run: Run, member: str, m, r, settings: Stations) -> Step:
-    f = pq.read_table(run.path / "forces", filters=[("member", "==", member)])
-    cases = sorted(set(f.column("case").to_pylist()))
-    s = stations.Samples.build(np.zeros(f.num_rows, np.int64),
-                               np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),
-                               f.column("x_m").to_numpy() * 1e3, {"V": f.column("V_kN").to_numpy() * 1e3})
+def _combinations(run: Run) -> Step:
+    """The rules the combinations were built by, and every combination with its factors."""
+    table = design_table(run, "combinations")
+    dman = json.loads((run.design_path / "manifest.json").read_text(encoding="utf-8"))
+    rules = dman.get("combination_rules", [])
+    lines = []
+    if run.cases() is None:
+        lines.append("cases taken as already factored combinations (no cases.csv): each one is tried alone")
+    else:
+        lines.append("built from the basic load cases by Table 5.3.1; each variable load may be absent (5.3.2), "
+                     "cases sharing a pattern label are alternatives (6.4), W and E with either sign")
+        lines += [f"rule {rule}" for rule in rules]
+    cases = [c for c in table.columns if c != "combination"]
+    lines.append(f"{len(table)} distinct combinations:")
+    for row in table.itertuples(index=False):
+        terms = " ".join(f"{v:+.2f} {c}" for c, v in zip(cases, row[1:]) if v)
+        lines.append(f"  {row[0]}: {terms}")
+    return Step("Combinations", "5.3.1, 5.3.2, 6.4", lines)
+
+
+def _point_loads(samples, cases: list[str], m, settings: Stations) -> Step:
+    jm, jx = stations.jumps(samples, settings, 1)
+    lines = []
+    same = (samples.case[1:] == samples.case[:-1]) & (samples.x[1:] == samples.x[:-1])
+    dv = np.abs(np.diff(samples.values["V"]))
+    for x in np.unique(jx):
+        here = same & (samples.x[1:] == x)
+        size = dv[here].max() / 1e3
+        case = cases[samples.case[1:][here][np.argmax(dv[here])]]
+        where = "at a support face" if x <= m.face_i_mm or x >= m.length_m * 1e3 - m.face_j_mm else "on the span"
+        lines.append(f"x = {x / 1e3:.3f} m ({where}): a jump of {size:,.1f} kN in case {case}")
+    if not lines:
+        lines.append("none: no two rows at one station differ by more than the tolerance "
+                     f"(max of {settings.point_load_kN:g} kN and {settings.point_load_fraction:g} of the largest |V|)")
+    lines.append(f"rows closer than {settings.tolerance_mm:g} mm are one station")
+    return Step("Concentrated loads", "9.4.3.2(c), 9.9.1.1(b)", lines)
+
+
+def _governing(r) -> Step:
+    if r.governing_case is None or (isinstance(r.governing_case, float) and np.isnan(r.governing_case)):
+        return Step("Governing combination", "", ["none"])
+    return Step("Governing combination", "", [
+        f"{r.governing_case} at x = {_fmt(r.x_governing_mm, 'mm', 0)}: Vu = {_fmt(r.vu_kN, 'kN')}, "
+        f"Nu = {_fmt(r.nu_kN, 'kN')} (compression +), Tu = {_fmt(r.tu_kNm, 'kN*m', 2)}",
+        f"phi*Vc = {_fmt(r.phi_vc_kN, 'kN')} by {r.vc_equation}; utilization {r.utilization:.3f} "
+        "(the larger of Vu/phi*Vn provided and Vu over the section limit; ties go to the larger Vu/phi*Vn)"])
+
+
+def _torsion(st, r, m, settings: Settings) -> Step:
+    t = st[st.torsion]
+    k = t.tu_kNm.idxmax()
+    row = st.loc[k]
+    lines = [f"torsion considered at {len(t)} of {len(st)} stations (Tu >= phi*Tth, 22.7.4.1; web rectangle "
+             "Acp = bw h, equilibrium torsion, not reduced by 22.7.3.2)",
+             f"largest Tu = {_fmt(row.tu_kNm, 'kN*m', 2)} at x = {row.x_mm:,.0f} mm ({row.governing_case})",
+             f"At/s = Tu / (phi 2 (0.85 Aoh) fyt cot 45) = {row.at_s_req:.3f} mm^2/mm per leg (22.7.6.1), Aoh and ph "
+             "of the chosen stirrup bar; closed stirrups (25.7.1.6); s <= min(ph/8, 300 mm) (9.7.6.3.3)",
+             "(Av + 2At)/s >= max(0.062 sqrt(f'c), 0.35) bw/fyt (9.6.4.2), one combined minimum",
+             "cross-sectional limit 22.7.7.1(a) checked with the chosen bar"]
+    if isinstance(r.al_torsion_mm2, (int, float)) and np.isfinite(r.al_torsion_mm2):
+        lines.append(f"longitudinal torsion steel Al = {r.al_torsion_mm2:,.0f} mm^2, the larger of (At/s) ph fyt/fy "
+                     "(22.7.6.1) and Al,min (9.6.4.3); add it to the flexural bars, around the perimeter at "
+                     "most 300 mm apart (9.7.5.1)")
+    return Step("Torsion", "22.7", lines)
+
+
+def _critical_sections(s, m, r, settings: Stations) -> Step:
     _, jx = stations.jumps(s, settings, 1)
     lines = []
     for end, crit, support, vu in (("i", r.crit_i, m.support_i, r.vu_design_i_kN),
@@ -125,7 +195,10 @@ def _critical_sections(run: Run, member: str, m, r, settings: Stations) -> Step:
 
 def _zone_step(z, st, sec: design.Section, m) -> Step:
     sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
-    title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} mm"
+    if not len(sub):  # a lone stirrup between stations: the stations next to it
+        sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]
+    what = f"{z.count} x {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} mm" if z.count > 1 else "")
+    title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} mm, {what if z.count else 'no stirrups'}"
     if not z.count:
         return Step(title, "9.6.3.1", ["no stirrups: Vu <= the Av,min threshold and phi*Vc throughout"])
     k = sub.utilization.idxmax()
@@ -133,29 +206,30 @@ def _zone_step(z, st, sec: design.Section, m) -> Step:
     vu, nu, tu = row.vu_kN * 1e3, row.nu_kN * 1e3, row.tu_kNm * 1e6
     b, d, fc = sec.b[0], sec.d[0], sec.fc[0]
     area = BAR_CATALOGUE[z.bar][1]
-    av_s_prov = z.legs * area / z.spacing_mm
+    s = row.spacing_mm  # the actual gap between the stirrups around the station
+    av_s_prov = z.legs * area / s
     has_min = av_s_prov >= float(aci.av_min_over_s(fc, b, sec.fyt[0]))
     if has_min:
         vc = float(aci.vc_with_min_stirrups(fc, b, d, nu, sec.Ag[0], sec.lam[0], sec.rho_w[0]))
-        eq = "(a)/(b), Av >= Av,min"
     else:
         rho = sec.rho_w[0] if np.isfinite(sec.rho_w[0]) else sec.rho_w_min[0]
         vc = float(aci.vc_without_min_stirrups(fc, b, d, nu, sec.Ag[0], rho, sec.lam[0]))
-        eq = f"(c), Av < Av,min, lambda_s = {float(aci.size_effect_factor(d)):.3f}"
+    eq = row.vc_equation + (", Av >= Av,min" if has_min else
+                            f", Av < Av,min, lambda_s = {float(aci.size_effect_factor(d)):.3f}")
     vs_req = max(vu / aci.PHI_SHEAR - vc, 0.0)
     vs_prov = min(float(aci.vs_from_av_over_s(av_s_prov, sec.fyt[0], d)), float(aci.vs_max(fc, b, d)))
     heavy = vs_req > 0.33 * float(aci.sqrt_fc(fc)) * b * d
     lines = [
         f"governing station x = {row.x_mm:,.0f} mm, combination {row.governing_case}",
-        f"Vu = {_fmt(vu / 1e3, 'kN')}, Nu = {_fmt(nu / 1e3, 'kN')} (compression +), Tu = {_fmt(tu / 1e6, 'kNm', 2)}",
-        f"Vc = {_fmt(vc / 1e3, 'kN')} by Table 22.5.5.1 {eq}; phi*Vc = {_fmt(0.75 * vc / 1e3, 'kN')} (21.2.1)",
+        f"Vu = {_fmt(vu / 1e3, 'kN')}, Nu = {_fmt(nu / 1e3, 'kN')} (compression +), Tu = {_fmt(tu / 1e6, 'kN*m', 2)}",
+        f"Vc = {_fmt(vc / 1e3, 'kN')} by Table {eq}; phi*Vc = {_fmt(0.75 * vc / 1e3, 'kN')} (21.2.1)",
         f"Vs required = Vu/phi - Vc = {_fmt(vs_req / 1e3, 'kN')}; Av/s required = {row.av_s_req:.3f} mm^2/mm "
-        f"(22.5.8.5.3, with Av,min/s = {row.av_min_s:.3f} where required by 9.6.3.1: "
-        f"{'yes' if row.avmin_required else 'no'})",
-        f"provided {z.count} x {z.bar} ({area:g} mm^2) x {z.legs} legs @ {z.spacing_mm:g} mm: Av/s = {av_s_prov:.3f} mm^2/mm,"
-        f" Vs = {_fmt(vs_prov / 1e3, 'kN')}",
+        f"(22.5.8.5.3); Av,min/s = {row.av_min_s:.3f} required here by 9.6.3.1: "
+        f"{'yes' if row.avmin_required else 'no'}",
+        f"provided {z.bar} ({area:g} mm^2) x {z.legs} legs, the stirrups around x {s:g} mm apart: "
+        f"Av/s = {av_s_prov:.3f} mm^2/mm, Vs = {_fmt(vs_prov / 1e3, 'kN')}",
         f"s_max = {row.s_max_mm:g} mm (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} 0.33 sqrt(f'c) bw d"
-        + (", torsion 9.7.6.3.3" if row.torsion else "") + ")",
+        + (", torsion 9.7.6.3.3" if row.torsion else "") + f"); allowed here {row.s_allowed_mm:g} mm",
         f"phi*Vn = {_fmt(0.75 * (vc + vs_prov) / 1e3, 'kN')} >= Vu; utilization {row.utilization:.3f}",
     ]
     if row.torsion:

@@ -1,10 +1,13 @@
-"""A straightforward per-member implementation of the same design, for the benchmark.
+"""A straightforward per-member implementation of the same design, for the benchmark and
+the tests.
 
-One member at a time, one station at a time, one combination at a time, in plain
-Python over pandas rows; the code provisions are the same functions as the engine's
-(called on scalars) and the zone layout is the same per-member routine. Its only
-purposes are to check the vectorised engine on a sample of members and to measure
-what vectorisation buys.
+One member at a time, one station at a time, and every combination listed one by one
+(``ComboSet.explicit``: the brute-force enumeration of loads absent and patterns that
+the engine avoids), in plain Python over pandas rows; the code provisions are the same
+functions as the engine's (called on scalars) and the stirrup set-out is the same
+per-member routine. Its purposes are to check the vectorised engine -- its exact
+envelope of combinations above all -- on a sample of members, and to measure what
+vectorisation buys.
 """
 
 from __future__ import annotations
@@ -15,7 +18,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from postproc import detailing
+from postproc import design, detailing
 from postproc.codes import aci318_19 as aci
 from postproc.settings import BAR_CATALOGUE, Settings
 from postproc.stations import BEARING
@@ -42,9 +45,29 @@ def _value(xs: list[float], vs: list[float], x: float, right: bool) -> float:
     return vs[lo] * (1.0 - t) + vs[hi] * t
 
 
+def _snap(xs: list[float], tol: float) -> list[float]:
+    """Rows closer than the station tolerance are one station, at the first row's x."""
+    out = []
+    for k, x in enumerate(xs):
+        out.append(out[-1] if k and x - xs[k - 1] < tol else x)
+    return out
+
+
+def _combo_values(V, N, T, names, factors):
+    """Every combination's (|V|, Nu compression positive, |T|)."""
+    out = []
+    for name, row in zip(names, factors):
+        v = sum(f * p for f, p in zip(row, V))
+        n = sum(f * p for f, p in zip(row, N))
+        t = sum(f * p for f, p in zip(row, T))
+        out.append((name, abs(v), -n, abs(t)))
+    return out
+
+
 def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], factors: np.ndarray,
-                  cases: list[str], settings: Settings) -> tuple[dict, list[dict]]:
-    """The members.csv row and zones.csv rows of one beam supported at both or one end."""
+                  cases: list[str], settings: Settings) -> tuple[dict, list[dict], set[str]]:
+    """The members.csv row and zones.csv rows of one beam supported at both or one end,
+    and the names of every combination that ties for its utilization."""
     st, dt = settings.stations, settings.detailing
     L = m.length_m * 1000.0
     a, b = m.face_i_mm, L - m.face_j_mm
@@ -55,7 +78,7 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     jumps = []
     for case in cases:
         rows = forces[forces.case == case].sort_values("x_m", kind="stable")
-        xs = [x * 1000.0 for x in rows.x_m]
+        xs = _snap([x * 1000.0 for x in rows.x_m], st.tolerance_mm)
         series[case] = (xs, [v * 1e3 for v in rows.V_kN], [v * 1e3 for v in rows.N_kN], [v * 1e6 for v in rows.T_kNm])
         vmax = max([vmax] + [abs(v) for v in series[case][1]])
     for case in cases:
@@ -83,83 +106,119 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     crit_i = "free" if free_i else ("d" if use_i else "face")
     crit_j = "free" if free_j else ("d" if use_j else "face")
 
-    def forces_at(x: float, right: bool) -> list[tuple[float, float, float]]:
-        per_case = [[_value(s[0], s[q], x, right) if s[0] else 0.0 for q in (1, 2, 3)] for s in
-                    (series[c] for c in cases)]
-        out = []
-        for row in factors:
-            V = sum(f * p[0] for f, p in zip(row, per_case))
-            N = sum(f * p[1] for f, p in zip(row, per_case))
-            T = sum(f * p[2] for f, p in zip(row, per_case))
-            out.append((abs(V), -N, abs(T)))
-        return out
-
     rho = m.as_tension_mm2 / (bw * d) if np.isfinite(m.as_tension_mm2) else float("nan")
     rho_c = rho if np.isfinite(rho) else float(aci.rho_w_lower_bound(fc, m.fy_mpa))
     Ag = bw * h + ((m.bf_mm - bw) * m.hf_mm if np.isfinite(m.bf_mm) else 0.0)
     exempt = bool(aci.av_min_exempt(h, bw, m.hf_mm if np.isfinite(m.hf_mm) else None))
     av_min = float(aci.av_min_over_s(fc, bw, fyt))
     sfc = float(aci.sqrt_fc(fc))
-    x1 = max(bw - 2 * dt.clear_cover_mm - max(BAR_CATALOGUE[bb][0] for bb, _ in dt.ladder), 1.0)
-    y1 = max(h - 2 * dt.clear_cover_mm - max(BAR_CATALOGUE[bb][0] for bb, _ in dt.ladder), 1.0)
-    Aoh, ph = x1 * y1, 2 * (x1 + y1)
+    Acp, pcp = bw * h, 2 * (bw + h)
 
-    xc, av_env, at_env, s_max, across, avmin_any, ratio_max, vu_env = [], [], [], [], [], [], 0.0, []
+    # every station, every combination
+    stations = []  # (x from face i, side, [per combination: dict])
     for x, side in grid:
         src = x
         if use_i and x < a + d:
             src = a + d
         if use_j and x > b - d:
             src = b - d
-        combos = forces_at(src, side == 1 or src != x)
-        best_av, best_at, heavy, need_min, tors = 0.0, 0.0, False, False, False
-        for Vu, Nu, Tu in combos:
+        right = side == 1 or src != x
+        per_case = [[_value(s[0], s[q], src, right) if s[0] else 0.0 for s in (series[c] for c in cases)]
+                    for q in (1, 2, 3)]
+        combos = []
+        for name, Vu, Nu, Tu in _combo_values(*per_case, combo_names, factors):
             vc_hi = float(aci.vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam, rho))
             vc_lo = float(aci.vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_c, lam))
-            t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, bw * h, 2 * (bw + h), Nu, Ag, lam))
+            t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, Acp, pcp, Nu, Ag, lam))
             req = (Vu > PHI * vc_lo) if exempt else (Vu > float(aci.av_min_threshold(fc, bw, d, lam)))
             req = req or t_on
-            q_hi = max(max(Vu / PHI - vc_hi, 0.0) / (fyt * d), av_min)
+            q_hi = max(Vu / PHI - vc_hi, 0.0) / (fyt * d)
             q_lo = max(Vu / PHI - vc_lo, 0.0) / (fyt * d)
-            av = q_hi if req else min(q_lo, q_hi)
-            at = float(aci.at_over_s(Tu, Aoh, fyt)) if t_on else 0.0
-            best_av, best_at = max(best_av, av), max(best_at, at)
-            heavy = heavy or (Vu / PHI - vc_hi) > 0.33 * sfc * bw * d
-            need_min, tors = need_min or req, tors or t_on
-            limit = PHI * (vc_hi + 0.66 * sfc * bw * d)
-            r = float(aci.torsion_section_ok(Vu, Tu, vc_hi, fc, bw, d, Aoh, ph)) if t_on else Vu / limit
-            ratio_max = max(ratio_max, r)
-        along = min(d / 4, 300.0) if heavy else min(d / 2, 600.0)
-        if tors:
-            along = min(along, ph / 8, 300.0)
-        xc.append(x - a)
-        av_env.append(best_av)
-        at_env.append(best_at)
-        s_max.append(along)
-        across.append(min(d / 2, 300.0) if heavy else min(d, 600.0))
-        avmin_any.append(need_min)
-        vu_env.append(max(c[0] for c in combos))
+            av = q_hi if req else min(q_lo, max(q_hi, av_min))
+            combos.append(dict(name=name, vu=Vu, nu=Nu, tu=Tu, vc_hi=vc_hi, vc_lo=vc_lo, torsion=t_on, minimum=req,
+                               av=av, ata=float(aci.at_over_s(Tu, 1.0, fyt)) if t_on else 0.0,
+                               heavy=(Vu / PHI - vc_hi) > 0.33 * sfc * bw * d,
+                               ratio=Vu / (PHI * (vc_hi + 0.66 * sfc * bw * d))))
+        stations.append((x - a, side, combos))
 
+    vu_env = [max(c["vu"] for c in cs) for _, _, cs in stations]
     row = {"member": m.member, "crit_i": crit_i, "crit_j": crit_j,
            "vu_design_i_kN": round(vu_env[0] / 1e3, 2), "vu_design_j_kN": round(vu_env[-1] / 1e3, 2)}
     ln = b - a
     cantilever = free_i or free_j
-    if (ln <= 4 * h and not cantilever) or (cantilever and ln < d):
-        return {**row, "status": "deep-beam"}, []
+    deep = (ln <= 4 * h and not cantilever) or (cantilever and ln < d)
     deep_b = any(a < x <= a + 2 * h for x in jumps) and m.support_i in BEARING and top
     deep_b = deep_b or (any(b - 2 * h <= x < b for x in jumps) and m.support_j in BEARING and top)
-    if deep_b and not cantilever:
-        return {**row, "status": "deep-beam"}, []
-    if ratio_max > 1.0:
-        return {**row, "status": "resize"}, []
-    here = np.array(avmin_any) | (np.array(av_env) > 0) | (np.array(at_env) > 0) | dt.stirrups_throughout
-    s_across = float(np.array(across)[here].min()) if here.any() else np.inf
-    lay = detailing.layout_member(np.array(xc), ln, np.array(av_env), np.array(at_env), np.array(s_max), s_across,
-                                  here, float(bw), free_i, free_j, dt)
-    if isinstance(lay, str):
-        return {**row, "status": "resize"}, []
+    if deep or (deep_b and not cantilever):
+        return {**row, "status": "deep-beam"}, [], set()
+    if max(c["ratio"] for _, _, cs in stations for c in cs) > 1.0:
+        return {**row, "status": "resize"}, [], set()
+
+    torsion = [any(c["torsion"] for c in cs) for _, _, cs in stations]
+    minimum = [any(c["minimum"] for c in cs) for _, _, cs in stations]
+    heavy = [any(c["heavy"] for c in cs) for _, _, cs in stations]
+    needed = [mn or any(c["av"] > 0 or c["ata"] > 0 for c in cs) for mn, (_, _, cs) in zip(minimum, stations)]
+    here = [nd or dt.stirrups_throughout for nd in needed]
+    s_max = [min(d / 4, 300.0) if hv else min(d / 2, 600.0) for hv in heavy]
+    across = [min(d / 2, 300.0) if hv else min(d, 600.0) for hv in heavy]
+    s_across = min([a_ for a_, hr in zip(across, here) if hr], default=math.inf)
+    x_clear = np.array([x for x, _, _ in stations])
+
+    chosen = None
+    for bar, base_legs in dt.ladder:
+        db, area = BAR_CATALOGUE[bar]
+        legs = max(base_legs, detailing.legs_for_width(bw, dt.clear_cover_mm, db, s_across)) \
+            if math.isfinite(s_across) else base_legs
+        Aoh, ph = (float(v) for v in design.torsion_geometry(bw, h, dt.clear_cover_mm, db))
+        allowed = []
+        for k, (_, _, cs) in enumerate(stations):
+            need = max(c["av"] / legs + c["ata"] / Aoh for c in cs)
+            s = area / need if need > 0 else math.inf
+            if minimum[k]:
+                s = min(s, legs * area / av_min)
+            smax = min(s_max[k], ph / 8, 300.0) if torsion[k] else s_max[k]
+            s = min(s, smax) if (here[k] or need > 0) else math.inf
+            allowed.append(math.floor(s / dt.spacing_module_mm + 1e-9) * dt.spacing_module_mm
+                           if math.isfinite(s) else s)
+        t_ok = all(float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph)) <= 1.0
+                   for _, _, cs in stations for c in cs if c["torsion"])
+        if min(allowed) >= dt.min_spacing_mm and t_ok:
+            chosen = (bar, legs, area, Aoh, ph, allowed)
+            break
+    if chosen is None:
+        return {**row, "status": "resize"}, [], set()
+    bar, legs, area, Aoh, ph, allowed = chosen
+    got = detailing.layout_positions(x_clear, np.array(allowed), ln, free_i, free_j, dt)
+    if isinstance(got, str):
+        return {**row, "status": "resize"}, [], set()
+    positions, empty, _ = got
+
+    # the self-check at every station against every combination, and the governing one
+    best, winners = (-1.0, -1.0), set()
+    for k, (x, side, cs) in enumerate(stations):
+        partner = k > 0 and stations[k - 1][0] == x and stations[k - 1][1] == 0 and side == 1
+        rule = -1 if side == 0 else (1 if partner else 0)
+        s = float(detailing.provided_spacing(positions, np.array([x]), ln, np.array([rule], np.int8))[0])
+        av_s = legs * area / s if math.isfinite(s) else 0.0
+        has_min = av_s >= av_min * (1 - 1e-9)
+        for c in cs:
+            vc = c["vc_hi"] if has_min else c["vc_lo"]
+            phi_vn = PHI * (vc + min(av_s * fyt * d, 0.66 * sfc * bw * d))
+            u = c["vu"] / phi_vn if c["vu"] > 0 else 0.0
+            if c["torsion"]:
+                leg = area / s if math.isfinite(s) else 0.0
+                need = max(c["vu"] / PHI - vc, 0.0) / (fyt * d) / legs + c["ata"] / Aoh
+                u = max(u, need / leg if leg > 0 else math.inf,
+                        float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph)))
+            total = max(u, c["ratio"])
+            key = (round(total, 12), round(c["vu"] / phi_vn if phi_vn > 0 else 0.0, 12))
+            if key > best:
+                best, winners = key, {c["name"]}
+            elif key == best:
+                winners.add(c["name"])
     zones = [{"member": m.member, "zone": k, "start_mm": round(z.start, 1), "end_mm": round(z.end, 1),
-              "bar": lay.bar if z.count else "", "legs": lay.legs if z.count else 0,
-              "spacing_mm": z.spacing if np.isfinite(z.spacing) else None, "count": z.count}
-             for k, z in enumerate(lay.zones, start=1)]
-    return {**row, "status": "designed", "stirrups_total": lay.count}, zones
+              "bar": bar if z.count else "", "legs": legs if z.count else 0,
+              "spacing_mm": round(z.spacing, 1) if np.isfinite(z.spacing) else None, "count": z.count}
+             for k, z in enumerate(detailing.zones_from_positions(positions, ln, empty), start=1)]
+    return ({**row, "status": "designed", "stirrups_total": len(positions), "utilization": round(best[0], 3)},
+            zones, winners)

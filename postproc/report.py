@@ -44,7 +44,7 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
         "output": None if out_dir is None else str(out_dir),
         "members": int(len(m)),
         "status": counts,
-        "combinations": {"count": len(result.combos.names),
+        "combinations": {"count": result.combos.distinct_count,
                          "source": "cases taken as already factored combinations (no cases.csv)"
                          if result.combos.prefactored else "ACI 318-19 Table 5.3.1 from basic load cases"},
         "governing": [

@@ -60,19 +60,16 @@ def _signature(section: pd.Series, zones: pd.DataFrame) -> str:
     return json.dumps([sec, lay])
 
 
-def _satisfies(zones: pd.DataFrame, st: pd.DataFrame) -> bool:
-    """Does a layout meet a member's stored demand at every station? Provided Av/s against
-    the largest required over combinations (Av/s and, per leg, At/s), s_max, Av,min."""
-    starts, ends = zones.start_mm.to_numpy(float), zones.end_mm.to_numpy(float)
-    sp = zones.spacing_mm.to_numpy(float)
-    sp = np.where(np.isnan(sp), np.inf, sp)
-    lay = detailing.Layout(zones.bar.iloc[0], int(zones.legs.max()),
-                           [detailing.Zone(a, b, s) for a, b, s in zip(starts, ends, sp)])
-    x = st.x_mm.to_numpy(float)
-    s = detailing.provided_spacing(lay, x)
+def _satisfies(zones: pd.DataFrame, positions: np.ndarray, st: pd.DataFrame, clear_span: float) -> bool:
+    """Does a layout (its zones and stirrup positions) meet a member's stored demand at every
+    station? The gap around each station against the largest Av/s and, per leg, At/s over
+    the combinations, s_max and Av,min (conservative: the envelopes of separate combinations)."""
     bar = next((b for b in zones.bar if b), None)
     area = BAR_CATALOGUE[bar][1] if bar else 0.0
-    legs = lay.legs
+    legs = int(zones.legs.max())
+    x = st.x_mm.to_numpy(float)
+    sides = detailing.jump_sides(np.zeros(len(x), int), x, st.side.to_numpy())
+    s = detailing.provided_spacing(positions, x, clear_span, sides)
     with np.errstate(divide="ignore"):
         per_leg = np.where(np.isfinite(s), area / s, 0.0)
     need = st.av_s_env.to_numpy() / max(legs, 1) + st.at_s_env.to_numpy()
@@ -92,17 +89,23 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
     layout_of = {m: m for m in designed}  # member -> member whose layout it is built with
 
     if envelope:
-        st = design_table(run, "stations")
+        st = design_table(run, "stations").sort_values(["member", "x_mm", "side"], kind="stable")
         st_map = {m: g for m, g in st[st.member.isin(designed)].groupby("member")}
-        span = (inputs.length_m * 1000 - inputs.face_i_mm - inputs.face_j_mm).round(0)
+        pos = design_table(run, "stirrups")
+        pos_map = {m: np.sort(g.x_mm.to_numpy(float)) for m, g in pos.groupby("member")}
+        torsion = set(st.member[st.torsion])
+        clear = inputs.length_m * 1000 - inputs.face_i_mm - inputs.face_j_mm
+        span = clear.round(0)
         info = inputs.loc[designed].assign(span=span.loc[designed])
         for _, grp in info.groupby(["group", *SECTION_KEYS, "span"], dropna=False):
             names = list(grp.index)
             if len(names) < 2:
                 continue
             order = sorted(names, key=lambda m: (-res.stirrups_total[m], m))  # most demanding first
+            same_bar = lambda c, m: m not in torsion or zmap[c].bar.iloc[0] == zmap[m].bar.iloc[0]
             for cand in order:
-                if all(_satisfies(zmap[cand], st_map[m]) for m in names):
+                if all(same_bar(cand, m) and _satisfies(zmap[cand], pos_map.get(cand, np.empty(0)), st_map[m],
+                                                        float(clear[m])) for m in names):
                     for m in names:
                         layout_of[m] = cand
                     break

@@ -8,6 +8,8 @@
     steps_per_d = 8                 # ... and at most d/8 apart
     point_load_kN = 1.0             # a jump in V larger than this and than
     point_load_fraction = 0.02      # this fraction of the member's largest |V| is a concentrated load
+    tolerance_mm = 1.0              # rows of one member and case closer than this are one station
+    steep_slope_kN_per_m = 2000.0   # a steeper change of V between rows is warned about (a spread load?)
 
     [detailing]
     ladder = [["#10", 2], ["#13", 2], ["#10", 4], ["#13", 4], ["#16", 4]]
@@ -56,6 +58,8 @@ class Stations:
     steps_per_d: float = 8.0
     point_load_kN: float = 1.0
     point_load_fraction: float = 0.02
+    tolerance_mm: float = 1.0
+    steep_slope_kN_per_m: float = 2000.0
 
 
 @dataclass(frozen=True)

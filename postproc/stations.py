@@ -54,11 +54,20 @@ class Samples:
     values: dict[str, np.ndarray]  # V, N (N), T, M (N*mm)
 
     @staticmethod
-    def build(member, case, x, values) -> Samples:
-        if _is_sorted(member, case, x):  # the store keeps forces in this order already
-            return Samples(member, case, x, values)
-        order = np.lexsort((x, case, member))  # stable: jump rows keep their file order
-        return Samples(member[order], case[order], x[order], {k: v[order] for k, v in values.items()})
+    def build(member, case, x, values, tolerance_mm: float = 0.0) -> Samples:
+        """Rows sorted by (member, case, x), file order kept within a station; rows of one
+        member and case closer than ``tolerance_mm`` are one station (at the first row's x),
+        so that two of them are a jump whatever rounding the export did."""
+        if not _is_sorted(member, case, x):  # the store keeps forces in this order already
+            order = np.lexsort((x, case, member))  # stable: jump rows keep their file order
+            member, case, x = member[order], case[order], x[order]
+            values = {k: v[order] for k, v in values.items()}
+        if tolerance_mm > 0 and len(x) > 1:
+            close = (member[1:] == member[:-1]) & (case[1:] == case[:-1]) & (np.diff(x) < tolerance_mm)
+            if close.any():
+                start = np.concatenate([[True], ~close])
+                x = x[start][np.cumsum(start) - 1]
+        return Samples(member, case, x, values)
 
 
 def _is_sorted(member, case, x) -> bool:
@@ -96,6 +105,24 @@ def jumps(s: Samples, settings: Stations, n_members: int, key: str = "V") -> tup
     tol = np.maximum(settings.point_load_kN * unit, settings.point_load_fraction * vmax[s.member[1:]])
     hit = same & (size > tol)
     return s.member[1:][hit], s.x[1:][hit]
+
+
+def steep_slopes(s: Samples, settings: Stations, n_members: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Neighbouring rows of one member and case whose shear changes faster than
+    ``settings.steep_slope_kN_per_m`` by more than the concentrated-load tolerance: a
+    concentrated load the export spread over a short length. Returns (member, case, x
+    at the start, change in V (N)) of each, for warnings; the design takes the rows as
+    given (a linear change between them)."""
+    same = (s.member[1:] == s.member[:-1]) & (s.case[1:] == s.case[:-1]) & (s.x[1:] > s.x[:-1])
+    v = s.values["V"]
+    vmax = np.zeros(n_members)
+    np.maximum.at(vmax, s.member, np.abs(v))
+    dv = v[1:] - v[:-1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.abs(dv) / (s.x[1:] - s.x[:-1])  # N/mm = kN/m
+    tol = np.maximum(settings.point_load_kN * 1e3, settings.point_load_fraction * vmax[s.member[1:]])
+    hit = same & (slope > settings.steep_slope_kN_per_m) & (np.abs(dv) > tol)
+    return s.member[1:][hit], s.case[1:][hit], s.x[:-1][hit], dv[hit]
 
 
 def build_grid(g: Geometry, s: Samples, settings: Stations) -> Grid:

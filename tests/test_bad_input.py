@@ -63,7 +63,7 @@ CASES = [
     ("members", members_text(lambda df: df.loc.__setitem__((1, "member"), "B1")), 3, "member", "listed twice"),
     ("forces", forces_text(lambda df: df.assign(x_m=df.x_m.where(df.index != 3, 6.5))), 5, "x_m", "beyond the member length"),
     ("forces", forces_text(lambda df: df.assign(x_m=df.x_m.where(df.index != 0, -0.1))), 2, "x_m", "x_m < 0"),
-    ("forces", forces_text(lambda df: pd.concat([df, df.iloc[[2]]]).reset_index(drop=True)), 12, "member", "duplicate row"),
+    ("forces", forces_text(lambda df: pd.concat([df, df.iloc[[2, 2]]]).reset_index(drop=True)), 13, "x_m", "a third row"),
     ("forces", forces_text(lambda df: df.drop(columns="V_kN")), 1, "V_kN", "required column is missing"),
     ("forces", forces_text(None) + "B1,U,2.5,10,99\n", 12, None, "expected 4 fields"),
     ("forces", forces_text(lambda df: df.assign(V_kN=df.V_kN.astype(object).where(df.index != 4, "twelve"))), 6, "V_kN", "not a number"),

@@ -1,8 +1,15 @@
-"""Load combinations of ACI 318-19 Table 5.3.1 from typed basic cases."""
+"""Load combinations: ACI 318-19 Table 5.3.1 with loads absent (5.3.2) and live-load
+patterns as alternatives (6.4); the exact envelope against brute-force enumeration."""
+
+import itertools
+from types import SimpleNamespace
 
 import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as hs
 
-from postproc.combos import aci_5_3_1, prefactored
+from postproc import design
+from postproc.combos import aci_5_3_1, candidates, prefactored
 from postproc.settings import Combinations
 
 CASES = ["D", "L", "Lr", "Wx", "Ex"]
@@ -10,33 +17,74 @@ TYPES = {"D": "D", "L": "L", "Lr": "Lr", "Wx": "W", "Ex": "E"}
 
 
 def factors(cs):
-    return {tuple(np.round(row, 6)) for row in cs.factors}
+    return {tuple(float(v) for v in np.round(row, 6)) for row in cs.factors}
 
 
-def test_table_5_3_1_combinations_with_both_signs_of_w_and_e():
+def table_5_3_1_by_hand(l_factor=1.0):
+    """Every combination of Table 5.3.1 for the cases D, L, Lr, Wx, Ex, each variable load
+    present or absent (5.3.2), W and E with either sign (columns D, L, Lr, Wx, Ex)."""
+    out = set()
+    on = (0, 1)
+    sign = (0, 1, -1)
+    out.add((1.4, 0, 0, 0, 0))  # (a) 1.4D
+    for l, r in itertools.product(on, on):
+        out.add((1.2, 1.6 * l, 0.5 * r, 0, 0))  # (b) 1.2D + 1.6L + 0.5Lr
+    for r, l in itertools.product(on, on):
+        out.add((1.2, l_factor * l, 1.6 * r, 0, 0))  # (c) 1.2D + 1.6Lr + 1.0L
+    for r, w in itertools.product(on, sign):
+        out.add((1.2, 0, 1.6 * r, 0.5 * w, 0))  # (c) 1.2D + 1.6Lr + 0.5W
+    for w, l, r in itertools.product(sign, on, on):
+        out.add((1.2, l_factor * l, 0.5 * r, 1.0 * w, 0))  # (d) 1.2D + 1.0W + 1.0L + 0.5Lr
+    for e, l in itertools.product(sign, on):
+        out.add((1.2, l_factor * l, 0, 0, 1.0 * e))  # (e) 1.2D + 1.0E + 1.0L + 0.2S (no S)
+    for w in sign:
+        out.add((0.9, 0, 0, 1.0 * w, 0))  # (f) 0.9D + 1.0W
+    for e in sign:
+        out.add((0.9, 0, 0, 0, 1.0 * e))  # (g) 0.9D + 1.0E
+    return {tuple(float(round(v, 6)) + 0.0 for v in row) for row in out}
+
+
+def test_table_5_3_1_with_loads_absent_and_both_signs_of_w_and_e():
     cs = aci_5_3_1(TYPES, CASES, Combinations())
-    f = factors(cs)
-    # columns: D, L, Lr, Wx, Ex -- ACI 318-19 Table 5.3.1
-    expected = {
-        (1.4, 0, 0, 0, 0),  # (a) 1.4D
-        (1.2, 1.6, 0.5, 0, 0),  # (b) 1.2D + 1.6L + 0.5Lr
-        (1.2, 1.0, 1.6, 0, 0),  # (c) 1.2D + 1.6Lr + 1.0L
-        (1.2, 0, 1.6, 0.5, 0), (1.2, 0, 1.6, -0.5, 0),  # (c) 1.2D + 1.6Lr + 0.5W
-        (1.2, 1.0, 0.5, 1.0, 0), (1.2, 1.0, 0.5, -1.0, 0),  # (d) 1.2D + 1.0W + 1.0L + 0.5Lr
-        (1.2, 1.0, 0, 0, 1.0), (1.2, 1.0, 0, 0, -1.0),  # (e) 1.2D + 1.0E + 1.0L + 0.2S (no S)
-        (0.9, 0, 0, 1.0, 0), (0.9, 0, 0, -1.0, 0),  # (f) 0.9D + 1.0W
-        (0.9, 0, 0, 0, 1.0), (0.9, 0, 0, 0, -1.0),  # (g) 0.9D + 1.0E
-    }
-    assert f == expected
-    assert len(cs.names) == len(expected) and not cs.prefactored
+    assert factors(cs) == table_5_3_1_by_hand()
+    assert not cs.prefactored and len(cs.names) == len(table_5_3_1_by_hand())
 
 
 def test_reduced_live_load_factor_5_3_3():
     cs = aci_5_3_1(TYPES, CASES, Combinations(reduced_live_factor=True))
-    f = factors(cs)
     # ACI 318-19 5.3.3: L factor 0.5 in (c), (d), (e); (b) keeps 1.6
-    assert (1.2, 0.5, 1.6, 0, 0) in f and (1.2, 0.5, 0.5, 1.0, 0) in f and (1.2, 0.5, 0, 0, -1.0) in f
-    assert (1.2, 1.6, 0.5, 0, 0) in f
+    assert factors(cs) == table_5_3_1_by_hand(l_factor=0.5)
+
+
+def _design_shear(cs, v):
+    """Largest |V| over the exact candidates at one station (v: shear of each case)."""
+    vals = {"V": np.array(v, float)[:, None], "N": np.zeros((len(v), 1)), "T": np.zeros((len(v), 1))}
+    return float(np.abs(candidates(cs, vals).values["V"]).max())
+
+
+def test_a_load_not_acting_governs():
+    # the defect's own numbers: D = +100, L = -30, W = +50 kN at one station. With every load
+    # present the largest is 1.4D = 140 kN; ACI 318-19 5.3.2 (L not acting): 1.2D + 1.0W = 170 kN
+    cs = aci_5_3_1({"D": "D", "L": "L", "W": "W"}, ["D", "L", "W"], Combinations())
+    assert _design_shear(cs, [100.0, -30.0, 50.0]) == pytest.approx(1.2 * 100 + 1.0 * 50)
+
+
+def test_row_c_is_built_without_a_roof_case():
+    # Table 5.3.1(c) 1.2D + 1.6(Lr or S or R) + (1.0L or 0.5W): with no roof case, 1.2D + 0.5W is still tried
+    cs = aci_5_3_1({"D": "D", "W": "W"}, ["D", "W"], Combinations())
+    assert (1.2, 0.5) in factors(cs) and (1.2, -0.5) in factors(cs)
+    assert any(name.startswith("5.3.1c") for name in cs.names)
+
+
+def test_live_load_patterns_are_alternatives():
+    # two arrangements of one live load (span 1 loaded, span 2 loaded): at most one acts (6.4).
+    # Shears at a mid-span station: +690 kN from one pattern, -690 kN from the other; summed they
+    # cancel to 0 kN, as alternatives the design shear is 1.6 x 690 kN (common practice for patterns)
+    cs = aci_5_3_1({"D": "D", "L1": "L", "L2": "L"}, ["D", "L1", "L2"], Combinations(), {"L1": "p", "L2": "p"})
+    assert not any(row[1] and row[2] for row in cs.factors)  # never both
+    assert _design_shear(cs, [0.0, 690.0, -690.0]) == pytest.approx(1.6 * 690.0)
+    unlabelled = aci_5_3_1({"D": "D", "L1": "L", "L2": "L"}, ["D", "L1", "L2"], Combinations())
+    assert any(row[1] and row[2] for row in unlabelled.factors)  # without a pattern label they may act together
 
 
 def test_two_wind_directions_are_alternatives_and_dead_cases_add():
@@ -46,8 +94,69 @@ def test_two_wind_directions_are_alternatives_and_dead_cases_add():
     assert (1.4, 1.4, 0, 0) in f  # both dead cases in (a)
     assert (0.9, 0.9, 1.0, 0) in f and (0.9, 0.9, 0, -1.0) in f
     assert not any(r[2] and r[3] for r in f)  # never Wx and Wy together
+    assert all(r[0] == r[1] and r[0] > 0 for r in f)  # the dead loads always act
 
 
-def test_prefactored_is_identity():
+def test_prefactored_is_one_case_at_a_time():
     cs = prefactored(["ULS1", "ULS2"])
-    assert cs.prefactored and np.array_equal(cs.factors, np.eye(2))
+    assert cs.prefactored and np.array_equal(cs.factors, np.eye(2)) and cs.names == ["ULS1", "ULS2"]
+
+
+# --- the exact envelope: property test against brute-force enumeration ------------------------
+
+TYPE_POOL = ["D", "L", "L", "Lr", "S", "R", "W", "W", "E"]
+
+
+@hs.composite
+def models(draw):
+    n = draw(hs.integers(2, 7))
+    types = ["D"] + [draw(hs.sampled_from(TYPE_POOL)) for _ in range(n - 1)]
+    cases = [f"c{k}" for k in range(n)]
+    patterns = {}
+    for c, t in zip(cases, types):
+        if t in ("L", "Lr", "S", "R") and draw(hs.booleans()):
+            patterns[c] = draw(hs.sampled_from(["p", "q"]))
+    stations = draw(hs.integers(1, 6))
+    scale = hs.floats(-400e3, 400e3, allow_nan=False, allow_infinity=False)
+    grid = lambda: np.array([[draw(scale) for _ in range(stations)] for _ in range(n)])
+    v = grid()
+    nn = grid() * draw(hs.sampled_from([0.0, 0.5, 3.0]))
+    t = grid() * draw(hs.sampled_from([0.0, 200.0]))
+    return dict(zip(cases, types)), cases, patterns, {"V": v, "N": nn, "T": t}
+
+
+def _section(stations: int) -> design.Section:
+    one = lambda v: np.full(stations, float(v))
+    return design.section_from_members(b=one(300), h=one(600), d=one(540), fc=one(30), fyt=one(420), lam=one(1.0),
+                                       fy=one(420), As=one(np.nan), bf=one(np.nan), hf=one(np.nan))
+
+
+@settings(max_examples=150, deadline=None)
+@given(models())
+def test_exact_envelope_equals_brute_force_enumeration(model):
+    """Every quantity the design takes from the combinations, over the candidates, equals
+    the same over every combination listed one by one (brute force)."""
+    types, cases, patterns, vals = model
+    cs = aci_5_3_1(types, cases, Combinations(), patterns)
+    s_count = vals["V"].shape[1]
+    sec = _section(s_count)
+    cand = candidates(cs, vals)
+    exact = design.required(sec, cand)
+    _, C = cs.explicit
+    brute_vals = {q: (C @ v).reshape(-1) for q, v in vals.items()}
+
+    station = np.tile(np.arange(s_count), len(C))  # every combination at every station, as candidates
+    order = np.argsort(station, kind="stable")
+    All = SimpleNamespace(station=station[order], values={q: v[order] for q, v in brute_vals.items()},
+                          bounds=np.searchsorted(station[order], np.arange(s_count + 1)))
+
+    brute = design.required(sec, All)
+    for field in ("vu_max", "av_env", "ata_env", "shear_ratio", "s_max", "s_max_across"):
+        np.testing.assert_allclose(getattr(exact, field), getattr(brute, field), rtol=1e-12, atol=1e-9, err_msg=field)
+    for field in ("minimum", "torsion", "heavy"):
+        assert np.array_equal(getattr(exact, field), getattr(brute, field)), field
+    # the per-leg need with torsion, for two stirrup options
+    for legs, Aoh in ((2.0, 1.2e5), (4.0, 0.9e5)):
+        np.testing.assert_allclose(design.per_leg_need(cand, exact, np.full(s_count, legs), np.full(s_count, Aoh)),
+                                   design.per_leg_need(All, brute, np.full(s_count, legs), np.full(s_count, Aoh)),
+                                   rtol=1e-12, atol=1e-12)

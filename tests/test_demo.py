@@ -50,4 +50,8 @@ def test_secondary_beam_by_hand(demo):
     s = math.floor(min(s_strength, s_max) / 25) * 25  # common practice: 25 mm module
     z = zones[zones.member == "L2-SB-23"]
     assert len(z) == 1 and z.spacing_mm.iloc[0] == s == 250
-    assert z["count"].iloc[0] == math.ceil((8000 - 2 * 50) / s) + 1  # first stirrup 50 mm from each face
+    # set-out (common practice): first stirrup 50 mm from face i, then every s; the last one leaves at most s
+    # (and at least 50 mm) to face j
+    n = math.floor((8000 - 2 * 50) / s) + 1
+    assert 50 <= 8000 - (50 + (n - 1) * s) <= s
+    assert (z["count"].iloc[0], z.start_mm.iloc[0], z.end_mm.iloc[0]) == (n, 50, 50 + (n - 1) * s)

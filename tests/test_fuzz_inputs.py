@@ -561,7 +561,15 @@ def op_duplicate_row(rng, which, k=0):
     layout(rng, doc)
     r = rng.randrange(len(doc.rows))
     doc.rows.insert(r + 1, list(doc.rows[r]))
-    return finish(doc, which, "invalid", r + 1, ["member"], f"row {r} repeated")
+    if which == "members":
+        return finish(doc, which, "invalid", r + 1, ["member"], f"row {r} repeated")
+    # forces: two equal rows at a station are a jump of zero (what chaining elements gives at a
+    # node); a third row at a station that already had two is an error
+    key = [doc.header.index(c) for c in ("member", "case", "x_m")]
+    same = [k for k, row in enumerate(doc.rows) if [row[i] for i in key] == [doc.rows[r][i] for i in key]]
+    if len(same) == 2:
+        return finish(doc, which, "valid", note=f"row {r} repeated: a zero jump")
+    return finish(doc, which, "invalid", same[2], ["x_m"], f"row {r} repeated: a third row at its station")
 
 
 def op_blank_before_header(rng, which, k=0):

@@ -110,9 +110,12 @@ def test_small_frame_ifc_design_equals_csv_design(frame_inputs, tmp_path, schema
         ("d", "d"), ("face", "d"), ("d", "free")]
     # S1 at the girder face, x = 0.15 m: 1.2D + 1.6L (ACI 318-19 Table 5.3.1(b)) of w (L/2 - x)
     assert rows.loc["S1", "vu_design_i_kN"] == pytest.approx((1.2 * 15.0 + 1.6 * 10.0) * (2.5 - 0.15), abs=0.01)
-    # zones run over the clear span between the faces
-    ends = zones.groupby("member").end_mm.max()
-    assert dict(ends) == {"B1": 5600.0, "S1": 4650.0, "K1": 1800.0}
+    # the stirrups fill the clear span between the faces (5600, 4650 and 1800 mm): the first 50 mm
+    # from face i, the last between 50 mm and its zone's spacing from face j or the free end
+    for member, clear in {"B1": 5600.0, "S1": 4650.0, "K1": 1800.0}.items():
+        z = zones[zones.member == member].sort_values("zone")
+        assert z.start_mm.iloc[0] == 50.0
+        assert 50.0 <= clear - z.end_mm.iloc[-1] <= z.spacing_mm.max()
 
 
 def test_demo_ifc_design_equals_csv_design(tmp_path):

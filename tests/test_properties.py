@@ -1,10 +1,11 @@
 """Property-based checks over random members and loads (hypothesis).
 
 Every designed layout must pass the engine's self-check (phi*Vn >= Vu at every station
-for every combination, s <= s_max, Av >= Av,min where required; a failure raises
-SelfCheckError and fails the test), every input member must appear in members.csv,
-and the zones must be constructible: contiguous, on the spacing module, never below
-the minimum spacing.
+for every combination, every gap between stirrups within what the demand allows, s <=
+s_max, Av >= Av,min where required; a failure raises SelfCheckError and fails the
+test), every input member must appear in members.csv, and zones.csv must describe the
+stored stirrups exactly: each zone's count, spacing and extent are the stirrups there,
+on the spacing module, never closer than the minimum spacing.
 """
 
 import tempfile
@@ -55,7 +56,8 @@ def frames(draw):
                 V = lambda x: -w * x - sum(P for a, P in loads if a < x)
             else:
                 V = lambda x: w * (L / 2 - x) + sum(P * (L - a) / L - (P if x > a else 0.0) for a, P in loads)
-            pts = sorted(set(np.round(xs, 6)) - {round(a, 6) for a, _ in loads})
+            # export stations and loads at least the station tolerance (1 mm) apart
+            pts = sorted(x for x in set(np.round(xs, 6)) if all(abs(x - a) > 0.002 for a, _ in loads))
             rows = [(x, V(x)) for x in pts]
             for a, _ in loads:
                 rows += [(round(a, 6), V(a - 1e-9)), (round(a, 6), V(a + 1e-9))]
@@ -78,26 +80,29 @@ def test_random_frames_pass_self_check_and_keep_every_member(frame, throughout, 
     assert res.code in (0, 3) and len(runs) == 1
     assert sorted(res.members.member) == sorted(m["member"] for m in members)
     lengths = {m["member"]: m["length_m"] * 1000 - m["face_i_mm"] - m["face_j_mm"] for m in members}
-    for name, z in res.zones.groupby("member"):
-        z = z.sort_values("zone")
-        assert z.start_mm.iloc[0] == 0.0 and abs(z.end_mm.iloc[-1] - lengths[name]) < 0.2
-        np.testing.assert_allclose(z.start_mm.iloc[1:].to_numpy(), z.end_mm.iloc[:-1].to_numpy(), atol=0.2)
-        sp = z.spacing_mm.dropna()
-        assert (sp >= 75).all() and np.allclose(sp % 25, 0)
-        row = res.members.set_index("member").loc[name]
-        assert row.stirrups_total == z["count"].sum()
     designed = res.members[res.members.status == "designed"]
     assert (designed.utilization <= 1.0 + 1e-9).all()
-    # every stirrup's position, as stored: as many as counted, inside the clear span, and no
-    # gap between neighbours wider than the widest spacing of the member's zones
     for name, row in designed.set_index("member").iterrows():
-        x = np.sort(pos.x_mm[pos.member == name].to_numpy())
-        assert len(x) == row.stirrups_total
-        if len(x):
-            assert x[0] > 0 and x[-1] < lengths[name]
-            spacing = res.zones[res.zones.member == name].spacing_mm
-            if spacing.notna().all():  # a zone without stirrups (omitted where permitted) leaves a wide gap
-                assert np.all(np.diff(x) <= spacing.max() + 0.2)
+        x = np.sort(pos.x_mm[pos.member == name].to_numpy())  # every stirrup, as stored
+        z = res.zones[res.zones.member == name].sort_values("zone")
+        assert len(x) == row.stirrups_total == z["count"].sum()
+        if not len(x):
+            continue
+        assert x[0] > 0 and x[-1] < lengths[name]
+        gaps = np.diff(x)
+        assert (gaps >= 75 - 0.05).all()  # the practical minimum spacing (common practice: 75 mm)
+        # each zone says exactly where its stirrups are: count of them from start to end at spacing
+        for zone in z.itertuples():
+            inside = x[(x >= zone.start_mm - 0.05) & (x <= zone.end_mm + 0.05)]
+            if zone.count == 0:  # no stirrups between the stirrups (or the face) that bound it
+                assert set(inside) <= {zone.start_mm, zone.end_mm}
+                continue
+            assert len(inside) == zone.count and inside[0] == zone.start_mm and inside[-1] == zone.end_mm
+            if zone.count > 1:
+                np.testing.assert_allclose(np.diff(inside), zone.spacing_mm, atol=0.11)
+            if zone.count > 2:
+                assert zone.spacing_mm >= 75 and zone.spacing_mm % 25 == 0  # on the module
+        assert np.all(z.start_mm.to_numpy()[1:] >= z.end_mm.to_numpy()[:-1])  # in order along the member
 
 
 @given(frame=frames(), seed=st.integers(0, 2**31 - 1))

@@ -165,6 +165,18 @@ def torsion_section_ok(Vu, Tu, Vc, fc, bw, d, Aoh, ph):
     return lhs / rhs
 
 
+def al_required(At_s, ph, fyt, fy, fc, Acp, bw):
+    """Longitudinal torsion steel Al, mm^2: the greater of (22.7.6.1(b), theta = 45 deg)
+    (At/s) ph (fyt/fy) and the minimum of 9.6.4.3(a), 0.42 sqrt(f'c) Acp/fy - (At/s) ph (fyt/fy),
+    with At/s there not less than 0.175 bw/fyt (9.6.4.3(b)). fy is limited to 420 MPa
+    (20.2.2.4). Added to the flexural steel (9.5.4.3)."""
+    fy = np.minimum(fy, FYT_MAX_MPA)
+    al = At_s * ph * fyt / fy
+    at_min = np.maximum(At_s, 0.175 * bw / fyt)
+    al_min = 0.42 * np.sqrt(fc) * Acp / fy - at_min * ph * fyt / fy
+    return np.maximum(al, al_min)
+
+
 def combined_min_transverse(fc, bw, fyt):
     """(Av + 2At)/s minimum where torsion is considered: greater of 0.062 sqrt(f'c) bw/fyt and 0.35 bw/fyt (9.6.4.2)."""
     return av_min_over_s(fc, bw, fyt)
