@@ -41,16 +41,19 @@ from postproc.adapters.mapping import ColumnMap, TableMap, unit_factor
 
 QUANTITIES = ("V_kN", "N_kN", "T_kNm", "M_kNm")
 # Section force = factor x export value, at the element's end i and at its end j.
-# End forces acting ON the element at its nodes, local axes x (i to j), y, z = x cross y;
-# ours: V acts +y on the face looking back to node i, N tension positive, T positive
-# as a vector along the outward normal, M sagging (tension on the -y side) with
-# dM/dx = V. From the free body of the element between end i and a section at x
-# (statics; common practice): V(0) = +Fy_i, N(0) = -Fx_i, T(0) = -Mx_i, M(0) = -Mz_i, and
-# between a section and end j: V(L) = -Fy_j, N(L) = +Fx_j, T(L) = +Mx_j, M(L) = +Mz_j.
+# Ours (README, "Sign convention"): on the face of a section that looks back toward node i,
+# V is the force along +y and T the moment about +x (x from node i to node j); N is
+# positive in tension; M is sagging (tension on the -y side), so that dM/dx = V. V and T
+# are thus the sums of the forces along y and the moments about x acting on the part
+# between node i and the section. End forces acting ON an element at its nodes, in its
+# local axes (y, z = x cross y), give by the free body of the element from end i to a
+# section and from a section to end j (statics; common practice):
+#     V(0) = +Fy_i  N(0) = -Fx_i  T(0) = +Mx_i  M(0) = -Mz_i
+#     V(L) = -Fy_j  N(L) = +Fx_j  T(L) = -Mx_j  M(L) = +Mz_j
 # Bending in the x-z plane (V along z, M about y) gives M(0) = +My_i, M(L) = -My_j.
 SIGN_PRESETS = {
-    "end-forces-xy": {"V_kN": (1.0, -1.0), "N_kN": (-1.0, 1.0), "T_kNm": (-1.0, 1.0), "M_kNm": (-1.0, 1.0)},
-    "end-forces-xz": {"V_kN": (1.0, -1.0), "N_kN": (-1.0, 1.0), "T_kNm": (-1.0, 1.0), "M_kNm": (1.0, -1.0)},
+    "end-forces-xy": {"V_kN": (1.0, -1.0), "N_kN": (-1.0, 1.0), "T_kNm": (1.0, -1.0), "M_kNm": (-1.0, 1.0)},
+    "end-forces-xz": {"V_kN": (1.0, -1.0), "N_kN": (-1.0, 1.0), "T_kNm": (1.0, -1.0), "M_kNm": (1.0, -1.0)},
     "section": {q: (1.0, 1.0) for q in QUANTITIES},
 }
 # Of the section forces, only V and M can change sign on an element drawn against its
@@ -58,6 +61,7 @@ SIGN_PRESETS = {
 MAY_FLIP = ("V_kN", "M_kNm")
 KEYS = ("element", "station", "sign", "reversed_flip", "tolerance_mm", "chain", "node_i", "node_j", "node",
         "nodes", "members")
+DIGITS = 9  # member stations rounded to the nanometre: the sums of element lengths carry float noise
 FILE_BITS = 40  # the file's data row in the low bits of _row (up to 1.1e12 rows)
 FILE_MASK = (1 << FILE_BITS) - 1
 AT_START, INSIDE, AT_END = 0, 1, 2  # where a row lies on its element, in the member's direction
@@ -501,8 +505,18 @@ class ElementForcesReader:
             off = np.flatnonzero(np.abs(own_station - length) > el.tol_m)
             self._fail(first_row[order][off], "_station",
                        [f"element '{chain_elem[k]}': its last station is {own_station[k]:g} m, its length "
-                        f"{length[k]:g} m" for k in off[:MAX_REPORTED]])
+                        f"{length[k]:g} m" + (" (is the row at its end j missing?)" if own_station[k] < length[k] else "")
+                        for k in off[:MAX_REPORTED]])
+        if own_station is not None:
+            low = facts.column("_station_min").to_numpy()[order]
+            off = np.flatnonzero(low < -el.tol_m)
+            self._fail(first_row[order][off], "_station",
+                       [f"element '{chain_elem[k]}': a station {low[k]:g} m before its end i" for k in off[:MAX_REPORTED]])
         short = np.flatnonzero(~(length > 2 * el.tol_m))
+        if len(short) and length is own_station:
+            self._fail(first_row[order][short], "_station",
+                       [f"element '{chain_elem[k]}': its largest station is {length[k] * 1e3:g} mm: is the row at its "
+                        "end j missing? (its length is taken from its stations)" for k in short[:MAX_REPORTED]])
         if len(short):
             raise _errors(src.path, src.rows[short], src.column,
                           [f"element '{chain_elem[k]}' is {length[k] * 1e3:g} mm long, not more than twice the "
@@ -534,6 +548,7 @@ class ElementForcesReader:
             scale = np.repeat(exact / total, count)
             start_m, end_m = start_m * scale, end_m * scale
             end_m[last] = exact
+        start_m, end_m = np.round(start_m, DIGITS), np.round(end_m, DIGITS)
         start_m[starts] = 0.0
         start_m[1:][same_next[:-1]] = end_m[:-1][same_next[:-1]]  # one x for both rows at a node, exactly
         self.warnings.append(f"forces chained from {n_el} elements into {len(starts)} members of the element "
@@ -767,12 +782,8 @@ class ElementForcesReader:
                                                 for v in flag.filter(pa.array(neither)).to_pylist()[:MAX_REPORTED]])
                 xl = np.where(is_j, le, 0.0)
             else:
-                xl = t.column("_station").to_numpy()
+                xl = t.column("_station").to_numpy()  # within the element (layout)
                 is_i, is_j = xl <= el.tol_m, xl >= le - el.tol_m
-                probs.add(xl < -el.tol_m, "_station", "station before the element's end i")
-                beyond = xl > le + el.tol_m
-                probs.add(beyond, "_station", [f"station {xl[r]:g} m lies beyond the element's length {le[r]:g} m"
-                                               for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
                 if el.sign_name != "section":
                     probs.add(~(is_i | is_j), "_station",
                               f"a row inside the element, where the per-end sign rule '{el.sign_name}' says nothing: "
@@ -782,7 +793,7 @@ class ElementForcesReader:
             at_start, at_end = np.where(rev, is_j, is_i), np.where(rev, is_i, is_j)
             x0, x1 = lay.start_m[k], lay.end_m[k]
             along = np.clip(xl, 0.0, le) * (x1 - x0) / le
-            x = np.where(at_start, x0, np.where(at_end, x1, np.where(rev, x1 - along, x0 + along)))
+            x = np.where(at_start, x0, np.where(at_end, x1, np.round(np.where(rev, x1 - along, x0 + along), DIGITS)))
             where = np.where(at_start, AT_START, np.where(at_end, AT_END, INSIDE)).astype(np.int64)
             out = {"member": lay.member.take(pa.array(k)), "case": t.column("case").combine_chunks(),
                    "x_m": pa.array(x)}
@@ -873,8 +884,8 @@ class ElementForcesReader:
             if turned.any():
                 names = sorted({m_names[j] for j in np.unique(m[node[turned]])})
                 self.warnings.append(
-                    f"{q} turns sign exactly across {int(turned.sum())} node(s) between elements (members "
-                    f"{', '.join(names[:5])}{' ...' if len(names) > 5 else ''}): check [elements] sign "
+                    f"{q} turns sign exactly across a node between elements ({int(turned.sum())} times over nodes "
+                    f"and cases; members {', '.join(names[:5])}{' ...' if len(names) > 5 else ''}): check [elements] sign "
                     f"('{self.el.sign_name}') and reversed_flip")
 
     def read_all(self) -> pa.Table:

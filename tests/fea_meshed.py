@@ -124,11 +124,12 @@ def separate(reversed_elements: tuple[str, ...] = ()) -> FEModel3D:
 
 
 def elements_of(model: FEModel3D) -> list[tuple[str, str, object]]:
-    """(element id, member id, PyNite element) for every element of a model."""
+    """(element id, member id, PyNite element) for every element of a model: PyNite's own
+    elements of a meshed member, or a member of one element (as ``separate()`` draws them)."""
     out = []
     for name, phys in model.members.items():
         for el_name, el in phys.sub_members.items():
-            out.append((el_name, name, el))
+            out.append((el_name if len(phys.sub_members) > 1 else name, name, el))
     return out
 
 
