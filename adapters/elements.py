@@ -239,6 +239,14 @@ def forces_source(path, cmap: ColumnMap, lengths_m: dict[str, float] | None = No
     return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings)
 
 
+def extra_inputs(source) -> dict[str, Path]:
+    """The files besides the forces file that a forces reader read (for the run's manifest)."""
+    if not isinstance(source, ElementForcesReader):
+        return {}
+    return {role: path for role, path in (("element_chain", source.el.chain), ("element_nodes", source.el.nodes))
+            if path is not None}
+
+
 @dataclass(frozen=True)
 class Source:
     """Where the chain order came from, for errors: the file, the data row of each element

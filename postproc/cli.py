@@ -217,7 +217,7 @@ def main(argv: list[str] | None = None) -> int:
             members, warnings = csv_tables.read_members(args.members, cmap)
             lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
         source = elements.forces_source(args.forces, cmap, lengths, cases, args.cases, warnings)
-        inputs = {"members": args.members, "forces": args.forces}
+        inputs = {"members": args.members, "forces": args.forces, **elements.extra_inputs(source)}
         for role, path in (("cases", args.cases), ("column_map", args.map), ("settings", args.config)):
             if path:
                 inputs[role] = path

@@ -11,6 +11,8 @@ node i). The hand-written member rows come from PyNite's own member diagrams.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pyarrow.parquet as pq
@@ -168,6 +170,19 @@ def test_chained_design_equals_design_from_member_rows(variant, models, hand, tm
     if variant == "collinear-reversed":  # B2: three of its six elements drawn backwards
         assert any(w.startswith("member 'T2-T3': as many of its elements run one way") for w in chained["warnings"])
     assert not any("turns sign" in w for w in chained["warnings"])  # the sign rule is right
+
+
+def test_the_readme_example_as_written(models, hand, tmp_path, capsys):
+    """The map file of README "Element-force exports", unchanged, on the export of the frame
+    drawn with reversed elements; the run's manifest records the chaining table."""
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    block = text[text.index("    [forces]                          # as above"):text.index("How elements make members")]
+    map_text = "\n".join(line[4:] for line in block.splitlines())
+    forces, files, members = inputs_for("chain-reversed", models)
+    chained = run(tmp_path, forces, members, map_text, files, capsys)
+    assert differences(chained, hand) < 1e-6
+    manifest = Store(tmp_path / "store").latest().manifest()
+    assert manifest["inputs"]["element_chain"]["path"].endswith("chain.csv")
 
 
 def chained_rows(folder, forces, map_text, files, lengths=None, warnings=None) -> pd.DataFrame:
