@@ -533,3 +533,33 @@ def test_bad_export_on_the_command_line_writes_nothing(tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == 1 and "element 'e2' has no row at its end j" in err and "nothing was written" in err
     assert not (tmp_path / "out").exists() and not Store(tmp_path / "store").runs()
+
+
+def test_equal_rows_at_unloaded_nodes_design_as_one_row(tmp_path, capsys):
+    """The hand beam's chained rows are exactly equal at its two unloaded nodes (a zero jump);
+    the design is the one from member rows with one row at each node."""
+    members = pd.DataFrame([{"member": "G", "length_m": 6.0, "b_mm": 300, "h_mm": 600, "cover_mm": 60,
+                             "fc_mpa": 30, "fyt_mpa": 420, "support_i": "column", "support_j": "column"}])
+    rows = expected_rows().drop_duplicates("x_m").assign(member="G", case="D", T_kNm=0.0)
+    cases = pd.DataFrame({"case": ["D"], "type": ["D"]})
+    designs = []
+    for name, forces, text, files in (("rows", rows, None, {}),
+                                      ("chained", hand_export(("e2",)), hand_map('reversed_flip = ["V_kN"]\n'),
+                                       {"chain.csv": hand_chain()})):
+        folder = tmp_path / name
+        folder.mkdir()
+        members.to_csv(folder / "members.csv", index=False)
+        cases.to_csv(folder / "cases.csv", index=False)
+        forces.to_csv(folder / "forces.csv", index=False)
+        for f, df in files.items():
+            df.to_csv(folder / f, index=False)
+        argv = ["run", "--members", str(folder / "members.csv"), "--forces", str(folder / "forces.csv"), "--cases",
+                str(folder / "cases.csv"), "--store", str(folder / "store"), "--out", str(folder / "out"), "--json",
+                "--no-report"]
+        if text:
+            (folder / "map.toml").write_text(text)
+            argv += ["--map", str(folder / "map.toml")]
+        assert cli.main(argv) == 0, capsys.readouterr().err
+        designs.append(pd.read_csv(folder / "out" / "members.csv"))
+    pd.testing.assert_frame_equal(designs[0], designs[1])
+    assert designs[1].status.iloc[0] == "designed"
