@@ -11,6 +11,9 @@ A mapping file is TOML with one table per input table (``members``, ``forces``,
 ``columns`` maps our column name to the export's column name; ``units`` names the
 export's unit, converted into the unit our column name carries; ``flip`` multiplies
 by -1 after conversion. Anything not mentioned is read under our own name and unit.
+
+An ``[elements]`` section says that the forces file is an element-force export to be
+chained into members; it is passed on as it is and read by postproc.adapters.elements.
 """
 
 from __future__ import annotations
@@ -67,6 +70,8 @@ class ColumnMap:
     """The mapping for all input tables; empty by default (our own schema)."""
 
     tables: dict[str, TableMap] = field(default_factory=dict)
+    elements: dict | None = None  # the [elements] section (element chaining), see adapters/elements.py
+    source: Path | None = None  # the mapping file: files that [elements] names are relative to it
 
     def table(self, name: str) -> TableMap:
         return self.tables.get(name, TableMap())
@@ -78,10 +83,13 @@ def load_column_map(path: str | Path | None, known: dict[str, tuple[str, ...]]) 
         return ColumnMap()
     path = Path(path)
     doc = read_toml(path, "mapping")
+    elements = doc.pop("elements", None)
+    if elements is not None and not isinstance(elements, dict):
+        raise InputError(path, "[elements] must be a table")
     tables = {}
     for name, spec in doc.items():
         if name not in known:
-            raise InputError(path, f"unknown table [{name}]; expected one of {', '.join(known)}")
+            raise InputError(path, f"unknown table [{name}]; expected one of {', '.join([*known, 'elements'])}")
         if not isinstance(spec, dict):
             raise InputError(path, f"[{name}] must be a table")
         unknown_keys = set(spec) - {"columns", "units", "flip"}
@@ -105,4 +113,4 @@ def load_column_map(path: str | Path | None, known: dict[str, tuple[str, ...]]) 
         if len(set(theirs)) != len(theirs):
             raise InputError(path, f"[{name}].columns maps two of our columns to one export column")
         tables[name] = TableMap(columns=columns, factors=factors)
-    return ColumnMap(tables)
+    return ColumnMap(tables, elements, path)

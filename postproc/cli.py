@@ -14,7 +14,7 @@ from pathlib import Path
 from rich.console import Console
 from rich.table import Table
 
-from postproc.adapters import csv_tables, ifc
+from postproc.adapters import csv_tables, elements, ifc
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import load_column_map
 from postproc import __version__, bench, engine, engines, explain, govern, html_report, report, schedule
@@ -210,15 +210,15 @@ def main(argv: list[str] | None = None) -> int:
         cmap = load_column_map(args.map, csv_tables.KNOWN_COLUMNS)
         cases = csv_tables.read_cases(args.cases, cmap) if args.cases else None
         if args.members.suffix.lower() == ".ifc":
-            probe = csv_tables.ForcesReader(args.forces, cmap)
+            probe = elements.forces_source(args.forces, cmap)
             members, warnings = read_ifc(args.members, args.ifc_key, settings.ifc, probe.member_ids())
             lengths = None
         else:
             members, warnings = csv_tables.read_members(args.members, cmap)
             lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
-        source = csv_tables.ForcesReader(args.forces, cmap, lengths, cases, args.cases,
-                                          settings.stations.tolerance_mm)
-        inputs = {"members": args.members, "forces": args.forces}
+        source = elements.forces_source(args.forces, cmap, lengths, cases, args.cases, warnings,
+                                        settings.stations.tolerance_mm)
+        inputs = {"members": args.members, "forces": args.forces, **elements.extra_inputs(source)}
         for role, path in (("cases", args.cases), ("column_map", args.map), ("settings", args.config)):
             if path:
                 inputs[role] = path
