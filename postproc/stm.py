@@ -61,8 +61,11 @@ bearing at end i, the clear-span coordinate; heights from the soffit)
 
 Checks (phi = 0.75, Table 21.2.1)
     Struts (23.4): phi 0.85 beta_c beta_s f'c at both ends; width = the strut's share of
-    the node's length x sin(theta) + the node's height x cos(theta), the length shared
-    among the struts of a node in proportion to their vertical components; beta_s = 1.0
+    the node's length x sin(theta) + the node's height x cos(theta). A node's length is the
+    bearing length, the loaded width (a point load's, or a load resultant's segment), or
+    where a stirrup tie is anchored the tie's spread if longer; it is shared among the
+    node's struts in proportion to their vertical components. Heights: a at top nodes,
+    the tie height at bearings and at the foot of a diagonal. beta_s = 1.0
     for the top chord (boundary strut), 0.75 for fans and diagonals where the web grid
     meets Table 23.5.1 and 23.5.2, else 0.4; beta_c = 1.0 (no confinement credit).
     Nodes (23.9): every face (bearing, load, horizontal thrust over a, each strut end) at
@@ -303,6 +306,8 @@ def _members(m: DeepMembers, opts: StmOptions) -> dict:
 
 def _loads(ld: DeepLoads, n: int) -> dict:
     K = len(ld.combinations)
+    if K == 0:
+        raise ValueError("DeepLoads needs at least one load combination")
     pm = np.asarray(ld.point_member, dtype=np.int64)
     px = np.asarray(ld.point_x, dtype=float)
     pP = np.asarray(ld.point_load, dtype=float).reshape(K, len(pm))
@@ -335,9 +340,9 @@ def _scope_reasons(M: dict, L: dict) -> np.ndarray:
          "truss is not built here")
     for end in ("i", "j"):
         s = M[f"support_{end}"]
-        note(np.isin(s, ("girder", "hanger")),
-             f"indirect support at end {end} ({'girder or hanger'}): the reaction enters through a hanger tie and "
-             "the supporting member's node, which are not modelled here")
+        for kind in ("girder", "hanger"):
+            note(s == kind, f"indirect support at end {end} ({kind}): the reaction enters through a hanger tie and "
+                            "the supporting member's node, which are not modelled here")
         note(~np.isin(s, BEARING + ("free", "girder", "hanger")), f"unknown support kind at end {end}")
     note(M["load_face"] != "top", "hung loads (loads on the bottom face): the hanger ties that lift them to the top "
                                   "are not modelled here")
@@ -437,8 +442,8 @@ def _build_models(M: dict, L: dict, reasons: np.ndarray, opts: StmOptions) -> tu
     ok = why == ""
     for end in ("i", "j"):
         bad = ok & hog[end] & (whole | (has_i if end == "i" else has_j))
-        why[bad] = (f"moment at bearing {end} from the frame analysis (restrained end): a hogging end is a beam-column "
-                    "joint region; the truss is built for simple bearings only")
+        why[bad] = (f"moment at bearing {end} from the frame analysis: the truss is built for simple bearings only "
+                    "(a restrained, hogging end is a beam-column joint region)")
     ok = why == ""
     pm, px, pP = L["pm"], L["px"], L["pP"]
     # simply supported truss reactions (loads on the bearings excluded) for end regions without face shear
@@ -528,10 +533,13 @@ def _segments(counts: np.ndarray):
 
 
 def _points(md: _Models, z: np.ndarray) -> _Points:
+    """Panel points of every model for lever arm z: bearings, point loads, resultants of the
+    uniform load and unloaded nodes. Panels are kept within [z cot 65, z cot 25] where the
+    loads allow, with 3 % margin each way so that the final z (a little different) keeps them."""
     nm = len(md.member)
     K = md.w.shape[0]
-    p_max = z / TAN25
-    p_min = z / TAN65
+    p_max = 0.97 * z / TAN25
+    p_min = 1.03 * z / TAN65
     ids = np.arange(nm)
     a_model = np.concatenate([ids, md.pm, ids])
     a_s = np.concatenate([-md.lbA / 2, md.ps, md.s_end])
@@ -640,6 +648,9 @@ class _Flow:
 
 
 def _flow(md: _Models, pt: _Points, z: np.ndarray) -> _Flow:
+    """Statics and load paths of every model for every combination: shear and moment at
+    the panel points, the node of zero shear, the fans' reach and every member force
+    (chord forces as moment numerators, to be divided by z)."""
     nm = len(md.member)
     K = pt.Q.shape[0]
     N = len(pt.s)
@@ -656,7 +667,9 @@ def _flow(md: _Models, pt: _Points, z: np.ndarray) -> _Flow:
     tt = np.zeros(N, bool)
     tt[:-1] = panel[:-1] & top[:-1] & top[1:]
     ra_whole = np.add.reduceat(pt.Q * (sB[model] - s)[None], off[:-1], axis=1) / (sB - sA)[None]
-    ra = np.where(md.whole[None], ra_whole, md.ra_given - pt.direct_a)
+    # an end region starts from the shear at the face: take off the uniform load lumped straight
+    # into the bearing (point loads on the bearing were never in that shear)
+    ra = np.where(md.whole[None], ra_whole, md.ra_given - (pt.direct_a - md.direct_a))
     V = ra[:, model] - _cumsum_in(pt.Q, first)
     prod = V * p[None]
     Mo = _cumsum_in(prod, first) - prod
@@ -732,7 +745,7 @@ def _node_types(md: _Models, pt: _Points, fl: _Flow):
 def _size_top_strut(md: _Models, pt: _Points, fl: _Flow, beta_c: float):
     """Least top strut depth a for the horizontal thrust at every top node (23.9.2, 23.4.3):
     a (d - a/2) = H z / (phi 0.85 beta f'c bw), solved for a; the boundary of an end region
-    is a strut end (beta_s = 1.0). Returns (a_required, feasible)."""
+    is a strut end (beta_s = 1.0). Returns a per model (inf where no depth suffices)."""
     beta_n, _ = _node_types(md, pt, fl)
     beta = np.where(pt.kind == _BOUNDARY, code.BETA_S_BOUNDARY, beta_n)
     bulge = _bulge_moment(md, pt)
@@ -747,7 +760,7 @@ def _size_top_strut(md: _Models, pt: _Points, fl: _Flow, beta_c: float):
     return a_req
 
 
-def _solve_geometry(md: _Models, iterations: int = 8):
+def _solve_geometry(md: _Models, beta_c: float, iterations: int = 8):
     """Iterate top strut depth a, lever arm z and the panel geometry to a fixed point."""
     wt = 2 * (md.h - md.d)
     a_max = 2 * md.d - md.h - 1e-6  # top node and tie node must not overlap
@@ -758,18 +771,16 @@ def _solve_geometry(md: _Models, iterations: int = 8):
     for _ in range(iterations):
         pt = _points(md, z)
         fl = _flow(md, pt, z)
-        a_req = _size_top_strut(md, pt, fl, 1.0)
+        a_req = _size_top_strut(md, pt, fl, beta_c)
         a_new = np.where(fixed, md.a_fixed, np.clip(np.maximum(a_req, a_min), None, a_max))
         z_new = md.d - a_new / 2
         done = np.abs(z_new - z) < 0.5
         z, a = z_new, a_new
         if done.all():
             break
-    # final geometry with 3 % margin on z so that the last z keeps every panel within 23.2.7
-    z_geom = 0.97 * z
-    pt = _points(md, z_geom)
+    pt = _points(md, z)
     fl = _flow(md, pt, z)
-    a_req = _size_top_strut(md, pt, fl, 1.0)
+    a_req = _size_top_strut(md, pt, fl, beta_c)
     feasible = fixed | (a_req <= a_max)
     a = np.where(fixed, md.a_fixed, np.clip(np.maximum(a_req, a_min), None, a_max))
     z = md.d - a / 2
@@ -780,6 +791,8 @@ def _solve_geometry(md: _Models, iterations: int = 8):
 # --- elements ------------------------------------------------------------------------------
 
 def _elements(md: _Models, pt: _Points, fl: _Flow, a: np.ndarray, z: np.ndarray) -> Truss:
+    """The candidate members of every truss (fans, diagonals both ways, verticals, chords)
+    with their per-combination forces; a candidate unused in a combination carries zero."""
     N = len(pt.s)
     model, s = pt.model, pt.s
     off = pt.offsets
@@ -906,7 +919,7 @@ def design(members: DeepMembers, loads: DeepLoads, options: StmOptions | None = 
     L = _loads(loads, len(M["member"]))
     reasons = _scope_reasons(M, L)
     md, reasons, method = _build_models(M, L, reasons, opts)
-    pt, fl, a, z, feasible = _solve_geometry(md)
+    pt, fl, a, z, feasible = _solve_geometry(md, opts.beta_c)
     truss = _elements(md, pt, fl, a, z)
     _self_check(truss)
     return _assemble(M, md, pt, fl, truss, feasible, reasons, method, opts, tuple(loads.combinations))
@@ -1041,16 +1054,17 @@ def _assemble(M, md: _Models, pt: _Points, fl: _Flow, t: Truss, feasible, reason
     node_type, node_beta = _node_table_types(pt, t, tolF)
     faces = _faces(md, pt, fl, t, combos, comp, width1, width2, node_type, node_beta, opts, tolF)
     inside_panel = fl.panel & (pt.kind != _BOUNDARY)
-    vu = np.zeros(len(md.member))
-    if K:
-        np.maximum.at(vu, pt.model[inside_panel], np.abs(fl.V[:, inside_panel]).max(axis=0))
+    vu_k = np.zeros((K, len(md.member)))  # largest shear in each model, per combination
+    np.maximum.at(vu_k.T, pt.model[inside_panel], np.abs(fl.V[:, inside_panel]).T)
+    vu = vu_k.max(axis=0, initial=0.0)
+    vu_combo = combos[vu_k.argmax(axis=0)] if len(md.member) else np.zeros(0, object)
     phi_vn = code.deep_beam_shear_limit(md.fc, md.bw, md.d)
     angle_why = _angle_violations(md, t, theta, env, tolF, inside_el)
     struts = _strut_table(md, t, combos, comp, theta, width1, width2, beta_s, fce_s, cap1, cap2, u_strut,
                           inside_el, tolF)
     ties = _tie_table(md, t, combos, web, tie, inside_el, tolF)
     nodes = _node_rows(faces)
-    models = _model_rows(md, t, feasible, vu, phi_vn, web, tie, angle_why, struts, ties, faces)
+    models = _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web, tie, angle_why, struts, ties, faces)
     members = _member_rows(M, md, models, reasons, method, web)
     return StmDesign(members, models, nodes, faces, struts, ties, t, tuple(combos))
 
@@ -1312,7 +1326,8 @@ def _node_rows(faces: pd.DataFrame) -> pd.DataFrame:
         ["model_index", "x_mm", "y_mm"]).reset_index(drop=True)
 
 
-def _model_rows(md, t, feasible, vu, phi_vn, web: _Web, tie: _Tie, angle_why, struts, ties, faces) -> pd.DataFrame:
+def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, angle_why, struts, ties,
+                faces) -> pd.DataFrame:
     """One row per model: status, the governing check over every element, face and rule."""
     nm = len(md.member)
     ids = np.arange(nm)
@@ -1330,7 +1345,7 @@ def _model_rows(md, t, feasible, vu, phi_vn, web: _Web, tie: _Tie, angle_why, st
                       "clause": vt.clause, "combination": vt.combination}),
         pd.DataFrame({"model_index": ids, "utilization": vu / phi_vn,
                       "governing": "deep-beam section: Vu against phi 0.83 sqrt(f'c) bw d", "clause": "9.9.2.1",
-                      "combination": ""}),
+                      "combination": vu_combo}),
         *[pd.DataFrame({"model_index": ids[anch[s]["how"] != ""], "utilization": anch[s]["util"][anch[s]["how"] != ""],
                         "governing": "tie anchorage at " + bearing_label[s][anch[s]["how"] != ""],
                         "clause": "23.8.3, 25.4.2.3, 25.4.3.1", "combination": ""}) for s in ("A", "B")],
