@@ -33,10 +33,10 @@ bearing at end i, the clear-span coordinate; heights from the soffit)
     neighbouring point loads (or a load and a bearing or region boundary) it is cut into m
     equal segments, each replaced by its resultant at the segment's middle (a top node).
     Resultants are statically equivalent and give moments no smaller than the distributed
-    load's anywhere in the span, so the chords are not underestimated. Where the
-    segment is shorter than 2 z cot 65 deg the load of that interval goes half to each end
-    instead, and both chords of that panel carry the extra w l^2/(8 z) of the load lumped
-    away (an allowance of this module, conservative). Load falling on a bearing goes
+    load's anywhere in the span, so the chords are not underestimated. Where an interval's
+    loaded length l is under 2 z cot 65 deg (a resultant there would make too steep a
+    panel) its load goes half to each end instead, and both chords of that panel carry the
+    extra w l^2/(8 z) of the load lumped away (an allowance of this module, conservative). Load falling on a bearing goes
     straight into it (it loads the bearing face, not the truss). m is the least number
     that keeps every panel at most z cot 25 deg long; intervals without distributed load
     get equally spaced unloaded nodes for the same purpose.
@@ -56,8 +56,10 @@ bearing at end i, the clear-span coordinate; heights from the soffit)
     lies within 2h of the face (or within h of a load already in the region: Saint-Venant).
     The region's truss starts from the shear entering at the face: the given face shear
     of the frame analysis (``DeepLoads.face_shear_*``) or, where not given, the simply
-    supported reaction. A given face moment is checked for hogging at the bearing. Where
-    the two end regions meet, the whole member is modelled.
+    supported reaction. A given face moment must leave no moment at the bearing centroid
+    (M_face - V_face lb/2 within 5 % of V_face h): a restrained end is refused. Where the
+    two end regions meet, the whole member is modelled; a deep member (ln <= 4h) is always
+    modelled whole with the simply supported statics of its loads.
 
 Checks (phi = 0.75, Table 21.2.1)
     Struts (23.4): phi 0.85 beta_c beta_s f'c at both ends; width = the strut's share of
