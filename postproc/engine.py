@@ -21,12 +21,12 @@ from postproc import design, detailing, stations
 from postproc.codes import aci318_19 as aci
 from postproc.settings import BAR_CATALOGUE, Settings
 from postproc.store import Run
+from postproc.terms import STATUSES  # noqa: F401  (engine.STATUSES: every member leaves with one)
 
 MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_kN", "vu_design_j_kN",
                   "crit_i", "crit_j", "phi_vc_kN", "phi_vn_limit_kN", "utilization", "stirrups_total",
                   "stirrup_mass_kg"]
 ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
-STATUSES = ("designed", "resize", "deep-beam", "no-forces", "no-geometry", "invalid", "not-covered")
 BATCH_CELLS = 500_000  # combinations x stations per batch: bounds memory (and stays in cache), not results
 
 

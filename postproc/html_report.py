@@ -12,8 +12,6 @@ from __future__ import annotations
 import itertools
 import json
 import math
-import os
-import tempfile
 from html import escape
 from pathlib import Path
 
@@ -24,8 +22,9 @@ import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
 from postproc.engine import STATUSES
-from postproc.report import CAUTION
+from postproc.report import CAUTION, write_atomic
 from postproc.store import Run
+from postproc.terms import did_you_mean
 
 STATION_COLUMNS = ["member", "x_mm", "vu_kN", "vu_max_kN", "phi_vc_kN", "phi_vn_kN", "phi_vn_limit_kN",
                    "avmin_threshold_kN", "spacing_mm"]
@@ -64,13 +63,7 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
     linked = set(detail)
     body = [_header(data), _index(data, linked), _overview(data, linked), _details(data, detail)]
     page = _page(run.name, "".join(body), _legend_defs())
-    out_path = Path(out_path)
-    out_path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{out_path.name}.", dir=out_path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8") as fh:
-        fh.write(page)
-    os.replace(tmp, out_path)
-    return out_path
+    return write_atomic(Path(out_path), lambda fh: fh.write(page))
 
 
 class _Data:
@@ -109,7 +102,8 @@ class _Data:
         else:
             unknown = [name for name in members if name not in self.code]
             if unknown:
-                raise ValueError(f"no member(s) {', '.join(map(repr, unknown[:10]))} in run '{self.run.name}'")
+                raise ValueError(f"no member(s) {', '.join(map(repr, unknown[:10]))} in run '{self.run.name}'"
+                                 + did_you_mean(unknown[0], self.code))
             codes = np.unique([self.code[name] for name in members])
         return sorted(codes.tolist(), key=lambda k: self.m["order"].iat[k])
 

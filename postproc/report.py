@@ -1,4 +1,9 @@
-"""Outputs: the detailer tables (CSV), the run summary (terminal with rich, or JSON)."""
+"""Outputs: the detailer tables (CSV), the run summary (terminal with rich, or JSON).
+
+Every file is written under a temporary name beside its place and renamed into place,
+with the permissions the umask gives (0644 under the usual umask 022), so that
+colleagues on a shared drive can open it.
+"""
 
 from __future__ import annotations
 
@@ -6,7 +11,7 @@ import contextlib
 import csv
 import json
 import os
-import tempfile
+import uuid
 from pathlib import Path
 
 import pandas as pd
@@ -16,33 +21,54 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 from rich.table import Table
 
 from postproc.engine import MEMBER_COLUMNS, STATUSES, ZONE_COLUMNS, Result
+from postproc.terms import NEEDS_ACTION, label
 
 CAUTION = ("Results assist a licensed structural engineer, who checks them; "
            "the governing local building code prevails.")
 
 
-def write_tables(result: Result, out_dir: Path) -> list[Path]:
-    """members.csv and zones.csv, each written to a temporary name and renamed into place."""
-    out_dir.mkdir(parents=True, exist_ok=True)
-    written = []
-    for name, df, cols in (("members.csv", result.members, MEMBER_COLUMNS), ("zones.csv", result.zones, ZONE_COLUMNS)):
-        path = out_dir / name
-        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", dir=out_dir)
-        with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
-            df.to_csv(fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")
+def write_atomic(path: Path, fill) -> Path:
+    """Write ``path`` as ``fill(text_file)`` writes it: to a temporary name in the same
+    folder, then renamed into place (a reader never sees half a file). The file is created
+    by open(), so it gets the mode the umask gives, unlike tempfile's private 0600."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.{uuid.uuid4().hex}.tmp")
+    try:
+        with open(tmp, "x", newline="", encoding="utf-8") as fh:
+            fill(fh)
         os.replace(tmp, path)
-        written.append(path)
+    finally:
+        tmp.unlink(missing_ok=True)
+    return path
+
+
+def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path) -> list[Path]:
+    """members.csv and zones.csv in ``out_dir``."""
+    written = []
+    for name, df, cols in (("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)):
+        written.append(write_atomic(Path(out_dir) / name, lambda fh, df=df, cols=cols: df.to_csv(
+            fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")))
     return written
 
 
 def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) -> dict:
+    """The run in brief: members needing action first, then counts, the governing members
+    (ranked as `shearpost govern` ranks them), stirrups and warnings."""
+    from postproc.govern import rank_order
+
     m = result.members
     counts = {s: int((m["status"] == s).sum()) for s in STATUSES}
-    ranked = m[m["utilization"].notna()].sort_values("utilization", ascending=False).head(top)
+    action = m[m["status"].isin(NEEDS_ACTION)]
+    ranked = m.iloc[rank_order(m)].head(top)
+    ranked = ranked[ranked["status"].isin(NEEDS_ACTION) | ranked["utilization"].notna()]
     return {
         "run": run_name,
         "output": None if out_dir is None else str(out_dir),
         "members": int(len(m)),
+        "needs_action": {"count": int(len(action)),
+                         "by_status": {s: counts[s] for s in NEEDS_ACTION if counts[s]},
+                         "members": action["member"].head(50).tolist()},
         "status": counts,
         "combinations": {"count": len(result.combos.names),
                          "source": "cases taken as already factored combinations (no cases.csv)"
@@ -61,22 +87,31 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
 def print_summary(doc: dict, console: Console) -> None:
     console.print(f"[bold]shearpost[/bold] run [cyan]{shown(doc['run'])}[/cyan]: {doc['members']} members, "
                   f"{doc['combinations']['count']} combinations ({doc['combinations']['source']})")
+    act = doc["needs_action"]
+    if act["count"]:
+        by = ", ".join(f"{n} {s}" for s, n in act["by_status"].items())
+        names = ", ".join(shown(n) for n in act["members"][:8]) + (" ..." if act["count"] > 8 else "")
+        console.print(f"[bold]Needs action: {act['count']} member(s)[/bold] ({by}): {names}", highlight=False)
+    else:
+        console.print("Needs action: none", highlight=False)
     st = Table(title="Members by status", title_justify="left")
     st.add_column("status")
     st.add_column("members", justify="right")
-    for status, n in doc["status"].items():
-        if n:
-            st.add_row(status, str(n))
+    for status in (*NEEDS_ACTION, *(s for s in doc["status"] if s not in NEEDS_ACTION)):
+        if doc["status"].get(status):
+            st.add_row(status, str(doc["status"][status]))
     console.print(st)
-    gov = Table(title=f"Governing members (top {len(doc['governing'])} by utilization)", title_justify="left")
-    for col, just in (("member", "left"), ("status", "left"), ("utilization", "right"),
-                      ("governing combination", "left"), ("Vu,i kN", "right"), ("Vu,j kN", "right")):
-        gov.add_column(col, justify=just, overflow="fold")
+    gov = Table(title=f"Governing members (first {len(doc['governing'])}; as `shearpost govern` ranks them)",
+                title_justify="left")
+    for col, just in (("member", "left"), ("status", "left"), ("utilization", "right"), ("governing_case", "left"),
+                      ("vu_design_kN", "right")):
+        gov.add_column(label(col), justify=just, no_wrap=col != "member", overflow="fold")
     for g in doc["governing"]:
-        gov.add_row(shown(g["member"]), g["status"], f"{g['utilization']:.3f}", shown(g["governing_case"]),
-                    _num(g["vu_design_i_kN"]), _num(g["vu_design_j_kN"]))
+        ends = [v for v in (g["vu_design_i_kN"], g["vu_design_j_kN"]) if v is not None]
+        gov.add_row(shown(g["member"]), g["status"], "" if g["utilization"] is None else f"{g['utilization']:.3f}",
+                    shown(g["governing_case"] or ""), _num(max(ends, key=abs) if ends else None))
     console.print(gov)
-    console.print(f"Stirrups: {doc['stirrups_total']:,} sets, {doc['stirrup_mass_kg']:,.1f} kg")
+    console.print(f"Stirrups: {doc['stirrups_total']:,} stirrup sets, {doc['stirrup_mass_kg']:,.1f} kg")
     if doc["warnings"]:
         console.print(f"[yellow]{len(doc['warnings'])} warning(s):[/yellow]")
         for w in doc["warnings"][:15]:
