@@ -32,14 +32,17 @@ def results_with_labels(run: Run) -> pd.DataFrame:
     return res.merge(labels, on="member", how="left").fillna({"level": "", "group": ""})
 
 
-def rank_order(members: pd.DataFrame) -> np.ndarray:
-    """Row positions of ``members`` in review order: members needing action first (in the
-    order of NEEDS_ACTION: resize, deep-beam, invalid, no-forces, no-geometry), then the
-    designed ones, then the rest (not-covered); within each, by utilization (the larger of
-    Vu/phi*Vn provided and Vu over the section limit), highest first, then by id."""
-    status = members["status"].astype(str)
+def status_place(status: pd.Series) -> np.ndarray:
+    """Review order of statuses: those needing action in the order of NEEDS_ACTION (resize,
+    deep-beam, invalid, no-forces, no-geometry), then designed, then the rest (not-covered)."""
     action = {s: k for k, s in enumerate(NEEDS_ACTION)}
-    place = status.map(lambda s: action.get(s, len(action) + (0 if s == "designed" else 1))).to_numpy()
+    return status.astype(str).map(lambda s: action.get(s, len(action) + (0 if s == "designed" else 1))).to_numpy()
+
+
+def rank_order(members: pd.DataFrame) -> np.ndarray:
+    """Row positions of ``members`` in review order: by status_place, then by utilization
+    (the larger of Vu/phi*Vn provided and Vu over the section limit), highest first, then by id."""
+    place = status_place(members["status"])
     util = -members["utilization"].astype(float).fillna(-np.inf).to_numpy()
     return np.lexsort((members["member"].astype(str).to_numpy(), util, place))
 
