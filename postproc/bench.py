@@ -15,7 +15,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import psutil
 import pyarrow.csv as pcsv
 import pyarrow.parquet as pq
 
@@ -76,6 +75,8 @@ class PeakMemory:
         self._thread = threading.Thread(target=self._watch, daemon=True)
 
     def _sample(self) -> None:
+        import psutil  # here, not at import: its Linux backend itself needs the POSIX-only `resource`
+
         me = psutil.Process()
         sizes = [getattr(me.memory_info(), "peak_wset", 0), me.memory_info().rss]
         for child in me.children(recursive=True):

@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import math
 import os
+import re
 import sys
 import textwrap
 from pathlib import Path
@@ -73,6 +74,18 @@ def case_factor(text: str) -> tuple[str, float]:
 
 def _wrap(text: str, indent: str = "") -> str:
     return textwrap.fill(text, width=79, initial_indent=indent, subsequent_indent=indent)
+
+
+def _example(command: str) -> str:
+    """An example command line, continued with a backslash before an option where it is long."""
+    lines, current = [], "  "
+    for k, part in enumerate(re.split(r" (?=--)", command)):
+        if k and len(current) + 1 + len(part) > 76:
+            lines.append(current + " \\")
+            current = "      " + part
+        else:
+            current += (" " if k else "") + part
+    return "\n".join([*lines, current])
 
 
 def _exit_code_text() -> str:
@@ -180,7 +193,7 @@ def _parser() -> argparse.ArgumentParser:
     for name, (short, description, examples, applies) in COMMANDS.items():
         q[name] = sub.add_parser(
             name, help=short, description=_wrap(description), formatter_class=argparse.RawDescriptionHelpFormatter,
-            epilog="examples:\n" + "\n".join(f"  {e}" for e in examples) + f"\n\n{_exit_code_text()}")
+            epilog="examples:\n" + "\n".join(map(_example, examples)) + f"\n\n{_exit_code_text()}")
         _globals(q[name], applies)
 
     r = q["run"]

@@ -21,6 +21,8 @@ def design_table(run: Run, name: str, member: str | None = None, columns: list[s
         raise StoreError(f"run '{run.name}' has no design yet")
     path = run.design_path / name
     path = path if path.is_dir() else path.with_suffix(".parquet")
+    if path.is_dir() and not any(path.glob("*.parquet")):  # the station trace of a run that designed nothing
+        return pd.DataFrame(columns=columns or [])
     filters = None if member is None else [("member", "==", member)]
     return pq.read_table(path, columns=columns, filters=filters).to_pandas()
 

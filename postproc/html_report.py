@@ -114,7 +114,10 @@ class _Data:
 
     def stations(self, codes: list[int]) -> dict[str, np.ndarray]:
         """The station trace of the given members as arrays, grouped by code, in station order."""
-        t = pq.read_table(self.run.design_path / "stations", columns=STATION_COLUMNS)  # one file per part
+        folder = self.run.design_path / "stations"  # one file per part; none when no member was designed
+        if not any(folder.glob("*.parquet")):
+            return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
+        t = pq.read_table(folder, columns=STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
         code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
         wanted = np.zeros(len(self.m) + 1, bool)  # the last entry stands for "not a member" (-1)
