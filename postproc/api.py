@@ -22,7 +22,7 @@ from postproc import engine, engines
 from postproc.adapters import csv_tables, ifc
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import load_column_map
-from postproc.settings import Settings, load_settings, settings_from_dict
+from postproc.settings import Settings, load_settings, settings_from_dict, validated_settings
 from postproc.store import Run, Store, StoreError
 
 NOT_DESIGNED = ("no-forces", "no-geometry", "invalid", "not-covered")
@@ -94,7 +94,7 @@ def design(members, forces, cases=None, config=None, *, column_map=None, store=N
         paths = {role: _as_file(value, Path(tmp), role) for role, value in
                  (("members", members), ("forces", forces), ("cases", cases))}
         if isinstance(config, dict):
-            settings, config_path = settings_from_dict(config), None
+            settings, config_path = validated_settings(config, Path("config (a dict)")), None
         else:
             settings, config_path = load_settings(config), config
         stored, result = ingest_and_design(store, run or store.new_name(), paths["members"], paths["forces"],

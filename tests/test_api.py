@@ -4,8 +4,10 @@ opened for runs, comparisons and schedules."""
 from __future__ import annotations
 
 import os
+import re
 import subprocess
 import sys
+from pathlib import Path
 
 import pandas as pd
 import pyarrow.parquet as pq
@@ -92,3 +94,20 @@ def test_import_changes_no_process_setting_and_loads_no_numpy():
     env = {k: v for k, v in os.environ.items() if not k.endswith("_NUM_THREADS")}
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=60)
     assert out.returncode == 0 and out.stdout.strip() == "ok", out.stderr
+
+
+def test_the_readme_example_runs(tmp_path):
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    code = re.search(r"```python\n(.*?)```", readme, re.S).group(1)
+    out = subprocess.run([sys.executable, "-c", code], cwd=tmp_path, capture_output=True, text=True, timeout=300,
+                         env={**os.environ, "PYTHONPATH": str(Path(__file__).resolve().parents[1])})
+    assert out.returncode == 0, out.stderr[-3000:]
+    assert "designed" in out.stdout and "#10" in out.stdout
+    assert (tmp_path / "results" / "report.html").exists() and (tmp_path / "results" / "members.csv").exists()
+
+
+def test_a_settings_dict_is_checked_as_a_file_is():
+    from postproc.adapters.errors import InputError
+
+    with pytest.raises(InputError, match="first_stirup_mm"):
+        postproc.design(SAMPLE / "members.csv", SAMPLE / "forces.csv", config={"detailing": {"first_stirup_mm": 75}})
