@@ -87,7 +87,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         f"phi*Vn >= Vu at all {len(st)} stations for all {len(cset)} combinations; s <= s_max; Av >= Av,min where required",
         f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} mm ({st.governing_case[worst]})"]))
     steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
-        f"{r.stirrups_total} sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
+        f"{r.stirrups_total} stirrup sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
         f"code edition {man.get('code_edition')}, shearpost {man.get('tool_version')}"]))
     return steps
 
@@ -147,7 +147,7 @@ def _zone_step(z, st, sec: design.Section, m) -> Step:
     heavy = vs_req > 0.33 * float(aci.sqrt_fc(fc)) * b * d
     lines = [
         f"governing station x = {row.x_mm:,.0f} mm, combination {row.governing_case}",
-        f"Vu = {_fmt(vu / 1e3, 'kN')}, Nu = {_fmt(nu / 1e3, 'kN')} (compression +), Tu = {_fmt(tu / 1e6, 'kNm', 2)}",
+        f"Vu = {_fmt(vu / 1e3, 'kN')}, Nu = {_fmt(nu / 1e3, 'kN')} (compression +), Tu = {_fmt(tu / 1e6, 'kN*m', 2)}",
         f"Vc = {_fmt(vc / 1e3, 'kN')} by Table 22.5.5.1 {eq}; phi*Vc = {_fmt(0.75 * vc / 1e3, 'kN')} (21.2.1)",
         f"Vs required = Vu/phi - Vc = {_fmt(vs_req / 1e3, 'kN')}; Av/s required = {row.av_s_req:.3f} mm^2/mm "
         f"(22.5.8.5.3, with Av,min/s = {row.av_min_s:.3f} where required by 9.6.3.1: "
