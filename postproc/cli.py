@@ -477,48 +477,6 @@ def _print_frame(df, console, title: str) -> None:
     console.print(t)
 
 
-def governing_table(df, width: int):
-    """The ranked members as a terminal table no wider than ``width``: whole combination
-    names, never broken across lines; columns are left out, least useful first, until the
-    table fits (the csv and json formats keep every column)."""
-    from rich import box
-    from rich.console import Console
-    from rich.table import Table
-
-    from postproc.report import shown
-
-    vu = df[["vu_design_i_kN", "vu_design_j_kN"]].abs().max(axis=1)
-    cells = {
-        "rank": df["rank"].astype(str), "member": df["member"].map(shown), "level": df["level"].map(shown),
-        "status": df["status"], "utilization": df["utilization"].map(lambda u: "" if u != u else f"{u:.3f}"),
-        "governing_case": df["governing_case"].map(lambda c: "" if c is None or c != c else shown(c)),
-        "vu_design_i_kN": df["vu_design_i_kN"].map(_kn), "vu_design_j_kN": df["vu_design_j_kN"].map(_kn),
-        "vu_design_kN": vu.map(_kn), "stirrups_total": df["stirrups_total"].map(lambda n: f"{int(n):,}"),
-    }
-    right = {"rank", "utilization", "vu_design_i_kN", "vu_design_j_kN", "vu_design_kN", "stirrups_total"}
-    choices = (["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_i_kN",
-                "vu_design_j_kN", "stirrups_total"],
-               ["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_kN", "stirrups_total"],
-               ["rank", "member", "status", "utilization", "governing_case", "vu_design_kN", "stirrups_total"],
-               ["rank", "member", "status", "utilization", "governing_case", "vu_design_kN"],
-               ["rank", "member", "status", "utilization", "governing_case"])
-    measure = Console(width=10_000)
-    for columns in choices:
-        t = Table(box=box.SIMPLE_HEAD, pad_edge=False, collapse_padding=True)
-        for col in columns:
-            t.add_column("#" if col == "rank" else label(col), justify="right" if col in right else "left",
-                         no_wrap=col != "member", overflow="fold" if col == "member" else "ellipsis")
-        for row in zip(*(cells[c] for c in columns)):
-            t.add_row(*row)
-        if measure.measure(t).maximum <= width:
-            break
-    return t
-
-
-def _kn(v) -> str:
-    return "" if v is None or v != v else f"{v:,.1f}"
-
-
 @_review
 def cmd_govern(args, store) -> int:
     from postproc import govern, report
@@ -533,7 +491,7 @@ def cmd_govern(args, store) -> int:
         console = _console()
         console.print(f"Members of run {report.shown(run.name)}, those needing action first "
                       f"({len(df):,} shown)", highlight=False)
-        console.print(governing_table(df, console.width))
+        console.print(report.governing_table(df, console.width))
         console.print(f"[italic]{report.CAUTION}[/italic]")
     return EXIT_OK
 

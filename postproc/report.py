@@ -18,6 +18,7 @@ import pandas as pd
 from rich.console import Console
 from rich.markup import escape
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+from rich import box
 from rich.table import Table
 
 from postproc.engine import MEMBER_COLUMNS, STATUSES, ZONE_COLUMNS, Result
@@ -101,16 +102,11 @@ def print_summary(doc: dict, console: Console) -> None:
         if doc["status"].get(status):
             st.add_row(status, str(doc["status"][status]))
     console.print(st)
-    gov = Table(title=f"Governing members (first {len(doc['governing'])}; as `shearpost govern` ranks them)",
-                title_justify="left")
-    for col, just in (("member", "left"), ("status", "left"), ("utilization", "right"), ("governing_case", "left"),
-                      ("vu_design_kN", "right")):
-        gov.add_column(label(col), justify=just, no_wrap=col != "member", overflow="fold")
-    for g in doc["governing"]:
-        ends = [v for v in (g["vu_design_i_kN"], g["vu_design_j_kN"]) if v is not None]
-        gov.add_row(shown(g["member"]), g["status"], "" if g["utilization"] is None else f"{g['utilization']:.3f}",
-                    shown(g["governing_case"] or ""), _num(max(ends, key=abs) if ends else None))
-    console.print(gov)
+    gov = pd.DataFrame(doc["governing"], columns=["member", "status", "utilization", "governing_case",
+                                                 "vu_design_i_kN", "vu_design_j_kN"])
+    gov.insert(0, "rank", range(1, len(gov) + 1))
+    console.print(f"Governing members (the first {len(gov)}, as `shearpost govern` ranks them)")
+    console.print(governing_table(gov, console.width))
     console.print(f"Stirrups: {doc['stirrups_total']:,} stirrup sets, {doc['stirrup_mass_kg']:,.1f} kg")
     if doc["warnings"]:
         console.print(f"[yellow]{len(doc['warnings'])} warning(s):[/yellow]")
@@ -124,6 +120,48 @@ def print_summary(doc: dict, console: Console) -> None:
     console.print(f"[italic]{doc['caution']}[/italic]")
 
 
+def governing_table(df: pd.DataFrame, width: int) -> Table:
+    """Ranked members as a terminal table no wider than ``width``: whole combination names,
+    never broken across lines; columns are left out, least useful first, until the table
+    fits (the csv and json formats keep every column)."""
+    vu = df[["vu_design_i_kN", "vu_design_j_kN"]].astype(float).abs().max(axis=1)
+    cells = {
+        "rank": df["rank"].astype(str), "member": df["member"].map(shown),
+        "status": df["status"], "utilization": df["utilization"].map(lambda u: "" if u is None or u != u else f"{u:.3f}"),
+        "governing_case": df["governing_case"].map(lambda c: "" if c is None or c != c else shown(c)),
+        "vu_design_i_kN": df["vu_design_i_kN"].map(_kn), "vu_design_j_kN": df["vu_design_j_kN"].map(_kn),
+        "vu_design_kN": vu.map(_kn),
+    }
+    if "level" in df:
+        cells["level"] = df["level"].map(shown)
+    if "stirrups_total" in df:
+        cells["stirrups_total"] = df["stirrups_total"].map(lambda n: f"{int(n):,}")
+    right = {"rank", "utilization", "vu_design_i_kN", "vu_design_j_kN", "vu_design_kN", "stirrups_total"}
+    choices = (["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_i_kN",
+                "vu_design_j_kN", "stirrups_total"],
+               ["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_kN", "stirrups_total"],
+               ["rank", "member", "status", "utilization", "governing_case", "vu_design_kN", "stirrups_total"],
+               ["rank", "member", "status", "utilization", "governing_case", "vu_design_kN"],
+               ["rank", "member", "status", "utilization", "governing_case"])
+    measure = Console(width=10_000)
+    for columns in choices:
+        if not set(columns) <= set(cells):
+            continue
+        t = Table(box=box.SIMPLE_HEAD, pad_edge=False, collapse_padding=True)
+        for col in columns:
+            t.add_column("#" if col == "rank" else label(col), justify="right" if col in right else "left",
+                         no_wrap=col != "member", overflow="fold" if col == "member" else "ellipsis")
+        for row in zip(*(cells[c] for c in columns)):
+            t.add_row(*row)
+        if measure.measure(t).maximum <= width:
+            break
+    return t
+
+
+def _kn(v) -> str:
+    return "" if v is None or v != v else f"{v:,.1f}"
+
+
 _CONTROL = {c: f"\\x{c:02x}" for c in [*range(0x00, 0x20), 0x7F]}
 
 
@@ -131,10 +169,6 @@ def shown(value) -> str:
     """Text for the terminal: control characters made visible (\\x1b, not an escape
     sequence) and rich markup escaped, so member ids print exactly as they are."""
     return escape(str(value).translate(_CONTROL))
-
-
-def _num(v) -> str:
-    return "" if v is None else f"{v:,.1f}"
 
 
 def dump_json(doc: dict) -> str:

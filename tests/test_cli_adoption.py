@@ -14,7 +14,7 @@ from pathlib import Path
 import pytest
 from rich.console import Console
 
-from postproc import cli
+from postproc import cli, report
 from tests.conftest import beam, rows_from_function, write_inputs
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -114,7 +114,7 @@ def test_govern_fits_80_columns_without_breaking_combination_names(store):
     df = govern.rank(Store(store).run("base"), top=40)
     for width in (80, 100, 140):
         console = Console(width=width, record=True, file=open(os.devnull, "w"))
-        console.print(cli.governing_table(df, width))
+        console.print(report.governing_table(df, width))
         lines = console.export_text().splitlines()
         assert all(len(line) <= width for line in lines)
         body = "\n".join(lines)
@@ -200,7 +200,7 @@ names = [m.name for m in pkgutil.walk_packages(postproc.__path__, "postproc.")]
 assert len(names) > 20, names
 for name in names:
     importlib.import_module(name)
-from postproc import cli
+from postproc import cli, report
 for command in [None, *cli.COMMANDS]:
     out = io.StringIO()
     with contextlib.redirect_stdout(out):
@@ -231,3 +231,23 @@ def test_version_and_help_load_no_numpy():
     from postproc import __version__
 
     assert out.stdout.strip() == f"shearpost {__version__}"
+
+
+def test_a_steel_only_ifc_model_exits_1_with_the_reason(tmp_path, capsys):
+    """A model whose beams are all steel designs nothing: exit 1 naming why, and a report that opens."""
+    from tests.test_ifc import Model
+
+    m = Model("IFC4", "m")
+    steel = [m.beam("SG1", (0, 0, 3.0), (6, 0, 3.0), m.ishape(0.3, 0.15, 0.01, 0.015)),
+             m.beam("SG2", (0, 5, 3.0), (6, 5, 3.0), m.ishape(0.3, 0.15, 0.01, 0.015))]
+    m.material("Steel S355", steel)
+    model = m.write(tmp_path / "steel.ifc")
+    forces = write_inputs(tmp_path / "in", [], rows_from_function("SG1", "U", 6.0, lambda x: 80 - 26 * x, n=5)
+                          + rows_from_function("SG2", "U", 6.0, lambda x: 80 - 26 * x, n=5))["forces"]
+    code = cli.main(["run", "--members", str(model), "--forces", str(forces), "--store", str(tmp_path / "store"),
+                     "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    assert code == cli.EXIT_INPUT
+    assert "no member was designed (2 invalid)" in err and "steel I-shape profile" in err
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert "Needs action: 2 members" in html and "SG1" in html
