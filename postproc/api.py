@@ -210,7 +210,7 @@ def nothing_designed(members: pd.DataFrame, examples: int = 3) -> str | None:
         lines.append("  check the id column of each (a --map file can rename it), and for IFC the --ifc-key")
     invalid = members[status == "invalid"]
     if len(invalid):
-        lines.append(f"invalid members, e.g. " + "; ".join(f"{m}: {why}" for m, why in
+        lines.append("invalid members, e.g. " + "; ".join(f"{m}: {why}" for m, why in
                                                           zip(invalid["member"][:examples], invalid["message"])))
     if "not-covered" in counts:
         lines.append(f"{int(counts['not-covered'])} column(s): column shear design is not covered yet")

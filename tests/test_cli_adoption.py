@@ -190,7 +190,7 @@ def test_outputs_have_the_mode_the_umask_gives(tmp_path):
 def test_portable_import_path_without_posix_modules():
     """Every module imports, and `--help` of every command runs, with `resource` and `fcntl`
     missing (as on Windows)."""
-    code = f"""
+    code = """
 import sys
 sys.modules["resource"] = None
 sys.modules["fcntl"] = None
