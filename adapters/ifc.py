@@ -391,17 +391,18 @@ def _single_values(definition):
 
 
 def _element_properties(entity):
-    """(property set name, single value) of the occurrence, then of its type."""
-    for rel in getattr(entity, "IsDefinedBy", None) or []:
-        if rel.is_a("IfcRelDefinesByProperties") and rel.RelatingPropertyDefinition.is_a("IfcPropertySet"):
-            pset = rel.RelatingPropertyDefinition
-            for prop in _single_values(pset):
-                yield pset.Name, prop
-    element_type = ifc_element.get_type(entity)
-    for pset in (getattr(element_type, "HasPropertySets", None) or []) if element_type else []:
-        if pset.is_a("IfcPropertySet"):
-            for prop in _single_values(pset):
-                yield pset.Name, prop
+    """(property set name, IfcPropertySingleValue) of the occurrence, then of its type.
+
+    The property sets are found by ifcopenshell.util.element.get_psets; the property
+    entities themselves are kept (their NominalValue type and Unit convert the value)."""
+    sources = [entity, ifc_element.get_type(entity)]
+    for source in filter(None, sources):
+        for pset_name, props in ifc_element.get_psets(source, psets_only=True, should_inherit=False,
+                                                       verbose=True).items():
+            for prop in props.values():
+                if isinstance(prop, dict) and prop.get("class") == "IfcPropertySingleValue" \
+                        and prop.get("value") is not None:
+                    yield pset_name, source.file.by_id(prop["id"])
 
 
 def _materials(entity) -> list:

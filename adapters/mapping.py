@@ -4,13 +4,17 @@ A mapping file is TOML with one table per input table (``members``, ``forces``,
 ``cases``); each may hold
 
     [forces]
-    columns = { member = "Frame", case = "Combo", x_m = "Station", V_kN = "V2" }
-    units   = { x_m = "mm", V_kN = "N" }      # unit the export uses for that column
-    flip    = ["V_kN"]                        # columns whose sign is opposite to ours
+    columns = { member = "elem_id", case = "load_id", x_m = "pos", V_kN = "shear_z" }
+    units   = { x_m = "mm", V_kN = "N" }  # unit the export uses for that column
+    flip    = ["V_kN"]                    # columns whose sign is opposite to ours
 
 ``columns`` maps our column name to the export's column name; ``units`` names the
 export's unit, converted into the unit our column name carries; ``flip`` multiplies
 by -1 after conversion. Anything not mentioned is read under our own name and unit.
+
+Units are read by pint, in the spellings engineers write: ``kN*m``, ``kN.m``, ``kN-m``,
+``kNm``, ``kip-ft``, ``N/mm2``, ``N/mm^2``, ``mm2``, ``psi``, ``ksi``, ``lbf*in``, ...; a
+unit of another quantity (a force for a length) is refused.
 
 An ``[elements]`` section says that the forces file is an element-force export to be
 chained into members; it is passed on as it is and read by postproc.adapters.elements.
@@ -18,39 +22,52 @@ chained into members; it is passed on as it is and read by postproc.adapters.ele
 
 from __future__ import annotations
 
+import functools
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from postproc.adapters.errors import InputError, read_toml
 
-# Factors to the SI base unit of each quantity (m, N, N*m, Pa, m^2).
-_LENGTH = {"m": 1.0, "mm": 1e-3, "cm": 1e-2, "ft": 0.3048, "in": 0.0254}
-_FORCE = {"N": 1.0, "kN": 1e3, "MN": 1e6, "kip": 4448.2216152605, "lbf": 4.4482216152605}
-_MOMENT = {
-    "N*m": 1.0, "kN*m": 1e3, "N*mm": 1e-3, "kN*mm": 1.0, "MN*m": 1e6,
-    "kip*ft": 4448.2216152605 * 0.3048, "kip*in": 4448.2216152605 * 0.0254,
-    "lbf*ft": 4.4482216152605 * 0.3048, "lbf*in": 4.4482216152605 * 0.0254,
-}
-_STRESS = {"Pa": 1.0, "kPa": 1e3, "MPa": 1e6, "GPa": 1e9, "psi": 6894.757293168, "ksi": 6894757.293168}
-_AREA = {"m2": 1.0, "mm2": 1e-6, "cm2": 1e-4, "in2": 0.0254**2}
-
-# Our column suffix -> (quantity table, our unit).
+# Our column suffix -> the unit our column carries, and the quantity in words.
 _SUFFIX = {
-    "_mm2": (_AREA, "mm2"), "_kNm": (_MOMENT, "kN*m"), "_kN": (_FORCE, "kN"),
-    "_mm": (_LENGTH, "mm"), "_m": (_LENGTH, "m"), "_mpa": (_STRESS, "MPa"),
+    "_mm2": ("mm**2", "area (mm2, cm2, in2, ...)"), "_kNm": ("kN*m", "moment (kN*m, N*mm, kip*ft, ...)"),
+    "_kN": ("kN", "force (N, kN, kip, lbf, ...)"), "_mm": ("mm", "length (mm, m, in, ft, ...)"),
+    "_m": ("m", "length (m, mm, ft, in, ...)"), "_mpa": ("MPa", "stress (MPa, N/mm2, psi, ksi, ...)"),
 }
+# moments written without an operator, as tables often do (kNm: kilonewton metre, not a prefixed unit)
+_RUN_TOGETHER = {"Nm": "N*m", "kNm": "kN*m", "MNm": "MN*m", "Nmm": "N*mm", "kNmm": "kN*mm"}
+
+
+@functools.cache
+def _registry():
+    import pint
+
+    return pint.UnitRegistry()
+
+
+def _pint_spelling(unit: str) -> str:
+    """An engineer's unit text as pint reads it: '-' and '·' between units are products
+    (kip-ft), a trailing 2 or 3 is a power (mm2), run-together moments are split (kNm)."""
+    text = unit.strip().replace("·", "*").replace("²", "2").replace("³", "3")
+    text = re.sub(r"(?<=[A-Za-z])-(?=[A-Za-z])", "*", text)
+    text = re.sub(r"[A-Za-z]+", lambda m: _RUN_TOGETHER.get(m.group(0), m.group(0)), text)
+    return re.sub(r"(?<=[A-Za-z])([23])\b", r"**\1", text)
 
 
 def unit_factor(our_column: str, unit: str) -> float:
-    """Factor that turns a value in ``unit`` into the unit our column name carries."""
-    for suffix, (table, ours) in _SUFFIX.items():
+    """Factor that turns a value in ``unit`` into the unit our column name carries.
+    KeyError for a unit pint does not know or one of another quantity."""
+    import pint
+
+    for suffix, (ours, quantity) in _SUFFIX.items():
         if our_column.endswith(suffix):
-            key = unit.replace(" ", "").replace("·", "*")
-            if key == "kNm":
-                key = "kN*m"
-            if key not in table:
-                raise KeyError(f"unit '{unit}' is not a unit of this quantity; known: {', '.join(table)}")
-            return table[key] / table[ours]
+            try:
+                return float(_registry().Quantity(1.0, _pint_spelling(str(unit))).to(ours).magnitude)
+            except pint.DimensionalityError:
+                raise KeyError(f"unit '{unit}' is not a unit of {quantity}") from None
+            except Exception:  # noqa: BLE001 - pint's parser raises assorted errors on malformed text
+                raise KeyError(f"unit '{unit}' is not known; expected a unit of {quantity}") from None
     raise KeyError(f"column '{our_column}' carries no unit")
 
 

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import shutil
 import tempfile
+import threading
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -62,17 +63,46 @@ class Figures:
         ]
 
 
-def _peak_rss_mb() -> float:
-    """Peak resident memory of this process and its finished children (POSIX), else the
-    current resident memory of this process (psutil, on every platform)."""
-    try:
-        import resource
-    except ImportError:
-        import psutil
-        return psutil.Process().memory_info().rss / 2**20
-    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-    return max(own, children) / 1024.0  # ru_maxrss is in KiB on Linux
+class PeakMemory:
+    """Largest resident set of this process and of any of its worker processes, sampled
+    every 20 ms while the block runs (psutil: the same on Linux, macOS and Windows). On
+    Windows the process's own peak working set is exact; elsewhere a peak shorter than a
+    sample may be missed."""
+
+    def __init__(self, every_s: float = 0.02):
+        self.every_s, self.peak_bytes = every_s, 0
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._watch, daemon=True)
+
+    def _sample(self) -> None:
+        import psutil  # here, not at import: its Linux backend itself needs the POSIX-only `resource`
+
+        me = psutil.Process()
+        sizes = [getattr(me.memory_info(), "peak_wset", 0), me.memory_info().rss]
+        for child in me.children(recursive=True):
+            try:
+                sizes.append(child.memory_info().rss)
+            except psutil.Error:  # a worker that ended between the listing and the reading
+                pass
+        self.peak_bytes = max(self.peak_bytes, *sizes)
+
+    def _watch(self) -> None:
+        while not self._stop.wait(self.every_s):
+            self._sample()
+
+    def __enter__(self) -> PeakMemory:
+        self._sample()
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self._stop.set()
+        self._thread.join()
+        self._sample()
+
+    @property
+    def mb(self) -> float:
+        return self.peak_bytes / 2**20
 
 
 def run(members: int, cases: int, stations: int, seed: int, sample: int, map_parts, workers: int,
@@ -83,21 +113,21 @@ def run(members: int, cases: int, stations: int, seed: int, sample: int, map_par
         paths = synthetic.generate(tmp / "model", members, cases, stations, seed)
         generate_s = time.perf_counter() - t
 
-        t = time.perf_counter()
-        table, warnings = csv_tables.read_members(paths["members"], ColumnMap())
-        lengths = dict(zip(table.column("member").to_pylist(), table.column("length_m").to_pylist()))
-        source = csv_tables.ForcesReader(paths["forces"], ColumnMap(), lengths)
-        store = Store(tmp / "store")
-        run_ = store.ingest("bench", table, None, source, dict(paths), warnings, progress=progress)
-        ingest_s = time.perf_counter() - t
+        with PeakMemory() as memory:  # of ingest and design, before the bare reads below
+            t = time.perf_counter()
+            table, warnings = csv_tables.read_members(paths["members"], ColumnMap())
+            lengths = dict(zip(table.column("member").to_pylist(), table.column("length_m").to_pylist()))
+            source = csv_tables.ForcesReader(paths["forces"], ColumnMap(), lengths)
+            store = Store(tmp / "store")
+            run_ = store.ingest("bench", table, None, source, dict(paths), warnings, progress=progress)
+            ingest_s = time.perf_counter() - t
 
-        settings = Settings()
-        holder = {}
-        t = time.perf_counter()
-        store.write_design(run_, lambda f: holder.setdefault("r", engine.design_into(run_, settings, f, map_parts)))
-        design_s = time.perf_counter() - t
-        result = holder["r"]
-        peak = _peak_rss_mb()  # of ingest and design, before the bare reads below
+            settings = Settings()
+            holder = {}
+            t = time.perf_counter()
+            store.write_design(run_, lambda f: holder.setdefault("r", engine.design_into(run_, settings, f, map_parts)))
+            design_s = time.perf_counter() - t
+            result = holder["r"]
 
         # the bare reads, streamed as the tool streams (whole-file reads would need the model in memory)
         t = time.perf_counter()
@@ -112,7 +142,7 @@ def run(members: int, cases: int, stations: int, seed: int, sample: int, map_par
         ref_s, n_ref = _reference_check(run_, result, settings, sample, seed)
         return Figures(members, cases, stations, n_rows, paths["forces"].stat().st_size / 1e6, generate_s, csv_read_s,
                        ingest_s, store_read_s, design_s, n_ref, ref_s / max(n_ref, 1), design_s / members,
-                       peak, workers)
+                       memory.mb, workers)
     finally:
         if folder is None:
             shutil.rmtree(tmp, ignore_errors=True)

@@ -1,174 +1,324 @@
-"""Command line: argument parsing and calls into the stages.
+# PYTHON_ARGCOMPLETE_OK  (shell completion when argcomplete is installed: `pip install shearpost[completion]`)
+"""Command line: argument parsing, help, exit codes, and calls into the stages.
 
-Exit codes: 0 success, 1 bad input, 2 usage error, 3 some members need resizing.
+Only argparse and the standard library load before a command runs, so that `--help` and
+`--version` answer at once; each command imports the stages it needs.
 """
 
 from __future__ import annotations
 
 import argparse
-import importlib.resources
+import math
 import os
+import re
 import sys
+import textwrap
 from pathlib import Path
 
-from rich.console import Console
-from rich.table import Table
+from postproc import __version__
+from postproc.terms import STATUSES, label
 
-from postproc.adapters import csv_tables, elements, ifc
-from postproc.adapters.errors import InputError
-from postproc.adapters.mapping import load_column_map
-from postproc import __version__, bench, engine, engines, explain, govern, html_report, report, schedule
-from postproc.settings import load_settings, settings_from_dict
-from postproc.store import Store, StoreError
-
+# The exit codes, in one table: --help prints it, and new codes added here appear there.
+EXIT_CODES: dict[int, str] = {
+    0: "success",
+    1: "bad input (the message names file, line and column; nothing is written), or a run in "
+       "which no member could be designed (the message says why)",
+    2: "usage error: a bad option or value, an unknown run or member, an existing run name",
+    3: "some members need resizing (run, demo; compare with --fail-on-new-resize)",
+}
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
-SAMPLE = Path(str(importlib.resources.files("postproc.sample_results")))
+STORE_ENV = "SHEARPOST_STORE"  # the store folder, unless --store names one
+DEFAULT_STORE = "shearpost-store"
+GLOBAL_OPTIONS = ("store", "json", "config")
 
 
-def engine_options(q: argparse.ArgumentParser) -> None:
+# ----------------------------------------------------------------------------- option values
+
+
+def positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a whole number of at least 1, got {text}")
+    return value
+
+
+def non_negative(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if not math.isfinite(value) or value < 0:
+        raise argparse.ArgumentTypeError(f"expected a number of 0 or more, got {text}")
+    return value
+
+
+def case_factor(text: str) -> tuple[str, float]:
+    """CASE=FACTOR, e.g. L=1.3."""
+    case, sep, value = text.partition("=")
+    if not sep or not case.strip():
+        raise argparse.ArgumentTypeError(f"expected CASE=FACTOR (e.g. L=1.3), got {text!r}")
+    try:
+        factor = float(value)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"the factor of {case.strip()!r} is not a number: {value!r}") from None
+    if not math.isfinite(factor):
+        raise argparse.ArgumentTypeError(f"the factor of {case.strip()!r} must be a finite number")
+    return case.strip(), factor
+
+
+# ----------------------------------------------------------------------------- parser
+
+
+def _wrap(text: str, indent: str = "") -> str:
+    return textwrap.fill(text, width=79, initial_indent=indent, subsequent_indent=indent)
+
+
+def _example(command: str) -> str:
+    """An example command line, continued with a backslash before an option where it is long."""
+    lines, current = [], "  "
+    for k, part in enumerate(re.split(r" (?=--)", command)):
+        if k and len(current) + 1 + len(part) > 76:
+            lines.append(current + " \\")
+            current = "      " + part
+        else:
+            current += (" " if k else "") + part
+    return "\n".join([*lines, current])
+
+
+def _exit_code_text() -> str:
+    return "exit codes:\n" + "\n".join(textwrap.fill(text, width=79, initial_indent=f"  {code}  ",
+                                                      subsequent_indent="     ")
+                                       for code, text in sorted(EXIT_CODES.items()))
+
+
+COMMANDS = {
+    # name: (one-line help, description, examples, global options that apply)
+    "run": ("design every member of an analysis export and write the tables",
+            "Ingest a members table (CSV or IFC) and a forces table as a new, immutable run in the store, design the "
+            "shear reinforcement of every member to ACI 318-19, and write members.csv, zones.csv and report.html "
+            "to --out. Every member of the input leaves with a status that says why.",
+            ["shearpost run --members members.csv --forces forces.csv --cases cases.csv --out results/",
+             "shearpost run --members model.ifc --forces forces.csv --out results/ --run level-2-rev-b",
+             "shearpost run --members m.csv --forces export.csv --map export-map.toml --out results/ --json"],
+            {"store", "json", "config"}),
+    "demo": ("design the demo building that ships with shearpost",
+             "Design the demo building (a reinforced-concrete frame of our own, with its analysis results) exactly "
+             "as `run` would, into ./shearpost-demo by default. --scale changes a load case, to try `compare`.",
+             ["shearpost demo --run base", "shearpost demo --scale L=1.3 --run more-live",
+              "shearpost demo --ifc --out demo-ifc/"],
+             {"store", "json", "config"}),
+    "govern": ("rank the members: those needing action first, then by utilization",
+               "Rank the members of a designed run for review: members that need action (resize, deep-beam, "
+               "invalid, no-forces, no-geometry) first, then the designed members by utilization (the larger of "
+               "Vu/phi*Vn provided and Vu over the section limit), highest first; not-covered members last.",
+               ["shearpost govern --top 20", "shearpost govern --level L2 --status resize",
+                "shearpost govern --format csv > governing.csv"],
+               {"store", "json"}),
+    "compare": ("what changed between two runs",
+                "Compare two runs of the store member by member: members added and removed, status changes, "
+                "design-shear and utilization changes above the thresholds, every changed stirrup layout (before "
+                "and after) and the change of stirrup mass.",
+                ["shearpost compare base more-live",
+                 "shearpost compare rev-a rev-b --threshold 0.05 --fail-on-new-resize"],
+                {"store", "json"}),
+    "runs": ("list the store's runs with their inputs",
+             "List the runs of the store: when each was created, its members and force rows, whether it is "
+             "designed, and its input files with their sha256.",
+             ["shearpost runs", "shearpost --store //server/project/shearpost-store runs --json"],
+             {"store", "json"}),
+    "schedule": ("beam marks and the bar schedule (CSV and Parquet)",
+                 "Group typical beams under marks (same section, materials and stirrup layout; mark numbers carry "
+                 "over from the previous run) and write the bar schedule: each stirrup shape with its bent "
+                 "dimensions, cut length, count and mass, per member, mark, level and bar size.",
+                 ["shearpost schedule --out schedule/", "shearpost schedule --run rev-b --envelope-groups --out sched/"],
+                 {"store", "json"}),
+    "explain": ("the whole calculation of one member, clause by clause",
+                "Show the calculation of one member step by step, each step with its ACI 318-19 clause, from the "
+                "stored run: inputs, critical sections, demand, each zone's capacity and spacing limits.",
+                ["shearpost explain L2-SB-23", "shearpost explain L2-SB-23 --run base --json"],
+                {"store", "json"}),
+    "report": ("write the HTML report of a designed run again",
+               "Write the self-contained HTML report of a designed run (one file, nothing fetched): summary, "
+               "member index, overview by level, and per member the shear diagram above the stirrup elevation.",
+               ["shearpost report --out report.html", "shearpost report --run base --member L2-SB-23 --out one.html"],
+               {"store"}),
+    "bench": ("design a synthetic frame and time it against bare reads",
+              "Generate a deterministic synthetic frame, time the ingest and the design against bare reads of the "
+              "same data, check a sample against a per-member reference, and report the peak memory.",
+              ["shearpost bench --members 1000 --cases 40", "shearpost bench --members 10000 --workers 2 --json"],
+              {"json"}),
+}
+
+
+def _globals(q: argparse.ArgumentParser, which: set[str], top: bool = False) -> None:
+    """The global options; SUPPRESS keeps a subcommand from overwriting a value given
+    before it, so that each may come before or after the subcommand."""
+    g = q.add_argument_group("global options (before or after the command)") if not top else q
+    if "store" in which:
+        g.add_argument("--store", type=Path, default=argparse.SUPPRESS,
+                       help=f"store folder (default: ${STORE_ENV}, else ./{DEFAULT_STORE})")
+    if "json" in which:
+        g.add_argument("--json", action="store_true", default=argparse.SUPPRESS,
+                       help="print the result as JSON on stdout (for scripts)")
+    if "config" in which:
+        g.add_argument("--config", type=Path, default=argparse.SUPPRESS,
+                       help="settings TOML (default: common-practice values, see the README)")
+
+
+def _engine_options(q: argparse.ArgumentParser) -> None:
     q.add_argument("--engine", choices=("local", "dask"), default="local",
-                   help="local (this machine) or dask (dask.distributed: a local cluster, or --scheduler)")
-    q.add_argument("--workers", type=int, default=min(2, os.cpu_count() or 1),
+                   help="local: this machine (default); dask: dask.distributed, a local cluster or --scheduler")
+    q.add_argument("--workers", type=positive_int, default=min(2, os.cpu_count() or 1),
                    help="worker processes (default: up to 2)")
     q.add_argument("--scheduler", help="dask scheduler address, e.g. tcp://10.0.0.5:8786 (with --engine dask)")
 
 
-def map_parts(args):
-    if args.engine == "dask":
-        return engines.dask(args.scheduler, max(args.workers, 1))
-    return engines.local(args.workers)
-
-
 def _parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(prog="shearpost", description="Shear reinforcement of RC frame members (ACI 318-19).")
+    p = argparse.ArgumentParser(
+        prog="shearpost", formatter_class=argparse.RawDescriptionHelpFormatter,
+        description=_wrap("Shear reinforcement of reinforced-concrete frame members to ACI 318-19, from the force "
+                          "tables of a frame analysis. Results assist a licensed structural engineer, who checks "
+                          "them."),
+        epilog="examples:\n  shearpost demo\n  shearpost govern --top 10\n  shearpost explain L2-SB-23\n\n"
+               + _wrap(f"The global options --store, --json and --config may come before or after the command. "
+                       f"The store folder is ${STORE_ENV} unless --store names one. "
+                       "'shearpost COMMAND --help' explains a command.") + f"\n\n{_exit_code_text()}")
     p.add_argument("--version", action="version", version=f"shearpost {__version__}")
-    sub = p.add_subparsers(dest="command", required=True)
+    _globals(p, set(GLOBAL_OPTIONS), top=True)
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    q = {}
+    for name, (short, description, examples, applies) in COMMANDS.items():
+        q[name] = sub.add_parser(
+            name, help=short, description=_wrap(description), formatter_class=argparse.RawDescriptionHelpFormatter,
+            epilog="examples:\n" + "\n".join(map(_example, examples)) + f"\n\n{_exit_code_text()}")
+        _globals(q[name], applies)
 
-    def common(q: argparse.ArgumentParser) -> None:
-        q.add_argument("--config", type=Path, help="settings TOML (defaults: common practice)")
-        q.add_argument("--store", type=Path, default=Path("shearpost-store"), help="store folder (default ./shearpost-store)")
-        q.add_argument("--run", dest="run_name", help="name of the new run (default: date and a counter)")
-        q.add_argument("--json", action="store_true", help="print the summary as JSON")
-        q.add_argument("--no-report", action="store_true", help="do not write report.html")
-
-    r = sub.add_parser("run", help="ingest analysis results, design every member, write the tables")
+    r = q["run"]
     r.add_argument("--members", type=Path, required=True, help="members.csv, or an IFC model (.ifc)")
+    r.add_argument("--forces", type=Path, required=True, help="forces.csv: member, case, x_m, V_kN, ...")
+    r.add_argument("--cases", type=Path, help="cases.csv (case,type); without it every case is taken as an "
+                                              "already factored combination")
+    r.add_argument("--map", type=Path, help="column-mapping TOML: read another program's export as it is")
     r.add_argument("--ifc-key", choices=("auto", "globalid", "name", "tag"), default="auto",
                    help="IFC attribute that matches the forces table's member ids (default: auto, the one of "
                         "GlobalId, Name, Tag that matches most)")
-    r.add_argument("--forces", type=Path, required=True, help="forces.csv")
-    r.add_argument("--cases", type=Path, help="cases.csv (case,type); without it cases are factored combinations")
-    r.add_argument("--map", type=Path, help="column-mapping TOML for an analysis program's own export")
     r.add_argument("--out", type=Path, required=True, help="folder for members.csv, zones.csv and report.html")
-    common(r)
-    engine_options(r)
-
-    d = sub.add_parser("demo", help="design the demo building in sample_results/")
+    for d in (r, q["demo"]):
+        d.add_argument("--run", dest="run_name", metavar="NAME", help="name of the new run (default: the date and a counter)")
+        d.add_argument("--no-report", action="store_true", help="do not write report.html")
+    d = q["demo"]
     d.add_argument("--out", type=Path, default=Path("shearpost-demo"), help="output folder (default ./shearpost-demo)")
     d.add_argument("--ifc", action="store_true", help="read the demo's geometry from its IFC model")
-    d.add_argument("--scale", action="append", default=[], metavar="CASE=FACTOR",
-                   help="scale one load case of the demo, e.g. L=1.3 (a changed load, for `compare`)")
-    common(d)
-    engine_options(d)
+    d.add_argument("--scale", action="append", default=[], type=case_factor, metavar="CASE=FACTOR",
+                   help="scale one load case of the demo, e.g. L=1.3 (repeatable)")
+    for name in ("run", "demo"):
+        _engine_options(q[name])
 
-    def stored(q: argparse.ArgumentParser, run_arg: bool = True) -> None:
-        q.add_argument("--store", type=Path, default=Path("shearpost-store"), help="store folder (default ./shearpost-store)")
-        if run_arg:
-            q.add_argument("--run", dest="run_name", help="run to use (default: the latest)")
+    for name in ("govern", "schedule", "explain", "report"):
+        q[name].add_argument("--run", dest="run_name", metavar="NAME", help="run to use (default: the latest)")
 
-    g = sub.add_parser("govern", help="rank members by utilization, failures first")
-    stored(g)
+    g = q["govern"]
     g.add_argument("--level", action="append", default=[], help="only this level (repeatable)")
     g.add_argument("--group", action="append", default=[], help="only this group (repeatable)")
-    g.add_argument("--status", action="append", default=[], choices=engine.STATUSES, help="only this status (repeatable)")
-    g.add_argument("--top", type=int, help="first N members only")
-    g.add_argument("--format", choices=("table", "csv", "json"), default="table")
+    g.add_argument("--status", action="append", default=[], choices=STATUSES, metavar="STATUS",
+                   help=f"only this status (repeatable): {', '.join(STATUSES)}")
+    g.add_argument("--top", type=positive_int, metavar="N", help="the first N members only")
+    g.add_argument("--format", choices=("table", "csv", "json"), default=None,
+                   help="table (default; fits the terminal), csv (every column), json (every column); "
+                        "--json is --format json")
 
-    c = sub.add_parser("compare", help="what changed between two runs")
-    c.add_argument("run_a")
-    c.add_argument("run_b")
-    stored(c, run_arg=False)
-    c.add_argument("--threshold", type=float, default=0.02, help="utilization change to report (default 0.02)")
-    c.add_argument("--vu-threshold", type=float, default=0.05,
+    c = q["compare"]
+    c.add_argument("run_a", metavar="RUN_A", help="the earlier run (the reference)")
+    c.add_argument("run_b", metavar="RUN_B", help="the later run, compared with RUN_A")
+    c.add_argument("--threshold", type=non_negative, default=0.02,
+                   help="utilization change to report (default 0.02)")
+    c.add_argument("--vu-threshold", type=non_negative, default=0.05,
                    help="relative change of the end design shears to report (default 0.05)")
     c.add_argument("--fail-on-new-resize", action="store_true",
                    help="exit 3 when a member of RUN_B needs resizing that did not in RUN_A")
-    c.add_argument("--json", action="store_true")
 
-    rs = sub.add_parser("runs", help="list the store's runs")
-    stored(rs, run_arg=False)
-    rs.add_argument("--json", action="store_true")
+    s = q["schedule"]
+    s.add_argument("--out", type=Path, required=True, help="folder for the schedule files")
+    s.add_argument("--envelope-groups", action="store_true",
+                   help="members of one group with the same section and span share the most demanding layout")
 
-    sc = sub.add_parser("schedule", help="beam marks and bar schedule (CSV and Parquet)")
-    stored(sc)
-    sc.add_argument("--out", type=Path, required=True, help="folder for the schedule files")
-    sc.add_argument("--envelope-groups", action="store_true",
-                    help="members of one group with the same section and span share the most demanding layout")
+    e = q["explain"]
+    e.add_argument("member", metavar="MEMBER", help="the member id, as in members.csv")
 
-    b = sub.add_parser("bench", help="design a synthetic frame and time it against bare reads")
-    b.add_argument("--members", type=int, default=10_000, help="members (default 10,000)")
-    b.add_argument("--cases", type=int, default=40, help="factored combinations (default 40)")
-    b.add_argument("--stations", type=int, default=21, help="output stations per member (default 21)")
-    b.add_argument("--seed", type=int, default=1)
-    b.add_argument("--sample", type=int, default=30, help="members checked by the per-member reference")
-    b.add_argument("--keep", type=Path, help="keep the generated model and store in this folder")
-    b.add_argument("--json", action="store_true")
-    engine_options(b)
-
-    h = sub.add_parser("report", help="the HTML report of a designed run (one self-contained file)")
-    stored(h)
+    h = q["report"]
     h.add_argument("--out", type=Path, required=True, help="the HTML file to write")
-    h.add_argument("--member", action="append", default=[], help="detail sections for these members only")
+    h.add_argument("--member", action="append", default=[], help="detail sections for this member only (repeatable)")
 
-    e = sub.add_parser("explain", help="the whole calculation of one member, clause by clause")
-    e.add_argument("member")
-    stored(e)
-    e.add_argument("--json", action="store_true")
+    b = q["bench"]
+    b.add_argument("--members", type=positive_int, default=10_000, help="members (default 10,000)")
+    b.add_argument("--cases", type=positive_int, default=40, help="factored combinations (default 40)")
+    b.add_argument("--stations", type=positive_int, default=21, help="output stations per member (default 21)")
+    b.add_argument("--seed", type=int, default=1, help="seed of the synthetic frame (default 1)")
+    b.add_argument("--sample", type=positive_int, default=30, help="members checked by the per-member reference")
+    b.add_argument("--keep", type=Path, help="keep the generated model and store in this folder")
+    _engine_options(b)
     return p
 
 
-def read_ifc(path: Path, key: str, st, wanted: set[str]):
-    """Members from an IFC model, with the settings' defaults for what the model lacks. With
-    key 'auto', the attribute (GlobalId, Name, Tag) that matches most force-table members."""
-    defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm)
-    if key != "auto":
-        return ifc.read_ifc_members(path, key=key, defaults=defaults)
-    best, first_error = None, None
-    for k in ("globalid", "name", "tag"):
+def parse(argv: list[str] | None) -> argparse.Namespace:
+    """Parse, then settle the global options: refused where they do not apply, else defaulted."""
+    p = _parser()
+    if "_ARGCOMPLETE" in os.environ:  # completing a command line in the shell, not running it
         try:
-            table, warnings = ifc.read_ifc_members(path, key=k, defaults=defaults)
-        except InputError as exc:
-            first_error = first_error or exc
-            continue
-        hits = len(wanted & set(table.column("member").to_pylist()))
-        if best is None or hits > best[0]:
-            best = (hits, k, table, warnings)
-    if best is None:
-        raise first_error
-    hits, k, table, warnings = best
-    return table, [f"IFC members matched to the forces table by {k} ({hits} of {len(wanted)} members)", *warnings]
+            import argcomplete
+        except ImportError:
+            pass
+        else:
+            argcomplete.autocomplete(p)
+    args = p.parse_args(argv)
+    applies = COMMANDS[args.command][3]
+    for option in GLOBAL_OPTIONS:
+        if option not in applies and getattr(args, option, None) not in (None, False):
+            p.error(f"--{option} does not apply to `shearpost {args.command}`")
+    args.store = Path(getattr(args, "store", None) or os.environ.get(STORE_ENV) or DEFAULT_STORE)
+    args.json = getattr(args, "json", False)
+    args.config = getattr(args, "config", None)
+    if args.command == "govern":
+        if args.json and args.format not in (None, "json"):
+            p.error(f"--json and --format {args.format} contradict each other")
+        args.format = "json" if args.json else (args.format or "table")
+    return args
 
 
-def scaled_demo_forces(scales: list[str], out: Path) -> Path:
-    """The demo's forces with some load cases scaled, written beside the outputs (so that
-    the run's manifest points at the file that was designed)."""
-    import pandas as pd
+# ----------------------------------------------------------------------------- output
 
-    factors = {}
-    for item in scales:
-        case, _, value = item.partition("=")
-        factors[case.strip()] = float(value)
-    forces = pd.read_csv(SAMPLE / "forces.csv")
-    unknown = sorted(set(factors) - set(forces["case"]))
-    if unknown:
-        raise ValueError(f"no case {', '.join(unknown)} in the demo (cases: {', '.join(sorted(forces['case'].unique()))})")
-    f = forces["case"].map(factors).fillna(1.0)
-    for col in ("V_kN", "N_kN", "T_kNm", "M_kNm"):
-        forces[col] = (forces[col] * f).round(3)
-    out.mkdir(parents=True, exist_ok=True)
-    path = out / ("forces-" + "-".join(f"{c}x{v:g}" for c, v in sorted(factors.items())) + ".csv")
-    forces.to_csv(path, index=False)
-    return path
+
+class _QuietWhenClosed:
+    """stdout that goes quiet when its reader stops early (`shearpost govern --format csv | head`):
+    the rest of the output goes to the null device, as the Python documentation advises
+    for SIGPIPE, and the command still ends with its own exit code."""
+
+    def __init__(self, stream):
+        self._stream = stream
+
+    def write(self, text: str) -> int:
+        try:
+            return self._stream.write(text)
+        except BrokenPipeError:
+            self._silence()
+            return len(text)
+
+    def flush(self) -> None:
+        try:
+            self._stream.flush()
+        except BrokenPipeError:
+            self._silence()
+
+    def _silence(self) -> None:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, self._stream.fileno())
+        os.close(devnull)
+
+    def __getattr__(self, name):
+        return getattr(self._stream, name)
 
 
 def _error(text: str) -> None:
@@ -177,25 +327,70 @@ def _error(text: str) -> None:
 
 
 def main(argv: list[str] | None = None) -> int:
-    args = _parser().parse_args(argv)
-    console = Console(stderr=False)
-    if args.command in REVIEW:
-        try:
-            return REVIEW[args.command](args, Store(getattr(args, "store", "shearpost-store")), console)
-        except StoreError as exc:
-            _error(f"error: {exc}")
-            return EXIT_USAGE
+    args = parse(argv)
+    stdout = sys.stdout
+    sys.stdout = _QuietWhenClosed(stdout)
+    try:
+        code = COMMAND_FUNCTIONS[args.command](args)
+        sys.stdout.flush()
+        return code
+    finally:
+        sys.stdout = stdout
+
+
+def _console():
+    from rich.console import Console
+
+    return Console()
+
+
+# ----------------------------------------------------------------------------- design commands
+
+
+def sample_folder() -> Path:
+    """The demo building's inputs, installed as package data."""
+    import importlib.resources
+
+    return Path(str(importlib.resources.files("postproc.sample_results")))
+
+
+def scaled_demo_forces(factors: dict[str, float], out: Path) -> Path:
+    """The demo's forces with some load cases scaled, written beside the outputs (so that
+    the run's manifest points at the file that was designed)."""
+    import pandas as pd
+
+    from postproc.report import write_atomic
+
+    forces = pd.read_csv(sample_folder() / "forces.csv")
+    unknown = sorted(set(factors) - set(forces["case"]))
+    if unknown:
+        raise ValueError(f"no case {', '.join(unknown)} in the demo (cases: {', '.join(sorted(forces['case'].unique()))})")
+    f = forces["case"].map(factors).fillna(1.0)
+    for col in ("V_kN", "N_kN", "T_kNm", "M_kNm"):
+        forces[col] = (forces[col] * f).round(3)
+    path = out / ("forces-" + "-".join(f"{c}x{v:g}" for c, v in sorted(factors.items())) + ".csv")
+    return write_atomic(path, lambda fh: forces.to_csv(fh, index=False, lineterminator="\n"))
+
+
+def cmd_design(args) -> int:
+    """`run` and `demo`: ingest, design, write the tables and the report, summarise."""
+    from postproc import api, engines, html_report, report
+    from postproc.adapters.errors import InputError
+    from postproc.settings import load_settings
+    from postproc.store import Store, StoreError
+
     if args.command == "demo":
-        args.members = SAMPLE / ("demo_building.ifc" if args.ifc else "members.csv")
-        args.forces, args.cases, args.map, args.ifc_key = SAMPLE / "forces.csv", SAMPLE / "cases.csv", None, "auto"
+        sample = sample_folder()
+        args.members = sample / ("demo_building.ifc" if args.ifc else "members.csv")
+        args.forces, args.cases, args.map, args.ifc_key = sample / "forces.csv", sample / "cases.csv", None, "auto"
         if not args.members.exists():
-            _error(f"demo data not found in {SAMPLE}; install from a checkout with `pip install -e .`")
+            _error(f"error: the demo's data is missing from {sample}; reinstall shearpost")
             return EXIT_USAGE
         if args.scale:
             try:
-                args.forces = scaled_demo_forces(args.scale, args.out)
+                args.forces = scaled_demo_forces(dict(args.scale), args.out)
             except ValueError as exc:
-                _error(f"error: --scale: {exc}")
+                _error(f"shearpost demo: error: --scale: {exc}")
                 return EXIT_USAGE
     store = Store(args.store)
     try:
@@ -205,44 +400,15 @@ def main(argv: list[str] | None = None) -> int:
         _error(f"error: {exc}")
         return EXIT_USAGE
     show_progress = not args.json and sys.stderr.isatty()
+    if args.engine == "dask":
+        map_parts = engines.dask(args.scheduler, args.workers)
+    else:
+        map_parts = engines.local(args.workers)
     try:
         settings = load_settings(args.config)
-        cmap = load_column_map(args.map, csv_tables.KNOWN_COLUMNS)
-        cases = csv_tables.read_cases(args.cases, cmap) if args.cases else None
-        if args.members.suffix.lower() == ".ifc":
-            probe = elements.forces_source(args.forces, cmap)
-            members, warnings = read_ifc(args.members, args.ifc_key, settings.ifc, probe.member_ids())
-            lengths = None
-        else:
-            members, warnings = csv_tables.read_members(args.members, cmap)
-            lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
-        source = elements.forces_source(args.forces, cmap, lengths, cases, args.cases, warnings,
-                                        settings.stations.tolerance_mm)
-        inputs = {"members": args.members, "forces": args.forces, **elements.extra_inputs(source)}
-        for role, path in (("cases", args.cases), ("column_map", args.map), ("settings", args.config)):
-            if path:
-                inputs[role] = path
-        holder = {}
-
-        def design(staged) -> None:
-            """Design the staged run into its design/ folder before the run becomes visible."""
-            if args.members.suffix.lower() == ".ifc":
-                found = {m: L for m, L in zip(members.column("member").to_pylist(),
-                                              members.column("length_m").to_pylist()) if L is not None}
-                warnings.extend(ifc.length_mismatches(found, staged.forces(["member", "x_m"]),
-                                                      settings.ifc.length_tolerance_mm))
-            folder = staged.design_path
-            folder.mkdir()
-            advance = holder["task"]("designing (parts)", len(staged.force_parts()))
-            holder["result"] = result = engine.design_into(staged, settings, folder, map_parts(args), advance)
-            result.warnings[:0] = warnings
-            (folder / "manifest.json").write_text(report.dump_json(engine.design_manifest(result, settings)),
-                                                  encoding="utf-8")
-
         with report.progress_bars(show_progress) as task:
-            holder["task"] = task
-            run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()},
-                               progress=task("reading forces (rows)"), then=design)
+            run, result = api.ingest_and_design(store, name, args.members, args.forces, args.cases, args.map,
+                                                settings, args.config, map_parts, args.ifc_key, task)
     except InputError as exc:
         _error(f"error: {exc}")
         _error("nothing was written")
@@ -250,8 +416,7 @@ def main(argv: list[str] | None = None) -> int:
     except StoreError as exc:
         _error(f"error: {exc}")
         return EXIT_USAGE
-    result = holder["result"]
-    report.write_tables(result, args.out)
+    report.write_tables(result.members, result.zones, args.out)
     if not args.no_report:
         with report.progress_bars(show_progress) as task:
             done = task("writing report.html", 1)
@@ -259,35 +424,63 @@ def main(argv: list[str] | None = None) -> int:
             done()
     doc = report.summary(result, run.name, args.out)
     doc["report"] = None if args.no_report else str(args.out / "report.html")
-    try:
-        if args.json:
-            print(report.dump_json(doc))
-        else:
-            report.print_summary(doc, console)
-    except BrokenPipeError:  # the reader of a pipe stopped early (e.g. `| head`): as the Python docs advise
-        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+    why = api.nothing_designed(result.members)
+    doc["nothing_designed"] = why
+    if args.json:
+        print(report.dump_json(doc))
+    else:
+        report.print_summary(doc, _console())
+    if why:
+        _error(f"error: run {run.name}: {why}")
+        _error(f"the statuses are in {args.out / 'members.csv'}")
+        return EXIT_INPUT
     return EXIT_RESIZE if doc["status"]["resize"] else EXIT_OK
 
 
-def _run_of(args, store: Store):
+# ----------------------------------------------------------------------------- review commands
+
+
+def _review(fn):
+    """A command on a store's runs: a missing store, run or member is a usage error."""
+
+    def run(args) -> int:
+        from postproc.store import Store, StoreError
+
+        try:
+            return fn(args, Store(args.store))
+        except StoreError as exc:
+            _error(f"error: {exc}")
+            return EXIT_USAGE
+
+    return run
+
+
+def _run_of(args, store):
     return store.run(args.run_name) if args.run_name else store.latest()
 
 
-def _print_frame(df, console: Console, title: str) -> None:
-    """A table with units-aware number formats: kN and kg to 0.1, ratios to 0.001."""
+def _print_frame(df, console, title: str) -> None:
+    """A table under the shared labels, units-aware number formats: kN and kg to 0.1, ratios to 0.001."""
+    from rich.table import Table
+
+    from postproc.report import shown
+
     t = Table(title=title, title_justify="left")
     digits = [1 if ("kN" in str(c) or "kg" in str(c)) else 3 for c in df.columns]
     for col in df.columns:
         numeric = df[col].dtype.kind in "if"
-        t.add_column(str(col), justify="right" if numeric else "left", no_wrap=str(col) in ("member", "rank", "status"),
-                     overflow="fold")
+        t.add_column(label(str(col)), justify="right" if numeric else "left",
+                     no_wrap=str(col) in ("member", "rank", "status", "governing_case"), overflow="fold")
     for row in df.itertuples(index=False):
-        t.add_row(*["" if (isinstance(v, float) and v != v) else (f"{v:,.{n}f}" if isinstance(v, float) else report.shown(v))
+        t.add_row(*["" if (isinstance(v, float) and v != v) else (f"{v:,.{n}f}" if isinstance(v, float) else shown(v))
                     for v, n in zip(row, digits)])
     console.print(t)
 
 
-def cmd_govern(args, store: Store, console: Console) -> int:
+@_review
+def cmd_govern(args, store) -> int:
+    from postproc import govern, report
+
     run = _run_of(args, store)
     df = govern.rank(run, args.level, args.group, args.status, args.top)
     if args.format == "csv":
@@ -295,21 +488,24 @@ def cmd_govern(args, store: Store, console: Console) -> int:
     elif args.format == "json":
         print(df.to_json(orient="records", indent=2))
     else:
-        shown = df[["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_i_kN",
-                    "vu_design_j_kN", "stirrups_total"]].rename(columns={
-            "utilization": "util.", "governing_case": "governing combination", "vu_design_i_kN": "Vu,i kN",
-            "vu_design_j_kN": "Vu,j kN", "stirrups_total": "sets"})
-        _print_frame(shown, console, f"Governing members of run {run.name}")
+        console = _console()
+        console.print(f"Members of run {report.shown(run.name)}, those needing action first "
+                      f"({len(df):,} shown)", highlight=False)
+        console.print(report.governing_table(df, console.width))
         console.print(f"[italic]{report.CAUTION}[/italic]")
     return EXIT_OK
 
 
-def cmd_compare(args, store: Store, console: Console) -> int:
+@_review
+def cmd_compare(args, store) -> int:
+    from postproc import govern, report
+
     diff = govern.compare(store.run(args.run_a), store.run(args.run_b), args.threshold, args.vu_threshold)
     if args.json:
         print(report.dump_json(diff.as_dict()))
     else:
-        console.print(f"[bold]{diff.run_a}[/bold] -> [bold]{diff.run_b}[/bold]")
+        console = _console()
+        console.print(f"[bold]{report.shown(diff.run_a)}[/bold] (A) -> [bold]{report.shown(diff.run_b)}[/bold] (B)")
         console.print(f"added: {report.shown(', '.join(diff.added) or 'none')}")
         console.print(f"removed: {report.shown(', '.join(diff.removed) or 'none')}")
         for df, title in ((diff.status_changes, "Status changes"),
@@ -327,7 +523,12 @@ def cmd_compare(args, store: Store, console: Console) -> int:
     return EXIT_RESIZE if args.fail_on_new_resize and diff.newly_resize else EXIT_OK
 
 
-def cmd_runs(args, store: Store, console: Console) -> int:
+@_review
+def cmd_runs(args, store) -> int:
+    from rich.table import Table
+
+    from postproc import report
+
     rows = []
     for r in store.runs():
         man = r.manifest()
@@ -338,36 +539,59 @@ def cmd_runs(args, store: Store, console: Console) -> int:
     if args.json:
         print(report.dump_json({"store": str(store.root), "runs": rows}))
         return EXIT_OK
-    t = Table(title=f"Runs in {store.root}", title_justify="left")
+    t = Table(title=f"Runs in {report.shown(store.root)}", title_justify="left")
     for col in ("run", "created (UTC)", "members", "force rows", "designed", "inputs"):
         t.add_column(col, overflow="fold")
     for r in rows:
-        t.add_row(r["run"], r["created"][:16].replace("T", " "), str(r["members"]), f"{r['force_rows']:,}",
-                  "yes" if r["designed"] else "no", ", ".join(Path(v["path"]).name for v in r["inputs"].values()))
-    console.print(t)
+        t.add_row(report.shown(r["run"]), r["created"][:16].replace("T", " "), str(r["members"]),
+                  f"{r['force_rows']:,}", "yes" if r["designed"] else "no",
+                  report.shown(", ".join(Path(v["path"]).name for v in r["inputs"].values())))
+    _console().print(t)
     return EXIT_OK
 
 
-def cmd_schedule(args, store: Store, console: Console) -> int:
+@_review
+def cmd_schedule(args, store) -> int:
+    from postproc import report, schedule
+    from postproc.settings import settings_from_dict
+
     run = _run_of(args, store)
     settings = settings_from_dict(run.manifest().get("settings", {}))
     sched = schedule.for_run(store, run, settings.detailing, args.envelope_groups)
     paths = sched.write(args.out)
-    console.print(f"run {run.name}: {len(sched.marks)} marks for {len(sched.members)} designed members, "
-                  f"{int(sched.bars['count'].sum()):,} bars, {sched.bars.mass_kg.sum():,.1f} kg")
+    doc = {"run": run.name, "marks": len(sched.marks), "designed_members": len(sched.members),
+           "bars": int(sched.bars["count"].sum()), "stirrup_mass_kg": round(float(sched.bars.mass_kg.sum()), 1),
+           "by_bar": sched.by_bar.to_dict("records"), "files": [str(p) for p in paths], "caution": report.CAUTION}
+    if args.json:
+        print(report.dump_json(doc))
+        return EXIT_OK
+    console = _console()
+    console.print(f"run {report.shown(run.name)}: {doc['marks']} marks for {doc['designed_members']} designed members, "
+                  f"{doc['bars']:,} bars, {doc['stirrup_mass_kg']:,.1f} kg")
     _print_frame(sched.by_bar, console, "By bar size")
-    console.print(f"written: {', '.join(p.name for p in paths if p.suffix == '.csv')} (and .parquet) in {args.out}")
+    console.print(f"written: {', '.join(p.name for p in paths if p.suffix == '.csv')} (and .parquet) in "
+                  f"{report.shown(args.out)}")
     console.print(f"[italic]{report.CAUTION}[/italic]")
     return EXIT_OK
 
 
-def cmd_explain(args, store: Store, console: Console) -> int:
+@_review
+def cmd_explain(args, store) -> int:
+    from postproc import explain, govern, report
+    from postproc.settings import settings_from_dict
+    from postproc.terms import did_you_mean
+
     run = _run_of(args, store)
+    known = govern.design_table(run, "members", columns=["member"])["member"].tolist()
+    if args.member not in known:
+        _error(f"error: no member {args.member!r} in run {run.name}{did_you_mean(args.member, known)}")
+        return EXIT_USAGE
     steps = explain.explain(run, args.member, settings_from_dict(run.manifest().get("settings", {})))
     if args.json:
         print(report.dump_json({"run": run.name, "member": args.member, "steps": [s.__dict__ for s in steps],
                                 "caution": report.CAUTION}))
         return EXIT_OK
+    console = _console()
     console.print(f"[bold]{report.shown(args.member)}[/bold] in run {report.shown(run.name)}", highlight=False)
     for s in steps:
         console.print(f"[bold]{report.shown(s.title)}[/bold]" + (f"  [dim]ACI 318-19 {s.clause}[/dim]" if s.clause else ""),
@@ -378,10 +602,29 @@ def cmd_explain(args, store: Store, console: Console) -> int:
     return EXIT_OK
 
 
-def cmd_bench(args, store: Store, console: Console) -> int:
+@_review
+def cmd_report(args, store) -> int:
+    from postproc import html_report, report
+
+    run = _run_of(args, store)
+    try:
+        path = html_report.write_html_report(run, args.out, args.member or None)
+    except ValueError as exc:
+        _error(f"error: {exc}")
+        return EXIT_USAGE
+    _console().print(f"report of run {report.shown(run.name)} written to {report.shown(path)}", highlight=False)
+    return EXIT_OK
+
+
+def cmd_bench(args) -> int:
+    from rich.table import Table
+
+    from postproc import bench, engines, report
+
     show = not args.json and sys.stderr.isatty()
+    map_parts = engines.dask(args.scheduler, args.workers) if args.engine == "dask" else engines.local(args.workers)
     with report.progress_bars(show) as task:
-        figures = bench.run(args.members, args.cases, args.stations, args.seed, args.sample, map_parts(args),
+        figures = bench.run(args.members, args.cases, args.stations, args.seed, args.sample, map_parts,
                             args.workers if args.engine == "local" else 0, args.keep, task("bench: reading forces (rows)"))
     if args.json:
         print(report.dump_json({**figures.__dict__, "end_to_end_s": figures.end_to_end_s}))
@@ -391,23 +634,13 @@ def cmd_bench(args, store: Store, console: Console) -> int:
     t.add_column("measured", overflow="fold")
     for what, text in figures.rows():
         t.add_row(what, text)
-    console.print(t)
+    _console().print(t)
     return EXIT_OK
 
 
-def cmd_report(args, store: Store, console: Console) -> int:
-    run = _run_of(args, store)
-    try:
-        path = html_report.write_html_report(run, args.out, args.member or None)
-    except ValueError as exc:
-        _error(f"error: {exc}")
-        return EXIT_USAGE
-    console.print(f"report of run {report.shown(run.name)} written to {report.shown(path)}")
-    return EXIT_OK
-
-
-REVIEW = {"report": cmd_report, "bench": cmd_bench, "govern": cmd_govern, "compare": cmd_compare, "runs": cmd_runs, "schedule": cmd_schedule,
-          "explain": cmd_explain}
+COMMAND_FUNCTIONS = {"run": cmd_design, "demo": cmd_design, "govern": cmd_govern, "compare": cmd_compare,
+                     "runs": cmd_runs, "schedule": cmd_schedule, "explain": cmd_explain, "report": cmd_report,
+                     "bench": cmd_bench}
 
 
 if __name__ == "__main__":

@@ -17,10 +17,12 @@ import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
 from postproc import combos as combos_mod
-from postproc import design, detailing, stations
+from postproc import detailing, stations
+from postproc.demand import beams as demand
 from postproc.codes import aci318_19 as aci
 from postproc.settings import BAR_CATALOGUE, Settings
 from postproc.store import Run
+from postproc.terms import STATUSES  # noqa: F401  (engine.STATUSES: every member leaves with one)
 
 MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_kN", "vu_design_j_kN",
                   "crit_i", "crit_j", "phi_vc_kN", "phi_vn_limit_kN", "utilization", "stirrups_total",
@@ -28,7 +30,6 @@ MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_
                   # added after the first release, at the end (the table's columns are a contract)
                   "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2"]
 ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
-STATUSES = ("designed", "resize", "deep-beam", "no-forces", "no-geometry", "invalid", "not-covered")
 BATCH_CELLS = 500_000  # combinations x stations per batch: bounds memory (and stays in cache), not results
 
 
@@ -194,7 +195,7 @@ class Members:
 
     names: np.ndarray
     geo: stations.Geometry
-    sec: design.Section
+    sec: demand.Section
     free_i: np.ndarray
     free_j: np.ndarray
 
@@ -239,7 +240,7 @@ def _geometry(bm: pd.DataFrame) -> Members:
         length=bm["length_m"].to_numpy() * 1e3, face_i=bm["face_i_mm"].to_numpy(), face_j=bm["face_j_mm"].to_numpy(),
         d=bm["d_mm"].to_numpy(), h=bm["h_mm"].to_numpy(), support_i=bm["support_i"].to_numpy(object),
         support_j=bm["support_j"].to_numpy(object), load_top=(bm["load_face"] == "top").to_numpy())
-    sec = design.section_from_members(
+    sec = demand.section_from_members(
         b=bm["b_mm"].to_numpy(float), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
         lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
         bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float))
@@ -277,7 +278,7 @@ def _resample(mb: Members, bi: BatchInput, cset: combos_mod.ComboSet, settings: 
     return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings)
 
 
-def _options(mb: Members, dem: design.Demand, grid: stations.Grid, st) -> Options:
+def _options(mb: Members, dem: demand.Demand, grid: stations.Grid, st) -> Options:
     """Every ladder choice for every member: legs enough for the spacing across the width
     (Table 9.7.6.2.2) where stirrups are needed, and the torsion geometry of that bar."""
     here = dem.stirrups_needed | st.stirrups_throughout
@@ -287,18 +288,18 @@ def _options(mb: Members, dem: design.Demand, grid: stations.Grid, st) -> Option
     db = np.array([BAR_CATALOGUE[b][0] for b in bars])
     legs = np.array([[max(base, detailing.legs_for_width(b, st.clear_cover_mm, dbk, a)) if np.isfinite(a) else base
                       for b, a in zip(mb.sec.b, across)] for (_, base), dbk in zip(st.ladder, db)], dtype=float)
-    geo = [design.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover_mm, dbk) for dbk in db]
+    geo = [demand.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover_mm, dbk) for dbk in db]
     return Options(bars, legs, np.array([BAR_CATALOGUE[b][1] for b in bars]), db,
                    np.array([a for a, _ in geo]), np.array([p for _, p in geo]))
 
 
-def _allowed_spacing(k: int, opt: Options, dem: design.Demand, cand, grid: stations.Grid, here, module) -> np.ndarray:
+def _allowed_spacing(k: int, opt: Options, dem: demand.Demand, cand, grid: stations.Grid, here, module) -> np.ndarray:
     """Per station, the largest spacing on the module that option k admits (inf: none needed):
     strength per outer leg (22.5.8.5.3, 22.7.6.1), the minimum of 9.6.3.4 / 9.6.4.2, s_max
     (9.7.6.2.2; ph/8 and 300 mm with torsion, 9.7.6.3.3)."""
     mem = grid.member
     legs, area = opt.legs[k][mem], opt.area[k]
-    need = design.per_leg_need(cand, dem, legs, opt.Aoh[k][mem])
+    need = demand.per_leg_need(cand, dem, legs, opt.Aoh[k][mem])
     with np.errstate(divide="ignore"):
         s = np.where(need > 0, area / need, np.inf)
         s = np.where(dem.minimum, np.minimum(s, legs * area / dem.av_min_s), s)
@@ -307,7 +308,7 @@ def _allowed_spacing(k: int, opt: Options, dem: design.Demand, cand, grid: stati
     return detailing.floor_to_module(s, module)
 
 
-def _layout(mb: Members, rs: Resampled, cand, dem: design.Demand, opt: Options, deep: np.ndarray,
+def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, deep: np.ndarray,
             settings: Settings) -> Layouts:
     """Step 5: the first ladder option that fits the minimum spacing and the torsion section
     limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member."""
@@ -322,7 +323,7 @@ def _layout(mb: Members, rs: Resampled, cand, dem: design.Demand, opt: Options, 
     for k in range(len(opt.bars)):
         allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module_mm)
         fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing_mm
-        ratio = design.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
+        ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
                                            opt.ph[k][grid.member])
         torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
     usable = fits & torsion_ok
@@ -359,7 +360,7 @@ def _layout(mb: Members, rs: Resampled, cand, dem: design.Demand, opt: Options, 
 def _torsion_message(mb, rs, cand, dem, opt, m) -> str:
     sl = slice(rs.grid.offsets[m], rs.grid.offsets[m + 1])
     best = int(np.argmax(opt.Aoh[:, m]))
-    ratio = design.torsion_limit_ratio(mb.sec.take(rs.grid.member), cand, dem, opt.Aoh[best][rs.grid.member],
+    ratio = demand.torsion_limit_ratio(mb.sec.take(rs.grid.member), cand, dem, opt.Aoh[best][rs.grid.member],
                                        opt.ph[best][rs.grid.member])[sl].max()
     return (f"Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) (ratio {ratio:.2f} with {opt.bars[best]} "
             "stirrups): enlarge the section (the limit grows with bw*d and with Aoh^2/ph) or raise f'c; "
@@ -396,12 +397,12 @@ def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Pro
     return Provided(on, spacing, legs, np.where(on, opt.area[k], 0.0), opt.Aoh[k, cols], opt.ph[k, cols], leg_gap)
 
 
-def _check(mb: Members, rs: Resampled, cand, dem: design.Demand, prov: Provided, lay: Layouts,
-           settings: Settings) -> design.Capacity:
+def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided, lay: Layouts,
+           settings: Settings) -> demand.Capacity:
     """Step 6, the self-check: every station of every designed member, every candidate
     combination, and every gap between stirrups against the practical minimum."""
     sec = mb.sec.take(rs.grid.member)
-    cap = design.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
+    cap = demand.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
                               lay.stirrups_here)
     bad = prov.on & ~cap.ok
     if bad.any():
@@ -428,14 +429,14 @@ def _governing(values: np.ndarray, tie: np.ndarray, bounds: np.ndarray) -> np.nd
     return order[bounds[1:] - 1]
 
 
-def _records(mb: Members, rs: Resampled, cset, cand, dem: design.Demand, opt: Options, lay: Layouts,
-             prov: Provided, cap: design.Capacity | None, why_deep: np.ndarray, settings: Settings):
+def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Options, lay: Layouts,
+             prov: Provided, cap: demand.Capacity | None, why_deep: np.ndarray, settings: Settings):
     """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
     p = dem.pairs
     cs = cand.station
     k_ref = np.where(lay.option >= 0, lay.option, int(np.argmax(opt.Aoh.mean(axis=1))))  # bar for undesigned
-    torsion_ratio = design.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem,
+    torsion_ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem,
                                                opt.Aoh[k_ref[grid.member], grid.member],
                                                opt.ph[k_ref[grid.member], grid.member]) if p.torsion.any() else None
     # per candidate: the utilization it produces (provided layout, else the section limits)
@@ -552,7 +553,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: design.Demand, opt: Op
     return rows, zones, trace, positions
 
 
-def _vc_equation(sec: design.Section, p: design.PairDemand, with_min: np.ndarray) -> np.ndarray:
+def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray) -> np.ndarray:
     """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, or zero under tension)."""
     a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam)
     cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam)
@@ -569,7 +570,7 @@ def _design_batch(bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings)
     rs = _resample(mb, bi, cset, settings)
     cand = combos_mod.candidates(cset, rs.case_values)
     sec_st = mb.sec.take(rs.grid.member)
-    dem = design.required(sec_st, cand)
+    dem = demand.required(sec_st, cand)
     cantilever = mb.free_i | mb.free_j
     why_deep = deep_beam_reasons(mb.geo.clear_span, mb.geo.h, mb.geo.d, cantilever, rs.rules.point_load_near_bearing)
     opt = _options(mb, dem, rs.grid, settings.detailing)

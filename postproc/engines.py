@@ -1,6 +1,14 @@
 """Engines that run the design of a run's parts: in this process, in local worker
 processes, or on a dask.distributed cluster. Each returns a map(fn, parts) that yields
-results in part order, so every engine gives the same tables."""
+results in part order, so every engine gives the same tables.
+
+The kernels multiply small matrices (combinations x cases) over long arrays; BLAS and
+OpenMP worker threads only spin there and fight the engine's own processes. So the
+design runs with one such thread per process: in worker processes from their start, and
+in this process only while the design runs (threadpoolctl), never for the rest of the
+session. dask.distributed workers get the same limit from dask's own worker environment
+(OMP_NUM_THREADS, MKL_NUM_THREADS, OPENBLAS_NUM_THREADS = 1).
+"""
 
 from __future__ import annotations
 
@@ -8,19 +16,35 @@ import multiprocessing as mp
 from concurrent.futures import ProcessPoolExecutor
 
 
+def start_method() -> str:
+    """forkserver where the platform has it (no fork of a process that already runs Arrow
+    threads), else spawn (Windows); both exist on macOS."""
+    return "forkserver" if "forkserver" in mp.get_all_start_methods() else "spawn"
+
+
+def _one_blas_thread() -> None:
+    """Worker initializer: one BLAS/OpenMP thread in this worker process."""
+    from threadpoolctl import threadpool_limits
+
+    threadpool_limits(1)
+
+
 def local(workers: int = 1):
     """Parts in this process (workers <= 1) or in that many worker processes."""
-    if workers <= 1:
-        return map
 
     def run(fn, parts):
+        from threadpoolctl import threadpool_limits
+
         parts = list(parts)
-        if len(parts) <= 1:
-            yield from map(fn, parts)
+        if workers <= 1 or len(parts) <= 1:
+            with threadpool_limits(1):  # restored when the design is done
+                yield from map(fn, parts)
             return
-        ctx = mp.get_context("forkserver")  # no fork of a process that already runs Arrow threads
-        ctx.set_forkserver_preload(["postproc.engine"])
-        with ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx) as pool:
+        ctx = mp.get_context(start_method())
+        if ctx.get_start_method() == "forkserver":
+            ctx.set_forkserver_preload(["postproc.engine"])
+        with ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
+                                 initializer=_one_blas_thread) as pool:
             yield from pool.map(fn, parts)
 
     return run

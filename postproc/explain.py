@@ -14,7 +14,8 @@ import json
 import numpy as np
 import pyarrow.parquet as pq
 
-from postproc import design, detailing, stations
+from postproc import detailing, stations
+from postproc.demand import beams as demand
 from postproc.codes import aci318_19 as aci
 from postproc.govern import design_table
 from postproc.settings import BAR_CATALOGUE, Settings, Stations
@@ -83,7 +84,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         return steps
     zones = design_table(run, "zones")
     zones = zones[zones.member == member].sort_values("zone")
-    sec = design.section_from_members(
+    sec = demand.section_from_members(
         b=np.array([m.b_mm]), h=np.array([m.h_mm]), d=np.array([m.d_mm]), fc=np.array([m.fc_mpa]),
         fyt=np.array([m.fyt_mpa]), lam=np.array([m["lambda"]]), fy=np.array([m.fy_mpa]),
         As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]))
@@ -96,7 +97,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         "or free end) within the spacing the demand allows there; s <= s_max; Av >= Av,min where required",
         f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} mm ({st.governing_case[worst]})"]))
     steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
-        f"{r.stirrups_total} sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
+        f"{r.stirrups_total} stirrup sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
         f"code edition {man.get('code_edition')}, shearpost {man.get('tool_version')}"]))
     return steps
 
@@ -193,7 +194,7 @@ def _critical_sections(s, m, r, settings: Stations) -> Step:
     return Step("Critical sections", "9.4.3.2", lines)
 
 
-def _zone_step(z, st, sec: design.Section, m) -> Step:
+def _zone_step(z, st, sec: demand.Section, m) -> Step:
     sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
     if not len(sub):  # a lone stirrup between stations: the stations next to it
         sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]

@@ -9,10 +9,10 @@ import pandas as pd
 import pyarrow.parquet as pq
 
 from postproc.store import Run, StoreError
+from postproc.terms import NEEDS_ACTION
 
 RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "governing_case",
                 "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message"]
-FAILING = ("resize",)
 
 
 def design_table(run: Run, name: str, member: str | None = None, columns: list[str] | None = None) -> pd.DataFrame:
@@ -21,6 +21,8 @@ def design_table(run: Run, name: str, member: str | None = None, columns: list[s
         raise StoreError(f"run '{run.name}' has no design yet")
     path = run.design_path / name
     path = path if path.is_dir() else path.with_suffix(".parquet")
+    if path.is_dir() and not any(path.glob("*.parquet")):  # the station trace of a run that designed nothing
+        return pd.DataFrame(columns=columns or [])
     filters = None if member is None else [("member", "==", member)]
     return pq.read_table(path, columns=columns, filters=filters).to_pandas()
 
@@ -32,9 +34,23 @@ def results_with_labels(run: Run) -> pd.DataFrame:
     return res.merge(labels, on="member", how="left").fillna({"level": "", "group": ""})
 
 
+def status_place(status: pd.Series) -> np.ndarray:
+    """Review order of statuses: those needing action in the order of NEEDS_ACTION (resize,
+    deep-beam, invalid, no-forces, no-geometry), then designed, then the rest (not-covered)."""
+    action = {s: k for k, s in enumerate(NEEDS_ACTION)}
+    return status.astype(str).map(lambda s: action.get(s, len(action) + (0 if s == "designed" else 1))).to_numpy()
+
+
+def rank_order(members: pd.DataFrame) -> np.ndarray:
+    """Row positions of ``members`` in review order: by status_place, then by utilization
+    (the larger of Vu/phi*Vn provided and Vu over the section limit), highest first, then by id."""
+    place = status_place(members["status"])
+    util = -members["utilization"].astype(float).fillna(-np.inf).to_numpy()
+    return np.lexsort((members["member"].astype(str).to_numpy(), util, place))
+
+
 def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) -> pd.DataFrame:
-    """Members ranked for review: failures first, then by utilization (the larger of
-    Vu/phi*Vn provided and Vu over the section limit), highest first; undesigned last."""
+    """Members ranked for review (see rank_order), filtered by level, group and status."""
     df = results_with_labels(run)
     if levels:
         df = df[df.level.isin(levels)]
@@ -42,8 +58,7 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
         df = df[df.group.isin(groups)]
     if statuses:
         df = df[df.status.isin(statuses)]
-    df = df.assign(_fail=~df.status.isin(FAILING), _util=-df.utilization.fillna(-np.inf))
-    df = df.sort_values(["_fail", "_util", "member"], kind="stable").drop(columns=["_fail", "_util"])
+    df = df.iloc[rank_order(df)]
     if top:
         df = df.head(top)
     df.insert(0, "rank", np.arange(1, len(df) + 1))
@@ -98,8 +113,9 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
     delta = ub - ua
     big = (delta.abs() > threshold) | (ua.isna() != ub.isna())
     util_changes = pd.DataFrame({"member": delta.index[big], "utilization_a": ua[big].to_numpy(),
-                                 "utilization_b": ub[big].to_numpy(), "change": delta[big].round(3).to_numpy()})
-    util_changes = util_changes.reindex(util_changes.change.abs().sort_values(ascending=False).index)
+                                 "utilization_b": ub[big].to_numpy(),
+                                 "utilization_change": delta[big].round(3).to_numpy()})
+    util_changes = util_changes.reindex(util_changes.utilization_change.abs().sort_values(ascending=False).index)
 
     za, zb = design_table(a, "zones"), design_table(b, "zones")
     key = ["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
@@ -110,9 +126,9 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
     rows = []
     for m in both:
         if sig_a.get(m) != sig_b.get(m):
-            rows.append({"member": m, "before": text_a.get(m, ""), "after": text_b.get(m, ""),
-                         "mass_change_kg": round(float(mb.stirrup_mass_kg[m] - ma.stirrup_mass_kg[m]), 2)})
-    layout_changes = pd.DataFrame(rows, columns=["member", "before", "after", "mass_change_kg"])
+            rows.append({"member": m, "layout_a": text_a.get(m, ""), "layout_b": text_b.get(m, ""),
+                         "stirrup_mass_change_kg": round(float(mb.stirrup_mass_kg[m] - ma.stirrup_mass_kg[m]), 2)})
+    layout_changes = pd.DataFrame(rows, columns=["member", "layout_a", "layout_b", "stirrup_mass_change_kg"])
     demand = []
     for m in both:
         va = ma.loc[m, ["vu_design_i_kN", "vu_design_j_kN"]].astype(float).to_numpy()
@@ -121,8 +137,9 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
             rel = np.nanmax(np.abs(vb - va) / np.maximum(np.abs(va), 1e-9)) if np.isfinite(va).any() else np.nan
         if np.isfinite(rel) and rel > vu_threshold:
             demand.append({"member": m, "vu_i_a_kN": va[0], "vu_i_b_kN": vb[0], "vu_j_a_kN": va[1],
-                           "vu_j_b_kN": vb[1], "change": round(float(rel), 3)})
-    demand_changes = pd.DataFrame(demand, columns=["member", "vu_i_a_kN", "vu_i_b_kN", "vu_j_a_kN", "vu_j_b_kN", "change"])
+                           "vu_j_b_kN": vb[1], "vu_change_rel": round(float(rel), 3)})
+    demand_changes = pd.DataFrame(demand, columns=["member", "vu_i_a_kN", "vu_i_b_kN", "vu_j_a_kN", "vu_j_b_kN",
+                                                   "vu_change_rel"])
     was_resize = set(ma.index[ma.status == "resize"])
     newly = sorted(m for m in mb.index[mb.status == "resize"] if m not in was_resize)
     return Comparison(a.name, b.name, added, removed, status_changes, util_changes.reset_index(drop=True),

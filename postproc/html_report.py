@@ -1,36 +1,44 @@
-"""One self-contained HTML file for a designed run: header, sortable index, frame
-overview and, per member, the shear diagram above the stirrup elevation.
+"""One self-contained HTML file for a designed run: the members needing action, a
+sortable index, an overview by level (a banded utilization strip per level and, where
+the members carry coordinates, a plan per level) and, per member, the shear diagram
+above the stirrup elevation.
 
-Everything is inline (CSS, SVG, a little JavaScript for sorting and filtering); nothing
-is fetched. The drawings are built as strings from whole-run arrays: stations are
-grouped by member once, scaled to pixels in one pass, and thinned to the points that
-change the picture (the shear between loads is linear, and the stations are dense).
+The page skeleton is a jinja2 template (templates/, package data); everything is inline
+(CSS, SVG, a little JavaScript for sorting and filtering) and nothing is fetched. The
+drawings are built as strings from whole-run arrays: stations are grouped by member
+once, scaled to pixels in one pass, and thinned to the points that change the picture
+(the shear between loads is linear, and the stations are dense).
 """
 
 from __future__ import annotations
 
+import functools
 import itertools
 import json
 import math
-import os
-import tempfile
 from html import escape
 from pathlib import Path
 
+import jinja2
 import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.parquet as pq
+from markupsafe import Markup
 
-from postproc.engine import STATUSES
-from postproc.report import CAUTION
+from postproc.govern import rank_order, status_place
+from postproc.report import CAUTION, write_atomic
 from postproc.store import Run
+from postproc.terms import NEEDS_ACTION, STATUSES, did_you_mean
 
 STATION_COLUMNS = ["member", "x_mm", "vu_kN", "vu_max_kN", "phi_vc_kN", "phi_vn_kN", "phi_vn_limit_kN",
                    "avmin_threshold_kN", "spacing_mm"]
 COORDS = ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]
-STATUS_RANK = {"resize": 0, **{s: k + 1 for k, s in enumerate(s for s in STATUSES if s != "resize")}}
+# Utilization bands of the overview: upper limits of bands 0-3; band 4 is above 1.0 (resize).
+BANDS = (0.5, 0.8, 0.95, 1.0)
+BAND_LABELS = ("\u2264 0.5", "0.5\u20130.8", "0.8\u20130.95", "0.95\u20131.0", "> 1.0")
+NOT_DESIGNED = -1  # band of members the tool does not design here (deep-beam, not-covered, ...)
 
 # the member drawing, in SVG user units (px)
 W, LEFT, RIGHT = 960, 66, 22
@@ -40,15 +48,10 @@ BEAM_Y = TOP + PH + 56  # top of the beam in the elevation
 CHAR_W = 7.2  # mean advance of an 11 px sans-serif character, for label layout
 THIN_TOL_PX = 0.25  # largest distance of a station left out of a line from the line drawn
 
-# sequential, perceptually uniform ramp, low -> high: evenly spaced anchors of a viridis-like map,
-# starting above its darkest fifth so that low values still show on the dark panel
-RAMP = np.array([[0x41, 0x44, 0x87], [0x2a, 0x78, 0x8e], [0x22, 0xa8, 0x84], [0x7a, 0xd1, 0x51],
-                 [0xfd, 0xe7, 0x25]], float)
-NOT_DESIGNED = "#8d939b"
 # control characters, DEL and the bidirectional overrides and isolates, shown as escapes
 UNSEEN = {c: f"\\x{c:02x}" for c in (*range(0x20), 0x7F, *range(0x80, 0xA0))} | {
     c: f"\\u{c:04x}" for c in (*range(0x202A, 0x202F), *range(0x2066, 0x206A))}
-VIEW_ANGLE = math.radians(20)  # plan axes X and Y rise this far from the horizontal (30 would be isometric)
+PLAN_W = 460.0  # width of one plan (SVG user units)
 
 
 def write_html_report(run: Run, out_path: Path, members: list[str] | None = None) -> Path:
@@ -62,15 +65,10 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
     data = _Data.load(run)
     detail = data.detail_codes(members)
     linked = set(detail)
-    body = [_header(data), _index(data, linked), _overview(data, linked), _details(data, detail)]
-    page = _page(run.name, "".join(body), _legend_defs())
-    out_path = Path(out_path)
-    out_path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{out_path.name}.", dir=out_path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8") as fh:
-        fh.write(page)
-    os.replace(tmp, out_path)
-    return out_path
+    page = _template().render(**_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
+                              details=Markup(_details(data, detail)), defs=Markup(_legend_defs() + _pattern_defs()),
+                              needs_action=NEEDS_ACTION, caution=CAUTION)
+    return write_atomic(Path(out_path), lambda fh: fh.write(page))
 
 
 class _Data:
@@ -92,11 +90,11 @@ class _Data:
         m["clear_mm"] = m["length_m"] * 1e3 - m["face_i_mm"].fillna(0) - m["face_j_mm"].fillna(0)
         slug = m["member"].astype(str).str.replace(r"[^A-Za-z0-9_-]+", "-", regex=True).str.strip("-").str[:40]
         m["anchor"] = "m" + pd.Series(np.arange(len(m)), dtype=str) + "-" + slug
-        m["rank"] = m["status"].map(STATUS_RANK).fillna(len(STATUS_RANK))
-        ranked = np.lexsort((-m["utilization"].fillna(-np.inf).to_numpy(), m["rank"].to_numpy() > 0))
+        m["place"] = status_place(m["status"])
         order = np.empty(len(m), np.int64)
-        order[ranked] = np.arange(len(m))
-        m["order"] = order  # place in the default order: resize first, then utilization, largest first
+        order[rank_order(m)] = np.arange(len(m))
+        m["order"] = order  # place in the review order of `shearpost govern`: needing action first
+        m["band"] = utilization_band(m["utilization"].to_numpy(float), m["status"].to_numpy(object))
         zones = pq.read_table(dp / "zones.parquet").to_pandas()
         manifest = json.loads((dp / "manifest.json").read_text(encoding="utf-8"))
         combos = pq.read_metadata(dp / "combinations.parquet").num_rows
@@ -109,13 +107,17 @@ class _Data:
         else:
             unknown = [name for name in members if name not in self.code]
             if unknown:
-                raise ValueError(f"no member(s) {', '.join(map(repr, unknown[:10]))} in run '{self.run.name}'")
+                raise ValueError(f"no member(s) {', '.join(map(repr, unknown[:10]))} in run '{self.run.name}'"
+                                 + did_you_mean(unknown[0], self.code))
             codes = np.unique([self.code[name] for name in members])
         return sorted(codes.tolist(), key=lambda k: self.m["order"].iat[k])
 
     def stations(self, codes: list[int]) -> dict[str, np.ndarray]:
         """The station trace of the given members as arrays, grouped by code, in station order."""
-        t = pq.read_table(self.run.design_path / "stations", columns=STATION_COLUMNS)  # one file per part
+        folder = self.run.design_path / "stations"  # one file per part; none when no member was designed
+        if not any(folder.glob("*.parquet")):
+            return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
+        t = pq.read_table(folder, columns=STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
         code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
         wanted = np.zeros(len(self.m) + 1, bool)  # the last entry stands for "not a member" (-1)
@@ -131,109 +133,33 @@ class _Data:
 # ----------------------------------------------------------------------------- page
 
 
-CSS = """
-:root{--ink:#1b1d21;--mute:#5d636b;--line:#d9dce0;--panel:#262a31}
-*{box-sizing:border-box}
-body{font:14px/1.45 system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;color:var(--ink);margin:0;
-background:#fafaf8}
-main{max-width:1000px;margin:0 auto;padding:16px 20px 60px}
-h1{font-size:22px;margin:8px 0 4px}h2{font-size:18px;margin:28px 0 8px;border-bottom:1px solid var(--line)}
-h3{font-size:16px;margin:0 0 4px;word-break:break-all}h3 a{font-size:12px;font-weight:400}
-nav a{margin-right:14px}a{color:#0b5394}
-.meta{color:var(--mute);margin:2px 0}
-.caution{border:2px solid var(--ink);background:#fff;padding:10px 14px;margin:12px 0;font-size:15px}
-.chips span{display:inline-block;border:1px solid var(--line);border-radius:10px;padding:1px 9px;margin:2px 4px 2px 0;
-background:#fff}
-.st{font-size:12px;border:1px solid var(--line);border-radius:9px;padding:0 7px;white-space:nowrap;background:#fff}
-.st-resize{font-weight:700;border:2px solid var(--ink)}
-.st-designed{color:var(--ink)}
-.st-other{color:var(--mute);font-style:italic}
-.scroll{max-height:460px;overflow:auto;border:1px solid var(--line);background:#fff}
-table{border-collapse:collapse;width:100%;font-size:13px}
-th{position:sticky;top:0;background:#eef0f2;text-align:left;padding:4px 8px;cursor:pointer;user-select:none;
-white-space:nowrap}
-th[aria-sort=ascending]::after{content:" \\25B2"}th[aria-sort=descending]::after{content:" \\25BC"}
-td{padding:2px 8px;border-top:1px solid #eef0f2;white-space:nowrap}
-td.n,th.n{text-align:right;font-variant-numeric:tabular-nums}
-tr.resize td{background:#f3f1ea}
-#filter{margin:0 0 6px;padding:3px 6px;width:260px}
-.member{border-top:1px solid var(--line);padding:14px 0 6px;content-visibility:auto;contain-intrinsic-size:auto 560px}
-.facts{margin:2px 0;color:var(--mute);font-size:13px}
-.msg{margin:6px 0;padding:4px 10px;border-left:3px solid var(--ink);background:#fff}
-svg{max-width:100%;height:auto;display:block}
-svg text{font:11px system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;fill:#33373d}
-svg .ttl{font-size:12px;fill:var(--ink)}
-.g{stroke:#eceef0}.ax{stroke:#4a4f56;fill:none}
-.env{fill:#56b4e9;fill-opacity:.32;stroke:#0072b2;stroke-width:1.6;stroke-linejoin:round}
-.cap{fill:none;stroke:#1b1d21;stroke-width:2.2;stroke-linejoin:round}
-.vc{fill:none;stroke:#009e73;stroke-width:1.6;stroke-dasharray:7 4}
-.avm{fill:none;stroke:#cc79a7;stroke-width:1.6;stroke-dasharray:2 3}
-.lim{fill:none;stroke:#e69f00;stroke-width:1.6;stroke-dasharray:9 3 2 3}
-.crit{stroke:#6b7079;stroke-width:1.2;stroke-dasharray:4 3}
-.beam{fill:#f2f0ea;stroke:#4a4f56;stroke-width:1.2}.sup{fill:#c9ccd1}
-.stir{stroke:#1b1d21;stroke-width:1}.dim{stroke:#6b7079;fill:none}
-.panel{fill:var(--panel)}.strip{fill:#30353d}.pt{fill:#e8eaed}
-.ov{stroke-width:2;stroke-linecap:round}.ovr{stroke-width:3.2;stroke-dasharray:7 4}
-.nd{stroke:#8d939b;stroke-width:1.3;stroke-dasharray:5 4}
-"""
-
-JS = """
-(function(){
-  var t=document.getElementById('index-table');if(!t)return;
-  var tb=t.tBodies[0],heads=t.tHead.rows[0].cells,coll=new Intl.Collator(undefined,{numeric:true});
-  Array.prototype.forEach.call(heads,function(th,c){th.addEventListener('click',function(){
-    var num=th.dataset.type==='num',dir=th.getAttribute('aria-sort')==='ascending'?-1:1;
-    Array.prototype.forEach.call(heads,function(h){h.removeAttribute('aria-sort');});
-    th.setAttribute('aria-sort',dir>0?'ascending':'descending');
-    var rows=Array.prototype.map.call(tb.rows,function(r){
-      var cell=r.cells[c],k=cell.dataset.k!==undefined?cell.dataset.k:cell.textContent;
-      return [num?(k===''?NaN:+k):k,r];});
-    rows.sort(function(a,b){
-      if(num){if(isNaN(a[0]))return isNaN(b[0])?0:1;if(isNaN(b[0]))return -1;return dir*(a[0]-b[0]);}
-      return dir*coll.compare(a[0],b[0]);});
-    var f=document.createDocumentFragment();rows.forEach(function(r){f.appendChild(r[1]);});tb.appendChild(f);
-  });});
-  var q=document.getElementById('filter');
-  if(q)q.addEventListener('input',function(){var s=q.value.toLowerCase();
-    Array.prototype.forEach.call(tb.rows,function(r){r.hidden=s!==''&&r.textContent.toLowerCase().indexOf(s)<0;});});
-})();
-"""
+@functools.cache
+def _template():
+    env = jinja2.Environment(loader=jinja2.PackageLoader("postproc", "templates"), autoescape=True,
+                             undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+    env.filters["shown"] = lambda v: Markup(_text("" if v is None or (isinstance(v, float) and v != v) else v))
+    return env.get_template("report.html.j2")
 
 
-def _page(run_name: str, body: str, defs: str) -> str:
-    return (f'<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
-            f'<meta name="viewport" content="width=device-width,initial-scale=1">'
-            f"<title>shearpost report: {_text(run_name)}</title><style>{CSS}</style></head><body>"
-            f'<svg width="0" height="0" style="position:absolute" aria-hidden="true"><defs>{defs}</defs></svg>'
-            f"<main>{body}</main><script>{JS}</script></body></html>\n")
-
-
-def _header(data: _Data) -> str:
+def _header(data: _Data, linked: set[int]) -> dict:
     man, m = data.manifest, data.m
     created = str(man.get("created", ""))
     when = created.replace("T", " ")[:16] + (" UTC" if created.endswith(("+00:00", "Z")) else "")
-    edition = data.design_manifest.get("code_edition") or man.get("code_edition", "")
-    source = ("cases taken as already factored combinations" if data.design_manifest.get("combinations_prefactored")
-              else "ACI 318-19 Table 5.3.1 from basic load cases")
     counts = m["status"].value_counts()
-    shown = [*STATUSES, *sorted(set(counts.index) - set(STATUSES))]
-    chips = "".join(f"<span>{int(counts[s]):,} {_text(s)}</span>" for s in shown if s in counts.index)
-    warnings = [*man.get("warnings", []), *data.design_manifest.get("warnings", [])]
-    warn = ""
-    if warnings:
-        items = "".join(f"<li>{_text(w)}</li>" for w in warnings[:200])
-        more = f"<li>... and {len(warnings) - 200:,} more</li>" if len(warnings) > 200 else ""
-        warn = f"<details><summary>{len(warnings):,} warning(s)</summary><ul>{items}{more}</ul></details>"
-    return (f'<header id="top"><h1>shearpost design report</h1>'
-            f'<p class="meta">run <b>{_text(man.get("run", data.run.name))}</b> &middot; created {_text(when)} '
-            f"&middot; {_text(edition)} &middot; shearpost {_text(man.get('tool_version', ''))}</p>"
-            f'<p class="meta">{len(m):,} members &middot; {data.combinations:,} combinations ({_text(source)}) '
-            f"&middot; {int(m['stirrups_total'].fillna(0).sum()):,} stirrup sets, "
-            f"{float(m['stirrup_mass_kg'].fillna(0).sum()):,.1f} kg</p>"
-            f'<p class="chips">{chips}</p>'
-            f'<div class="caution" role="note"><strong>Caution.</strong> {_text(CAUTION)}</div>{warn}'
-            f'<nav><a href="#index">Index</a><a href="#overview">Overview</a><a href="#members">Members</a></nav>'
-            f"</header>")
+    shown = [*NEEDS_ACTION, *(s for s in STATUSES if s not in NEEDS_ACTION), *sorted(set(counts.index) - set(STATUSES))]
+    act = m[m["status"].isin(NEEDS_ACTION)].sort_values("order")
+    return dict(
+        run_name=man.get("run", data.run.name), created=when, version=man.get("tool_version", ""),
+        edition=data.design_manifest.get("code_edition") or man.get("code_edition", ""),
+        n_members=len(m), n_combinations=data.combinations,
+        combination_source="cases taken as already factored combinations"
+        if data.design_manifest.get("combinations_prefactored") else "ACI 318-19 Table 5.3.1 from basic load cases",
+        stirrup_sets=int(m["stirrups_total"].fillna(0).sum()), stirrup_mass_kg=float(m["stirrup_mass_kg"].fillna(0).sum()),
+        action=[dict(member=name, anchor=anchor, status=status, message=msg, linked=k in linked)
+                for k, name, anchor, status, msg in zip(act.index, act["member"], act["anchor"], act["status"],
+                                                        act["message"])],
+        chips=[(s, int(counts[s]), s in NEEDS_ACTION) for s in shown if s in counts.index],
+        warnings=[*man.get("warnings", []), *data.design_manifest.get("warnings", [])])
 
 
 def _text(value) -> str:
@@ -242,47 +168,24 @@ def _text(value) -> str:
 
 
 def _status(status: str) -> str:
-    cls = "st-resize" if status == "resize" else "st-designed" if status == "designed" else "st-other"
+    cls = ("st-resize" if status == "resize" else "st-act" if status in NEEDS_ACTION
+           else "st-designed" if status == "designed" else "st-other")
     return f'<span class="st {cls}">{_text(status)}</span>'
 
 
-def _index(data: _Data, linked: set[int]) -> str:
+def _index_rows(data: _Data, linked: set[int]) -> list[dict]:
     m = data.m.sort_values("order")
     util = m["utilization"].map(lambda u: "" if pd.isna(u) else f"{u:.3f}")
     mass = m["stirrup_mass_kg"].map(lambda v: "" if pd.isna(v) else f"{v:.1f}")
-    text = {c: m[c].map(lambda v: "" if pd.isna(v) else _text(v)) for c in ("level", "group", "governing_case")}
-    rows = []
-    for k, name, anchor, status, rank, u, gov, lvl, grp, n, kg in zip(
-            m.index, m["member"], m["anchor"], m["status"], m["rank"], util, text["governing_case"], text["level"],
-            text["group"], m["stirrups_total"].fillna(0).astype(int), mass):
-        label = _text(name)
-        ref = f'<a href="#{anchor}">{label}</a>' if k in linked else label
-        cls = ' class="resize"' if status == "resize" else ""
-        rows.append(f"<tr{cls}><td>{ref}</td><td>{lvl}</td><td>{grp}</td><td data-k=\"{int(rank)}\">{_status(status)}"
-                    f'</td><td class="n">{u}</td><td>{gov}</td><td class="n">{n}</td><td class="n">{kg}</td></tr>')
-    head = "".join(f'<th data-type="{t}"{cls}>{h}</th>' for h, t, cls in (
-        ("member", "str", ""), ("level", "str", ""), ("group", "str", ""), ("status", "num", ""),
-        ("utilization", "num", ' class="n"'), ("governing combination", "str", ""),
-        ("stirrup sets", "num", ' class="n"'), ("mass kg", "num", ' class="n"')))
-    return (f'<section id="index"><h2>Index of members</h2>'
-            f'<p class="meta">Members needing a resize first, then by utilization (largest first). '
-            f"Click a column heading to sort.</p>"
-            f'<input id="filter" type="search" placeholder="filter rows (member, level, status...)" '
-            f'aria-label="filter">'
-            f'<div class="scroll"><table id="index-table"><thead><tr>{head}</tr></thead>'
-            f"<tbody>{''.join(rows)}</tbody></table></div></section>")
+    sets = m["stirrups_total"].fillna(0).astype(int)
+    return [dict(member=name, anchor=anchor, linked=k in linked, level=lvl, group=grp, status=status,
+                 place=int(place), act=status in NEEDS_ACTION, utilization=u, governing=gov, sets=n, mass=kg)
+            for k, name, anchor, status, place, u, gov, lvl, grp, n, kg in zip(
+                m.index, m["member"], m["anchor"], m["status"], m["place"], util, m["governing_case"], m["level"],
+                m["group"], sets, mass)]
 
 
 # ----------------------------------------------------------------------------- colours and numbers
-
-
-def ramp(u: np.ndarray) -> np.ndarray:
-    """Hex colours of utilizations on the sequential ramp, clamped to [0, 1]."""
-    t = np.clip(np.nan_to_num(np.asarray(u, float), nan=0.0), 0.0, 1.0) * (len(RAMP) - 1)
-    k = np.minimum(t.astype(int), len(RAMP) - 2)
-    f = (t - k)[:, None]
-    rgb = np.rint(RAMP[k] * (1 - f) + RAMP[k + 1] * f).astype(int)
-    return np.array([f"#{r:02x}{g:02x}{b:02x}" for r, g, b in rgb.tolist()], dtype=object)
 
 
 def nice_step(raw: np.ndarray) -> np.ndarray:
@@ -608,116 +511,171 @@ def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list) -> 
 # ----------------------------------------------------------------------------- overview
 
 
-def _overview(data: _Data, linked: set[int]) -> str:
+def utilization_band(util: np.ndarray, status: np.ndarray) -> np.ndarray:
+    """Band of each member: 0 (<= 0.5), 1 (0.5-0.8), 2 (0.8-0.95), 3 (0.95-1.0), 4 (> 1.0);
+    NOT_DESIGNED for members the tool does not design here (deep-beam, not-covered, ...)."""
+    band = np.searchsorted(np.asarray(BANDS), np.nan_to_num(util, nan=0.0), side="left")
+    designed = np.isin(status, ("designed", "resize"))
+    return np.where(designed, np.where(status == "resize", 4, band), NOT_DESIGNED)
+
+
+def _pattern_defs() -> str:
+    """Fills that read without colour: hatching for > 1.0, dots for members not designed."""
+    return ('<pattern id="hatch" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)">'
+            '<rect width="6" height="6" fill="#f4d9d6"/><path d="M0 0V6" stroke="#b3261e" stroke-width="2.4"/>'
+            '</pattern><pattern id="dots" width="5" height="5" patternUnits="userSpaceOnUse">'
+            '<rect width="5" height="5" fill="#f1f2f3"/><circle cx="2.5" cy="2.5" r="0.9" fill="#8d939b"/></pattern>')
+
+
+def _legend(with_plans: bool) -> str:
+    sample = lambda cls: (f'<svg width="34" height="12" aria-hidden="true"><path class="{cls}" d="M3 6H31"/></svg>')
+    items = [f'<span role="listitem">{sample(f"u{k}")}{_text(text)}</span>' for k, text in enumerate(BAND_LABELS)]
+    items[-1] = items[-1].replace("</span>", " (resize: dashed, named)</span>")
+    items.append(f'<span role="listitem">{sample("nd")}not designed here</span>')
+    if with_plans:
+        items.append('<span role="listitem"><svg width="14" height="12" aria-hidden="true"><rect class="col" x="2" '
+                     'y="1" width="10" height="10"/></svg>column carrying the level (plans)</span>')
+    return "".join(items)
+
+
+def _levels(m: pd.DataFrame) -> pd.Series:
+    return m["level"].where(m["level"].notna() & (m["level"].astype(str) != ""), "(no level)").astype(str)
+
+
+def _link(name, anchor: str, linked: bool) -> Markup:
+    return Markup(f'<a href="#{anchor}">{_text(name)}</a>' if linked else _text(name))
+
+
+def _names(rows: pd.DataFrame, linked: set[int], most: int) -> list[Markup]:
+    out = [_link(n, a, k in linked) for k, n, a in zip(rows.index[:most], rows["member"], rows["anchor"])]
+    if len(rows) > most:
+        out.append(Markup(f"and {len(rows) - most:,} more"))
+    return out
+
+
+def _strip(bands: np.ndarray) -> str:
+    """One level's members as a bar of band segments, widths by count, counts written inside."""
+    width, height = 600.0, 20.0
+    counts = [(k, int((bands == k).sum())) for k in (*range(len(BAND_LABELS)), NOT_DESIGNED)]
+    total = max(len(bands), 1)
+    x, parts = 0.0, []
+    for k, n in counts:
+        if not n:
+            continue
+        w = width * n / total
+        cls = "fnd" if k == NOT_DESIGNED else f"f{k}"
+        what = "not designed here" if k == NOT_DESIGNED else f"utilization {BAND_LABELS[k]}"
+        parts.append(f'<rect class="bar {cls}" x="{x:.1f}" y="0" width="{w:.1f}" height="{height:g}">'
+                     f"<title>{n:,} member(s): {_text(what)}</title></rect>")
+        if w >= 8 * len(f"{n:,}") + 6:
+            light = " lt" if k in (2, 3) else ""
+            parts.append(f'<text class="cnt{light}" x="{x + w / 2:.1f}" y="14" text-anchor="middle">{n:,}</text>')
+        x += w
+    return (f'<svg viewBox="0 0 {width:g} {height:g}" width="{width:g}" height="{height:g}" preserveAspectRatio="none" '
+            f'role="img" aria-label="members by utilization band">{"".join(parts)}</svg>')
+
+
+def _overview(data: _Data, linked: set[int]) -> dict:
+    """The strips (always) and the plans (where the members carry coordinates)."""
     m = data.m
+    level = _levels(m)
+    strips = []
+    for lv in dict.fromkeys(level):
+        rows = m[level == lv].sort_values("order")
+        band = rows["band"].to_numpy()
+        names = []
+        over = rows[band == 4]
+        if len(over):
+            names.append(("> 1.0", _names(over, linked, 40)))
+        other = rows[rows["status"].isin(NEEDS_ACTION) & (band != 4)]
+        if len(other):
+            names.append(("needs action", [Markup(f"{x} ({_text(s)})") for x, s in
+                                            zip(_names(other, linked, 40), other["status"])]))
+        near = rows[band == 3]
+        if len(near):
+            names.append(("0.95\u20131.0", _names(near, linked, 12)))
+        strips.append(dict(level=f"{lv} ({len(rows):,})", svg=Markup(_strip(band)), names=names))
     xyz = m[COORDS].to_numpy(float)
-    ok = np.isfinite(xyz).all(axis=1)
-    if ok.any():
-        missing = int((~ok).sum())
-        note = f" {missing:,} member(s) without coordinates are not drawn." if missing else ""
-        return (f'<section id="overview"><h2>Frame overview</h2><p class="meta">Axonometric view of the members '
-                f"from their end coordinates, coloured by utilization; members not designed are grey and dashed, "
-                f"members needing a resize are dashed in the top colour. Click a member to open its section.{note}</p>"
-                f"{_frame_svg(data, ok, linked)}</section>")
-    return (f'<section id="overview"><h2>Utilization by level</h2><p class="meta">The frame overview needs member '
-            f"coordinates (IFC geometry); this run's members table has none, so each member's utilization is shown "
-            f"as a tick on the strip of its level.</p>{_levels_svg(data)}</section>")
+    placed = np.isfinite(xyz).all(axis=1)
+    plans = _plans(data, placed, level, linked) if placed.any() else []
+    missing = int((~placed).sum())
+    note = f"; {missing:,} member(s) without coordinates are not drawn" if plans and missing else ""
+    no_plans = ("No plans: this run's members table gives no member coordinates (x_i_m ... z_j_m, read from an IFC "
+                "model), so the members are shown by band above, with those over 0.95 named, and all of them in "
+                "the index.")
+    return dict(legend=Markup(_legend(bool(plans))), strips=strips, plans=plans, plans_note=note, no_plans=no_plans)
 
 
-def _colour_bar(x: float, y: float) -> str:
-    stops = "".join(f'<stop offset="{k / (len(RAMP) - 1):g}" stop-color="{c}"/>'
-                    for k, c in enumerate(ramp(np.linspace(0, 1, len(RAMP)))))
-    ticks = "".join(f'<tspan x="{x + 240 * t:g}" y="{y + 26}">{t:g}</tspan>' for t in (0, 0.25, 0.5, 0.75, 1.0))
-    return (f'<linearGradient id="ramp">{stops}</linearGradient>'
-            f'<text class="pt" x="{x}" y="{y - 6}">utilization (Vu / capacity, worst station)</text>'
-            f'<rect x="{x}" y="{y}" width="240" height="12" fill="url(#ramp)"/>'
-            f'<text class="pt" text-anchor="middle">{ticks}</text>')
-
-
-def _frame_svg(data: _Data, ok: np.ndarray, linked: set[int]) -> str:
-    m = data.m[ok]
+def _plans(data: _Data, placed: np.ndarray, level: pd.Series, linked: set[int]) -> list[dict]:
+    """A plan per level from the members' end coordinates, all at one scale: beams as lines
+    in their band's style, the columns that carry the level as squares, failures named."""
+    m = data.m[placed]
+    level = level[placed]
     x1, y1, z1, x2, y2, z2 = (m[c].to_numpy(float) for c in COORDS)
-    ca, sa = math.cos(VIEW_ANGLE), math.sin(VIEW_ANGLE)
-    u1, u2 = (x1 - y1) * ca, (x2 - y2) * ca
-    w1, w2 = z1 + (x1 + y1) * sa, z2 + (x2 + y2) * sa
-    umin, umax = min(u1.min(), u2.min()), max(u1.max(), u2.max())
-    wmin, wmax = min(w1.min(), w2.min()), max(w1.max(), w2.max())
-    pad, legend_h = 24.0, 64.0
-    scale = min((W - 2 * pad) / max(umax - umin, 1e-9), 640.0 / max(wmax - wmin, 1e-9))
-    height = (wmax - wmin) * scale + 2 * pad + legend_h
-    X = lambda u: pad + (u - umin) * scale + (W - 2 * pad - (umax - umin) * scale) / 2
-    Y = lambda w: pad + (wmax - w) * scale
-    status = m["status"].to_numpy(object)
-    util = m["utilization"].to_numpy(float)
-    colour = ramp(util)
-    kind = np.where(status == "designed", 1, np.where(status == "resize", 2, 0))
-    order = np.lexsort((np.nan_to_num(util, nan=-1.0), kind))
-    lines = []
-    for k, anchor, a, b, c, e, name, st, u, col, kd in zip(
-            m.index[order], m["anchor"].to_numpy(object)[order], X(u1)[order], Y(w1)[order], X(u2)[order],
-            Y(w2)[order], m["member"].to_numpy(object)[order], status[order], util[order], colour[order], kind[order]):
-        cls = "ov" if kd == 1 else "ov ovr" if kd == 2 else "nd"
-        stroke = f' stroke="{col}"' if kd else ""
-        tip = _text(f"{name}: {st}" + ("" if np.isnan(u) else f", utilization {u:.3f}"))
-        line = f'<path class="{cls}"{stroke} d="M{a:.1f},{b:.1f}L{c:.1f},{e:.1f}"><title>{tip}</title></path>'
-        lines.append(f'<a href="#{anchor}">{line}</a>' if k in linked else line)
-    ly = height - legend_h + 26
-    legend = (_colour_bar(pad + 70, ly)
-              + f'<path class="nd" d="M{pad + 380},{ly + 6}h28"/><text class="pt" x="{pad + 414}" y="{ly + 10}">'
-              f"not designed</text>"
-              + f'<path class="ov ovr" stroke="{ramp(np.array([1.0]))[0]}" d="M{pad + 520},{ly + 6}h28"/>'
-              f'<text class="pt" x="{pad + 554}" y="{ly + 10}">resize (section too small)</text>'
-              + _axes(W - 60.0, ly + 12))
-    return (f'<svg viewBox="0 0 {W} {height:.0f}" width="{W}" height="{height:.0f}" role="img" '
-            f'aria-label="isometric view of the frame coloured by utilization">'
-            f'<rect class="panel" width="{W}" height="{height:.0f}" rx="4"/>{"".join(lines)}{legend}</svg>')
+    length = np.sqrt((x2 - x1) ** 2 + (y2 - y1) ** 2 + (z2 - z1) ** 2)
+    vertical = np.abs(z2 - z1) > 0.9 * np.maximum(length, 1e-9)
+    lo, hi = np.minimum(x1, x2).min(), np.maximum(x1, x2).max()
+    ylo, yhi = np.minimum(y1, y2).min(), np.maximum(y1, y2).max()
+    pad, label_room = 14.0, 16.0
+    s = (PLAN_W - 2 * pad) / max(hi - lo, yhi - ylo, 1e-9)
+    height = (yhi - ylo) * s + 2 * pad + label_room
+    X = lambda v: pad + (v - lo) * s
+    Y = lambda v: pad + (yhi - v) * s
+    bar_m = float(nice_step(np.array([(hi - lo) / 5]))[0]) if hi > lo else 1.0
+    scale_bar = (f'<path class="scale" d="M{pad:g},{height - 8:.1f}h{bar_m * s:.1f}M{pad:g},{height - 12:.1f}v8'
+                 f'M{pad + bar_m * s:.1f},{height - 12:.1f}v8"/><text x="{pad + bar_m * s + 6:.1f}" '
+                 f'y="{height - 5:.1f}">{bar_m:g} m</text>')
+    top = np.maximum(z1, z2)
+    centre = (PLAN_W / 2, pad + (yhi - ylo) * s / 2)
+    plans = []
+    beams = ~vertical
+    for lv in dict.fromkeys(level[beams]):
+        on = beams & (level == lv).to_numpy()
+        z = float(np.median(np.r_[z1[on], z2[on]]))
+        cols = vertical & (np.abs(top - z) < 0.1)
+        idx = np.flatnonzero(on)
+        idx = idx[np.lexsort((m["band"].to_numpy()[idx],))]  # failures drawn last, on top
+        lines, tags = [], []
+        for k in idx:
+            r = m.iloc[k]
+            band = int(r["band"])
+            cls = "nd" if band == NOT_DESIGNED else f"u{band}"
+            tip = _text(f"{r['member']}: {r['status']}" + ("" if pd.isna(r["utilization"]) else
+                                                             f", utilization {r['utilization']:.3f}"))
+            a, b, c, d = X(x1[k]), Y(y1[k]), X(x2[k]), Y(y2[k])
+            line = f'<path class="{cls}" d="M{a:.1f},{b:.1f}L{c:.1f},{d:.1f}"><title>{tip}</title></path>'
+            code = m.index[k]
+            lines.append(f'<a href="#{r["anchor"]}">{line}</a>' if code in linked else line)
+            if band == 4 or r["status"] in NEEDS_ACTION:
+                tags.append(_tag(r["member"], a, b, c, d, band == 4, centre))
+        squares = "".join(f'<rect class="col" x="{X(x) - 3.5:.1f}" y="{Y(y) - 3.5:.1f}" width="7" height="7"/>'
+                          for x, y in zip(x1[cols], y1[cols]))
+        n_fail = int((m["band"].to_numpy()[on] == 4).sum())
+        n_act = int(m["status"].iloc[np.flatnonzero(on)].isin(NEEDS_ACTION).sum())
+        meta = f"z = {z:.2f} m &middot; {on.sum():,} beams" + (f" &middot; {n_act:,} need action" if n_act else "") + \
+            (f", {n_fail:,} over 1.0" if n_fail else "")
+        svg = (f'<svg viewBox="0 0 {PLAN_W:g} {height:.0f}" width="{PLAN_W:g}" height="{height:.0f}" role="img" '
+               f'aria-label="{_text(f"plan of level {lv}")}">{squares}{"".join(lines)}{"".join(tags)}{scale_bar}</svg>')
+        plans.append(dict(level=lv, meta=Markup(meta), svg=Markup(svg), z=z))
+    plans.sort(key=lambda p: p["z"])
+    return plans
 
 
-def _axes(x: float, y: float) -> str:
-    """A small triad showing the model's X, Y and Z directions in the view."""
-    ca, sa, r = math.cos(VIEW_ANGLE), math.sin(VIEW_ANGLE), 26.0
-    tips = (("X", r * ca, -r * sa), ("Y", -r * ca, -r * sa), ("Z", 0.0, -r))
-    return "".join(f'<path stroke="#e8eaed" d="M{x:g},{y:g}l{dx:.1f},{dy:.1f}"/>'
-                   f'<text class="pt" text-anchor="middle" x="{x + 1.3 * dx:.1f}" y="{y + 1.3 * dy + 4:.1f}">{t}</text>'
-                   for t, dx, dy in tips)
-
-
-def _levels_svg(data: _Data) -> str:
-    m = data.m
-    level = m["level"].where(m["level"].notna() & (m["level"].astype(str) != ""), "(no level)").astype(str)
-    levels = list(dict.fromkeys(level))
-    util = m["utilization"].to_numpy(float)
-    finite = np.isfinite(util)
-    hi = max(1.0, min(1.5, math.ceil(np.nanmax(util, initial=0.0) * 10) / 10))
-    x0, x1, row, top = 170.0, W - 30.0, 26.0, 52.0
-    X = lambda u: x0 + np.clip(u, 0, hi) / hi * (x1 - x0)
-    row_of = {lv: k for k, lv in enumerate(levels)}
-    y = top + np.array([row_of[v] for v in level]) * row
-    status = m["status"].to_numpy(object)
-    colour = np.where(status == "designed", ramp(util), np.where(status == "resize", ramp(np.ones(len(m))),
-                                                                NOT_DESIGNED))
-    resize = ' class="ovr"'
-    ticks = [f'<path{resize if st == "resize" else ""} stroke="{col}" d="M{xx:.1f} {yy + 4:g}v{row - 8:g}">'
-             f"<title>{_text(f'{name} ({st}): utilization {u:.3f}')}</title></path>"
-             for name, st, u, col, xx, yy in zip(m["member"][finite], status[finite], util[finite], colour[finite],
-                                                 X(util[finite]), y[finite])]
-    counts = level.value_counts()
-    labels = "".join(f'<tspan x="{x0 - 12}" y="{top + k * row + row / 2 + 4:g}">{_text(lv)} ({counts[lv]:,})</tspan>'
-                     for k, lv in enumerate(levels))
-    bottom = top + len(levels) * row
-    step = 0.1 if hi <= 1.0 else 0.25
-    grid = np.arange(0.0, hi + 1e-9, step)
-    axis = "".join(f'<tspan x="{X(g):.1f}" y="{bottom + 16:g}">{g:g}</tspan>' for g in grid)
-    strips = "".join(f'<rect x="{x0}" y="{top + k * row + 2:g}" width="{x1 - x0:g}" height="{row - 4:g}" '
-                     f'class="strip"/>' for k in range(len(levels)))
-    height = bottom + 84
-    return (f'<svg viewBox="0 0 {W} {height:g}" width="{W}" height="{height:g}" role="img" '
-            f'aria-label="utilization of the members by level">'
-            f'<rect class="panel" width="{W}" height="{height:g}" rx="4"/>{strips}'
-            f'<path stroke="#59606a" d="{"".join(f"M{X(g):.1f},{top - 4:g}V{bottom:g}" for g in grid)}"/>'
-            f'<path stroke="#e8eaed" stroke-dasharray="3 3" d="M{X(1.0):.1f},{top - 10:g}V{bottom + 4:g}"/>'
-            f'<g stroke-width="1.6" stroke-opacity=".85">{"".join(ticks)}</g>'
-            f'<text class="pt" text-anchor="end">{labels}</text>'
-            f'<text class="pt" text-anchor="middle">{axis}</text>'
-            f'<text class="pt" x="{x0}" y="{top - 16:g}">level (members); grey: not designed; utilization &rarr;</text>'
-            f'{_colour_bar(x0, bottom + 50)}</svg>')
+def _tag(name, a: float, b: float, c: float, d: float, failing: bool, centre: tuple[float, float]) -> str:
+    """A member's name beside the middle of its line, on the side toward the middle of the
+    plan (so that it stays inside the drawing), kept within the drawing's width."""
+    mx, my = (a + c) / 2, (b + d) / 2
+    dx, dy = c - a, d - b
+    norm = math.hypot(dx, dy) or 1.0
+    ox, oy = -dy / norm * 9, dx / norm * 9
+    if ox * (centre[0] - mx) + oy * (centre[1] - my) < 0:
+        ox, oy = -ox, -oy
+    text = _text(name)
+    width = CHAR_W * len(str(name))
+    if abs(dx) >= abs(dy):
+        x, anchor = min(max(mx, width / 2 + 2), PLAN_W - width / 2 - 2), "middle"
+    else:
+        anchor = "start" if ox > 0 else "end"
+        x = min(mx + ox, PLAN_W - width - 2) if ox > 0 else max(mx + ox, width + 2)
+    return (f'<text class="tag{" f" if failing else ""}" x="{x:.1f}" y="{my + oy + 4:.1f}" '
+            f'text-anchor="{anchor}">{text}</text>')

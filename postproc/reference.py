@@ -18,7 +18,8 @@ import math
 import numpy as np
 import pandas as pd
 
-from postproc import design, detailing
+from postproc import detailing
+from postproc.demand import beams as demand
 from postproc.codes import aci318_19 as aci
 from postproc.settings import BAR_CATALOGUE, Settings
 from postproc.stations import BEARING
@@ -169,7 +170,7 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
         db, area = BAR_CATALOGUE[bar]
         legs = max(base_legs, detailing.legs_for_width(bw, dt.clear_cover_mm, db, s_across)) \
             if math.isfinite(s_across) else base_legs
-        Aoh, ph = (float(v) for v in design.torsion_geometry(bw, h, dt.clear_cover_mm, db))
+        Aoh, ph = (float(v) for v in demand.torsion_geometry(bw, h, dt.clear_cover_mm, db))
         allowed = []
         for k, (_, _, cs) in enumerate(stations):
             need = max(c["av"] / legs + c["ata"] / Aoh for c in cs)

@@ -1,4 +1,9 @@
-"""Outputs: the detailer tables (CSV), the run summary (terminal with rich, or JSON)."""
+"""Outputs: the detailer tables (CSV), the run summary (terminal with rich, or JSON).
+
+Every file is written under a temporary name beside its place and renamed into place,
+with the permissions the umask gives (0644 under the usual umask 022), so that
+colleagues on a shared drive can open it.
+"""
 
 from __future__ import annotations
 
@@ -6,43 +11,65 @@ import contextlib
 import csv
 import json
 import os
-import tempfile
+import uuid
 from pathlib import Path
 
 import pandas as pd
 from rich.console import Console
 from rich.markup import escape
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+from rich import box
 from rich.table import Table
 
 from postproc.engine import MEMBER_COLUMNS, STATUSES, ZONE_COLUMNS, Result
+from postproc.terms import NEEDS_ACTION, label
 
 CAUTION = ("Results assist a licensed structural engineer, who checks them; "
            "the governing local building code prevails.")
 
 
-def write_tables(result: Result, out_dir: Path) -> list[Path]:
-    """members.csv and zones.csv, each written to a temporary name and renamed into place."""
-    out_dir.mkdir(parents=True, exist_ok=True)
-    written = []
-    for name, df, cols in (("members.csv", result.members, MEMBER_COLUMNS), ("zones.csv", result.zones, ZONE_COLUMNS)):
-        path = out_dir / name
-        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", dir=out_dir)
-        with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
-            df.to_csv(fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")
+def write_atomic(path: Path, fill) -> Path:
+    """Write ``path`` as ``fill(text_file)`` writes it: to a temporary name in the same
+    folder, then renamed into place (a reader never sees half a file). The file is created
+    by open(), so it gets the mode the umask gives, unlike tempfile's private 0600."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.{uuid.uuid4().hex}.tmp")
+    try:
+        with open(tmp, "x", newline="", encoding="utf-8") as fh:
+            fill(fh)
         os.replace(tmp, path)
-        written.append(path)
+    finally:
+        tmp.unlink(missing_ok=True)
+    return path
+
+
+def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path) -> list[Path]:
+    """members.csv and zones.csv in ``out_dir``."""
+    written = []
+    for name, df, cols in (("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)):
+        written.append(write_atomic(Path(out_dir) / name, lambda fh, df=df, cols=cols: df.to_csv(
+            fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")))
     return written
 
 
 def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) -> dict:
+    """The run in brief: members needing action first, then counts, the governing members
+    (ranked as `shearpost govern` ranks them), stirrups and warnings."""
+    from postproc.govern import rank_order
+
     m = result.members
     counts = {s: int((m["status"] == s).sum()) for s in STATUSES}
-    ranked = m[m["utilization"].notna()].sort_values("utilization", ascending=False).head(top)
+    action = m[m["status"].isin(NEEDS_ACTION)]
+    ranked = m.iloc[rank_order(m)].head(top)
+    ranked = ranked[ranked["status"].isin(NEEDS_ACTION) | ranked["utilization"].notna()]
     return {
         "run": run_name,
         "output": None if out_dir is None else str(out_dir),
         "members": int(len(m)),
+        "needs_action": {"count": int(len(action)),
+                         "by_status": {s: counts[s] for s in NEEDS_ACTION if counts[s]},
+                         "members": action["member"].head(50).tolist()},
         "status": counts,
         "combinations": {"count": result.combos.distinct_count,
                          "source": "cases taken as already factored combinations (no cases.csv)"
@@ -61,22 +88,26 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
 def print_summary(doc: dict, console: Console) -> None:
     console.print(f"[bold]shearpost[/bold] run [cyan]{shown(doc['run'])}[/cyan]: {doc['members']} members, "
                   f"{doc['combinations']['count']} combinations ({doc['combinations']['source']})")
+    act = doc["needs_action"]
+    if act["count"]:
+        by = ", ".join(f"{n} {s}" for s, n in act["by_status"].items())
+        names = ", ".join(shown(n) for n in act["members"][:8]) + (" ..." if act["count"] > 8 else "")
+        console.print(f"[bold]Needs action: {act['count']} member(s)[/bold] ({by}): {names}", highlight=False)
+    else:
+        console.print("Needs action: none", highlight=False)
     st = Table(title="Members by status", title_justify="left")
     st.add_column("status")
     st.add_column("members", justify="right")
-    for status, n in doc["status"].items():
-        if n:
-            st.add_row(status, str(n))
+    for status in (*NEEDS_ACTION, *(s for s in doc["status"] if s not in NEEDS_ACTION)):
+        if doc["status"].get(status):
+            st.add_row(status, str(doc["status"][status]))
     console.print(st)
-    gov = Table(title=f"Governing members (top {len(doc['governing'])} by utilization)", title_justify="left")
-    for col, just in (("member", "left"), ("status", "left"), ("utilization", "right"),
-                      ("governing combination", "left"), ("Vu,i kN", "right"), ("Vu,j kN", "right")):
-        gov.add_column(col, justify=just, overflow="fold")
-    for g in doc["governing"]:
-        gov.add_row(shown(g["member"]), g["status"], f"{g['utilization']:.3f}", shown(g["governing_case"]),
-                    _num(g["vu_design_i_kN"]), _num(g["vu_design_j_kN"]))
-    console.print(gov)
-    console.print(f"Stirrups: {doc['stirrups_total']:,} sets, {doc['stirrup_mass_kg']:,.1f} kg")
+    gov = pd.DataFrame(doc["governing"], columns=["member", "status", "utilization", "governing_case",
+                                                 "vu_design_i_kN", "vu_design_j_kN"])
+    gov.insert(0, "rank", range(1, len(gov) + 1))
+    console.print(f"Governing members (the first {len(gov)}, as `shearpost govern` ranks them)")
+    console.print(governing_table(gov, console.width))
+    console.print(f"Stirrups: {doc['stirrups_total']:,} stirrup sets, {doc['stirrup_mass_kg']:,.1f} kg")
     if doc["warnings"]:
         console.print(f"[yellow]{len(doc['warnings'])} warning(s):[/yellow]")
         for w in doc["warnings"][:15]:
@@ -89,6 +120,48 @@ def print_summary(doc: dict, console: Console) -> None:
     console.print(f"[italic]{doc['caution']}[/italic]")
 
 
+def governing_table(df: pd.DataFrame, width: int) -> Table:
+    """Ranked members as a terminal table no wider than ``width``: whole combination names,
+    never broken across lines; columns are left out, least useful first, until the table
+    fits (the csv and json formats keep every column)."""
+    vu = df[["vu_design_i_kN", "vu_design_j_kN"]].astype(float).abs().max(axis=1)
+    cells = {
+        "rank": df["rank"].astype(str), "member": df["member"].map(shown),
+        "status": df["status"], "utilization": df["utilization"].map(lambda u: "" if u is None or u != u else f"{u:.3f}"),
+        "governing_case": df["governing_case"].map(lambda c: "" if c is None or c != c else shown(c)),
+        "vu_design_i_kN": df["vu_design_i_kN"].map(_kn), "vu_design_j_kN": df["vu_design_j_kN"].map(_kn),
+        "vu_design_kN": vu.map(_kn),
+    }
+    if "level" in df:
+        cells["level"] = df["level"].map(shown)
+    if "stirrups_total" in df:
+        cells["stirrups_total"] = df["stirrups_total"].map(lambda n: f"{int(n):,}")
+    right = {"rank", "utilization", "vu_design_i_kN", "vu_design_j_kN", "vu_design_kN", "stirrups_total"}
+    choices = (["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_i_kN",
+                "vu_design_j_kN", "stirrups_total"],
+               ["rank", "member", "level", "status", "utilization", "governing_case", "vu_design_kN", "stirrups_total"],
+               ["rank", "member", "status", "utilization", "governing_case", "vu_design_kN", "stirrups_total"],
+               ["rank", "member", "status", "utilization", "governing_case", "vu_design_kN"],
+               ["rank", "member", "status", "utilization", "governing_case"])
+    measure = Console(width=10_000)
+    for columns in choices:
+        if not set(columns) <= set(cells):
+            continue
+        t = Table(box=box.SIMPLE_HEAD, pad_edge=False, collapse_padding=True)
+        for col in columns:
+            t.add_column("#" if col == "rank" else label(col), justify="right" if col in right else "left",
+                         no_wrap=col != "member", overflow="fold" if col == "member" else "ellipsis")
+        for row in zip(*(cells[c] for c in columns)):
+            t.add_row(*row)
+        if measure.measure(t).maximum <= width:
+            break
+    return t
+
+
+def _kn(v) -> str:
+    return "" if v is None or v != v else f"{v:,.1f}"
+
+
 _CONTROL = {c: f"\\x{c:02x}" for c in [*range(0x00, 0x20), 0x7F]}
 
 
@@ -96,10 +169,6 @@ def shown(value) -> str:
     """Text for the terminal: control characters made visible (\\x1b, not an escape
     sequence) and rich markup escaped, so member ids print exactly as they are."""
     return escape(str(value).translate(_CONTROL))
-
-
-def _num(v) -> str:
-    return "" if v is None else f"{v:,.1f}"
 
 
 def dump_json(doc: dict) -> str:

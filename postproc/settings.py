@@ -98,11 +98,16 @@ class Settings:
 
 def load_settings(path: str | Path | None) -> Settings:
     """Settings from a TOML file; unknown sections or keys are errors, not silently ignored."""
-    s = Settings()
     if path is None:
-        return s
+        return Settings()
     path = Path(path)
-    doc = read_toml(path, "settings")
+    return validated_settings(read_toml(path, "settings"), path)
+
+
+def validated_settings(doc: dict, path: Path) -> Settings:
+    """Settings from the sections of a settings file (or the same as a dict, from Python),
+    checked as the file is; errors name ``path``."""
+    s = Settings()
     sections = {f.name: f for f in fields(Settings)}
     for name, values in doc.items():
         if name not in sections or not isinstance(values, dict):

@@ -160,6 +160,7 @@ class Store:
             finally:
                 parts.close()
             (tmp / "forces").mkdir()
+            part_keys = parts.keys()  # before finish() drains the buffer
 
             def finish(k: int) -> None:
                 t = sort_part(parts.take(k))
@@ -167,7 +168,7 @@ class Store:
                 pq.write_table(t.drop_columns(["_row"]), tmp / "forces" / f"part-{k:05d}.parquet")
 
             with ThreadPoolExecutor(max_workers=2) as pool:  # sorting and writing release the GIL
-                list(pool.map(finish, parts.keys()))
+                list(pool.map(finish, part_keys))
             parts.remove()
             manifest = {
                 "run": name,
@@ -176,7 +177,7 @@ class Store:
                 "code_edition": aci318_19.EDITION,
                 "units": UNITS,
                 "inputs": {role: {"path": str(p), "sha256": sha256_of(p)} for role, p in inputs.items()},
-                "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(parts.keys()),
+                "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(part_keys),
                            "cases": None if cases is None else cases.num_rows},
                 "cases": sorted(source.case_names),
                 "warnings": warnings,
@@ -275,6 +276,10 @@ def _write_json(path: Path, doc: dict) -> None:
 
 
 def _fsync_dir(path: Path) -> None:
+    """Make a rename inside ``path`` durable. Windows cannot open a folder as a file
+    (NTFS journals the rename itself), so there this is a no-op."""
+    if os.name == "nt":
+        return
     fd = os.open(path, os.O_RDONLY)
     try:
         os.fsync(fd)

@@ -15,20 +15,41 @@ columns = { member = "Label", length_m = "Span", b_mm = "Width", h_mm = "Depth" 
 units = { length_m = "mm", b_mm = "m", h_mm = "m" }
 
 [forces]
-columns = { member = "Frame", case = "LoadCase", x_m = "Station", V_kN = "Shear", N_kN = "Axial", T_kNm = "Torque" }
-units = { x_m = "mm", V_kN = "N", N_kN = "N", T_kNm = "N*mm" }
+columns = { member = "elem_id", case = "load_id", x_m = "pos", V_kN = "shear_z", N_kN = "axial", T_kNm = "torsion" }
+units = { x_m = "mm", V_kN = "N", N_kN = "N", T_kNm = "N-mm" }
 flip = ["V_kN", "N_kN"]
 """
 
 
+KIP_N, FT_M, IN_M, PSI_PA = 4448.2216152605, 0.3048, 0.0254, 6894.757293168  # exact SI definitions (NIST SP 811)
+
+
 def test_unit_factors():
-    # SI definitions (exact): 1 kip = 4448.2216152605 N, 1 ft = 0.3048 m
-    assert unit_factor("x_m", "mm") == 1e-3
-    assert unit_factor("V_kN", "N") == 1e-3
-    assert unit_factor("V_kN", "kip") == pytest.approx(4.4482216152605)
+    assert unit_factor("x_m", "mm") == pytest.approx(1e-3)
+    assert unit_factor("V_kN", "N") == pytest.approx(1e-3)
+    assert unit_factor("V_kN", "kip") == pytest.approx(KIP_N / 1e3)
     assert unit_factor("T_kNm", "N*mm") == pytest.approx(1e-6)
-    assert unit_factor("T_kNm", "kip*ft") == pytest.approx(4.4482216152605 * 0.3048)
-    assert unit_factor("fc_mpa", "psi") == pytest.approx(0.006894757293168)
+    assert unit_factor("T_kNm", "kip*ft") == pytest.approx(KIP_N * FT_M / 1e3)
+    assert unit_factor("fc_mpa", "psi") == pytest.approx(PSI_PA / 1e6)
+    assert unit_factor("as_tension_mm2", "in2") == pytest.approx((IN_M * 1e3) ** 2)
+
+
+@pytest.mark.parametrize("spelling, column, factor", [
+    # the spellings of one unit that export tables use, each to its value in our column's unit
+    ("kN-m", "T_kNm", 1.0), ("kN*m", "T_kNm", 1.0), ("kNm", "T_kNm", 1.0), ("kN.m", "T_kNm", 1.0),
+    ("kN m", "T_kNm", 1.0), ("kN·m", "T_kNm", 1.0), ("N-mm", "T_kNm", 1e-6), ("Nmm", "T_kNm", 1e-6),
+    ("kip-ft", "T_kNm", KIP_N * FT_M / 1e3), ("kip-in", "T_kNm", KIP_N * IN_M / 1e3),
+    ("N/mm2", "fc_mpa", 1.0), ("N/mm^2", "fc_mpa", 1.0), ("N/mm²", "fc_mpa", 1.0), ("ksi", "fc_mpa", PSI_PA / 1e3),
+    ("cm2", "as_tension_mm2", 100.0), ("mm²", "as_tension_mm2", 1.0), ("ft", "length_m", FT_M),
+])
+def test_unit_spellings(spelling, column, factor):
+    assert unit_factor(column, spelling) == pytest.approx(factor)
+
+
+@pytest.mark.parametrize("unit", ["kN", "furlong-ish", "lb-in", "kN*", "2", ""])
+def test_units_of_another_quantity_or_unknown_are_refused(unit):
+    with pytest.raises(KeyError, match="unit"):
+        unit_factor("T_kNm", unit)  # lb-in: lb is a mass, the moment unit is lbf-in
 
 
 def test_export_with_other_names_units_and_signs_designs_identically(tmp_path, capsys):
@@ -45,9 +66,9 @@ def test_export_with_other_names_units_and_signs_designs_identically(tmp_path, c
     exp_m["Width"] /= 1000.0
     exp_m["Depth"] /= 1000.0
     exp_f = pd.DataFrame(ours)
-    exp_f = pd.DataFrame({"Frame": exp_f.member, "LoadCase": exp_f.case, "Station": exp_f.x_m * 1000.0,
-                          "Shear": -exp_f.V_kN * 1000.0, "Axial": -exp_f.N_kN * 1000.0,
-                          "Torque": exp_f.T_kNm * 1e6, "Comment": "exported"})
+    exp_f = pd.DataFrame({"elem_id": exp_f.member, "load_id": exp_f.case, "pos": exp_f.x_m * 1000.0,
+                          "shear_z": -exp_f.V_kN * 1000.0, "axial": -exp_f.N_kN * 1000.0,
+                          "torsion": exp_f.T_kNm * 1e6, "remark": "exported"})
     (tmp_path / "exp").mkdir()
     exp_m.to_csv(tmp_path / "exp" / "beams.csv", index=False)
     exp_f.to_csv(tmp_path / "exp" / "frames.csv", index=False)
@@ -72,7 +93,7 @@ def test_mapping_errors_name_the_file(tmp_path):
     bad.write_text('[forces]\nunits = { V_kN = "furlong" }\n')
     with pytest.raises(InputError, match="map.toml.*furlong"):
         load_column_map(bad, KNOWN_COLUMNS)
-    bad.write_text('[forces]\ncolumns = { shear = "V2" }\n')
+    bad.write_text('[forces]\ncolumns = { shear = "shear_z" }\n')
     with pytest.raises(InputError, match="'shear', which is not a column"):
         load_column_map(bad, KNOWN_COLUMNS)
     bad.write_text("[forces\n")

@@ -8,7 +8,8 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as hs
 
-from postproc import design
+
+from postproc.demand import beams as demand
 from postproc.combos import aci_5_3_1, candidates, prefactored
 from postproc.settings import Combinations
 
@@ -125,9 +126,9 @@ def models(draw):
     return dict(zip(cases, types)), cases, patterns, {"V": v, "N": nn, "T": t}
 
 
-def _section(stations: int) -> design.Section:
+def _section(stations: int) -> demand.Section:
     one = lambda v: np.full(stations, float(v))
-    return design.section_from_members(b=one(300), h=one(600), d=one(540), fc=one(30), fyt=one(420), lam=one(1.0),
+    return demand.section_from_members(b=one(300), h=one(600), d=one(540), fc=one(30), fyt=one(420), lam=one(1.0),
                                        fy=one(420), As=one(np.nan), bf=one(np.nan), hf=one(np.nan))
 
 
@@ -141,7 +142,7 @@ def test_exact_envelope_equals_brute_force_enumeration(model):
     s_count = vals["V"].shape[1]
     sec = _section(s_count)
     cand = candidates(cs, vals)
-    exact = design.required(sec, cand)
+    exact = demand.required(sec, cand)
     _, C = cs.explicit
     brute_vals = {q: (C @ v).reshape(-1) for q, v in vals.items()}
 
@@ -150,13 +151,13 @@ def test_exact_envelope_equals_brute_force_enumeration(model):
     All = SimpleNamespace(station=station[order], values={q: v[order] for q, v in brute_vals.items()},
                           bounds=np.searchsorted(station[order], np.arange(s_count + 1)))
 
-    brute = design.required(sec, All)
+    brute = demand.required(sec, All)
     for field in ("vu_max", "av_env", "ata_env", "shear_ratio", "s_max", "s_max_across"):
         np.testing.assert_allclose(getattr(exact, field), getattr(brute, field), rtol=1e-12, atol=1e-9, err_msg=field)
     for field in ("minimum", "torsion", "heavy"):
         assert np.array_equal(getattr(exact, field), getattr(brute, field)), field
     # the per-leg need with torsion, for two stirrup options
     for legs, Aoh in ((2.0, 1.2e5), (4.0, 0.9e5)):
-        np.testing.assert_allclose(design.per_leg_need(cand, exact, np.full(s_count, legs), np.full(s_count, Aoh)),
-                                   design.per_leg_need(All, brute, np.full(s_count, legs), np.full(s_count, Aoh)),
+        np.testing.assert_allclose(demand.per_leg_need(cand, exact, np.full(s_count, legs), np.full(s_count, Aoh)),
+                                   demand.per_leg_need(All, brute, np.full(s_count, legs), np.full(s_count, Aoh)),
                                    rtol=1e-12, atol=1e-12)

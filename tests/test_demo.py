@@ -7,7 +7,7 @@ import pytest
 
 from postproc import cli
 
-SAMPLE = cli.SAMPLE
+SAMPLE = cli.sample_folder()
 
 
 @pytest.fixture(scope="module")

@@ -132,7 +132,7 @@ def layout(rng: random.Random, doc: Doc) -> None:
 
 def add_extra_column(rng: random.Random, doc: Doc, multiline: bool = False, value: str | None = None,
                      row: int | None = None) -> None:
-    name = rng.choice([n for n in ["note", "comment", "Frame", "x_m_orig", "remark 1", "Ü-col", "extra"]
+    name = rng.choice([n for n in ["note", "comment", "bay", "x_m_orig", "remark 1", "Ü-col", "extra"]
                        if n not in doc.header])
     pos = rng.randrange(0, len(doc.header) + 1)
     doc.header.insert(pos, name)

@@ -3,6 +3,7 @@ tables, untrusted ids escaped, an overview from coordinates, and a real browser 
 
 from __future__ import annotations
 
+import os
 import re
 import shutil
 import subprocess
@@ -14,7 +15,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from postproc import cli
-from postproc.html_report import COORDS, LEFT, PW, THIN_TOL_PX, ramp, thin, write_html_report
+from postproc.html_report import BANDS, COORDS, LEFT, PW, THIN_TOL_PX, thin, utilization_band, write_html_report
 from postproc.report import CAUTION
 from postproc.store import Run, Store
 from tests.conftest import beam, design, rows_from_function
@@ -177,39 +178,65 @@ def test_untrusted_ids_are_escaped_and_anchors_safe(small, tmp_path):
         assert shown in sections(html)
 
 
-def test_level_strips_without_coordinates(demo):
-    _, _, html, _, _ = demo
-    assert "Utilization by level" in html and "needs member coordinates (IFC geometry)" in html
+def overview_of(html: str) -> str:
+    return html[html.index('<section id="overview">'):html.index('<section id="members">')]
 
 
-def test_frame_overview_from_coordinates(small, tmp_path):
+def test_strips_and_no_plans_without_coordinates(demo):
+    _, _, html, members, _ = demo
+    overview = overview_of(html)
+    assert "Overview by level" in overview and "No plans" in overview and "gives no member coordinates" in overview
+    assert "<figure" not in overview
+    given = members.join(Store(demo[0].path.parent).run(demo[0].name).members().to_pandas().set_index("member").level)
+    for level, n in given.level.value_counts().items():  # a strip per level, its members counted
+        assert f'<div class="lv">{level} ({n:,})</div>' in overview
+    for name in members.index[(members.utilization > 0.95) & (members.status == "designed")]:
+        assert f">{name}</a>" in overview  # the 0.95-1.0 band is named
+    for word in ("wireframe", "axonometric", "isometric", 'class="panel"'):
+        assert word not in html
+
+
+def test_needs_action_leads_the_report(small, tmp_path):
+    html = write_html_report(small, tmp_path / "r.html").read_text(encoding="utf-8")
+    box = html[html.index('<section class="action"'):html.index("</section>", html.index('<section class="action"'))]
+    assert "Needs action: 1 member" in box and ">SMALL</a>" in box and "22.5.1.2" in box
+    assert html.index('<section class="action"') < html.index('<section id="index">')
+    chips = re.findall(r'<span(?: class="act")?>(\d+) ([a-z-]+)</span>', html[:html.index('class="caution"')])
+    assert chips[0] == ("1", "resize")  # the chips start with the statuses needing action
+
+
+def test_plans_from_coordinates(small, tmp_path):
     run = small
     copy = Run(shutil.copytree(run.path, tmp_path / "store" / run.name))  # the same run, its members placed in 3-D
     table = run.members()
     n = table.num_rows
     at = np.arange(n, dtype=float) * 6.0
-    coords = {"x_i_m": at, "y_i_m": np.zeros(n), "z_i_m": np.full(n, 3.0),
-              "x_j_m": at + 6.0, "y_j_m": np.zeros(n), "z_j_m": np.full(n, 3.0)}
+    z_top = np.full(n, 3.0)
+    is_col = np.array([k == "column" for k in table.column("kind").to_pylist()])
+    coords = {"x_i_m": at, "y_i_m": np.zeros(n), "z_i_m": np.where(is_col, 0.0, z_top),
+              "x_j_m": np.where(is_col, at, at + 6.0), "y_j_m": np.zeros(n), "z_j_m": z_top}
     for name in COORDS:
         table = table.append_column(name, pa.array(coords[name]))
     pq.write_table(table, copy.path / "members.parquet")
     html = write_html_report(copy, tmp_path / "r.html").read_text(encoding="utf-8")
-    overview = html[html.index('<section id="overview">'):html.index('<section id="members">')]
-    assert "Frame overview" in overview and "IFC geometry" not in overview
-    assert overview.count('<a href="#m') == n  # every member drawn, each a link to its section
-    assert overview.count('class="nd"') == 2  # the column, and the legend's sample
-    assert overview.count('class="ov ovr"') == 2  # the resize member, and the legend's sample
-    strokes = re.findall(r'<path class="ov" stroke="(#[0-9a-f]{6})"', overview)
-    assert len(strokes) == 2 + len(UNSEEN_IDS)  # the designed members
-    assert len(set(strokes)) >= 2  # coloured by their utilizations
+    overview = overview_of(html)
+    plans = re.findall(r'<figure class="plan">(.*?)</figure>', overview, re.S)
+    assert len(plans) == 2  # the beams' two levels: <i>L1</i> and none; the column is drawn as a square
+    drawn = "".join(plans)
+    assert drawn.count('<a href="#m') == n - 1  # every beam a line linked to its section
+    assert drawn.count('class="col"') == 2  # the column, under both levels at its top z = 3 m
+    assert drawn.count('class="u4"') == 1  # SMALL (resize): the heavy dashed line ...
+    assert re.search(r'<text class="tag f"[^>]*>SMALL</text>', drawn)  # ... and its name beside it
+    for word in ("wireframe", "isometric", ">X<", ">Y<", ">Z<", 'class="panel"'):
+        assert word not in overview  # no axis marker, no dark panel
 
 
-def test_ramp_is_sequential():
-    rgb = np.array([[int(c[k:k + 2], 16) for k in (1, 3, 5)] for c in ramp(np.linspace(0, 1, 21))]) / 255.0
-    lin = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
-    luminance = lin @ np.array([0.2126, 0.7152, 0.0722])
-    assert np.all(np.diff(luminance) > 0)  # lighter with every step: no traffic-light hues
-    assert ramp(np.array([2.0]))[0] == ramp(np.array([1.0]))[0]  # clamped above 1
+def test_bands():
+    # the overview's bands: <= 0.5, 0.5-0.8, 0.8-0.95, 0.95-1.0, > 1.0 (the README's legend)
+    util = np.array([0.2, 0.5, 0.51, 0.8, 0.9, 0.95, 0.99, 1.0, 1.2, 0.7, np.nan])
+    status = np.array(["designed"] * 8 + ["resize", "deep-beam", "not-covered"], dtype=object)
+    assert utilization_band(util, status).tolist() == [0, 0, 1, 1, 2, 2, 3, 3, 4, -1, -1]
+    assert BANDS == (0.5, 0.8, 0.95, 1.0)
 
 
 def test_thinning_keeps_corners_jumps_and_curves():
@@ -228,19 +255,37 @@ def test_thinning_keeps_corners_jumps_and_curves():
     assert list(np.flatnonzero(two)) == [0, 4, 5, 9]  # members never share a line
 
 
+@pytest.fixture(scope="module")
+def ifc_demo(tmp_path_factory):
+    """The demo designed from its IFC model: members with coordinates, so the report has plans."""
+    tmp = tmp_path_factory.mktemp("ifc")
+    assert cli.main(["demo", "--ifc", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"]) == 0
+    return tmp / "out" / "report.html"
+
+
 @pytest.mark.skipif(not CHROMIUM.exists(), reason="Debian chromium not installed (apt-get install chromium)")
-def test_renders_in_a_headless_browser(demo, tmp_path):
-    _, path, _, _, _ = demo
-    png = tmp_path / "report.png"
-    subprocess.run([str(CHROMIUM), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                    f"--user-data-dir={tmp_path / 'profile'}", f"--screenshot={png}", "--window-size=1400,2000",
-                    path.as_uri()], check=True, capture_output=True, timeout=180)
-    assert png.exists() and png.stat().st_size > 20_000
-    try:
-        from PIL import Image
-    except ImportError:  # Pillow is optional: the size check stands
-        return
-    with Image.open(png) as im:
-        assert im.size == (1400, 2000)
-        assert im.convert("RGB").getcolors(maxcolors=256) is None  # far more than a few colours
+@pytest.mark.parametrize("width", [1400, 800])
+def test_renders_in_a_headless_browser(demo, ifc_demo, tmp_path, width):
+    """Both reports (banded list without coordinates; plans with them) render at a desktop and a
+    narrow width. SHEARPOST_SCREENSHOTS=folder keeps the pictures, to look at them."""
+    keep = os.environ.get("SHEARPOST_SCREENSHOTS")
+    for name, path in (("csv", demo[1]), ("ifc", ifc_demo)):
+        png = (Path(keep) if keep else tmp_path) / f"report-{name}-{width}.png"
+        png.parent.mkdir(parents=True, exist_ok=True)
+        subprocess.run([str(CHROMIUM), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+                        "--no-first-run", "--disable-background-networking", "--disable-component-update",
+                        "--disable-sync", "--hide-scrollbars", f"--user-data-dir={tmp_path / 'profile'}",
+                        f"--screenshot={png}", f"--window-size={width},3000", path.as_uri()],
+                       check=True, capture_output=True, timeout=180)
+        assert png.exists() and png.stat().st_size > 20_000
+        try:
+            from PIL import Image
+        except ImportError:  # Pillow is optional: the size check stands
+            continue
+        with Image.open(png) as im:
+            assert im.size == (width, 3000)
+            rgb = im.convert("RGB")
+            assert rgb.getcolors(maxcolors=256) is None  # far more than a few colours: a drawn page
+            small = rgb.resize((50, 150))
+            light = sum(1 for x in range(50) for y in range(150) if sum(small.getpixel((x, y))) > 600)
+            assert light > 0.8 * 50 * 150  # a light page: no dark panel

@@ -16,7 +16,7 @@ from postproc import cli
 from tests.conftest import rows_from_function
 from tests.test_ifc import SITE, Model, matrix
 
-SAMPLE = cli.SAMPLE
+SAMPLE = cli.sample_folder()
 TOP = 3.5  # beam tops flush with the column tops (Model's Level 1)
 FC_MPA = 30.0
 COVER_M = 0.06

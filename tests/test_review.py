@@ -67,7 +67,7 @@ def test_compare_reports_exactly_the_known_changes(tmp_path, store, capsys):
     assert set(diff.demand_changes.member) == {"B2"}
     assert set(diff.layout_changes.member) == {"B2", "B3"}
     b2 = diff.layout_changes.set_index("member").loc["B2"]
-    assert b2.before != b2.after and b2.mass_change_kg > 0
+    assert b2.layout_a != b2.layout_b and b2.stirrup_mass_change_kg > 0
     assert diff.status_changes.empty and diff.newly_resize == []
     removed_mass = a.path / "design" / "members.parquet"
     assert diff.mass_b_kg != diff.mass_a_kg and removed_mass.exists()

@@ -1,0 +1,290 @@
+"""The Python API: design a frame from pandas DataFrames or files, and read a store.
+
+    import postproc
+    d = postproc.design(members_df, forces_df, cases=cases_df)   # or paths to CSV / IFC
+    d.members, d.zones, d.stations                                # the output tables
+    s = postproc.open_store("shearpost-store")                   # runs, comparisons, schedules
+
+The API runs the same stages as the command line (``ingest_and_design`` is the one
+pipeline both use): the inputs are validated by the CSV or IFC readers, ingested as a
+run into a store (a temporary one unless ``store=`` names a folder), and designed.
+"""
+
+from __future__ import annotations
+
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pandas as pd
+
+from postproc import engine, engines
+from postproc.adapters import csv_tables, elements, ifc
+from postproc.adapters.errors import InputError
+from postproc.adapters.mapping import load_column_map
+from postproc.settings import Settings, load_settings, settings_from_dict, validated_settings
+from postproc.store import Run, Store, StoreError
+
+NOT_DESIGNED = ("no-forces", "no-geometry", "invalid", "not-covered")
+
+
+class NothingDesigned(InputError):
+    """A run in which no member reached the design (every one no-forces, no-geometry,
+    invalid or not-covered). ``design`` holds the run and its tables, to inspect."""
+
+    def __init__(self, message: str, design: Design):
+        super().__init__(None, message)
+        self.design = design
+
+
+@dataclass
+class Design:
+    """A designed run: ``members`` and ``zones`` hold the columns of members.csv and
+    zones.csv; ``stations`` is the per-station trace (read on first use)."""
+
+    run: Run
+    members: pd.DataFrame
+    zones: pd.DataFrame
+    warnings: list[str] = field(default_factory=list)
+    _keep: object = field(default=None, repr=False)  # a temporary store, removed with this object
+    _stations: pd.DataFrame | None = field(default=None, repr=False)
+
+    @property
+    def name(self) -> str:
+        return self.run.name
+
+    @property
+    def stations(self) -> pd.DataFrame:
+        if self._stations is None:
+            from postproc.govern import design_table
+
+            self._stations = design_table(self.run, "stations")
+        return self._stations
+
+    def write(self, out_dir: str | Path) -> list[Path]:
+        """members.csv and zones.csv in ``out_dir``, exactly as `shearpost run` writes them."""
+        from postproc import report
+
+        return report.write_tables(self.members, self.zones, Path(out_dir))
+
+    def report(self, path: str | Path, members: list[str] | None = None) -> Path:
+        """The HTML report of this run (detail sections for ``members`` only, if given)."""
+        from postproc import html_report
+
+        return html_report.write_html_report(self.run, Path(path), members)
+
+
+def design(members, forces, cases=None, config=None, *, column_map=None, store=None, run: str | None = None,
+           workers: int = 1, ifc_key: str = "auto") -> Design:
+    """Design every member of a frame and return the tables.
+
+    ``members``, ``forces`` and ``cases`` are pandas DataFrames in the CSV schema of the
+    README, or paths to CSV files (``members`` also to an IFC model). ``config`` is a
+    settings TOML path or a dict of its sections; ``column_map`` a mapping TOML path.
+    The run is kept in ``store`` (a folder) under ``run`` if given, else in a temporary
+    store that lives as long as the returned object. Raises InputError on bad input and
+    NothingDesigned when no member could be designed.
+    """
+    keep = None
+    if store is None:
+        keep = tempfile.TemporaryDirectory(prefix="shearpost-")
+        store = Path(keep.name) / "store"
+    store = Store(store)
+    with tempfile.TemporaryDirectory(prefix="shearpost-inputs-") as tmp:
+        paths = {role: _as_file(value, Path(tmp), role) for role, value in
+                 (("members", members), ("forces", forces), ("cases", cases))}
+        if isinstance(config, dict):
+            settings, config_path = validated_settings(config, Path("config (a dict)")), None
+        else:
+            settings, config_path = load_settings(config), config
+        stored, result = ingest_and_design(store, run or store.new_name(), paths["members"], paths["forces"],
+                                           paths["cases"], column_map, settings, config_path,
+                                           engines.local(workers), ifc_key)
+    out = Design(stored, result.members[engine.MEMBER_COLUMNS], result.zones[engine.ZONE_COLUMNS],
+                 result.warnings, keep)
+    why = nothing_designed(out.members)
+    if why:
+        raise NothingDesigned(why, out)
+    return out
+
+
+def _as_file(value, folder: Path, role: str) -> Path | None:
+    """A path as given; a DataFrame written as CSV, so that it passes the same validation
+    as a file (messages then name '<role>.csv' and its line numbers)."""
+    if value is None or isinstance(value, (str, Path)):
+        return None if value is None else Path(value)
+    if isinstance(value, pd.DataFrame):
+        path = folder / f"{role}.csv"
+        value.to_csv(path, index=False, lineterminator="\n")
+        return path
+    raise TypeError(f"{role}: expected a pandas DataFrame or a path, got {type(value).__name__}")
+
+
+def ingest_and_design(store: Store, name: str, members_path: Path, forces_path: Path, cases_path: Path | None,
+                      map_path: Path | None, settings: Settings, config_path: Path | None, map_parts,
+                      ifc_key: str = "auto", task=None) -> tuple[Run, engine.Result]:
+    """Read and validate the inputs, ingest them as run ``name`` and design it before the run
+    becomes visible. ``task(description, total)`` returns a progress callback (optional)."""
+    task = task or (lambda description, total=None: None)
+    store.check_new_name(name)
+    cmap = load_column_map(map_path, csv_tables.KNOWN_COLUMNS)
+    cases = csv_tables.read_cases(cases_path, cmap) if cases_path else None
+    from_ifc = Path(members_path).suffix.lower() == ".ifc"
+    if from_ifc:
+        probe = elements.forces_source(forces_path, cmap)
+        members, warnings = read_ifc(members_path, ifc_key, settings.ifc, probe.member_ids())
+        lengths = None
+    else:
+        members, warnings = csv_tables.read_members(members_path, cmap)
+        lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
+    source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
+                                    settings.stations.tolerance_mm)
+    inputs = {"members": members_path, "forces": forces_path, **elements.extra_inputs(source)}
+    for role, path in (("cases", cases_path), ("column_map", map_path), ("settings", config_path)):
+        if path:
+            inputs[role] = path
+    holder = {}
+
+    def design_staged(staged: Run) -> None:
+        """Design the staged run into its design/ folder before the run becomes visible."""
+        from postproc import report
+
+        if from_ifc:
+            found = {m: L for m, L in zip(members.column("member").to_pylist(),
+                                          members.column("length_m").to_pylist()) if L is not None}
+            warnings.extend(ifc.length_mismatches(found, staged.forces(["member", "x_m"]),
+                                                  settings.ifc.length_tolerance_mm))
+        folder = staged.design_path
+        folder.mkdir()
+        advance = task("designing (parts)", len(staged.force_parts()))
+        holder["result"] = result = engine.design_into(staged, settings, folder, map_parts, advance)
+        result.warnings[:0] = warnings
+        (folder / "manifest.json").write_text(report.dump_json(engine.design_manifest(result, settings)),
+                                              encoding="utf-8")
+
+    run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()},
+                       progress=task("reading forces (rows)"), then=design_staged)
+    return run, holder["result"]
+
+
+def read_ifc(path: Path, key: str, st, wanted: set[str]):
+    """Members from an IFC model, with the settings' defaults for what the model lacks. With
+    key 'auto', the attribute (GlobalId, Name, Tag) that matches most force-table members."""
+    defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm)
+    if key != "auto":
+        return ifc.read_ifc_members(path, key=key, defaults=defaults)
+    best, first_error = None, None
+    for k in ("globalid", "name", "tag"):
+        try:
+            table, warnings = ifc.read_ifc_members(path, key=k, defaults=defaults)
+        except InputError as exc:
+            first_error = first_error or exc
+            continue
+        hits = len(wanted & set(table.column("member").to_pylist()))
+        if best is None or hits > best[0]:
+            best = (hits, k, table, warnings)
+    if best is None:
+        raise first_error
+    hits, k, table, warnings = best
+    return table, [f"IFC members matched to the forces table by {k} ({hits} of {len(wanted)} members)", *warnings]
+
+
+def nothing_designed(members: pd.DataFrame, examples: int = 3) -> str | None:
+    """Why a run designed no member, with what the unmatched ids look like; None when at
+    least one member reached the design (designed, resize or deep-beam)."""
+    status = members["status"]
+    if len(members) and not status.isin(NOT_DESIGNED).all():
+        return None
+    counts = status.value_counts()
+    said = ", ".join(f"{int(counts[s])} {s}" for s in NOT_DESIGNED if s in counts)
+    lines = [f"no member was designed ({said or 'the members table is empty'})"]
+    show = lambda ids: ", ".join(repr(str(m)) for m in ids[:examples]) + (" ..." if len(ids) > examples else "")
+    no_forces = members.loc[status == "no-forces", "member"].tolist()
+    no_geometry = members.loc[status == "no-geometry", "member"].tolist()
+    if no_forces or no_geometry:
+        lines.append("the member ids of the two tables do not match:")
+        if no_forces:
+            lines.append(f"  {len(no_forces)} member(s) of the members table have no forces, e.g. {show(no_forces)}")
+        if no_geometry:
+            lines.append(f"  {len(no_geometry)} member id(s) of the forces table are not in the members table, "
+                         f"e.g. {show(no_geometry)}")
+        lines.append("  check the id column of each (a --map file can rename it), and for IFC the --ifc-key")
+    invalid = members[status == "invalid"]
+    if len(invalid):
+        lines.append("invalid members, e.g. " + "; ".join(f"{m}: {why}" for m, why in
+                                                          zip(invalid["member"][:examples], invalid["message"])))
+    if "not-covered" in counts:
+        lines.append(f"{int(counts['not-covered'])} column(s): column shear design is not covered yet")
+    return "\n".join(lines)
+
+
+class OpenStore:
+    """A store of runs, for Python: its runs, one run's tables, comparisons, schedules."""
+
+    def __init__(self, path: str | Path):
+        self.store = Store(path)
+        if not self.store.root.is_dir():
+            raise StoreError(f"no store at {self.store.root}")
+
+    @property
+    def path(self) -> Path:
+        return self.store.root
+
+    def runs(self) -> pd.DataFrame:
+        """One row per run: name, created (UTC), members, force rows, designed."""
+        rows = []
+        for r in self.store.runs():
+            man = r.manifest()
+            rows.append({"run": r.name, "created": man["created"], "members": man["counts"]["members"],
+                         "force_rows": man["counts"]["force_rows"], "designed": r.has_design()})
+        return pd.DataFrame(rows, columns=["run", "created", "members", "force_rows", "designed"])
+
+    def _run(self, name: str | None) -> Run:
+        return self.store.run(name) if name else self.store.latest()
+
+    def run(self, name: str | None = None) -> Design:
+        """A designed run's tables (the latest run by default)."""
+        from postproc.govern import design_table
+
+        r = self._run(name)
+        return Design(r, design_table(r, "members")[engine.MEMBER_COLUMNS],
+                      design_table(r, "zones")[engine.ZONE_COLUMNS],
+                      list(json_of(r.design_path / "manifest.json").get("warnings", [])))
+
+    def governing(self, run: str | None = None, levels=(), groups=(), statuses=(), top: int | None = None):
+        """Members ranked as `shearpost govern` ranks them: those needing action first."""
+        from postproc import govern
+
+        return govern.rank(self._run(run), levels, groups, statuses, top)
+
+    def compare(self, run_a: str, run_b: str, threshold: float = 0.02, vu_threshold: float = 0.05):
+        """What changed from run_a to run_b (a govern.Comparison of DataFrames)."""
+        from postproc import govern
+
+        return govern.compare(self.store.run(run_a), self.store.run(run_b), threshold, vu_threshold)
+
+    def schedule(self, run: str | None = None, envelope_groups: bool = False):
+        """Beam marks and the bar schedule of a run (a schedule.Schedule of DataFrames)."""
+        from postproc import schedule
+
+        r = self._run(run)
+        settings = settings_from_dict(r.manifest().get("settings", {}))
+        return schedule.for_run(self.store, r, settings.detailing, envelope_groups)
+
+    def explain(self, member: str, run: str | None = None):
+        """One member's calculation, step by step (explain.Step: title, clause, lines)."""
+        from postproc import explain
+
+        r = self._run(run)
+        return explain.explain(r, member, settings_from_dict(r.manifest().get("settings", {})))
+
+
+def json_of(path: Path) -> dict:
+    import json
+
+    return json.loads(path.read_text(encoding="utf-8"))
+
+
+def open_store(path: str | Path = "shearpost-store") -> OpenStore:
+    """The store at ``path``, for its runs, comparisons and schedules."""
+    return OpenStore(path)
