@@ -165,15 +165,18 @@ class _Run:
     positions: list[float]
 
 
-def _end_runs(u: np.ndarray, s_env: np.ndarray, first, max_zones: int) -> tuple[list[_Run], float]:
+def _end_runs(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
+              span: float) -> tuple[list[_Run], float] | None:
     """Runs of stirrups from one face (u measured from it, ascending), tightest first.
 
-    The first stirrup is ``first`` from the face; each run's stirrups follow the last
-    stirrup before them at the run's spacing, and a run ends on the first stirrup at or
-    past every station that needs its spacing; the first run has two stirrups at least, as
-    the stations between the face and its first stirrup take the gap after it. ``first(s)``
-    is the first stirrup's distance from the face for a first run at spacing s. Returns the runs before the middle and
-    the spacing of the middle (the last level; inf where no stirrups are needed)."""
+    The first stirrup is ``first(s)`` from the face for a first run at spacing s; each
+    run's stirrups follow the last stirrup before them at the run's spacing, and a run
+    ends on the first stirrup at or past every station that needs its spacing; the first
+    run has two stirrups at least, as the stations between the face and its first stirrup
+    take the gap after it. No stirrup comes closer to the far end (``span`` away) than
+    the first-stirrup distance. Returns the runs before the middle and the spacing of the
+    middle (the last level; inf where no stirrups are needed), or None where a run would
+    need to reach past the far end (the caller then sets the tightest spacing throughout)."""
     suffix_min = np.minimum.accumulate(s_env[::-1])[::-1]  # nondecreasing toward the middle
     levels = choose_levels(u, suffix_min, max_zones)
     starts = np.concatenate([[0], np.flatnonzero(levels[1:] != levels[:-1]) + 1])
@@ -182,12 +185,18 @@ def _end_runs(u: np.ndarray, s_env: np.ndarray, first, max_zones: int) -> tuple[
     for k, i0 in enumerate(starts[:-1]):
         s = float(levels[i0])
         boundary = float(u[starts[k + 1]])  # stations before it need a spacing <= s
+        limit = span - first(s)
         x = first(s) if last is None else last + s
         pos = [x]
         # the stations between the face and the first stirrup take the gap after it: the
         # first run has at least two stirrups
         while pos[-1] < boundary - 1e-9 or (last is None and len(pos) < 2):
             pos.append(pos[-1] + s)
+        if pos[-1] > limit + 1e-9:
+            while pos and pos[-1] > limit + 1e-9:
+                pos.pop()
+            if not pos or span - pos[-1] > s + 1e-9:  # the far end's stations would be left too wide a gap
+                return None
         runs.append(_Run(s, pos))
         last = pos[-1]
     return runs, float(levels[starts[-1]])
@@ -288,14 +297,19 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     finite = np.where(np.isfinite(s_env), s_env, 1e12)
     best = np.flatnonzero(finite == finite.max())
     m = best[np.argmin(np.abs(u[best] - clear_span / 2))]  # least demand, nearest mid-span
-    left, s_l = _end_runs(u[: m + 1], s_env[: m + 1], first, zmax)
-    right, s_r = _end_runs((clear_span - u[m:])[::-1], s_env[m:][::-1], first, zmax)
-    right = [_Run(r.spacing, [clear_span - x for x in r.positions]) for r in right]  # from face j, descending
-    s_mid = min(s_l, s_r)
-    for side in (left, right):  # an end run as wide as the middle is part of it
-        while side and side[-1].spacing >= s_mid:
-            side.pop()
+    ends = (_end_runs(u[: m + 1], s_env[: m + 1], first, zmax, clear_span),
+            _end_runs((clear_span - u[m:])[::-1], s_env[m:][::-1], first, zmax, clear_span))
     note = ""
+    if ends[0] is None or ends[1] is None:  # a tight run reaching the far end: the tightest spacing throughout
+        left, right, s_mid = [], [], float(np.min(s_env))
+        note = "end zones meet; one zone throughout"
+    else:
+        (left, s_l), (right, s_r) = ends
+        right = [_Run(r.spacing, [clear_span - x for x in r.positions]) for r in right]  # from face j, descending
+        s_mid = min(s_l, s_r)
+        for side in (left, right):  # an end run as wide as the middle is part of it
+            while side and side[-1].spacing >= s_mid:
+                side.pop()
     a = left[-1].positions[-1] if left else None
     b = right[-1].positions[-1] if right else None
     if a is not None and b is not None and b - a < st.min_spacing_mm - 1e-9:
@@ -306,7 +320,8 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
         pos = [x for r in left for x in r.positions] + [x for r in reversed(right) for x in r.positions[::-1]]
         lo = a if a is not None else 0.0
         hi = b if b is not None else clear_span
-        return _rounded(np.array(sorted(pos))), [(lo, hi)], ""
+        empty = [(lo, hi)] if hi - lo > st.min_spacing_mm else []  # not the mere edge before a stirrup
+        return _rounded(np.array(sorted(pos))), empty, ""
     fixed_a, face_b = a is None, (clear_span if b is None else None)
     a = first(s_mid) if a is None else a
     b = clear_span - first(s_mid) if b is None else b
@@ -320,7 +335,8 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
 def _cantilever(v, env, span, first, zmax, st: Detailing):
     """Positions from the fixed face (v from it) to the free end; the stirrup nearest the
     tip is ``first`` from it wherever the tip region needs stirrups."""
-    runs, s_tip = _end_runs(v, env, first, zmax)
+    ends = _end_runs(v, env, first, zmax, span)
+    runs, s_tip = ends if ends is not None else ([], float(np.min(env)))
     if not np.isfinite(s_tip):  # the tip region needs none
         pos = [x for r in runs for x in r.positions]
         return np.array(pos), [(pos[-1] if pos else 0.0, span)]

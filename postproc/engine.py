@@ -413,7 +413,11 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
                              f"s_max = {dem.s_max[k]:g} mm)")
     smin = settings.detailing.min_spacing_mm
     for m, layout in lay.layouts.items():
-        gaps = np.diff(layout.positions)
+        x = layout.positions
+        if len(x) and (x[0] <= 0 or x[-1] >= mb.geo.clear_span[m]):
+            raise SelfCheckError(f"stirrups of member {mb.names[m]} run outside its clear span "
+                                 f"({x[0]:g} to {x[-1]:g} mm of {mb.geo.clear_span[m]:g} mm)")
+        gaps = np.diff(x)
         if len(gaps) and gaps.min() < smin - 0.05 and "one zone throughout" not in layout.message:
             raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} mm apart, under the "
                                  f"{smin:g} mm minimum")
@@ -442,7 +446,8 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     # per candidate: the utilization it produces (provided layout, else the section limits)
     if cap is not None:
         pair_u = np.where(prov.on[cs], np.maximum(cap.pair_utilization, p.shear_ratio), p.shear_ratio)
-        tie = np.where(prov.on[cs], np.where(cap.phi_vn > 0, p.vu / cap.phi_vn, 0.0), p.vu)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tie = np.where(prov.on[cs], np.where(cap.phi_vn > 0, p.vu / cap.phi_vn, 0.0), p.vu)
     else:
         pair_u, tie = p.shear_ratio, p.vu
     if torsion_ratio is not None:
