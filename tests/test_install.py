@@ -58,3 +58,15 @@ def test_wheel_installs_in_a_fresh_venv_and_runs_the_demo(tmp_path):
         assert (work / "shearpost-demo" / name).stat().st_size > 1000, name
     assert "Needs action" in (work / "shearpost-demo" / "report.html").read_text(encoding="utf-8")
     assert time.perf_counter() - started < 60  # kept quick: no download, no dependency install
+
+
+def test_every_subpackage_is_installed():
+    """A package folder missing from pyproject.toml's list installs nothing: the wheel then
+    fails at import (as postproc.demand once did)."""
+    import tomllib
+
+    root = Path(__file__).resolve().parent.parent
+    listed = set(tomllib.loads((root / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
+    found = {"postproc." + ".".join(p.parent.relative_to(root / "postproc").parts) if p.parent != root / "postproc"
+             else "postproc" for p in (root / "postproc").rglob("__init__.py")}
+    assert found <= listed, sorted(found - listed)

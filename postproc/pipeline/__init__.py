@@ -1,0 +1,131 @@
+"""The batch pipeline: the steps every member family goes through, and the shared ones.
+
+A batch is a set of whole members of one family with their force rows. Its design is a
+short pipeline of named steps, each a function of typed arrays over all stations of all
+members of the batch (struct of arrays):
+
+    geometry -> resample (station grid, end rules) -> candidates -> demand -> layout
+             -> check -> records
+
+``resample`` and the combination candidates are shared; each family (postproc.pipeline.
+beams, ...) supplies its own geometry, demand, layout, check and records, and the
+statuses and messages of its members.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+
+from postproc import combos as combos_mod
+from postproc import stations
+from postproc.settings import Settings
+
+MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_kN", "vu_design_j_kN",
+                  "crit_i", "crit_j", "phi_vc_kN", "phi_vn_limit_kN", "utilization", "stirrups_total",
+                  "stirrup_mass_kg",
+                  # added after the first release, at the end (the table's columns are a contract)
+                  "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2"]
+ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+
+
+class SelfCheckError(AssertionError):
+    """A finished layout failed its own check: a defect in shearpost, never a design result."""
+
+
+def row(member, status, message, **kw) -> dict:
+    row = {c: None for c in MEMBER_COLUMNS}
+    row.update(member=member, status=status, message=message, stirrups_total=0, stirrup_mass_kg=0.0)
+    row.update(kw)
+    return row
+
+
+@dataclass(frozen=True)
+class BatchInput:
+    members: pd.DataFrame  # members of the batch, all of one family (inputs, SI)
+    f_member: np.ndarray  # per force row: index into beams
+    f_case: np.ndarray  # per force row: index into cset.cases
+    f_x: np.ndarray  # mm from node i
+    f_values: dict[str, np.ndarray]  # V, N (N), T (N*mm)
+
+
+@dataclass(frozen=True)
+class MemberGeometry:
+    """Per-member arrays every family gives the shared steps."""
+
+    names: np.ndarray
+    geo: stations.Geometry
+
+
+@dataclass(frozen=True)
+class Resampled:
+    """Steps 2 and 3: the station grid, every case at every station, and the end rules."""
+
+    samples: stations.Samples
+    grid: stations.Grid
+    x_clear: np.ndarray  # station position from face i
+    case_values: dict[str, np.ndarray]  # (n_cases, S) at the station each station takes its forces from
+    rules: stations.EndRules
+    warnings: list[str]
+
+
+def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> Resampled:
+    g, n, names = mb.geo, len(mb.names), mb.names
+    samples = stations.Samples.build(bi.f_member, bi.f_case, bi.f_x, bi.f_values, settings.stations.tolerance_mm)
+    grid = stations.build_grid(g, samples, settings.stations)
+    span = float(g.length.max() * 2 + 1e3)
+    case_vals, missing = stations.interpolate(samples, len(cset.cases), grid.member, grid.x, grid.side, span)
+    rules = stations.end_rules(g, grid, samples, settings.stations)
+    case_vals = {k: v[:, rules.source] for k, v in case_vals.items()}
+
+    warnings = []
+    for m in np.unique(grid.member[missing.any(axis=0)]):
+        lacking = [cset.cases[c] for c in np.flatnonzero(missing[:, grid.member == m].any(axis=1))]
+        warnings.append(f"member {names[m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
+    first_row = np.searchsorted(samples.member, np.arange(n))
+    x_lo = np.minimum.reduceat(samples.x, first_row)
+    x_hi = np.maximum.reduceat(samples.x, first_row)
+    short = (x_lo > g.start + 10.0) | (x_hi < g.end - 10.0)  # 10 mm: rounding of exported stations
+    for m in np.flatnonzero(short):
+        warnings.append(f"member {names[m]}: forces cover x = {x_lo[m] / 1e3:.3f} to {x_hi[m] / 1e3:.3f} m only; "
+                        "the end values are held over the rest of the clear span")
+    sm, sc, sx, sdv = stations.steep_slopes(samples, settings.stations, n)
+    for m in np.unique(sm):
+        k = np.flatnonzero(sm == m)
+        warnings.append(f"member {names[m]}, case {cset.cases[sc[k[0]]]}: V changes by {abs(sdv[k[0]]) / 1e3:,.1f} kN "
+                        f"within {settings.stations.steep_slope_kN_per_m:g} kN/m at x = {sx[k[0]] / 1e3:.4f} m"
+                        + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
+                        + ": a concentrated load spread by the export? It is designed as a steep linear change; "
+                          "give the two rows one station to make it a concentrated load")
+    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings)
+
+
+def governing(values: np.ndarray, tie: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+    """Index of the largest value within each segment, ties (to 1e-9) broken by the largest
+    ``tie``, then by the first in order."""
+    seg = np.repeat(np.arange(len(bounds) - 1), np.diff(bounds))
+    first = -np.arange(len(values))
+    order = np.lexsort((first, np.round(tie, 9), np.round(values, 9), seg))
+    return order[bounds[1:] - 1]
+
+
+
+
+@dataclass(frozen=True)
+class BatchOutput:
+    rows: list[dict]  # members.csv rows
+    zones: list[dict]  # zones.csv rows
+    trace: pa.Table  # the station trace
+    warnings: list[str]
+    stirrups: pd.DataFrame  # member, x_mm
+
+
+def design_batch(family, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> BatchOutput:
+    """One batch of members of one family through the pipeline."""
+    mb = family.geometry(bi.members)
+    rs = resample(mb, bi, cset, settings)
+    cand = combos_mod.candidates(cset, rs.case_values, signed=family.signed)
+    return family.design(mb, rs, cand, cset, settings)

@@ -1,0 +1,385 @@
+"""Beams (ACI 318-19 Chapters 9 and 22): the family steps of the batch pipeline.
+
+geometry -> (shared resample, candidates) -> demand -> options -> layout -> provided ->
+check -> records.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+
+from postproc import detailing, stations
+from postproc.codes import aci318_19 as aci
+from postproc.demand import beams as demand
+from postproc.pipeline import BatchOutput, MemberGeometry, Resampled, SelfCheckError, governing, row
+from postproc.settings import BAR_CATALOGUE, Settings
+
+KINDS = ("beam",)
+SIGNED = ("V", "T")  # quantities whose sign does not matter to the demand (|Vu|, |Tu|)
+
+
+@dataclass(frozen=True)
+class Members(MemberGeometry):
+    """Step 1, geometry: per-member arrays."""
+
+    sec: demand.Section
+    free_i: np.ndarray
+    free_j: np.ndarray
+
+
+@dataclass(frozen=True)
+class Options:
+    """The ladder's (bar, legs) choices, per member: legs, bar area, Aoh, ph."""
+
+    bars: list[str]
+    legs: np.ndarray  # (K, members)
+    area: np.ndarray  # (K,)
+    db: np.ndarray  # (K,)
+    Aoh: np.ndarray  # (K, members)
+    ph: np.ndarray  # (K, members)
+
+
+@dataclass(frozen=True)
+class Layouts:
+    """Step 5: the chosen option and stirrup positions of each member that has one."""
+
+    option: np.ndarray  # per member: ladder index, -1 where not laid out
+    layouts: dict[int, detailing.Layout]
+    reasons: dict[int, tuple[str, str]]  # member -> (status, message) where not designed
+    stirrups_here: np.ndarray  # per station: stirrups are placed there (needed, or throughout)
+    allowed: np.ndarray  # per station: the allowed spacing for the chosen option (inf: none needed)
+
+
+def _geometry(bm: pd.DataFrame) -> Members:
+    g = stations.Geometry(
+        length=bm["length_m"].to_numpy() * 1e3, face_i=bm["face_i_mm"].to_numpy(), face_j=bm["face_j_mm"].to_numpy(),
+        d=bm["d_mm"].to_numpy(), h=bm["h_mm"].to_numpy(), support_i=bm["support_i"].to_numpy(object),
+        support_j=bm["support_j"].to_numpy(object), load_top=(bm["load_face"] == "top").to_numpy())
+    sec = demand.section_from_members(
+        b=bm["b_mm"].to_numpy(float), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
+        lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
+        bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float))
+    return Members(bm["member"].to_numpy(object), g, sec, g.support_i == "free", g.support_j == "free")
+
+
+def _options(mb: Members, dem: demand.Demand, grid: stations.Grid, st) -> Options:
+    """Every ladder choice for every member: legs enough for the spacing across the width
+    (Table 9.7.6.2.2) where stirrups are needed, and the torsion geometry of that bar."""
+    here = dem.stirrups_needed | st.stirrups_throughout
+    across = np.full(len(mb.names), np.inf)
+    np.minimum.at(across, grid.member[here], dem.s_max_across[here])
+    bars = [bar for bar, _ in st.ladder]
+    db = np.array([BAR_CATALOGUE[b][0] for b in bars])
+    legs = np.array([[max(base, detailing.legs_for_width(b, st.clear_cover_mm, dbk, a)) if np.isfinite(a) else base
+                      for b, a in zip(mb.sec.b, across)] for (_, base), dbk in zip(st.ladder, db)], dtype=float)
+    geo = [demand.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover_mm, dbk) for dbk in db]
+    return Options(bars, legs, np.array([BAR_CATALOGUE[b][1] for b in bars]), db,
+                   np.array([a for a, _ in geo]), np.array([p for _, p in geo]))
+
+
+def _allowed_spacing(k: int, opt: Options, dem: demand.Demand, cand, grid: stations.Grid, here, module) -> np.ndarray:
+    """Per station, the largest spacing on the module that option k admits (inf: none needed):
+    strength per outer leg (22.5.8.5.3, 22.7.6.1), the minimum of 9.6.3.4 / 9.6.4.2, s_max
+    (9.7.6.2.2; ph/8 and 300 mm with torsion, 9.7.6.3.3)."""
+    mem = grid.member
+    legs, area = opt.legs[k][mem], opt.area[k]
+    need = demand.per_leg_need(cand, dem, legs, opt.Aoh[k][mem])
+    with np.errstate(divide="ignore"):
+        s = np.where(need > 0, area / need, np.inf)
+        s = np.where(dem.minimum, np.minimum(s, legs * area / dem.av_min_s), s)
+    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(opt.ph[k][mem])), dem.s_max)
+    s = np.where(here | (need > 0), np.minimum(s, s_max), np.inf)
+    return detailing.floor_to_module(s, module)
+
+
+def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, deep: np.ndarray,
+            settings: Settings) -> Layouts:
+    """Step 5: the first ladder option that fits the minimum spacing and the torsion section
+    limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member."""
+    st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    here = dem.stirrups_needed | st.stirrups_throughout
+    shear_bad = np.zeros(n, bool)
+    np.logical_or.at(shear_bad, grid.member, dem.shear_ratio > 1.0)
+    starts = grid.offsets[:-1]
+    allowed = np.full((len(opt.bars), len(grid.x)), np.inf)
+    fits = np.zeros((len(opt.bars), n), bool)
+    torsion_ok = np.ones((len(opt.bars), n), bool)
+    for k in range(len(opt.bars)):
+        allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module_mm)
+        fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing_mm
+        ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
+                                           opt.ph[k][grid.member])
+        torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
+    usable = fits & torsion_ok
+    option = np.where(usable.any(axis=0), np.argmax(usable, axis=0), -1)
+    layouts, reasons = {}, {}
+    chosen = np.full(len(grid.x), np.inf)
+    for m in range(n):
+        if deep[m] or shear_bad[m]:
+            option[m] = -1
+            continue
+        sl = slice(grid.offsets[m], grid.offsets[m + 1])
+        k = option[m]
+        if k < 0:
+            if not torsion_ok[:, m].any():
+                reasons[m] = ("resize", _torsion_message(mb, rs, cand, dem, opt, m))
+            else:
+                tight = [f"{opt.bars[j]} x{int(opt.legs[j][m])} legs at {allowed[j][sl].min():g} mm"
+                         for j in range(len(opt.bars)) if torsion_ok[j, m]]
+                reasons[m] = ("resize", f"no (bar, legs) of the ladder works at the {st.min_spacing_mm:g} mm minimum "
+                                        f"spacing: {'; '.join(tight)}")
+            continue
+        got = detailing.layout_positions(rs.x_clear[sl], allowed[k][sl], float(mb.geo.clear_span[m]),
+                                         bool(mb.free_i[m]), bool(mb.free_j[m]), st)
+        if isinstance(got, str):
+            option[m] = -1
+            reasons[m] = ("resize", got)
+            continue
+        positions, empty, note = got
+        layouts[m] = detailing.Layout(opt.bars[k], int(opt.legs[k][m]), positions, empty, note)
+        chosen[sl] = allowed[k][sl]
+    return Layouts(option, layouts, reasons, here, chosen)
+
+
+def _torsion_message(mb, rs, cand, dem, opt, m) -> str:
+    sl = slice(rs.grid.offsets[m], rs.grid.offsets[m + 1])
+    best = int(np.argmax(opt.Aoh[:, m]))
+    ratio = demand.torsion_limit_ratio(mb.sec.take(rs.grid.member), cand, dem, opt.Aoh[best][rs.grid.member],
+                                       opt.ph[best][rs.grid.member])[sl].max()
+    return (f"Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) (ratio {ratio:.2f} with {opt.bars[best]} "
+            "stirrups): enlarge the section (the limit grows with bw*d and with Aoh^2/ph) or raise f'c; "
+            "more stirrups do not help")
+
+
+@dataclass(frozen=True)
+class Provided:
+    """Per station, what the layout provides (designed members only; elsewhere inf / 0)."""
+
+    on: np.ndarray  # the station belongs to a designed member
+    spacing: np.ndarray
+    legs: np.ndarray
+    area: np.ndarray
+    Aoh: np.ndarray
+    ph: np.ndarray
+    leg_gap: np.ndarray
+
+
+def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Provided:
+    grid = rs.grid
+    S = len(grid.x)
+    on = lay.option[grid.member] >= 0
+    spacing = np.full(S, np.inf)
+    k = np.maximum(lay.option, 0)[grid.member]
+    cols = grid.member
+    sides = detailing.jump_sides(grid.member, grid.x, grid.side)
+    for m, layout in lay.layouts.items():
+        sl = slice(grid.offsets[m], grid.offsets[m + 1])
+        spacing[sl] = detailing.provided_spacing(layout.positions, rs.x_clear[sl], float(mb.geo.clear_span[m]),
+                                                 sides[sl])
+    legs = np.where(on, opt.legs[k, cols], 0.0)
+    leg_gap = detailing.leg_spacing(mb.sec.b[cols], st.clear_cover_mm, opt.db[k], np.maximum(legs, 1))
+    return Provided(on, spacing, legs, np.where(on, opt.area[k], 0.0), opt.Aoh[k, cols], opt.ph[k, cols], leg_gap)
+
+
+def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided, lay: Layouts,
+           settings: Settings) -> demand.Capacity:
+    """Step 6, the self-check: every station of every designed member, every candidate
+    combination, and every gap between stirrups against the practical minimum."""
+    sec = mb.sec.take(rs.grid.member)
+    cap = demand.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
+                              lay.stirrups_here)
+    bad = prov.on & ~cap.ok
+    if bad.any():
+        k = np.flatnonzero(bad)[0]
+        m = rs.grid.member[k]
+        raise SelfCheckError(f"layout of member {mb.names[m]} fails its self-check at x = {rs.x_clear[k]:.0f} mm "
+                             f"(utilization {cap.utilization[k]:.3f}, s = {prov.spacing[k]:g} mm, "
+                             f"s_max = {dem.s_max[k]:g} mm)")
+    smin = settings.detailing.min_spacing_mm
+    for m, layout in lay.layouts.items():
+        x = layout.positions
+        if len(x) and (x[0] <= 0 or x[-1] >= mb.geo.clear_span[m]):
+            raise SelfCheckError(f"stirrups of member {mb.names[m]} run outside its clear span "
+                                 f"({x[0]:g} to {x[-1]:g} mm of {mb.geo.clear_span[m]:g} mm)")
+        gaps = np.diff(x)
+        if len(gaps) and gaps.min() < smin - 0.05 and "one zone throughout" not in layout.message:
+            raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} mm apart, under the "
+                                 f"{smin:g} mm minimum")
+    return cap
+
+
+def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Options, lay: Layouts,
+             prov: Provided, cap: demand.Capacity | None, why_deep: np.ndarray, settings: Settings):
+    """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace."""
+    st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    p = dem.pairs
+    cs = cand.station
+    k_ref = np.where(lay.option >= 0, lay.option, int(np.argmax(opt.Aoh.mean(axis=1))))  # bar for undesigned
+    torsion_ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem,
+                                               opt.Aoh[k_ref[grid.member], grid.member],
+                                               opt.ph[k_ref[grid.member], grid.member]) if p.torsion.any() else None
+    # per candidate: the utilization it produces (provided layout, else the section limits)
+    if cap is not None:
+        pair_u = np.where(prov.on[cs], np.maximum(cap.pair_utilization, p.shear_ratio), p.shear_ratio)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tie = np.where(prov.on[cs], np.where(cap.phi_vn > 0, p.vu / cap.phi_vn, 0.0), p.vu)
+    else:
+        pair_u, tie = p.shear_ratio, p.vu
+    if torsion_ratio is not None:
+        s_ = mb.sec.take(grid.member[cs])
+        tr = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s_.fc, s_.b, s_.d, opt.Aoh[k_ref[grid.member[cs]],
+                                    grid.member[cs]], opt.ph[k_ref[grid.member[cs]], grid.member[cs]])
+        pair_u = np.maximum(pair_u, np.where(p.torsion & ~prov.on[cs], tr, 0.0))
+    gov_station = governing(pair_u, tie, cand.bounds)  # per station: its governing candidate
+    station_util = pair_u[gov_station]
+    member_bounds = cand.bounds[grid.offsets]
+    gov_member = governing(pair_u, tie, member_bounds)  # per member
+    names_gov = cand.names(cset, np.concatenate([gov_station, gov_member]))
+    name_station, name_member = names_gov[:len(gov_station)], names_gov[len(gov_station):]
+
+    has_min = np.zeros(len(cs), bool)
+    if cap is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            av_prov = np.where(prov.on & np.isfinite(prov.spacing), prov.legs * prov.area / prov.spacing, 0.0)
+        has_min = (av_prov >= dem.av_min_s * (1 - 1e-9))[cs] & prov.on[cs]
+    vc_used = np.where(has_min, p.vc_hi, np.where(prov.on[cs], p.vc_lo, p.vc_hi))
+    sec_p = mb.sec.take(grid.member[cs])
+    limit = aci.section_limit(p.vc_hi, sec_p.fc, sec_p.b, sec_p.d)
+    eq = _vc_equation(sec_p, p, has_min | ~prov.on[cs])
+    at_chosen = p.ata / opt.Aoh[k_ref[grid.member[cs]], grid.member[cs]]
+    al = aci.al_required(at_chosen, opt.ph[k_ref[grid.member[cs]], grid.member[cs]], sec_p.fyt, sec_p.fy,
+                         sec_p.fc, sec_p.Acp, sec_p.b)
+    al = np.where(p.torsion, al, 0.0)
+    al_member = np.maximum.reduceat(al, member_bounds[:-1]) if len(al) else np.zeros(n)
+
+    rows, zones, stirrups = [], [], []
+    first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
+    for m in range(n):
+        j = gov_member[m]
+        common = dict(
+            crit_i=rs.rules.crit_i[m], crit_j=rs.rules.crit_j[m],
+            vu_design_i_kN=round(dem.vu_max[first_st[m]] / 1e3, 2), vu_design_j_kN=round(dem.vu_max[last_st[m]] / 1e3, 2),
+            governing_case=name_member[m], phi_vc_kN=round(aci.PHI_SHEAR * vc_used[j] / 1e3, 2),
+            phi_vn_limit_kN=round(limit[j] / 1e3, 2), utilization=round(float(pair_u[j]), 3),
+            x_governing_mm=round(float(rs.x_clear[cs[j]]), 1), vu_kN=round(p.vu[j] / 1e3, 2),
+            nu_kN=round(p.nu[j] / 1e3, 2), tu_kNm=round(p.tu[j] / 1e6, 3), vc_equation=eq[j],
+            al_torsion_mm2=round(float(al_member[m]), 0) if al_member[m] > 0 else None)
+        name = mb.names[m]
+        if why_deep[m]:
+            rows.append(row(name, "deep-beam", why_deep[m], **common))
+            continue
+        if lay.option[m] < 0:
+            sl = slice(grid.offsets[m], grid.offsets[m + 1])
+            ratio = float(dem.shear_ratio[sl].max())
+            if ratio > 1.0:
+                bd = float(mb.sec.b[m] * mb.sec.d[m]) * ratio
+                msg = (f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}); needs bw*d of about "
+                       f"{bd:,.0f} mm^2")
+            else:
+                msg = lay.reasons[m][1]
+            rows.append(row(name, "resize", msg, **common))
+            continue
+        layout = lay.layouts[m]
+        sl = slice(grid.offsets[m], grid.offsets[m + 1])
+        closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any())  # 25.7.1.6
+        shapes = detailing.stirrup_set(float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover_mm, layout.bar, layout.legs,
+                                       closed, st.open_hook_deg)
+        mass = layout.count * detailing.set_mass(shapes)
+        message = layout.message
+        if al_member[m] > 0:
+            message = "; ".join(filter(None, [message, f"torsion: add Al = {al_member[m]:,.0f} mm^2 of longitudinal "
+                                                      "bars around the perimeter (22.7.6.1, 9.6.4.3, 9.7.5)"]))
+        rows.append(row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
+                         **common))
+        stirrups.append(pd.DataFrame({"member": name, "x_mm": layout.positions}))
+        for z, zone in enumerate(detailing.zones_from_positions(layout.positions, float(mb.geo.clear_span[m]),
+                                                                layout.empty), start=1):
+            zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
+                              bar=layout.bar if zone.count else "", legs=layout.legs if zone.count else 0,
+                              spacing_mm=round(zone.spacing, 1) if np.isfinite(zone.spacing) else None,
+                              count=zone.count))
+
+    g = gov_station
+    k_st = k_ref[grid.member]
+    Aoh_st, ph_st = opt.Aoh[k_st, grid.member], opt.ph[k_st, grid.member]
+    largest_v = governing(p.vu, np.zeros(len(p.vu)), cand.bounds)
+    on = prov.on
+    with np.errstate(divide="ignore", invalid="ignore"):
+        av_prov = np.where(on & np.isfinite(prov.spacing), prov.legs * prov.area / prov.spacing,
+                           np.where(on, 0.0, np.nan))
+    sec_st = mb.sec.take(grid.member)
+    take = lambda values, idx: pa.array(list(values), pa.string()).take(pa.array(idx))  # strings built in Arrow
+    trace = pa.table({
+        "member": take(mb.names, grid.member), "x_mm": np.round(rs.x_clear, 2), "side": grid.side,
+        "governing_case": pa.array(list(name_station), pa.string()), "vu_kN": p.vu[g] / 1e3,
+        "vu_max_kN": dem.vu_max / 1e3, "nu_kN": p.nu[g] / 1e3, "tu_kNm": p.tu[g] / 1e6,
+        "phi_vc_kN": aci.PHI_SHEAR * vc_used[g] / 1e3,
+        # phi*Vn of the combination with the largest Vu, so that it compares with vu_max
+        "phi_vn_kN": np.where(on, cap.phi_vn[largest_v] if cap is not None else np.nan, np.nan) / 1e3,
+        "phi_vn_limit_kN": limit[g] / 1e3,
+        "avmin_threshold_kN": np.where(sec_st.avmin_exempt, aci.PHI_SHEAR * p.vc_lo[g],
+                                       aci.av_min_threshold(sec_st.fc, sec_st.b, sec_st.d, sec_st.lam)) / 1e3,
+        "vc_equation": pa.array(list(eq[g]), pa.string()),
+        "av_s_req": p.av[g], "at_s_req": p.ata[g] / Aoh_st, "av_s_env": dem.av_env, "at_s_env": dem.ata_env / Aoh_st,
+        "av_min_s": dem.av_min_s, "avmin_required": dem.minimum, "torsion": dem.torsion,
+        "s_max_mm": np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st)), dem.s_max),
+        "s_allowed_mm": np.where(on, lay.allowed, np.nan),
+        "spacing_mm": np.where(on, prov.spacing, np.nan), "av_s_prov": av_prov,
+        "al_mm2": al[g], "utilization": station_util,
+    })
+    positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
+    return rows, zones, trace, positions
+
+
+def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray) -> np.ndarray:
+    """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, or zero under tension)."""
+    a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam)
+    cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam)
+    vc = np.where(with_min, p.vc_hi, p.vc_lo)
+    out = np.where(with_min, np.where(np.isclose(p.vc_hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
+                   "22.5.5.1(c)").astype(object)
+    out = np.where(np.isclose(vc, cap, rtol=1e-9) & (vc > 0), "22.5.5.1.1 cap", out)
+    return np.where(vc <= 0, "Vc = 0 (axial tension)", out)
+
+
+def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
+    """Why a member is not designed by the sectional method ('' where it is).
+
+    Supported at both ends: clear span <= 4h (9.9.1.1(a)) or a concentrated load within
+    2h of a bearing face (9.9.1.1(b)). A cantilever is not supported on the face opposite
+    its load, so 9.9.1.1 does not apply; one shorter than d has bracket proportions
+    (a_v/d < 1, 16.5.1.1) and is not designed here either.
+    """
+    span_rule = aci.is_deep_by_span(clear_span, h) & ~cantilever
+    load_rule = point_near_bearing & ~cantilever & ~span_rule
+    bracket = cantilever & (clear_span < d)
+    out = np.full(len(clear_span), "", dtype=object)
+    out[span_rule] = "clear span <= 4h (ACI 318-19 9.9.1.1(a)): design by strut-and-tie (Ch. 23), not sectionally"
+    out[load_rule] = ("concentrated load within 2h of a bearing face (ACI 318-19 9.9.1.1(b)): "
+                      "design by strut-and-tie (Ch. 23), not sectionally")
+    out[bracket] = "cantilever shorter than d: bracket or corbel (ACI 318-19 16.5), not designed sectionally"
+    return out
+
+
+
+
+def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchOutput:
+    """Demand, layout, self-check and records of a batch of beams."""
+    sec_st = mb.sec.take(rs.grid.member)
+    dem = demand.required(sec_st, cand)
+    cantilever = mb.free_i | mb.free_j
+    why_deep = deep_beam_reasons(mb.geo.clear_span, mb.geo.h, mb.geo.d, cantilever, rs.rules.point_load_near_bearing)
+    opt = _options(mb, dem, rs.grid, settings.detailing)
+    lay = _layout(mb, rs, cand, dem, opt, why_deep != "", settings)
+    prov = _provided(mb, rs, opt, lay, settings.detailing)
+    cap = _check(mb, rs, cand, dem, prov, lay, settings)
+    rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, why_deep, settings)
+    return BatchOutput(rows, zones, trace, rs.warnings, positions)
+
+
+geometry = _geometry
+signed = SIGNED
