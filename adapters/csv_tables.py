@@ -24,6 +24,7 @@ from postproc.adapters.mapping import ColumnMap, TableMap
 from postproc.codes import aci318_19 as aci
 
 SUPPORTS = ("column", "wall", "girder", "hanger", "free")
+FRAMES = ("none", "ordinary", "intermediate", "special")  # moment frames of ACI 318-19 Chapter 18
 KINDS = ("beam", "column")
 LOAD_FACES = ("top", "bottom")
 CASE_TYPES = ("D", "L", "Lr", "S", "R", "W", "E")
@@ -49,10 +50,15 @@ MEMBER_COLUMNS = (
     Col("face_i_mm", True), Col("face_j_mm", True), Col("load_face", False),
     Col("bf_mm", True), Col("hf_mm", True), Col("as_tension_mm2", True),
     Col("level", False), Col("group", False),
+    # moment frames of the seismic system (ACI 318-19 Chapter 18) and columns
+    Col("frame", False), Col("as_top_i_mm2", True), Col("as_bot_i_mm2", True), Col("as_top_j_mm2", True),
+    Col("as_bot_j_mm2", True), Col("db_long_mm", True), Col("n_long", True), Col("diameter_mm", True),
+    Col("ties_b", True), Col("ties_h", True), Col("as_long_mm2", True),
 )
 FORCE_COLUMNS = (
     Col("member", False, True), Col("case", False, True), Col("x_m", True, True),
     Col("V_kN", True, True), Col("N_kN", True), Col("T_kNm", True), Col("M_kNm", True),
+    Col("Vb_kN", True),  # shear parallel to the section's b side (columns; beams optional)
 )
 CASE_COLUMNS = (Col("case", False, True), Col("type", False, True), Col("pattern", False))
 
@@ -418,6 +424,16 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     probs.add(~np.isnan(bf) & np.isnan(hf), "hf_mm", "a flange width needs a flange thickness")
     As = _num(t, "as_tension_mm2")
     probs.add(~np.isnan(As) & (As <= 0), "as_tension_mm2", "must be greater than zero")
+    frame = _str(t, "frame")
+    frame[frame == ""] = "none"
+    _check_choice(frame, FRAMES, "frame", probs)
+    for name in ("as_top_i_mm2", "as_bot_i_mm2", "as_top_j_mm2", "as_bot_j_mm2", "db_long_mm", "n_long",
+                 "diameter_mm", "ties_b", "ties_h", "as_long_mm2"):
+        v = _num(t, name)
+        probs.add(~np.isnan(v) & (v <= 0), name, "must be greater than zero")
+    for name in ("n_long", "ties_b", "ties_h"):
+        v = _num(t, name)
+        probs.add(~np.isnan(v) & (v != np.round(v)), name, "must be a whole number")
     probs.raise_if_any()
 
     warnings = []
@@ -427,6 +443,7 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     fy_default = np.isnan(fy)
     out = t.set_column(t.schema.get_field_index("kind"), "kind", pa.array(kind.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("load_face"), "load_face", pa.array(load_face.tolist(), pa.string()))
+    out = out.set_column(out.schema.get_field_index("frame"), "frame", pa.array(frame.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("d_mm"), "d_mm", pa.array(d))
     # fy defaults to Grade 420, the usual longitudinal bar (common practice); used only for rho_w bounds.
     out = out.set_column(out.schema.get_field_index("fy_mpa"), "fy_mpa", pa.array(np.where(fy_default, 420.0, fy)))
@@ -495,7 +512,7 @@ class ForcesReader:
                 probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
                                           for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
             probs.raise_if_any()
-            for name in ("N_kN", "T_kNm", "M_kNm"):
+            for name in ("N_kN", "T_kNm", "M_kNm", "Vb_kN"):
                 t = t.set_column(t.schema.get_field_index(name), name, pac.fill_null(t.column(name), 0.0))
             self.rows += t.num_rows
             self.case_names.update(pac.unique(t.column("case")).to_pylist())

@@ -864,7 +864,7 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
     materials = _materials(entity)
     row = {c.name: None for c in MEMBER_COLUMNS}
     row.update(member=member, kind=p.role, fyt_mpa=defaults.fyt_mpa, fy_mpa=defaults.fy_mpa,
-               **{"lambda": defaults.lam}, load_face="top", level=_level(entity), group="",
+               **{"lambda": defaults.lam}, load_face="top", frame="none", level=_level(entity), group="",
                source_id=entity.GlobalId, invalid_reason=p.problem)
     # geometry rounded to a micrometre: below any drawing's precision, above float noise
     if p.nodes is not None:

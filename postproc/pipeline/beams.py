@@ -19,6 +19,7 @@ from postproc.pipeline import BatchOutput, MemberGeometry, Resampled, SelfCheckE
 from postproc.settings import BAR_CATALOGUE, Settings
 
 KINDS = ("beam",)
+USES_VB = False  # beams are designed for V (parallel to h); a Vb column is read for columns
 SIGNED = ("V", "T")  # quantities whose sign does not matter to the demand (|Vu|, |Tu|)
 
 
