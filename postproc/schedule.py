@@ -141,8 +141,11 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         z = zmap[src]
         sec = inputs.loc[m]
         mark = mark_of_sig[sig_of[m]]
+        al = res.al_torsion_mm2[m] if "al_torsion_mm2" in res else None
         member_rows.append({"member": m, "mark": mark, "level": sec.level, "group": sec.group,
-                            "layout_from": src, "layout": layout_text(z)})
+                            "layout_from": src, "layout": layout_text(z),
+                            # longitudinal torsion steel to add to the flexural bars (22.7.6.1, 9.6.4.3)
+                            "al_torsion_mm2": None if al is None or pd.isna(al) else float(al)})
         sets = int(z["count"].sum())
         if not sets:
             continue

@@ -141,6 +141,10 @@ def test_torsion_combined_minimum_and_al_by_hand(run_design):
     assert row.status == "designed" and set(z.bar) == {"#10"} and z.spacing_mm.max() == s
     assert row.al_torsion_mm2 == pytest.approx(max(al, al_min), abs=1.0)
     assert "Al" in row.message and "22.7.6.1" in row.message
+    out = res.out.parent / "schedule"
+    assert cli.main(["schedule", "--store", str(res.store), "--out", str(out)]) == 0
+    sched = pd.read_csv(out / "schedule_members.csv").set_index("member")
+    assert sched.al_torsion_mm2["T1"] == pytest.approx(max(al, al_min), abs=1.0)  # the schedule carries Al too
 
 
 def test_a_torsion_failure_cites_22_7_7_1_and_its_remedy(run_design):
