@@ -148,7 +148,8 @@ COMMANDS = {
     "bench": ("design a synthetic frame and time it against bare reads",
               "Generate a deterministic synthetic frame, time the ingest and the design against bare reads of the "
               "same data, check a sample against a per-member reference, and report the peak memory.",
-              ["shearpost bench --members 1000 --cases 40", "shearpost bench --members 10000 --workers 2 --json"],
+              ["shearpost bench --members 1000 --cases 40", "shearpost bench --members 10000 --cases 8 --basic",
+               "shearpost bench --members 10000 --workers 2 --json"],
               {"json"}),
 }
 
@@ -254,7 +255,10 @@ def _parser() -> argparse.ArgumentParser:
 
     b = q["bench"]
     b.add_argument("--members", type=positive_int, default=10_000, help="members (default 10,000)")
-    b.add_argument("--cases", type=positive_int, default=40, help="factored combinations (default 40)")
+    b.add_argument("--cases", type=positive_int, default=40, help="factored combinations (default 40), or basic "
+                                                                    "load cases with --basic")
+    b.add_argument("--basic", action="store_true", help="basic load cases in a cases.csv (dead, live in patterns, "
+                                                        "roof, wind, earthquake), combined by Table 5.3.1")
     b.add_argument("--stations", type=positive_int, default=21, help="output stations per member (default 21)")
     b.add_argument("--seed", type=int, default=1, help="seed of the synthetic frame (default 1)")
     b.add_argument("--sample", type=positive_int, default=30, help="members checked by the per-member reference")
@@ -625,7 +629,8 @@ def cmd_bench(args) -> int:
     map_parts = engines.dask(args.scheduler, args.workers) if args.engine == "dask" else engines.local(args.workers)
     with report.progress_bars(show) as task:
         figures = bench.run(args.members, args.cases, args.stations, args.seed, args.sample, map_parts,
-                            args.workers if args.engine == "local" else 0, args.keep, task("bench: reading forces (rows)"))
+                            args.workers if args.engine == "local" else 0, args.keep, task("bench: reading forces (rows)"),
+                            args.basic)
     if args.json:
         print(report.dump_json({**figures.__dict__, "end_to_end_s": figures.end_to_end_s}))
         return EXIT_OK

@@ -47,7 +47,8 @@ VARIABLE = ("L", "Lr", "S", "R")
 LATERAL = ("W", "E")
 ROOF = ("Lr", "S", "R")
 ENUMERATION_LIMIT = 200_000  # explicit listing of every combination only below this count
-PAIRWISE_LIMIT = 24  # options of one term compared pairwise for dominance in 3 or more coordinates
+DENSE_LIMIT = 2_000  # up to this many combinations the front is taken over all of them at once
+PAIRWISE_CELLS = 4_000_000  # entries compared pairwise at a time (3 or more coordinates)
 
 
 @dataclass(frozen=True)
@@ -100,8 +101,9 @@ class ComboSet:
         for brute-force cross-checks. Refused above ENUMERATION_LIMIT."""
         if self.count > ENUMERATION_LIMIT:
             raise ValueError(f"{self.count:,} combinations are too many to list one by one")
-        names, rows, seen = [], [], set()
-        for row in self.rows:
+        names, rows, keys, seen = [], [], [], set()
+        width = max((len(r.terms) for r in self.rows), default=0)
+        for r_index, row in enumerate(self.rows):
             for choice in itertools.product(*[range(len(t.labels)) for t in row.terms]):
                 v = row.factors(choice)
                 key = tuple(np.round(v, 12))
@@ -110,6 +112,8 @@ class ComboSet:
                 seen.add(key)
                 names.append(row.name(choice))
                 rows.append(v)
+                keys.append((r_index, *choice, *(-1,) * (width - len(choice))))
+        self.__dict__["_keys"] = np.array(keys, np.int64).reshape(len(keys), width + 1)  # (row, choice...) of each
         return names, np.array(rows).reshape(len(rows), len(self.cases))
 
     @property
@@ -241,50 +245,67 @@ class Candidates:
         return text[inv.reshape(-1)] if len(which) else np.array([], dtype=object)
 
 
-def _non_dominated(coords: list[np.ndarray]) -> np.ndarray:
-    """(n_options, S) bool: options not dominated at each station in the given
-    coordinates (larger is worse for the design). A superset is always safe."""
-    n, s = coords[0].shape
-    if n == 1:
-        return np.ones((1, s), bool)
+def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
+    """(S, K) bool: the entries of each station (row) that no other valid entry of the same
+    station dominates in the given coordinates (each (S, K); larger is worse for the
+    design). Exact ties may keep more than one (a superset is always safe)."""
+    S, K = valid.shape
+    if K <= 1:
+        return valid.copy()
+    neg = -np.inf
     if len(coords) == 1:
-        out = np.zeros((n, s), bool)
-        out[np.argmax(coords[0], axis=0), np.arange(s)] = True
-        return out
+        a = np.where(valid, coords[0], neg)
+        out = np.zeros((S, K), bool)
+        out[np.arange(S), np.argmax(a, axis=1)] = True
+        return out & valid
     if len(coords) == 2:
-        a, b = coords
-        order = np.lexsort((-b, -a), axis=0)  # by a, then b, both descending
-        bs = np.take_along_axis(b, order, axis=0)
-        best_before = np.maximum.accumulate(np.vstack([np.full((1, s), -np.inf), bs[:-1]]), axis=0)
-        out = np.zeros((n, s), bool)
-        np.put_along_axis(out, order, bs > best_before, axis=0)
-        return out
-    if n > PAIRWISE_LIMIT:
-        return np.ones((n, s), bool)
-    stack = np.stack(coords)  # (k, n, S)
-    ge = np.all(stack[:, :, None, :] >= stack[:, None, :, :], axis=0)  # [o2, o1]: o2 at least as bad in all
-    gt = np.any(stack[:, :, None, :] > stack[:, None, :, :], axis=0)
-    earlier = np.tri(n, k=-1, dtype=bool).T[:, :, None]  # o2 < o1: breaks exact ties
-    dominated = (ge & (gt | earlier)).any(axis=0)
-    return ~dominated
+        a, b = (np.where(valid, c, neg) for c in coords)
+        order = np.argsort(-a, axis=1, kind="stable")  # a descending; ties keep their order
+        bs = np.take_along_axis(b, order, axis=1)
+        before = np.maximum.accumulate(np.hstack([np.full((S, 1), neg), bs[:, :-1]]), axis=1)
+        out = np.zeros((S, K), bool)
+        np.put_along_axis(out, order, bs > before, axis=1)
+        return out & valid
+    out = valid.copy()
+    stack = np.stack([np.where(valid, c, neg) for c in coords])  # (k, S, K)
+    # first against a few strong entries of each station (the best in each coordinate and
+    # in their sum): most entries fall to one of them; then pairwise among the rest
+    pivots = np.stack([np.argmax(c, axis=1) for c in stack] + [np.argmax(stack.sum(axis=0), axis=1)], axis=1)
+    piv = np.take_along_axis(stack, np.broadcast_to(pivots, (len(coords),) + pivots.shape), axis=2)  # (k, S, M)
+    ge = np.all(piv[:, :, :, None] >= stack[:, :, None, :], axis=0)  # [s, pivot, entry]
+    gt = np.any(piv[:, :, :, None] > stack[:, :, None, :], axis=0)
+    out &= ~(ge & gt).any(axis=1)
+    survivors = out.sum(axis=1)
+    K2 = int(survivors.max(initial=0))
+    order = np.argsort(~out, axis=1, kind="stable")[:, :max(K2, 1)]  # each station's survivors first
+    sub = np.take_along_axis(stack, np.broadcast_to(order, (len(coords),) + order.shape), axis=2)
+    sub_ok = np.take_along_axis(out, order, axis=1)
+    sub = np.where(sub_ok[None], sub, neg)
+    K2 = sub.shape[2]
+    earlier = np.tri(K2, k=-1, dtype=bool).T[None, :, :]  # o2 < o1: breaks exact ties
+    keep_sub = sub_ok.copy()
+    step = max(1, PAIRWISE_CELLS // (K2 * K2))
+    for s0 in range(0, S, step):  # pairwise, in slices of stations: memory stays bounded
+        part = sub[:, s0:s0 + step]
+        ge = np.all(part[:, :, :, None] >= part[:, :, None, :], axis=0)  # [s, o2, o1]: o2 at least as bad
+        gt = np.any(part[:, :, :, None] > part[:, :, None, :], axis=0)
+        keep_sub[s0:s0 + step] &= ~(ge & (gt | earlier) & sub_ok[s0:s0 + step, :, None]).any(axis=1)
+    out = np.zeros((S, K), bool)
+    np.put_along_axis(out, order, keep_sub, axis=1)
+    return out
 
 
-def _ragged_product(n_stations: int, fronts: list[tuple[np.ndarray, np.ndarray]]) -> tuple[np.ndarray, np.ndarray]:
-    """For each station, every combination of one front option per term.
-
-    ``fronts[t]`` = (station, option) of term t's non-dominated options, grouped by
-    station. Returns (station of each product, option chosen per term (P, n_terms))."""
-    station = np.arange(n_stations)
-    choice = np.zeros((n_stations, 0), np.int64)
-    for st, opt in fronts:
-        counts = np.bincount(st, minlength=n_stations)
-        start = np.concatenate([[0], np.cumsum(counts)[:-1]])
-        reps = counts[station]
-        first = np.repeat(start[station], reps)
-        k = np.arange(reps.sum()) - np.repeat(np.cumsum(reps) - reps, reps)
-        choice = np.column_stack([np.repeat(choice, reps, axis=0), opt[first + k]])
-        station = np.repeat(station, reps)
-    return station, choice
+def _compact(keep: np.ndarray, *arrays: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Move each station's kept entries to the front and drop the columns no station uses.
+    Returns (valid, *arrays) with the same leading shape (S, K')."""
+    order = np.argsort(~keep, axis=1, kind="stable")
+    k_new = max(int(keep.sum(axis=1).max(initial=0)), 1)
+    order = order[:, :k_new]
+    out = [np.take_along_axis(keep, order, axis=1)]
+    for arr in arrays:
+        idx = order if arr.ndim == 2 else order[:, :, None]
+        out.append(np.take_along_axis(arr, idx, axis=1))
+    return tuple(out)
 
 
 def _combine(factors: np.ndarray, values: np.ndarray) -> np.ndarray:
@@ -303,40 +324,120 @@ def candidates(cset: ComboSet, case_values: dict[str, np.ndarray], signed=("V", 
 
     ``case_values``: per quantity, (n_cases, S) values of every case at every station
     (signs as in the input; ``tension`` names the quantity that is positive in tension).
+    Stations are grouped by the quantities that are not zero there in any case. Up to
+    DENSE_LIMIT combinations, each group's front is taken over every combination at once
+    (one sort per sign quadrant); beyond, it is built term by term (each partial sum
+    pruned before the next term is added) and then across the rows of the table, on
+    arrays padded per station, so that its size follows the front, not the number of
+    combinations.
     """
     s_count = next(iter(case_values.values())).shape[1]
-    active = [q for q in signed if q in case_values and np.any(case_values[q])]
-    use_tension = tension is not None and tension in case_values and bool(np.any(case_values[tension]))
-    if not active:
-        active = [signed[0]]
-    quadrants = list(itertools.product((1.0, -1.0), repeat=len(active)))
+    quantities = list(case_values)
+    coord_q = [q for q in signed if q in case_values] + ([tension] if tension in case_values else [])
+    nonzero = np.array([np.any(case_values[q] != 0, axis=0) for q in coord_q]).reshape(len(coord_q), s_count)
+    nonzero[0] = True  # the first signed quantity (V) always counts
+    key = (nonzero * (1 << np.arange(len(coord_q)))[:, None]).sum(axis=0)
     max_terms = max((len(r.terms) for r in cset.rows), default=0)
     parts = []
-    for r_index, row in enumerate(cset.rows):
-        base = {q: _combine(row.fixed[None, :], v)[0] for q, v in case_values.items()}
-        per_term = [{q: _combine(t.options, v) for q, v in case_values.items()} for t in row.terms]
-        for signs in quadrants:
-            fronts = []
-            for vals in per_term:
-                coords = [sg * vals[q] for sg, q in zip(signs, active)]
-                if use_tension:
-                    coords.append(vals[tension])
-                nd = _non_dominated(coords)
-                opt, st = np.nonzero(nd)
-                order = np.argsort(st, kind="stable")
-                fronts.append((st[order], opt[order]))
-            st, choice = _ragged_product(s_count, fronts)
-            values = {q: base[q][st] + sum((vals[q][choice[:, t], st] for t, vals in enumerate(per_term)),
-                                           np.zeros(len(st))) for q in case_values}
-            pad = np.full((len(st), max_terms), -1, np.int64)
-            pad[:, :choice.shape[1]] = choice
-            parts.append((st, np.full(len(st), r_index, np.int64), pad, values))
+    for k in np.unique(key):
+        at = np.flatnonzero(key == k)
+        use = [q for j, q in enumerate(coord_q) if k >> j & 1]
+        sub = {q: v[:, at] for q, v in case_values.items()}
+        group = _dense_candidates if cset.count <= DENSE_LIMIT else _group_candidates
+        st, row, choice, vals = group(cset, sub, [q for q in use if q != tension], tension in use, tension, max_terms)
+        parts.append((at[st], row, choice, vals))
     station = np.concatenate([p[0] for p in parts])
     order = np.argsort(station, kind="stable")
+    station = station[order]
     return Candidates(
-        station=station[order],
-        row=np.concatenate([p[1] for p in parts])[order],
+        station=station, row=np.concatenate([p[1] for p in parts])[order],
         choice=np.concatenate([p[2] for p in parts])[order],
-        values={q: np.concatenate([p[3][q] for p in parts])[order] for q in case_values},
-        bounds=np.searchsorted(station[order], np.arange(s_count + 1)),
-    )
+        values={q: np.concatenate([p[3][q] for p in parts])[order] for q in quantities},
+        bounds=np.searchsorted(station, np.arange(s_count + 1)))
+
+
+def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tension: bool, tension, max_terms):
+    """``candidates`` for stations that share the same non-zero quantities, over every
+    combination listed once (ComboSet.explicit): a combination is kept where it is on
+    the front of some sign quadrant."""
+    _, factors = cset.explicit
+    keys = cset.__dict__["_keys"]
+    s_count = next(iter(case_values.values())).shape[1]
+    vals = {q: _combine(factors, v).T for q, v in case_values.items()}  # (S, n_combinations)
+    keep = np.zeros(vals[active[0]].shape, bool)
+    valid = np.ones_like(keep)
+    for signs in itertools.product((1.0, -1.0), repeat=len(active)):
+        coords = [sg * vals[q] for sg, q in zip(signs, active)] + ([vals[tension]] if use_tension else [])
+        keep |= _front(coords, valid)
+    st_idx, c_idx = np.nonzero(keep)  # station-major
+    choice = np.full((len(c_idx), max_terms), -1, np.int64)
+    choice[:, :keys.shape[1] - 1] = keys[c_idx, 1:]
+    return st_idx, keys[c_idx, 0], choice, {q: v[st_idx, c_idx] for q, v in vals.items()}
+
+
+def _group_candidates(cset: ComboSet, case_values, active: list[str], use_tension: bool, tension, max_terms):
+    """``candidates`` for stations that share the same non-zero quantities."""
+    s_count = next(iter(case_values.values())).shape[1]
+    quantities = list(case_values)
+    per_row = [({q: _combine(r.fixed[None, :], case_values[q])[0] for q in quantities},
+                [{q: _combine(t.options, case_values[q]) for q in quantities} for t in r.terms]) for r in cset.rows]
+
+    def coords(vals, signs):
+        out = [sg * vals[q] for sg, q in zip(signs, active)]
+        if use_tension:
+            out.append(vals[tension])
+        return out
+
+    parts = []
+    for signs in itertools.product((1.0, -1.0), repeat=len(active)):
+        rows_v, rows_r, rows_c, rows_ok = {q: [] for q in quantities}, [], [], []
+        for r_index, (base, terms) in enumerate(per_row):
+            if len(active) == 1 and not use_tension:  # one coordinate: the best option of each term
+                score = lambda v: signs[0] * v[active[0]]
+                pick = [np.argmax(score(t_vals), axis=0) for t_vals in terms]
+                cols = np.arange(s_count)
+                vals = {q: (base[q] + sum((t_vals[q][p, cols] for t_vals, p in zip(terms, pick)),
+                                          np.zeros(s_count)))[:, None] for q in quantities}
+                choice = np.array(pick, np.int64).T.reshape(s_count, 1, len(terms))
+                valid = np.ones((s_count, 1), bool)
+            else:
+                vals, choice, valid = _row_front(base, terms, quantities, lambda v: coords(v, signs), s_count)
+            for q in quantities:
+                rows_v[q].append(vals[q])
+            pad = np.full(choice.shape[:2] + (max_terms,), -1, np.int64)
+            pad[:, :, :choice.shape[2]] = choice
+            rows_c.append(pad)
+            rows_r.append(np.full(valid.shape, r_index, np.int64))
+            rows_ok.append(valid)
+        vals = {q: np.hstack(rows_v[q]) for q in quantities}
+        valid = np.hstack(rows_ok)
+        keep = _front(coords(vals, signs), valid)  # across the rows of the table
+        keep, *packed = _compact(keep, *(vals[q] for q in quantities), np.hstack(rows_r), np.concatenate(rows_c, axis=1))
+        parts.append((keep, dict(zip(quantities, packed[:len(quantities)])), packed[-2], packed[-1]))
+    keep = np.hstack([p[0] for p in parts])
+    st_idx, k_idx = np.nonzero(keep)  # station-major
+    flat = lambda arrays: np.hstack(arrays)[st_idx, k_idx]
+    return (st_idx, flat([p[2] for p in parts]), np.concatenate([p[3] for p in parts], axis=1)[st_idx, k_idx],
+            {q: flat([p[1][q] for p in parts]) for q in quantities})
+
+
+def _row_front(base, terms, quantities, coords, s_count):
+    """The front of one row's combinations at every station, term by term."""
+    vals = {q: base[q][:, None] for q in quantities}  # (S, K): the partial sums on the front
+    choice = np.zeros((s_count, 1, 0), np.int64)
+    valid = np.ones((s_count, 1), bool)
+    for t_vals in terms:
+        opt = {q: t_vals[q].T for q in quantities}  # (S, n_options)
+        n_opt = opt[quantities[0]].shape[1]
+        keep_opt = _front(coords(opt), np.ones((s_count, n_opt), bool))
+        keep_opt, *o = _compact(keep_opt, *(opt[q] for q in quantities),
+                                np.broadcast_to(np.arange(n_opt), (s_count, n_opt)))
+        opt, opt_index = dict(zip(quantities, o[:-1])), o[-1]
+        K, F = valid.shape[1], keep_opt.shape[1]
+        vals = {q: (vals[q][:, :, None] + opt[q][:, None, :]).reshape(s_count, K * F) for q in quantities}
+        choice = np.concatenate([np.repeat(choice, F, axis=1), np.tile(opt_index, (1, K))[:, :, None]], axis=2)
+        valid = (valid[:, :, None] & keep_opt[:, None, :]).reshape(s_count, K * F)
+        keep = _front(coords(vals), valid)
+        keep, *packed = _compact(keep, *(vals[q] for q in quantities), choice)
+        vals, choice, valid = dict(zip(quantities, packed[:-1])), packed[-1], keep
+    return vals, choice, valid

@@ -116,7 +116,9 @@ def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet
     so that any engine may run the parts in any order or place), family by family, in
     batches. The part's station trace is written to ``stations_dir`` under the part's own
     file name, by the worker itself."""
-    forces = pq.read_table(part_path, columns=["member", "case", "x_m", "V_kN", "Vb_kN", "N_kN", "T_kNm"])
+    present = set(pq.read_schema(part_path).names)
+    forces = pq.read_table(part_path, columns=[c for c in ("member", "case", "x_m", "V_kN", "Vb_kN", "N_kN", "T_kNm")
+                                               if c in present or c not in ("Vb_kN",)])
     member_col = forces.column("member").combine_chunks()
     seen = set(pac.unique(member_col).to_pylist())
     members = members[members["member"].isin(seen)].reset_index(drop=True)
@@ -147,7 +149,8 @@ def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col,
     values = {"V": forces.column("V_kN").to_numpy()[sel] * 1e3, "N": forces.column("N_kN").to_numpy()[sel] * 1e3,
               "T": forces.column("T_kNm").to_numpy()[sel] * 1e6}
     if family.USES_VB:  # shear parallel to b (columns); beams design for V alone (see README)
-        values["Vb"] = forces.column("Vb_kN").to_numpy()[sel] * 1e3
+        values["Vb"] = forces.column("Vb_kN").to_numpy()[sel] * 1e3 if "Vb_kN" in forces.column_names \
+            else np.zeros(len(sel))
     if np.any(np.diff(f_member) < 0):  # parts are sorted by member id; keep any other source safe
         order = np.argsort(f_member, kind="stable")
         f_member, x, cidx = f_member[order], x[order], cidx[order]

@@ -159,10 +159,12 @@ def build_grid(g: Geometry, s: Samples, settings: Stations) -> Grid:
     return Grid(member, x, side, offsets)
 
 
-def _weights(gp, seg_p, gq, seg_q, right):
+def _weights(gp, seg_p, gq, seg_q, right, xp, xq):
     """Bracketing input rows (lo, hi) and the weight t of hi for each query; missing where
     the query's segment has no rows. Jumps: a right-limit query at an input station takes
-    the last row there, a left-limit query the first."""
+    the last row there, a left-limit query the first. ``gp``/``gq`` are global keys for
+    the search; ``xp``/``xq`` the stations themselves, from which t is computed (the same
+    bits whichever members share the batch)."""
     i_r = np.searchsorted(gp, gq, side="right")
     hi = i_r.copy()
     if not right.all():
@@ -173,11 +175,11 @@ def _weights(gp, seg_p, gq, seg_q, right):
     lo_c, hi_c = np.clip(lo, 0, npts - 1), np.clip(hi, 0, npts - 1)
     lo_ok = (lo >= 0) & (seg_p[lo_c] == seg_q)
     hi_ok = (hi < npts) & (seg_p[hi_c] == seg_q)
-    exact_lo = lo_ok & right & (gp[lo_c] == gq)
-    exact_hi = hi_ok & ~right & (gp[hi_c] == gq)
-    dx = gp[hi_c] - gp[lo_c]
+    exact_lo = lo_ok & right & (xp[lo_c] == xq)
+    exact_hi = hi_ok & ~right & (xp[hi_c] == xq)
+    dx = xp[hi_c] - xp[lo_c]
     with np.errstate(invalid="ignore", divide="ignore"):
-        t = np.where(lo_ok & hi_ok & (dx > 0), (gq - gp[lo_c]) / dx, 0.0)
+        t = np.where(lo_ok & hi_ok & (dx > 0), (xq - xp[lo_c]) / dx, 0.0)
     t = np.where(exact_lo, 0.0, np.where(exact_hi, 1.0, t))
     t = np.where(lo_ok & ~hi_ok, 0.0, np.where(hi_ok & ~lo_ok, 1.0, t))  # hold the end value
     return lo_c, hi_c, t, ~(lo_ok | hi_ok)
@@ -207,7 +209,7 @@ def interpolate(s: Samples, n_cases: int, q_member: np.ndarray, q_x: np.ndarray,
         rows0 = np.flatnonzero(first)
         gp0 = s.member[first].astype(np.int64) * span + s.x[first]
         lo, hi, t, missing1 = _weights(gp0, s.member[first].astype(np.int64), q_member * span + q_x,
-                                       q_member.astype(np.int64), right)
+                                       q_member.astype(np.int64), right, s.x[first], q_x)
         shift = (seg_start[:-1].reshape(n_members, n_cases) - seg_start[:-1].reshape(n_members, n_cases)[:, :1])
         offs = shift[q_member].T  # (n_cases, n_q)
         lo2, hi2 = rows0[lo][None, :] + offs, rows0[hi][None, :] + offs
@@ -218,7 +220,8 @@ def interpolate(s: Samples, n_cases: int, q_member: np.ndarray, q_x: np.ndarray,
         gp = seg_p * span + s.x
         seg_q = q_member.astype(np.int64)[None, :] * n_cases + cases[:, None]
         gq = seg_q * span + q_x[None, :]
-        lo2, hi2, t2, missing = _weights(gp, seg_p, gq, seg_q, np.broadcast_to(right, gq.shape))
+        lo2, hi2, t2, missing = _weights(gp, seg_p, gq, seg_q, np.broadcast_to(right, gq.shape), s.x,
+                                         np.broadcast_to(q_x, gq.shape))
     out = {}
     for key, v in s.values.items():
         val = v[lo2] * (1.0 - t2) + v[hi2] * t2

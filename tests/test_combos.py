@@ -6,10 +6,11 @@ from types import SimpleNamespace
 
 import numpy as np
 import pytest
-from hypothesis import given, settings, strategies as hs
+from hypothesis import HealthCheck, given, settings, strategies as hs
 
 
 from postproc.demand import beams as demand
+from postproc import combos
 from postproc.combos import aci_5_3_1, candidates, prefactored
 from postproc.settings import Combinations
 
@@ -132,11 +133,13 @@ def _section(stations: int) -> demand.Section:
                                        fy=one(420), As=one(np.nan), bf=one(np.nan), hf=one(np.nan))
 
 
-@settings(max_examples=150, deadline=None)
-@given(models())
-def test_exact_envelope_equals_brute_force_enumeration(model):
+@pytest.mark.parametrize("dense_limit", [combos.DENSE_LIMIT, 0])  # over the listed combinations; term by term
+@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(model=models())
+def test_exact_envelope_equals_brute_force_enumeration(model, dense_limit, monkeypatch):
     """Every quantity the design takes from the combinations, over the candidates, equals
     the same over every combination listed one by one (brute force)."""
+    monkeypatch.setattr(combos, "DENSE_LIMIT", dense_limit)
     types, cases, patterns, vals = model
     cs = aci_5_3_1(types, cases, Combinations(), patterns)
     s_count = vals["V"].shape[1]
@@ -152,12 +155,16 @@ def test_exact_envelope_equals_brute_force_enumeration(model):
                           bounds=np.searchsorted(station[order], np.arange(s_count + 1)))
 
     brute = demand.required(sec, All)
-    for field in ("vu_max", "av_env", "ata_env", "shear_ratio", "s_max", "s_max_across"):
+    for field in ("vu_max", "ata_env", "shear_ratio", "s_max", "s_max_across"):
         np.testing.assert_allclose(getattr(exact, field), getattr(brute, field), rtol=1e-12, atol=1e-9, err_msg=field)
     for field in ("minimum", "torsion", "heavy"):
         assert np.array_equal(getattr(exact, field), getattr(brute, field)), field
-    # the per-leg need with torsion, for two stirrup options
-    for legs, Aoh in ((2.0, 1.2e5), (4.0, 0.9e5)):
-        np.testing.assert_allclose(demand.per_leg_need(cand, exact, np.full(s_count, legs), np.full(s_count, Aoh)),
-                                   demand.per_leg_need(All, brute, np.full(s_count, legs), np.full(s_count, Aoh)),
-                                   rtol=1e-12, atol=1e-12)
+    # what the set-out takes from the demand: the spacing each stirrup option allows (its
+    # parts, such as the strength Av/s alone, need not be monotone: a combination past the
+    # Av,min threshold trades Vc (c) for the minimum)
+    one = lambda v: np.full(s_count, float(v))
+    for legs, area, Aoh, ph in ((2, 71.0, 1.2e5, 1400.0), (4, 129.0, 0.9e5, 1300.0)):
+        for here in (np.zeros(s_count, bool), np.ones(s_count, bool)):
+            np.testing.assert_allclose(
+                demand.allowed_spacing(cand, exact, one(legs), area, one(Aoh), one(ph), here),
+                demand.allowed_spacing(All, brute, one(legs), area, one(Aoh), one(ph), here), rtol=1e-12)

@@ -170,6 +170,21 @@ def per_leg_need(cand: Candidates, dem: Demand, legs, Aoh) -> np.ndarray:
     return need
 
 
+def allowed_spacing(cand: Candidates, dem: Demand, legs, bar_area, Aoh, ph, here) -> np.ndarray:
+    """Per station, the largest spacing of stirrups of ``legs`` legs of ``bar_area`` each
+    that meets every candidate combination (inf where none are needed): each outer leg
+    its share of the strength steel plus At/s (22.5.8.5.3, 22.7.6.1); Av >= Av,min or the
+    combined minimum (Table 9.6.3.4, 9.6.4.2) where required; s_max along (Table
+    9.7.6.2.2; ph/8 and 300 mm with torsion, 9.7.6.3.3) where stirrups are placed
+    (``here``). ``legs``, ``Aoh``, ``ph`` per station."""
+    need = per_leg_need(cand, dem, legs, Aoh)
+    with np.errstate(divide="ignore"):
+        s = np.where(need > 0, bar_area / need, np.inf)
+        s = np.where(dem.minimum, np.minimum(s, legs * bar_area / dem.av_min_s), s)
+    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph)), dem.s_max)
+    return np.where(here | (need > 0) | dem.minimum, np.minimum(s, s_max), np.inf)
+
+
 @dataclass(frozen=True)
 class Capacity:
     phi_vn: np.ndarray  # per candidate: phi (Vc + Vs) of the provided layout, N

@@ -105,13 +105,15 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
 
 def governing(values: np.ndarray, tie: np.ndarray, bounds: np.ndarray) -> np.ndarray:
     """Index of the largest value within each segment, ties (to 1e-9) broken by the largest
-    ``tie``, then by the first in order."""
+    ``tie``, then by the first in order. Segments must not be empty."""
     seg = np.repeat(np.arange(len(bounds) - 1), np.diff(bounds))
-    first = -np.arange(len(values))
-    order = np.lexsort((first, np.round(tie, 9), np.round(values, 9), seg))
-    return order[bounds[1:] - 1]
-
-
+    starts = bounds[:-1]
+    v, t = np.round(values, 9), np.round(tie, 9)
+    best = v == np.maximum.reduceat(v, starts)[seg]
+    t = np.where(best, t, -np.inf)
+    best &= t == np.maximum.reduceat(t, starts)[seg]
+    first = np.where(best, -np.arange(len(v)), -len(v))
+    return -np.maximum.reduceat(first, starts)
 
 
 @dataclass(frozen=True)

@@ -83,17 +83,9 @@ def _options(mb: Members, dem: demand.Demand, grid: stations.Grid, st) -> Option
 
 
 def _allowed_spacing(k: int, opt: Options, dem: demand.Demand, cand, grid: stations.Grid, here, module) -> np.ndarray:
-    """Per station, the largest spacing on the module that option k admits (inf: none needed):
-    strength per outer leg (22.5.8.5.3, 22.7.6.1), the minimum of 9.6.3.4 / 9.6.4.2, s_max
-    (9.7.6.2.2; ph/8 and 300 mm with torsion, 9.7.6.3.3)."""
+    """Per station, the largest spacing on the module that option k admits (inf: none needed)."""
     mem = grid.member
-    legs, area = opt.legs[k][mem], opt.area[k]
-    need = demand.per_leg_need(cand, dem, legs, opt.Aoh[k][mem])
-    with np.errstate(divide="ignore"):
-        s = np.where(need > 0, area / need, np.inf)
-        s = np.where(dem.minimum, np.minimum(s, legs * area / dem.av_min_s), s)
-    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(opt.ph[k][mem])), dem.s_max)
-    s = np.where(here | (need > 0), np.minimum(s, s_max), np.inf)
+    s = demand.allowed_spacing(cand, dem, opt.legs[k][mem], opt.area[k], opt.Aoh[k][mem], opt.ph[k][mem], here)
     return detailing.floor_to_module(s, module)
 
 
