@@ -386,11 +386,17 @@ def _member_section(r: dict, k: int, d: _Drawings) -> str:
     facts = [p for p in (where, geo) if p]
     if _given(r["utilization"]):
         crit = lambda c: f" ({_text(r[c])})" if _given(r[c]) else ""
-        facts.append(f"utilization {r['utilization']:.3f}, {_text(r['governing_case'])} &middot; "
-                     f"design Vu: i {_fmt(r['vu_design_i_kN'], '.1f', ' kN')}{crit('crit_i')}, "
-                     f"j {_fmt(r['vu_design_j_kN'], '.1f', ' kN')}{crit('crit_j')} &middot; "
-                     f"&phi;Vc {_fmt(r['phi_vc_kN'], '.1f', ' kN')} &middot; "
+        at = ""
+        if _given(r.get("x_governing_mm")):  # the station and combination behind the utilization
+            at = (f" at x = {r['x_governing_mm']:,.0f} mm: Vu {_fmt(r['vu_kN'], '.1f', ' kN')}, "
+                  f"Nu {_fmt(r['nu_kN'], '.1f', ' kN')}" + (f", Tu {_fmt(r['tu_kNm'], '.1f', ' kN*m')}"
+                                                          if _given(r.get("tu_kNm")) and r["tu_kNm"] else ""))
+        facts.append(f"utilization {r['utilization']:.3f}, {_text(r['governing_case'])}{at} &middot; "
+                     f"&phi;Vc {_fmt(r['phi_vc_kN'], '.1f', ' kN')}"
+                     + (f" ({_text(r['vc_equation'])})" if _given(r.get("vc_equation")) else "") + " &middot; "
                      f"&phi;Vn,max {_fmt(r['phi_vn_limit_kN'], '.1f', ' kN')} (22.5.1.2)")
+        facts.append(f"design Vu: i {_fmt(r['vu_design_i_kN'], '.1f', ' kN')}{crit('crit_i')}, "
+                     f"j {_fmt(r['vu_design_j_kN'], '.1f', ' kN')}{crit('crit_j')} (9.4.3.2)")
     if r["status"] == "designed":
         facts.append(f"{int(r['stirrups_total']):,} stirrup sets, {_fmt(r['stirrup_mass_kg'], '.1f', ' kg')}")
     msg = f'<p class="msg">{_text(r["message"])}</p>' if _given(r["message"]) else ""
