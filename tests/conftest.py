@@ -70,6 +70,18 @@ def design(tmp: Path, members: list[dict], forces: list[dict], cases: list[dict]
     return Designed(code, members_out, zones, st, out, store)
 
 
+@pytest.fixture(scope="session")
+def demo_designed(tmp_path_factory) -> Designed:
+    """The demo building designed once for the whole session (`shearpost demo`, report
+    included). Tests read it and must not write into its store."""
+    tmp = tmp_path_factory.mktemp("demo-session")
+    code = cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"])
+    out = tmp / "out"
+    st = pq.read_table(Store(tmp / "store").latest().design_path / "stations").to_pandas()
+    return Designed(code, pd.read_csv(out / "members.csv", keep_default_na=False, na_values=[""]),
+                    pd.read_csv(out / "zones.csv"), st, out, tmp / "store")
+
+
 @pytest.fixture
 def run_design(tmp_path):
     counter = iter(range(1000))

@@ -11,10 +11,9 @@ SAMPLE = cli.sample_folder()
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    tmp = tmp_path_factory.mktemp("demo")
-    code = cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"])
-    return code, pd.read_csv(tmp / "out" / "members.csv").set_index("member"), pd.read_csv(tmp / "out" / "zones.csv")
+def demo(demo_designed):
+    d = demo_designed
+    return d.code, pd.read_csv(d.out / "members.csv").set_index("member"), pd.read_csv(d.out / "zones.csv")
 
 
 def test_every_member_appears_with_a_status(demo):

@@ -26,11 +26,9 @@ UNSEEN_IDS = ["\x1b[31mred\x1b[0m", "tab\there", "\u202eB1", "L" * 300]  # contr
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    tmp = tmp_path_factory.mktemp("html")
-    assert cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"]) == 0
-    run = Store(tmp / "store").runs()[-1]
-    path = write_html_report(run, tmp / "report.html")
+def demo(demo_designed, tmp_path_factory):
+    run = Store(demo_designed.store).runs()[-1]
+    path = write_html_report(run, tmp_path_factory.mktemp("html") / "report.html")
     members = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
     zones = pq.read_table(run.design_path / "zones.parquet").to_pandas()
     return run, path, path.read_text(encoding="utf-8"), members, zones

@@ -159,10 +159,9 @@ def test_a_torsion_failure_cites_22_7_7_1_and_its_remedy(run_design):
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    tmp = tmp_path_factory.mktemp("demo")
-    assert cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json", "--no-report"]) == 0
-    return Store(tmp / "store").latest()
+def demo(demo_designed):
+    assert demo_designed.code == 0
+    return Store(demo_designed.store).latest()
 
 
 def test_zones_describe_the_stored_stirrups_on_every_demo_member(demo):
