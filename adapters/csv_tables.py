@@ -22,9 +22,9 @@ import pyarrow.csv as pcsv
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap, TableMap
 from postproc.codes import aci318_19 as aci
+from postproc.settings import FRAMES  # moment frames of ACI 318-19 Chapter 18
 
 SUPPORTS = ("column", "wall", "girder", "hanger", "free")
-FRAMES = ("none", "ordinary", "intermediate", "special")  # moment frames of ACI 318-19 Chapter 18
 KINDS = ("beam", "column")
 LOAD_FACES = ("top", "bottom")
 CASE_TYPES = ("D", "L", "Lr", "S", "R", "W", "E")
@@ -54,7 +54,11 @@ MEMBER_COLUMNS = (
     Col("frame", False), Col("as_top_i_mm2", True), Col("as_bot_i_mm2", True), Col("as_top_j_mm2", True),
     Col("as_bot_j_mm2", True), Col("db_long_mm", True), Col("n_long", True), Col("diameter_mm", True),
     Col("ties_b", True), Col("ties_h", True), Col("as_long_mm2", True),
+    # member end coordinates (m): the joints of special moment frames (18.8) and the report's plans
+    *(Col(f"{axis}_{end}_m", True) for end in ("i", "j") for axis in ("x", "y", "z")),
 )
+COORDINATES = tuple(f"{axis}_{end}_m" for end in ("i", "j") for axis in ("x", "y", "z"))
+BEAM_END_BARS = ("as_top_i_mm2", "as_bot_i_mm2", "as_top_j_mm2", "as_bot_j_mm2", "db_long_mm")
 FORCE_COLUMNS = (
     Col("member", False, True), Col("case", False, True), Col("x_m", True, True),
     Col("V_kN", True, True), Col("N_kN", True), Col("T_kNm", True), Col("M_kNm", True),
@@ -341,7 +345,9 @@ PLAUSIBLE_MEMBERS = {"length_m": (0.05, 500.0), "b_mm": (50.0, 20000.0), "h_mm":
                      "d_mm": (25.0, 20000.0), "cover_mm": (None, 1000.0), "fc_mpa": (None, 200.0),
                      "fyt_mpa": (None, 2000.0), "fy_mpa": (None, 2000.0), "face_i_mm": (None, 20000.0),
                      "face_j_mm": (None, 20000.0), "bf_mm": (None, 50000.0), "hf_mm": (None, 5000.0),
-                     "as_tension_mm2": (None, 1e7)}
+                     "as_tension_mm2": (None, 1e7), "as_top_i_mm2": (None, 1e7), "as_bot_i_mm2": (None, 1e7),
+                     "as_top_j_mm2": (None, 1e7), "as_bot_j_mm2": (None, 1e7), "db_long_mm": (6.0, 80.0),
+                     **{c: (-1e6, 1e6) for c in COORDINATES}}
 PLAUSIBLE_FORCES = {"x_m": (None, 500.0), "V_kN": (-1e6, 1e6), "N_kN": (-1e7, 1e7), "T_kNm": (-1e7, 1e7),
                     "M_kNm": (-1e8, 1e8)}
 
@@ -369,8 +375,40 @@ def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, pro
     probs.add(bad, column, [f"'{v}' is not one of {', '.join(allowed)}" for v in values[bad][:MAX_REPORTED]])
 
 
-def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]]:
-    """members.csv -> validated table (our columns, d_mm filled, defaults applied) and warnings."""
+def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.ndarray],
+                       support_i: np.ndarray, support_j: np.ndarray) -> list[tuple[np.ndarray, str, str]]:
+    """What a moment-frame beam lacks (ACI 318-19 Chapter 18), as (rows, column, message).
+
+    Beams of special and intermediate frames need the steel at both faces and the smallest
+    bar diameter (Mpr or Mn at the faces: 18.6.5.1, 18.4.2.3(a); hoop spacing: 18.6.4.4,
+    18.4.2.4) and a joint at each end (a free end has no Mpr to develop); beams of ordinary
+    frames need them only for the two-bar check of 18.3.2, so all or none. ``bars`` holds
+    the BEAM_END_BARS columns (NaN where not given)."""
+    beam = kind == "beam"
+    capacity = beam & np.isin(frame, ("special", "intermediate"))
+    ordinary = beam & (frame == "ordinary")
+    given = np.column_stack([~np.isnan(bars[c]) for c in BEAM_END_BARS])
+    out = []
+    for k, c in enumerate(BEAM_END_BARS):
+        out.append((capacity & ~given[:, k], c,
+                    f"a beam of a {'{frame}'} moment frame needs {c} (ACI 318-19 "
+                    + ("18.6.4.4, 18.4.2.4: the hoop spacing" if c == "db_long_mm" else
+                       "18.6.5.1, 18.4.2.3: Mpr or Mn at the faces") + ")"))
+        out.append((ordinary & given.any(axis=1) & ~given[:, k], c,
+                    f"an ordinary-frame beam with bars needs all of {', '.join(BEAM_END_BARS)} (the two-bar check of "
+                    "ACI 318-19 18.3.2), or none"))
+    for end, sup in (("support_i", support_i), ("support_j", support_j)):
+        out.append((capacity & (sup == "free"), end, "a beam of a {frame} moment frame spans between joints; a free "
+                                                     "end develops no Mpr or Mn (ACI 318-19 18.6.5.1, 18.4.2.3)"))
+    return out
+
+
+def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, str] | None = None
+                 ) -> tuple[pa.Table, list[str]]:
+    """members.csv -> validated table (our columns, d_mm filled, defaults applied) and warnings.
+
+    ``frame_by_group`` (settings [frames].by_group) gives the frame of members whose `frame`
+    cell is empty, by their group label; a value in the file wins."""
     t, probs = read_table(path, "members", MEMBER_COLUMNS, cmap)
     _check_required_numbers(t, MEMBER_COLUMNS, probs)
     _check_required_strings(t, MEMBER_COLUMNS, probs)
@@ -425,6 +463,9 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     As = _num(t, "as_tension_mm2")
     probs.add(~np.isnan(As) & (As <= 0), "as_tension_mm2", "must be greater than zero")
     frame = _str(t, "frame")
+    group = _str(t, "group")
+    from_group = (frame == "") & np.isin(group, list(frame_by_group or {}))
+    frame[from_group] = [frame_by_group[g] for g in group[from_group]]
     frame[frame == ""] = "none"
     _check_choice(frame, FRAMES, "frame", probs)
     for name in ("as_top_i_mm2", "as_bot_i_mm2", "as_top_j_mm2", "as_bot_j_mm2", "db_long_mm", "n_long",
@@ -434,6 +475,18 @@ def read_members(path: str | Path, cmap: ColumnMap) -> tuple[pa.Table, list[str]
     for name in ("n_long", "ties_b", "ties_h"):
         v = _num(t, name)
         probs.add(~np.isnan(v) & (v != np.round(v)), name, "must be a whole number")
+    bars = {c: _num(t, c) for c in BEAM_END_BARS}
+    for rows, column, message in frame_bar_problems(frame, kind, bars, _str(t, "support_i"), _str(t, "support_j")):
+        rows = np.flatnonzero(rows)
+        probs.add(rows, column, [message.format(frame=frame[r]) + (
+            f" (frame from [frames].by_group of group '{group[r]}')" if from_group[r] else "") for r in rows[:MAX_REPORTED]])
+    for c in BEAM_END_BARS[:4]:
+        probs.add(bars[c] > b * h, c, "more steel than the gross section b_mm x h_mm: check the units")
+    coords = np.column_stack([_num(t, c) for c in COORDINATES])
+    some = ~np.isnan(coords)
+    partial = some.any(axis=1) & ~some.all(axis=1)
+    for k, c in enumerate(COORDINATES):
+        probs.add(partial & ~some[:, k], c, f"give all six end coordinates ({', '.join(COORDINATES)}) or none")
     probs.raise_if_any()
 
     warnings = []

@@ -37,6 +37,11 @@ Design values (first source found wins)
     type, properties ``Cover`` (face to centroid of the tension steel) and
     ``EffectiveDepth`` (wins over Cover), in the file's length unit unless the property
     names its own unit; else the settings' cover, with a warning.
+    Moment frames (Chapter 18): the same property set's ``Frame`` (none, ordinary,
+    intermediate, special), ``AsTopI``, ``AsBotI``, ``AsTopJ``, ``AsBotJ`` (the steel at the
+    face of each end: an area measure in the file's area unit, or its own unit; a bare
+    number in mm^2) and ``DbLong`` (the smallest longitudinal bar, a length). A frame beam
+    without them is invalid, with the reason.
 
 Supports (each beam end, within the settings' tolerance)
     A column or wall whose plan footprint is within reach and whose height range meets
@@ -69,7 +74,8 @@ from shapely import affinity
 from shapely.geometry import LineString, Point, Polygon
 from shapely.strtree import STRtree
 
-from postproc.adapters.csv_tables import MEMBER_COLUMNS
+from postproc.adapters.csv_tables import BEAM_END_BARS, MEMBER_COLUMNS, frame_bar_problems
+from postproc.settings import FRAMES
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import unit_factor
 from postproc.codes import aci318_19 as aci
@@ -77,7 +83,10 @@ from postproc.codes import aci318_19 as aci
 DESIGN_PSET = "ShearpostDesign"
 SCHEMAS = ("IFC2X3", "IFC4")
 KEYS = {"globalid": "GlobalId", "name": "Name", "tag": "Tag"}
-EXTRA_COLUMNS = ("invalid_reason", "x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m", "source_id")
+EXTRA_COLUMNS = ("invalid_reason", "source_id")  # the end coordinates x_i_m ... z_j_m are members.csv columns
+# ShearpostDesign properties of a moment-frame beam (ACI 318-19 Chapter 18) -> members.csv columns
+FRAME_PROPERTIES = {"Frame": "frame", "AsTopI": "as_top_i_mm2", "AsBotI": "as_bot_i_mm2", "AsTopJ": "as_top_j_mm2",
+                    "AsBotJ": "as_bot_j_mm2", "DbLong": "db_long_mm"}
 VERTICAL_COS = math.cos(math.radians(10.0))  # axis within 10 degrees of vertical: a column
 PARALLEL_SIN = math.sin(math.radians(10.0))  # beams within 10 degrees of parallel continue, not support
 PRIORITY = {"column": 0, "wall": 1, "girder": 2}
@@ -361,6 +370,7 @@ class _Units:
 
     length_m: float  # metres per file length unit
     pressure_pa: float  # pascals per file pressure unit (1 when the file names none)
+    area_m2: float = 1.0  # square metres per file area unit (1 when the file names none)
 
     def mpa(self, value, unit) -> float | None:
         """A pressure property value in MPa (text through the name rule)."""
@@ -380,6 +390,17 @@ class _Units:
         if not isinstance(raw, (int, float)):
             return None
         return raw * (ifc_unit.get_unit_scale(unit) if unit is not None else self.length_m) * 1e3
+
+    def mm2(self, value, unit) -> float | None:
+        """An area property value in mm^2: its own unit, else the file's area unit for an area
+        measure; a bare number is taken in mm^2."""
+        raw = getattr(value, "wrappedValue", value)
+        if not isinstance(raw, (int, float)):
+            return None
+        if unit is not None:
+            return raw * ifc_unit.get_unit_scale(unit) * 1e6
+        measure = value.is_a() if isinstance(value, ifcopenshell.entity_instance) else "IfcAreaMeasure"
+        return raw * self.area_m2 * 1e6 if measure == "IfcAreaMeasure" else float(raw)
 
 
 def _single_values(definition):
@@ -442,7 +463,8 @@ class _Model:
     @classmethod
     def build(cls, model: ifcopenshell.file) -> _Model:
         units = _Units(ifc_unit.calculate_unit_scale(model, "LENGTHUNIT"),
-                       ifc_unit.calculate_unit_scale(model, "PRESSUREUNIT"))
+                       ifc_unit.calculate_unit_scale(model, "PRESSUREUNIT"),
+                       ifc_unit.calculate_unit_scale(model, "AREAUNIT"))
         out = cls(model, units)
         for mp in model.by_type("IfcMaterialProperties"):
             if mp.Material is not None:
@@ -490,6 +512,22 @@ class _Model:
             if pset == DESIGN_PSET and prop.Name in ("Cover", "EffectiveDepth") and prop.Name not in found:
                 found[prop.Name] = self.units.mm(prop.NominalValue, prop.Unit)
         return found.get("Cover"), found.get("EffectiveDepth")
+
+    def frame_values(self, entity) -> dict:
+        """The members.csv frame columns given by the ShearpostDesign property set (FRAME_PROPERTIES)."""
+        found: dict = {}
+        for pset, prop in _element_properties(entity):
+            column = FRAME_PROPERTIES.get(prop.Name) if pset == DESIGN_PSET else None
+            if column is None or column in found:
+                continue
+            if column == "frame":
+                raw = getattr(prop.NominalValue, "wrappedValue", prop.NominalValue)
+                found[column] = str(raw).strip().lower()
+            elif column == "db_long_mm":
+                found[column] = self.units.mm(prop.NominalValue, prop.Unit)
+            else:
+                found[column] = self.units.mm2(prop.NominalValue, prop.Unit)
+        return found
 
 
 # ---------------------------------------------------------------- elements
@@ -828,6 +866,25 @@ def _value_problem(row: dict) -> str | None:
     return None
 
 
+def _frame_problem(row: dict, role: str) -> str | None:
+    """Why a member's frame properties are not usable (the rules of members.csv), or None."""
+    frame = row.get("frame") or "none"
+    if frame not in FRAMES:
+        return f"{DESIGN_PSET}.Frame is '{frame}', not one of {', '.join(FRAMES)}"
+    for column in BEAM_END_BARS:
+        v = row.get(column)
+        if v is not None and not (0 < v < 1e7):
+            name = next(k for k, c in FRAME_PROPERTIES.items() if c == column)
+            return f"{DESIGN_PSET}.{name} must be a positive number (got {v:g})"
+    bars = {c: np.array([np.nan if row.get(c) is None else float(row[c])]) for c in BEAM_END_BARS}
+    for rows, column, message in frame_bar_problems(np.array([frame], object), np.array([role], object), bars,
+                                                    np.array([row["support_i"]]), np.array([row["support_j"]])):
+        if rows[0]:
+            name = next((k for k, c in FRAME_PROPERTIES.items() if c == column), column)
+            return message.format(frame=frame) + f" ({DESIGN_PSET}.{name})"
+    return None
+
+
 def read_ifc_members(path, *, key: str = "globalid",
                      defaults: IfcDefaults = IfcDefaults()) -> tuple[pa.Table, list[str]]:
     """IFC model -> members table (the read_members columns, then EXTRA_COLUMNS) and warnings.
@@ -892,8 +949,9 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
         row["cover_mm"] = row["h_mm"] - row["d_mm"]
     if row["invalid_reason"] is None and (steel := _steel_material(materials)):
         row["invalid_reason"] = f"material '{steel}' is steel: not a reinforced-concrete section"
+    row.update(m.frame_values(entity))
     if row["invalid_reason"] is None:
-        row["invalid_reason"] = _value_problem(row)
+        row["invalid_reason"] = _value_problem(row) or _frame_problem(row, p.role)
     if p.role == "beam" and row["invalid_reason"] is None:
         warnings.extend(f"member {member}: {what}" for what in defaulted)
     return row

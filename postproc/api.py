@@ -135,7 +135,7 @@ def ingest_and_design(store: Store, name: str, members_path: Path, forces_path: 
         members, warnings = read_ifc(members_path, ifc_key, settings.ifc, probe.member_ids())
         lengths = None
     else:
-        members, warnings = csv_tables.read_members(members_path, cmap)
+        members, warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group)
         lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
                                     settings.stations.tolerance_mm)

@@ -29,6 +29,15 @@
     cover_mm = 60
     tolerance_mm = 50               # how far a beam end may be from its support
     length_tolerance_mm = 20        # IFC length against the force table's last station
+
+    [frames]                        # moment frames of the seismic-force-resisting system (ACI 318-19 Ch. 18)
+    by_group = { perimeter = "special" }  # frame of every member of a group whose members.csv `frame` is empty
+    omega_o = 3.0                   # overstrength factor of the general building code, for 18.4.2.3(b)
+    joint_tolerance_mm = 50         # how far a beam end may be from a column's joint (special-frame joints)
+
+Omega_o comes from the general building code, not from ACI 318: 3.0 is the value commonly
+tabulated there for reinforced-concrete moment frames (from memory); set the one your code
+gives.
 """
 
 from __future__ import annotations
@@ -85,12 +94,23 @@ class Ifc:
     length_tolerance_mm: float = 20.0  # IFC length against the force table's last station
 
 
+FRAMES = ("none", "ordinary", "intermediate", "special")  # moment frames of ACI 318-19 Chapter 18
+
+
+@dataclass(frozen=True)
+class Frames:
+    by_group: dict = field(default_factory=dict)  # group label -> frame, for members whose `frame` is empty
+    omega_o: float = 3.0  # overstrength factor for 18.4.2.3(b); the general building code's value (from memory)
+    joint_tolerance_mm: float = 50.0  # beam ends within this of a column's joint frame into it
+
+
 @dataclass(frozen=True)
 class Settings:
     combinations: Combinations = field(default_factory=Combinations)
     stations: Stations = field(default_factory=Stations)
     detailing: Detailing = field(default_factory=Detailing)
     ifc: Ifc = field(default_factory=Ifc)
+    frames: Frames = field(default_factory=Frames)
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -120,6 +140,8 @@ def validated_settings(doc: dict, path: Path) -> Settings:
             default = getattr(current, key)
             if key == "ladder":
                 value = _ladder(path, value)
+            elif key == "by_group":
+                value = _by_group(path, value)
             elif isinstance(default, bool):
                 if not isinstance(value, bool):
                     raise InputError(path, f"[{name}].{key} must be true or false")
@@ -141,6 +163,8 @@ def validated_settings(doc: dict, path: Path) -> Settings:
                                "which is not checked: use stirrup_shape = \"closed\" or bars up to #16")
     if d.max_zones_per_end < 1:
         raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
+    if s.frames.omega_o <= 0:
+        raise InputError(path, "[frames].omega_o must be greater than zero")
     return s
 
 
@@ -157,10 +181,21 @@ def _ladder(path: Path, value) -> tuple[tuple[str, int], ...]:
     return tuple(out)
 
 
+def _by_group(path: Path, value) -> dict:
+    """[frames].by_group: a table of group label -> frame."""
+    if not isinstance(value, dict):
+        raise InputError(path, '[frames].by_group must be a table of group = frame, e.g. { perimeter = "special" }')
+    for group, frame in value.items():
+        if frame not in FRAMES:
+            raise InputError(path, f"[frames].by_group: group '{group}' has frame {frame!r}; "
+                                   f"frame must be one of {', '.join(FRAMES)}")
+    return dict(value)
+
+
 def settings_from_dict(doc: dict) -> Settings:
     """The settings a run was designed with, from its manifest."""
     d = dict(doc.get("detailing", {}))
     if "ladder" in d:
         d["ladder"] = tuple((bar, int(legs)) for bar, legs in d["ladder"])
     return Settings(combinations=Combinations(**doc.get("combinations", {})), stations=Stations(**doc.get("stations", {})),
-                    detailing=Detailing(**d), ifc=Ifc(**doc.get("ifc", {})))
+                    detailing=Detailing(**d), ifc=Ifc(**doc.get("ifc", {})), frames=Frames(**doc.get("frames", {})))
