@@ -89,6 +89,7 @@ class ComboSet:
     rows: list[Row]
     prefactored: bool
     patterns: dict[str, str] = field(default_factory=dict)  # case -> pattern label, where given
+    types: dict[str, str] = field(default_factory=dict)  # case -> type (D, L, ..., E); empty when prefactored
 
     @property
     def count(self) -> int:
@@ -212,7 +213,50 @@ def aci_5_3_1(case_types: dict[str, str], cases: list[str], settings: Combinatio
         rows.append(row("f", 0.9, lateral_term("W", 1.0)))
     if by_type.get("E"):
         rows.append(row("g", 0.9, lateral_term("E", 1.0)))
-    return ComboSet(list(cases), rows, False, patterns)
+    return ComboSet(list(cases), rows, False, patterns, {c: case_types[c] for c in cases})
+
+
+def seismic_gravity(cset: ComboSet, settings: Combinations) -> ComboSet:
+    """The factored gravity load of the capacity-design shear, 1.2D + 1.0L + 0.2S (18.6.5.1,
+    18.4.2.3(a); the gravity part of Table 5.3.1(e), 0.5L where the settings take 5.3.3):
+    one row named '18.6.5.1', each variable load present or absent (5.3.2), cases sharing a
+    pattern label alternatives (6.4). Vertical earthquake effects are not in the inputs."""
+    n, index = len(cset.cases), {c: k for k, c in enumerate(cset.cases)}
+    dead = [c for c in cset.cases if cset.types.get(c) == "D"]
+    fixed = np.zeros(n)
+    fixed[[index[c] for c in dead]] = 1.2
+    terms = []
+    for kind, f in (("L", 0.5 if settings.reduced_live_factor else 1.0), ("S", 0.2)):
+        groups: dict[str, list[str]] = {}
+        for c in (c for c in cset.cases if cset.types.get(c) == kind):
+            groups.setdefault(cset.patterns.get(c) or f"\0{c}", []).append(c)  # unlabelled: a group of its own
+        for members in groups.values():
+            options = np.zeros((len(members) + 1, n))
+            for k, c in enumerate(members, start=1):
+                options[k, index[c]] = f
+            terms.append(Term(options, ("",) + tuple(_fmt(f, c) for c in members)))
+    label = "".join(_fmt(1.2, c) for c in dead).lstrip("+")
+    return ComboSet(list(cset.cases), [Row("18.6.5.1", fixed, label, tuple(terms))], False, cset.patterns, cset.types)
+
+
+def amplified_earthquake(cset: ComboSet, omega: float) -> ComboSet:
+    """The combinations of Table 5.3.1 that include E, with E taken as Omega_o E (18.4.2.3(b)):
+    rows (e) and (g) with their E term scaled and E always present; none where the set has
+    no E case."""
+    rows = []
+    for row in cset.rows:
+        terms, scaled = [], False
+        for t in row.terms:
+            cols = np.flatnonzero(t.options.any(axis=0))
+            if len(cols) and all(cset.types.get(cset.cases[c]) == "E" for c in cols):
+                opts = t.options[t.options.any(axis=1)] * omega  # E present: the combinations that include E
+                labels = tuple("" if not o.any() else _fmt(o[np.flatnonzero(o)[0]], cset.cases[np.flatnonzero(o)[0]])
+                               for o in opts)
+                t, scaled = Term(opts, labels), True
+            terms.append(t)
+        if scaled:
+            rows.append(Row(f"18.4.2.3(b) {row.clause}", row.fixed, row.fixed_label, tuple(terms)))
+    return ComboSet(list(cset.cases), rows, False, cset.patterns, cset.types)
 
 
 # ----------------------------------------------------------------------------- envelope

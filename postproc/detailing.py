@@ -202,10 +202,12 @@ def _end_runs(u: np.ndarray, s_env: np.ndarray, first, max_zones: int,
     return runs, float(levels[starts[-1]])
 
 
-def _continued(a: float, b: float, s: float, smin: float, fixed_a: bool, face_b: float | None) -> list[float] | None:
+def _continued(a: float, b: float, s: float, smin: float, fixed_a: bool, face_b: float | None,
+               close_at_face: bool = False) -> list[float] | None:
     """The run carries on from a at spacing s and closes at b with one gap in [smin, s].
     With ``face_b`` (b is where a stirrup first-stirrup distance from that face or free
-    end would go), the run may instead end anywhere leaving at most s to the face."""
+    end would go), the run may instead end anywhere leaving at most s to the face, unless
+    ``close_at_face`` asks for a stirrup at b (the first hoop from a face, 18.6.4.4)."""
     pos = [a] if fixed_a else []
     if face_b is None:
         k = int(np.floor((b - smin - a) / s + 1e-9))
@@ -217,7 +219,7 @@ def _continued(a: float, b: float, s: float, smin: float, fixed_a: bool, face_b:
         return None
     run = pos + [a + j * s for j in range(1, k + 1)]
     last = a + k * s
-    if face_b - last <= s + 1e-9:
+    if abs(b - last) <= 1e-9 or (face_b - last <= s + 1e-9 and not close_at_face):
         return run
     if smin - 1e-9 <= b - last <= s + 1e-9:  # one more, first-stirrup distance from the face
         return run + [b]
@@ -247,7 +249,7 @@ def _centred(a: float, b: float, s: float, smin: float, fixed_a: bool, fixed_b: 
 
 
 def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: float, st: Detailing,
-                 fixed_a: bool, face_b: float | None) -> list[float] | None:
+                 fixed_a: bool, face_b: float | None, close_at_face: bool = False) -> list[float] | None:
     """The middle run from a to b: carried on from a at its spacing and closed at b
     (``_continued``), else centred between them; where neither keeps every gap between
     the practical minimum and its spacing, an end run is extended by one or more of its
@@ -265,7 +267,7 @@ def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: flo
         for i, j in tries:
             a2 = a + i * left[-1].spacing if i else a
             b2 = b - j * right[-1].spacing if j else b
-            got = _continued(a2, b2, s_try, smin, fixed_a, face_b) if not j else None
+            got = _continued(a2, b2, s_try, smin, fixed_a, face_b, close_at_face) if not j else None
             if got is None:
                 got = _centred(a2, b2, s_try, smin, fixed_a, face_b is not None)
             if got is not None:
@@ -276,10 +278,12 @@ def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: flo
 
 
 def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i: bool, free_j: bool,
-                     st: Detailing) -> tuple[np.ndarray, list[tuple[float, float]], str] | str:
+                     st: Detailing, close_at_faces: bool = False) -> tuple[np.ndarray, list[tuple[float, float]], str] | str:
     """Stirrup positions for one member from the allowed spacing at each station (u from
-    face i; inf where none is needed). Returns (positions, empty spans, note), or a
-    string that says why no layout is possible."""
+    face i; inf where none is needed). ``close_at_faces``: the stirrup nearest each face
+    stands the first-stirrup distance from it (hoops of frame beams, 18.6.4.4, 18.4.2.4),
+    where otherwise the last may stand anywhere up to its spacing from face j. Returns
+    (positions, empty spans, note), or a string that says why no layout is possible."""
     first = (lambda s: st.first_stirrup_mm) if st.first_stirrup == "fixed" else (lambda s: s / 2.0)
     if np.all(np.isinf(s_env)):
         return np.empty(0), [(0.0, clear_span)], "no stirrups required"
@@ -325,7 +329,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     fixed_a, face_b = a is None, (clear_span if b is None else None)
     a = first(s_mid) if a is None else a
     b = clear_span - first(s_mid) if b is None else b
-    mid = _fit_between(left, right, a, b, s_mid, st, fixed_a, face_b)
+    mid = _fit_between(left, right, a, b, s_mid, st, fixed_a, face_b, close_at_faces)
     if mid is None:
         return "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
     pos = [x for r in left for x in r.positions] + mid + [x for r in reversed(right) for x in r.positions[::-1]]

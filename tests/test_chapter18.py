@@ -81,9 +81,11 @@ def test_special_frame_beam_ve_vc_zero_and_hoops():
 
 
 def test_special_frame_beam_member_checks():
-    # 18.6.2.1: ln >= 4d (6000 >= 2360), bw >= 0.3h (350 >= 195) and >= 250 mm
+    # 18.6.2.1: ln >= 4d (6000 >= 2360), bw >= the lesser of 0.3h = 195 and 250 mm (from memory)
     assert aci.smf_beam_dimensions_ok(LN, D, B, H)
-    assert not aci.smf_beam_dimensions_ok(LN, D, 240.0, H)
+    assert aci.smf_beam_dimensions_ok(LN, D, 240.0, H)  # 240 >= 195
+    assert not aci.smf_beam_dimensions_ok(LN, D, 190.0, H)
+    assert not aci.smf_beam_dimensions_ok(LN, 900.0, 240.0, 1000.0)  # the lesser of 300 and 250: 250
     assert not aci.smf_beam_dimensions_ok(2000.0, D, B, H)
     # 18.6.3.1 with 9.6.1.2: As,min = max(0.25 sqrt(35)/420, 1.4/420) x 350 x 590 = 0.003521 x 206500 = 727 mm^2;
     # rho <= 0.025 -> As <= 5162 mm^2; two continuous bars top and bottom

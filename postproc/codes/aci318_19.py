@@ -267,18 +267,29 @@ def intermediate_frame_design_shear(v_from_mn, v_amplified):
 
 # --- beams of special moment frames (18.6) ------------------------------------------------
 
+SMF_BEAM_MIN_WIDTH_MM = 250.0  # 18.6.2.1(b)
+SMF_BEAM_HX_MAX_MM = 350.0  # 18.6.4.2: spacing of transversely supported flexural bars
+
+
 def smf_beam_dimensions_ok(ln, d, bw, h):
-    """18.6.2.1: clear span ln >= 4d; bw >= 0.3h and >= 250 mm. (The projection limit of
-    18.6.2.1(c) needs the column width and is not checked here.)"""
-    return (ln >= 4.0 * d) & (bw >= 0.3 * h) & (bw >= 250.0)
+    """18.6.2.1: (a) clear span ln >= 4d; (b) bw at least the lesser of 0.3h and 250 mm (from
+    memory: "the lesser", as in the earlier editions' "not less than the smaller of 0.3h and
+    10 in."). (The projection limit of 18.6.2.1(c) needs the column width and is not checked.)"""
+    return (ln >= 4.0 * d) & (bw >= np.minimum(0.3 * np.asarray(h, float), SMF_BEAM_MIN_WIDTH_MM))
+
+
+def smf_beam_rho_max(fy):
+    """18.6.3.1: rho = As/(bw d) at most 0.025 for Grade 420 and 0.02 for Grade 550 (from memory)."""
+    return np.where(_grade_550(fy), 0.02, 0.025)
 
 
 def smf_beam_longitudinal_ok(as_top, as_bot, n_top_continuous, n_bot_continuous, fc, fy, bw, d):
     """18.6.3.1: top and bottom steel each at least As,min of 9.6.1.2, rho = As/(bw d) at most
-    0.025, and at least two continuous bars at both faces. Returns a boolean per section."""
+    0.025 (0.02 for Grade 550), and at least two continuous bars at both faces. Returns a
+    boolean per section."""
     as_min = np.maximum(0.25 * np.sqrt(fc) / fy, 1.4 / fy) * bw * d  # 9.6.1.2 (a), (b)
     enough = (as_top >= as_min) & (as_bot >= as_min)
-    not_too_much = (as_top <= 0.025 * bw * d) & (as_bot <= 0.025 * bw * d)
+    not_too_much = (as_top <= smf_beam_rho_max(fy) * bw * d) & (as_bot <= smf_beam_rho_max(fy) * bw * d)
     continuous = (np.asarray(n_top_continuous) >= 2) & (np.asarray(n_bot_continuous) >= 2)
     return enough & not_too_much & continuous
 
@@ -305,6 +316,12 @@ def smf_beam_hoop_spacing(d, db_long_min, fy=420.0):
     primary flexural bar (Grade 420; 5 db for Grade 550, from memory). First hoop within 50 mm."""
     multiple = np.where(_grade_550(fy), 5.0, 6.0)
     return np.minimum.reduce(np.broadcast_arrays(np.asarray(d, float) / 4.0, multiple * db_long_min, 150.0))
+
+
+def seismic_hook_extension(db):
+    """Extension of a seismic hook (Chapter 2, 25.3.4): a bend of at least 135 degrees (90 for
+    circular hoops) with an extension of at least 6 db and 75 mm."""
+    return np.maximum(6.0 * np.asarray(db, float), 75.0)
 
 
 def smf_beam_stirrup_spacing_elsewhere(d):

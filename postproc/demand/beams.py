@@ -104,8 +104,9 @@ def _segment_any(values: np.ndarray, bounds: np.ndarray) -> np.ndarray:
     return np.logical_or.reduceat(values, bounds[:-1])
 
 
-def pair_demand(sec: Section, cand: Candidates) -> PairDemand:
-    """Every candidate combination's own requirement. ``sec`` is per station."""
+def pair_demand(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) -> PairDemand:
+    """Every candidate combination's own requirement. ``sec`` is per station; ``vc_zero`` per
+    station, where Vc is taken as zero (18.6.5.2, the hinge zones of special-frame beams)."""
     s = sec.take(cand.station)
     vu = np.abs(cand.values["V"])
     nu = -cand.values["N"]  # ACI sign: compression positive
@@ -114,6 +115,8 @@ def pair_demand(sec: Section, cand: Candidates) -> PairDemand:
     vc_hi = aci.vc_with_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, s.lam, s.rho_w)
     rho_c = np.where(np.isfinite(s.rho_w), s.rho_w, s.rho_w_min)
     vc_lo = aci.vc_without_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, rho_c, s.lam)
+    if vc_zero is not None:
+        vc_hi, vc_lo = np.where(vc_zero[cand.station], 0.0, vc_hi), np.where(vc_zero[cand.station], 0.0, vc_lo)
     minimum = vu > np.where(s.avmin_exempt, np.inf, aci.av_min_threshold(s.fc, s.b, s.d, s.lam))
     minimum |= s.avmin_exempt & (vu > phi * vc_lo)  # Table 9.6.3.1 beams: only where Vu > phi Vc
     torsion = np.zeros(len(vu), bool)
@@ -132,9 +135,10 @@ def pair_demand(sec: Section, cand: Candidates) -> PairDemand:
                       minimum=minimum, shear_ratio=vu / aci.section_limit(vc_hi, s.fc, s.b, s.d))
 
 
-def required(sec: Section, cand: Candidates) -> Demand:
-    """Steel needed at each station over all candidate combinations. ``sec`` is per station."""
-    p = pair_demand(sec, cand)
+def required(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) -> Demand:
+    """Steel needed at each station over all candidate combinations. ``sec`` is per station;
+    ``vc_zero`` as in pair_demand."""
+    p = pair_demand(sec, cand, vc_zero)
     bounds = cand.bounds
     s = sec.take(cand.station)
     heavy_pair = p.vu / aci.PHI_SHEAR - p.vc_hi > 0.33 * aci.sqrt_fc(s.fc) * s.b * s.d  # Table 9.7.6.2.2

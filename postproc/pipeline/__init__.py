@@ -29,7 +29,9 @@ MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_
                   "stirrup_mass_kg",
                   # added after the first release, at the end (the table's columns are a contract)
                   "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2"]
-ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count",
+                # added after the first release, at the end: stirrup, hoop (beams); tie, spiral (columns)
+                "kind"]
 
 
 class SelfCheckError(AssertionError):
@@ -70,6 +72,7 @@ class Resampled:
     case_values: dict[str, np.ndarray]  # (n_cases, S) at the station each station takes its forces from
     rules: stations.EndRules
     warnings: list[str]
+    at_station: dict[str, np.ndarray] | None = None  # (n_cases, S) at each station itself (no 9.4.3.2 rule)
 
 
 def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> Resampled:
@@ -79,6 +82,7 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     span = float(g.length.max() * 2 + 1e3)
     case_vals, missing = stations.interpolate(samples, len(cset.cases), grid.member, grid.x, grid.side, span)
     rules = stations.end_rules(g, grid, samples, settings.stations)
+    at_station = case_vals
     case_vals = {k: v[:, rules.source] for k, v in case_vals.items()}
 
     warnings = []
@@ -100,7 +104,7 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
                         + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
                         + ": a concentrated load spread by the export? It is designed as a steep linear change; "
                           "give the two rows one station to make it a concentrated load")
-    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings)
+    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station)
 
 
 def governing(values: np.ndarray, tie: np.ndarray, bounds: np.ndarray) -> np.ndarray:

@@ -6,7 +6,7 @@ check -> records.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
@@ -15,7 +15,8 @@ import pyarrow as pa
 from postproc import detailing, stations
 from postproc.codes import aci318_19 as aci
 from postproc.demand import beams as demand
-from postproc.pipeline import BatchOutput, MemberGeometry, Resampled, SelfCheckError, governing, row
+from postproc.demand import frames as fr
+from postproc.pipeline import BatchOutput, MemberGeometry, Resampled, SelfCheckError, frame_beams, governing, row
 from postproc.settings import BAR_CATALOGUE, Settings
 
 KINDS = ("beam",)
@@ -30,6 +31,7 @@ class Members(MemberGeometry):
     sec: demand.Section
     free_i: np.ndarray
     free_j: np.ndarray
+    frames: fr.FrameBeams  # moment frames of Chapter 18: Mn, Mpr of the faces (postproc.demand.frames)
 
 
 @dataclass(frozen=True)
@@ -64,37 +66,50 @@ def _geometry(bm: pd.DataFrame) -> Members:
         b=bm["b_mm"].to_numpy(float), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
         lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
         bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float))
-    return Members(bm["member"].to_numpy(object), g, sec, g.support_i == "free", g.support_j == "free")
+    return Members(bm["member"].to_numpy(object), g, sec, g.support_i == "free", g.support_j == "free",
+                   fr.frame_beams(bm))
 
 
-def _options(mb: Members, dem: demand.Demand, grid: stations.Grid, st) -> Options:
+def _here(dem: demand.Demand, st, fp: frame_beams.FramePlan) -> np.ndarray:
+    """Stations where stirrups are placed: where needed, where the settings put them throughout,
+    and along frame beams (18.6.4.6, 18.4.2.5)."""
+    return dem.stirrups_needed | st.stirrups_throughout | fp.stations.throughout
+
+
+def _options(mb: Members, dem: demand.Demand, grid: stations.Grid, st, fp: frame_beams.FramePlan) -> Options:
     """Every ladder choice for every member: legs enough for the spacing across the width
-    (Table 9.7.6.2.2) where stirrups are needed, and the torsion geometry of that bar."""
-    here = dem.stirrups_needed | st.stirrups_throughout
+    (Table 9.7.6.2.2) where stirrups are needed and for the bar support of special-frame
+    hoops (18.6.4.2), and the torsion geometry of that bar."""
+    here = _here(dem, st, fp)
     across = np.full(len(mb.names), np.inf)
     np.minimum.at(across, grid.member[here], dem.s_max_across[here])
     bars = [bar for bar, _ in st.ladder]
     db = np.array([BAR_CATALOGUE[b][0] for b in bars])
     legs = np.array([[max(base, detailing.legs_for_width(b, st.clear_cover_mm, dbk, a)) if np.isfinite(a) else base
                       for b, a in zip(mb.sec.b, across)] for (_, base), dbk in zip(st.ladder, db)], dtype=float)
+    legs = np.maximum(legs, [fr.legs_for_bar_support(mb.frames, mb.sec.b, st.clear_cover_mm, dbk) for dbk in db])
     geo = [demand.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover_mm, dbk) for dbk in db]
     return Options(bars, legs, np.array([BAR_CATALOGUE[b][1] for b in bars]), db,
                    np.array([a for a, _ in geo]), np.array([p for _, p in geo]))
 
 
-def _allowed_spacing(k: int, opt: Options, dem: demand.Demand, cand, grid: stations.Grid, here, module) -> np.ndarray:
-    """Per station, the largest spacing on the module that option k admits (inf: none needed)."""
+def _allowed_spacing(k: int, opt: Options, dem: demand.Demand, cand, grid: stations.Grid, here, module,
+                     fp: frame_beams.FramePlan) -> np.ndarray:
+    """Per station, the largest spacing on the module that option k admits (inf: none needed),
+    within the hoop and stirrup limits of frame beams (18.6.4.4, 18.6.4.6, 18.4.2.4, 18.4.2.5)."""
     mem = grid.member
     s = demand.allowed_spacing(cand, dem, opt.legs[k][mem], opt.area[k], opt.Aoh[k][mem], opt.ph[k][mem], here)
+    s = np.minimum(s, fp.stations.limit_for(opt.db[k]))
     return detailing.floor_to_module(s, module)
 
 
 def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, deep: np.ndarray,
-            settings: Settings) -> Layouts:
+            settings: Settings, fp: frame_beams.FramePlan) -> Layouts:
     """Step 5: the first ladder option that fits the minimum spacing and the torsion section
-    limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member."""
+    limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member
+    (frame beams: the first hoop within 50 mm of each face, 18.6.4.4, 18.4.2.4)."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
-    here = dem.stirrups_needed | st.stirrups_throughout
+    here = _here(dem, st, fp)
     shear_bad = np.zeros(n, bool)
     np.logical_or.at(shear_bad, grid.member, dem.shear_ratio > 1.0)
     starts = grid.offsets[:-1]
@@ -102,7 +117,7 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     fits = np.zeros((len(opt.bars), n), bool)
     torsion_ok = np.ones((len(opt.bars), n), bool)
     for k in range(len(opt.bars)):
-        allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module_mm)
+        allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module_mm, fp)
         fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing_mm
         ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
                                            opt.ph[k][grid.member])
@@ -111,8 +126,12 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     option = np.where(usable.any(axis=0), np.argmax(usable, axis=0), -1)
     layouts, reasons = {}, {}
     chosen = np.full(len(grid.x), np.inf)
+    hoops = np.zeros(n, bool)
+    hoops[grid.member[fp.first_hoop_members]] = True
+    st_hoops = replace(st, first_stirrup="fixed", first_stirrup_mm=min(
+        st.first_stirrup_mm if st.first_stirrup == "fixed" else aci.FIRST_HOOP_MAX_MM, aci.FIRST_HOOP_MAX_MM))
     for m in range(n):
-        if deep[m] or shear_bad[m]:
+        if deep[m] or shear_bad[m] or m in fp.reasons:
             option[m] = -1
             continue
         sl = slice(grid.offsets[m], grid.offsets[m + 1])
@@ -127,7 +146,8 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
                                         f"spacing: {'; '.join(tight)}")
             continue
         got = detailing.layout_positions(rs.x_clear[sl], allowed[k][sl], float(mb.geo.clear_span[m]),
-                                         bool(mb.free_i[m]), bool(mb.free_j[m]), st)
+                                         bool(mb.free_i[m]), bool(mb.free_j[m]), st_hoops if hoops[m] else st,
+                                         close_at_faces=bool(hoops[m]))
         if isinstance(got, str):
             option[m] = -1
             reasons[m] = ("resize", got)
@@ -179,12 +199,23 @@ def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Pro
 
 
 def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided, lay: Layouts,
-           settings: Settings) -> demand.Capacity:
+           settings: Settings, opt: Options, fp: frame_beams.FramePlan) -> demand.Capacity:
     """Step 6, the self-check: every station of every designed member, every candidate
-    combination, and every gap between stirrups against the practical minimum."""
+    combination (the capacity-design one of frame beams with it, Vc = 0 where 18.6.5.2
+    says so), the spacing limits of frame beams with the chosen hoop bar, the first hoop
+    within 50 mm of each face, and every gap between stirrups against the practical minimum."""
     sec = mb.sec.take(rs.grid.member)
+    dem = replace(dem, s_max=np.minimum(dem.s_max, fp.stations.limit_for(opt.db[np.maximum(lay.option, 0)][rs.grid.member])))
     cap = demand.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
                               lay.stirrups_here)
+    k_chosen = np.maximum(lay.option, 0)
+    support_legs = np.array([fr.legs_for_bar_support(mb.frames, mb.sec.b, settings.detailing.clear_cover_mm,
+                                                     opt.db[k])[m] for m, k in enumerate(k_chosen)], dtype=float)
+    short = prov.on & (prov.legs < support_legs[rs.grid.member])
+    if short.any():
+        m = rs.grid.member[np.flatnonzero(short)[0]]
+        raise SelfCheckError(f"hoops of member {mb.names[m]} have fewer legs than 18.6.4.2 asks "
+                             f"({int(support_legs[m])})")
     bad = prov.on & ~cap.ok
     if bad.any():
         k = np.flatnonzero(bad)[0]
@@ -198,6 +229,10 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
         if len(x) and (x[0] <= 0 or x[-1] >= mb.geo.clear_span[m]):
             raise SelfCheckError(f"stirrups of member {mb.names[m]} run outside its clear span "
                                  f"({x[0]:g} to {x[-1]:g} mm of {mb.geo.clear_span[m]:g} mm)")
+        first = aci.FIRST_HOOP_MAX_MM + 0.05
+        if fp.first_hoop_members[rs.grid.offsets[m]] and len(x) and (x[0] > first or mb.geo.clear_span[m] - x[-1] > first):
+            raise SelfCheckError(f"hoops of member {mb.names[m]} start {x[0]:g} mm and {mb.geo.clear_span[m] - x[-1]:g} "
+                                 f"mm from the faces, more than {aci.FIRST_HOOP_MAX_MM:g} mm (18.6.4.4, 18.4.2.4)")
         gaps = np.diff(x)
         if len(gaps) and gaps.min() < smin - 0.05 and "one zone throughout" not in layout.message:
             raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} mm apart, under the "
@@ -206,9 +241,11 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
 
 
 def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Options, lay: Layouts,
-             prov: Provided, cap: demand.Capacity | None, why_deep: np.ndarray, settings: Settings):
+             prov: Provided, cap: demand.Capacity | None, why_deep: np.ndarray, settings: Settings,
+             fp: frame_beams.FramePlan):
     """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    fs = fp.stations
     p = dem.pairs
     cs = cand.station
     k_ref = np.where(lay.option >= 0, lay.option, int(np.argmax(opt.Aoh.mean(axis=1))))  # bar for undesigned
@@ -242,7 +279,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     vc_used = np.where(has_min, p.vc_hi, np.where(prov.on[cs], p.vc_lo, p.vc_hi))
     sec_p = mb.sec.take(grid.member[cs])
     limit = aci.section_limit(p.vc_hi, sec_p.fc, sec_p.b, sec_p.d)
-    eq = _vc_equation(sec_p, p, has_min | ~prov.on[cs])
+    eq = _vc_equation(sec_p, p, has_min | ~prov.on[cs], fs.vc_zero[cs])
     at_chosen = p.ata / opt.Aoh[k_ref[grid.member[cs]], grid.member[cs]]
     al = aci.al_required(at_chosen, opt.ph[k_ref[grid.member[cs]], grid.member[cs]], sec_p.fyt, sec_p.fy,
                          sec_p.fc, sec_p.Acp, sec_p.b)
@@ -268,33 +305,38 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         if lay.option[m] < 0:
             sl = slice(grid.offsets[m], grid.offsets[m + 1])
             ratio = float(dem.shear_ratio[sl].max())
-            if ratio > 1.0:
+            status = "resize"
+            if m in fp.reasons:
+                status, msg = fp.reasons[m]
+            elif ratio > 1.0:
                 bd = float(mb.sec.b[m] * mb.sec.d[m]) * ratio
-                msg = (f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}); needs bw*d of about "
-                       f"{bd:,.0f} mm^2")
+                msg = (f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}"
+                       + (", Vc = 0 by 18.6.5.2" if fs.vc_zero[sl].any() else "")
+                       + f"); needs bw*d of about {bd:,.0f} mm^2")
             else:
                 msg = lay.reasons[m][1]
-            rows.append(row(name, "resize", msg, **common))
+            rows.append(row(name, status, msg, **common))
             continue
         layout = lay.layouts[m]
         sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any())  # 25.7.1.6
+        # closed where torsion acts (25.7.1.6) and in frame beams (hoops; stirrups with seismic hooks, 18.6.4.6)
+        closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any()) or bool(fs.throughout[sl].any())
         shapes = detailing.stirrup_set(float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover_mm, layout.bar, layout.legs,
                                        closed, st.open_hook_deg)
         mass = layout.count * detailing.set_mass(shapes)
-        message = layout.message
+        message = "; ".join(filter(None, [layout.message, fp.notes.get(m, "")]))
         if al_member[m] > 0:
             message = "; ".join(filter(None, [message, f"torsion: add Al = {al_member[m]:,.0f} mm^2 of longitudinal "
                                                       "bars around the perimeter (22.7.6.1, 9.6.4.3, 9.7.5)"]))
         rows.append(row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
                          **common))
         stirrups.append(pd.DataFrame({"member": name, "x_mm": layout.positions}))
-        for z, zone in enumerate(detailing.zones_from_positions(layout.positions, float(mb.geo.clear_span[m]),
-                                                                layout.empty), start=1):
+        hinge = 2.0 * mb.geo.h[m] if fs.zone[sl].any() else None  # hoops over 2h (18.6.4.1, 18.4.2.4)
+        for z, (kind, zone) in enumerate(_kinded_zones(layout, float(mb.geo.clear_span[m]), hinge), start=1):
             zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
                               bar=layout.bar if zone.count else "", legs=layout.legs if zone.count else 0,
                               spacing_mm=round(zone.spacing, 1) if np.isfinite(zone.spacing) else None,
-                              count=zone.count))
+                              count=zone.count, kind=kind))
 
     g = gov_station
     k_st = k_ref[grid.member]
@@ -319,24 +361,46 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         "vc_equation": pa.array(list(eq[g]), pa.string()),
         "av_s_req": p.av[g], "at_s_req": p.ata[g] / Aoh_st, "av_s_env": dem.av_env, "at_s_env": dem.ata_env / Aoh_st,
         "av_min_s": dem.av_min_s, "avmin_required": dem.minimum, "torsion": dem.torsion,
-        "s_max_mm": np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st)), dem.s_max),
+        "s_max_mm": np.minimum(np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st)), dem.s_max),
+                               fs.limit_for(opt.db[k_st])),
         "s_allowed_mm": np.where(on, lay.allowed, np.nan),
         "spacing_mm": np.where(on, prov.spacing, np.nan), "av_s_prov": av_prov,
         "al_mm2": al[g], "utilization": station_util,
+        # Chapter 18 (postproc.pipeline.frame_beams): frame, capacity-design shear, hinge zone, Vc = 0
+        "frame": take([fr.NAMES[c] for c in range(len(fr.NAMES))], fs.code.astype(np.int64)),
+        "ve_kN": fs.ve / 1e3, "ve_eq_kN": fs.ve_eq / 1e3, "hinge_zone": fs.zone, "vc_zero": fs.vc_zero,
     })
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
     return rows, zones, trace, positions
 
 
-def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray) -> np.ndarray:
-    """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, or zero under tension)."""
+def _kinded_zones(layout: detailing.Layout, clear_span: float, hinge: float | None) -> list[tuple[str, detailing.Zone]]:
+    """zones.csv rows with their kind: the stirrups of the hinge zones at each end are hoops
+    (up to and including the first at or beyond 2h from the face, so that the hoops span 2h),
+    the rest stirrups; zones are derived from the positions of each part on its own."""
+    x = layout.positions
+    if hinge is None or not len(x):
+        return [("stirrup", z) for z in detailing.zones_from_positions(x, clear_span, layout.empty)]
+    last_i = min(int(np.searchsorted(x, hinge - 1e-6)), len(x) - 1)  # the first hoop at or beyond 2h from face i
+    first_j = max(int(np.searchsorted(x, clear_span - hinge + 1e-6, side="right")) - 1, 0)
+    if first_j <= last_i + 1:  # the hoop zones meet: hoops throughout
+        return [("hoop", z) for z in detailing.zones_from_positions(x, clear_span, [])]
+    parts = (("hoop", x[:last_i + 1]), ("stirrup", x[last_i + 1:first_j]), ("hoop", x[first_j:]))
+    return [(kind, z) for kind, part in parts if len(part) for z in detailing.zones_from_positions(part, clear_span, [])]
+
+
+def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray,
+                 vc_zero: np.ndarray | None = None) -> np.ndarray:
+    """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, zero under tension, or
+    zero by 18.6.5.2 in the hinge zones of special-frame beams)."""
     a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam)
     cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam)
     vc = np.where(with_min, p.vc_hi, p.vc_lo)
     out = np.where(with_min, np.where(np.isclose(p.vc_hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
                    "22.5.5.1(c)").astype(object)
     out = np.where(np.isclose(vc, cap, rtol=1e-9) & (vc > 0), "22.5.5.1.1 cap", out)
-    return np.where(vc <= 0, "Vc = 0 (axial tension)", out)
+    out = np.where(vc <= 0, "Vc = 0 (axial tension)", out)
+    return out if vc_zero is None else np.where(vc_zero, "Vc = 0 (18.6.5.2)", out)
 
 
 def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
@@ -363,15 +427,18 @@ def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.nd
 def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchOutput:
     """Demand, layout, self-check and records of a batch of beams."""
     sec_st = mb.sec.take(rs.grid.member)
-    dem = demand.required(sec_st, cand)
+    fp = frame_beams.plan(mb, rs, cand, cset, settings)  # Chapter 18: capacity-design candidates, hinge zones
+    cand = fp.candidates
+    dem = demand.required(sec_st, cand, vc_zero=fp.stations.vc_zero)
+    dem = replace(dem, s_max=np.minimum(dem.s_max, fp.stations.limit))
     cantilever = mb.free_i | mb.free_j
     why_deep = deep_beam_reasons(mb.geo.clear_span, mb.geo.h, mb.geo.d, cantilever, rs.rules.point_load_near_bearing)
-    opt = _options(mb, dem, rs.grid, settings.detailing)
-    lay = _layout(mb, rs, cand, dem, opt, why_deep != "", settings)
+    opt = _options(mb, dem, rs.grid, settings.detailing, fp)
+    lay = _layout(mb, rs, cand, dem, opt, why_deep != "", settings, fp)
     prov = _provided(mb, rs, opt, lay, settings.detailing)
-    cap = _check(mb, rs, cand, dem, prov, lay, settings)
-    rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, why_deep, settings)
-    return BatchOutput(rows, zones, trace, rs.warnings, positions)
+    cap = _check(mb, rs, cand, dem, prov, lay, settings, opt, fp)
+    rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, why_deep, settings, fp)
+    return BatchOutput(rows, zones, trace, rs.warnings + fp.warnings, positions)
 
 
 geometry = _geometry
