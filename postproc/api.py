@@ -22,6 +22,7 @@ from postproc import engine, engines
 from postproc.adapters import csv_tables, elements, ifc
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import load_column_map
+from postproc.joints import COLUMNS as JOINT_COLUMNS
 from postproc.settings import Settings, load_settings, settings_from_dict, validated_settings
 from postproc.store import Run, Store, StoreError
 
@@ -40,7 +41,8 @@ class NothingDesigned(InputError):
 @dataclass
 class Design:
     """A designed run: ``members`` and ``zones`` hold the columns of members.csv and
-    zones.csv; ``stations`` is the per-station trace (read on first use)."""
+    zones.csv, ``joints`` those of joints.csv (joints of special moment frames, ACI 318-19
+    18.8; empty without them); ``stations`` is the per-station trace (read on first use)."""
 
     run: Run
     members: pd.DataFrame
@@ -48,6 +50,7 @@ class Design:
     warnings: list[str] = field(default_factory=list)
     _keep: object = field(default=None, repr=False)  # a temporary store, removed with this object
     _stations: pd.DataFrame | None = field(default=None, repr=False)
+    joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=JOINT_COLUMNS))
 
     @property
     def name(self) -> str:
@@ -62,10 +65,11 @@ class Design:
         return self._stations
 
     def write(self, out_dir: str | Path) -> list[Path]:
-        """members.csv and zones.csv in ``out_dir``, exactly as `shearpost run` writes them."""
+        """members.csv and zones.csv (and joints.csv where there are joints) in ``out_dir``,
+        exactly as `shearpost run` writes them."""
         from postproc import report
 
-        return report.write_tables(self.members, self.zones, Path(out_dir))
+        return report.write_tables(self.members, self.zones, Path(out_dir), self.joints)
 
     def report(self, path: str | Path, members: list[str] | None = None) -> Path:
         """The HTML report of this run (detail sections for ``members`` only, if given)."""
@@ -101,7 +105,7 @@ def design(members, forces, cases=None, config=None, *, column_map=None, store=N
                                            paths["cases"], column_map, settings, config_path,
                                            engines.local(workers), ifc_key)
     out = Design(stored, result.members[engine.MEMBER_COLUMNS], result.zones[engine.ZONE_COLUMNS],
-                 result.warnings, keep)
+                 result.warnings, keep, joints=result.joints)
     why = nothing_designed(out.members)
     if why:
         raise NothingDesigned(why, out)
@@ -247,9 +251,11 @@ class OpenStore:
         from postproc.govern import design_table
 
         r = self._run(name)
+        joints = design_table(r, "joints") if (r.design_path / "joints.parquet").exists() \
+            else pd.DataFrame(columns=JOINT_COLUMNS)
         return Design(r, design_table(r, "members")[engine.MEMBER_COLUMNS],
-                      design_table(r, "zones")[engine.ZONE_COLUMNS],
-                      list(json_of(r.design_path / "manifest.json").get("warnings", [])))
+                      design_table(r, "zones").reindex(columns=engine.ZONE_COLUMNS),
+                      list(json_of(r.design_path / "manifest.json").get("warnings", [])), joints=joints)
 
     def governing(self, run: str | None = None, levels=(), groups=(), statuses=(), top: int | None = None):
         """Members ranked as `shearpost govern` ranks them: those needing action first."""

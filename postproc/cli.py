@@ -24,7 +24,8 @@ EXIT_CODES: dict[int, str] = {
     1: "bad input (the message names file, line and column; nothing is written), or a run in "
        "which no member could be designed (the message says why)",
     2: "usage error: a bad option or value, an unknown run or member, an existing run name",
-    3: "some members need resizing (run, demo; compare with --fail-on-new-resize)",
+    3: "some members (or joints of special moment frames) need resizing (run, demo; compare with "
+       "--fail-on-new-resize)",
 }
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
 STORE_ENV = "SHEARPOST_STORE"  # the store folder, unless --store names one
@@ -420,7 +421,7 @@ def cmd_design(args) -> int:
     except StoreError as exc:
         _error(f"error: {exc}")
         return EXIT_USAGE
-    report.write_tables(result.members, result.zones, args.out)
+    report.write_tables(result.members, result.zones, args.out, result.joints)
     if not args.no_report:
         with report.progress_bars(show_progress) as task:
             done = task("writing report.html", 1)
@@ -438,7 +439,7 @@ def cmd_design(args) -> int:
         _error(f"error: run {run.name}: {why}")
         _error(f"the statuses are in {args.out / 'members.csv'}")
         return EXIT_INPUT
-    return EXIT_RESIZE if doc["status"]["resize"] else EXIT_OK
+    return EXIT_RESIZE if doc["status"]["resize"] or doc["joints"]["over"] else EXIT_OK
 
 
 # ----------------------------------------------------------------------------- review commands

@@ -16,6 +16,7 @@ import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
 from postproc import combos as combos_mod
+from postproc import joints as joints_mod
 from postproc.codes import aci318_19 as aci
 from postproc.settings import Settings
 from postproc.store import Run
@@ -35,6 +36,7 @@ class Result:
     combos: combos_mod.ComboSet
     warnings: list[str] = field(default_factory=list)
     stirrups: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=["member", "x_mm"]))
+    joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
 
 
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
@@ -70,6 +72,9 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     members = run.members().to_pandas()
     input_order = {m: k for k, m in enumerate(members["member"])}
     cset, warnings = combination_set(run, run.manifest()["cases"], settings)
+    warnings += chapter_18_warnings(members, cset)
+    joints, joint_warnings = joints_mod.design_joints(members, settings)
+    warnings += joint_warnings
     rows: list[dict] = []
     reason = members["invalid_reason"] if "invalid_reason" in members else pd.Series(None, index=members.index)
     invalid = reason.notna() & (reason != "")
@@ -107,7 +112,20 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
     zdf = zdf.assign(_o=zdf["member"].map(input_order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
-    return Result(out, zdf.reset_index(drop=True), cset, warnings, positions)
+    return Result(out, zdf.reset_index(drop=True), cset, warnings, positions, joints)
+
+
+def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
+    """One warning where the run has earthquake cases and no member belongs to a moment frame:
+    Chapter 18 is then not applied to anything."""
+    quake = sorted(c for c, t in cset.types.items() if t == "E")
+    framed = members["frame"].fillna("none").ne("none").any() if "frame" in members else False
+    if not quake or framed:
+        return []
+    return [f"the run has earthquake cases ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}) but no member is "
+            "marked as part of a moment frame (members.csv `frame`, or [frames] by_group in the settings): ACI 318-19 "
+            "Chapter 18 (capacity-design shear, hoops, joints) was NOT applied; every member is designed by Chapters 9 "
+            "and 22 alone"]
 
 
 def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings,
@@ -180,6 +198,8 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
     pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, "x_mm": float}), preserve_index=False),
                    folder / "stirrups.parquet")
+    pq.write_table(pa.Table.from_pandas(result.joints.astype(joints_mod.DTYPES), preserve_index=False),
+                   folder / "joints.parquet")
     try:  # every distinct combination with its factors, where they can be listed one by one
         names, factors = result.combos.explicit
     except ValueError:

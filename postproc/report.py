@@ -22,6 +22,7 @@ from rich import box
 from rich.table import Table
 
 from postproc.engine import MEMBER_COLUMNS, STATUSES, ZONE_COLUMNS, Result
+from postproc.joints import COLUMNS as JOINT_COLUMNS
 from postproc.terms import NEEDS_ACTION, label
 
 CAUTION = ("Results assist a licensed structural engineer, who checks them; "
@@ -44,10 +45,15 @@ def write_atomic(path: Path, fill) -> Path:
     return path
 
 
-def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path) -> list[Path]:
-    """members.csv and zones.csv in ``out_dir``."""
+def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path, joints: pd.DataFrame | None = None
+                 ) -> list[Path]:
+    """members.csv and zones.csv in ``out_dir``, and joints.csv where the run has joints of
+    special moment frames (postproc.joints)."""
     written = []
-    for name, df, cols in (("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)):
+    tables = [("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)]
+    if joints is not None and len(joints):
+        tables.append(("joints.csv", joints, JOINT_COLUMNS))
+    for name, df, cols in tables:
         written.append(write_atomic(Path(out_dir) / name, lambda fh, df=df, cols=cols: df.to_csv(
             fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")))
     return written
@@ -78,6 +84,8 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
             {k: (None if pd.isna(r[k]) else r[k]) for k in ("member", "status", "utilization", "governing_case",
                                                             "vu_design_i_kN", "vu_design_j_kN")}
             for _, r in ranked.iterrows()],
+        "joints": {"count": int(len(result.joints)), "over": result.joints.loc[
+            result.joints["status"] != "ok", "joint"].head(50).tolist()},
         "stirrups_total": int(m["stirrups_total"].sum()),
         "stirrup_mass_kg": round(float(m["stirrup_mass_kg"].sum()), 1),
         "warnings": result.warnings,
@@ -108,6 +116,12 @@ def print_summary(doc: dict, console: Console) -> None:
     console.print(f"Governing members (the first {len(gov)}, as `shearpost govern` ranks them)")
     console.print(governing_table(gov, console.width))
     console.print(f"Stirrups: {doc['stirrups_total']:,} stirrup sets, {doc['stirrup_mass_kg']:,.1f} kg")
+    joints = doc.get("joints", {})
+    if joints.get("count"):
+        over = joints["over"]
+        console.print(f"Joints of special moment frames (18.8): {joints['count']:,} checked (joint x direction), "
+                      + (f"[bold]{len(over)} need action[/bold]: " + ", ".join(shown(j) for j in over[:8])
+                         if over else "none over phi*Vn"), highlight=False)
     if doc["warnings"]:
         console.print(f"[yellow]{len(doc['warnings'])} warning(s):[/yellow]")
         for w in doc["warnings"][:15]:
@@ -115,7 +129,8 @@ def print_summary(doc: dict, console: Console) -> None:
         if len(doc["warnings"]) > 15:
             console.print(f"  ... and {len(doc['warnings']) - 15} more (see --json)")
     if doc["output"]:
-        files = "members.csv, zones.csv" + (" and report.html" if doc.get("report") else "")
+        files = "members.csv, zones.csv" + (", joints.csv" if doc.get("joints", {}).get("count") else "") \
+            + (" and report.html" if doc.get("report") else "")
         console.print(f"Written to {shown(doc['output'])}: {files}")
     console.print(f"[italic]{doc['caution']}[/italic]")
 

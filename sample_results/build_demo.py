@@ -19,6 +19,12 @@ another member frames in, a row just left and a row just right of it (one row wh
 two agree after rounding). V and M are in the member's local x-y plane (for beams the
 vertical plane; for columns the global X-vertical plane). Signs: see member_values().
 
+The perimeter frames (grid lines A, D, 1 and 5, every level) are special moment frames of
+the seismic system: their beams carry `frame = special` and longitudinal bars of our own
+choosing from the flexural design in frame_beams(). Every member carries its end
+coordinates (x_i_m ... z_j_m, plan X and Y and height, metres), from which the joints of
+the special frames are found.
+
 Writes members.csv, forces.csv and cases.csv next to this script.
 Run: python sample_results/build_demo.py
 """
@@ -339,6 +345,67 @@ def tension_steel(bld: Building, raw) -> None:
         row["as_tension_mm2"] = math.ceil(need / bar) * bar
 
 
+PERIMETER = ({"A", "D"}, {"1", "5"})  # special moment frames: X girders on lines A, D; Y girders on lines 1, 5
+FRAME_BAR = (22.2, 387.0)  # #22 (ASTM A615M): diameter mm, area mm^2; 20 db = 444 mm fits the 500 mm columns (18.8.2.3)
+PHI_FLEXURE = 0.90  # ACI 318-19 Table 21.2.2, tension-controlled
+# Table 5.3.1 combinations for the flexural design of the frame beams' faces (loads absent where they help)
+FLEXURE_COMBOS = ([{"D": 1.4}, {"D": 1.2, "L": 1.6, "Lr": 0.5}, {"D": 1.2, "Lr": 1.6, "L": 1.0}]
+                  + [{"D": 1.2, w: s * 1.0, "L": 1.0, "Lr": 0.5} for w in ("Wx", "Wy") for s in (1, -1)]
+                  + [{"D": 1.2, e: s * 1.0, "L": 1.0} for e in ("Ex", "Ey") for s in (1, -1)]
+                  + [{"D": 0.9, q: s * 1.0} for q in ("Wx", "Wy", "Ex", "Ey") for s in (1, -1)])
+
+
+def frame_beams(bld: Building, raw) -> list[str]:
+    """The perimeter girders become beams of special moment frames, with bars from a flexural
+    design of each face: Mu of the combinations above at the face (hogging and sagging), As
+    from the rectangular stress block with phi = 0.9 (22.2, 21.2.2), at least As,min
+    (9.6.1.2), the bottom steel at least half the top (so that Mn+ >= Mn-/2, 18.6.3.2), in
+    whole #22 bars, at least two (18.6.3.1). Beams only; returns a line per level for the
+    summary."""
+    count: dict[str, int] = {}
+    for name, row in bld.rows.items():
+        if row["kind"] != "beam" or row["group"] not in ("girder-x", "girder-y"):
+            continue
+        line = name.split("-")[2][0]  # L2-GX-A12: line A; L2-GY-1BC: line 1
+        if line not in PERIMETER[0 if row["group"] == "girder-x" else 1]:
+            continue
+        member = bld.model.members[name]
+        xq = np.array([q for _, q in stations(member, STATIONS)])
+        faces = (row["face_i_mm"] / 1e3, row["length_m"] - row["face_j_mm"] / 1e3)
+        b, h, cover, fc = row["b_mm"], row["h_mm"], row["cover_mm"], row["fc_mpa"]
+        d = h - cover
+        as_min = max(0.25 * math.sqrt(fc), 1.4) / FY_MPA * b * d  # 9.6.1.2
+        bars = {}
+        for end, x in zip("ij", faces):
+            moments = [sum(f * np.interp(x, xq, raw[name][c][:, 3]) for c, f in combo.items())
+                       for combo in FLEXURE_COMBOS]
+            top = max(_as_for(max(0.0, -min(moments)), b, d, fc), as_min)
+            bottom = max(_as_for(max(0.0, max(moments)), b, d, fc), as_min, top / 2)
+            bars[f"as_top_{end}_mm2"] = max(2, math.ceil(top / FRAME_BAR[1] - 1e-9)) * FRAME_BAR[1]
+            bars[f"as_bot_{end}_mm2"] = max(2, math.ceil(bottom / FRAME_BAR[1] - 1e-9)) * FRAME_BAR[1]
+        row.update(frame="special", db_long_mm=FRAME_BAR[0], **bars)
+        count[row["level"]] = count.get(row["level"], 0) + 1
+    return [f"special moment frame beams: {sum(count.values())} ({', '.join(f'{k} {v}' for k, v in count.items())}), "
+            f"#22 bars"]
+
+
+def _as_for(mu_kNm: float, b: float, d: float, fc: float) -> float:
+    """Tension steel for Mu by the rectangular stress block (22.2.2.4), singly reinforced:
+    Mu/phi = As fy (d - a/2), a = As fy / (0.85 f'c b)."""
+    mn = mu_kNm * 1e6 / PHI_FLEXURE
+    k = 0.85 * fc * b
+    return k * (d - math.sqrt(d * d - 2.0 * mn / k)) / FY_MPA
+
+
+def coordinates(bld: Building) -> None:
+    """Every member's end coordinates in members.csv (m): plan X, plan Y (the model's Z) and
+    height (the model's Y), node i then node j."""
+    for name, row in bld.rows.items():
+        member = bld.model.members[name]
+        for end, node in (("i", member.i_node), ("j", member.j_node)):
+            row.update({f"x_{end}_m": round(node.X, 6), f"y_{end}_m": round(node.Z, 6), f"z_{end}_m": round(node.Y, 6)})
+
+
 def checks(bld: Building, raw) -> list[str]:
     """Equilibrium checks printed with the summary."""
     m = bld.model
@@ -385,6 +452,8 @@ def main() -> None:
     column_faces(bld)
     forces, raw = extract(bld)
     tension_steel(bld, raw)
+    frames = frame_beams(bld, raw)
+    coordinates(bld)
     members = pd.DataFrame(list(bld.rows.values()))
     members.to_csv(OUT / "members.csv", index=False)
     forces.to_csv(OUT / "forces.csv", index=False)
@@ -394,6 +463,8 @@ def main() -> None:
     print(f"forces: {len(forces)} rows, {forces['case'].nunique()} cases; cases.csv: {len(CASES)} rows")
     for line in checks(bld, raw):
         print("check  " + line)
+    for line in frames:
+        print("frames " + line)
 
 
 if __name__ == "__main__":

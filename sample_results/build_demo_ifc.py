@@ -9,7 +9,10 @@ extruded up from node i to node j. A beam's local x runs from node i to node j a
 'Axis' is that line; its body (rectangle, or T where the row has a flange) hangs below the
 axis, so that the beam's top is at the floor level of the nodes. Concrete materials carry
 f'c in Pset_MaterialConcrete.CompressiveStrength (35 MPa beams, 40 MPa columns); a shared
-ShearpostDesign property set carries the cover (60 mm, 90 mm for the transfer girder).
+ShearpostDesign property set carries the cover (60 mm, 90 mm for the transfer girder). A
+beam of a special moment frame has a ShearpostDesign set of its own, with the cover, its
+frame and its bars (Frame, AsTopI, AsBotI, AsTopJ, AsBotJ, DbLong) as build_demo.py chose
+them and wrote them to members.csv (run build_demo.py first).
 
 The output is deterministic: GlobalIds are derived from fixed names (a member's from its
 id) and the header carries a fixed time stamp.
@@ -18,6 +21,7 @@ Run: python sample_results/build_demo_ifc.py
 
 from __future__ import annotations
 
+import csv
 import uuid
 from pathlib import Path
 
@@ -29,6 +33,17 @@ import ifcopenshell.guid
 from build_demo import FC_MPA, FLOORS, Building, build_frame
 
 OUT = Path(__file__).resolve().parent / "demo_building.ifc"
+MEMBERS_CSV = Path(__file__).resolve().parent / "members.csv"
+FRAME_PROPERTIES = {"AsTopI": "as_top_i_mm2", "AsBotI": "as_bot_i_mm2", "AsTopJ": "as_top_j_mm2",
+                    "AsBotJ": "as_bot_j_mm2"}
+
+
+def frame_rows() -> dict[str, dict]:
+    """The frame beams of members.csv (build_demo.py's flexural design): member -> its row."""
+    if not MEMBERS_CSV.exists():
+        return {}
+    with open(MEMBERS_CSV, newline="", encoding="utf-8") as fh:
+        return {r["member"]: r for r in csv.DictReader(fh) if r.get("frame") not in (None, "", "none")}
 NAMESPACE = uuid.uuid5(uuid.NAMESPACE_URL, "shearpost:sample_results/demo_building.ifc")
 TIME_STAMP = "2026-01-01T00:00:00"
 
@@ -106,6 +121,20 @@ class Writer:
         self.f.createIfcMaterialProperties("Pset_MaterialConcrete", None, [strength], material)
         self.rel("IfcRelAssociatesMaterial", RelatedObjects=members, RelatingMaterial=material)
 
+    def frame_pset(self, name: str, cover_mm: float, bars: dict, element) -> None:
+        """A frame beam's own ShearpostDesign set: the cover, the frame and the bars at its faces
+        (areas with their unit, mm^2; the bar diameter in the file's mm)."""
+        mm2 = self.f.createIfcSIUnit(None, "AREAUNIT", "MILLI", "SQUARE_METRE")
+        props = [self.f.createIfcPropertySingleValue("Cover", None, self.f.createIfcPositiveLengthMeasure(cover_mm), None),
+                 self.f.createIfcPropertySingleValue("Frame", None, self.f.createIfcLabel(bars["frame"]), None),
+                 self.f.createIfcPropertySingleValue("DbLong", None,
+                                                     self.f.createIfcPositiveLengthMeasure(float(bars["db_long_mm"])), None)]
+        props += [self.f.createIfcPropertySingleValue(prop, None, self.f.createIfcAreaMeasure(float(bars[column])), mm2)
+                  for prop, column in FRAME_PROPERTIES.items()]
+        pset = self.f.create_entity("IfcPropertySet", GlobalId=guid(f"ShearpostDesign-{name}"), Name="ShearpostDesign",
+                                    HasProperties=props)
+        self.rel("IfcRelDefinesByProperties", RelatedObjects=[element], RelatingPropertyDefinition=pset)
+
     def design_pset(self, cover_mm: float, members: list):
         cover = self.f.createIfcPropertySingleValue("Cover", "face to centroid of the tension steel",
                                                     self.f.createIfcPositiveLengthMeasure(cover_mm), None)
@@ -132,6 +161,7 @@ def write(bld: Building, path: Path = OUT) -> Path:
     contained = {level: [] for level in storeys}
     by_kind: dict[str, list] = {"beam": [], "column": []}
     by_cover: dict[float, list] = {}
+    frames = frame_rows()
     for name, row in bld.rows.items():
         member = bld.model.members[name]
         i, j = member.i_node, member.j_node
@@ -153,7 +183,10 @@ def write(bld: Building, path: Path = OUT) -> Path:
                                       Representation=w.shape(solid, length), PredefinedType="BEAM")
         contained[level].append(element)
         by_kind[row["kind"]].append(element)
-        by_cover.setdefault(row["cover_mm"], []).append(element)
+        if name in frames:
+            w.frame_pset(name, row["cover_mm"], frames[name], element)
+        else:
+            by_cover.setdefault(row["cover_mm"], []).append(element)
 
     for level, elements in contained.items():
         w.rel("IfcRelContainedInSpatialStructure", RelatedElements=elements, RelatingStructure=storeys[level])
