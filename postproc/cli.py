@@ -109,7 +109,7 @@ COMMANDS = {
              "Design the demo building (a reinforced-concrete frame of our own, with its analysis results) exactly "
              "as `run` would, into ./shearpost-demo by default. --scale changes a load case, to try `compare`.",
              ["shearpost demo --run base", "shearpost demo --scale L=1.3 --run more-live",
-              "shearpost demo --ifc --out demo-ifc/"],
+              "shearpost demo --without-frames --run no-frames", "shearpost demo --ifc --out demo-ifc/"],
              {"store", "json", "config"}),
     "govern": ("rank the members: those needing action first, then by utilization",
                "Rank the members of a designed run for review: members that need action (resize, deep-beam, "
@@ -216,6 +216,9 @@ def _parser() -> argparse.ArgumentParser:
     d.add_argument("--ifc", action="store_true", help="read the demo's geometry from its IFC model")
     d.add_argument("--scale", action="append", default=[], type=case_factor, metavar="CASE=FACTOR",
                    help="scale one load case of the demo, e.g. L=1.3 (repeatable)")
+    d.add_argument("--without-frames", action="store_true",
+                   help="design the demo as if no beam belonged to a moment frame (Chapters 9 and 22 only), to "
+                        "`compare` with the capacity design of its special moment frames")
     for name in ("run", "demo"):
         _engine_options(q[name])
 
@@ -377,6 +380,18 @@ def scaled_demo_forces(factors: dict[str, float], out: Path) -> Path:
     return write_atomic(path, lambda fh: forces.to_csv(fh, index=False, lineterminator="\n"))
 
 
+def unframed_demo_members(out: Path) -> Path:
+    """The demo's members with every `frame` set to none, written beside the outputs (so that
+    the run's manifest points at the file that was designed)."""
+    import pandas as pd
+
+    from postproc.report import write_atomic
+
+    members = pd.read_csv(sample_folder() / "members.csv", keep_default_na=False, na_values=[""])
+    members["frame"] = "none"
+    return write_atomic(out / "members-without-frames.csv", lambda fh: members.to_csv(fh, index=False, lineterminator="\n"))
+
+
 def cmd_design(args) -> int:
     """`run` and `demo`: ingest, design, write the tables and the report, summarise."""
     from postproc import api, engines, html_report, report
@@ -397,6 +412,11 @@ def cmd_design(args) -> int:
             except ValueError as exc:
                 _error(f"shearpost demo: error: --scale: {exc}")
                 return EXIT_USAGE
+        if args.without_frames:
+            if args.ifc:
+                _error("shearpost demo: error: --without-frames works on the demo's members.csv, not with --ifc")
+                return EXIT_USAGE
+            args.members = unframed_demo_members(args.out)
     store = Store(args.store)
     try:
         name = args.run_name or store.new_name()

@@ -16,10 +16,11 @@ two can never disagree.
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from postproc.codes import aci318_19 as aci
 from postproc.settings import BAR_CATALOGUE, Detailing
 
 STEEL_DENSITY = 7850e-9  # kg/mm^3 (common practice)
@@ -114,6 +115,19 @@ def stirrup_set(b: float, h: float, cover: float, bar: str, legs: int, closed: b
         shapes.append(Shape("single-leg-135-90", bar, db, B, e135, D,
                             _cut_length(c - 2 * r, 225, r, e135 + e90), 1))
     return shapes
+
+
+HOOP_NAMES = {"closed-135": "hoop-135", "inner-closed-135": "inner-hoop-135", "single-leg-135-90": "crosstie-135-90"}
+
+
+def hoop_set(b: float, h: float, cover: float, bar: str, legs: int) -> list[Shape]:
+    """The bars of one hoop set of a frame beam (18.6.4, 18.4.2.4): a closed hoop and inner
+    hoops with seismic hooks (135 degrees, 6 db and at least 75 mm: Chapter 2, 25.3.4), an
+    odd leg as a crosstie with a seismic hook and a 90-degree hook (25.7.1.6.1, 18.6.4.3).
+    The seismic hook is the 135-degree stirrup hook of Table 25.3.2 for #10 to #25, so the
+    cut lengths are those of ``stirrup_set``."""
+    seismic = float(aci.seismic_hook_extension(BAR_CATALOGUE[bar][0]))
+    return [replace(s, name=HOOP_NAMES[s.name], hook_mm=seismic) for s in stirrup_set(b, h, cover, bar, legs, True)]
 
 
 def set_mass(shapes: list[Shape]) -> float:

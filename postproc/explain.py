@@ -12,10 +12,12 @@ from dataclasses import dataclass, field
 import json
 
 import numpy as np
+import pandas as pd
 import pyarrow.parquet as pq
 
 from postproc import detailing, stations
 from postproc.demand import beams as demand
+from postproc.demand import frames as fr
 from postproc.codes import aci318_19 as aci
 from postproc.govern import design_table
 from postproc.settings import BAR_CATALOGUE, Settings, Stations
@@ -77,6 +79,8 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     steps.append(Step("Section limit", "22.5.1.2", [
         f"largest Vu / phi(Vc + 0.66 sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
         f"at x = {st.x_mm[k]:,.0f} mm (Vu = {_fmt(st.vu_max_kN[k], 'kN')}, limit {_fmt(st.phi_vn_limit_kN[k], 'kN')})"]))
+    if "frame" in m.index and m.frame in ("ordinary", "intermediate", "special"):
+        steps.append(_frame_step(inputs.loc[[member]].reset_index(), m, r, st, ln, settings))
     steps.append(_governing(r))
     if st.torsion.any():
         steps.append(_torsion(st, r, m, settings))
@@ -198,7 +202,8 @@ def _zone_step(z, st, sec: demand.Section, m) -> Step:
     sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
     if not len(sub):  # a lone stirrup between stations: the stations next to it
         sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]
-    what = f"{z.count} x {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} mm" if z.count > 1 else "")
+    hoops = getattr(z, "kind", "stirrup") == "hoop"
+    what = f"{z.count} {'hoops' if hoops else 'x'} {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} mm" if z.count > 1 else "")
     title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} mm, {what if z.count else 'no stirrups'}"
     if not z.count:
         return Step(title, "9.6.3.1", ["no stirrups: Vu <= the Av,min threshold and phi*Vc throughout"])
@@ -210,7 +215,9 @@ def _zone_step(z, st, sec: demand.Section, m) -> Step:
     s = row.spacing_mm  # the actual gap between the stirrups around the station
     av_s_prov = z.legs * area / s
     has_min = av_s_prov >= float(aci.av_min_over_s(fc, b, sec.fyt[0]))
-    if has_min:
+    if bool(row.get("vc_zero", False)):  # the hinge zone of a special-frame beam (18.6.5.2)
+        vc = 0.0
+    elif has_min:
         vc = float(aci.vc_with_min_stirrups(fc, b, d, nu, sec.Ag[0], sec.lam[0], sec.rho_w[0]))
     else:
         rho = sec.rho_w[0] if np.isfinite(sec.rho_w[0]) else sec.rho_w_min[0]
@@ -236,4 +243,68 @@ def _zone_step(z, st, sec: demand.Section, m) -> Step:
     if row.torsion:
         lines.append(f"torsion considered (Tu >= phi*Tth, 22.7.4.1): At/s = {row.at_s_req:.3f} mm^2/mm per leg "
                      "(22.7.6.1), closed stirrups (25.7.1.6)")
-    return Step(title, "22.5, 9.6.3, 9.7.6.2.2", lines)
+    if hoops:
+        lines.append("hoops: closed, with seismic hooks (135 degrees, 6 db >= 75 mm; 25.3.4), the hinge zone's "
+                     "spacing limit in s_max (18.6.4.4 or 18.4.2.4)")
+    return Step(title, "22.5, 9.6.3, 9.7.6.2.2" + (", 18.6.4, 18.4.2.4" if hoops else ""), lines)
+
+
+def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings) -> Step:
+    """The Chapter 18 part of a frame beam (``row``: its input row as a table, ``m`` as a
+    Series): face strengths, capacity-design shear, hinge zones."""
+    frame = m.frame
+    fb = fr.frame_beams(row)
+    if frame == "ordinary":
+        return Step("Moment frame: ordinary", "18.3", [
+            "beams of ordinary moment frames: Chapters 9 and 22 (the design above)",
+            "18.3.2, at least two continuous bars top and bottom: " +
+            ("two bars of db_long fit in the steel at each face (their continuity is for the engineer to confirm)"
+             if fb.bars_given[0] else "not checked: no bars given")])
+    kn = lambda v: f"{v / 1e6:,.1f}"
+    lines = [f"bars at the faces: top i {m.as_top_i_mm2:,.0f}, bottom i {m.as_bot_i_mm2:,.0f}, top j "
+             f"{m.as_top_j_mm2:,.0f}, bottom j {m.as_bot_j_mm2:,.0f} mm^2; smallest bar db = {m.db_long_mm:g} mm; "
+             f"fy = {m.fy_mpa:g} MPa",
+             f"Mn- / Mn+ (22.2, strain compatibility): i {kn(fb.mn_neg_i[0])} / {kn(fb.mn_pos_i[0])}, j "
+             f"{kn(fb.mn_neg_j[0])} / {kn(fb.mn_pos_j[0])} kN*m"]
+    special = frame == "special"
+    if special:
+        v1, v2 = fr.sway_shears(fb, np.array([ln]), probable=True)
+        lines += [f"Mpr- / Mpr+ (1.25 fy, phi = 1): i {kn(fb.mpr_neg_i[0])} / {kn(fb.mpr_pos_i[0])}, j "
+                  f"{kn(fb.mpr_neg_j[0])} / {kn(fb.mpr_pos_j[0])} kN*m",
+                  f"sway shears (Mpr- at one face + Mpr+ at the other) / ln: {v1[0] / 1e3:,.1f} and "
+                  f"{-v2[0] / 1e3:,.1f} kN (18.6.5.1)"]
+    else:
+        v1, v2 = fr.sway_shears(fb, np.array([ln]), probable=False)
+        lines.append(f"sway shears from Mn at both ends / ln: {v1[0] / 1e3:,.1f} and {-v2[0] / 1e3:,.1f} kN "
+                     "(18.4.2.3(a))")
+    lines.append("gravity 1.2D + 1.0L + 0.2S (each variable load present or absent) on the clear span as a simple "
+                 "beam: the analysis shear less its end-moment part, the mean of V over ln (Fig. R18.6.5)")
+    ve = st.ve_kN.to_numpy(float) if "ve_kN" in st else np.full(len(st), np.nan)
+    if np.isfinite(ve).any():
+        what = "Ve" if special else "the lesser of (a) and (b) with Omega_o = " + f"{settings.frames.omega_o:g}"
+        lines.append(f"{what}: {ve[0]:,.1f} kN at face i, {ve[-1]:,.1f} kN at face j; the design shear at each "
+                     "station is the larger of it and the analysis envelope (a further candidate combination)")
+    h2 = float(aci.smf_beam_hoop_zone_length(m.h_mm))
+    lines.append(f"hoops over 2h = {h2:,.0f} mm from each face, the first within {aci.FIRST_HOOP_MAX_MM:g} mm "
+                 + ("(18.6.4.1, 18.6.4.4)" if special else "(18.4.2.4)"))
+    if special:
+        s_hoop = float(aci.smf_beam_hoop_spacing(m.d_mm, m.db_long_mm, m.fy_mpa))
+        lines.append(f"hoop spacing at most min(d/4, {'5' if m.fy_mpa > 420 else '6'} db, 150 mm) = {s_hoop:g} mm "
+                     f"(18.6.4.4); stirrups with seismic hooks at most d/2 = {m.d_mm / 2:g} mm elsewhere (18.6.4.6); "
+                     "legs to support the bars nearest each face, supported bars at most 350 mm apart (18.6.4.2)")
+        threshold = m.b_mm * m.h_mm * m.fc_mpa / 20.0  # Ag f'c / 20 of the web; the design takes Ag with any flange
+        for end, z in (("i", 1), ("j", 2)):
+            part = st[st.hinge_zone == z] if "hinge_zone" in st else st.iloc[0:0]
+            if not len(part):
+                continue
+            k = part.ve_kN.idxmax()
+            zero = bool(part.vc_zero.any())
+            lines.append(f"end {end}: Vc = 0 (18.6.5.2) {'yes' if zero else 'no'}: (a) earthquake part "
+                         f"{part.ve_eq_kN[k]:,.1f} kN {'>=' if part.ve_eq_kN[k] >= 0.5 * part.ve_kN[k] else '<'} "
+                         f"Ve/2 = {part.ve_kN[k] / 2:,.1f} kN; (b) the least axial compression of the zone's "
+                         f"combinations under Ag f'c/20 (about {threshold / 1e3:,.0f} kN)")
+    else:
+        s_hoop = float(aci.imf_beam_hoop_spacing(m.d_mm, m.db_long_mm, np.inf, m.fy_mpa))
+        lines.append(f"hoop spacing at most min(d/4, {'6' if m.fy_mpa > 420 else '8'} db, 24 db of the hoop, 300 mm): "
+                     f"{s_hoop:g} mm before the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} mm elsewhere (18.4.2.5)")
+    return Step(f"Moment frame: {frame}", "18.6" if special else "18.4.2", lines)

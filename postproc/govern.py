@@ -66,10 +66,12 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
 
 
 def layout_text(zones: pd.DataFrame) -> str:
-    """A member's zones as one line, e.g. '17 #10x2 @75 | 12 #10x2 @250 | 17 #10x2 @75'."""
+    """A member's zones as one line, e.g. '17 #10x2 @75 | 12 #10x2 @250 | 17 #10x2 @75';
+    hoop zones (frame beams, Chapter 18) say so: '11 hoops #10x3 @125'."""
     parts = []
     for z in zones.itertuples():
-        parts.append("none" if not z.count else f"{z.count} {z.bar}x{z.legs} @{z.spacing_mm:g}")
+        hoops = "hoops " if getattr(z, "kind", "stirrup") == "hoop" else ""
+        parts.append("none" if not z.count else f"{z.count} {hoops}{z.bar}x{z.legs} @{z.spacing_mm:g}")
     return " | ".join(parts)
 
 
@@ -119,6 +121,7 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
 
     za, zb = design_table(a, "zones"), design_table(b, "zones")
     key = ["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+    key += ["kind"] if "kind" in za and "kind" in zb else []
     text_a = {m: layout_text(g) for m, g in za.groupby("member")}
     text_b = {m: layout_text(g) for m, g in zb.groupby("member")}
     sig = lambda z: {m: tuple(map(tuple, g[key].fillna(-1).to_numpy().tolist())) for m, g in z.groupby("member")}

@@ -66,6 +66,7 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
     detail = data.detail_codes(members)
     linked = set(detail)
     page = _template().render(**_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
+                              joints=_joint_rows(data, linked),
                               details=Markup(_details(data, detail)), defs=Markup(_legend_defs() + _pattern_defs()),
                               needs_action=NEEDS_ACTION, caution=CAUTION)
     return write_atomic(Path(out_path), lambda fh: fh.write(page))
@@ -74,8 +75,10 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
 class _Data:
     """The design tables joined with the input geometry; member k of ``m`` has code k."""
 
-    def __init__(self, run: Run, m: pd.DataFrame, zones: pd.DataFrame, design_manifest: dict, combinations: int):
+    def __init__(self, run: Run, m: pd.DataFrame, zones: pd.DataFrame, design_manifest: dict, combinations: int,
+                 joints: pd.DataFrame | None = None):
         self.run, self.m, self.zones = run, m, zones
+        self.joints = pd.DataFrame() if joints is None else joints
         self.manifest, self.design_manifest, self.combinations = run.manifest(), design_manifest, combinations
         self.code = {name: k for k, name in enumerate(m["member"])}
 
@@ -98,7 +101,8 @@ class _Data:
         zones = pq.read_table(dp / "zones.parquet").to_pandas()
         manifest = json.loads((dp / "manifest.json").read_text(encoding="utf-8"))
         combos = pq.read_metadata(dp / "combinations.parquet").num_rows
-        return cls(run, m, zones, manifest, combos)
+        joints = pq.read_table(dp / "joints.parquet").to_pandas() if (dp / "joints.parquet").exists() else None
+        return cls(run, m, zones, manifest, combos, joints)
 
     def detail_codes(self, members: list[str] | None) -> list[int]:
         """Codes of the members that get a detail section, in the default order."""
@@ -171,6 +175,26 @@ def _status(status: str) -> str:
     cls = ("st-resize" if status == "resize" else "st-act" if status in NEEDS_ACTION
            else "st-designed" if status == "designed" else "st-other")
     return f'<span class="st {cls}">{_text(status)}</span>'
+
+
+def _joint_rows(data: _Data, linked: set[int]) -> list[dict]:
+    """The joints of special moment frames (postproc.joints), those over phi*Vn first, then by
+    utilization; each framing member linked to its section where it has one."""
+    j = data.joints
+    if not len(j):
+        return []
+    j = j.assign(_act=(j["status"] != "ok")).sort_values(["_act", "utilization", "joint"], ascending=[False, False, True])
+    anchors = dict(zip(data.m["member"], data.m["anchor"]))
+
+    def link(name: str) -> Markup:
+        code = data.code.get(name)
+        return _link(name, anchors[name], code in linked) if code is not None else Markup(_text(name))
+
+    return [dict(joint=r.joint, direction=r.direction, level=r.level,
+                 members=Markup(", ").join(link(n) for n in str(r.members).split()),
+                 vu=f"{r.vu_kN:,.1f}", phi_vn=f"{r.phi_vn_kN:,.1f}", utilization=f"{r.utilization:.3f}",
+                 coefficient=f"{r.coefficient:g}", status=r.status, act=r.status != "ok",
+                 message="" if not _given(r.message) else r.message) for r in j.itertuples()]
 
 
 def _index_rows(data: _Data, linked: set[int]) -> list[dict]:
@@ -357,11 +381,14 @@ def _stirrups(data: _Data, codes: list[int]) -> tuple[dict[int, np.ndarray], dic
     z = data.zones.assign(code=data.zones["member"].map(data.code))
     z = z[z["code"].isin(wanted)].sort_values(["code", "zone"], kind="stable")
     labels: dict[int, list] = {}
-    for code, z0, z1, cnt, bar, legs, sp in zip(z["code"].tolist(), z["start_mm"].tolist(), z["end_mm"].tolist(),
-                                                z["count"].tolist(), z["bar"].tolist(), z["legs"].tolist(),
-                                                z["spacing_mm"].tolist()):
-        text = f"{cnt} {bar} x{legs} @ {sp:g}" if cnt and math.isfinite(sp) else "no stirrups"
-        labels.setdefault(int(code), []).append((z0, z1, text))
+    kinds = z["kind"].fillna("stirrup").tolist() if "kind" in z else ["stirrup"] * len(z)
+    for code, z0, z1, cnt, bar, legs, sp, kind in zip(z["code"].tolist(), z["start_mm"].tolist(), z["end_mm"].tolist(),
+                                                      z["count"].tolist(), z["bar"].tolist(), z["legs"].tolist(),
+                                                      z["spacing_mm"].tolist(), kinds):
+        hoops = "hoops " if kind == "hoop" else ""
+        text = f"{cnt} {hoops}{bar} x{legs} @ {sp:g}" if cnt and math.isfinite(sp) else \
+            (f"1 {hoops}{bar} x{legs}" if cnt else "no stirrups")
+        labels.setdefault(int(code), []).append((z0, z1, text, kind == "hoop"))
     return out, labels
 
 
@@ -497,12 +524,16 @@ def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list) -> 
         xs = np.round(LEFT + pos * sx, 1).tolist()
         p.append(f'<path class="stir" d="{"".join(f"M{x:g} {top}v{length}" for x in xs)}"/>')
     dim_y = y0 + hpx + 10
-    edges = sorted({round(LEFT + e * sx, 1) for z0, z1, _ in labels for e in (z0, z1)})
+    for z0, z1, _, hoop in labels:  # hinge zones (Chapter 18): hoops, hatched over the beam
+        if hoop:
+            p.append(f'<rect class="hinge" x="{_g(LEFT + z0 * sx)}" y="{y0}" width="{_g(max((z1 - z0) * sx, 2.0))}" '
+                     f'height="{_g(hpx)}"><title>hoops (ACI 318-19 18.6.4, 18.4.2.4)</title></rect>')
+    edges = sorted({round(LEFT + e * sx, 1) for z0, z1, _, _ in labels for e in (z0, z1)})
     p.append(f'<path class="dim" d="M{LEFT},{_g(dim_y)}H{_g(LEFT + wpx)}'
              f'{"".join(f"M{x:g},{_g(dim_y - 4)}v8" for x in edges)}"/>')
     rows_end: list[float] = []
     texts = []
-    for z0, z1, text in labels:
+    for z0, z1, text, _ in labels:
         w = CHAR_W * len(text)
         cx = min(max(LEFT + (z0 + z1) / 2 * sx, LEFT + w / 2), LEFT + wpx - w / 2)
         row = next((i for i, e in enumerate(rows_end) if cx - w / 2 > e + 8), len(rows_end))
@@ -526,11 +557,14 @@ def utilization_band(util: np.ndarray, status: np.ndarray) -> np.ndarray:
 
 
 def _pattern_defs() -> str:
-    """Fills that read without colour: hatching for > 1.0, dots for members not designed."""
+    """Fills that read without colour: hatching for > 1.0, dots for members not designed, a
+    light cross-hatch for the hinge zones (hoops) of frame beams."""
     return ('<pattern id="hatch" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)">'
             '<rect width="6" height="6" fill="#f4d9d6"/><path d="M0 0V6" stroke="#b3261e" stroke-width="2.4"/>'
             '</pattern><pattern id="dots" width="5" height="5" patternUnits="userSpaceOnUse">'
-            '<rect width="5" height="5" fill="#f1f2f3"/><circle cx="2.5" cy="2.5" r="0.9" fill="#8d939b"/></pattern>')
+            '<rect width="5" height="5" fill="#f1f2f3"/><circle cx="2.5" cy="2.5" r="0.9" fill="#8d939b"/></pattern>'
+            '<pattern id="hatch-hinge" width="8" height="8" patternUnits="userSpaceOnUse" patternTransform="rotate(45)">'
+            '<path d="M0 0V8M0 0H8" stroke="#9aa0a8" stroke-width="0.8"/></pattern>')
 
 
 def _legend(with_plans: bool) -> str:

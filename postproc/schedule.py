@@ -57,6 +57,8 @@ def _signature(section: pd.Series, zones: pd.DataFrame) -> str:
     sec = [None if pd.isna(section[k]) else round(float(section[k]), 1) for k in SECTION_KEYS]
     lay = [[None if pd.isna(v) else (round(float(v), 1) if isinstance(v, (int, float, np.number)) else v)
             for v in row] for row in zones[ZONE_KEYS].itertuples(index=False)]
+    kinds = zones["kind"].tolist() if "kind" in zones else []
+    lay = [row + ["hoop"] if k == "hoop" else row for row, k in zip(lay, kinds)] if kinds else lay  # hoops differ
     return json.dumps([sec, lay])
 
 
@@ -97,7 +99,8 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         clear = inputs.length_m * 1000 - inputs.face_i_mm - inputs.face_j_mm
         span = clear.round(0)
         info = inputs.loc[designed].assign(span=span.loc[designed])
-        for _, grp in info.groupby(["group", *SECTION_KEYS, "span"], dropna=False):
+        by = ["group", *SECTION_KEYS, "span"] + (["frame"] if "frame" in info else [])  # hoops only with hoops
+        for _, grp in info.groupby(by, dropna=False):
             names = list(grp.index)
             if len(names) < 2:
                 continue
@@ -151,10 +154,16 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
             continue
         bar = next(b for b in z.bar if b)
         legs = int(z.legs.max())
-        closed = settings.stirrup_shape == "closed" or m in stations_torsion
-        for shape in detailing.stirrup_set(sec.b_mm, sec.h_mm, settings.clear_cover_mm, bar, legs, closed,
-                                           settings.open_hook_deg):
-            count = sets * shape.per_set
+        frame = sec.get("frame", "none") in ("special", "intermediate")  # closed, seismic hooks (18.6.4, 18.4.2)
+        closed = settings.stirrup_shape == "closed" or m in stations_torsion or frame
+        hoops = int(z.loc[z["kind"] == "hoop", "count"].sum()) if "kind" in z else 0
+        shapes = [(sh, sets - hoops) for sh in detailing.stirrup_set(sec.b_mm, sec.h_mm, settings.clear_cover_mm, bar,
+                                                                     legs, closed, settings.open_hook_deg)]
+        shapes += [(sh, hoops) for sh in detailing.hoop_set(sec.b_mm, sec.h_mm, settings.clear_cover_mm, bar, legs)]
+        for shape, n_sets in shapes:
+            if not n_sets:
+                continue
+            count = n_sets * shape.per_set
             unit = shape.cut_length_mm * BAR_CATALOGUE[bar][1] * detailing.STEEL_DENSITY
             bar_rows.append({"member": m, "mark": mark, "level": sec.level, "shape": shape.name, "bar": bar,
                              "A_mm": round(shape.A, 1), "B_mm": round(shape.B, 1), "hook_mm": round(shape.hook_mm, 1),
