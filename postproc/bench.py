@@ -160,7 +160,8 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
     """Design a random sample of members with the per-member reference; results must be identical."""
     members = run_.members().to_pandas().set_index("member", drop=False)
     rng = np.random.default_rng(seed)
-    names = sorted(rng.choice(members.index.to_numpy(), size=min(sample, len(members)), replace=False))
+    pool = members.index[[reference.covers(r) for _, r in members.iterrows()]].to_numpy()  # not frame beams
+    names = sorted(rng.choice(pool, size=min(sample, len(pool)), replace=False))
     forces = pq.read_table(run_.path / "forces", filters=[("member", "in", names)]).to_pandas()
     cset = result.combos
     out = result.members.set_index("member")

@@ -27,6 +27,14 @@ from postproc.stations import BEARING
 PHI = aci.PHI_SHEAR
 
 
+def covers(m: pd.Series) -> bool:
+    """Whether this reference designs the member: beams outside moment frames. Frame beams
+    (Chapter 18: capacity-design shear, hinge zones, member checks) are not covered; their
+    independent check is tests/test_frames.py."""
+    frame = m.get("frame", "none")
+    return not isinstance(frame, str) or frame in ("", "none")
+
+
 def _value(xs: list[float], vs: list[float], x: float, right: bool) -> float:
     """Piecewise-linear value at x; at a station given twice, the left or right row."""
     if x <= xs[0]:
@@ -68,7 +76,10 @@ def _combo_values(V, N, T, names, factors):
 def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], factors: np.ndarray,
                   cases: list[str], settings: Settings) -> tuple[dict, list[dict], set[str]]:
     """The members.csv row and zones.csv rows of one beam supported at both or one end,
-    and the names of every combination that ties for its utilization."""
+    and the names of every combination that ties for its utilization. Beams of moment frames
+    are refused (``covers``)."""
+    if not covers(m):
+        raise ValueError(f"member {m.member}: beams of moment frames are not covered by the per-member reference")
     st, dt = settings.stations, settings.detailing
     L = m.length_m * 1000.0
     a, b = m.face_i_mm, L - m.face_j_mm
@@ -219,7 +230,8 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
                 winners.add(c["name"])
     zones = [{"member": m.member, "zone": k, "start_mm": round(z.start, 1), "end_mm": round(z.end, 1),
               "bar": bar if z.count else "", "legs": legs if z.count else 0,
-              "spacing_mm": round(z.spacing, 1) if np.isfinite(z.spacing) else None, "count": z.count}
+              "spacing_mm": round(z.spacing, 1) if np.isfinite(z.spacing) else None, "count": z.count,
+              "kind": "stirrup"}
              for k, z in enumerate(detailing.zones_from_positions(positions, ln, empty), start=1)]
     return ({**row, "status": "designed", "stirrups_total": len(positions), "utilization": round(best[0], 3)},
             zones, winners)
