@@ -160,7 +160,8 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
     """Design a random sample of members with the per-member reference; results must be identical."""
     members = run_.members().to_pandas().set_index("member", drop=False)
     rng = np.random.default_rng(seed)
-    pool = members.index[[reference.covers(r) for _, r in members.iterrows()]].to_numpy()  # not frame beams
+    frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
+    pool = members.index[frame.isin(("", "none"))].to_numpy()  # reference.covers: not frame beams
     names = sorted(rng.choice(pool, size=min(sample, len(pool)), replace=False))
     forces = pq.read_table(run_.path / "forces", filters=[("member", "in", names)]).to_pandas()
     cset = result.combos

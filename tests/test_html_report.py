@@ -86,9 +86,12 @@ def test_one_section_per_member_and_every_link_lands(demo):
     assert sorted(found) == sorted(members.index)
     ids = re.findall(r'<section class="member" id="([^"]+)"', html)
     assert len(set(ids)) == len(members)
-    links = set(re.findall(r'<td><a href="#([^"]+)">', html))
+    index = index_of(html)
+    links = set(re.findall(r'<td><a href="#([^"]+)">', index))
     assert links == set(ids)
-    assert html.count("<tr") == len(members) + 1  # the index lists every member once, plus its heading
+    assert index.count("<tr") == len(members) + 1  # the index lists every member once, plus its heading
+    joints = html[html.index('<section id="joints">'):html.index('<section id="members">')]
+    assert set(re.findall(r'<a href="#([^"]+)">', joints)) <= set(ids)  # the joints' beams link to their sections
 
 
 def test_index_puts_failures_first_then_utilization(small, tmp_path):
@@ -157,8 +160,8 @@ def test_members_argument_limits_the_details_not_the_index(demo, tmp_path):
     run, _, _, members, _ = demo
     html = write_html_report(run, tmp_path / "one.html", ["L2-SB-23"]).read_text(encoding="utf-8")
     assert list(sections(html)) == ["L2-SB-23"]
-    assert html.count("<tr") == len(members) + 1
-    assert len(re.findall(r'<td><a href="#', html)) == 1
+    assert index_of(html).count("<tr") == len(members) + 1
+    assert len(re.findall(r'<td><a href="#', index_of(html))) == 1
     with pytest.raises(ValueError, match="NOPE"):
         write_html_report(run, tmp_path / "bad.html", ["NOPE"])
 
@@ -177,11 +180,19 @@ def test_untrusted_ids_are_escaped_and_anchors_safe(small, tmp_path):
 
 
 def overview_of(html: str) -> str:
-    return html[html.index('<section id="overview">'):html.index('<section id="members">')]
+    end = html.index('<section id="joints">') if '<section id="joints">' in html else html.index('<section id="members">')
+    return html[html.index('<section id="overview">'):end]
 
 
-def test_strips_and_no_plans_without_coordinates(demo):
-    _, _, html, members, _ = demo
+def index_of(html: str) -> str:
+    return html[html.index('<section id="index">'):html.index('<section id="overview">')]
+
+
+def test_strips_and_no_plans_without_coordinates(demo, tmp_path):
+    run, _, _, members, _ = demo
+    copy = Run(shutil.copytree(run.path, tmp_path / "store" / run.name))  # the demo without its coordinates
+    pq.write_table(run.members().drop_columns(COORDS), copy.path / "members.parquet")
+    html = write_html_report(copy, tmp_path / "r.html").read_text(encoding="utf-8")
     overview = overview_of(html)
     assert "Overview by level" in overview and "No plans" in overview and "gives no member coordinates" in overview
     assert "<figure" not in overview
@@ -214,6 +225,7 @@ def test_plans_from_coordinates(small, tmp_path):
     coords = {"x_i_m": at, "y_i_m": np.zeros(n), "z_i_m": np.where(is_col, 0.0, z_top),
               "x_j_m": np.where(is_col, at, at + 6.0), "y_j_m": np.zeros(n), "z_j_m": z_top}
     for name in COORDS:
+        table = table.drop_columns([name]) if name in table.column_names else table
         table = table.append_column(name, pa.array(coords[name]))
     pq.write_table(table, copy.path / "members.parquet")
     html = write_html_report(copy, tmp_path / "r.html").read_text(encoding="utf-8")

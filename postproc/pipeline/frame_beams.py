@@ -75,11 +75,11 @@ class FramePlan:
         return self.stations.code >= fr.INTERMEDIATE
 
 
-def _labels(lf: float, omega: float) -> tuple[str, ...]:
-    gravity = f"1.2D+{lf:.1f}L+0.2S"
-    return (f"18.6.5.1 Ve: Mpr- at i, Mpr+ at j + {gravity}", f"18.6.5.1 Ve: Mpr+ at i, Mpr- at j + {gravity}",
-            f"18.4.2.3(a) Mn- at i, Mn+ at j + {gravity}", f"18.4.2.3(a) Mn+ at i, Mn- at j + {gravity}",
-            f"18.4.2.3(b) E x Omega_o = {omega:g}")
+def _labels(omega: float) -> tuple[str, ...]:
+    """Names of the capacity-design candidates (short: the governing column of a terminal
+    table holds them whole); the gravity part, 1.2D + 1.0L + 0.2S, is in every one."""
+    return ("18.6.5.1 Ve (Mpr- i, Mpr+ j)", "18.6.5.1 Ve (Mpr+ i, Mpr- j)", "18.4.2.3(a) (Mn- i, Mn+ j)",
+            "18.4.2.3(a) (Mn+ i, Mn- j)", f"18.4.2.3(b) {omega:.1f}E")
 
 
 def plan(mb, rs, cand: Candidates, cset: combos.ComboSet, settings: Settings) -> FramePlan:
@@ -163,9 +163,7 @@ def plan(mb, rs, cand: Candidates, cset: combos.ComboSet, settings: Settings) ->
 
     t_max = np.maximum.reduceat(np.abs(cand.values["T"]), cand.bounds[:-1]) if "T" in cand.values else np.zeros(S)
     extra = {"V": ve, "N": tension[sel], "T": t_max[sel]}
-    lf = 0.5 if settings.combinations.reduced_live_factor else 1.0
-    merged = _append(cand, sel, extra, len(cset.rows) + label, len(cset.rows),
-                     _labels(lf, settings.frames.omega_o))
+    merged = _append(cand, sel, extra, len(cset.rows) + label, len(cset.rows), _labels(settings.frames.omega_o))
     for m in np.unique(m_sel):
         notes[m] = _note(fb, m, mb, sel, m_sel, ve, label, zone, vc_zero, settings)
     return FramePlan(st, merged, reasons, notes, warnings)
