@@ -485,3 +485,39 @@ def test_demo_frames_and_compare(demo_pair, capsys):
     assert changed == set(perimeter)
     assert diff["stirrup_mass_change_kg"] > 0
     assert any(r["member"] in perimeter for r in diff["demand_changes"])  # Ve above the analysis shear somewhere
+
+
+def test_frame_properties_from_ifc(tmp_path):
+    """The ShearpostDesign property set carries the frame and the bars of a beam (IFC4, metres):
+    read into the members table; a frame beam without its smallest bar is invalid, saying why."""
+    from postproc.adapters import ifc
+    from tests.test_ifc import Model
+
+    m = Model("IFC4", "m")
+    elements = [m.column("C1", 0, 0), m.column("C2", 6, 0)]
+    for name, props in (("B1", {"Frame": "special", "AsTopI": 2500.0, "AsBotI": 1500.0, "AsTopJ": 2400.0,
+                                "AsBotJ": 1400.0, "DbLong": 0.022}),
+                        ("B2", {"Frame": "special", "AsTopI": 2500.0, "AsBotI": 1500.0, "AsTopJ": 2500.0,
+                                "AsBotJ": 1500.0})):
+        beam = m.beam(name, (0, 0, 3.5 - 0.3), (6, 0, 3.5 - 0.3), m.rect(0.35, 0.6))
+        m.pset(beam, "ShearpostDesign", {"Cover": 0.06, **props})
+        elements.append(beam)
+    path = m.write(tmp_path / "frame.ifc")
+    table, _ = ifc.read_ifc_members(path, key="name")
+    rows = table.to_pandas().set_index("member")
+    b1 = rows.loc["B1"]
+    assert b1.frame == "special" and pd.isna(b1.invalid_reason)
+    assert (b1.as_top_i_mm2, b1.as_bot_i_mm2, b1.as_top_j_mm2, b1.as_bot_j_mm2) == (2500.0, 1500.0, 2400.0, 1400.0)
+    assert b1.db_long_mm == pytest.approx(22.0)  # a length in the file's unit (m)
+    assert (b1.x_i_m, b1.z_i_m) == pytest.approx((100.0, 3.2))  # coordinates for the joints (SITE at 100, 50)
+    assert "db_long_mm" in rows.loc["B2"].invalid_reason and "DbLong" in rows.loc["B2"].invalid_reason
+
+
+def test_a_short_special_frame_beam_fails_18_6_2_1_not_9_9(tmp_path):
+    """ln = 2300 mm < 4d = 2360 mm, and <= 4h = 2600 mm (a deep beam by 9.9.1.1(a)): the special
+    frame's own rule (18.6.2.1(a), ln >= 4d) is the reason given."""
+    short = dict(member="S1", frame="special", **{**FRAME_BEAM, "length_m": 2.9})  # ln = 2900 - 600 = 2300 mm
+    forces = [dict(member="S1", case=c, x_m=x, V_kN=v) for c, v in (("D", 50.0), ("L", 20.0), ("E", 40.0))
+              for x in (0.0, 1.45, 2.9)]
+    row = design(tmp_path, [short], forces, CASES).members.set_index("member").loc["S1"]
+    assert row.status == "resize" and "18.6.2.1" in row.message and "9.9.1.1" not in row.message

@@ -433,6 +433,7 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
     dem = replace(dem, s_max=np.minimum(dem.s_max, fp.stations.limit))
     cantilever = mb.free_i | mb.free_j
     why_deep = deep_beam_reasons(mb.geo.clear_span, mb.geo.h, mb.geo.d, cantilever, rs.rules.point_load_near_bearing)
+    why_deep = fp.unless_refused(why_deep)  # a frame beam failing Chapter 18 (18.6.2.1: ln >= 4d) says that first
     opt = _options(mb, dem, rs.grid, settings.detailing, fp)
     lay = _layout(mb, rs, cand, dem, opt, why_deep != "", settings, fp)
     prov = _provided(mb, rs, opt, lay, settings.detailing)

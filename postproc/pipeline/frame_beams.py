@@ -69,6 +69,13 @@ class FramePlan:
     notes: dict[int, str] = field(default_factory=dict)  # member -> what Chapter 18 did, for its message
     warnings: list[str] = field(default_factory=list)
 
+    def unless_refused(self, why_deep: np.ndarray) -> np.ndarray:
+        """The deep-beam reasons of 9.9.1.1, cleared for the frame beams refused here: a special-
+        frame beam shorter than 4d fails 18.6.2.1, which is the reason to give."""
+        out = why_deep.copy()
+        out[list(self.reasons)] = ""
+        return out
+
     @property
     def first_hoop_members(self) -> np.ndarray:
         """Per station: the first hoop within 50 mm of each face applies (18.6.4.4, 18.4.2.4)."""
