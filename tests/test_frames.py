@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import math
+import shutil
 
 import numpy as np
 import pandas as pd
@@ -456,28 +457,33 @@ def test_random_special_frame_beams_carry_ve(case, tmp_path_factory):
 # --- the demo, with and without its special frames ---------------------------------------------------
 
 @pytest.fixture(scope="module")
-def demo_pair(tmp_path_factory):
+def demo_pair(demo_designed, tmp_path_factory):
+    """The session's demo design (its special frames) copied into a store of our own, and the demo
+    again without its frames beside it."""
     tmp = tmp_path_factory.mktemp("demo-frames")
     store = tmp / "store"
-    a = cli.main(["demo", "--store", str(store), "--out", str(tmp / "frames"), "--run", "frames", "--json",
-                  "--no-report"])
+    run = Store(demo_designed.store).latest()
+    shutil.copytree(run.path, store / "frames")
+    (store / "frames" / "manifest.json").write_text(
+        (run.path / "manifest.json").read_text(encoding="utf-8").replace(f'"run": "{run.name}"', '"run": "frames"'),
+        encoding="utf-8")
     b = cli.main(["demo", "--without-frames", "--store", str(store), "--out", str(tmp / "plain"), "--run", "plain",
                   "--json", "--no-report"])
-    return tmp, store, a, b
+    return demo_designed.out, tmp / "plain", store, demo_designed.code, b
 
 
 def test_demo_frames_and_compare(demo_pair, capsys):
-    tmp, store, a, b = demo_pair
+    framed, plain, store, a, b = demo_pair
     assert a == b == 0
     capsys.readouterr()
-    frames = pd.read_csv(tmp / "frames" / "members.csv").set_index("member")
-    zones = pd.read_csv(tmp / "frames" / "zones.csv")
+    frames = pd.read_csv(framed / "members.csv").set_index("member")
+    zones = pd.read_csv(framed / "zones.csv")
     perimeter = [m for m in frames.index if m.split("-")[1] in ("GX", "GY") and m.split("-")[2][0] in "AD15"]
     assert len(perimeter) == 84
     assert frames.loc[perimeter, "message"].str.contains("special moment frame").all()
     assert set(zones[zones.member.isin(perimeter)].kind) == {"hoop", "stirrup"}
     assert set(zones[~zones.member.isin(perimeter)].kind) <= {"stirrup"}
-    assert (tmp / "frames" / "joints.csv").exists() and not (tmp / "plain" / "joints.csv").exists()
+    assert (framed / "joints.csv").exists() and not (plain / "joints.csv").exists()
     # compare: every perimeter girder changes (hoops), nothing else does
     assert cli.main(["compare", "plain", "frames", "--store", str(store), "--json"]) == 0
     diff = json.loads(capsys.readouterr().out)
