@@ -480,8 +480,10 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
         rows = np.flatnonzero(rows)
         probs.add(rows, column, [message.format(frame=frame[r]) + (
             f" (frame from [frames].by_group of group '{group[r]}')" if from_group[r] else "") for r in rows[:MAX_REPORTED]])
+    with np.errstate(over="ignore"):  # an absurd section is reported by the plausibility check
+        gross = b * h
     for c in BEAM_END_BARS[:4]:
-        probs.add(bars[c] > b * h, c, "more steel than the gross section b_mm x h_mm: check the units")
+        probs.add(bars[c] > gross, c, "more steel than the gross section b_mm x h_mm: check the units")
     coords = np.column_stack([_num(t, c) for c in COORDINATES])
     some = ~np.isnan(coords)
     partial = some.any(axis=1) & ~some.all(axis=1)

@@ -305,6 +305,6 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings) -> S
                          f"combinations under Ag f'c/20 (about {threshold / 1e3:,.0f} kN)")
     else:
         s_hoop = float(aci.imf_beam_hoop_spacing(m.d_mm, m.db_long_mm, np.inf, m.fy_mpa))
-        lines.append(f"hoop spacing at most min(d/4, {'6' if m.fy_mpa > 420 else '8'} db, 24 db of the hoop, 300 mm): "
-                     f"{s_hoop:g} mm before the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} mm elsewhere (18.4.2.5)")
+        lines.append(f"hoop spacing at most min(d/4, {'6' if m.fy_mpa > 420 else '8'} db, 300 mm) = {s_hoop:g} mm and "
+                     f"24 diameters of the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} mm elsewhere (18.4.2.5)")
     return Step(f"Moment frame: {frame}", "18.6" if special else "18.4.2", lines)

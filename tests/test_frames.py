@@ -527,3 +527,17 @@ def test_a_short_special_frame_beam_fails_18_6_2_1_not_9_9(tmp_path):
               for x in (0.0, 1.45, 2.9)]
     row = design(tmp_path, [short], forces, CASES).members.set_index("member").loc["S1"]
     assert row.status == "resize" and "18.6.2.1" in row.message and "9.9.1.1" not in row.message
+
+
+def test_explain_walks_through_chapter_18(special):
+    from postproc import explain
+    from postproc.settings import settings_from_dict
+
+    run = Store(special.store).runs()[-1]
+    steps = explain.explain(run, "B1", settings_from_dict(run.manifest()["settings"]))
+    text = "\n".join(line for s in steps for line in [s.title, s.clause, *s.lines])
+    mpr_neg, mpr_pos = hand_mpr()
+    assert "Moment frame: special" in text and f"Mpr- / Mpr+ (1.25 fy, phi = 1): i {mpr_neg / 1e6:,.1f}" in text
+    assert "end i: Vc = 0 (18.6.5.2) yes" in text and "end j: Vc = 0 (18.6.5.2) yes" in text
+    assert "hoops #10 x 3 legs @ 125 mm" in text and "seismic hooks" in text
+    assert "Vc = 0.0 kN by Table Vc = 0 (18.6.5.2)" in text  # the hinge zone's zone step takes Vc = 0

@@ -208,9 +208,9 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
     dem = replace(dem, s_max=np.minimum(dem.s_max, fp.stations.limit_for(opt.db[np.maximum(lay.option, 0)][rs.grid.member])))
     cap = demand.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
                               lay.stirrups_here)
-    k_chosen = np.maximum(lay.option, 0)
-    support_legs = np.array([fr.legs_for_bar_support(mb.frames, mb.sec.b, settings.detailing.clear_cover_mm,
-                                                     opt.db[k])[m] for m, k in enumerate(k_chosen)], dtype=float)
+    per_option = np.array([fr.legs_for_bar_support(mb.frames, mb.sec.b, settings.detailing.clear_cover_mm, dbk)
+                           for dbk in opt.db])  # (K, members): 18.6.4.2
+    support_legs = per_option[np.maximum(lay.option, 0), np.arange(len(mb.names))]
     short = prov.on & (prov.legs < support_legs[rs.grid.member])
     if short.any():
         m = rs.grid.member[np.flatnonzero(short)[0]]
