@@ -406,7 +406,6 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
     the front of some sign quadrant."""
     _, factors = cset.explicit
     keys = cset.__dict__["_keys"]
-    s_count = next(iter(case_values.values())).shape[1]
     vals = {q: _combine(factors, v).T for q, v in case_values.items()}  # (S, n_combinations)
     keep = np.zeros(vals[active[0]].shape, bool)
     valid = np.ones_like(keep)
