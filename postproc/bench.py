@@ -161,7 +161,7 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
     members = run_.members().to_pandas().set_index("member", drop=False)
     rng = np.random.default_rng(seed)
     names = sorted(rng.choice(members.index.to_numpy(), size=min(sample, len(members)), replace=False))
-    forces = pq.read_table(run_.path / "forces", filters=[("member", "in", names)]).to_pandas()
+    forces = run_.forces(filters=[("member", "in", names)]).to_pandas()
     cset = result.combos
     out = result.members.set_index("member")
     zones = result.zones

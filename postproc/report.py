@@ -44,11 +44,13 @@ def write_atomic(path: Path, fill) -> Path:
     return path
 
 
-def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path) -> list[Path]:
-    """members.csv and zones.csv in ``out_dir``."""
+def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path,
+                 names: dict[str, str] | None = None) -> list[Path]:
+    """members.csv and zones.csv in ``out_dir`` (or under the file names ``names`` gives them)."""
     written = []
     for name, df, cols in (("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)):
-        written.append(write_atomic(Path(out_dir) / name, lambda fh, df=df, cols=cols: df.to_csv(
+        path = Path(out_dir) / (names or {}).get(name, name)
+        written.append(write_atomic(path, lambda fh, df=df, cols=cols: df.to_csv(
             fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")))
     return written
 
