@@ -23,8 +23,6 @@ import threading
 import time
 from concurrent.futures.process import BrokenProcessPool
 
-import psutil
-
 from postproc.engine import SelfCheckError
 from postproc.locks import Busy
 from postproc.store import DamagedRun
@@ -84,11 +82,15 @@ def worker_init(main_pid: int, main_started: float) -> None:
 
 
 def main_identity() -> tuple[int, float]:
+    import psutil
+
     pid = os.getpid()
     return pid, psutil.Process(pid).create_time()
 
 
 def _watch(main_pid: int, main_started: float) -> None:
+    import psutil
+
     while True:
         time.sleep(WATCH_S)
         try:

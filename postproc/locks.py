@@ -25,8 +25,6 @@ import uuid
 from dataclasses import asdict, dataclass
 from pathlib import Path
 
-import psutil
-
 WAIT_S = 10.0  # how long a command waits for a lock another process holds
 BREAK_STALE_S = 60.0  # a break claim or an unreadable claim older than this is left over from a crash
 TMP_NAME = re.compile(r"^\.tmp-(?P<final>.+)-(?P<pid>\d+)-(?P<started>\d+)-(?P<host>[0-9a-f]{8})-[0-9a-f]{12}$")
@@ -49,6 +47,8 @@ class Owner:
     def alive(self) -> bool:
         """False only where this owner is certainly gone (a process of this host that no
         longer runs); a process on another host counts as alive."""
+        import psutil  # (imported where used: the import path stays light and portable)
+
         if self.host != socket.gethostname():
             return True
         try:
@@ -63,6 +63,8 @@ class Owner:
 
 
 def _started(pid: int) -> float:
+    import psutil
+
     return psutil.Process(pid).create_time()
 
 

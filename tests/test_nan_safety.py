@@ -14,7 +14,8 @@ import numpy as np
 import pyarrow as pa
 import pytest
 
-from postproc import design, engine
+from postproc import combos, engine
+from postproc.demand import beams as demand
 from postproc.adapters import csv_tables
 from postproc.adapters.mapping import ColumnMap
 from postproc.settings import Settings
@@ -22,34 +23,37 @@ from postproc.store import Store
 from tests.conftest import beam, rows_from_function, write_inputs
 
 
-def section():
-    # a 300 x 600 beam, d = 540 mm, f'c 30 MPa, fyt 420 MPa (invented test values)
-    return design.section_from_members(b=np.array([300.0]), h=np.array([600.0]), d=np.array([540.0]),
-                                       fc=np.array([30.0]), fyt=np.array([420.0]), lam=np.array([1.0]),
-                                       fy=np.array([420.0]), As=np.array([np.nan]), bf=np.array([np.nan]),
-                                       hf=np.array([np.nan]), cover_to_stirrup=40.0, stirrup_db=9.5)
+def check(V, N, T, spacing):
+    """The self-check of #10 x 2 legs at ``spacing`` along three stations of a 300 x 600 beam
+    (d = 540 mm, f'c 30 MPa, fyt 420 MPa; invented test values), one combination each:
+    V, N (tension +), T per station in N and N*mm."""
+    sec = demand.section_from_members(b=np.array([300.0]), h=np.array([600.0]), d=np.array([540.0]),
+                                      fc=np.array([30.0]), fyt=np.array([420.0]), lam=np.array([1.0]),
+                                      fy=np.array([420.0]), As=np.array([np.nan]), bf=np.array([np.nan]),
+                                      hf=np.array([np.nan])).take(np.zeros(3, np.int64))
+    cand = combos.Candidates(station=np.arange(3), row=np.zeros(3, np.int64), choice=np.zeros((3, 0), np.int64),
+                             values={"V": np.asarray(V, float), "N": np.asarray(N, float),
+                                     "T": np.asarray(T, float)}, bounds=np.arange(4))
+    dem = demand.required(sec, cand)
+    Aoh, ph = demand.torsion_geometry(np.full(3, 300.0), np.full(3, 600.0), 40.0, 9.5)
+    return demand.check_layout(sec, cand, dem, np.full(3, 71.0), np.full(3, 2.0), np.asarray(spacing, float), Aoh, ph,
+                               np.full(3, 200.0), np.ones(3, bool))
 
 
-@pytest.mark.parametrize("which", ["Vu", "Nu", "Tu"])
+@pytest.mark.parametrize("which", ["V", "N", "T"])
 def test_a_nan_force_fails_the_self_check(which):
-    sec = section().take(np.zeros(3, np.int64))  # three stations of the one member
-    forces = {"Vu": np.array([[100e3, 150e3, 80e3]]), "Nu": np.zeros((1, 3)), "Tu": np.zeros((1, 3))}
-    dem = design.required(sec, forces["Vu"], forces["Nu"], forces["Tu"])
-    layout = dict(bar_area=np.full(3, 71.0), legs=np.full(3, 2.0), spacing=np.full(3, 200.0))
-    ok = design.check_layout(sec, forces["Vu"], forces["Nu"], forces["Tu"], demand=dem, **layout).ok
-    assert ok.all()  # #10 x 2 legs at 200 mm carries these (Vs = 2 * 71 * 420 * 540 / 200 = 161 kN, 22.5.8.5.3)
-    forces[which] = forces[which].copy()
-    forces[which][0, 1] = np.nan
-    cap = design.check_layout(sec, forces["Vu"], forces["Nu"], forces["Tu"], demand=dem, **layout)
-    assert list(cap.ok) == [True, False, True] and np.isnan(cap.utilization[1])
+    forces = {"V": [100e3, 150e3, 80e3], "N": [0.0, 0.0, 0.0], "T": [0.0, 0.0, 0.0]}
+    # #10 x 2 legs at 200 mm carry these: Vs = 2 * 71 * 420 * 540 / 200 = 161 kN (22.5.8.5.3)
+    assert check(**forces, spacing=[200.0] * 3).ok.all()
+    forces[which] = list(forces[which])
+    forces[which][1] = np.nan
+    cap = check(**forces, spacing=[200.0] * 3)
+    assert list(cap.ok) == [True, False, True], cap.utilization
 
 
 def test_a_nan_spacing_fails_the_self_check():
-    sec = section().take(np.zeros(2, np.int64))
-    Vu, Nu, Tu = np.array([[100e3, 100e3]]), np.zeros((1, 2)), np.zeros((1, 2))
-    dem = design.required(sec, Vu, Nu, Tu)
-    cap = design.check_layout(sec, Vu, Nu, Tu, np.full(2, 71.0), np.full(2, 2.0), np.array([200.0, np.nan]), dem)
-    assert list(cap.ok) == [True, False]
+    cap = check([100e3] * 3, [0.0] * 3, [0.0] * 3, spacing=[200.0, np.nan, 200.0])
+    assert list(cap.ok) == [True, False, True]
 
 
 class NanSource:
