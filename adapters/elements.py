@@ -816,6 +816,7 @@ class ElementForcesReader:
                 v = t.column(q).to_numpy(zero_copy_only=False).astype(float) * f
                 # absent N, T, M: zero (a column the export has holds no missing cell: checked above)
                 out[q] = pa.array((v if q == "V_kN" else np.nan_to_num(v, nan=0.0)) + 0.0)
+            out["Vb_kN"] = pa.array(np.zeros(t.num_rows))  # an element export gives no shear along b (as absent)
             out["_row"] = pa.array(((lay.position[k] * 4 + where) << FILE_BITS) | ids)
             self.rows += t.num_rows
             self.case_names.update(pac.unique(t.column("case")).to_pylist())
