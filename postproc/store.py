@@ -92,7 +92,8 @@ def listing(folder: Path, skip=()) -> dict[str, dict]:
     """Every file under ``folder`` (but its manifest and the sub-folders ``skip``) with size
     and sha256, by path relative to the folder (always with '/')."""
     files = sorted(p for p in folder.rglob("*") if p.is_file() and p.relative_to(folder).as_posix() != MANIFEST
-                   and not any(p.relative_to(folder).as_posix().startswith(s + "/") for s in skip))
+                   and not any(p.relative_to(folder).as_posix().startswith(s + "/") for s in skip)
+                   and not any(part.startswith(".tmp-") for part in p.relative_to(folder).parts))
 
     def entry(p: Path) -> tuple[str, dict]:
         return p.relative_to(folder).as_posix(), {"size": p.stat().st_size, "sha256": sha256_of(p)}
@@ -103,12 +104,15 @@ def listing(folder: Path, skip=()) -> dict[str, dict]:
 
 def seal_folder(folder: Path, doc: dict | None = None, skip=()) -> None:
     """Write (or complete) ``folder``'s manifest.json: ``doc``, or the manifest already
-    there, with the listing of every file and the seal."""
+    there, with the listing of every file and the seal; written to a temporary name and
+    renamed over the old manifest (a reader sees the old one or the new one)."""
     path = folder / MANIFEST
     doc = dict(doc if doc is not None else json.loads(path.read_text(encoding="utf-8")))
     doc["files"] = listing(folder, skip)
     doc[SEAL] = seal_of(doc)
-    _write_json(path, doc)
+    tmp = folder / f".{MANIFEST}.{os.getpid()}.tmp"
+    _write_json(tmp, doc)
+    os.replace(tmp, path)
 
 
 @dataclass(frozen=True)
@@ -441,11 +445,17 @@ class Store:
         return Run(self.root / name)
 
     def write_design(self, run: Run, write) -> Path:
-        """Runs are designed before they appear (``ingest(then=...)``) and sealed; a stored
-        run's design is never written again."""
-        if run.design_path.exists():
-            raise StoreError(f"run '{run.name}' already has a design; runs are immutable")
-        raise StoreError(f"run '{run.name}' is sealed without a design; design it as a new run")
+        """Write a stored run's design folder once (runs made by ``ingest`` without ``then``,
+        as the bench makes them), under the run's lock: ``write(folder)`` fills a temporary
+        folder, renamed into place when complete; then the run's manifest is sealed again
+        with the design's files listed (replaced atomically)."""
+        with locks.held(self.lock_path(run.name), f"run '{run.name}'"):
+            if run.has_design() or run.design_path.exists():
+                raise StoreError(f"run '{run.name}' already has a design; runs are immutable")
+            self._atomic(run.design_path, write, staging=run.path)
+            doc = {k: v for k, v in run.manifest().items() if k not in ("files", SEAL)}
+            seal_folder(run.path, doc, skip=SEALED_FOLDERS)
+        return run.design_path
 
     def add_sealed(self, run: Run, folder: str, write) -> None:
         """Add a sealed folder to a stored run (a schedule variant), atomically, under the
