@@ -110,8 +110,8 @@ def _example(command: str) -> str:
 
 
 def _exit_code_text() -> str:
-    return "exit codes:\n" + "\n".join(textwrap.fill(text, width=79, initial_indent=f"  {code}  ",
-                                                      subsequent_indent="     ")
+    return "exit codes:\n" + "\n".join(textwrap.fill(text, width=79, initial_indent=f"  {code:>3}  ",
+                                                      subsequent_indent="       ")
                                        for code, text in sorted(EXIT_CODES.items()))
 
 
