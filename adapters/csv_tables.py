@@ -1,17 +1,33 @@
 """Readers and validators for members.csv, forces.csv and cases.csv (schema in DESIGN.md).
 
-Files are parsed by pyarrow. Validation is vectorised; only when something is wrong
-is the file looked at again to tell the exact line (blank lines make the data-row
-index differ from the line number). A value holding a line break is refused: no id,
-label or number has one, and it is the mark of a quote left open.
+Files are parsed by pyarrow in their own encoding, delimiter and decimal separator
+(postproc.adapters.encoding: given in the mapping file, or detected and reported),
+and hashed while they are parsed (postproc.adapters.digests), so that the run's
+manifest describes the bytes that were designed. Validation is vectorised; only when
+something is wrong is the file read again, streamed, to tell the exact line (blank
+lines make the data-row index differ from the line number). A value holding a line
+break is refused: no id, label or number has one, and it is the mark of a quote left
+open. A NUL byte, or a "line" longer than any record, is a damaged file.
+
+No missing value gets through: a blank cell and every spelling of a missing or
+not-a-number value (NaN, #N/A, NA, null, 1.#QNAN, -1.#IND, ...) is an error naming
+file, line and column, in required and optional columns alike, unless the settings
+say how to fill that column (``[input] fill``; the run's notices count the cells
+filled). Where a blank cell is documented as "not given" it stays so: d_mm or
+cover_mm (one of the two per row), bf_mm and hf_mm (no flange), as_tension_mm2 (not
+known), and the bars of frame beams and columns (given where needed). A column the
+file does not have takes its documented default.
+
+Member and case ids are compared as Unicode NFC with zero-width characters removed
+(both reported where they changed an id).
 """
 
 from __future__ import annotations
 
+import codecs
 import csv
-import io
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -19,6 +35,7 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.csv as pcsv
 
+from postproc.adapters import digests, encoding
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap, TableMap
 from postproc.codes import aci318_19 as aci
@@ -33,6 +50,20 @@ csv.field_size_limit(2**31 - 1)  # the error path reads files with csv too: valu
 BROKEN = "a quoted value runs over a line break: is a quote unbalanced?"
 # A number as pyarrow reads one: ASCII digits, optional sign, point and exponent, or inf/nan.
 NUMBER = re.compile(r"^[+-]?((\d+\.?\d*|\.\d+)([eE][+-]?\d+)?|inf|infinity|nan)$", re.IGNORECASE | re.ASCII)
+NUMBER_COMMA = re.compile(r"^[+-]?((\d+,?\d*|,\d+)([eE][+-]?\d+)?|inf|infinity|nan)$", re.IGNORECASE | re.ASCII)
+# Spellings of a missing, not-a-number or failed value (spreadsheets, databases, C runtimes), lower case.
+MISSING_MARKERS = frozenset(m.lower() for m in (
+    "NA", "N/A", "#N/A", "#N/A N/A", "#NA", "NaN", "-NaN", "+NaN", "NULL", "1.#QNAN", "-1.#QNAN",
+    "1.#IND", "-1.#IND", "1.#SNAN", "#NULL!", "#NUM!", "#VALUE!", "#DIV/0!", "#REF!", "#NAME?"))
+# blank: documented "not given" (one of d/cover; no flange; As not known; frame and column bars and end
+# coordinates where needed), or "the default" (fy 420 MPa, lambda 1.0, faces at the nodes): as if the column
+# were absent for that member. In forces.csv every blank is an error (a blank N_kN is not zero).
+BLANK_NOT_GIVEN = frozenset({"d_mm", "cover_mm", "bf_mm", "hf_mm", "as_tension_mm2", "as_top_i_mm2", "as_bot_i_mm2",
+                             "as_top_j_mm2", "as_bot_j_mm2", "db_long_mm", "n_long", "diameter_mm", "ties_b",
+                             "ties_h", "as_long_mm2", "fy_mpa", "lambda", "face_i_mm", "face_j_mm",
+                             "x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"})
+FREE_TEXT = frozenset({"member", "case", "level", "group", "pattern"})
+ZERO_WIDTH = "[\u200b\u200c\u200d\u2060\ufeff]"
 
 
 @dataclass(frozen=True)
@@ -71,6 +102,13 @@ KNOWN_COLUMNS = {
     "forces": tuple(c.name for c in FORCE_COLUMNS),
     "cases": tuple(c.name for c in CASE_COLUMNS),
 }
+FILLABLE = tuple(c.name for c in (*MEMBER_COLUMNS, *FORCE_COLUMNS) if c.numeric and not c.required)
+
+
+def missing_hint(column: str, required: bool) -> str:
+    if required:
+        return "give the value"
+    return f"give the value, or say how to fill the column in the settings: [input] fill = {{ {column} = ... }}"
 
 
 class Problems:
@@ -80,9 +118,10 @@ class Problems:
     (0 = the first record after the header); by default they are the same.
     """
 
-    def __init__(self, path: Path, table: TableMap, row_ids: np.ndarray | None = None):
-        self.path = path
-        self.table = table
+    def __init__(self, spec: CsvSpec, row_ids: np.ndarray | None = None):
+        self.spec = spec
+        self.path = spec.path
+        self.table = spec.table
         self.row_ids = row_ids
         self.items: list[tuple[int, str | None, str]] = []  # (data row index, our column, message)
 
@@ -96,7 +135,7 @@ class Problems:
         if not self.items:
             return
         self.items.sort(key=lambda item: item[0])
-        lines = record_lines(self.path, self.items[min(len(self.items), MAX_REPORTED) - 1][0])
+        lines = record_lines(self.spec, self.items[min(len(self.items), MAX_REPORTED) - 1][0])
         shown = self.items[:MAX_REPORTED]
         errors = [InputError(self.path, msg, lines[r] if r < len(lines) else None,
                              None if col is None else self.table.source_name(col)) for r, col, msg in shown]
@@ -124,10 +163,10 @@ class _Malformed(Exception):
         self.line = line
 
 
-def _records(fh, strict: bool = False):
+def _records(fh, dialect: encoding.Dialect, strict: bool = False):
     """(line, record) for every non-blank record after the header, ``line`` being the one
     the record starts on; a malformed record raises _Malformed."""
-    reader = csv.reader(fh, strict=strict)
+    reader = dialect.reader(fh, strict=strict)
     start, k = 1, 0
     while True:
         try:
@@ -142,13 +181,16 @@ def _records(fh, strict: bool = False):
         start = reader.line_num + 1
 
 
-def record_lines(path: Path, upto: int) -> list[int]:
+def record_lines(source: CsvSpec | Path, upto: int) -> list[int]:
     """Line number on which each data record starts, for records 0..upto (pyarrow skips
-    blank lines and quoted fields may span lines, so the two differ)."""
+    blank lines and quoted fields may span lines, so the two differ). ``source``: the
+    file's CsvSpec, or a path (read as UTF-8 with commas)."""
+    spec = source if isinstance(source, CsvSpec) else None
+    path, dialect = (spec.path, spec.dialect) if spec else (Path(source), encoding.Dialect())
     lines: list[int] = []
-    with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
+    with dialect.open_text(path, errors="replace") as fh:
         try:
-            for line, _ in _records(fh):
+            for line, _ in _records(fh, dialect):
                 lines.append(line)
                 if len(lines) > upto:
                     break
@@ -157,46 +199,108 @@ def record_lines(path: Path, upto: int) -> list[int]:
     return lines
 
 
-def _header(path: Path) -> list[str]:
+def _unnamed(k: int) -> str:
+    return f"(unnamed column {k + 1})"
+
+
+def _header(path: Path, table: TableMap, cols: tuple[Col, ...]) -> tuple[list[str], encoding.Dialect]:
+    """The header's column names (an empty name becomes an unnamed column, which is not
+    read) and how the file is written."""
     if not path.exists():
         raise InputError(path, "file not found")
     if path.is_dir():
         raise InputError(path, "is a folder, not a CSV file")
     with path.open("rb") as fh:
         head = fh.read(1 << 20)
-    if not head.strip():
+    known = {table.source_name(c.name) for c in cols}
+    numeric = {table.source_name(c.name) for c in cols if c.numeric}
+    dialect = encoding.detect(path, head, known, numeric, table.encoding, table.delimiter, table.decimal)
+    text = codecs.getincrementaldecoder(dialect.encoding)("replace").decode(head[dialect.bom:], final=False)
+    if not text.strip():
         raise InputError(path, "the file is empty (no header line)", 1)
-    lines = head.splitlines()  # LF, CRLF and CR-only line ends alike
+    lines = text.splitlines()  # LF, CRLF and CR-only line ends alike
     if not lines[0].strip():
         raise InputError(path, "the first line is blank; the header must be on line 1", 1)
     if len(lines) == 1 or not any(line.strip() for line in lines[1:]):
         raise InputError(path, "has a header but no data rows", 1)
-    try:
-        text = lines[0].decode("utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError(path, "the header is not UTF-8 text; save the file as UTF-8 CSV", 1) from None
-    return [h.strip() for h in next(csv.reader([text]))]
+    if "\ufffd" in lines[0] and "\ufffd" not in _strict_prefix(head[dialect.bom:], dialect, len(lines[0])):
+        raise InputError(path, f"the header is not {dialect.name} text; save the file as UTF-8 CSV", 1)
+    names = [h.strip() for h in next(csv.reader([lines[0]], delimiter=dialect.delimiter))]
+    if "\x00" in lines[0]:
+        raise InputError(path, "the header holds a NUL byte (\\x00): the file is damaged or not text", 1,
+                         next((n for n in names if "\x00" in n), None))
+    return [h if h else _unnamed(k) for k, h in enumerate(names)], dialect
 
 
-def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, ...], exc: Exception) -> InputError:
-    """Find the line and column behind a pyarrow parse or conversion failure."""
-    raw = path.read_bytes()
-    raw = raw[3:] if raw.startswith(b"\xef\xbb\xbf") else raw  # offsets below count from after a BOM
+def _strict_prefix(data: bytes, dialect: encoding.Dialect, chars: int) -> str:
+    """The first ``chars`` characters of ``data`` decoded strictly ('\ufffd' where that fails)."""
     try:
-        raw.decode("utf-8")
+        return codecs.getincrementaldecoder(dialect.encoding)("strict").decode(data, final=False)[:chars]
     except UnicodeDecodeError as bad:
-        line = raw[: bad.start].count(b"\n") + 1
-        return InputError(path, "not UTF-8 text (bytes that no UTF-8 text has); save the file as UTF-8 CSV", line)
+        good = bad.object[: bad.start].decode(dialect.encoding, errors="replace")
+        return (good + "\ufffd")[:chars]
+
+
+def _bad_text_line(path: Path, dialect: encoding.Dialect) -> int | None:
+    """The line of the first byte that is not text in the file's encoding (streamed)."""
+    decoder = codecs.getincrementaldecoder(dialect.encoding)("strict")
+    lines = 1
+    with open(path, "rb") as fh:
+        fh.seek(dialect.bom)
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            try:
+                lines += decoder.decode(chunk).count("\n")
+            except UnicodeDecodeError as bad:
+                good = bad.object[: bad.start].decode(dialect.encoding, errors="replace")
+                return lines + good.count("\n")
+        try:
+            decoder.decode(b"", final=True)
+        except UnicodeDecodeError:
+            return lines
+    return None
+
+
+def _scan_file(path: Path, dialect: encoding.Dialect) -> digests.ByteScan:
+    """The raw checks of a whole file, streamed (for the error path)."""
+    scan = digests.ByteScan(dialect.single_byte_ascii)
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            scan.update(chunk)
+    return scan
+
+
+def _diagnose(spec: CsvSpec, exc: Exception) -> InputError:
+    """Find the line and column behind a pyarrow parse or conversion failure, reading the
+    file as a stream (memory does not grow with the file)."""
+    path, dialect, header = spec.path, spec.dialect, spec.header
+    if (problem := spec.scan_problem(_scan_file(path, dialect))) is not None:
+        return problem
     index = {name: k for k, name in enumerate(header)}
-    numeric = [(c.name, index[table.source_name(c.name)]) for c in cols if c.numeric and table.source_name(c.name) in index]
+    numeric = [(c, index[spec.table.source_name(c.name)]) for c in spec.cols
+               if c.numeric and spec.table.source_name(c.name) in index and c.name not in spec.fill]
+    number = (NUMBER_COMMA if dialect.decimal == "," else NUMBER).match
+    width = len(header)
     try:
-        for line, rec in _records(io.StringIO(raw.decode("utf-8"), newline="")):
-            if len(rec) != len(header):
-                return InputError(path, f"expected {len(header)} fields as in the header, found {len(rec)}", line)
-            for ours, pos in numeric:
-                value = rec[pos].strip()
-                if value and not NUMBER.match(value):
-                    return InputError(path, f"'{value[:40]}' is not a number", line, table.source_name(ours))
+        with dialect.open_text(path) as fh:
+            for line, rec in _records(fh, dialect):
+                if len(rec) != width:
+                    return InputError(path, f"expected {width} fields as in the header, found {len(rec)}", line)
+                for c, pos in numeric:
+                    raw = rec[pos]
+                    if not raw or number(raw.strip()):
+                        continue  # (blank, or a number: the common cases, first)
+                    value = raw.strip()
+                    where = dict(line=line, column=spec.table.source_name(c.name))
+                    if value.lower() in MISSING_MARKERS:
+                        return InputError(path, f"'{value[:40]}' marks a missing value: "
+                                                f"{missing_hint(c.name, c.required)}", **where)
+                    if not value:
+                        return InputError(path, "a cell of spaces only: leave it empty or give the value", **where)
+                    other = " (the decimal separator of this file is ',')" if dialect.decimal == "," else ""
+                    return InputError(path, f"'{value[:40]}' is not a number{other}", **where)
+    except UnicodeDecodeError:
+        return InputError(path, f"not {dialect.name} text (bytes that no {dialect.name} text has); "
+                                "save the file as UTF-8 CSV", _bad_text_line(path, dialect))
     except _Malformed as bad:
         return InputError(path, f"malformed CSV ({bad})", bad.line)
     return InputError(path, f"could not be read as CSV ({exc})")
@@ -204,7 +308,8 @@ def _diagnose(path: Path, header: list[str], table: TableMap, cols: tuple[Col, .
 
 @dataclass(frozen=True)
 class CsvSpec:
-    """What to read from one CSV file: its header, and the export's columns and types."""
+    """What to read from one CSV file: its header, the export's columns and types, how the
+    file is written, and the columns the settings fill."""
 
     path: Path
     cols: tuple[Col, ...]
@@ -212,27 +317,53 @@ class CsvSpec:
     header: list[str]
     present: frozenset
     types: dict
-    quoted: bool  # the file has quote characters
+    dialect: encoding.Dialect
+    fill: dict = field(default_factory=dict)  # our column -> value for its missing cells
 
     def read_options(self, block_size: int | None = None) -> pcsv.ReadOptions:
         """Our reading of the header (names trimmed) replaces pyarrow's."""
         kw = {} if block_size is None else {"block_size": block_size}
-        return pcsv.ReadOptions(column_names=self.header, skip_rows=1, use_threads=True, **kw)
+        enc = "utf8" if self.dialect.encoding == "utf-8" else self.dialect.encoding
+        return pcsv.ReadOptions(column_names=self.header, skip_rows=1, use_threads=True, encoding=enc, **kw)
+
+    def parse_options(self) -> pcsv.ParseOptions:
+        return pcsv.ParseOptions(delimiter=self.dialect.delimiter)
 
     def convert_options(self, only: list[str] | None = None) -> pcsv.ConvertOptions:
         types = self.types if only is None else {self.table.source_name(c): self.types[self.table.source_name(c)]
                                                  for c in only}
-        return pcsv.ConvertOptions(column_types=types, include_columns=list(types),
-                                   strings_can_be_null=False, quoted_strings_can_be_null=False)
+        return pcsv.ConvertOptions(column_types=types, include_columns=list(types), null_values=[""],
+                                   strings_can_be_null=False, quoted_strings_can_be_null=True,
+                                   decimal_point=self.dialect.decimal)
 
     def diagnose(self, exc: Exception) -> InputError:
-        return _diagnose(self.path, self.header, self.table, self.cols, exc)
+        return _diagnose(self, exc)
 
-    def broken_rows(self, raw: pa.Table) -> np.ndarray:
+    def scan_problem(self, scan: digests.ByteScan) -> InputError | None:
+        """What the raw scan of the whole file found: a NUL byte, a line too long to be a
+        record, a quote that never ends (None: nothing)."""
+        if scan.nul_at is not None:
+            return _nul_error(self, scan.nul_at)
+        if scan.long_at is not None:
+            return InputError(self.path, f"a line longer than {digests.LONG_LINE >> 20} MB: the file has no line "
+                                         "ends there (damaged, or not a CSV file)",
+                              digests.line_of(self.path, scan.long_at))
+        if scan.quotes % 2:
+            # an odd count may also be a quote inside a value (B"1), which is text: find out
+            with self.dialect.open_text(self.path, errors="replace") as fh:
+                try:
+                    for _ in _records(fh, self.dialect, strict=True):
+                        pass
+                except _Malformed as bad:
+                    return InputError(self.path, "a quoted value never ends (an unbalanced quote, or a cut file)",
+                                      bad.line)
+        return None
+
+    def broken_rows(self, raw: pa.Table, quoted: bool) -> np.ndarray:
         """Rows where a text value holds a line break: an open quote ran on over lines
         (only possible where the file has quotes at all)."""
         bad = np.zeros(raw.num_rows, bool)
-        if not self.quoted:
+        if not quoted:
             return bad
         for name in raw.column_names:
             col = raw.column(name)
@@ -241,17 +372,22 @@ class CsvSpec:
                     bad |= pac.match_substring(col.fill_null(""), brk).to_numpy(zero_copy_only=False)
         return bad
 
-    def to_ours(self, raw: pa.Table) -> pa.Table:
-        """Our column names and units; columns the file lacks are null."""
+    def to_ours(self, raw: pa.Table, probs: Problems, tally: Tally) -> pa.Table:
+        """Our column names and units; columns the file lacks are null; filled columns
+        filled (counted in ``tally``), ids normalised."""
         arrays, names = [], []
         for c in self.cols:
             src = self.table.source_name(c.name)
             if src in self.present:
                 arr = raw.column(src).combine_chunks() if raw.num_rows else pa.array([], type=self.types[src])
+                if c.name in self.fill:
+                    arr = _filled(arr, c.name, self.fill[c.name], self.dialect.decimal, probs, tally)
                 if c.numeric and c.name in self.table.factors:
                     arr = pac.multiply(arr, self.table.factors[c.name])
                 if not c.numeric:
-                    arr = pac.utf8_trim_whitespace(arr)
+                    arr, changed = normalise_text(pac.utf8_trim_whitespace(arr))
+                    if c.name in ("member", "case"):
+                        tally.normalised(c.name, changed)
             else:
                 arr = pa.nulls(raw.num_rows, type=pa.float64() if c.numeric else pa.string())
             arrays.append(arr)
@@ -259,61 +395,158 @@ class CsvSpec:
         return pa.table(arrays, names=names)
 
 
-def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> CsvSpec:
+@dataclass
+class Tally:
+    """What reading changed, for the run's notices: cells filled, ids normalised."""
+
+    filled: dict = field(default_factory=dict)  # our column -> cells filled
+    examples: dict = field(default_factory=dict)  # member/case -> [(as written, as read)]
+
+    def normalised(self, column: str, changed: list[tuple[str, str]]) -> None:
+        if changed:
+            seen = self.examples.setdefault(column, [])
+            seen.extend(pair for pair in changed if pair not in seen)
+
+    def notices(self, path: Path, fill: dict, table: TableMap) -> list[str]:
+        out = [f"{path}: {n:,} missing cell(s) of column '{table.source_name(col)}' filled with {fill[col]:g} "
+               f"([input] fill in the settings)" for col, n in self.filled.items() if n]
+        for col, pairs in self.examples.items():
+            shown = ", ".join(f"{a!r} read as {b!r}" for a, b in pairs[:5])
+            more = f" and {len(pairs) - 5} more" if len(pairs) > 5 else ""
+            out.append(f"{path}: {len(pairs)} {col} id(s) normalised (Unicode NFC, zero-width characters "
+                       f"removed): {shown}{more}")
+        return out
+
+
+def normalise_text(arr: pa.Array) -> tuple[pa.Array, list[tuple[str, str]]]:
+    """Text as Unicode NFC without zero-width characters; the distinct values changed."""
+    if not len(arr) or pac.all(pac.string_is_ascii(arr)).as_py() is not False:
+        return arr, []
+    enc = pac.dictionary_encode(arr)
+    values = enc.dictionary
+    fixed = pac.utf8_normalize(pac.replace_substring_regex(values, ZERO_WIDTH, ""), "NFC")
+    changed = [(a, b) for a, b in zip(values.to_pylist(), fixed.to_pylist()) if a != b]
+    if not changed:
+        return arr, []
+    return fixed.take(enc.indices), changed
+
+
+def _filled(arr: pa.Array, column: str, value: float, decimal: str, probs: Problems, tally: Tally) -> pa.Array:
+    """A numeric column read as text, its missing cells (blank or any missing spelling)
+    set to ``value``; a cell that is neither a number nor missing is a problem."""
+    text = pac.utf8_trim_whitespace(arr.cast(pa.string()))
+    missing = pac.or_(pac.equal(text, ""), pac.is_in(pac.utf8_lower(text), value_set=pa.array(sorted(MISSING_MARKERS))))
+    missing = pac.or_(missing, pac.equal(pac.utf8_lower(text), "nan"))
+    number = NUMBER_COMMA if decimal == "," else NUMBER
+    ok = pac.match_substring_regex(text, number.pattern, ignore_case=True)
+    bad = pac.and_(pac.invert(missing), pac.invert(ok)).to_numpy(zero_copy_only=False)
+    if bad.any():
+        values = text.to_pylist()
+        probs.add(bad, column, [f"'{values[r][:40]}' is not a number" for r in np.flatnonzero(bad)[:MAX_REPORTED]])
+    clean = pac.if_else(pac.or_(missing, pa.array(bad)), "0", text)
+    if decimal == ",":
+        clean = pac.replace_substring(clean, ",", ".")
+    numbers = pac.cast(clean, pa.float64())
+    tally.filled[column] = tally.filled.get(column, 0) + int(pac.sum(missing).as_py() or 0)
+    return pac.if_else(missing, pa.scalar(float(value)), numbers)
+
+
+def _nul_error(spec: CsvSpec, offset: int) -> InputError:
+    """A NUL byte: its line and, where the line is short enough to read, its column."""
+    line = digests.line_of(spec.path, offset)
+    column = None
+    with open(spec.path, "rb") as fh:
+        start = max(0, offset - (1 << 16))
+        fh.seek(start)
+        around = fh.read(offset - start + (1 << 16))
+    k = offset - start
+    first, last = around.rfind(b"\n", 0, k) + 1, around.find(b"\n", k)
+    if first > 0 or start == 0:
+        text = around[first: last if last >= 0 else len(around)].decode(spec.dialect.encoding, errors="replace")
+        try:
+            fields = next(csv.reader([text.rstrip("\r")], delimiter=spec.dialect.delimiter))
+        except (csv.Error, StopIteration):
+            fields = []
+        for name, value in zip(spec.header, fields):
+            if "\x00" in value:
+                column = name
+                break
+    return InputError(spec.path, "a NUL byte (\\x00): the file is damaged (zeros where text should be) "
+                                 "or not a text file", line, column)
+
+
+def stream_blocks(spec: CsvSpec, block: int, only: list[str] | None = None):
+    """(raw block, whether the bytes read so far hold a quote) for every block of a large
+    file, hashed as it is parsed (the digest recorded at its end); the raw checks of the
+    whole file (NUL bytes, overlong lines, a quote that never ends) follow the last block,
+    and a NUL byte stops the parser at once."""
+    d = spec.dialect
+    source = digests.HashingSource(spec.path, d.single_byte_ascii, d.bom)
+    try:
+        try:
+            reader = pcsv.open_csv(source, read_options=spec.read_options(block), parse_options=spec.parse_options(),
+                                   convert_options=spec.convert_options(only))
+            for batch in reader:
+                yield pa.Table.from_batches([batch]), source.scan.quotes > 0 or not d.single_byte_ascii
+            while source.read(1 << 20):  # the parser stops at the last record: hash to the end
+                pass
+        except digests.Damaged:
+            raise spec.scan_problem(source.scan) from None
+        except (pa.ArrowException, UnicodeError) as exc:
+            raise spec.diagnose(exc) from None
+    finally:
+        source.close()
+    if (problem := spec.scan_problem(source.scan)) is not None:
+        raise problem
+
+
+def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
+            fill: dict | None = None) -> CsvSpec:
     """Check the header: no column named twice, every required column present."""
     path = Path(path)
     table = cmap.table(name)
-    header = _header(path)
-    if len(set(header)) != len(header):
-        dup = next(h for h in header if header.count(h) > 1)
+    header, dialect = _header(path, table, cols)
+    named = [h for k, h in enumerate(header) if h != _unnamed(k)]
+    if len(set(named)) != len(named):
+        dup = next(h for h in named if named.count(h) > 1)
         raise InputError(path, "the header names this column twice", 1, dup)
-    present = set(header)
+    present = set(named)
     missing = [c for c in cols if c.required and table.source_name(c.name) not in present]
     if missing:
         raise InputErrors([InputError(path, "required column is missing", 1, table.source_name(c.name)) for c in missing])
+    fills = {c.name: float(fill[c.name]) for c in cols
+             if fill and c.name in fill and c.numeric and not c.required and table.source_name(c.name) in present}
     # every column is read, the export's others as text: a quote left open in any of them would
     # otherwise swallow the lines after it unseen
-    types = {h: pa.string() for h in header if h}
-    types.update({table.source_name(c.name): (pa.float64() if c.numeric else pa.string())
+    types = {h: pa.string() for h in header}
+    types.update({table.source_name(c.name): (pa.float64() if c.numeric and c.name not in fills else pa.string())
                   for c in cols if table.source_name(c.name) in present})
-    quotes = _check_quotes(path)
-    return CsvSpec(path, cols, table, header, frozenset(present), types, quotes > 0)
+    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills)
 
 
-def _check_quotes(path: Path) -> int:
-    """An odd number of quote characters means a quoted value never ends (a cut file, say).
-    Returns the number of quote characters."""
-    count = 0
-    with open(path, "rb") as fh:
-        for chunk in iter(lambda: fh.read(16 << 20), b""):
-            count += chunk.count(b'"')
-    if count % 2 == 0:
-        return count
-    # an odd count may also be a quote inside a value (B"1), which is text: find out
-    with open(path, encoding="utf-8-sig", errors="replace", newline="") as fh:
-        try:
-            for _ in _records(fh, strict=True):
-                pass
-        except _Malformed as bad:
-            raise InputError(path, "a quoted value never ends (an unbalanced quote, or a cut file)", bad.line) from None
-    return count
-
-
-def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap) -> tuple[pa.Table, Problems]:
-    """Read one (small) CSV whole into a pyarrow table with our column names and units."""
-    spec = prepare(path, name, cols, cmap)
+def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
+               fill: dict | None = None) -> tuple[pa.Table, Problems, list[str]]:
+    """Read one (small) CSV whole into a pyarrow table with our column names and units;
+    the problems found so far and the notices."""
+    spec = prepare(path, name, cols, cmap, fill)
+    data = digests.read_bytes(spec.path)
+    scan = digests.scan_bytes(data, spec.dialect.single_byte_ascii)
+    if (problem := spec.scan_problem(scan)) is not None:
+        raise problem
     try:
         # one block for the whole (small) file, so that no value, however long, straddles two blocks
-        block = max(1 << 20, spec.path.stat().st_size + 1)
-        raw = pcsv.read_csv(spec.path, read_options=spec.read_options(block), convert_options=spec.convert_options())
-    except (pa.ArrowInvalid, pa.ArrowException) as exc:
+        block = max(1 << 20, len(data) + 1)
+        raw = pcsv.read_csv(pa.BufferReader(memoryview(data)[spec.dialect.bom:]), read_options=spec.read_options(block),
+                            parse_options=spec.parse_options(), convert_options=spec.convert_options())
+    except (pa.ArrowException, UnicodeError) as exc:
         raise spec.diagnose(exc) from None
-    out = spec.to_ours(raw)
+    probs = Problems(spec)
+    tally = Tally()
+    out = spec.to_ours(raw, probs, tally)
     if out.num_rows == 0:
         raise InputError(spec.path, "has a header but no data rows", 1)
-    probs = Problems(spec.path, spec.table)
-    probs.add(spec.broken_rows(raw), None, BROKEN)
-    return out, probs
+    probs.add(spec.broken_rows(raw, scan.quotes > 0 or not spec.dialect.single_byte_ascii), None, BROKEN)
+    return out, probs, [*spec.dialect.notes, *tally.notices(spec.path, spec.fill, spec.table)]
 
 
 def _num(t: pa.Table, name: str) -> np.ndarray:
@@ -330,14 +563,63 @@ def _blank(t: pa.Table, name: str) -> np.ndarray:
     return pac.equal(col, "").to_numpy(zero_copy_only=False)
 
 
-def _check_required_numbers(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
-    for c in cols:
-        if not c.numeric:
+def _check_numbers(t: pa.Table, spec: CsvSpec, probs: Problems, cols: tuple[Col, ...] | None = None,
+                   blank_ok=BLANK_NOT_GIVEN) -> None:
+    """No blank, NaN or infinite number in a column the file has (a blank is allowed only
+    where it is documented as "not given": ``blank_ok``; filled columns have no missing
+    cells left). ``cols``: those of the file's columns that ``t`` holds (default: all)."""
+    for c in spec.cols if cols is None else cols:
+        if not c.numeric or spec.table.source_name(c.name) not in spec.present:
             continue
+        col = t.column(c.name)
         v = _num(t, c.name)
-        if c.required:
-            probs.add(np.isnan(v), c.name, "missing or NaN value")
+        blank = col.is_null().to_numpy(zero_copy_only=False)
+        hint = missing_hint(c.name, c.required)
+        probs.add(np.isnan(v) & ~blank, c.name, f"missing or NaN value (NaN): {hint}")
+        if c.name not in blank_ok:
+            probs.add(blank, c.name, f"missing or NaN value (a blank cell): {hint}")
         probs.add(np.isinf(v), c.name, "value is infinite")
+
+
+def _check_text(t: pa.Table, spec: CsvSpec, probs: Problems, cols: tuple[Col, ...] | None = None) -> None:
+    """Required text present; no missing-value spelling (#N/A, NA, null, ...) as an id or
+    label, no NUL. ``cols``: those of the file's columns that ``t`` holds (default: all)."""
+    for c in spec.cols if cols is None else cols:
+        if c.numeric or spec.table.source_name(c.name) not in spec.present:
+            continue
+        if c.required:
+            probs.add(_blank(t, c.name), c.name, "missing value")
+        rows, values = _marker_rows(t.column(c.name), c.name in FREE_TEXT)
+        probs.add(rows, c.name, [("holds a NUL byte (\\x00): the file is damaged" if "\x00" in v else
+                                  f"'{v}' marks a missing value, not an id or label: {missing_hint(c.name, True)}")
+                                 for v in values])
+
+
+def _marker_rows(col, markers: bool) -> tuple[np.ndarray, list[str]]:
+    """Rows holding a NUL character or (``markers``) a missing-value spelling, and those
+    values (distinct values checked once)."""
+    codes, values = _codes(col)
+    bad = np.array([v is not None and ("\x00" in v or (markers and v.lower() in MISSING_MARKERS))
+                    for v in values], bool)
+    if not bad.any():
+        return np.zeros(0, np.int64), []
+    rows = np.flatnonzero(bad[codes])
+    return rows, [values[codes[r]] for r in rows[:MAX_REPORTED]]
+
+
+def case_only_matches(members: set[str], forced: set[str]) -> list[str]:
+    """A warning listing the ids of the forces table that match a member id only when
+    upper and lower case are not told apart (they are not matched)."""
+    folded: dict[str, list[str]] = {}
+    for m in members:
+        folded.setdefault(m.casefold(), []).append(m)
+    pairs = [(f, sorted(folded[f.casefold()])[0]) for f in sorted(forced - members) if f.casefold() in folded]
+    if not pairs:
+        return []
+    shown = ", ".join(f"{f!r} ~ {m!r}" for f, m in pairs[:10])
+    more = f" and {len(pairs) - 10} more" if len(pairs) > 10 else ""
+    return [f"{len(pairs)} member id(s) of the forces table match a member only when upper and lower case are "
+            f"not told apart, and are not matched (forces ~ members): {shown}{more}"]
 
 
 # Magnitudes beyond which a value is taken as a unit mistake, not a structure (common practice).
@@ -361,13 +643,6 @@ def _check_plausible(t: pa.Table, probs: Problems, limits: dict) -> None:
                           f"{lo:g} is the least plausible value: check the units")
             probs.add(np.abs(v) > hi if lo is not None and lo < 0 else v > hi, name,
                       f"beyond {hi:g}, not plausible: check the units")
-
-
-def _check_required_strings(t: pa.Table, cols: tuple[Col, ...], probs: Problems) -> None:
-    for c in cols:
-        if c.required and not c.numeric:
-            probs.add(_blank(t, c.name), c.name, "missing value")
-
 
 
 def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, probs: Problems) -> None:
@@ -403,15 +678,17 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
     return out
 
 
-def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, str] | None = None
-                 ) -> tuple[pa.Table, list[str]]:
+def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, str] | None = None,
+                 fill: dict | None = None) -> tuple[pa.Table, list[str]]:
     """members.csv -> validated table (our columns, d_mm filled, defaults applied) and warnings.
 
     ``frame_by_group`` (settings [frames].by_group) gives the frame of members whose `frame`
-    cell is empty, by their group label; a value in the file wins."""
-    t, probs = read_table(path, "members", MEMBER_COLUMNS, cmap)
-    _check_required_numbers(t, MEMBER_COLUMNS, probs)
-    _check_required_strings(t, MEMBER_COLUMNS, probs)
+    cell is empty, by their group label; a value in the file wins. ``fill`` gives the value
+    of the missing cells of optional columns."""
+    t, probs, notices = read_table(path, "members", MEMBER_COLUMNS, cmap, fill)
+    spec = probs.spec
+    _check_numbers(t, spec, probs)
+    _check_text(t, spec, probs)
     member = _str(t, "member")
     _, first, counts = np.unique(member, return_index=True, return_counts=True)
     dup_rows = np.setdiff1d(np.arange(len(member)), first)
@@ -491,7 +768,7 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
         probs.add(partial & ~some[:, k], c, f"give all six end coordinates ({', '.join(COORDINATES)}) or none")
     probs.raise_if_any()
 
-    warnings = []
+    warnings = notices
     capped = fyt > aci.FYT_MAX_MPA
     for m, v in zip(member[capped], fyt[capped]):
         warnings.append(f"member {m}: fyt {v:g} MPa capped at {aci.FYT_MAX_MPA:g} MPa for shear (ACI 318-19 20.2.2.4)")
@@ -521,43 +798,46 @@ class ForcesReader:
     BLOCK = 64 << 20  # bytes of CSV per block
 
     def __init__(self, path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None,
-                 cases: pa.Table | None = None, cases_path: str | Path | None = None, tolerance_mm: float = 1.0):
-        self.spec = prepare(path, "forces", FORCE_COLUMNS, cmap)
+                 cases: pa.Table | None = None, cases_path: str | Path | None = None, tolerance_mm: float = 1.0,
+                 fill: dict | None = None):
+        self.spec = prepare(path, "forces", FORCE_COLUMNS, cmap, fill)
         self.tolerance_mm = tolerance_mm
         self.path = self.spec.path
         self.lengths_m = lengths_m
         self.cases, self.cases_path = cases, cases_path
         self.case_names: set[str] = set()
+        self.member_names: set[str] = set()
         self.rows = 0
+        self.tally = Tally()
 
     def size(self) -> int:
         return self.path.stat().st_size
 
+    def notices(self) -> list[str]:
+        """What reading changed (after ``batches``): cells filled, ids normalised. How the
+        file is written (a detected dialect) is in ``spec.dialect.notes``."""
+        return self.tally.notices(self.path, self.spec.fill, self.spec.table)
+
     def _stream(self, only: list[str] | None = None):
-        try:
-            reader = pcsv.open_csv(self.path, read_options=self.spec.read_options(self.BLOCK),
-                                   convert_options=self.spec.convert_options(only))
-            for batch in reader:
-                yield pa.Table.from_batches([batch])
-        except (pa.ArrowInvalid, pa.ArrowException) as exc:
-            raise self.spec.diagnose(exc) from None
+        return stream_blocks(self.spec, self.BLOCK, only)
 
     def member_ids(self) -> set[str]:
         """The member ids of the file (reads one column)."""
         out: set[str] = set()
-        for t in self._stream(["member"]):
-            out.update(pac.unique(pac.utf8_trim_whitespace(t.column(self.spec.table.source_name("member")))).to_pylist())
+        for t, _ in self._stream(["member"]):
+            col = normalise_text(pac.utf8_trim_whitespace(t.column(self.spec.table.source_name("member")).combine_chunks()))[0]
+            out.update(pac.unique(col).to_pylist())
         return out
 
     def batches(self):
-        self.rows, self.case_names = 0, set()
-        for raw in self._stream():
-            t = self.spec.to_ours(raw)
-            ids = np.arange(self.rows, self.rows + t.num_rows, dtype=np.int64)
-            probs = Problems(self.path, self.spec.table, ids)
-            probs.add(self.spec.broken_rows(raw), None, BROKEN)
-            _check_required_numbers(t, FORCE_COLUMNS, probs)
-            _check_required_strings(t, FORCE_COLUMNS, probs)
+        self.rows, self.case_names, self.member_names, self.tally = 0, set(), set(), Tally()
+        for raw, quoted in self._stream():
+            ids = np.arange(self.rows, self.rows + raw.num_rows, dtype=np.int64)
+            probs = Problems(self.spec, ids)
+            t = self.spec.to_ours(raw, probs, self.tally)
+            probs.add(self.spec.broken_rows(raw, quoted), None, BROKEN)
+            _check_numbers(t, self.spec, probs)
+            _check_text(t, self.spec, probs)
             x = _num(t, "x_m")
             probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
             _check_plausible(t, probs, PLAUSIBLE_FORCES)
@@ -567,10 +847,11 @@ class ForcesReader:
                 probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
                                           for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
             probs.raise_if_any()
-            for name in ("N_kN", "T_kNm", "M_kNm", "Vb_kN"):
+            for name in ("N_kN", "T_kNm", "M_kNm", "Vb_kN"):  # absent from the file: zero (present: checked above)
                 t = t.set_column(t.schema.get_field_index(name), name, pac.fill_null(t.column(name), 0.0))
             self.rows += t.num_rows
             self.case_names.update(pac.unique(t.column("case")).to_pylist())
+            self.member_names.update(pac.unique(t.column("member")).to_pylist())
             yield t.append_column("_row", pa.array(ids))
         if self.rows == 0:
             raise InputError(self.path, "has a header but no data rows", 1)
@@ -579,7 +860,7 @@ class ForcesReader:
 
     def check_part(self, t: pa.Table) -> None:
         """Checks of a member-complete part sorted by member, case, x_m and _row."""
-        probs = Problems(self.path, self.spec.table, t.column("_row").to_numpy())
+        probs = Problems(self.spec, t.column("_row").to_numpy())
         _check_station_rows(t, probs, presorted=True, tolerance_mm=self.tolerance_mm)
         probs.raise_if_any()
 
@@ -644,10 +925,13 @@ def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False, t
     probs.add(np.sort(order[triple]), "x_m", f"a third row at {where}; a jump takes exactly two rows")
 
 
-def read_cases(path: str | Path, cmap: ColumnMap) -> pa.Table:
-    """cases.csv -> validated table of basic load cases and their types."""
-    t, probs = read_table(path, "cases", CASE_COLUMNS, cmap)
-    _check_required_strings(t, CASE_COLUMNS, probs)
+def read_cases(path: str | Path, cmap: ColumnMap, notices: list[str] | None = None) -> pa.Table:
+    """cases.csv -> validated table of basic load cases and their types (how the file was
+    read is added to ``notices``)."""
+    t, probs, notes = read_table(path, "cases", CASE_COLUMNS, cmap)
+    if notices is not None:
+        notices.extend(notes)
+    _check_text(t, probs.spec, probs)
     types = _str(t, "type")
     _check_choice(types, CASE_TYPES, "type", probs)
     case = _str(t, "case")

@@ -30,12 +30,11 @@ from pathlib import Path
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pac
-import pyarrow.csv as pcsv
 
 from postproc.adapters.csv_tables import (BROKEN, MAX_REPORTED, PLAUSIBLE_FORCES, Col, ForcesReader, InputErrors,
-                                          Problems, _check_plausible, _check_required_numbers,
-                                          _check_required_strings, _codes, check_cases_cover_forces, prepare,
-                                          read_table, record_lines, sort_part)
+                                          Problems, Tally, _check_numbers, _check_plausible, _check_text, _codes,
+                                          check_cases_cover_forces, normalise_text, prepare, read_table,
+                                          record_lines, sort_part, stream_blocks)
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap, TableMap, unit_factor
 
@@ -230,14 +229,16 @@ def parse_spec(cmap: ColumnMap) -> ElementSpec | None:
 
 
 def forces_source(path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None, cases: pa.Table | None = None,
-                  cases_path=None, warnings: list[str] | None = None, tolerance_mm: float = 1.0):
+                  cases_path=None, warnings: list[str] | None = None, tolerance_mm: float = 1.0,
+                  fill: dict | None = None):
     """The forces reader for ``path``: the plain forces table (rows of a station within
     ``tolerance_mm`` are one station), or, where the mapping has an ``[elements]`` section,
-    the element export chained into members."""
+    the element export chained into members. ``fill``: the settings' values for the
+    missing cells of optional columns ([input] fill)."""
     spec = parse_spec(cmap)
     if spec is None:
-        return ForcesReader(path, cmap, lengths_m, cases, cases_path, tolerance_mm)
-    return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings)
+        return ForcesReader(path, cmap, lengths_m, cases, cases_path, tolerance_mm, fill)
+    return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings, fill)
 
 
 def extra_inputs(source) -> dict[str, Path]:
@@ -296,7 +297,8 @@ class ElementForcesReader:
     BLOCK = ForcesReader.BLOCK
 
     def __init__(self, path, cmap: ColumnMap, spec: ElementSpec, lengths_m: dict[str, float] | None = None,
-                 cases: pa.Table | None = None, cases_path=None, warnings: list[str] | None = None):
+                 cases: pa.Table | None = None, cases_path=None, warnings: list[str] | None = None,
+                 fill: dict | None = None):
         self.el = spec
         forces = cmap.table("forces")
         columns = {"element": spec.element, "_station": spec.station}
@@ -315,27 +317,27 @@ class ElementForcesReader:
             factors["_station"] = spec.station_factor
         self.cols = tuple(cols)
         self.table = TableMap(columns, factors)
-        self.spec = prepare(path, "forces", self.cols, ColumnMap({"forces": self.table}))
+        self.spec = prepare(path, "forces", self.cols, ColumnMap({"forces": self.table}), fill)
         self.path = self.spec.path
         self.lengths_m = lengths_m
         self.cases, self.cases_path = cases, cases_path
         self.warnings = warnings if warnings is not None else []
         self.case_names: set[str] = set()
+        self.member_names: set[str] = set()
         self.rows = 0
+        self.tally = Tally()
         self._layout: Layout | None = None
         self._node_break = None
 
     def size(self) -> int:
         return self.path.stat().st_size
 
+    def notices(self) -> list[str]:
+        """What reading changed (after ``batches``): cells filled, ids normalised."""
+        return self.tally.notices(self.path, self.spec.fill, self.spec.table)
+
     def _stream(self, only: list[str] | None = None):
-        try:
-            reader = pcsv.open_csv(self.path, read_options=self.spec.read_options(self.BLOCK),
-                                   convert_options=self.spec.convert_options(only))
-            for batch in reader:
-                yield pa.Table.from_batches([batch])
-        except (pa.ArrowInvalid, pa.ArrowException) as exc:
-            raise self.spec.diagnose(exc) from None
+        return stream_blocks(self.spec, self.BLOCK, only)  # hashed as parsed; NUL bytes, open quotes found
 
     def _some(self, raw: pa.Table, names: list[str]) -> pa.Table:
         """Our columns ``names`` of a block read with only those columns."""
@@ -344,13 +346,13 @@ class ElementForcesReader:
             arr = raw.column(self.table.source_name(c.name)).combine_chunks()
             if c.numeric:
                 out[c.name] = pac.multiply(arr, self.table.factors.get(c.name, 1.0))
-            else:
-                out[c.name] = pac.utf8_trim_whitespace(arr)
+            else:  # ids compared as in the second pass (to_ours): trimmed, NFC, no zero-width characters
+                out[c.name] = normalise_text(pac.utf8_trim_whitespace(arr))[0]
         return pa.table(out)
 
     def _fail(self, rows: np.ndarray, column: str | None, messages: list[str]) -> None:
         """Raise errors at data rows of the export (``column``: our name)."""
-        probs = Problems(self.path, self.table)
+        probs = Problems(self.spec)
         probs.add(np.asarray(rows, np.int64)[:len(messages)], column, messages)
         probs.raise_if_any()
 
@@ -367,13 +369,13 @@ class ElementForcesReader:
         aggs += [(n, f) for n in ("member", "node_i", "node_j") if n in names for f in ("min", "max")]
         sub = tuple(c for c in self.cols if c.name in names)
         per_element, per_node, rows = [], [], 0
-        for raw in self._stream(names):
+        for raw, quoted in self._stream(names):
             t = self._some(raw, names)
             ids = np.arange(rows, rows + t.num_rows, dtype=np.int64)
-            probs = Problems(self.path, self.table, ids)
-            probs.add(self.spec.broken_rows(raw), None, BROKEN)
-            _check_required_numbers(t, sub, probs)
-            _check_required_strings(t, sub, probs)
+            probs = Problems(self.spec, ids)
+            probs.add(self.spec.broken_rows(raw, quoted), None, BROKEN)
+            _check_numbers(t, self.spec, probs, sub)
+            _check_text(t, self.spec, probs, sub)
             probs.raise_if_any()
             t = t.append_column("_row", pa.array(ids))
             rows += t.num_rows
@@ -569,9 +571,9 @@ class ElementForcesReader:
     def _from_chain(self, elem: pa.Array, first_row: np.ndarray):
         """Members, order, stated reversal (1, 0, -1 not stated) and lengths from the chaining table."""
         path = self.el.chain
-        t, probs = read_table(path, "chain", CHAIN_COLUMNS, ColumnMap())
-        _check_required_strings(t, CHAIN_COLUMNS, probs)
-        _check_required_numbers(t, CHAIN_COLUMNS, probs)
+        t, probs, _ = read_table(path, "chain", CHAIN_COLUMNS, ColumnMap())
+        _check_text(t, probs.spec, probs)
+        _check_numbers(t, probs.spec, probs, blank_ok={"length_m"})  # (given for every element or none: below)
         probs.raise_if_any()
         c_el = t.column("element").combine_chunks()
         c_member = t.column("member").combine_chunks()
@@ -617,9 +619,9 @@ class ElementForcesReader:
         """Coordinates (m) of each element's end i and end j: two (n, 3) arrays. Keeps the
         node table's member_end marks for the collinear rule."""
         cmap = ColumnMap({"nodes": TableMap(self.el.nodes_columns, {})})
-        t, probs = read_table(self.el.nodes, "nodes", NODE_COLUMNS, cmap)
-        _check_required_strings(t, NODE_COLUMNS, probs)
-        _check_required_numbers(t, NODE_COLUMNS, probs)
+        t, probs, _ = read_table(self.el.nodes, "nodes", NODE_COLUMNS, cmap)
+        _check_text(t, probs.spec, probs)
+        _check_numbers(t, probs.spec, probs)
         node = t.column("node").combine_chunks()
         codes, _ = _codes(node)
         _, first = np.unique(codes, return_index=True)
@@ -771,13 +773,13 @@ class ElementForcesReader:
         lay = self.layout()
         el = self.el
         self.rows, self.case_names = 0, set()
-        for raw in self._stream():
-            t = self.spec.to_ours(raw)
-            ids = np.arange(self.rows, self.rows + t.num_rows, dtype=np.int64)
-            probs = Problems(self.path, self.table, ids)
-            probs.add(self.spec.broken_rows(raw), None, BROKEN)
-            _check_required_numbers(t, self.cols, probs)
-            _check_required_strings(t, self.cols, probs)
+        for raw, quoted in self._stream():
+            ids = np.arange(self.rows, self.rows + raw.num_rows, dtype=np.int64)
+            probs = Problems(self.spec, ids)
+            t = self.spec.to_ours(raw, probs, self.tally)
+            probs.add(self.spec.broken_rows(raw, quoted), None, BROKEN)
+            _check_numbers(t, self.spec, probs)
+            _check_text(t, self.spec, probs)
             _check_plausible(t, probs, {q: PLAUSIBLE_FORCES[q] for q in QUANTITIES})
             probs.raise_if_any()
             k = lay.index_of(t.column("element"))  # every element is in the layout (pass 1)
@@ -812,10 +814,13 @@ class ElementForcesReader:
                 if el.reversed_flip and q in el.reversed_flip:
                     f = np.where(rev, -f, f)
                 v = t.column(q).to_numpy(zero_copy_only=False).astype(float) * f
-                out[q] = pa.array((v if q == "V_kN" else np.nan_to_num(v, nan=0.0)) + 0.0)  # absent N, T, M: zero
+                # absent N, T, M: zero (a column the export has holds no missing cell: checked above)
+                out[q] = pa.array((v if q == "V_kN" else np.nan_to_num(v, nan=0.0)) + 0.0)
+            out["Vb_kN"] = pa.array(np.zeros(t.num_rows))  # an element export gives no shear along b (as absent)
             out["_row"] = pa.array(((lay.position[k] * 4 + where) << FILE_BITS) | ids)
             self.rows += t.num_rows
             self.case_names.update(pac.unique(t.column("case")).to_pylist())
+            self.member_names.update(pac.unique(out["member"]).to_pylist())
             yield pa.table(out)
         if self.cases is not None:
             check_cases_cover_forces(self.cases, self.case_names, self.cases_path)
@@ -831,7 +836,7 @@ class ElementForcesReader:
         m, m_names = _codes(t.column("member"))
         c, c_names = _codes(t.column("case"))
         x = t.column("x_m").to_numpy()
-        probs = Problems(self.path, self.table, rows)
+        probs = Problems(self.spec, rows)
         mi = lay.member_index(m_names)
         first, count = lay.first[mi], lay.count[mi]
 

@@ -28,9 +28,13 @@ class InputError(Exception):
 
 def read_toml(path, what: str) -> dict:
     """A TOML file as a dict; a missing or malformed file is an InputError naming it."""
+    from postproc.adapters import digests  # (digests raises InputError: imported here, not at the top)
+
     path = Path(path)
     try:
-        return tomllib.loads(path.read_text(encoding="utf-8"))
+        return tomllib.loads(digests.read_bytes(path).decode("utf-8-sig"))  # a BOM (Windows editors) is fine
+    except IsADirectoryError:
+        raise InputError(path, f"is a folder, not a {what} file") from None
     except FileNotFoundError:
         raise InputError(path, f"{what} file not found") from None
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:

@@ -57,8 +57,11 @@ Supports (each beam end, within the settings' tolerance)
 
 from __future__ import annotations
 
+import contextlib
+import json
 import math
 import re
+import unicodedata
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -74,7 +77,8 @@ from shapely import affinity
 from shapely.geometry import LineString, Point, Polygon
 from shapely.strtree import STRtree
 
-from postproc.adapters.csv_tables import BEAM_END_BARS, MEMBER_COLUMNS, frame_bar_problems
+from postproc.adapters import digests
+from postproc.adapters.csv_tables import BEAM_END_BARS, MEMBER_COLUMNS, InputErrors, ZERO_WIDTH, frame_bar_problems
 from postproc.settings import FRAMES
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import unit_factor
@@ -791,15 +795,18 @@ def _supports(parts: list[_Part], tol: float, warnings: list[str], ids: dict[int
 
 
 def _open(path: Path) -> ifcopenshell.file:
+    """The model, parsed from the bytes that are hashed for the run's manifest. A UTF-8
+    byte-order mark and CRLF line ends are read as in any other file; a statement the
+    parser cannot read and a reference to an instance the file does not hold (a line cut
+    or lost) refuse the file, naming the line."""
     if not path.exists():
         raise InputError(path, "file not found")
     if path.is_dir():
         raise InputError(path, "is a folder, not an IFC file")
-    size = path.stat().st_size
-    with path.open("rb") as fh:
-        head = fh.read(64).lstrip(b"\xef\xbb\xbf").lstrip()
-        fh.seek(max(0, size - 512))
-        tail = fh.read().rstrip()
+    data = digests.read_bytes(path)
+    if data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    head, tail = data[:64].lstrip(), data[-512:].rstrip()
     if not head.startswith(b"ISO-10303-21;"):
         what = next((why for magic, why in NOT_STEP.items() if head.startswith(magic)),
                     "not an IFC file (an IFC STEP file starts with 'ISO-10303-21;')")
@@ -807,12 +814,87 @@ def _open(path: Path) -> ifcopenshell.file:
     if not tail.endswith(b"END-ISO-10303-21;"):
         raise InputError(path, "the IFC file is truncated (it does not end with 'END-ISO-10303-21;')")
     try:
-        model = ifcopenshell.open(str(path))
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        text = data.decode("latin-1")  # STEP text is 8-bit; non-ASCII should be escaped, but may not be
+    del data
+    _check_statements(path, text)
+    wrapper = ifcopenshell.ifcopenshell_wrapper
+    wrapper.set_log_format_json()
+    wrapper.get_log()  # (earlier messages)
+    try:
+        model = ifcopenshell.file.from_string(text)
     except (ifcopenshell.Error, OSError, RuntimeError) as exc:
         raise InputError(path, f"could not be read as IFC ({exc})") from None
+    finally:
+        log = wrapper.get_log()
+        wrapper.set_log_format_text()
+    errors = []
+    for line in log.splitlines():
+        with contextlib.suppress(ValueError):
+            entry = json.loads(line)
+            if entry.get("level") == "error":
+                errors.append(entry.get("message", ""))
+    if errors:
+        raise _parse_errors(path, text, errors)
     if model.schema not in SCHEMAS:
         raise InputError(path, f"schema {model.schema} is not supported; shearpost reads {' and '.join(SCHEMAS)}")
     return model
+
+
+STATEMENT = re.compile(r"\s*#(\d+)\s*=\s*[A-Za-z][A-Za-z0-9_]*\s*\((?:(?!#\d+\s*=).)*\)\s*", re.S)
+STEP_TOKEN = re.compile(r"'(?:[^'\r\n]|'')*'|/\*.*?\*/|;", re.S)  # (a string holds no line break)
+
+
+def _check_statements(path: Path, text: str) -> None:
+    """Every statement of the DATA section is one whole instance, ``#id = NAME(...);``, and
+    no id is given twice: a line cut short, lost or joined to the next is found here even
+    where the parser would pass over it (it skips text it cannot read, takes a missing ';',
+    and lets a second #id silently replace the first)."""
+    start = text.find("\nDATA;")
+    end = text.find("\nENDSEC;", start)
+    if start < 0 or end < 0:
+        raise InputError(path, "could not be read as IFC: no DATA section")
+    ids: set[str] = set()
+    line = text.count("\n", 0, start + 1) + 1  # the line of DATA;
+    pos, piece = start + len("\nDATA;"), []
+    for token in STEP_TOKEN.finditer(text, pos, end + 1):
+        if token.group() != ";":
+            piece.append(text[pos:token.start()] + "''")  # a string or comment: its text does not matter
+            pos = token.end()
+            continue
+        statement = "".join(piece) + text[pos:token.start()]
+        first = line + statement[: len(statement) - len(statement.lstrip())].count("\n")
+        m = STATEMENT.fullmatch(statement)
+        if m is None:
+            raise InputError(path, "could not be read as IFC: not one whole instance (#id = NAME(...);): "
+                                   f"{statement.strip()[:60]!r}; a line cut, lost or joined to the next?", first)
+        if m.group(1) in ids:
+            raise InputError(path, f"could not be read as IFC: instance #{m.group(1)} is given twice", first)
+        ids.add(m.group(1))
+        line += statement.count("\n")
+        pos, piece = token.end(), []
+    rest = "".join(piece) + text[pos:end]
+    if rest.strip():
+        raise InputError(path, "could not be read as IFC: the DATA section ends inside an instance",
+                         line + rest[: len(rest) - len(rest.lstrip())].count("\n"))
+
+
+def _parse_errors(path: Path, text: str, messages: list[str]) -> InputError:
+    """The parser's errors, each on its line (the parser gives byte offsets)."""
+    encoded = text.encode("utf-8")
+    found = []
+    for message in messages:
+        m = re.search(r"\s*at offset (\d+)$", message)
+        line = encoded[: int(m.group(1))].count(b"\n") + 1 if m else None
+        what = message[: m.start()] if m else message
+        what = re.sub(r"^Instance reference (#\d+) used by instance (#\d+)(?: at attribute index (\d+))? not found",
+                      lambda r: f"instance {r[2]} refers to {r[1]}, which the file does not hold (a line lost or cut?)",
+                      what)
+        found.append(InputError(path, f"could not be read as IFC: {what}", line))
+    found.sort(key=lambda e: e.line or 0)
+    shown = found[:20]
+    return InputErrors(shown, len(found) - len(shown))
 
 
 def _elements(model: ifcopenshell.file, warnings: list[str]) -> list[tuple[object, str]]:
@@ -833,7 +915,8 @@ def _elements(model: ifcopenshell.file, warnings: list[str]) -> list[tuple[objec
 
 def _member_ids(path: Path, parts: list[_Part], key: str) -> dict[int, str]:
     attr = KEYS[key]
-    ids = {p.entity.id(): (getattr(p.entity, attr, None) or "").strip() for p in parts}
+    ids = {p.entity.id(): unicodedata.normalize("NFC", re.sub(ZERO_WIDTH, "", (getattr(p.entity, attr, None) or "")))
+           .strip() for p in parts}  # compared as the CSV readers compare ids
     missing = [p.entity.GlobalId for p in parts if not ids[p.entity.id()]]
     if missing:
         raise InputError(path, f"{len(missing)} member(s) have no {attr} to use as the member id "
@@ -952,6 +1035,10 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
     row.update(m.frame_values(entity))
     if row["invalid_reason"] is None:
         row["invalid_reason"] = _value_problem(row) or _frame_problem(row, p.role)
+    if row["invalid_reason"] is None and p.role == "beam" and (si, sj) == ("free", "free"):
+        # as members.csv refuses both ends free: a member that rests on nothing is not designed
+        row["invalid_reason"] = (f"no support found at either end within {defaults.tolerance_mm:g} mm "
+                                 "([ifc] tolerance_mm): a member needs at least one support; check the model")
     if p.role == "beam" and row["invalid_reason"] is None:
         warnings.extend(f"member {member}: {what}" for what in defaulted)
     return row

@@ -16,6 +16,13 @@ Units are read by pint, in the spellings engineers write: ``kN*m``, ``kN.m``, ``
 ``kNm``, ``kip-ft``, ``N/mm2``, ``N/mm^2``, ``mm2``, ``psi``, ``ksi``, ``lbf*in``, ...; a
 unit of another quantity (a force for a length) is refused.
 
+How the file is written may be given too, where detection (postproc.adapters.encoding)
+should not guess:
+
+    encoding  = "cp1252"                      # utf-8, utf-16-le, utf-16-be, cp1252, latin-1
+    delimiter = ";"                           # ",", ";" or "\t"
+    decimal   = ","                           # "." or ","
+
 An ``[elements]`` section says that the forces file is an element-force export to be
 chained into members; it is passed on as it is and read by postproc.adapters.elements.
 """
@@ -27,7 +34,10 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from postproc.adapters.encoding import check_choice
 from postproc.adapters.errors import InputError, read_toml
+
+DIALECT_KEYS = ("encoding", "delimiter", "decimal")  # how the file is written (else detected)
 
 # Our column suffix -> the unit our column carries, and the quantity in words.
 _SUFFIX = {
@@ -77,6 +87,9 @@ class TableMap:
 
     columns: dict[str, str] = field(default_factory=dict)  # ours -> theirs
     factors: dict[str, float] = field(default_factory=dict)  # ours -> multiplier (units and sign)
+    encoding: str | None = None  # None: detected from the file
+    delimiter: str | None = None
+    decimal: str | None = None
 
     def source_name(self, ours: str) -> str:
         return self.columns.get(ours, ours)
@@ -109,9 +122,11 @@ def load_column_map(path: str | Path | None, known: dict[str, tuple[str, ...]]) 
             raise InputError(path, f"unknown table [{name}]; expected one of {', '.join([*known, 'elements'])}")
         if not isinstance(spec, dict):
             raise InputError(path, f"[{name}] must be a table")
-        unknown_keys = set(spec) - {"columns", "units", "flip"}
+        unknown_keys = set(spec) - {"columns", "units", "flip", *DIALECT_KEYS}
         if unknown_keys:
-            raise InputError(path, f"[{name}] has unknown keys {sorted(unknown_keys)}; use columns, units, flip")
+            raise InputError(path, f"[{name}] has unknown keys {sorted(unknown_keys)}; "
+                                   f"use columns, units, flip, {', '.join(DIALECT_KEYS)}")
+        dialect = {key: check_choice(path, name, key, spec[key]) for key in DIALECT_KEYS if key in spec}
         columns = dict(spec.get("columns", {}))
         units = dict(spec.get("units", {}))
         flip = list(spec.get("flip", []))
@@ -129,5 +144,5 @@ def load_column_map(path: str | Path | None, known: dict[str, tuple[str, ...]]) 
         theirs = list(columns.values())
         if len(set(theirs)) != len(theirs):
             raise InputError(path, f"[{name}].columns maps two of our columns to one export column")
-        tables[name] = TableMap(columns=columns, factors=factors)
+        tables[name] = TableMap(columns=columns, factors=factors, **dialect)
     return ColumnMap(tables, elements, path)

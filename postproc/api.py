@@ -19,12 +19,12 @@ from pathlib import Path
 import pandas as pd
 
 from postproc import engine, engines
-from postproc.adapters import csv_tables, elements, ifc
+from postproc.adapters import csv_tables, digests, elements, ifc
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import load_column_map
 from postproc.joints import COLUMNS as JOINT_COLUMNS
 from postproc.settings import Settings, load_settings, settings_from_dict, validated_settings
-from postproc.store import Run, Store, StoreError
+from postproc.store import DamagedRun, Run, Store, StoreError
 
 NOT_DESIGNED = ("no-forces", "no-geometry", "invalid", "not-covered")
 
@@ -69,7 +69,7 @@ class Design:
         exactly as `shearpost run` writes them."""
         from postproc import report
 
-        return report.write_tables(self.members, self.zones, Path(out_dir), self.joints)
+        return report.write_tables(self.members, self.zones, Path(out_dir), joints=self.joints)
 
     def report(self, path: str | Path, members: list[str] | None = None) -> Path:
         """The HTML report of this run (detail sections for ``members`` only, if given)."""
@@ -101,7 +101,7 @@ def design(members, forces, cases=None, config=None, *, column_map=None, store=N
             settings, config_path = validated_settings(config, Path("config (a dict)")), None
         else:
             settings, config_path = load_settings(config), config
-        stored, result = ingest_and_design(store, run or store.new_name(), paths["members"], paths["forces"],
+        stored, result = ingest_and_design(store, run, paths["members"], paths["forces"],
                                            paths["cases"], column_map, settings, config_path,
                                            engines.local(workers), ifc_key)
     out = Design(stored, result.members[engine.MEMBER_COLUMNS], result.zones[engine.ZONE_COLUMNS],
@@ -124,25 +124,37 @@ def _as_file(value, folder: Path, role: str) -> Path | None:
     raise TypeError(f"{role}: expected a pandas DataFrame or a path, got {type(value).__name__}")
 
 
-def ingest_and_design(store: Store, name: str, members_path: Path, forces_path: Path, cases_path: Path | None,
+def ingest_and_design(store: Store, name: str | None, members_path: Path, forces_path: Path, cases_path: Path | None,
                       map_path: Path | None, settings: Settings, config_path: Path | None, map_parts,
                       ifc_key: str = "auto", task=None) -> tuple[Run, engine.Result]:
-    """Read and validate the inputs, ingest them as run ``name`` and design it before the run
-    becomes visible. ``task(description, total)`` returns a progress callback (optional)."""
+    """Read and validate the inputs, ingest them as run ``name`` (None: the next free name of
+    the day) and design it before the run becomes visible. The name is claimed before any
+    work (two processes never write one run); every input is hashed over the bytes parsed.
+    ``task(description, total)`` returns a progress callback (optional)."""
     task = task or (lambda description, total=None: None)
-    store.check_new_name(name)
+    with digests.session(), store.reserve(name) as name:
+        return _ingest_and_design(store, name, members_path, forces_path, cases_path, map_path, settings,
+                                  config_path, map_parts, ifc_key, task)
+
+
+def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_path, settings, config_path,
+                       map_parts, ifc_key, task):
     cmap = load_column_map(map_path, csv_tables.KNOWN_COLUMNS)
-    cases = csv_tables.read_cases(cases_path, cmap) if cases_path else None
+    fill = settings.input.fill
+    warnings: list[str] = []
+    cases = csv_tables.read_cases(cases_path, cmap, warnings) if cases_path else None
     from_ifc = Path(members_path).suffix.lower() == ".ifc"
     if from_ifc:
-        probe = elements.forces_source(forces_path, cmap)
-        members, warnings = read_ifc(members_path, ifc_key, settings.ifc, probe.member_ids())
+        probe = elements.forces_source(forces_path, cmap, fill=fill)
+        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc, probe.member_ids())
         lengths = None
     else:
-        members, warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group)
+        members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill)
         lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
+    warnings.extend(member_warnings)
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
-                                    settings.stations.tolerance_mm)
+                                    settings.stations.tolerance_mm, fill)
+    warnings.extend(source.spec.dialect.notes)
     inputs = {"members": members_path, "forces": forces_path, **elements.extra_inputs(source)}
     for role, path in (("cases", cases_path), ("column_map", map_path), ("settings", config_path)):
         if path:
@@ -153,6 +165,9 @@ def ingest_and_design(store: Store, name: str, members_path: Path, forces_path: 
         """Design the staged run into its design/ folder before the run becomes visible."""
         from postproc import report
 
+        warnings.extend(source.notices())  # cells filled, ids normalised (known once every row is read)
+        warnings.extend(csv_tables.case_only_matches(set(members.column("member").to_pylist()),
+                                                     source.member_names))
         if from_ifc:
             found = {m: L for m, L in zip(members.column("member").to_pylist(),
                                           members.column("length_m").to_pylist()) if L is not None}
@@ -238,10 +253,14 @@ class OpenStore:
         """One row per run: name, created (UTC), members, force rows, designed."""
         rows = []
         for r in self.store.runs():
-            man = r.manifest()
+            try:
+                man = r.manifest()
+            except DamagedRun as exc:  # listed, with what is damaged
+                rows.append({"run": r.name, "damaged": f"{exc.file}: {exc.reason}"})
+                continue
             rows.append({"run": r.name, "created": man["created"], "members": man["counts"]["members"],
-                         "force_rows": man["counts"]["force_rows"], "designed": r.has_design()})
-        return pd.DataFrame(rows, columns=["run", "created", "members", "force_rows", "designed"])
+                         "force_rows": man["counts"]["force_rows"], "designed": r.has_design(), "damaged": None})
+        return pd.DataFrame(rows, columns=["run", "created", "members", "force_rows", "designed", "damaged"])
 
     def _run(self, name: str | None) -> Run:
         return self.store.run(name) if name else self.store.latest()
@@ -255,7 +274,7 @@ class OpenStore:
             else pd.DataFrame(columns=JOINT_COLUMNS)
         return Design(r, design_table(r, "members")[engine.MEMBER_COLUMNS],
                       design_table(r, "zones").reindex(columns=engine.ZONE_COLUMNS),
-                      list(json_of(r.design_path / "manifest.json").get("warnings", [])), joints=joints)
+                      list(r.design_manifest().get("warnings", [])), joints=joints)
 
     def governing(self, run: str | None = None, levels=(), groups=(), statuses=(), top: int | None = None):
         """Members ranked as `shearpost govern` ranks them: those needing action first."""
@@ -283,12 +302,6 @@ class OpenStore:
 
         r = self._run(run)
         return explain.explain(r, member, settings_from_dict(r.manifest().get("settings", {})))
-
-
-def json_of(path: Path) -> dict:
-    import json
-
-    return json.loads(path.read_text(encoding="utf-8"))
 
 
 def open_store(path: str | Path = "shearpost-store") -> OpenStore:

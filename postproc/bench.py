@@ -163,7 +163,7 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
     frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
     pool = members.index[frame.isin(("", "none"))].to_numpy()  # reference.covers: not frame beams
     names = sorted(rng.choice(pool, size=min(sample, len(pool)), replace=False))
-    forces = pq.read_table(run_.path / "forces", filters=[("member", "in", names)]).to_pandas()
+    forces = run_.forces(filters=[("member", "in", names)]).to_pandas()
     cset = result.combos
     out = result.members.set_index("member")
     zones = result.zones

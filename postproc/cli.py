@@ -3,6 +3,10 @@
 
 Only argparse and the standard library load before a command runs, so that `--help` and
 `--version` answer at once; each command imports the stages it needs.
+
+A fault of the environment (a full or read-only disk, memory, a dead worker, Ctrl-C, a
+closed pipe, a damaged store, a busy run) gives one line on stderr and its own exit code
+(EXIT_CODES; postproc.faults), never a traceback.
 """
 
 from __future__ import annotations
@@ -23,11 +27,28 @@ EXIT_CODES: dict[int, str] = {
     0: "success",
     1: "bad input (the message names file, line and column; nothing is written), or a run in "
        "which no member could be designed (the message says why)",
-    2: "usage error: a bad option or value, an unknown run or member, an existing run name",
+    2: "usage error: a bad option or value, an unknown run or member, a run name that exists or is being "
+       "written, --out that is a file, inside the store or on an input",
     3: "some members (or joints of special moment frames) need resizing (run, demo; compare with "
        "--fail-on-new-resize)",
+    4: "a stored run is damaged (its name and the damaged file are given); other runs keep working",
+    5: "busy: another shearpost process is writing into the same run or output folder",
+    6: "the store or output folder cannot be written (read-only, permissions)",
+    7: "the disk is full",
+    8: "out of memory, in this process or in a worker",
+    9: "a worker process died (killed, e.g. by the system when memory ran out)",
+    10: "another error reading or writing a file",
+    11: "the design's own self-check failed: a defect of shearpost; nothing was stored",
+    130: "interrupted (Ctrl-C)",
+    141: "the output was closed early (e.g. piped into head): the command finishes its work, the rest of "
+         "its output is dropped",
 }
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
+EXIT_DAMAGED, EXIT_BUSY, EXIT_READ_ONLY, EXIT_DISK_FULL, EXIT_MEMORY, EXIT_WORKER, EXIT_IO, EXIT_INTERNAL = range(4, 12)
+EXIT_INTERRUPTED, EXIT_BROKEN_PIPE = 130, 141  # 128 + SIGINT, 128 + SIGPIPE, as shells report them
+FAULT_EXIT = {"damaged": EXIT_DAMAGED, "busy": EXIT_BUSY, "read-only": EXIT_READ_ONLY, "disk-full": EXIT_DISK_FULL,
+              "memory": EXIT_MEMORY, "worker": EXIT_WORKER, "io": EXIT_IO, "internal": EXIT_INTERNAL,
+              "interrupted": EXIT_INTERRUPTED, "broken-pipe": EXIT_BROKEN_PIPE}  # postproc.faults kinds
 STORE_ENV = "SHEARPOST_STORE"  # the store folder, unless --store names one
 DEFAULT_STORE = "shearpost-store"
 GLOBAL_OPTIONS = ("store", "json", "config")
@@ -90,8 +111,8 @@ def _example(command: str) -> str:
 
 
 def _exit_code_text() -> str:
-    return "exit codes:\n" + "\n".join(textwrap.fill(text, width=79, initial_indent=f"  {code}  ",
-                                                      subsequent_indent="     ")
+    return "exit codes:\n" + "\n".join(textwrap.fill(text, width=79, initial_indent=f"  {code:>3}  ",
+                                                      subsequent_indent="       ")
                                        for code, text in sorted(EXIT_CODES.items()))
 
 
@@ -146,6 +167,18 @@ COMMANDS = {
                "member index, overview by level, and per member the shear diagram above the stirrup elevation.",
                ["shearpost report --out report.html", "shearpost report --run base --member L2-SB-23 --out one.html"],
                {"store"}),
+    "export": ("write members.csv, zones.csv and report.html of a stored run again",
+               "Write the tables and the report of a stored run into a folder, exactly as `run` writes them (all "
+               "together, never onto an input): for a run whose outputs were lost, or were never written because "
+               "the disk was full.",
+               ["shearpost export --out results/", "shearpost export --run rev-b --out rev-b/ --no-report"],
+               {"store"}),
+    "verify": ("check every file of every run against its manifest",
+               "Check every file of every run of the store (or of --run) against the run's manifest, which lists "
+               "each file with its size and sha256: damaged, missing and stray files are named by run. Exit 4 "
+               "when a run is damaged; the other runs keep working.",
+               ["shearpost verify", "shearpost verify --run rev-b --json"],
+               {"store", "json"}),
     "bench": ("design a synthetic frame and time it against bare reads",
               "Generate a deterministic synthetic frame, time the ingest and the design against bare reads of the "
               "same data, check a sample against a per-member reference, and report the peak memory.",
@@ -222,8 +255,11 @@ def _parser() -> argparse.ArgumentParser:
     for name in ("run", "demo"):
         _engine_options(q[name])
 
-    for name in ("govern", "schedule", "explain", "report"):
+    for name in ("govern", "schedule", "explain", "report", "export"):
         q[name].add_argument("--run", dest="run_name", metavar="NAME", help="run to use (default: the latest)")
+    q["verify"].add_argument("--run", dest="run_name", metavar="NAME", help="this run only (default: every run)")
+    q["export"].add_argument("--out", type=Path, required=True, help="folder for members.csv, zones.csv and report.html")
+    q["export"].add_argument("--no-report", action="store_true", help="do not write report.html")
 
     g = q["govern"]
     g.add_argument("--level", action="append", default=[], help="only this level (repeatable)")
@@ -302,10 +338,11 @@ def parse(argv: list[str] | None) -> argparse.Namespace:
 class _QuietWhenClosed:
     """stdout that goes quiet when its reader stops early (`shearpost govern --format csv | head`):
     the rest of the output goes to the null device, as the Python documentation advises
-    for SIGPIPE, and the command still ends with its own exit code."""
+    for SIGPIPE; the command finishes its work, then says so in one line (exit 141)."""
 
     def __init__(self, stream):
         self._stream = stream
+        self.closed_early = False
 
     def write(self, text: str) -> int:
         try:
@@ -321,6 +358,7 @@ class _QuietWhenClosed:
             self._silence()
 
     def _silence(self) -> None:
+        self.closed_early = True
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, self._stream.fileno())
         os.close(devnull)
@@ -336,14 +374,38 @@ def _error(text: str) -> None:
 
 def main(argv: list[str] | None = None) -> int:
     args = parse(argv)
+    args.state = {}  # how far `run` got, to say it in the message of a fault
     stdout = sys.stdout
-    sys.stdout = _QuietWhenClosed(stdout)
+    sys.stdout = quiet = _QuietWhenClosed(stdout)
     try:
         code = COMMAND_FUNCTIONS[args.command](args)
         sys.stdout.flush()
+        if quiet.closed_early:
+            raise BrokenPipeError
         return code
+    except BaseException as exc:  # faults of the environment: one line and their own code, no traceback
+        from postproc import faults
+
+        fault = faults.describe(exc)
+        if fault is None:
+            raise
+        kind, text = fault
+        _error(f"error: {text}{_left(args.state, kind)}")
+        return FAULT_EXIT[kind]
     finally:
         sys.stdout = stdout
+
+
+def _left(state: dict, kind: str) -> str:
+    """What a fault left behind, for `run`: nothing stored, or a stored run without its tables."""
+    if state.get("written"):
+        return f"; run {state['run']} is stored and its tables are in {state['out']}"
+    if state.get("run"):
+        return (f"; run {state['run']} is stored, but its tables were not all written: write them with "
+                f"`shearpost export --run {state['run']} --store {state['store']} --out DIR`")
+    if state.get("started") and kind != "damaged":
+        return "; nothing was stored"
+    return ""
 
 
 def _console():
@@ -394,10 +456,10 @@ def unframed_demo_members(out: Path) -> Path:
 
 def cmd_design(args) -> int:
     """`run` and `demo`: ingest, design, write the tables and the report, summarise."""
-    from postproc import api, engines, html_report, report
+    from postproc import api, engines, export, report
     from postproc.adapters.errors import InputError
     from postproc.settings import load_settings
-    from postproc.store import Store, StoreError
+    from postproc.store import DamagedRun, Store, StoreError
 
     if args.command == "demo":
         sample = sample_folder()
@@ -418,12 +480,18 @@ def cmd_design(args) -> int:
                 return EXIT_USAGE
             args.members = unframed_demo_members(args.out)
     store = Store(args.store)
+    inputs = {role: path for role, path in (("members", args.members), ("forces", args.forces), ("cases", args.cases),
+                                            ("column_map", args.map), ("settings", args.config)) if path}
     try:
-        name = args.run_name or store.new_name()
-        store.check_new_name(name)
-    except StoreError as exc:
+        export.check_out(args.out, inputs, store)
+        if args.run_name is not None:
+            store.check_new_name(args.run_name)
+    except (export.OutError, StoreError) as exc:
         _error(f"error: {exc}")
         return EXIT_USAGE
+    if store.root.is_dir():
+        store.clean_stale()  # temporary folders of runs whose process is gone
+    args.state.update(started=True, store=str(args.store))
     show_progress = not args.json and sys.stderr.isatty()
     if args.engine == "dask":
         map_parts = engines.dask(args.scheduler, args.workers)
@@ -432,21 +500,22 @@ def cmd_design(args) -> int:
     try:
         settings = load_settings(args.config)
         with report.progress_bars(show_progress) as task:
-            run, result = api.ingest_and_design(store, name, args.members, args.forces, args.cases, args.map,
-                                                settings, args.config, map_parts, args.ifc_key, task)
+            run, result = api.ingest_and_design(store, args.run_name, args.members, args.forces, args.cases,
+                                                args.map, settings, args.config, map_parts, args.ifc_key, task)
     except InputError as exc:
         _error(f"error: {exc}")
         _error("nothing was written")
         return EXIT_INPUT
     except StoreError as exc:
+        if isinstance(exc, DamagedRun):
+            raise
         _error(f"error: {exc}")
         return EXIT_USAGE
-    report.write_tables(result.members, result.zones, args.out, result.joints)
-    if not args.no_report:
-        with report.progress_bars(show_progress) as task:
-            done = task("writing report.html", 1)
-            html_report.write_html_report(run, args.out / "report.html")
-            done()
+    args.state.update(run=run.name)
+    with report.progress_bars(show_progress) as task:
+        export.write_outputs(run, args.out, not args.no_report,
+                             None if args.no_report else task("writing report.html", 1))
+    args.state.update(written=True, out=str(args.out))
     doc = report.summary(result, run.name, args.out)
     doc["report"] = None if args.no_report else str(args.out / "report.html")
     why = api.nothing_designed(result.members)
@@ -469,11 +538,13 @@ def _review(fn):
     """A command on a store's runs: a missing store, run or member is a usage error."""
 
     def run(args) -> int:
-        from postproc.store import Store, StoreError
+        from postproc.store import DamagedRun, Store, StoreError
 
         try:
             return fn(args, Store(args.store))
         except StoreError as exc:
+            if isinstance(exc, DamagedRun):  # a fault of the store: exit 4 (main)
+                raise
             _error(f"error: {exc}")
             return EXIT_USAGE
 
@@ -481,7 +552,12 @@ def _review(fn):
 
 
 def _run_of(args, store):
-    return store.run(args.run_name) if args.run_name else store.latest()
+    if args.run_name:
+        return store.run(args.run_name)
+    run = store.latest()
+    for damaged in store.intact_runs()[1]:  # never silent: a damaged run may be newer than the one taken
+        _error(f"warning: {damaged}; the latest intact run, {run.name}, is used")
+    return run
 
 
 def _print_frame(df, console, title: str) -> None:
@@ -554,10 +630,18 @@ def cmd_runs(args, store) -> int:
 
     from postproc import report
 
+    from postproc.store import DamagedRun
+
     rows = []
     for r in store.runs():
-        man = r.manifest()
-        rows.append({"run": r.name, "created": man["created"], "members": man["counts"]["members"],
+        try:
+            man = r.manifest()
+        except DamagedRun as exc:  # listed as damaged; the other runs are listed as usual
+            rows.append({"run": r.name, "damaged": f"{exc.file}: {exc.reason}", "created": "", "members": None,
+                         "force_rows": None, "designed": None, "inputs": {}, "tool_version": None,
+                         "code_edition": None})
+            continue
+        rows.append({"run": r.name, "damaged": None, "created": man["created"], "members": man["counts"]["members"],
                      "force_rows": man["counts"]["force_rows"], "designed": r.has_design(),
                      "inputs": {k: {"path": v["path"], "sha256": v["sha256"]} for k, v in man["inputs"].items()},
                      "tool_version": man["tool_version"], "code_edition": man["code_edition"]})
@@ -568,10 +652,72 @@ def cmd_runs(args, store) -> int:
     for col in ("run", "created (UTC)", "members", "force rows", "designed", "inputs"):
         t.add_column(col, overflow="fold")
     for r in rows:
+        if r["damaged"]:
+            t.add_row(report.shown(r["run"]), "", "", "", "[bold red]DAMAGED[/bold red]",
+                      report.shown(r["damaged"]) + " (`shearpost verify`)")
+            continue
         t.add_row(report.shown(r["run"]), r["created"][:16].replace("T", " "), str(r["members"]),
                   f"{r['force_rows']:,}", "yes" if r["designed"] else "no",
                   report.shown(", ".join(Path(v["path"]).name for v in r["inputs"].values())))
     _console().print(t)
+    return EXIT_OK
+
+
+@_review
+def cmd_verify(args, store) -> int:
+    """Every file of every run (or of --run) against its manifest: damaged, missing or stray."""
+    from postproc import report
+    from postproc.store import StoreError
+
+    runs = store.runs()
+    if args.run_name:
+        runs = [r for r in runs if r.name == args.run_name]
+        if not runs:
+            raise StoreError(f"no run named '{args.run_name}' in {store.root}")
+    found = {r.name: r.verify() for r in runs}
+    stale = [p for p in store.root.rglob(".tmp-*") if p.is_dir()] if store.root.is_dir() else []
+    if args.json:
+        print(report.dump_json({"store": str(store.root), "runs": [{"run": n, "intact": not p, "problems": p}
+                                                                    for n, p in found.items()],
+                                "temporary_folders": [str(p) for p in stale]}))
+    else:
+        console = _console()
+        for n, problems in found.items():
+            console.print(f"run {report.shown(n)}: " + ("intact" if not problems else
+                                                       f"[bold red]DAMAGED[/bold red] ({len(problems)} problem(s))"),
+                          highlight=False)
+            for line in problems:
+                console.print(f"  {report.shown(line)}", highlight=False)
+        for p in stale:
+            console.print(f"temporary folder {report.shown(p)} (a run being written, or left by one that "
+                          "stopped; removed by the next `run` once its process is gone)", highlight=False)
+        if not found:
+            console.print(f"no runs in {report.shown(store.root)}", highlight=False)
+    if any(found.values()):
+        _error(f"error: {sum(bool(p) for p in found.values())} damaged run(s): "
+               f"{', '.join(n for n, p in found.items() if p)}")
+        return EXIT_DAMAGED
+    return EXIT_OK
+
+
+@_review
+def cmd_export(args, store) -> int:
+    """A stored run's members.csv, zones.csv and report.html, written again."""
+    from postproc import export, report
+
+    run = _run_of(args, store)
+    inputs = {role: Path(v["path"]) for role, v in run.manifest()["inputs"].items()}
+    try:
+        export.check_out(args.out, inputs, store)
+    except export.OutError as exc:
+        _error(f"error: {exc}")
+        return EXIT_USAGE
+    if not run.has_design():
+        _error(f"error: run '{run.name}' has no design")
+        return EXIT_USAGE
+    paths = export.write_outputs(run, args.out, not args.no_report)
+    _console().print(f"run {report.shown(run.name)}: {', '.join(p.name for p in paths)} written to "
+                     f"{report.shown(args.out)}", highlight=False)
     return EXIT_OK
 
 
@@ -666,7 +812,7 @@ def cmd_bench(args) -> int:
 
 COMMAND_FUNCTIONS = {"run": cmd_design, "demo": cmd_design, "govern": cmd_govern, "compare": cmd_compare,
                      "runs": cmd_runs, "schedule": cmd_schedule, "explain": cmd_explain, "report": cmd_report,
-                     "bench": cmd_bench}
+                     "export": cmd_export, "verify": cmd_verify, "bench": cmd_bench}
 
 
 if __name__ == "__main__":

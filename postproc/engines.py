@@ -15,6 +15,10 @@ from __future__ import annotations
 import multiprocessing as mp
 from concurrent.futures import ProcessPoolExecutor
 
+from postproc import faults
+
+PRELOAD = ["postproc.engine", "postproc.faults"]  # imported once by the fork server, not by each worker
+
 
 def start_method() -> str:
     """forkserver where the platform has it (no fork of a process that already runs Arrow
@@ -22,15 +26,19 @@ def start_method() -> str:
     return "forkserver" if "forkserver" in mp.get_all_start_methods() else "spawn"
 
 
-def _one_blas_thread() -> None:
-    """Worker initializer: one BLAS/OpenMP thread in this worker process."""
+def _worker_start(main_pid: int, main_started: float) -> None:
+    """Worker initializer: one BLAS/OpenMP thread in this worker process; Ctrl-C left to the
+    main process, and a watchdog that ends the worker when the main process is gone."""
     from threadpoolctl import threadpool_limits
 
     threadpool_limits(1)
+    faults.worker_init(main_pid, main_started)
 
 
 def local(workers: int = 1):
-    """Parts in this process (workers <= 1) or in that many worker processes."""
+    """Parts in this process (workers <= 1) or in that many worker processes. Workers
+    ignore Ctrl-C, end themselves when the main process goes away, and are stopped at
+    once when anything fails or the caller stops early (postproc.faults)."""
 
     def run(fn, parts):
         from threadpoolctl import threadpool_limits
@@ -42,10 +50,15 @@ def local(workers: int = 1):
             return
         ctx = mp.get_context(start_method())
         if ctx.get_start_method() == "forkserver":
-            ctx.set_forkserver_preload(["postproc.engine"])
-        with ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
-                                 initializer=_one_blas_thread) as pool:
+            ctx.set_forkserver_preload(PRELOAD)
+        pool = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
+                                   initializer=_worker_start, initargs=faults.main_identity())
+        try:
             yield from pool.map(fn, parts)
+        except BaseException:
+            faults.terminate(pool)
+            raise
+        pool.shutdown(wait=True)
 
     return run
 

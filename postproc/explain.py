@@ -9,8 +9,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-import json
-
 import numpy as np
 import pandas as pd
 import pyarrow.parquet as pq
@@ -63,7 +61,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     if r.status in ("no-forces", "not-covered", "invalid"):
         return steps
     steps.append(_combinations(run))
-    f = pq.read_table(run.path / "forces", filters=[("member", "==", member)])
+    f = run.forces_of(member)
     cases = sorted(set(f.column("case").to_pylist()))
     samples = stations.Samples.build(
         np.zeros(f.num_rows, np.int64), np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),
@@ -109,7 +107,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
 def _combinations(run: Run) -> Step:
     """The rules the combinations were built by, and every combination with its factors."""
     table = design_table(run, "combinations")
-    dman = json.loads((run.design_path / "manifest.json").read_text(encoding="utf-8"))
+    dman = run.design_manifest()
     rules = dman.get("combination_rules", [])
     lines = []
     if run.cases() is None:

@@ -6,7 +6,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import pyarrow.parquet as pq
 
 from postproc.store import Run, StoreError
 from postproc.terms import NEEDS_ACTION
@@ -19,12 +18,11 @@ def design_table(run: Run, name: str, member: str | None = None, columns: list[s
     """A table of a run's design folder (the station trace is a folder of parts)."""
     if not run.has_design():
         raise StoreError(f"run '{run.name}' has no design yet")
-    path = run.design_path / name
-    path = path if path.is_dir() else path.with_suffix(".parquet")
-    if path.is_dir() and not any(path.glob("*.parquet")):  # the station trace of a run that designed nothing
+    rel = f"design/{name}" if name == "stations" else f"design/{name}.parquet"
+    if name == "stations" and not run.listed_under(rel):  # the station trace of a run that designed nothing
         return pd.DataFrame(columns=columns or [])
     filters = None if member is None else [("member", "==", member)]
-    return pq.read_table(path, columns=columns, filters=filters).to_pandas()
+    return run.table(rel, columns=columns, filters=filters).to_pandas()
 
 
 def results_with_labels(run: Run) -> pd.DataFrame:

@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import functools
 import itertools
-import json
 import math
 from html import escape
 from pathlib import Path
@@ -24,7 +23,6 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pac
-import pyarrow.parquet as pq
 from markupsafe import Markup
 
 from postproc.govern import rank_order, status_place
@@ -84,8 +82,7 @@ class _Data:
 
     @classmethod
     def load(cls, run: Run) -> _Data:
-        dp = run.design_path
-        dm = pq.read_table(dp / "members.parquet").to_pandas()
+        dm = run.table("design/members.parquet").to_pandas()
         geo = run.members().to_pandas()
         keep = ["member", "kind", "level", "group", "length_m", "b_mm", "h_mm", "d_mm", "fc_mpa", "fyt_mpa",
                 "support_i", "support_j", "face_i_mm", "face_j_mm", *COORDS]
@@ -98,10 +95,10 @@ class _Data:
         order[rank_order(m)] = np.arange(len(m))
         m["order"] = order  # place in the review order of `shearpost govern`: needing action first
         m["band"] = utilization_band(m["utilization"].to_numpy(float), m["status"].to_numpy(object))
-        zones = pq.read_table(dp / "zones.parquet").to_pandas()
-        manifest = json.loads((dp / "manifest.json").read_text(encoding="utf-8"))
-        combos = pq.read_metadata(dp / "combinations.parquet").num_rows
-        joints = pq.read_table(dp / "joints.parquet").to_pandas() if (dp / "joints.parquet").exists() else None
+        zones = run.table("design/zones.parquet").to_pandas()
+        manifest = run.design_manifest()
+        combos = run.table("design/combinations.parquet").num_rows
+        joints = run.table("design/joints.parquet").to_pandas() if "design/joints.parquet" in run.files() else None
         return cls(run, m, zones, manifest, combos, joints)
 
     def detail_codes(self, members: list[str] | None) -> list[int]:
@@ -118,10 +115,9 @@ class _Data:
 
     def stations(self, codes: list[int]) -> dict[str, np.ndarray]:
         """The station trace of the given members as arrays, grouped by code, in station order."""
-        folder = self.run.design_path / "stations"  # one file per part; none when no member was designed
-        if not any(folder.glob("*.parquet")):
+        if not self.run.listed_under("design/stations"):  # one file per part; none when no member was designed
             return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
-        t = pq.read_table(folder, columns=STATION_COLUMNS)
+        t = self.run.table("design/stations", columns=STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
         code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
         wanted = np.zeros(len(self.m) + 1, bool)  # the last entry stands for "not a member" (-1)
@@ -375,7 +371,7 @@ class _Drawings:
 def _stirrups(data: _Data, codes: list[int]) -> tuple[dict[int, np.ndarray], dict[int, list]]:
     """Stirrup positions (mm from face i), as the detailing placed them, and zone labels per member."""
     wanted = set(codes)
-    pos = pq.read_table(data.run.design_path / "stirrups.parquet").to_pandas()
+    pos = data.run.table("design/stirrups.parquet").to_pandas()
     pos = pos.assign(code=pos["member"].map(data.code))
     out = {int(c): np.sort(g["x_mm"].to_numpy(float)) for c, g in pos[pos["code"].isin(wanted)].groupby("code")}
     z = data.zones.assign(code=data.zones["member"].map(data.code))

@@ -45,16 +45,17 @@ def write_atomic(path: Path, fill) -> Path:
     return path
 
 
-def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path, joints: pd.DataFrame | None = None
-                 ) -> list[Path]:
-    """members.csv and zones.csv in ``out_dir``, and joints.csv where the run has joints of
-    special moment frames (postproc.joints)."""
+def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path, names: dict[str, str] | None = None,
+                 joints: pd.DataFrame | None = None) -> list[Path]:
+    """members.csv and zones.csv in ``out_dir`` (or under the file names ``names`` gives
+    them), and joints.csv where the run has joints of special moment frames (postproc.joints)."""
     written = []
     tables = [("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)]
     if joints is not None and len(joints):
         tables.append(("joints.csv", joints, JOINT_COLUMNS))
     for name, df, cols in tables:
-        written.append(write_atomic(Path(out_dir) / name, lambda fh, df=df, cols=cols: df.to_csv(
+        path = Path(out_dir) / (names or {}).get(name, name)
+        written.append(write_atomic(path, lambda fh, df=df, cols=cols: df.to_csv(
             fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")))
     return written
 

@@ -22,7 +22,7 @@ import pyarrow.parquet as pq
 from postproc import detailing
 from postproc.govern import design_table, layout_text
 from postproc.settings import BAR_CATALOGUE, Detailing
-from postproc.store import Run, Store
+from postproc.store import DamagedRun, Run, Store
 
 SECTION_KEYS = ["b_mm", "h_mm", "d_mm", "bf_mm", "hf_mm", "fc_mpa", "fyt_mpa"]
 ZONE_KEYS = ["start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
@@ -186,27 +186,34 @@ def _torsion_members(run: Run) -> set[str]:
 
 
 def previous_schedule(store: Store, run: Run, variant: str) -> Schedule | None:
-    """The latest earlier run's stored schedule of the same variant, for stable mark numbers."""
+    """The latest earlier run's stored schedule of the same variant, for stable mark numbers
+    (damaged runs and schedules are passed over)."""
     created = run.manifest()["created"]
-    earlier = [r for r in store.runs() if r.name != run.name and (r.path / "schedule" / variant).exists()
-               and r.manifest()["created"] <= created]
+    earlier = []
+    for r in store.intact_runs()[0]:
+        if r.name != run.name and r.manifest()["created"] <= created:
+            try:
+                if r.sealed(f"schedule/{variant}") is not None:
+                    earlier.append(r)
+            except DamagedRun:
+                continue
     earlier.sort(key=lambda r: (r.manifest()["created"], r.name))
     return load(earlier[-1], variant) if earlier else None
 
 
 def load(run: Run, variant: str) -> Schedule:
-    folder = run.path / "schedule" / variant
-    read = lambda n: pq.read_table(folder / f"schedule_{n}.parquet").to_pandas()
+    """A stored schedule, every file checked against its sealed listing."""
+    folder = f"schedule/{variant}"
+    listed = run.sealed(folder)
+    read = lambda n: pq.read_table(pa.BufferReader(run.read_bytes(f"{folder}/schedule_{n}.parquet", listed))).to_pandas()
     return Schedule(read("marks"), read("members"), read("bars"), read("by_level"), read("by_bar"))
 
 
 def for_run(store: Store, run: Run, settings: Detailing, envelope: bool) -> Schedule:
-    """The run's schedule: built once and kept in the run (runs are immutable), then reused."""
+    """The run's schedule: built once and kept in the run (sealed, under the run's lock), then reused."""
     variant = "envelope" if envelope else "plain"
-    folder = run.path / "schedule" / variant
-    if folder.exists():
+    if run.sealed(f"schedule/{variant}") is not None:
         return load(run, variant)
     sched = build(run, settings, envelope, previous_schedule(store, run, variant))
-    (run.path / "schedule").mkdir(exist_ok=True)
-    store._atomic(folder, sched.write, staging=run.path / "schedule")
+    store.add_sealed(run, f"schedule/{variant}", sched.write)
     return sched

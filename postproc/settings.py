@@ -23,6 +23,10 @@
     stirrup_shape = "closed"        # "closed" (135-degree hooks) or "open" (U); torsion forces closed
     open_hook_deg = 90              # hooks of open stirrups: 90 or 135
 
+    [input]                         # the input tables
+    fill = { N_kN = 0.0 }           # value of the missing cells of these optional columns (our units);
+                                    # without it a missing cell is an input error
+
     [ifc]                           # members read from an IFC model
     fc_mpa = 35                     # where the model gives no f'c
     fyt_mpa = 420
@@ -42,6 +46,7 @@ gives.
 
 from __future__ import annotations
 
+import math
 from dataclasses import asdict, dataclass, field, fields, replace
 from pathlib import Path
 
@@ -105,12 +110,20 @@ class Frames:
 
 
 @dataclass(frozen=True)
+class Input:
+    # optional numeric column -> value of its missing cells (blank, NaN, #N/A, ...), in our unit;
+    # a column not named here refuses missing cells (an input error naming file, line and column)
+    fill: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
 class Settings:
     combinations: Combinations = field(default_factory=Combinations)
     stations: Stations = field(default_factory=Stations)
     detailing: Detailing = field(default_factory=Detailing)
     ifc: Ifc = field(default_factory=Ifc)
     frames: Frames = field(default_factory=Frames)
+    input: Input = field(default_factory=Input)
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -142,11 +155,14 @@ def validated_settings(doc: dict, path: Path) -> Settings:
                 value = _ladder(path, value)
             elif key == "by_group":
                 value = _by_group(path, value)
+            elif key == "fill":
+                value = _fill(path, value)
             elif isinstance(default, bool):
                 if not isinstance(value, bool):
                     raise InputError(path, f"[{name}].{key} must be true or false")
             elif isinstance(default, (int, float)):
-                if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
+                if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
+                        or value < 0:  # TOML has nan and inf: neither is a setting
                     raise InputError(path, f"[{name}].{key} must be a non-negative number")
                 value = type(default)(value)
             current = replace(current, **{key: value})
@@ -192,10 +208,25 @@ def _by_group(path: Path, value) -> dict:
     return dict(value)
 
 
+def _fill(path: Path, value) -> dict:
+    from postproc.adapters.csv_tables import FILLABLE  # (the readers' column lists)
+
+    if not isinstance(value, dict):
+        raise InputError(path, "[input].fill must be a table: fill = { N_kN = 0.0 }")
+    for column, number in value.items():
+        if column not in FILLABLE:
+            raise InputError(path, f"[input].fill names '{column}', which is not an optional numeric column; "
+                                   f"one of {', '.join(FILLABLE)}")
+        if isinstance(number, bool) or not isinstance(number, (int, float)) or not math.isfinite(number):
+            raise InputError(path, f"[input].fill.{column} must be a finite number")
+    return {k: float(v) for k, v in value.items()}
+
+
 def settings_from_dict(doc: dict) -> Settings:
     """The settings a run was designed with, from its manifest."""
     d = dict(doc.get("detailing", {}))
     if "ladder" in d:
         d["ladder"] = tuple((bar, int(legs)) for bar, legs in d["ladder"])
     return Settings(combinations=Combinations(**doc.get("combinations", {})), stations=Stations(**doc.get("stations", {})),
-                    detailing=Detailing(**d), ifc=Ifc(**doc.get("ifc", {})), frames=Frames(**doc.get("frames", {})))
+                    detailing=Detailing(**d), ifc=Ifc(**doc.get("ifc", {})), frames=Frames(**doc.get("frames", {})),
+                    input=Input(**doc.get("input", {})))

@@ -1,28 +1,39 @@
-"""A folder of immutable runs.
+"""A folder of immutable, self-checking runs.
 
     STORE/
-      RUN/manifest.json        inputs with sha256, units, code edition, tool version
+      RUN/manifest.json        inputs with sha256, units, code edition, tool version, and
+                               every file of the run with its size and sha256, sealed
       RUN/members.parquet      validated members table (input schema, SI units)
       RUN/forces/part-*.parquet  validated forces in parts of whole members, each sorted by
                                  member, case, station
       RUN/cases.parquet        basic load cases, where given
-      RUN/design/...           written once, by the design stage
+      RUN/design/...           written once, by the design stage, before the run appears
+      RUN/schedule/VARIANT/    added later by `schedule`: its own sealed manifest.json
 
 Every write goes to a hidden temporary folder inside the store and is renamed into
 place, so a crash never leaves a half-written run visible; an existing run or design
-is never overwritten.
+is never overwritten. A run's name is claimed atomically (a claim file created
+exclusively in ``.claims/``) before any work, so two runs never pick the same name.
+
+The manifest lists every file of the run with its size and sha256, and carries a seal:
+the sha256 of the manifest's own content. Readers open only listed files and check
+each against its listing as they read it (the bytes checked are the bytes parsed), so
+a flipped bit, a truncated or deleted file, or a stray file added to a folder never
+changes a result: the run is reported damaged, by name and file, and every other run
+keeps working. ``Store.verify`` checks every file of every run.
 """
 
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
+import functools
 import hashlib
 import math
 import json
 import os
 import re
 import shutil
-import uuid
 import zlib
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
@@ -33,18 +44,31 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.parquet as pq
 
+from postproc.adapters import digests
 from postproc.adapters.csv_tables import sort_part
-from postproc import __version__
+from postproc import __version__, locks
 from postproc.codes import aci318_19
 
 UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment": "kN*m", "stress": "MPa"}
 PART_BYTES = 24 << 20  # CSV bytes per stored part of the forces (small enough to balance 2 workers)
 MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memory, larger ones spill to disk
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
+MANIFEST = "manifest.json"
+SEAL = "seal"  # key of the manifest's own sha256
+SEALED_FOLDERS = ("schedule",)  # folders whose sub-folders are added later, each with its own sealed manifest
 
 
 class StoreError(Exception):
     """A store operation that cannot proceed (existing run, bad name, missing run)."""
+
+
+class DamagedRun(StoreError):
+    """A file of a stored run is not as its manifest lists it (or the manifest is damaged)."""
+
+    def __init__(self, run: str, file: str, reason: str):
+        self.run, self.file, self.reason = run, file, reason
+        super().__init__(f"run '{run}' is damaged: {file}: {reason}; other runs are not affected "
+                         f"(`shearpost verify` checks the whole store)")
 
 
 def sha256_of(path: Path) -> str:
@@ -55,37 +79,196 @@ def sha256_of(path: Path) -> str:
     return h.hexdigest()
 
 
+def _canonical(doc: dict) -> bytes:
+    return json.dumps(doc, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=True).encode()
+
+
+def seal_of(doc: dict) -> str:
+    """The sha256 of a manifest's content without its seal."""
+    return hashlib.sha256(_canonical({k: v for k, v in doc.items() if k != SEAL})).hexdigest()
+
+
+def listing(folder: Path, skip=()) -> dict[str, dict]:
+    """Every file under ``folder`` (but its manifest and the sub-folders ``skip``) with size
+    and sha256, by path relative to the folder (always with '/')."""
+    files = sorted(p for p in folder.rglob("*") if p.is_file() and p.relative_to(folder).as_posix() != MANIFEST
+                   and not any(p.relative_to(folder).as_posix().startswith(s + "/") for s in skip)
+                   and not any(part.startswith(".tmp-") for part in p.relative_to(folder).parts))
+
+    def entry(p: Path) -> tuple[str, dict]:
+        return p.relative_to(folder).as_posix(), {"size": p.stat().st_size, "sha256": sha256_of(p)}
+
+    with ThreadPoolExecutor(max_workers=2) as pool:  # hashing releases the GIL
+        return dict(pool.map(entry, files))
+
+
+def seal_folder(folder: Path, doc: dict | None = None, skip=()) -> None:
+    """Write (or complete) ``folder``'s manifest.json: ``doc``, or the manifest already
+    there, with the listing of every file and the seal; written to a temporary name and
+    renamed over the old manifest (a reader sees the old one or the new one)."""
+    path = folder / MANIFEST
+    doc = dict(doc if doc is not None else json.loads(path.read_text(encoding="utf-8")))
+    doc["files"] = listing(folder, skip)
+    doc[SEAL] = seal_of(doc)
+    tmp = folder / f".{MANIFEST}.{os.getpid()}.tmp"
+    _write_json(tmp, doc)
+    os.replace(tmp, path)
+
+
 @dataclass(frozen=True)
 class Run:
+    """A run of the store. ``staged``: the run being written (not yet visible): its files
+    are read as they are, not checked against a listing that does not exist yet."""
+
     path: Path
+    staged: bool = False
 
     @property
     def name(self) -> str:
         return self.path.name
 
+    @functools.cached_property
+    def _manifest(self) -> dict:
+        return self._sealed_json(MANIFEST)
+
     def manifest(self) -> dict:
-        return json.loads((self.path / "manifest.json").read_text(encoding="utf-8"))
+        if self.staged:
+            return json.loads((self.path / MANIFEST).read_text(encoding="utf-8"))
+        return self._manifest
+
+    def _sealed_json(self, rel: str) -> dict:
+        """A sealed manifest (the run's or a sealed folder's), checked against its seal."""
+        try:
+            doc = json.loads((self.path / rel).read_bytes().decode("utf-8"))
+        except FileNotFoundError:
+            raise DamagedRun(self.name, rel, "missing") from None
+        except (ValueError, UnicodeDecodeError) as exc:
+            raise DamagedRun(self.name, rel, f"not a readable manifest ({exc})") from None
+        if not isinstance(doc, dict) or not isinstance(doc.get("files"), dict):
+            raise DamagedRun(self.name, rel, "lists no files (damaged, or written by an older shearpost)")
+        if doc.get(SEAL) != seal_of(doc):
+            raise DamagedRun(self.name, rel, "its content does not match its seal (edited or damaged)")
+        return doc
+
+    def files(self) -> dict[str, dict]:
+        """The run's listed files (path relative to the run -> size, sha256)."""
+        return self.manifest()["files"]
+
+    def read_bytes(self, rel: str, listed: dict | None = None) -> bytes:
+        """A listed file's bytes, checked against its size and sha256 (the bytes returned are
+        the bytes checked)."""
+        if self.staged:
+            return (self.path / rel).read_bytes()
+        entry = (listed if listed is not None else self.files()).get(rel)
+        if entry is None:
+            raise DamagedRun(self.name, rel, "not listed in the manifest") if (self.path / rel).exists() else \
+                StoreError(f"run '{self.name}' has no {rel}")
+        try:
+            with open(self.path / rel, "rb") as fh:
+                data = fh.read(entry["size"] + 1)
+        except FileNotFoundError:
+            raise DamagedRun(self.name, rel, "missing") from None
+        if len(data) != entry["size"]:
+            raise DamagedRun(self.name, rel, f"{len(data):,} bytes where {entry['size']:,} were stored")
+        if hashlib.sha256(data).hexdigest() != entry["sha256"]:
+            raise DamagedRun(self.name, rel, "its sha256 does not match the manifest (changed after it was stored)")
+        return data
+
+    def listed_under(self, folder: str, listed: dict | None = None) -> list[str]:
+        """Listed files under a folder of the run (never a file that is merely there)."""
+        if self.staged:
+            base = self.path / folder
+            return sorted(p.relative_to(self.path).as_posix() for p in base.rglob("*") if p.is_file())
+        prefix = folder.rstrip("/") + "/"
+        return sorted(k for k in (listed if listed is not None else self.files()) if k.startswith(prefix))
+
+    def table(self, rel: str, columns: list[str] | None = None, filters=None) -> pa.Table:
+        """A Parquet file of the run, or every listed file of a folder of them, checked."""
+        names = [rel] if rel.endswith(".parquet") else self.listed_under(rel)
+        if not names:
+            raise StoreError(f"run '{self.name}' has no {rel}")
+        parts = [pq.read_table(pa.BufferReader(self.read_bytes(n)), columns=columns, filters=filters) for n in names]
+        return parts[0] if len(parts) == 1 else pa.concat_tables(parts, promote_options="default")
+
+    def json(self, rel: str) -> dict:
+        return json.loads(self.read_bytes(rel).decode("utf-8"))
 
     def members(self) -> pa.Table:
-        return pq.read_table(self.path / "members.parquet")
+        return self.table("members.parquet")
 
     def force_parts(self) -> list[Path]:
         """The forces, as parts that each hold whole members."""
-        return sorted((self.path / "forces").glob("part-*.parquet"))
+        return [self.path / rel for rel in self.listed_under("forces") if rel.endswith(".parquet")]
 
-    def forces(self, columns: list[str] | None = None) -> pa.Table:
-        return pq.read_table(self.path / "forces", columns=columns)
+    def forces(self, columns: list[str] | None = None, filters=None) -> pa.Table:
+        return self.table("forces", columns, filters)
+
+    def forces_of(self, member: str, columns: list[str] | None = None) -> pa.Table:
+        """The force rows of one member: from the one part that can hold it (parts are
+        chosen by a hash of the member id), else from all."""
+        n = self.manifest()["counts"].get("force_buckets")
+        rel = None if n is None else f"forces/part-{zlib.crc32(member.encode('utf-8')) % n:05d}.parquet"
+        if rel is not None and rel not in self.files():  # no member falls in that part: none has rows
+            return self.table(self.listed_under("forces")[0], columns).slice(0, 0)
+        return self.table(rel or "forces", columns, [("member", "==", member)])
 
     def cases(self) -> pa.Table | None:
-        p = self.path / "cases.parquet"
-        return pq.read_table(p) if p.exists() else None
+        if self.staged:
+            p = self.path / "cases.parquet"
+            return pq.read_table(p) if p.exists() else None
+        return self.table("cases.parquet") if "cases.parquet" in self.files() else None
 
     @property
     def design_path(self) -> Path:
         return self.path / "design"
 
     def has_design(self) -> bool:
-        return (self.design_path / "manifest.json").exists()
+        if self.staged:
+            return (self.design_path / MANIFEST).exists()
+        return "design/manifest.json" in self.files()
+
+    def design_manifest(self) -> dict:
+        return self.json("design/manifest.json")
+
+    def sealed(self, folder: str) -> dict | None:
+        """The listing of a folder added later (a schedule variant), checked; None if absent."""
+        if not (self.path / folder).exists():
+            return None
+        doc = self._sealed_json(f"{folder}/{MANIFEST}")  # (a folder is renamed in with its manifest: never without)
+        return {f"{folder}/{k}": v for k, v in doc["files"].items()}
+
+    def verify(self) -> list[str]:
+        """Every problem of the run's files: damaged, missing or unlisted (empty: intact)."""
+        problems: list[str] = []
+        try:
+            listed = dict(self.files())
+        except DamagedRun as exc:
+            return [f"{exc.file}: {exc.reason}"]
+        for top in SEALED_FOLDERS:
+            base = self.path / top
+            for sub in sorted(p for p in base.iterdir() if p.is_dir() and not p.name.startswith(".")) \
+                    if base.is_dir() else []:
+                try:
+                    listed.update(self.sealed(f"{top}/{sub.name}") or {})
+                except DamagedRun as exc:
+                    problems.append(f"{exc.file}: {exc.reason}")
+        for rel in sorted(listed):
+            try:
+                self.read_bytes(rel, listed)
+            except DamagedRun as exc:
+                problems.append(f"{exc.file}: {exc.reason}")
+        known = set(listed) | {MANIFEST}
+        for p in sorted(self.path.rglob("*")):
+            rel = p.relative_to(self.path).as_posix()
+            if p.is_file() and rel not in known and not _sealed_manifest(rel) \
+                    and not any(part.startswith(".tmp-") for part in p.relative_to(self.path).parts):
+                problems.append(f"{rel}: not a file of the run (not listed; readers ignore it)")
+        return problems
+
+
+def _sealed_manifest(rel: str) -> bool:
+    parts = rel.split("/")
+    return len(parts) == 3 and parts[0] in SEALED_FOLDERS and parts[2] == MANIFEST
 
 
 class Store:
@@ -93,31 +276,56 @@ class Store:
         self.root = Path(root)
 
     def runs(self) -> list[Run]:
-        if not self.root.exists():
+        """Every run folder of the store, damaged or not (a folder without its manifest is a
+        damaged run; hidden folders are the store's own)."""
+        if not self.root.is_dir():
             return []
-        return [Run(p) for p in sorted(self.root.iterdir())
-                if p.is_dir() and not p.name.startswith(".") and (p / "manifest.json").exists()]
+        return [Run(p) for p in sorted(self.root.iterdir()) if p.is_dir() and not p.name.startswith(".")]
 
     def run(self, name: str) -> Run:
         r = Run(self.root / name)
-        if not _NAME.fullmatch(name) or not (r.path / "manifest.json").exists():
+        if not _NAME.fullmatch(name) or not r.path.is_dir():
             raise StoreError(f"no run named '{name}' in {self.root}")
+        r.manifest()  # a damaged run is said so at once
         return r
 
+    def intact_runs(self) -> tuple[list[Run], list[DamagedRun]]:
+        """The runs whose manifests are intact, and what is wrong with the others."""
+        good, bad = [], []
+        for r in self.runs():
+            try:
+                r.manifest()
+                good.append(r)
+            except DamagedRun as exc:
+                bad.append(exc)
+        return good, bad
+
     def latest(self) -> Run:
-        """The most recently created run."""
-        runs = self.runs()
+        """The most recently created run (of those whose manifests are intact)."""
+        runs, _ = self.intact_runs()
         if not runs:
             raise StoreError(f"no runs in {self.root}; create one with `shearpost run` or `shearpost demo`")
         return max(runs, key=lambda r: (r.manifest()["created"], r.name))
 
+    # ---------------------------------------------------------------- names, claims, locks
+
+    def _claim_path(self, name: str) -> Path:
+        return self.root / ".claims" / name
+
+    def lock_path(self, name: str) -> Path:
+        return self.root / ".locks" / name
+
     def new_name(self, today: _dt.date | None = None) -> str:
+        """The first free name of the day (not taken, not being written); not claimed."""
         stamp = (today or _dt.date.today()).strftime("%Y%m%d")
-        taken = {r.name for r in self.runs()}
         k = 1
-        while f"{stamp}-{k:03d}" in taken or (self.root / f"{stamp}-{k:03d}").exists():
+        while (self.root / f"{stamp}-{k:03d}").exists() or self._claimed(f"{stamp}-{k:03d}"):
             k += 1
         return f"{stamp}-{k:03d}"
+
+    def _claimed(self, name: str) -> bool:
+        p = self._claim_path(name)
+        return p.exists() and not locks.stale(p)
 
     def check_new_name(self, name: str) -> None:
         if not _NAME.fullmatch(name):
@@ -127,17 +335,61 @@ class Store:
             raise StoreError(f"run '{name}' already exists in {self.root}; runs are never overwritten, "
                              "choose another --run name")
 
+    @contextlib.contextmanager
+    def reserve(self, name: str | None = None, today: _dt.date | None = None):
+        """Claim a run name for the block: ``name``, or the first free name of the day. Two
+        processes never hold one name; a name held by a live process is a StoreError. A
+        store folder made here and left empty (a failed first run) is removed again."""
+        created = not self.root.exists()
+        try:
+            if name is not None:
+                self.check_new_name(name)
+            self.root.mkdir(parents=True, exist_ok=True)
+            while True:
+                chosen = name or self.new_name(today)
+                if locks.claim(self._claim_path(chosen)):
+                    break
+                if name is not None:
+                    raise StoreError(f"run '{name}' is being written by {locks.holder(self._claim_path(name))}; "
+                                     "choose another --run name")
+            try:
+                self.check_new_name(chosen)  # made by another process just before our claim
+                yield chosen
+            finally:
+                locks.release(self._claim_path(chosen))
+        finally:
+            if created:
+                with contextlib.suppress(OSError):
+                    self.root.rmdir()  # only if empty
+
+    def clean_stale(self) -> list[Path]:
+        """Remove the temporary folders of runs whose process is gone (on this host); the
+        folders removed. A temporary folder of a live process, or of another host, stays."""
+        removed = []
+        for folder in [self.root, *(r.path for r in self.runs()), *(r.path / "schedule" for r in self.runs())]:
+            if not folder.is_dir():
+                continue
+            for p in folder.iterdir():
+                if p.is_dir() and locks.tmp_is_stale(p.name):
+                    shutil.rmtree(p, ignore_errors=True)
+                    removed.append(p)
+        return removed
+
+    # ---------------------------------------------------------------- writing
+
     def ingest(self, name: str, members: pa.Table, cases: pa.Table | None, source, inputs: dict[str, Path],
                warnings: list[str], extra: dict | None = None, progress=None, then=None) -> Run:
         """Write a new run atomically and return it. ``then(run)``, if given, runs on the
         complete but not yet visible run (the design stage writes its design/ there), so
-        that the run appears with its design or not at all.
+        that the run appears with its design or not at all. Claim the name first
+        (``reserve``) where another process may write into the same store.
 
         ``source`` streams validated force batches (``batches()``, ``check_part()``,
         ``size()``, see postproc.adapters.csv_tables.ForcesReader). Rows are spread over parts by a
         hash of the member id, so that every part holds whole members; each part is then
         checked, sorted by member, case, station and file row, and written. Memory is
-        bounded by the part size, not by the model.
+        bounded by the part size, not by the model. The inputs' sha256 are those of the
+        bytes the readers parsed (postproc.adapters.digests), where they recorded them.
         """
         self.check_new_name(name)
         n_parts = max(1, math.ceil(source.size() / PART_BYTES))
@@ -176,33 +428,55 @@ class Store:
                 "tool": "shearpost", "tool_version": __version__,
                 "code_edition": aci318_19.EDITION,
                 "units": UNITS,
-                "inputs": {role: {"path": str(p), "sha256": sha256_of(p)} for role, p in inputs.items()},
+                "inputs": {role: {"path": str(p), "sha256": digests.recorded(p) or sha256_of(p)}
+                           for role, p in inputs.items()},
                 "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(part_keys),
-                           "cases": None if cases is None else cases.num_rows},
+                           "force_buckets": n_parts, "cases": None if cases is None else cases.num_rows},
                 "cases": sorted(source.case_names),
                 "warnings": warnings,
                 **(extra or {}),
             }
-            _write_json(tmp / "manifest.json", manifest)
+            _write_json(tmp / MANIFEST, manifest)
             if then is not None:
-                then(Run(tmp))
+                then(Run(tmp, staged=True))
+            seal_folder(tmp, skip=SEALED_FOLDERS)
 
         self._atomic(self.root / name, write)
         return Run(self.root / name)
 
     def write_design(self, run: Run, write) -> Path:
-        """Write a run's design folder once, atomically: ``write(folder)`` fills a temporary
-        folder, which is renamed into place only when it is complete."""
-        if run.design_path.exists():
-            raise StoreError(f"run '{run.name}' already has a design; runs are immutable")
-        self._atomic(run.design_path, write, staging=run.path)
+        """Write a stored run's design folder once (runs made by ``ingest`` without ``then``,
+        as the bench makes them), under the run's lock: ``write(folder)`` fills a temporary
+        folder, renamed into place when complete; then the run's manifest is sealed again
+        with the design's files listed (replaced atomically)."""
+        with locks.held(self.lock_path(run.name), f"run '{run.name}'"):
+            if run.has_design() or run.design_path.exists():
+                raise StoreError(f"run '{run.name}' already has a design; runs are immutable")
+            self._atomic(run.design_path, write, staging=run.path)
+            doc = {k: v for k, v in run.manifest().items() if k not in ("files", SEAL)}
+            seal_folder(run.path, doc, skip=SEALED_FOLDERS)
         return run.design_path
+
+    def add_sealed(self, run: Run, folder: str, write) -> None:
+        """Add a sealed folder to a stored run (a schedule variant), atomically, under the
+        run's lock: ``write(tmp)`` fills it, its manifest is sealed, then it is renamed in."""
+        final = run.path / folder
+        with locks.held(self.lock_path(run.name), f"run '{run.name}'"):
+            if run.sealed(folder) is not None:  # made meanwhile by another process (or damaged: said so)
+                return
+            final.parent.mkdir(parents=True, exist_ok=True)
+
+            def sealed_write(tmp: Path) -> None:
+                write(tmp)
+                seal_folder(tmp, {"run": run.name, "folder": folder})
+
+            self._atomic(final, sealed_write, staging=final.parent)
 
     def _atomic(self, final: Path, write, staging: Path | None = None) -> None:
         staging = staging or self.root
         created = not staging.exists()
         staging.mkdir(parents=True, exist_ok=True)
-        tmp = staging / f".tmp-{final.name}-{uuid.uuid4().hex}"
+        tmp = staging / locks.tmp_name(final.name)
         tmp.mkdir()
         done = False
         try:
@@ -211,14 +485,17 @@ class Store:
             try:
                 os.rename(tmp, final)  # fails if final exists and is not empty
             except OSError:
-                raise StoreError(f"'{final}' already exists; runs are never overwritten") from None
+                if final.exists():
+                    raise StoreError(f"'{final}' already exists; runs are never overwritten") from None
+                raise
             _fsync_dir(staging)
             done = True
         finally:
             if tmp.exists():
                 shutil.rmtree(tmp, ignore_errors=True)
-            if not done and created and not any(staging.iterdir()):
-                staging.rmdir()  # a failed first write leaves no empty store behind
+            if not done and created:
+                with contextlib.suppress(OSError):
+                    staging.rmdir()  # a failed first write leaves no empty store behind
 
 
 class _PartBuffer:

@@ -70,12 +70,15 @@ def _chunk(first: int, n: int, cases: int, stations: int, rng, lateral: np.ndarr
     b = rng.choice([300.0, 350.0, 400.0, 450.0, 500.0], n)
     face = rng.choice([200.0, 250.0, 300.0], n)
     names = np.char.add("SB", np.arange(first, first + n).astype(str))
+    fc = rng.choice([28.0, 35.0, 40.0], n)
+    given = rng.random(n) < 0.5  # (drawn in this order: the same frames as before for a seed)
     mtab = pa.table({
         "member": names, "length_m": L, "b_mm": b, "h_mm": h, "cover_mm": np.full(n, 60.0),
-        "fc_mpa": rng.choice([28.0, 35.0, 40.0], n), "fyt_mpa": np.full(n, 420.0),
+        "fc_mpa": fc, "fyt_mpa": np.full(n, 420.0),
         "support_i": np.where(on_girder, "girder", "column"), "support_j": np.where(cantilever, "free", "column"),
         "face_i_mm": np.where(on_girder, 150.0, face), "face_j_mm": np.where(cantilever, 0.0, face),
-        "as_tension_mm2": np.where(rng.random(n) < 0.5, (rng.uniform(0.005, 0.015, n) * b * (h - 60)).round(0), np.nan),
+        # half the members without As: a blank cell ("not given"), never the text nan
+        "as_tension_mm2": pa.array((rng.uniform(0.005, 0.015, n) * b * (h - 60)).round(0), mask=~given),
         "level": np.char.add("L", (np.arange(first, first + n) % 20 + 1).astype(str)),
     })
 

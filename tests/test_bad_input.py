@@ -94,8 +94,13 @@ def test_quoted_comma_is_located_by_line(tmp_path, capsys):
 
 
 def test_not_utf8_names_the_line(tmp_path, capsys):
+    # UTF-8 text (an 'é' on line 2) with a stray byte that no UTF-8 text has on line 4: not a
+    # Windows-1252 file either (that guess is only made where no UTF-8 sequence is seen)
     raw = forces_text(None).encode()
     lines = raw.split(b"\n")
+    lines[1] = lines[1] + ",\xc3\xa9".encode("latin-1")
+    lines[0] = lines[0] + b",note"
+    lines[2:] = [line + b"," if line else line for line in lines[2:]]
     lines[3] = lines[3].replace(b"U", b"\xff\xfe")
     (tmp_path / "bad.csv").write_bytes(b"\n".join(lines))
     paths = write_inputs(tmp_path / "in", GOOD_MEMBERS, GOOD_FORCES)

@@ -96,13 +96,15 @@ def test_unknown_member_suggests_close_ids(store, tmp_path, capsys):
 
 
 def test_broken_pipe_is_quiet(store):
-    """The reader goes away before the output is written (as `| head` does): no traceback."""
+    """The reader goes away before the output is written (as `| head` does): no traceback; the
+    command finishes, then says so in one line with its own exit code (141, issue 9)."""
     p = subprocess.Popen([sys.executable, "-m", "postproc.cli", "govern", "--format", "csv", "--store", str(store)],
                          stdout=subprocess.PIPE, stderr=subprocess.PIPE, env={**os.environ, "PYTHONPATH": str(ROOT)})
     p.stdout.close()  # closed before the command has loaded: every write meets a broken pipe
     err = p.stderr.read().decode()
-    assert p.wait(timeout=120) == 0
+    assert p.wait(timeout=120) == 141
     assert "Traceback" not in err and "BrokenPipe" not in err and "Exception ignored" not in err, err
+    assert len(err.strip().splitlines()) == 1 and "broken pipe" in err, err
 
 
 def test_govern_fits_80_columns_without_breaking_combination_names(store):

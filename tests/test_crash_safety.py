@@ -237,9 +237,11 @@ def test_run_names_that_could_escape_or_hide_are_refused(tmp_path, earlier_store
     assert hashed_tree(root) == before  # nothing inside or next to the store
 
 
-def test_a_name_taken_while_a_run_is_writing_is_not_overwritten(tmp_path, big_model, earlier_store):
-    """Two runs race for one name: the one that renames into place first keeps it; the other
-    fails at its rename with exit 2 and leaves the winner byte-identical."""
+def test_a_name_taken_while_a_run_is_writing_is_refused_at_once(tmp_path, big_model, earlier_store, capsys):
+    """Two runs race for one name. The name is claimed before any work (a claim file created
+    exclusively), so the second is refused at once with exit 2, having read and written
+    nothing, and the first keeps the name. Until issue 9 the second did all its work and the
+    first to rename into place won; the other failed only at its rename."""
     store = tmp_path / "store"
     shutil.copytree(earlier_store, store)
     slow = subprocess.Popen([sys.executable, "-m", "postproc.cli",
@@ -248,20 +250,22 @@ def test_a_name_taken_while_a_run_is_writing_is_not_overwritten(tmp_path, big_mo
                             cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     try:
         t0 = time.monotonic()
-        while not ingesting(store):  # the slow run has passed its name check and is writing
+        while not ingesting(store):  # the slow run has claimed its name and is writing
             assert slow.poll() is None and time.monotonic() - t0 < 30
             time.sleep(0.002)
         paths = write_inputs(tmp_path / "small", SMALL_MEMBERS, SMALL_FORCES)
-        assert cli.main(run_argv(paths["members"], paths["forces"], store, tmp_path / "out-fast",
-                                 "--run", "contested")) == cli.EXIT_OK
-        winner = hashed_tree(store / "contested")
-        _, err = slow.communicate(timeout=60)
+        capsys.readouterr()
+        t1 = time.monotonic()
+        code = cli.main(run_argv(paths["members"], paths["forces"], store, tmp_path / "out-fast",
+                                 "--run", "contested"))
+        err = capsys.readouterr().err
+        assert code == cli.EXIT_USAGE and "'contested' is being written by process" in err, err
+        assert time.monotonic() - t1 < 5 and not (tmp_path / "out-fast").exists()
+        _, err = slow.communicate(timeout=120)
     finally:
         if slow.poll() is None:
             slow.kill()
             slow.wait()
-    assert slow.returncode == cli.EXIT_USAGE, err.decode()[-800:]
-    assert b"already exists" in err and b"Traceback" not in err
-    assert hashed_tree(store / "contested") == winner
-    assert Store(store).run("contested").members().num_rows == 2  # the small model's
-    assert not temp_folders(store)  # the loser cleaned up after itself
+    assert slow.returncode == cli.EXIT_OK, err.decode()[-800:]
+    assert Store(store).run("contested").members().num_rows == 3000  # the slow run's model
+    assert not temp_folders(store)

@@ -22,6 +22,7 @@ from hypothesis import HealthCheck, event, given, settings, strategies as hs
 
 from postproc import cli, schedule
 from postproc.settings import Detailing
+from postproc import store as store_mod
 from postproc.store import Store
 from tests import section_reference as ref
 from tests.conftest import design, tree_snapshot, write_inputs
@@ -361,8 +362,8 @@ def special_beams(draw):
     n_ax = draw(hs.sampled_from([0.0, 0.0, -300.0, 400.0]))  # tension positive: a compression of 300 kN, or 400 kN tension
     xs = np.linspace(0.0, span, 15)
     rows = [dict(member="P1", case="D", x_m=x, V_kN=wd * (span / 2 - x) + 0.1 * wd, N_kN=n_ax) for x in xs]
-    rows += [dict(member="P1", case="L", x_m=x, V_kN=wl * (span / 2 - x)) for x in xs]
-    rows += [dict(member="P1", case="E", x_m=x, V_kN=e) for x in xs]
+    rows += [dict(member="P1", case="L", x_m=x, V_kN=wl * (span / 2 - x), N_kN=0.0) for x in xs]
+    rows += [dict(member="P1", case="E", x_m=x, V_kN=e, N_kN=0.0) for x in xs]
     return member, rows
 
 
@@ -464,9 +465,8 @@ def demo_pair(demo_designed, tmp_path_factory):
     store = tmp / "store"
     run = Store(demo_designed.store).latest()
     shutil.copytree(run.path, store / "frames")
-    (store / "frames" / "manifest.json").write_text(
-        (run.path / "manifest.json").read_text(encoding="utf-8").replace(f'"run": "{run.name}"', '"run": "frames"'),
-        encoding="utf-8")
+    doc = json.loads((run.path / "manifest.json").read_text(encoding="utf-8"))
+    store_mod.seal_folder(store / "frames", {**doc, "run": "frames"}, skip=store_mod.SEALED_FOLDERS)  # renamed: sealed anew
     b = cli.main(["demo", "--without-frames", "--store", str(store), "--out", str(tmp / "plain"), "--run", "plain",
                   "--json", "--no-report"])
     return demo_designed.out, tmp / "plain", store, demo_designed.code, b

@@ -193,8 +193,11 @@ def op_missing_number(rng, which, k=0):
     doc, col, r, token = put_number(rng, which, MISSING, with_cover=True)
     if col == "cover_mm":  # without d_mm, cover_mm is needed: "give d_mm or cover_mm"
         return finish(doc, which, "invalid", r, ["d_mm", "cover_mm"], f"cover_mm={token!r}")
-    if col in OPTIONAL_NUMERIC[which]:
-        return finish(doc, which, "valid", note=f"optional {col}={token!r}")
+    if which == "members" and col in ("fy_mpa", "lambda", "face_i_mm", "face_j_mm") and token == "":
+        # an empty cell of a members column with a documented default takes the default
+        return finish(doc, which, "valid", note=f"{col}='' (the default)")
+    # issue 9: a missing value in a present optional column (face_i_mm, N_kN) is an error too; it
+    # used to become 0 (a beam under 300 kN tension given as #N/A lost a sixth of its utilization)
     return finish(doc, which, "invalid", r, [col], f"{col}={token!r}")
 
 
@@ -247,7 +250,11 @@ def op_latin1(rng, which, k=0):
     r = rng.randrange(len(doc.rows))
     doc.rows[r][doc.header.index(col)] = "B" + PLACEHOLDER
     byte = rng.choice([b"\xe9", b"\xfc", b"\xb0", b"\x93x\x94", b"\xff\xfe"])  # latin-1 / cp1252 bytes
-    return finish(doc, which, "invalid", r, (), f"{col} latin-1 {byte!r}", raw={PLACEHOLDER: byte})
+    # issue 9: a file with no UTF-8 in it is read as Windows-1252 (with a notice); with a UTF-8 BOM or
+    # UTF-8 text elsewhere in it, the stray byte is an error on its line
+    utf8 = doc.bom or any(ord(c) > 0x7F for c in doc.render()[0].replace(PLACEHOLDER, ""))
+    return finish(doc, which, "invalid" if utf8 else "valid", r if utf8 else None, (), f"{col} latin-1 {byte!r}",
+                  raw={PLACEHOLDER: byte})
 
 
 def op_random_bytes_field(rng, which, k=0):
@@ -258,8 +265,10 @@ def op_random_bytes_field(rng, which, k=0):
     doc.rows[r][doc.header.index(col)] = PLACEHOLDER
     # a continuation byte first: never UTF-8
     raw = bytes([rng.randrange(0x80, 0xC0)] + [rng.randrange(0x80, 0x100) for _ in range(rng.randint(0, 8))])
-    # in a column the tool does not read, the bytes may be ignored (the documents leave it open)
-    expect = "invalid" if col in BASE[which][0] else "either"
+    # a numeric or choice column refuses them in any encoding; elsewhere they may be Windows-1252 text
+    # (issue 9: a file without UTF-8 in it is read as Windows-1252), or ignored in a column not read
+    closed = REQUIRED_NUMERIC[which] + OPTIONAL_NUMERIC[which] + CHOICE_TEXT[which]
+    expect = "invalid" if col in closed else "either"
     return finish(doc, which, expect, r, (), f"{col} bytes {raw!r}", raw={PLACEHOLDER: raw})
 
 
@@ -275,7 +284,9 @@ def op_whole_encoding(rng, which, k=0):
     doc = base_doc(which)
     text, _ = doc.render()
     enc = rng.choice(["utf-16", "utf-16-le", "utf-16-be", "utf-32", "cp500"])
-    return Case(which, text.encode(enc), "invalid", 1, (), f"whole file in {enc}")
+    # issue 9: UTF-16 with or without a byte-order mark is read (it used to be "every column missing")
+    expect = "valid" if enc.startswith("utf-16") else "invalid"
+    return Case(which, text.encode(enc), expect, 1 if expect == "invalid" else None, (), f"whole file in {enc}")
 
 
 def op_nul(rng, which, k=0):
@@ -295,7 +306,8 @@ def op_nul(rng, which, k=0):
         return finish(doc, which, "invalid", -1, [BASE[which][0][0], "\x00" + BASE[which][0][0]], "NUL in the header")
     col = rng.choice(FREE_TEXT[which])
     doc.rows[r][doc.header.index(col)] = "B\x001"
-    return finish(doc, which, "either", r, [col], "NUL in a text field")
+    # issue 9: a NUL byte is a damaged file wherever it stands
+    return finish(doc, which, "invalid", r, [col], "NUL in a text field")
 
 
 def op_truncate(rng, which, k=0):
@@ -336,7 +348,7 @@ def truncation_case(which: str, cut: str, note: str) -> Case:
     last, value = header[-1], fields[-1]
     if last in OPTIONAL_NUMERIC[which]:
         try:
-            float(value) if value else 0.0
+            float(value)  # issue 9: a blank optional number is missing, an error (it used to be 0)
         except ValueError:
             return Case(which, data, "invalid", line, (last,), note)
     return Case(which, data, "valid", None, (), note)

@@ -17,7 +17,7 @@ import pytest
 from postproc import cli
 from postproc.html_report import BANDS, COORDS, LEFT, PW, THIN_TOL_PX, thin, utilization_band, write_html_report
 from postproc.report import CAUTION
-from postproc.store import Run, Store
+from postproc.store import SEALED_FOLDERS, Run, Store, seal_folder
 from tests.conftest import beam, design, rows_from_function
 
 CHROMIUM = Path("/usr/bin/chromium")
@@ -192,6 +192,7 @@ def test_strips_and_no_plans_without_coordinates(demo, tmp_path):
     run, _, _, members, _ = demo
     copy = Run(shutil.copytree(run.path, tmp_path / "store" / run.name))  # the demo without its coordinates
     pq.write_table(run.members().drop_columns(COORDS), copy.path / "members.parquet")
+    seal_folder(copy.path, skip=SEALED_FOLDERS)  # edited on purpose: sealed anew
     html = write_html_report(copy, tmp_path / "r.html").read_text(encoding="utf-8")
     overview = overview_of(html)
     assert "Overview by level" in overview and "No plans" in overview and "gives no member coordinates" in overview
@@ -228,6 +229,7 @@ def test_plans_from_coordinates(small, tmp_path):
         table = table.drop_columns([name]) if name in table.column_names else table
         table = table.append_column(name, pa.array(coords[name]))
     pq.write_table(table, copy.path / "members.parquet")
+    seal_folder(copy.path, skip=SEALED_FOLDERS)  # the copy is a new run: its manifest lists the new file
     html = write_html_report(copy, tmp_path / "r.html").read_text(encoding="utf-8")
     overview = overview_of(html)
     plans = re.findall(r'<figure class="plan">(.*?)</figure>', overview, re.S)

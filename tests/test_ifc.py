@@ -320,6 +320,8 @@ def test_flanged_profiles(schema, unit, tmp_path):
         curve = m.f.createIfcIndexedPolyCurve(coords, segments, False)
         m.beam("P", (0, 9, 0), (6, 9, 0), m.f.create_entity("IfcArbitraryClosedProfileDef", ProfileType="AREA",
                                                             OuterCurve=curve))
+    for y in (0, 3, 6, 9):  # a column under each beam's end i: a beam needs a support (else it is invalid)
+        m.column(f"C{y}", 0, y)
     rows = rows_by(read_ifc_members(m.write(tmp_path / "t.ifc"), key="name")[0])
     expected = [("T", 300, 1200, 150), ("A", 300, 1200, 150), ("L", 200, 800, 200)]
     for name, b, bf, hf in expected + ([("P", 300, 1200, 150)] if schema == "IFC4" else []):
@@ -406,6 +408,7 @@ def test_values_read_members_would_refuse_make_the_member_invalid(tmp_path):
     m = Model("IFC4", "m")
     m.beam("OK", (0, 0, 0), (5, 0, 0), m.rect(0.3, 0.5))
     m.beam("SHALLOW", (0, 2, 0), (5, 2, 0), m.rect(0.3, 0.05))  # cover 60 mm > h 50 mm
+    m.column("C0", 0, 0), m.column("C2", 0, 2)
     rows = rows_by(read_ifc_members(m.write(tmp_path / "c.ifc"), key="name")[0])
     assert rows["OK"]["invalid_reason"] is None
     assert rows["SHALLOW"]["invalid_reason"].startswith("effective depth")
@@ -421,8 +424,13 @@ def test_tolerance_decides_what_frames_in(tmp_path):
     rows = rows_by(read_ifc_members(path, key="name")[0])
     assert (rows["NEAR"]["support_i"], rows["NEAR"]["face_i_mm"]) == ("column", 0.0)
     assert rows["FAR"]["support_i"] == "free" and rows["HIGH"]["support_i"] == "free"
+    # issue 9: FAR and HIGH rest on nothing at either end; they were designed free-free, which
+    # members.csv refuses
+    for name in ("FAR", "HIGH"):
+        assert rows[name]["invalid_reason"].startswith("no support found at either end within 50 mm")
+    assert rows["NEAR"]["invalid_reason"] is None
     wide = rows_by(read_ifc_members(path, key="name", defaults=IfcDefaults(tolerance_mm=150))[0])
-    assert wide["FAR"]["support_i"] == "column"
+    assert wide["FAR"]["support_i"] == "column" and wide["FAR"]["invalid_reason"] is None
 
 
 def structural(schema: str, tmp_path):
@@ -504,7 +512,7 @@ def test_not_ifc_and_truncated_files_are_input_errors(tmp_path, frames):
         read_ifc_members(cut)
     bad_header = tmp_path / "header.ifc"
     bad_header.write_text("ISO-10303-21;\nHEADER;\nthis is not a header\nEND-ISO-10303-21;\n")
-    with pytest.raises(InputError, match="header.ifc: could not be read as IFC"):
+    with pytest.raises(InputError, match="header.ifc.*could not be read as IFC"):
         read_ifc_members(bad_header)
     with pytest.raises(InputError, match="file not found"):
         read_ifc_members(tmp_path / "missing.ifc")

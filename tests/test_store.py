@@ -62,3 +62,16 @@ def test_failed_write_leaves_nothing_visible(tmp_path):
     with pytest.raises(RuntimeError):
         store._atomic(tmp_path / "r1", boom)
     assert list(tmp_path.iterdir()) == []
+
+
+def test_a_design_written_after_the_ingest_is_sealed_in(tmp_path):
+    """`shearpost bench` ingests a run, then designs it (to time the two apart): the design is
+    added under the run's lock and the manifest sealed again, listing its files (issue 9)."""
+    from postproc import cli
+
+    keep = tmp_path / "bench"
+    assert cli.main(["bench", "--members", "40", "--cases", "3", "--stations", "5", "--sample", "3", "--workers", "1",
+                     "--keep", str(keep), "--json"]) == cli.EXIT_OK
+    (run,) = Store(keep / "store").runs()
+    assert "design/members.parquet" in run.files() and run.listed_under("design/stations")
+    assert run.verify() == []

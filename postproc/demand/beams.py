@@ -229,11 +229,12 @@ def check_layout(sec: Section, cand: Candidates, dem: Demand, bar_area, legs, sp
             util = np.maximum(util, np.where(p.torsion, np.where(leg > 0, need / leg, np.inf), 0.0))
             tl = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[st], ph[st])
             util = np.maximum(util, np.where(p.torsion, tl, 0.0))
-    util = np.where(np.isnan(util), np.inf, util)  # NaN fails
+    finite = np.isfinite(p.vu) & np.isfinite(p.tu) & np.isfinite(phi_vn)  # (a NaN Vu would read as Vu = 0)
+    util = np.where(np.isnan(util) | ~finite, np.inf, util)  # NaN fails
     station_util = _segment_max(util, cand.bounds)
     s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph)), dem.s_max)
     ok = station_util <= 1.0 + tol
-    ok &= np.where(here, spacing <= s_max * (1 + tol), True)
+    ok &= np.where(here, spacing <= s_max * (1 + tol), True) & ~np.isnan(spacing)
     ok &= ~dem.minimum | has_min
     ok &= dem.shear_ratio <= 1.0 + tol
     needed = np.isfinite(spacing) & dem.stirrups_needed

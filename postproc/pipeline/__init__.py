@@ -84,6 +84,10 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     rules = stations.end_rules(g, grid, samples, settings.stations)
     at_station = case_vals
     case_vals = {k: v[:, rules.source] for k, v in case_vals.items()}
+    finite = np.all([np.isfinite(v).all(axis=0) for v in case_vals.values()], axis=0)
+    if not finite.all():  # validated inputs never give one: a defect, stopped as a failed self-check is
+        k = np.flatnonzero(~finite)[0]
+        raise SelfCheckError(f"member {names[grid.member[k]]}: a design force is not finite at x = {grid.x[k]:.0f} mm")
 
     warnings = []
     for m in np.unique(grid.member[missing.any(axis=0)]):
