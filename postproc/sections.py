@@ -1,4 +1,5 @@
-"""Flexural strength of reinforced-concrete sections with axial load, ACI 318-19 (SI: N, mm, MPa).
+"""Flexural strength of reinforced-concrete sections with axial load, ACI 318-19, in either
+edition's units (SI: N, mm, MPa; inch-pound: lb, in, psi; the ``u`` of every constructor).
 
 Strain compatibility with the equivalent rectangular stress block of 22.2: plane sections
 (22.2.1.2), concrete strain 0.003 at the extreme compression fibre (22.2.2.1), a uniform
@@ -23,9 +24,11 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from postproc.codes.aci318_19 import SI, Edition
+
 ALPHA1 = 0.85  # 22.2.2.4.1: stress 0.85 f'c over the equivalent block
 EPS_CU = 0.003  # 22.2.2.1: maximum usable strain at the extreme concrete compression fibre
-ES_MPA = 200_000.0  # 20.2.2.2: modulus of elasticity of nonprestressed bars
+ES_MPA = SI.es  # 20.2.2.2: modulus of elasticity of nonprestressed bars (SI; the edition's es in general)
 MPR_STEEL_FACTOR = 1.25  # Chapter 2, definition of Mpr (used by 18.6.5.1, 18.7.6.1.1, 18.8.2.1)
 PN_MAX_TIED = 0.80  # Table 22.4.2.1: Pn,max = 0.80 Po, ties conforming to 22.4.2.4
 PN_MAX_SPIRAL = 0.85  # Table 22.4.2.1: Pn,max = 0.85 Po, spirals conforming to 22.4.2.5
@@ -38,20 +41,21 @@ _BISECTION_STEPS = 48  # the bracket [0, 1000 h] shrinks to about 4e-12 h
 _C_MAX_OVER_H = 1000.0  # at c = 1000 h every fibre is practically at eps_cu
 
 
-def beta1(fc):
-    """Stress-block depth factor (Table 22.2.2.4.3): 0.85 up to 28 MPa, 0.85 - 0.05 (f'c - 28)/7
-    between, 0.65 from 55 MPa."""
+def beta1(fc, u: Edition = SI):
+    """Stress-block depth factor (Table 22.2.2.4.3): 0.85 up to 28 MPa | 4000 psi,
+    0.85 - 0.05 (f'c - 28)/7 | 0.85 - 0.05 (f'c - 4000)/1000 between, 0.65 from 55 MPa | 8000 psi."""
     fc = np.asarray(fc, dtype=float)
-    return np.where(fc >= 55.0, 0.65, np.clip(0.85 - 0.05 * (fc - 28.0) / 7.0, 0.65, 0.85))
+    low, high = u.beta1_fc
+    return np.where(fc >= high, 0.65, np.clip(0.85 - 0.05 * (fc - low) / u.beta1_step, 0.65, 0.85))
 
 
-def phi_axial_flexure(eps_t, fy, spiral=False):
+def phi_axial_flexure(eps_t, fy, spiral=False, u: Edition = SI):
     """phi for moment, axial force or both (Table 21.2.2), from the net tensile strain eps_t.
 
     eps_ty = fy/Es (21.2.2.1). Compression-controlled (eps_t <= eps_ty): 0.65, or 0.75 with
     spirals; tension-controlled (eps_t >= eps_ty + 0.003): 0.90; linear between.
     """
-    eps_ty = np.asarray(fy, dtype=float) / ES_MPA
+    eps_ty = np.asarray(fy, dtype=float) / u.es
     low = np.where(spiral, PHI_COMPRESSION_SPIRAL, PHI_COMPRESSION_TIED)
     t = np.clip((np.asarray(eps_t, dtype=float) - eps_ty) / TRANSITION_STRAIN, 0.0, 1.0)
     return low + (PHI_TENSION_CONTROLLED - low) * t
@@ -67,6 +71,7 @@ class Sections:
     bar_area, bar_z, bar_db (n, m): steel layers (area 0 = padding), bar_db the diameter
     of one bar of the layer (the width over which it displaces the block).
     fc, fy (n,); spiral (n,): spiral or circular-hoop confinement (22.4.2.1, Table 21.2.2).
+    u: the edition whose units the arrays are in (beta1, Es).
     """
 
     h: np.ndarray
@@ -80,10 +85,11 @@ class Sections:
     fc: np.ndarray
     fy: np.ndarray
     spiral: np.ndarray
+    u: Edition = SI
 
     def take(self, index) -> Sections:
         """The sections at these indices (repeat a section to pair it with several axial loads)."""
-        return Sections(**{f.name: getattr(self, f.name)[index] for f in fields(self)})
+        return Sections(**{f.name: getattr(self, f.name)[index] for f in fields(self) if f.name != "u"}, u=self.u)
 
     @property
     def gross_area(self):
@@ -109,19 +115,19 @@ def _column(values, n):
     return np.broadcast_to(np.asarray(values, dtype=float), (n,)).astype(float)
 
 
-def _sections(h, widths, tops, bottoms, diameter, bar_area, bar_z, bar_db, fc, fy, spiral):
+def _sections(h, widths, tops, bottoms, diameter, bar_area, bar_z, bar_db, fc, fy, spiral, u: Edition):
     n = bar_area.shape[0]
     return Sections(
         h=_column(h, n), piece_width=np.asarray(widths, float), piece_top=np.asarray(tops, float),
         piece_bottom=np.asarray(bottoms, float), diameter=_column(diameter, n),
         bar_area=np.asarray(bar_area, float), bar_z=np.asarray(bar_z, float),
         bar_db=np.broadcast_to(np.asarray(bar_db, float), bar_area.shape).astype(float),
-        fc=_column(fc, n), fy=_column(fy, n), spiral=np.broadcast_to(np.asarray(spiral, bool), (n,)).copy(),
+        fc=_column(fc, n), fy=_column(fy, n), spiral=np.broadcast_to(np.asarray(spiral, bool), (n,)).copy(), u=u,
     )
 
 
 def beam_sections(b, h, d, as_top, as_bot, fc, fy, d_prime=None, bf=None, hf=None,
-                  db_top=0.0, db_bot=0.0) -> Sections:
+                  db_top=0.0, db_bot=0.0, u: Edition = SI) -> Sections:
     """Beams with one layer of top bars and one of bottom bars, and an optional top flange.
 
     d: top face to the centroid of the bottom bars; d_prime: top face to the centroid of the
@@ -142,7 +148,7 @@ def beam_sections(b, h, d, as_top, as_bot, fc, fy, d_prime=None, bf=None, hf=Non
     bar_area = np.stack([_column(as_top, n), _column(as_bot, n)], axis=1)
     bar_z = np.stack([d_prime, d], axis=1)
     bar_db = np.stack([_column(db_top, n), _column(db_bot, n)], axis=1)
-    return _sections(h, widths, tops, bottoms, 0.0, bar_area, bar_z, bar_db, fc, fy, False)
+    return _sections(h, widths, tops, bottoms, 0.0, bar_area, bar_z, bar_db, fc, fy, False, u)
 
 
 def perimeter_bar_split(b, h, n_long, edge):
@@ -163,7 +169,7 @@ def perimeter_bar_split(b, h, n_long, edge):
 
 
 def rectangular_column_sections(b, h, n_long, db_long, edge, fc, fy, direction="h", bar_area=None,
-                                spiral=False) -> Sections:
+                                spiral=False, u: Edition = SI) -> Sections:
     """Rectangular columns with n_long bars around the perimeter (perimeter_bar_split).
 
     edge: face to bar centre. direction "h": bending with h as the depth (shear parallel to
@@ -186,11 +192,12 @@ def rectangular_column_sections(b, h, n_long, db_long, edge, fc, fy, direction="
     area = np.where(j < rows[:, None], one_bar[:, None] * np.where(end_row, face_bars[:, None] + 2, 2), 0.0)
     z = edge[:, None] + j * (depth - 2 * edge)[:, None] / (rows - 1)[:, None]
     n = b.shape[0]
-    return _sections(depth, width[:, None], np.zeros((n, 1)), depth[:, None], 0.0, area, z, db_long[:, None], fc, fy, spiral)
+    return _sections(depth, width[:, None], np.zeros((n, 1)), depth[:, None], 0.0, area, z, db_long[:, None], fc, fy,
+                     spiral, u)
 
 
 def circular_column_sections(diameter, n_long, db_long, edge, fc, fy, theta0=np.pi / 2, bar_area=None,
-                             spiral=True) -> Sections:
+                             spiral=True, u: Edition = SI) -> Sections:
     """Circular columns with n_long bars equally spaced on a circle edge from the face.
 
     The first bar sits at angle theta0 from the horizontal axis (pi/2: at the top, the
@@ -205,16 +212,17 @@ def circular_column_sections(diameter, n_long, db_long, edge, fc, fy, theta0=np.
     z = D[:, None] / 2.0 - (D / 2.0 - edge)[:, None] * np.sin(angle)
     area = np.where(k < n_long[:, None], one_bar[:, None], 0.0)
     n = D.shape[0]
-    return _sections(D, np.zeros((n, 1)), np.zeros((n, 1)), np.zeros((n, 1)), D, area, z, db_long[:, None], fc, fy, spiral)
+    return _sections(D, np.zeros((n, 1)), np.zeros((n, 1)), np.zeros((n, 1)), D, area, z, db_long[:, None], fc, fy,
+                     spiral, u)
 
 
-def layered_sections(b, h, bar_area, bar_z, bar_db, fc, fy, spiral=False) -> Sections:
+def layered_sections(b, h, bar_area, bar_z, bar_db, fc, fy, spiral=False, u: Edition = SI) -> Sections:
     """Rectangular sections with explicit steel layers (n, m): area, depth from the top face, bar diameter."""
     bar_area = np.atleast_2d(np.asarray(bar_area, float))
     n = bar_area.shape[0]
     b, h = _column(b, n), _column(h, n)
     return _sections(h, b[:, None], np.zeros((n, 1)), h[:, None], 0.0, bar_area,
-                     np.atleast_2d(np.asarray(bar_z, float)), bar_db, fc, fy, spiral)
+                     np.atleast_2d(np.asarray(bar_z, float)), bar_db, fc, fy, spiral, u)
 
 
 @dataclass(frozen=True)
@@ -266,12 +274,12 @@ class _Oriented:
     def actions(self, c, steel_factor):
         sec = self.sec
         fc, fy = sec.fc, sec.fy * steel_factor
-        a = beta1(fc) * c
+        a = beta1(fc, sec.u) * c
         block_area, block_first = self.block(a)
         concrete = ALPHA1 * fc * block_area
         depth_c = block_first / np.where(block_area > 0.0, block_area, 1.0)
         u = self.bar_u
-        stress = np.clip(ES_MPA * EPS_CU * (c[:, None] - u) / c[:, None], -fy[:, None], fy[:, None])
+        stress = np.clip(sec.u.es * EPS_CU * (c[:, None] - u) / c[:, None], -fy[:, None], fy[:, None])
         displaced = np.clip((a[:, None] - (u - self.half_db)) / (2.0 * self.half_db), 0.0, 1.0)
         bar_force = sec.bar_area * (stress - ALPHA1 * fc[:, None] * displaced)
         axial = concrete + bar_force.sum(axis=1)
@@ -293,7 +301,7 @@ def section_actions(sec: Sections, c, sign, steel_factor=1.0):
 class MomentAtAxial:
     """Moment strength of each (section, P) pair.
 
-    moment (N mm): phi * M for ``design_moment``, M otherwise; NaN where no strain state
+    moment (N mm | lb in): phi * M for ``design_moment``, M otherwise; NaN where no strain state
     balances P (beyond pure tension or the squash load) or, for design, where Pu exceeds
     phi Pn,max. c: neutral-axis depth; eps_t: net tensile strain; phi: Table 21.2.2 (1.0
     for nominal and probable strengths). above_pn_max: P > Pn,max of 22.4.2.1.
@@ -324,7 +332,7 @@ def _solve(sec: Sections, target, sign, steel_factor, with_phi):
 
     def axial(c):
         p, m, eps_t = oriented.actions(c, steel_factor)
-        phi = phi_axial_flexure(eps_t, sec.fy, sec.spiral) if with_phi else np.ones(n)
+        phi = phi_axial_flexure(eps_t, sec.fy, sec.spiral, sec.u) if with_phi else np.ones(n)
         return phi * p, m, eps_t, phi
 
     lo, hi = np.zeros(n), _C_MAX_OVER_H * sec.h
@@ -381,7 +389,7 @@ def largest_over_axial(sec: Sections, P, sign=1, kind="probable"):
 
 @dataclass(frozen=True)
 class BeamEndStrengths:
-    """Mn and Mpr (N mm) of beam end sections for both signs: ``pos`` with the bottom bars in
+    """Mn and Mpr (N mm | lb in) of beam end sections for both signs: ``pos`` with the bottom bars in
     tension (sagging, the flange in compression), ``neg`` with the top bars in tension.
     eps_t_* the net tensile strain at Mn, phi_* by Table 21.2.2."""
 
@@ -396,16 +404,16 @@ class BeamEndStrengths:
 
 
 def beam_end_strengths(b, h, d, as_top, as_bot, fc, fy, d_prime=None, bf=None, hf=None,
-                       db_top=0.0, db_bot=0.0) -> BeamEndStrengths:
+                       db_top=0.0, db_bot=0.0, u: Edition = SI) -> BeamEndStrengths:
     """Mn (22.2) and Mpr (1.25 fy, phi = 1; 18.6.5.1) of beam sections at P = 0, both signs.
 
     Arguments as ``beam_sections``; every one may be an array over many beam ends.
     """
-    sec = beam_sections(b, h, d, as_top, as_bot, fc, fy, d_prime, bf, hf, db_top, db_bot)
+    sec = beam_sections(b, h, d, as_top, as_bot, fc, fy, d_prime, bf, hf, db_top, db_bot, u)
     pos, neg = nominal_moment(sec, 0.0, +1), nominal_moment(sec, 0.0, -1)
     return BeamEndStrengths(
         mn_pos=pos.moment, mn_neg=neg.moment,
         mpr_pos=probable_moment(sec, 0.0, +1).moment, mpr_neg=probable_moment(sec, 0.0, -1).moment,
         eps_t_pos=pos.eps_t, eps_t_neg=neg.eps_t,
-        phi_pos=phi_axial_flexure(pos.eps_t, sec.fy), phi_neg=phi_axial_flexure(neg.eps_t, sec.fy),
+        phi_pos=phi_axial_flexure(pos.eps_t, sec.fy, u=u), phi_neg=phi_axial_flexure(neg.eps_t, sec.fy, u=u),
     )
