@@ -39,11 +39,17 @@ from postproc.adapters.errors import InputError, read_toml
 
 DIALECT_KEYS = ("encoding", "delimiter", "decimal")  # how the file is written (else detected)
 
-# Our column suffix -> the unit our column carries, and the quantity in words.
+# Our column suffix -> the unit our column carries, and the quantity in words. Both unit
+# systems' spellings (postproc.units): a column named in either carries its own unit.
+_LENGTH, _FORCE = "length (mm, m, in, ft, ...)", "force (N, kN, kip, lbf, ...)"
+_MOMENT = "moment (kN*m, N*mm, kip*ft, ...)"
 _SUFFIX = {
-    "_mm2": ("mm**2", "area (mm2, cm2, in2, ...)"), "_kNm": ("kN*m", "moment (kN*m, N*mm, kip*ft, ...)"),
-    "_kN": ("kN", "force (N, kN, kip, lbf, ...)"), "_mm": ("mm", "length (mm, m, in, ft, ...)"),
-    "_m": ("m", "length (m, mm, ft, in, ...)"), "_mpa": ("MPa", "stress (MPa, N/mm2, psi, ksi, ...)"),
+    "_mm2": ("mm**2", "area (mm2, cm2, in2, ...)"), "_in2": ("inch**2", "area (in2, mm2, cm2, ...)"),
+    "_kNm": ("kN*m", _MOMENT), "_kipft": ("kip*ft", _MOMENT),
+    "_kN": ("kN", _FORCE), "_kip": ("kip", _FORCE),
+    "_mm": ("mm", _LENGTH), "_in": ("inch", _LENGTH), "_ft": ("ft", _LENGTH), "_m": ("m", _LENGTH),
+    "_mpa": ("MPa", "stress (MPa, N/mm2, psi, ksi, ...)"), "_psi": ("psi", "stress (psi, ksi, MPa, ...)"),
+    "_ksi": ("ksi", "stress (ksi, psi, MPa, ...)"),
 }
 # moments written without an operator, as tables often do (kNm: kilonewton metre, not a prefixed unit)
 _RUN_TOGETHER = {"Nm": "N*m", "kNm": "kN*m", "MNm": "MN*m", "Nmm": "N*mm", "kNmm": "kN*mm"}
@@ -65,6 +71,11 @@ def _pint_spelling(unit: str) -> str:
     return re.sub(r"(?<=[A-Za-z])([23])\b", r"**\1", text)
 
 
+def quantity_factor(unit: str, ours: str) -> float:
+    """Factor that turns a value in ``unit`` into one in ``ours`` (pint spellings)."""
+    return float(_registry().Quantity(1.0, _pint_spelling(str(unit))).to(ours).magnitude)
+
+
 def unit_factor(our_column: str, unit: str) -> float:
     """Factor that turns a value in ``unit`` into the unit our column name carries.
     KeyError for a unit pint does not know or one of another quantity."""
@@ -73,7 +84,7 @@ def unit_factor(our_column: str, unit: str) -> float:
     for suffix, (ours, quantity) in _SUFFIX.items():
         if our_column.endswith(suffix):
             try:
-                return float(_registry().Quantity(1.0, _pint_spelling(str(unit))).to(ours).magnitude)
+                return quantity_factor(unit, ours)
             except pint.DimensionalityError:
                 raise KeyError(f"unit '{unit}' is not a unit of {quantity}") from None
             except Exception:  # noqa: BLE001 - pint's parser raises assorted errors on malformed text

@@ -1,5 +1,7 @@
 """Project settings: a TOML file (``--config``) over common-practice defaults.
 
+    units = "si"                    # "si" (N, mm, MPa) or "us" (inch-pound: lb, in, psi); --units overrides
+
     [combinations]
     reduced_live_factor = false     # ACI 318-19 5.3.3: 0.5L in 5.3.1 (c), (d), (e)
 
@@ -42,23 +44,49 @@
 Omega_o comes from the general building code, not from ACI 318: 3.0 is the value commonly
 tabulated there for reinforced-concrete moment frames (from memory); set the one your code
 gives.
+
+In an inch-pound run (``units = "us"``) the settings carry inch-pound names and defaults
+(``max_step_in = 2``, ``point_load_kip = 0.2``, ``tolerance_in = 0.04``,
+``steep_slope_kip_per_ft = 137``; ladder of #3, #4, #5 bars, ``spacing_module_in = 1``,
+``min_spacing_in = 3``, ``first_stirrup_in = 2``, ``clear_cover_in = 1.5``; ``fc_psi =
+5000``, ``fyt_psi = 60000``, ``cover_in = 2.5``, ``tolerance_in = 2``,
+``length_tolerance_in = 0.75``; ``joint_tolerance_in = 2``). A setting may be spelt in
+either system (``min_spacing_mm = 75`` in an inch-pound run is 2.95 in); giving both
+spellings of one is an error.
+
+The stages read the unit-carrying settings through unit-neutral properties in the run's
+internal units (``detailing.min_spacing``: mm or in; ``stations.point_load``: N or lb).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import asdict, dataclass, field, fields, replace
+from typing import ClassVar
 from pathlib import Path
 
 from postproc.adapters.errors import InputError, read_toml
 
-# ASTM A615/A615M Table 1: nominal diameter (mm) and area (mm^2) of deformed bars.
+# ASTM A615/A615M Table 1: nominal diameter (mm) and area (mm^2) of deformed bars (A615M designations).
 BAR_CATALOGUE = {
     "#10": (9.5, 71.0),
     "#13": (12.7, 129.0),
     "#16": (15.9, 199.0),
     "#19": (19.1, 284.0),
 }
+# ASTM A615/A615M Table 1: nominal diameter (in) and area (in^2) of deformed bars (inch-pound designations).
+BAR_CATALOGUE_US = {
+    "#3": (0.375, 0.11),
+    "#4": (0.500, 0.20),
+    "#5": (0.625, 0.31),
+    "#6": (0.750, 0.44),
+}
+BARS = {"si": BAR_CATALOGUE, "us": BAR_CATALOGUE_US}
+
+
+def bar_catalogue(units: str) -> dict[str, tuple[float, float]]:
+    """The bar sizes of a unit system: name -> (nominal diameter, area), mm and mm^2 or in and in^2."""
+    return BARS[units]
 
 
 @dataclass(frozen=True)
@@ -68,6 +96,8 @@ class Combinations:
 
 @dataclass(frozen=True)
 class Stations:
+    """Station grid and force-table tolerances, SI."""
+
     max_step_mm: float = 50.0
     steps_per_d: float = 8.0
     point_load_kN: float = 1.0
@@ -75,9 +105,72 @@ class Stations:
     tolerance_mm: float = 1.0
     steep_slope_kN_per_m: float = 2000.0
 
+    # in the run's internal units (N, mm), as the stages use them
+    coverage_slack: ClassVar[float] = 10.0  # forces this short of a face are exported stations rounded (mm)
+
+    @property
+    def max_step(self) -> float:
+        return self.max_step_mm
+
+    @property
+    def tolerance(self) -> float:
+        return self.tolerance_mm
+
+    @property
+    def point_load(self) -> float:
+        """A jump in V larger than this (N) may be a concentrated load."""
+        return self.point_load_kN * 1e3
+
+    @property
+    def point_torque(self) -> float:
+        """The same number read as a torque, kN*m, in N*mm."""
+        return self.point_load_kN * 1e6
+
+    @property
+    def steep_slope(self) -> float:
+        return self.steep_slope_kN_per_m  # N/mm
+
+
+@dataclass(frozen=True)
+class StationsUS:
+    """Station grid and force-table tolerances, inch-pound (the SI defaults rounded: common practice)."""
+
+    max_step_in: float = 2.0
+    steps_per_d: float = 8.0
+    point_load_kip: float = 0.2
+    point_load_fraction: float = 0.02
+    tolerance_in: float = 0.04
+    steep_slope_kip_per_ft: float = 137.0
+
+    coverage_slack: ClassVar[float] = 0.4  # in
+
+    @property
+    def max_step(self) -> float:
+        return self.max_step_in
+
+    @property
+    def tolerance(self) -> float:
+        return self.tolerance_in
+
+    @property
+    def point_load(self) -> float:
+        """A jump in V larger than this (lb) may be a concentrated load."""
+        return self.point_load_kip * 1e3
+
+    @property
+    def point_torque(self) -> float:
+        """The same number read as a torque, kip*ft, in lb*in."""
+        return self.point_load_kip * 12e3
+
+    @property
+    def steep_slope(self) -> float:
+        return self.steep_slope_kip_per_ft * 1e3 / 12.0  # lb/in
+
 
 @dataclass(frozen=True)
 class Detailing:
+    """Stirrup detailing, SI (common practice)."""
+
     ladder: tuple[tuple[str, int], ...] = (("#10", 2), ("#13", 2), ("#10", 4), ("#13", 4), ("#16", 4))
     spacing_module_mm: float = 25.0
     min_spacing_mm: float = 75.0
@@ -89,6 +182,80 @@ class Detailing:
     stirrup_shape: str = "closed"
     open_hook_deg: int = 90
 
+    units: ClassVar[str] = "si"
+    # set-out resolution (common practice): positions kept to 0.1 mm; the middle run's end
+    # gaps split on whole millimetres; gaps closer than 0.5 mm are one zone; 0.05 mm slack
+    position_decimals: ClassVar[int] = 1
+    setout_step: ClassVar[float] = 1.0
+    same_gap: ClassVar[float] = 0.5
+    gap_slack: ClassVar[float] = 0.05
+
+    @property
+    def bars(self) -> dict[str, tuple[float, float]]:
+        return BAR_CATALOGUE
+
+    @property
+    def spacing_module(self) -> float:
+        return self.spacing_module_mm
+
+    @property
+    def min_spacing(self) -> float:
+        return self.min_spacing_mm
+
+    @property
+    def first_stirrup_at(self) -> float:
+        return self.first_stirrup_mm
+
+    @property
+    def clear_cover(self) -> float:
+        return self.clear_cover_mm
+
+
+@dataclass(frozen=True)
+class DetailingUS:
+    """Stirrup detailing, inch-pound: ASTM A615 bars; spacings on a 1 in module, at least 3 in,
+    the first stirrup 2 in from the face (common practice); clear cover 1.5 in to the
+    stirrup (ACI 318-19 Table 20.5.1.3.1, beams not exposed to weather or ground: 1-1/2 in,
+    from memory)."""
+
+    ladder: tuple[tuple[str, int], ...] = (("#3", 2), ("#4", 2), ("#3", 4), ("#4", 4), ("#5", 4))
+    spacing_module_in: float = 1.0
+    min_spacing_in: float = 3.0
+    first_stirrup: str = "fixed"
+    first_stirrup_in: float = 2.0
+    max_zones_per_end: int = 3
+    stirrups_throughout: bool = True
+    clear_cover_in: float = 1.5
+    stirrup_shape: str = "closed"
+    open_hook_deg: int = 90
+
+    units: ClassVar[str] = "us"
+    # positions kept to 0.001 in; the middle run's end gaps split on 1/8 in (common practice)
+    position_decimals: ClassVar[int] = 3
+    setout_step: ClassVar[float] = 0.125
+    same_gap: ClassVar[float] = 0.02
+    gap_slack: ClassVar[float] = 0.002
+
+    @property
+    def bars(self) -> dict[str, tuple[float, float]]:
+        return BAR_CATALOGUE_US
+
+    @property
+    def spacing_module(self) -> float:
+        return self.spacing_module_in
+
+    @property
+    def min_spacing(self) -> float:
+        return self.min_spacing_in
+
+    @property
+    def first_stirrup_at(self) -> float:
+        return self.first_stirrup_in
+
+    @property
+    def clear_cover(self) -> float:
+        return self.clear_cover_in
+
 
 @dataclass(frozen=True)
 class Ifc:
@@ -97,6 +264,25 @@ class Ifc:
     cover_mm: float = 60.0  # face to centroid of the tension steel, where the model gives none
     tolerance_mm: float = 50.0  # how far a beam end may be from what it frames into
     length_tolerance_mm: float = 20.0  # IFC length against the force table's last station
+
+    def si(self) -> Ifc:
+        """These defaults in SI (the IFC reader works in SI)."""
+        return self
+
+
+@dataclass(frozen=True)
+class IfcUS:
+    fc_psi: float = 5000.0  # common practice
+    fyt_psi: float = 60_000.0  # Grade 60
+    cover_in: float = 2.5
+    tolerance_in: float = 2.0
+    length_tolerance_in: float = 0.75
+
+    def si(self) -> Ifc:
+        from postproc import units
+
+        return Ifc(**{si: getattr(self, f.name) * units.factor(f.name, si)
+                      for f, si in ((f, units.si_name(f.name)) for f in fields(self))})
 
 
 FRAMES = ("none", "ordinary", "intermediate", "special")  # moment frames of ACI 318-19 Chapter 18
@@ -108,55 +294,108 @@ class Frames:
     omega_o: float = 3.0  # overstrength factor for 18.4.2.3(b); the general building code's value (from memory)
     joint_tolerance_mm: float = 50.0  # beam ends within this of a column's joint frame into it
 
+    @property
+    def joint_tolerance(self) -> float:
+        return self.joint_tolerance_mm
+
+
+@dataclass(frozen=True)
+class FramesUS:
+    by_group: dict = field(default_factory=dict)
+    omega_o: float = 3.0
+    joint_tolerance_in: float = 2.0  # the SI 50 mm, rounded (common practice)
+
+    @property
+    def joint_tolerance(self) -> float:
+        return self.joint_tolerance_in
+
 
 @dataclass(frozen=True)
 class Input:
-    # optional numeric column -> value of its missing cells (blank, NaN, #N/A, ...), in our unit;
-    # a column not named here refuses missing cells (an input error naming file, line and column)
+    # optional numeric column -> value of its missing cells (blank, NaN, #N/A, ...), in the unit
+    # its name carries; either spelling (N_kN or N_kip) is accepted and kept in the run's spelling
+    # and unit; a column not named here refuses missing cells (an input error naming file, line
+    # and column)
     fill: dict = field(default_factory=dict)
+
+
+SECTIONS = {
+    "si": {"combinations": Combinations, "stations": Stations, "detailing": Detailing, "ifc": Ifc, "frames": Frames,
+           "input": Input},
+    "us": {"combinations": Combinations, "stations": StationsUS, "detailing": DetailingUS, "ifc": IfcUS,
+           "frames": FramesUS, "input": Input},
+}
 
 
 @dataclass(frozen=True)
 class Settings:
     combinations: Combinations = field(default_factory=Combinations)
-    stations: Stations = field(default_factory=Stations)
-    detailing: Detailing = field(default_factory=Detailing)
-    ifc: Ifc = field(default_factory=Ifc)
-    frames: Frames = field(default_factory=Frames)
+    stations: Stations | StationsUS = field(default_factory=Stations)
+    detailing: Detailing | DetailingUS = field(default_factory=Detailing)
+    ifc: Ifc | IfcUS = field(default_factory=Ifc)
+    frames: Frames | FramesUS = field(default_factory=Frames)
     input: Input = field(default_factory=Input)
+    units: str = "si"  # the run's unit system: "si" or "us" (postproc.units)
 
     def as_dict(self) -> dict:
         return asdict(self)
 
+    @staticmethod
+    def defaults(units: str = "si") -> Settings:
+        """The common-practice settings of a unit system."""
+        kinds = SECTIONS[_units_name(None, units)]
+        return Settings(**{name: cls() for name, cls in kinds.items()}, units=units)
 
-def load_settings(path: str | Path | None) -> Settings:
-    """Settings from a TOML file; unknown sections or keys are errors, not silently ignored."""
+
+def _units_name(path, value) -> str:
+    if value not in SECTIONS:
+        raise InputError(path, f"units must be \"si\" or \"us\" (inch-pound), not {value!r}")
+    return value
+
+
+def load_settings(path: str | Path | None, units: str | None = None) -> Settings:
+    """Settings from a TOML file; unknown sections or keys are errors, not silently ignored.
+    ``units`` ("si" or "us", the command line's --units) overrides the file's ``units``."""
     if path is None:
-        return Settings()
+        return Settings.defaults(_units_name("--units", units or "si"))
     path = Path(path)
-    return validated_settings(read_toml(path, "settings"), path)
+    return validated_settings(read_toml(path, "settings"), path, units)
 
 
-def validated_settings(doc: dict, path: Path) -> Settings:
+def validated_settings(doc: dict, path: Path, units: str | None = None) -> Settings:
     """Settings from the sections of a settings file (or the same as a dict, from Python),
-    checked as the file is; errors name ``path``."""
-    s = Settings()
-    sections = {f.name: f for f in fields(Settings)}
+    checked as the file is; errors name ``path``. ``units`` overrides the document's."""
+    from postproc import units as unit_names
+
+    doc = dict(doc)
+    system = _units_name(path, units or doc.pop("units", "si"))
+    doc.pop("units", None)
+    s = Settings.defaults(system)
+    sections = SECTIONS[system]
     for name, values in doc.items():
         if name not in sections or not isinstance(values, dict):
             raise InputError(path, f"unknown section [{name}]; known: {', '.join(sections)}")
         current = getattr(s, name)
         known = {f.name: f for f in fields(current)}
+        given: dict[str, str] = {}  # field -> the key that set it
         for key, value in values.items():
-            if key not in known:
-                raise InputError(path, f"[{name}] has no setting '{key}'; known: {', '.join(known)}")
-            default = getattr(current, key)
-            if key == "ladder":
-                value = _ladder(path, value)
-            elif key == "by_group":
+            target, scale = key, None
+            if key not in known:  # the other unit system's spelling of a setting
+                target = unit_names.system(system).col(unit_names.si_name(key))
+                if target not in known or target == key:
+                    raise InputError(path, f"[{name}] has no setting '{key}'; known: {', '.join(known)}")
+                scale = unit_names.factor(key, target)
+            if target in given:
+                raise InputError(path, f"[{name}] gives both '{given[target]}' and '{key}' (one setting in two units); "
+                                       "give one")
+            given[target] = key
+            default = getattr(current, target)
+            if target == "ladder":
+                value = _ladder(path, value, current.bars)
+            elif target == "by_group":
                 value = _by_group(path, value)
-            elif key == "fill":
-                value = _fill(path, value)
+            elif target == "fill":
+                value = _fill(path, value, system)
             elif isinstance(default, bool):
                 if not isinstance(value, bool):
                     raise InputError(path, f"[{name}].{key} must be true or false")
@@ -164,19 +403,28 @@ def validated_settings(doc: dict, path: Path) -> Settings:
                 if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
                         or value < 0:  # TOML has nan and inf: neither is a setting
                     raise InputError(path, f"[{name}].{key} must be a non-negative number")
+                if scale is not None:  # converted, to 12 significant digits (76.2 mm is 3 in, not 3.0000000000000004)
+                    value = float(f"{value * scale:.12g}")
                 value = type(default)(value)
-            current = replace(current, **{key: value})
+            current = replace(current, **{target: value})
         s = replace(s, **{name: current})
     d = s.detailing
+    col = unit_names.system(system).col
     if d.first_stirrup not in ("fixed", "half"):
         raise InputError(path, "[detailing].first_stirrup must be \"fixed\" or \"half\"")
-    if d.spacing_module_mm <= 0 or d.min_spacing_mm < d.spacing_module_mm:
-        raise InputError(path, "[detailing] needs spacing_module_mm > 0 and min_spacing_mm >= spacing_module_mm")
+    if d.spacing_module <= 0 or d.min_spacing < d.spacing_module:
+        raise InputError(path, f"[detailing] needs {col('spacing_module_mm')} > 0 and "
+                               f"{col('min_spacing_mm')} >= {col('spacing_module_mm')}")
     if d.stirrup_shape not in ("closed", "open") or d.open_hook_deg not in (90, 135):
         raise InputError(path, "[detailing] needs stirrup_shape \"closed\" or \"open\" and open_hook_deg 90 or 135")
-    if d.stirrup_shape == "open" and any(bar == "#19" for bar, _ in d.ladder):
-        raise InputError(path, "[detailing] open #19 stirrups need the extra embedment of ACI 318-19 25.7.1.3(b), "
-                               "which is not checked: use stirrup_shape = \"closed\" or bars up to #16")
+    from postproc.codes.aci318_19 import edition
+
+    large = [bar for bar, _ in d.ladder if d.bars[bar][0] > edition(system).hook_small_db_max]
+    if d.stirrup_shape == "open" and large:
+        small = [bar for bar, (db, _) in d.bars.items() if db <= edition(system).hook_small_db_max]
+        raise InputError(path, f"[detailing] open {large[0]} stirrups need the extra embedment of ACI 318-19 "
+                               f"25.7.1.3(b), which is not checked: use stirrup_shape = \"closed\" or bars up to "
+                               f"{small[-1]}")
     if d.max_zones_per_end < 1:
         raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
     if s.frames.omega_o <= 0:
@@ -184,13 +432,13 @@ def validated_settings(doc: dict, path: Path) -> Settings:
     return s
 
 
-def _ladder(path: Path, value) -> tuple[tuple[str, int], ...]:
+def _ladder(path: Path, value, bars: dict) -> tuple[tuple[str, int], ...]:
     out = []
     for item in value if isinstance(value, list) else [None]:
-        if (not isinstance(item, list) or len(item) != 2 or item[0] not in BAR_CATALOGUE
+        if (not isinstance(item, list) or len(item) != 2 or item[0] not in bars
                 or not isinstance(item[1], int) or item[1] < 2):
             raise InputError(path, "[detailing].ladder must list [bar, legs] pairs, bar one of "
-                                   f"{', '.join(BAR_CATALOGUE)}, legs a whole number >= 2")
+                                   f"{', '.join(bars)}, legs a whole number >= 2")
         out.append((item[0], item[1]))
     if not out:
         raise InputError(path, "[detailing].ladder must not be empty")
@@ -208,25 +456,42 @@ def _by_group(path: Path, value) -> dict:
     return dict(value)
 
 
-def _fill(path: Path, value) -> dict:
-    from postproc.adapters.csv_tables import FILLABLE  # (the readers' column lists)
+def _fill(path: Path, value, system: str = "si") -> dict:
+    """[input].fill: optional numeric column -> value, either spelling of the column; kept in
+    the run's spelling, the value converted to the run's unit (12 significant digits)."""
+    from postproc import units as unit_names
+    from postproc.adapters.csv_tables import FILLABLE  # (the readers' column lists, our SI names)
 
+    U = unit_names.system(system)
     if not isinstance(value, dict):
-        raise InputError(path, "[input].fill must be a table: fill = { N_kN = 0.0 }")
+        raise InputError(path, f"[input].fill must be a table: fill = {{ {U.col('N_kN')} = 0.0 }}")
+    out: dict[str, float] = {}
+    given: dict[str, str] = {}
     for column, number in value.items():
-        if column not in FILLABLE:
+        si = unit_names.si_name(column)
+        if si not in FILLABLE:
             raise InputError(path, f"[input].fill names '{column}', which is not an optional numeric column; "
-                                   f"one of {', '.join(FILLABLE)}")
+                                   f"one of {', '.join(U.col(c) for c in FILLABLE)}")
         if isinstance(number, bool) or not isinstance(number, (int, float)) or not math.isfinite(number):
             raise InputError(path, f"[input].fill.{column} must be a finite number")
-    return {k: float(v) for k, v in value.items()}
+        ours = U.col(si)
+        if ours in given:
+            raise InputError(path, f"[input].fill gives both '{given[ours]}' and '{column}' (one column in two "
+                                   "units); give one")
+        given[ours] = column
+        out[ours] = float(number) if column == ours else float(f"{number * unit_names.factor(column, ours):.12g}")
+    return out
 
 
 def settings_from_dict(doc: dict) -> Settings:
-    """The settings a run was designed with, from its manifest."""
+    """The settings a run was designed with, from its manifest (a run from before the two
+    unit systems is SI)."""
+    system = doc.get("units", "si")
+    kinds = SECTIONS[system]
     d = dict(doc.get("detailing", {}))
     if "ladder" in d:
         d["ladder"] = tuple((bar, int(legs)) for bar, legs in d["ladder"])
-    return Settings(combinations=Combinations(**doc.get("combinations", {})), stations=Stations(**doc.get("stations", {})),
-                    detailing=Detailing(**d), ifc=Ifc(**doc.get("ifc", {})), frames=Frames(**doc.get("frames", {})),
-                    input=Input(**doc.get("input", {})))
+    return Settings(combinations=kinds["combinations"](**doc.get("combinations", {})),
+                    stations=kinds["stations"](**doc.get("stations", {})), detailing=kinds["detailing"](**d),
+                    ifc=kinds["ifc"](**doc.get("ifc", {})), frames=kinds["frames"](**doc.get("frames", {})),
+                    input=Input(**doc.get("input", {})), units=system)
