@@ -20,6 +20,13 @@ file does not have takes its documented default.
 
 Member and case ids are compared as Unicode NFC with zero-width characters removed
 (both reported where they changed an id).
+
+Units: a column's name carries its unit, and each quantity may be spelt in either unit
+system (``b_mm`` or ``b_in``, ``fc_mpa``, ``fc_psi`` or ``fc_ksi``, ``V_kN`` or ``V_kip``:
+postproc.units), one spelling per table. A table is read into the unit system of the run
+(``units``) and leaves under that system's names. Inside this module the columns go by
+their SI key (``Col.name``, "our column"), whatever the run's units: the checks are
+written once, with their limits in the run's units.
 """
 
 from __future__ import annotations
@@ -27,7 +34,7 @@ from __future__ import annotations
 import codecs
 import csv
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -35,11 +42,13 @@ import pyarrow as pa
 import pyarrow.compute as pac
 import pyarrow.csv as pcsv
 
+from postproc import units as unit_names
 from postproc.adapters import digests, encoding
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap, TableMap
 from postproc.codes import aci318_19 as aci
 from postproc.settings import FRAMES  # moment frames of ACI 318-19 Chapter 18
+from postproc.units import SI, UnitSystem
 
 SUPPORTS = ("column", "wall", "girder", "hanger", "free")
 KINDS = ("beam", "column")
@@ -97,9 +106,9 @@ FORCE_COLUMNS = (
 )
 CASE_COLUMNS = (Col("case", False, True), Col("type", False, True), Col("pattern", False))
 
-KNOWN_COLUMNS = {
-    "members": tuple(c.name for c in MEMBER_COLUMNS),
-    "forces": tuple(c.name for c in FORCE_COLUMNS),
+KNOWN_COLUMNS = {  # every spelling of every column (a mapping file may name any)
+    "members": tuple(sp for c in MEMBER_COLUMNS for sp in unit_names.spellings(c.name)),
+    "forces": tuple(sp for c in FORCE_COLUMNS for sp in unit_names.spellings(c.name)),
     "cases": tuple(c.name for c in CASE_COLUMNS),
 }
 FILLABLE = tuple(c.name for c in (*MEMBER_COLUMNS, *FORCE_COLUMNS) if c.numeric and not c.required)
@@ -212,8 +221,8 @@ def _header(path: Path, table: TableMap, cols: tuple[Col, ...]) -> tuple[list[st
         raise InputError(path, "is a folder, not a CSV file")
     with path.open("rb") as fh:
         head = fh.read(1 << 20)
-    known = {table.source_name(c.name) for c in cols}
-    numeric = {table.source_name(c.name) for c in cols if c.numeric}
+    known = {table.source_name(sp) for c in cols for sp in unit_names.spellings(c.name)}  # either unit system
+    numeric = {table.source_name(sp) for c in cols if c.numeric for sp in unit_names.spellings(c.name)}
     dialect = encoding.detect(path, head, known, numeric, table.encoding, table.delimiter, table.decimal)
     text = codecs.getincrementaldecoder(dialect.encoding)("replace").decode(head[dialect.bom:], final=False)
     if not text.strip():
@@ -230,6 +239,12 @@ def _header(path: Path, table: TableMap, cols: tuple[Col, ...]) -> tuple[list[st
         raise InputError(path, "the header holds a NUL byte (\\x00): the file is damaged or not text", 1,
                          next((n for n in names if "\x00" in n), None))
     return [h if h else _unnamed(k) for k, h in enumerate(names)], dialect
+
+
+def header_names(path: str | Path) -> list[str]:
+    """The names of a members or forces CSV file's header line, trimmed (in the file's own
+    encoding and delimiter)."""
+    return _header(Path(path), TableMap(), (*MEMBER_COLUMNS, *FORCE_COLUMNS))[0]
 
 
 def _strict_prefix(data: bytes, dialect: encoding.Dialect, chars: int) -> str:
@@ -293,7 +308,7 @@ def _diagnose(spec: CsvSpec, exc: Exception) -> InputError:
                     where = dict(line=line, column=spec.table.source_name(c.name))
                     if value.lower() in MISSING_MARKERS:
                         return InputError(path, f"'{value[:40]}' marks a missing value: "
-                                                f"{missing_hint(c.name, c.required)}", **where)
+                                                f"{missing_hint(spec.fill_name(c.name), c.required)}", **where)
                     if not value:
                         return InputError(path, "a cell of spaces only: leave it empty or give the value", **where)
                     other = " (the decimal separator of this file is ',')" if dialect.decimal == "," else ""
@@ -318,7 +333,14 @@ class CsvSpec:
     present: frozenset
     types: dict
     dialect: encoding.Dialect
-    fill: dict = field(default_factory=dict)  # our column -> value for its missing cells
+    fill: dict = field(default_factory=dict)  # our column -> value for its missing cells (the run's unit)
+    units: UnitSystem = SI  # the run's unit system: the columns are read into its units
+
+    def fill_name(self, column: str) -> str:
+        """How the settings' [input] fill names one of our columns: the file's spelling of it,
+        or (a column a mapping file renames) the run's."""
+        src = self.table.source_name(column)
+        return src if unit_names.si_name(src) == column else self.units.col(column)
 
     def read_options(self, block_size: int | None = None) -> pcsv.ReadOptions:
         """Our reading of the header (names trimmed) replaces pyarrow's."""
@@ -380,10 +402,11 @@ class CsvSpec:
             src = self.table.source_name(c.name)
             if src in self.present:
                 arr = raw.column(src).combine_chunks() if raw.num_rows else pa.array([], type=self.types[src])
-                if c.name in self.fill:
-                    arr = _filled(arr, c.name, self.fill[c.name], self.dialect.decimal, probs, tally)
-                if c.numeric and c.name in self.table.factors:
-                    arr = pac.multiply(arr, self.table.factors[c.name])
+                factor = self.table.factors.get(c.name) if c.numeric else None
+                if c.name in self.fill:  # the fill value is in the run's unit: the file's numbers are converted first
+                    arr = _filled(arr, c.name, self.fill[c.name], self.dialect.decimal, probs, tally, factor)
+                elif factor is not None:
+                    arr = pac.multiply(arr, factor)
                 if not c.numeric:
                     arr, changed = normalise_text(pac.utf8_trim_whitespace(arr))
                     if c.name in ("member", "case"):
@@ -431,9 +454,11 @@ def normalise_text(arr: pa.Array) -> tuple[pa.Array, list[tuple[str, str]]]:
     return fixed.take(enc.indices), changed
 
 
-def _filled(arr: pa.Array, column: str, value: float, decimal: str, probs: Problems, tally: Tally) -> pa.Array:
-    """A numeric column read as text, its missing cells (blank or any missing spelling)
-    set to ``value``; a cell that is neither a number nor missing is a problem."""
+def _filled(arr: pa.Array, column: str, value: float, decimal: str, probs: Problems, tally: Tally,
+            factor: float | None = None) -> pa.Array:
+    """A numeric column read as text, its numbers times ``factor`` (into the run's unit) and
+    its missing cells (blank or any missing spelling) set to ``value``; a cell that is
+    neither a number nor missing is a problem."""
     text = pac.utf8_trim_whitespace(arr.cast(pa.string()))
     missing = pac.or_(pac.equal(text, ""), pac.is_in(pac.utf8_lower(text), value_set=pa.array(sorted(MISSING_MARKERS))))
     missing = pac.or_(missing, pac.equal(pac.utf8_lower(text), "nan"))
@@ -447,6 +472,8 @@ def _filled(arr: pa.Array, column: str, value: float, decimal: str, probs: Probl
     if decimal == ",":
         clean = pac.replace_substring(clean, ",", ".")
     numbers = pac.cast(clean, pa.float64())
+    if factor is not None:
+        numbers = pac.multiply(numbers, factor)
     tally.filled[column] = tally.filled.get(column, 0) + int(pac.sum(missing).as_py() or 0)
     return pac.if_else(missing, pa.scalar(float(value)), numbers)
 
@@ -501,34 +528,84 @@ def stream_blocks(spec: CsvSpec, block: int, only: list[str] | None = None):
 
 
 def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
-            fill: dict | None = None) -> CsvSpec:
-    """Check the header: no column named twice, every required column present."""
+            fill: dict | None = None, units: UnitSystem = SI) -> CsvSpec:
+    """Check the header: no column named twice, no quantity in two spellings, every
+    required column present. The spec reads each column under our (SI) key, converted
+    into the unit of ``units``; ``fill`` (column in either spelling -> value in the run's
+    unit) gives the value of the missing cells of optional columns."""
     path = Path(path)
-    table = cmap.table(name)
-    header, dialect = _header(path, table, cols)
+    header, dialect = _header(path, cmap.table(name), cols)
     named = [h for k, h in enumerate(header) if h != _unnamed(k)]
     if len(set(named)) != len(named):
         dup = next(h for h in named if named.count(h) > 1)
         raise InputError(path, "the header names this column twice", 1, dup)
     present = set(named)
+    table = _resolved(path, cmap.table(name), cols, present, units)
     missing = [c for c in cols if c.required and table.source_name(c.name) not in present]
     if missing:
-        raise InputErrors([InputError(path, "required column is missing", 1, table.source_name(c.name)) for c in missing])
+        raise InputErrors([InputError(path, "required column is missing" + _other_spellings(c.name, units), 1,
+                                      table.source_name(c.name)) for c in missing])
+    fill = {unit_names.si_name(k): v for k, v in (fill or {}).items()}
     fills = {c.name: float(fill[c.name]) for c in cols
-             if fill and c.name in fill and c.numeric and not c.required and table.source_name(c.name) in present}
+             if c.name in fill and c.numeric and not c.required and table.source_name(c.name) in present}
     # every column is read, the export's others as text: a quote left open in any of them would
     # otherwise swallow the lines after it unseen
     types = {h: pa.string() for h in header}
     types.update({table.source_name(c.name): (pa.float64() if c.numeric and c.name not in fills else pa.string())
                   for c in cols if table.source_name(c.name) in present})
-    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills)
+    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills, units)
+
+
+def si_keyed(given: TableMap) -> TableMap:
+    """A mapping whose columns are named in either unit system, keyed by the SI names, its
+    factors converting into SI units (for readers that work in SI: element exports)."""
+    columns, factors = {}, {}
+    for key in {*given.columns, *given.factors}:
+        si = unit_names.si_name(key)
+        if key in given.columns:
+            columns[si] = given.columns[key]
+        f = given.factors.get(key, 1.0) * unit_names.factor(key, si)
+        if f != 1.0 or key in given.factors:
+            factors[si] = f
+    return replace(given, columns=columns, factors=factors)
+
+
+def _other_spellings(si: str, units: UnitSystem) -> str:
+    others = [sp for sp in unit_names.spellings(si) if sp != units.col(si)]
+    return f" (or {' or '.join(others)})" if others else ""
+
+
+def _resolved(path: Path, given: TableMap, cols: tuple[Col, ...], present: set[str], units: UnitSystem) -> TableMap:
+    """The mapping under our (SI) keys: for each of our columns, the export column that holds
+    it (a mapping file's, else a header's spelling of it) and the factor into the unit of the
+    run's spelling. Two spellings of one quantity are an error naming the second."""
+    columns, factors = {}, {}
+    for c in cols:
+        spelt = unit_names.spellings(c.name)
+        mapped = [sp for sp in spelt if sp in given.columns or sp in given.factors]
+        found = mapped or [sp for sp in spelt if sp in present]
+        if len(found) > 1:
+            where = "the mapping file maps" if mapped else "the header has"
+            raise InputError(path, f"{where} both {found[0]} and {found[1]}: give each quantity in one unit", 1,
+                             given.source_name(found[1]))
+        if not found:
+            continue
+        sp = found[0]
+        columns[c.name] = given.source_name(sp)
+        f = given.factors.get(sp)
+        to_run = unit_names.factor(sp, units.col(c.name)) if c.numeric else 1.0
+        if to_run != 1.0:
+            f = to_run if f is None else f * to_run
+        if f is not None:
+            factors[c.name] = f
+    return replace(given, columns={k: v for k, v in columns.items() if v != k}, factors=factors)
 
 
 def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
-               fill: dict | None = None) -> tuple[pa.Table, Problems, list[str]]:
-    """Read one (small) CSV whole into a pyarrow table with our column names and units;
-    the problems found so far and the notices."""
-    spec = prepare(path, name, cols, cmap, fill)
+               fill: dict | None = None, units: UnitSystem = SI) -> tuple[pa.Table, Problems, list[str]]:
+    """Read one (small) CSV whole into a pyarrow table with our column keys, in the units of
+    ``units``; the problems found so far and the notices."""
+    spec = prepare(path, name, cols, cmap, fill, units)
     data = digests.read_bytes(spec.path)
     scan = digests.scan_bytes(data, spec.dialect.single_byte_ascii)
     if (problem := spec.scan_problem(scan)) is not None:
@@ -574,7 +651,7 @@ def _check_numbers(t: pa.Table, spec: CsvSpec, probs: Problems, cols: tuple[Col,
         col = t.column(c.name)
         v = _num(t, c.name)
         blank = col.is_null().to_numpy(zero_copy_only=False)
-        hint = missing_hint(c.name, c.required)
+        hint = missing_hint(spec.fill_name(c.name), c.required)
         probs.add(np.isnan(v) & ~blank, c.name, f"missing or NaN value (NaN): {hint}")
         if c.name not in blank_ok:
             probs.add(blank, c.name, f"missing or NaN value (a blank cell): {hint}")
@@ -591,7 +668,7 @@ def _check_text(t: pa.Table, spec: CsvSpec, probs: Problems, cols: tuple[Col, ..
             probs.add(_blank(t, c.name), c.name, "missing value")
         rows, values = _marker_rows(t.column(c.name), c.name in FREE_TEXT)
         probs.add(rows, c.name, [("holds a NUL byte (\\x00): the file is damaged" if "\x00" in v else
-                                  f"'{v}' marks a missing value, not an id or label: {missing_hint(c.name, True)}")
+                                  f"'{v}' marks a missing value, not an id or label: {missing_hint(spec.fill_name(c.name), True)}")
                                  for v in values])
 
 
@@ -634,8 +711,11 @@ PLAUSIBLE_FORCES = {"x_m": (None, 500.0), "V_kN": (-1e6, 1e6), "N_kN": (-1e7, 1e
                     "M_kNm": (-1e8, 1e8)}
 
 
-def _check_plausible(t: pa.Table, probs: Problems, limits: dict) -> None:
+def _check_plausible(t: pa.Table, probs: Problems, limits: dict, units: UnitSystem = SI) -> None:
+    """Limits given in SI, checked in the run's units."""
     for name, (lo, hi) in limits.items():
+        f = unit_names.factor(name, units.col(name))
+        lo, hi = (None if lo is None else lo * f), hi * f
         v = _num(t, name)
         with np.errstate(invalid="ignore"):
             if lo is not None:
@@ -651,14 +731,15 @@ def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, pro
 
 
 def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.ndarray],
-                       support_i: np.ndarray, support_j: np.ndarray) -> list[tuple[np.ndarray, str, str]]:
+                       support_i: np.ndarray, support_j: np.ndarray, named=str) -> list[tuple[np.ndarray, str, str]]:
     """What a moment-frame beam lacks (ACI 318-19 Chapter 18), as (rows, column, message).
 
     Beams of special and intermediate frames need the steel at both faces and the smallest
     bar diameter (Mpr or Mn at the faces: 18.6.5.1, 18.4.2.3(a); hoop spacing: 18.6.4.4,
     18.4.2.4) and a joint at each end (a free end has no Mpr to develop); beams of ordinary
     frames need them only for the two-bar check of 18.3.2, so all or none. ``bars`` holds
-    the BEAM_END_BARS columns (NaN where not given)."""
+    the BEAM_END_BARS columns (NaN where not given); ``named`` gives the name the file uses
+    for one of our columns (its unit system's spelling)."""
     beam = kind == "beam"
     capacity = beam & np.isin(frame, ("special", "intermediate"))
     ordinary = beam & (frame == "ordinary")
@@ -666,11 +747,12 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
     out = []
     for k, c in enumerate(BEAM_END_BARS):
         out.append((capacity & ~given[:, k], c,
-                    f"a beam of a {'{frame}'} moment frame needs {c} (ACI 318-19 "
+                    f"a beam of a {'{frame}'} moment frame needs {named(c)} (ACI 318-19 "
                     + ("18.6.4.4, 18.4.2.4: the hoop spacing" if c == "db_long_mm" else
                        "18.6.5.1, 18.4.2.3: Mpr or Mn at the faces") + ")"))
         out.append((ordinary & given.any(axis=1) & ~given[:, k], c,
-                    f"an ordinary-frame beam with bars needs all of {', '.join(BEAM_END_BARS)} (the two-bar check of "
+                    f"an ordinary-frame beam with bars needs all of {', '.join(map(named, BEAM_END_BARS))} (the two-bar "
+                    "check of "
                     "ACI 318-19 18.3.2), or none"))
     for end, sup in (("support_i", support_i), ("support_j", support_j)):
         out.append((capacity & (sup == "free"), end, "a beam of a {frame} moment frame spans between joints; a free "
@@ -679,13 +761,16 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
 
 
 def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, str] | None = None,
-                 fill: dict | None = None) -> tuple[pa.Table, list[str]]:
-    """members.csv -> validated table (our columns, d_mm filled, defaults applied) and warnings.
+                 fill: dict | None = None, units: UnitSystem = SI) -> tuple[pa.Table, list[str]]:
+    """members.csv -> validated table (the columns of ``units``, d filled, defaults applied) and
+    warnings. Limits are those of the edition of ACI 318-19 in the run's units.
 
     ``frame_by_group`` (settings [frames].by_group) gives the frame of members whose `frame`
     cell is empty, by their group label; a value in the file wins. ``fill`` gives the value
     of the missing cells of optional columns."""
-    t, probs, notices = read_table(path, "members", MEMBER_COLUMNS, cmap, fill)
+    u = aci.edition(units.name)
+    t, probs, notices = read_table(path, "members", MEMBER_COLUMNS, cmap, fill, units)
+    named = probs.table.source_name  # the file's name of one of our columns
     spec = probs.spec
     _check_numbers(t, spec, probs)
     _check_text(t, spec, probs)
@@ -709,20 +794,21 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     L, b, h = _num(t, "length_m"), _num(t, "b_mm"), _num(t, "h_mm")
     for name, v in (("length_m", L), ("b_mm", b), ("h_mm", h)):
         probs.add(v <= 0, name, "must be greater than zero")
-    _check_plausible(t, probs, PLAUSIBLE_MEMBERS)
+    _check_plausible(t, probs, PLAUSIBLE_MEMBERS, units)
     d_given, cover = _num(t, "d_mm"), _num(t, "cover_mm")
     neither = np.isnan(d_given) & np.isnan(cover)
-    probs.add(neither, "d_mm", "give d_mm or cover_mm")
+    probs.add(neither, "d_mm", f"give {named('d_mm')} or {named('cover_mm')}")
     d = np.where(np.isnan(d_given), h - cover, d_given)
     probs.add(~np.isnan(d_given) & (d_given <= 0), "d_mm", "must be greater than zero")
-    probs.add(~np.isnan(d_given) & (d_given >= h), "d_mm", "effective depth must be less than h_mm")
+    probs.add(~np.isnan(d_given) & (d_given >= h), "d_mm", f"effective depth must be less than {named('h_mm')}")
     probs.add(np.isnan(d_given) & ~np.isnan(cover) & ((cover <= 0) | (cover >= h)), "cover_mm",
-              "must be greater than zero and less than h_mm")
-    probs.add(np.isnan(d_given) & (cover > 0) & (cover < h) & (h - cover < 25.0), "cover_mm",
-              "leaves an effective depth under 25 mm, not plausible: check the units")
+              f"must be greater than zero and less than {named('h_mm')}")
+    least_d = 25.0 * unit_names.factor("d_mm", units.col("d_mm"))  # 25 mm (1 in)
+    probs.add(np.isnan(d_given) & (cover > 0) & (cover < h) & (h - cover < least_d), "cover_mm",
+              f"leaves an effective depth under {least_d:.3g} {units.length}, not plausible: check the units")
 
     fc, fyt = _num(t, "fc_mpa"), _num(t, "fyt_mpa")
-    probs.add(fc < aci.FC_MIN_MPA, "fc_mpa", f"f'c below {aci.FC_MIN_MPA:g} MPa, the least ACI 318-19 19.2.1.1 admits")
+    probs.add(fc < u.fc_min, "fc_mpa", f"f'c below {u.fc_min:,g} {units.stress}, the least ACI 318-19 19.2.1.1 admits")
     probs.add(fyt <= 0, "fyt_mpa", "must be greater than zero")
     fy = _num(t, "fy_mpa")
     probs.add(fy <= 0, "fy_mpa", "must be greater than zero")
@@ -732,10 +818,10 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     probs.add(face_i < 0, "face_i_mm", "must not be negative")
     probs.add(face_j < 0, "face_j_mm", "must not be negative")
     with np.errstate(over="ignore"):  # an absurd length is reported by the plausibility check
-        probs.add((face_i + face_j) >= L * 1000.0, "face_j_mm", "support faces leave no clear span")
+        probs.add((face_i + face_j) >= L * units.per_span, "face_j_mm", "support faces leave no clear span")
     bf, hf = _num(t, "bf_mm"), _num(t, "hf_mm")
-    probs.add(~np.isnan(bf) & (bf < b), "bf_mm", "flange width must be at least the web width b_mm")
-    probs.add(~np.isnan(hf) & ((hf <= 0) | (hf >= h)), "hf_mm", "flange thickness must be in (0, h_mm)")
+    probs.add(~np.isnan(bf) & (bf < b), "bf_mm", f"flange width must be at least the web width {named('b_mm')}")
+    probs.add(~np.isnan(hf) & ((hf <= 0) | (hf >= h)), "hf_mm", f"flange thickness must be in (0, {named('h_mm')})")
     probs.add(~np.isnan(bf) & np.isnan(hf), "hf_mm", "a flange width needs a flange thickness")
     As = _num(t, "as_tension_mm2")
     probs.add(~np.isnan(As) & (As <= 0), "as_tension_mm2", "must be greater than zero")
@@ -753,38 +839,42 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
         v = _num(t, name)
         probs.add(~np.isnan(v) & (v != np.round(v)), name, "must be a whole number")
     bars = {c: _num(t, c) for c in BEAM_END_BARS}
-    for rows, column, message in frame_bar_problems(frame, kind, bars, _str(t, "support_i"), _str(t, "support_j")):
+    for rows, column, message in frame_bar_problems(frame, kind, bars, _str(t, "support_i"), _str(t, "support_j"),
+                                                    named):
         rows = np.flatnonzero(rows)
         probs.add(rows, column, [message.format(frame=frame[r]) + (
             f" (frame from [frames].by_group of group '{group[r]}')" if from_group[r] else "") for r in rows[:MAX_REPORTED]])
     with np.errstate(over="ignore"):  # an absurd section is reported by the plausibility check
         gross = b * h
     for c in BEAM_END_BARS[:4]:
-        probs.add(bars[c] > gross, c, "more steel than the gross section b_mm x h_mm: check the units")
+        probs.add(bars[c] > gross, c, f"more steel than the gross section {named('b_mm')} x {named('h_mm')}: check the "
+                                      "units")
     coords = np.column_stack([_num(t, c) for c in COORDINATES])
     some = ~np.isnan(coords)
     partial = some.any(axis=1) & ~some.all(axis=1)
     for k, c in enumerate(COORDINATES):
-        probs.add(partial & ~some[:, k], c, f"give all six end coordinates ({', '.join(COORDINATES)}) or none")
+        probs.add(partial & ~some[:, k], c, f"give all six end coordinates ({', '.join(map(named, COORDINATES))}) "
+                                            "or none")
     probs.raise_if_any()
 
     warnings = notices
-    capped = fyt > aci.FYT_MAX_MPA
+    capped = fyt > u.fyt_max
     for m, v in zip(member[capped], fyt[capped]):
-        warnings.append(f"member {m}: fyt {v:g} MPa capped at {aci.FYT_MAX_MPA:g} MPa for shear (ACI 318-19 20.2.2.4)")
+        warnings.append(f"member {m}: fyt {v:g} {units.stress} capped at {u.fyt_max:g} {units.stress} for shear "
+                        "(ACI 318-19 20.2.2.4)")
     fy_default = np.isnan(fy)
     out = t.set_column(t.schema.get_field_index("kind"), "kind", pa.array(kind.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("load_face"), "load_face", pa.array(load_face.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("frame"), "frame", pa.array(frame.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("d_mm"), "d_mm", pa.array(d))
-    # fy defaults to Grade 420, the usual longitudinal bar (common practice); used only for rho_w bounds.
-    out = out.set_column(out.schema.get_field_index("fy_mpa"), "fy_mpa", pa.array(np.where(fy_default, 420.0, fy)))
+    # fy defaults to Grade 420 | 60, the usual longitudinal bar (common practice); used only for rho_w bounds.
+    out = out.set_column(out.schema.get_field_index("fy_mpa"), "fy_mpa", pa.array(np.where(fy_default, u.fy_default, fy)))
     out = out.set_column(out.schema.get_field_index("lambda"), "lambda", pa.array(np.where(np.isnan(lam), 1.0, lam)))
     out = out.set_column(out.schema.get_field_index("face_i_mm"), "face_i_mm", pa.array(face_i))
     out = out.set_column(out.schema.get_field_index("face_j_mm"), "face_j_mm", pa.array(face_j))
     for name in ("level", "group"):
         out = out.set_column(out.schema.get_field_index(name), name, pa.array(_str(out, name).tolist(), pa.string()))
-    return out, warnings
+    return out.rename_columns(units.cols(out.column_names)), warnings
 
 
 class ForcesReader:
@@ -799,8 +889,12 @@ class ForcesReader:
 
     def __init__(self, path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None,
                  cases: pa.Table | None = None, cases_path: str | Path | None = None, tolerance_mm: float = 1.0,
-                 fill: dict | None = None):
-        self.spec = prepare(path, "forces", FORCE_COLUMNS, cmap, fill)
+                 fill: dict | None = None, units: UnitSystem = SI):
+        """``lengths_m``: member lengths in the run's span unit (m or ft); ``tolerance_mm``: rows
+        closer than this (mm or in, the run's internal length) are one station; the batches
+        come in the run's units and under its column names."""
+        self.units = units
+        self.spec = prepare(path, "forces", FORCE_COLUMNS, cmap, fill, units)
         self.tolerance_mm = tolerance_mm
         self.path = self.spec.path
         self.lengths_m = lengths_m
@@ -839,12 +933,13 @@ class ForcesReader:
             _check_numbers(t, self.spec, probs)
             _check_text(t, self.spec, probs)
             x = _num(t, "x_m")
-            probs.add(x < 0, "x_m", "station before node i (x_m < 0)")
-            _check_plausible(t, probs, PLAUSIBLE_FORCES)
+            probs.add(x < 0, "x_m", f"station before node i ({self.spec.table.source_name('x_m')} < 0)")
+            _check_plausible(t, probs, PLAUSIBLE_FORCES, self.units)
             if self.lengths_m is not None:
                 L = _lookup(t.column("member"), self.lengths_m)
                 beyond = x > L * (1 + 1e-9) + 1e-6
-                probs.add(beyond, "x_m", [f"station {x[r]:g} m lies beyond the member length {L[r]:g} m"
+                span = self.units.span
+                probs.add(beyond, "x_m", [f"station {x[r]:g} {span} lies beyond the member length {L[r]:g} {span}"
                                           for r in np.flatnonzero(beyond)[:MAX_REPORTED]])
             probs.raise_if_any()
             for name in ("N_kN", "T_kNm", "M_kNm", "Vb_kN"):  # absent from the file: zero (present: checked above)
@@ -852,16 +947,17 @@ class ForcesReader:
             self.rows += t.num_rows
             self.case_names.update(pac.unique(t.column("case")).to_pylist())
             self.member_names.update(pac.unique(t.column("member")).to_pylist())
-            yield t.append_column("_row", pa.array(ids))
+            yield t.append_column("_row", pa.array(ids)).rename_columns([*self.units.cols(t.column_names), "_row"])
         if self.rows == 0:
             raise InputError(self.path, "has a header but no data rows", 1)
         if self.cases is not None:
             check_cases_cover_forces(self.cases, self.case_names, self.cases_path)
 
     def check_part(self, t: pa.Table) -> None:
-        """Checks of a member-complete part sorted by member, case, x_m and _row."""
+        """Checks of a member-complete part (the run's column names) sorted by member, case,
+        station and _row."""
         probs = Problems(self.spec, t.column("_row").to_numpy())
-        _check_station_rows(t, probs, presorted=True, tolerance_mm=self.tolerance_mm)
+        _check_station_rows(t, probs, presorted=True, tolerance_mm=self.tolerance_mm, units=self.units)
         probs.raise_if_any()
 
     def read_all(self) -> pa.Table:
@@ -871,11 +967,16 @@ class ForcesReader:
         return t.drop_columns(["_row"])
 
 
+def station_column(t: pa.Table) -> str:
+    """The station column of a forces table in either unit system (x_m or x_ft)."""
+    return next(c for c in unit_names.spellings("x_m") if c in t.column_names)
+
+
 def sort_part(t: pa.Table) -> pa.Table:
     """Rows by member, case and station; the file row breaks ties, so the two rows of a
     jump keep their left-then-right order. Ids are sorted once as distinct values and
     the rows by their ranks (much faster than comparing strings row by row)."""
-    keys = [_ranks(t.column("member")), _ranks(t.column("case")), t.column("x_m").to_numpy(),
+    keys = [_ranks(t.column("member")), _ranks(t.column("case")), t.column(station_column(t)).to_numpy(),
             t.column("_row").to_numpy()]
     return t.take(pa.array(np.lexsort(keys[::-1])))
 
@@ -889,9 +990,9 @@ def _ranks(col: pa.ChunkedArray) -> np.ndarray:
 
 
 def read_forces(path: str | Path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None,
-                tolerance_mm: float = 1.0) -> pa.Table:
-    """forces.csv -> validated table; optional N, T, M default to zero."""
-    return ForcesReader(path, cmap, lengths_m, tolerance_mm=tolerance_mm).read_all()
+                tolerance_mm: float = 1.0, units: UnitSystem = SI, fill: dict | None = None) -> pa.Table:
+    """forces.csv -> validated table (the columns of ``units``); optional N, T, M default to zero."""
+    return ForcesReader(path, cmap, lengths_m, tolerance_mm=tolerance_mm, fill=fill, units=units).read_all()
 
 
 def _lookup(member: pa.ChunkedArray, lengths_m: dict[str, float]) -> np.ndarray:
@@ -908,20 +1009,23 @@ def _codes(col: pa.ChunkedArray | pa.Array) -> tuple[np.ndarray, list]:
     return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
 
 
-def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False, tolerance_mm: float = 0.0) -> None:
+def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False, tolerance_mm: float = 0.0,
+                        units: UnitSystem = SI) -> None:
     """At most two rows per (member, case, station): two are a jump (equal rows a jump of
-    zero, as chained elements give at a node). Rows closer than ``tolerance_mm`` are one
-    station. ``presorted``: rows already grouped by member and case and sorted by x."""
+    zero, as chained elements give at a node). Rows closer than ``tolerance_mm`` (the run's
+    internal length, mm or in) are one station. ``presorted``: rows already grouped by
+    member and case and sorted by x."""
     m_idx, _ = _codes(t.column("member"))
     c_idx, _ = _codes(t.column("case"))
-    x = t.column("x_m").to_numpy()
+    x = t.column(station_column(t)).to_numpy()
     order = np.arange(len(x)) if presorted else np.lexsort((x, c_idx, m_idx))
     ms, cs, xs = m_idx[order], c_idx[order], x[order]
     dx = np.diff(xs)
-    same = (ms[1:] == ms[:-1]) & (cs[1:] == cs[:-1]) & ((dx == 0) | (dx * 1e3 < tolerance_mm))
+    same = (ms[1:] == ms[:-1]) & (cs[1:] == cs[:-1]) & ((dx == 0) | (dx * units.per_span < tolerance_mm))
     triple = np.zeros(len(order), bool)
     triple[2:] = same[1:] & same[:-1]
-    where = "one station" if tolerance_mm <= 0 else f"one station (rows within {tolerance_mm:g} mm are one)"
+    where = "one station" if tolerance_mm <= 0 else \
+        f"one station (rows within {tolerance_mm:g} {units.length} are one)"
     probs.add(np.sort(order[triple]), "x_m", f"a third row at {where}; a jump takes exactly two rows")
 
 

@@ -31,12 +31,14 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pac
 
+from postproc import units as unit_names
 from postproc.adapters.csv_tables import (BROKEN, MAX_REPORTED, PLAUSIBLE_FORCES, Col, ForcesReader, InputErrors,
                                           Problems, Tally, _check_numbers, _check_plausible, _check_text, _codes,
                                           check_cases_cover_forces, normalise_text, prepare, read_table,
-                                          record_lines, sort_part, stream_blocks)
+                                          record_lines, si_keyed, sort_part, stream_blocks)
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap, TableMap, unit_factor
+from postproc.units import SI, UnitSystem
 
 QUANTITIES = ("V_kN", "N_kN", "T_kNm", "M_kNm")
 # Section force = factor x export value, at the element's end i and at its end j.
@@ -219,7 +221,7 @@ def parse_spec(cmap: ColumnMap) -> ElementSpec | None:
     if nodes is not None and not (node or node_i):
         raise _bad(path, "nodes", "a node table needs the elements' node ids: give node_i and node_j, or node")
 
-    forces = cmap.table("forces")
+    forces = si_keyed(cmap.table("forces"))
     if "x_m" in forces.columns or "x_m" in forces.factors:
         raise InputError(path, "[forces] maps x_m, but an element export's stations are [elements].station")
     if members != "column" and "member" in forces.columns:
@@ -230,19 +232,48 @@ def parse_spec(cmap: ColumnMap) -> ElementSpec | None:
 
 def forces_source(path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None, cases: pa.Table | None = None,
                   cases_path=None, warnings: list[str] | None = None, tolerance_mm: float = 1.0,
-                  fill: dict | None = None):
+                  fill: dict | None = None, units: UnitSystem = SI):
     """The forces reader for ``path``: the plain forces table (rows of a station within
     ``tolerance_mm`` are one station), or, where the mapping has an ``[elements]`` section,
-    the element export chained into members. ``fill``: the settings' values for the
-    missing cells of optional columns ([input] fill)."""
+    the element export chained into members; either gives its rows in ``units`` (the
+    member lengths ``lengths_m`` and the tolerance are in those units too: m or ft, mm or in).
+    ``fill``: the settings' values for the missing cells of optional columns ([input] fill,
+    in the run's units)."""
     spec = parse_spec(cmap)
     if spec is None:
-        return ForcesReader(path, cmap, lengths_m, cases, cases_path, tolerance_mm, fill)
-    return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings, fill)
+        return ForcesReader(path, cmap, lengths_m, cases, cases_path, tolerance_mm, fill, units)
+    if units.name == "si":
+        return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings, fill)
+    to_m = unit_names.factor(units.col("length_m"), "length_m")
+    si_lengths = None if lengths_m is None else {m: L * to_m for m, L in lengths_m.items()}
+    si_fill = {unit_names.si_name(k): v * unit_names.factor(k, unit_names.si_name(k)) for k, v in (fill or {}).items()}
+    return InUnits(ElementForcesReader(path, cmap, spec, si_lengths, cases, cases_path, warnings, si_fill), units)
+
+
+class InUnits:
+    """A forces reader that works in SI (the element chaining), giving its rows in another
+    unit system: each batch is converted as it leaves, each part converted back to be checked."""
+
+    def __init__(self, source, units: UnitSystem):
+        self.source, self.units = source, units
+
+    def __getattr__(self, name):  # size(), member_ids(), rows, case_names, el, path, ...
+        return getattr(self.source, name)
+
+    def batches(self):
+        for t in self.source.batches():
+            yield unit_names.convert_table(t, SI, self.units)
+
+    def check_part(self, t: pa.Table) -> None:
+        self.source.check_part(unit_names.convert_table(t, self.units, SI))
+
+    def read_all(self) -> pa.Table:
+        return unit_names.convert_table(self.source.read_all(), SI, self.units)
 
 
 def extra_inputs(source) -> dict[str, Path]:
     """The files besides the forces file that a forces reader read (for the run's manifest)."""
+    source = source.source if isinstance(source, InUnits) else source
     if not isinstance(source, ElementForcesReader):
         return {}
     return {role: path for role, path in (("element_chain", source.el.chain), ("element_nodes", source.el.nodes))
@@ -300,7 +331,7 @@ class ElementForcesReader:
                  cases: pa.Table | None = None, cases_path=None, warnings: list[str] | None = None,
                  fill: dict | None = None):
         self.el = spec
-        forces = cmap.table("forces")
+        forces = si_keyed(cmap.table("forces"))
         columns = {"element": spec.element, "_station": spec.station}
         columns.update({c: forces.source_name(c) for c in ("case", *QUANTITIES)})
         cols = [Col("element", False, True), Col("case", False, True), Col("_station", not spec.by_flag, True),

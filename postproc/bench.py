@@ -20,7 +20,7 @@ import pyarrow.parquet as pq
 
 from postproc.adapters import csv_tables
 from postproc.adapters.mapping import ColumnMap
-from postproc import engine, reference, synthetic
+from postproc import engine, reference, synthetic, units
 from postproc.settings import Settings
 from postproc.store import Store
 
@@ -179,7 +179,9 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
 def compare_with_reference(m: str, got: pd.Series, row: dict, ref_zones: list[dict], winners: set[str],
                            mine: pd.DataFrame) -> None:
     """The engine's members.csv row and zones of one member against the reference's; the
-    governing combination may be any of those that tie for the utilization."""
+    governing combination may be any of those that tie for the utilization. The engine's
+    tables may be named in either unit system (the reference's come under the SI names)."""
+    got, mine = got.rename(units.si_name), units.si_keyed(mine)
     for key, value in row.items():
         if key == "member":
             continue

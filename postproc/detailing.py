@@ -11,6 +11,9 @@ the practical minimum spacing and the spacing the demand allows everywhere in it
 gap from a face or a free end to the nearest stirrup is held to the same limit. The
 zones of zones.csv are derived from the positions (``zones_from_positions``), so the
 two can never disagree.
+
+Lengths are in the run's internal unit (mm or in), bars those of its unit system
+(``Detailing.bars``), hooks and bends those of its edition of ACI 318-19 (``u``).
 """
 
 from __future__ import annotations
@@ -21,15 +24,21 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from postproc.codes import aci318_19 as aci
-from postproc.settings import BAR_CATALOGUE, Detailing
+from postproc.codes.aci318_19 import SI, Edition
+from postproc.settings import Detailing, bar_catalogue
 
 STEEL_DENSITY = 7850e-9  # kg/mm^3 (common practice)
-SAME_GAP_MM = 0.5  # gaps closer than this belong to one zone (positions are kept to 0.1 mm)
+STEEL_DENSITY_US = 490.0 / 1728.0  # lb/in^3: 490 lb/ft^3 (common practice)
+
+
+def steel_density(u: Edition = SI) -> float:
+    """Mass of steel per unit volume: kg/mm^3 or lb/in^3."""
+    return STEEL_DENSITY if u.units == "si" else STEEL_DENSITY_US
 
 
 @dataclass(frozen=True)
 class Zone:
-    """Stirrups at ``start``, ``start + spacing``, ... ``end`` (mm from face i); an empty
+    """Stirrups at ``start``, ``start + spacing``, ... ``end`` (from face i); an empty
     zone (count 0) runs between the stirrups that bound it; a single stirrup has no spacing."""
 
     start: float
@@ -42,7 +51,7 @@ class Zone:
 class Layout:
     bar: str
     legs: int
-    positions: np.ndarray  # every stirrup, mm from face i, ascending
+    positions: np.ndarray  # every stirrup from face i (mm or in), ascending
     empty: list[tuple[float, float]] = field(default_factory=list)  # spans left without stirrups on purpose
     message: str = ""
 
@@ -51,30 +60,32 @@ class Layout:
         return len(self.positions)
 
 
-def hook_extension(db: float, degrees: int) -> float:
-    """Straight extension of a stirrup hook (Table 25.3.2): 90 degrees, #10 to #16
-    max(6 db, 75 mm) and #19 to #25 12 db; 135 degrees, #10 to #25 max(6 db, 75 mm)."""
-    if degrees == 90 and db > 16.0:
+def hook_extension(db: float, degrees: int, u: Edition = SI) -> float:
+    """Straight extension of a stirrup hook (Table 25.3.2): 90 degrees, No. 10 to No. 16 | No. 3
+    to No. 5 max(6 db, 75 mm | 3 in) and No. 19 to No. 25 | No. 6 to No. 8 12 db; 135 degrees,
+    all of them max(6 db, 75 mm | 3 in)."""
+    if degrees == 90 and db > u.hook_small_db_max:
         return 12.0 * db
-    return max(6.0 * db, 75.0)
+    return max(6.0 * db, u.hook_min_extension)
 
 
-def bend_diameter(db: float) -> float:
-    """Minimum inside bend diameter of stirrups (Table 25.3.3): 4 db to #16, 6 db for #19 to #25."""
-    return 4.0 * db if db <= 16.0 else 6.0 * db
+def bend_diameter(db: float, u: Edition = SI) -> float:
+    """Minimum inside bend diameter of stirrups (Table 25.3.3): 4 db to No. 16 | No. 5, 6 db for
+    No. 19 to No. 25 | No. 6 to No. 8."""
+    return 4.0 * db if db <= u.hook_small_db_max else 6.0 * db
 
 
 @dataclass(frozen=True)
 class Shape:
-    """One bent bar of a stirrup set. A and B are out-to-out dimensions, mm."""
+    """One bent bar of a stirrup set. A and B are out-to-out dimensions; all lengths in mm or in."""
 
     name: str  # closed-135, inner-closed-135, open-90, open-135, single-leg-135-90
     bar: str
     A: float
     B: float
-    hook_mm: float
-    bend_diameter_mm: float
-    cut_length_mm: float
+    hook: float
+    bend_diameter: float
+    cut_length: float
     per_set: int
 
 
@@ -82,7 +93,8 @@ def _cut_length(straights: float, arcs_deg: float, r: float, tails: float) -> fl
     return straights + np.pi * r * arcs_deg / 180.0 + tails
 
 
-def stirrup_set(b: float, h: float, cover: float, bar: str, legs: int, closed: bool, open_hook: int = 90) -> list[Shape]:
+def stirrup_set(b: float, h: float, cover: float, bar: str, legs: int, closed: bool, open_hook: int = 90,
+                u: Edition = SI) -> list[Shape]:
     """The bars of one stirrup set and their cut lengths, measured on the bar centreline.
 
     Outside dimensions A = b - 2 cover, B = h - 2 cover; centreline a = A - db, c = B - db;
@@ -93,12 +105,12 @@ def stirrup_set(b: float, h: float, cover: float, bar: str, legs: int, closed: b
     (25.7.1.3). Sets of more than two legs add inner closed stirrups one leg-spacing
     wide, and a single leg with a 135 and a 90 degree hook for an odd leg.
     """
-    db, _ = BAR_CATALOGUE[bar]
-    D = bend_diameter(db)
+    db, _ = bar_catalogue(u.units)[bar]
+    D = bend_diameter(db, u)
     r = D / 2 + db / 2
     A, B = b - 2 * cover, h - 2 * cover
     a, c = A - db, B - db
-    e135, e90 = hook_extension(db, 135), hook_extension(db, 90)
+    e135, e90 = hook_extension(db, 135, u), hook_extension(db, 90, u)
     shapes = []
     if closed:
         shapes.append(Shape("closed-135", bar, A, B, e135, D, _cut_length(2 * a + 2 * c - 8 * r, 540, r, 2 * e135), 1))
@@ -120,19 +132,20 @@ def stirrup_set(b: float, h: float, cover: float, bar: str, legs: int, closed: b
 HOOP_NAMES = {"closed-135": "hoop-135", "inner-closed-135": "inner-hoop-135", "single-leg-135-90": "crosstie-135-90"}
 
 
-def hoop_set(b: float, h: float, cover: float, bar: str, legs: int) -> list[Shape]:
+def hoop_set(b: float, h: float, cover: float, bar: str, legs: int, u: Edition = SI) -> list[Shape]:
     """The bars of one hoop set of a frame beam (18.6.4, 18.4.2.4): a closed hoop and inner
-    hoops with seismic hooks (135 degrees, 6 db and at least 75 mm: Chapter 2, 25.3.4), an
-    odd leg as a crosstie with a seismic hook and a 90-degree hook (25.7.1.6.1, 18.6.4.3).
-    The seismic hook is the 135-degree stirrup hook of Table 25.3.2 for #10 to #25, so the
-    cut lengths are those of ``stirrup_set``."""
-    seismic = float(aci.seismic_hook_extension(BAR_CATALOGUE[bar][0]))
-    return [replace(s, name=HOOP_NAMES[s.name], hook_mm=seismic) for s in stirrup_set(b, h, cover, bar, legs, True)]
+    hoops with seismic hooks (135 degrees, 6 db and at least 75 mm | 3 in: Chapter 2,
+    25.3.4), an odd leg as a crosstie with a seismic hook and a 90-degree hook (25.7.1.6.1,
+    18.6.4.3). The seismic hook is the 135-degree stirrup hook of Table 25.3.2 for No. 10 to
+    No. 25 | No. 3 to No. 8, so the cut lengths are those of ``stirrup_set``."""
+    seismic = float(aci.seismic_hook_extension(bar_catalogue(u.units)[bar][0], u))
+    return [replace(s, name=HOOP_NAMES[s.name], hook=seismic) for s in stirrup_set(b, h, cover, bar, legs, True, u=u)]
 
 
-def set_mass(shapes: list[Shape]) -> float:
-    """Mass of one stirrup set, kg (steel 7850 kg/m^3)."""
-    return sum(s.cut_length_mm * s.per_set * BAR_CATALOGUE[s.bar][1] for s in shapes) * STEEL_DENSITY
+def set_mass(shapes: list[Shape], u: Edition = SI) -> float:
+    """Mass of one stirrup set: kg (steel 7850 kg/m^3) or lb (490 lb/ft^3)."""
+    bars = bar_catalogue(u.units)
+    return sum(s.cut_length * s.per_set * bars[s.bar][1] for s in shapes) * steel_density(u)
 
 
 
@@ -149,7 +162,7 @@ def leg_spacing(b: float, cover: float, db: float, legs: int) -> float:
 
 
 def floor_to_module(s: np.ndarray, module: float) -> np.ndarray:
-    """Round a spacing down to the practical module (common practice: 25 mm)."""
+    """Round a spacing down to the practical module (common practice: 25 mm or 1 in)."""
     with np.errstate(invalid="ignore"):
         return np.where(np.isfinite(s), np.floor(s / module + 1e-9) * module, s)
 
@@ -240,10 +253,12 @@ def _continued(a: float, b: float, s: float, smin: float, fixed_a: bool, face_b:
     return None
 
 
-def _centred(a: float, b: float, s: float, smin: float, fixed_a: bool, fixed_b: bool) -> list[float] | None:
+def _centred(a: float, b: float, s: float, smin: float, fixed_a: bool, fixed_b: bool,
+             st: Detailing = Detailing()) -> list[float] | None:
     """Stirrups at spacing s between a and b, centred, so that the gaps at both ends lie in
     [smin, s]. ``fixed_a``: a is a stirrup to be placed (not one already there), and the
-    same for b. Returns the new positions (with a and b where fixed), or None."""
+    same for b. Returns the new positions (with a and b where fixed), or None. Positions
+    fall on the settings' set-out step (``st``)."""
     d = b - a
     if d < -1e-9:
         return None
@@ -251,13 +266,13 @@ def _centred(a: float, b: float, s: float, smin: float, fixed_a: bool, fixed_b: 
         if d >= smin - 1e-9:
             return [a] * fixed_a + [b] * fixed_b
         if fixed_a and fixed_b:  # both to be placed and closer than smin: one stirrup between
-            return [round((a + b) / 2, 1)]
+            return [round((a + b) / 2, st.position_decimals)]
         return None
     n = int(np.ceil(d / s - 1e-9)) - 1  # stirrups strictly between
     g = d - (n - 1) * s  # the two end gaps together, in (s, 2s]
     if g < 2 * smin - 1e-9:
         return None
-    g_a = np.floor(g / 2)  # whole millimetres where the anchors are
+    g_a = np.floor(g / 2 / st.setout_step) * st.setout_step  # on the set-out step (whole mm, 1/8 in) where the anchors are
     inner = [a + g_a + k * s for k in range(n)]
     return [a] * fixed_a + inner + [b] * fixed_b
 
@@ -268,7 +283,7 @@ def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: flo
     (``_continued``), else centred between them; where neither keeps every gap between
     the practical minimum and its spacing, an end run is extended by one or more of its
     own stirrups, or the spacing is made one or more modules tighter (least change first)."""
-    smin, module = st.min_spacing_mm, st.spacing_module_mm
+    smin, module = st.min_spacing, st.spacing_module
     tries = []
     for extra in range(4):
         for i in range(extra + 1):
@@ -283,7 +298,7 @@ def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: flo
             b2 = b - j * right[-1].spacing if j else b
             got = _continued(a2, b2, s_try, smin, fixed_a, face_b, close_at_face) if not j else None
             if got is None:
-                got = _centred(a2, b2, s_try, smin, fixed_a, face_b is not None)
+                got = _centred(a2, b2, s_try, smin, fixed_a, face_b is not None, st)
             if got is not None:
                 ext_a = [a + k * left[-1].spacing for k in range(1, i + 1)]
                 ext_b = [b - k * right[-1].spacing for k in range(j, 0, -1)]
@@ -298,7 +313,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     stands the first-stirrup distance from it (hoops of frame beams, 18.6.4.4, 18.4.2.4),
     where otherwise the last may stand anywhere up to its spacing from face j. Returns
     (positions, empty spans, note), or a string that says why no layout is possible."""
-    first = (lambda s: st.first_stirrup_mm) if st.first_stirrup == "fixed" else (lambda s: s / 2.0)
+    first = (lambda s: st.first_stirrup_at) if st.first_stirrup == "fixed" else (lambda s: s / 2.0)
     if np.all(np.isinf(s_env)):
         return np.empty(0), [(0.0, clear_span)], "no stirrups required"
     zmax = st.max_zones_per_end
@@ -311,7 +326,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
         if not free_j:
             pos = clear_span - pos[::-1]
             empty = [(clear_span - e, clear_span - s) for s, e in reversed(empty)]
-        return _rounded(pos), empty, ""
+        return _rounded(pos, st), empty, ""
     finite = np.where(np.isfinite(s_env), s_env, 1e12)
     best = np.flatnonzero(finite == finite.max())
     m = best[np.argmin(np.abs(u[best] - clear_span / 2))]  # least demand, nearest mid-span
@@ -330,7 +345,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
                 side.pop()
     a = left[-1].positions[-1] if left else None
     b = right[-1].positions[-1] if right else None
-    if a is not None and b is not None and b - a < st.min_spacing_mm - 1e-9:
+    if a is not None and b is not None and b - a < st.min_spacing - 1e-9:
         left, right, note = [], [], "end zones meet; one zone throughout"  # the tightest spacing throughout
         s_mid = float(np.min(s_env))
         a = b = None
@@ -338,8 +353,8 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
         pos = [x for r in left for x in r.positions] + [x for r in reversed(right) for x in r.positions[::-1]]
         lo = a if a is not None else 0.0
         hi = b if b is not None else clear_span
-        empty = [(lo, hi)] if hi - lo > st.min_spacing_mm else []  # not the mere edge before a stirrup
-        return _rounded(np.array(sorted(pos))), empty, ""
+        empty = [(lo, hi)] if hi - lo > st.min_spacing else []  # not the mere edge before a stirrup
+        return _rounded(np.array(sorted(pos)), st), empty, ""
     fixed_a, face_b = a is None, (clear_span if b is None else None)
     a = first(s_mid) if a is None else a
     b = clear_span - first(s_mid) if b is None else b
@@ -347,7 +362,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     if mid is None:
         return "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
     pos = [x for r in left for x in r.positions] + mid + [x for r in reversed(right) for x in r.positions[::-1]]
-    return _rounded(np.array(sorted(pos))), [], note
+    return _rounded(np.array(sorted(pos)), st), [], note
 
 
 def _cantilever(v, env, span, first, zmax, st: Detailing):
@@ -359,7 +374,7 @@ def _cantilever(v, env, span, first, zmax, st: Detailing):
         pos = [x for r in runs for x in r.positions]
         return np.array(pos), [(pos[-1] if pos else 0.0, span)]
     tip = span - first(s_tip)
-    while runs and runs[-1].positions[-1] > tip - st.min_spacing_mm + 1e-9:
+    while runs and runs[-1].positions[-1] > tip - st.min_spacing + 1e-9:
         runs.pop()  # a run reaching the tip: the tighter spacing carries on to it instead
         s_tip = float(np.min(env))
     a = runs[-1].positions[-1] if runs else first(s_tip)
@@ -369,17 +384,19 @@ def _cantilever(v, env, span, first, zmax, st: Detailing):
     return np.array([x for r in runs for x in r.positions] + mid), []
 
 
-def _rounded(pos: np.ndarray) -> np.ndarray:
-    return np.round(pos, 1)
+def _rounded(pos: np.ndarray, st: Detailing) -> np.ndarray:
+    return np.round(pos, st.position_decimals)
 
 
-def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[float, float]]) -> list[Zone]:
+def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[float, float]],
+                         same_gap: float = Detailing.same_gap) -> list[Zone]:
     """Zones as a detailer sets them out, derived from the stirrup positions.
 
     Runs of equal gaps are zones; where two runs meet, the stirrup between them belongs
     to the tighter one; a lone gap between two runs (a transition) belongs to neither,
     so each zone is "count stirrups from start to end at spacing". Spans left without
-    stirrups on purpose are zones of count 0."""
+    stirrups on purpose are zones of count 0. Gaps closer than ``same_gap`` (0.5 mm, or
+    the inch-pound settings' 0.02 in) are equal."""
     n = len(x)
     if not n:
         return [Zone(0.0, clear_span, np.nan, 0)]
@@ -391,7 +408,7 @@ def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[flo
     k = 0
     while k < n - 1:
         j = k
-        while j + 1 < n - 1 and not hole_gap[k] and not hole_gap[j + 1] and abs(gaps[j + 1] - gaps[k]) < SAME_GAP_MM:
+        while j + 1 < n - 1 and not hole_gap[k] and not hole_gap[j + 1] and abs(gaps[j + 1] - gaps[k]) < same_gap:
             j += 1
         if not hole_gap[k]:
             runs.append((k, j))

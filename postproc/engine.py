@@ -17,6 +17,7 @@ import pyarrow.parquet as pq
 
 from postproc import combos as combos_mod
 from postproc import joints as joints_mod
+from postproc import units
 from postproc.codes import aci318_19 as aci
 from postproc.settings import Settings
 from postproc.store import Run
@@ -29,14 +30,25 @@ FAMILIES = (beam_family,)  # each designs the members of its KINDS; other kinds 
 BATCH_CELLS = 500_000  # combinations x stations per batch: bounds memory (and stays in cache), not results
 
 
+def member_columns(U: units.UnitSystem = units.SI) -> list[str]:
+    """members.csv's columns in a unit system: MEMBER_COLUMNS, unit suffixes swapped (postproc.units)."""
+    return U.cols(MEMBER_COLUMNS)
+
+
+def zone_columns(U: units.UnitSystem = units.SI) -> list[str]:
+    """zones.csv's columns in a unit system."""
+    return U.cols(ZONE_COLUMNS)
+
+
 @dataclass
 class Result:
-    members: pd.DataFrame
-    zones: pd.DataFrame
+    members: pd.DataFrame  # member_columns(units)
+    zones: pd.DataFrame  # zone_columns(units)
     combos: combos_mod.ComboSet
     warnings: list[str] = field(default_factory=list)
-    stirrups: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=["member", "x_mm"]))
+    stirrups: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=["member", "x_mm"]))  # x_mm | x_in
     joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
+    units: units.UnitSystem = units.SI
 
 
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
@@ -67,8 +79,9 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
 
     ``map_parts(fn, parts)`` runs the parts (the built-in map, or a distributed engine's);
     each part's station trace is written to ``stations_dir`` as it arrives, so memory is
-    bounded by the part size.
+    bounded by the part size. The tables are named in the unit system of ``settings``.
     """
+    U = units.system(settings.units)
     members = run.members().to_pandas()
     input_order = {m: k for k, m in enumerate(members["member"])}
     cset, warnings = combination_set(run, run.manifest()["cases"], settings)
@@ -112,7 +125,10 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
     zdf = zdf.assign(_o=zdf["member"].map(input_order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
-    return Result(out, zdf.reset_index(drop=True), cset, warnings, positions, joints)
+    # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
+    return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
+        ZONE_COLUMNS)), cset, warnings, positions.rename(columns=U.rename(["x_mm"])),
+        joints.rename(columns=U.rename(joints_mod.COLUMNS)), U)
 
 
 def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
@@ -134,9 +150,11 @@ def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet
     so that any engine may run the parts in any order or place), family by family, in
     batches. The part's station trace is written to ``stations_dir`` under the part's own
     file name, by the worker itself."""
+    U = units.system(settings.units)
     present = set(pq.read_schema(part_path).names)
-    forces = pq.read_table(part_path, columns=[c for c in ("member", "case", "x_m", "V_kN", "Vb_kN", "N_kN", "T_kNm")
-                                               if c in present or c not in ("Vb_kN",)])
+    vb = U.col("Vb_kN")  # not in the parts of element exports
+    forces = pq.read_table(part_path, columns=["member", *(c for c in U.cols(["case", "x_m", "V_kN", "Vb_kN", "N_kN",
+                                                                               "T_kNm"]) if c in present or c != vb)])
     member_col = forces.column("member").combine_chunks()
     seen = set(pac.unique(member_col).to_pylist())
     members = members[members["member"].isin(seen)].reset_index(drop=True)
@@ -147,7 +165,8 @@ def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet
             outputs += _family_batches(family, mine, forces, member_col, cset, settings)
     traces = [o.trace for o in outputs]
     if stations_dir is not None and traces:
-        pq.write_table(pa.concat_tables(traces, promote_options="default"), Path(stations_dir) / Path(part_path).name)
+        trace = pa.concat_tables(traces, promote_options="default")
+        pq.write_table(trace.rename_columns(U.cols(trace.column_names)), Path(stations_dir) / Path(part_path).name)
     positions = pd.concat([o.stirrups for o in outputs], ignore_index=True) if outputs \
         else pd.DataFrame(columns=["member", "x_mm"])
     return PartResult([r for o in outputs for r in o.rows], [z for o in outputs for z in o.zones],
@@ -156,27 +175,29 @@ def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet
 
 def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col, cset, settings: Settings):
     """The force rows of one family's members, cut into batches of whole members bounded by
-    BATCH_CELLS (station-candidate cells), each designed by the pipeline."""
+    BATCH_CELLS (station-candidate cells), each designed by the pipeline. Stations, forces
+    and moments go into the run's internal units (mm, N, N*mm or in, lb, lb*in)."""
+    U = units.system(settings.units)
     names = pa.array(members["member"].tolist(), pa.string())
     f_member = pac.index_in(member_col, value_set=names).fill_null(-1).to_numpy().astype(np.int64)
     sel = np.flatnonzero(f_member >= 0)
+    col = lambda si_name: forces.column(U.col(si_name)).to_numpy()[sel]  # noqa: E731
     f_member = f_member[sel]
     cidx = pac.index_in(forces.column("case").combine_chunks(), value_set=pa.array(cset.cases)).to_numpy()
     cidx = cidx[sel].astype(np.int64)
-    x = forces.column("x_m").to_numpy()[sel] * 1e3
-    values = {"V": forces.column("V_kN").to_numpy()[sel] * 1e3, "N": forces.column("N_kN").to_numpy()[sel] * 1e3,
-              "T": forces.column("T_kNm").to_numpy()[sel] * 1e6}
+    x = col("x_m") * U.per_span
+    values = {"V": col("V_kN") * U.per_force, "N": col("N_kN") * U.per_force, "T": col("T_kNm") * U.per_moment}
     if family.USES_VB:  # shear parallel to b (columns); beams design for V alone (see README)
-        values["Vb"] = forces.column("Vb_kN").to_numpy()[sel] * 1e3 if "Vb_kN" in forces.column_names \
-            else np.zeros(len(sel))
+        values["Vb"] = col("Vb_kN") * U.per_force if U.col("Vb_kN") in forces.column_names else np.zeros(len(sel))
     if np.any(np.diff(f_member) < 0):  # parts are sorted by member id; keep any other source safe
         order = np.argsort(f_member, kind="stable")
         f_member, x, cidx = f_member[order], x[order], cidx[order]
         values = {k: v[order] for k, v in values.items()}
     bounds = np.searchsorted(f_member, np.arange(len(members) + 1))
-    d = members["d_mm"].to_numpy()
-    clear = members["length_m"].to_numpy() * 1e3 - members["face_i_mm"].to_numpy() - members["face_j_mm"].to_numpy()
-    est = (clear / np.minimum(settings.stations.max_step_mm, d / settings.stations.steps_per_d) + 8) \
+    d = members[U.col("d_mm")].to_numpy()
+    clear = members[U.col("length_m")].to_numpy() * U.per_span - members[U.col("face_i_mm")].to_numpy() \
+        - members[U.col("face_j_mm")].to_numpy()
+    est = (clear / np.minimum(settings.stations.max_step, d / settings.stations.steps_per_d) + 8) \
         * max(2 * len(cset.rows), len(cset.cases))
     out, start = [], 0
     while start < len(members):
@@ -196,9 +217,10 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     result = design_run(run, settings, folder / "stations", map_parts, progress)
     pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
-    pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, "x_mm": float}), preserve_index=False),
-                   folder / "stirrups.parquet")
-    pq.write_table(pa.Table.from_pandas(result.joints.astype(joints_mod.DTYPES), preserve_index=False),
+    pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, result.units.col("x_mm"): float}),
+                                        preserve_index=False), folder / "stirrups.parquet")
+    pq.write_table(pa.Table.from_pandas(result.joints.astype({result.units.col(c): t for c, t in
+                                                              joints_mod.DTYPES.items()}), preserve_index=False),
                    folder / "joints.parquet")
     try:  # every distinct combination with its factors, where they can be listed one by one
         names, factors = result.combos.explicit
@@ -211,6 +233,7 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
 
 
 def design_manifest(result: Result, settings: Settings) -> dict:
-    return {"code_edition": aci.EDITION, "settings": settings.as_dict(),
+    return {"code_edition": aci.edition(settings.units).title, "unit_system": settings.units,
+            "settings": settings.as_dict(),
             "combinations_prefactored": result.combos.prefactored, "combination_rules": result.combos.describe(),
             "combinations_counted": result.combos.count, "warnings": result.warnings}

@@ -7,7 +7,8 @@ the engine avoids), in plain Python over pandas rows; the code provisions are th
 functions as the engine's (called on scalars) and the stirrup set-out is the same
 per-member routine. Its purposes are to check the vectorised engine -- its exact
 envelope of combinations above all -- on a sample of members, and to measure what
-vectorisation buys.
+vectorisation buys. It works in the run's unit system (``settings.units``) with that
+edition's provisions, as the engine does.
 """
 
 from __future__ import annotations
@@ -18,10 +19,10 @@ import math
 import numpy as np
 import pandas as pd
 
-from postproc import detailing
+from postproc import detailing, units
 from postproc.demand import beams as demand
 from postproc.codes import aci318_19 as aci
-from postproc.settings import BAR_CATALOGUE, Settings
+from postproc.settings import Settings
 from postproc.stations import BEARING
 
 PHI = aci.PHI_SHEAR
@@ -77,29 +78,34 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
                   cases: list[str], settings: Settings) -> tuple[dict, list[dict], set[str]]:
     """The members.csv row and zones.csv rows of one beam supported at both or one end,
     and the names of every combination that ties for its utilization. Beams of moment frames
-    are refused (``covers``)."""
+    are refused (``covers``). ``m`` and ``forces`` are named in the run's unit system; the row
+    and zones come under the SI names, in its units."""
     if not covers(m):
         raise ValueError(f"member {m.member}: beams of moment frames are not covered by the per-member reference")
     st, dt = settings.stations, settings.detailing
-    L = m.length_m * 1000.0
+    U, u = units.system(settings.units), aci.edition(settings.units)
+    m = m.rename(units.si_name)
+    forces = units.si_keyed(forces)
+    L = m.length_m * U.per_span
     a, b = m.face_i_mm, L - m.face_j_mm
     d, h, bw, fc, lam = m.d_mm, m.h_mm, m.b_mm, m.fc_mpa, m["lambda"]
-    fyt = min(m.fyt_mpa, aci.FYT_MAX_MPA)
+    fyt = min(m.fyt_mpa, u.fyt_max)
     series = {}
     vmax = 0.0
     jumps = []
     for case in cases:
         rows = forces[forces.case == case].sort_values("x_m", kind="stable")
-        xs = _snap([x * 1000.0 for x in rows.x_m], st.tolerance_mm)
-        series[case] = (xs, [v * 1e3 for v in rows.V_kN], [v * 1e3 for v in rows.N_kN], [v * 1e6 for v in rows.T_kNm])
+        xs = _snap([x * U.per_span for x in rows.x_m], st.tolerance)
+        series[case] = (xs, [v * U.per_force for v in rows.V_kN], [v * U.per_force for v in rows.N_kN],
+                        [v * U.per_moment for v in rows.T_kNm])
         vmax = max([vmax] + [abs(v) for v in series[case][1]])
     for case in cases:
         xs, vs = series[case][0], series[case][1]
         for k in range(1, len(xs)):
-            if xs[k] == xs[k - 1] and abs(vs[k] - vs[k - 1]) > max(st.point_load_kN * 1e3, st.point_load_fraction * vmax):
+            if xs[k] == xs[k - 1] and abs(vs[k] - vs[k - 1]) > max(st.point_load, st.point_load_fraction * vmax):
                 jumps.append(xs[k])
 
-    step = min(st.max_step_mm, d / st.steps_per_d)
+    step = min(st.max_step, d / st.steps_per_d)
     n = math.ceil((b - a) / step) + 1
     points = {(a + (b - a) * k / (n - 1), 1) for k in range(n)}
     for case in cases:
@@ -119,11 +125,11 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     crit_j = "free" if free_j else ("d" if use_j else "face")
 
     rho = m.as_tension_mm2 / (bw * d) if np.isfinite(m.as_tension_mm2) else float("nan")
-    rho_c = rho if np.isfinite(rho) else float(aci.rho_w_lower_bound(fc, m.fy_mpa))
+    rho_c = rho if np.isfinite(rho) else float(aci.rho_w_lower_bound(fc, m.fy_mpa, u))
     Ag = bw * h + ((m.bf_mm - bw) * m.hf_mm if np.isfinite(m.bf_mm) else 0.0)
-    exempt = bool(aci.av_min_exempt(h, bw, m.hf_mm if np.isfinite(m.hf_mm) else None))
-    av_min = float(aci.av_min_over_s(fc, bw, fyt))
-    sfc = float(aci.sqrt_fc(fc))
+    exempt = bool(aci.av_min_exempt(h, bw, m.hf_mm if np.isfinite(m.hf_mm) else None, u))
+    av_min = float(aci.av_min_over_s(fc, bw, fyt, u))
+    sfc = float(aci.sqrt_fc(fc, u))
     Acp, pcp = bw * h, 2 * (bw + h)
 
     # every station, every combination
@@ -139,23 +145,23 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
                     for q in (1, 2, 3)]
         combos = []
         for name, Vu, Nu, Tu in _combo_values(*per_case, combo_names, factors):
-            vc_hi = float(aci.vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam, rho))
-            vc_lo = float(aci.vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_c, lam))
-            t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, Acp, pcp, Nu, Ag, lam))
-            req = (Vu > PHI * vc_lo) if exempt else (Vu > float(aci.av_min_threshold(fc, bw, d, lam)))
+            vc_hi = float(aci.vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam, rho, u))
+            vc_lo = float(aci.vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_c, lam, u))
+            t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, Acp, pcp, Nu, Ag, lam, u))
+            req = (Vu > PHI * vc_lo) if exempt else (Vu > float(aci.av_min_threshold(fc, bw, d, lam, u)))
             req = req or t_on
             q_hi = max(Vu / PHI - vc_hi, 0.0) / (fyt * d)
             q_lo = max(Vu / PHI - vc_lo, 0.0) / (fyt * d)
             av = q_hi if req else min(q_lo, max(q_hi, av_min))
             combos.append(dict(name=name, vu=Vu, nu=Nu, tu=Tu, vc_hi=vc_hi, vc_lo=vc_lo, torsion=t_on, minimum=req,
                                av=av, ata=float(aci.at_over_s(Tu, 1.0, fyt)) if t_on else 0.0,
-                               heavy=(Vu / PHI - vc_hi) > 0.33 * sfc * bw * d,
-                               ratio=Vu / (PHI * (vc_hi + 0.66 * sfc * bw * d))))
+                               heavy=(Vu / PHI - vc_hi) > u.heavy_vs * sfc * bw * d,
+                               ratio=Vu / (PHI * (vc_hi + u.vs_max * sfc * bw * d))))
         stations.append((x - a, side, combos))
 
     vu_env = [max(c["vu"] for c in cs) for _, _, cs in stations]
     row = {"member": m.member, "crit_i": crit_i, "crit_j": crit_j,
-           "vu_design_i_kN": round(vu_env[0] / 1e3, 2), "vu_design_j_kN": round(vu_env[-1] / 1e3, 2)}
+           "vu_design_i_kN": round(vu_env[0] / U.per_force, 2), "vu_design_j_kN": round(vu_env[-1] / U.per_force, 2)}
     ln = b - a
     cantilever = free_i or free_j
     deep = (ln <= 4 * h and not cantilever) or (cantilever and ln < d)
@@ -171,30 +177,30 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     heavy = [any(c["heavy"] for c in cs) for _, _, cs in stations]
     needed = [mn or any(c["av"] > 0 or c["ata"] > 0 for c in cs) for mn, (_, _, cs) in zip(minimum, stations)]
     here = [nd or dt.stirrups_throughout for nd in needed]
-    s_max = [min(d / 4, 300.0) if hv else min(d / 2, 600.0) for hv in heavy]
-    across = [min(d / 2, 300.0) if hv else min(d, 600.0) for hv in heavy]
+    s_max = [min(d / 4, u.s_max_heavy) if hv else min(d / 2, u.s_max_light) for hv in heavy]
+    across = [min(d / 2, u.s_max_heavy) if hv else min(d, u.s_max_light) for hv in heavy]
     s_across = min([a_ for a_, hr in zip(across, here) if hr], default=math.inf)
     x_clear = np.array([x for x, _, _ in stations])
 
     chosen = None
     for bar, base_legs in dt.ladder:
-        db, area = BAR_CATALOGUE[bar]
-        legs = max(base_legs, detailing.legs_for_width(bw, dt.clear_cover_mm, db, s_across)) \
+        db, area = dt.bars[bar]
+        legs = max(base_legs, detailing.legs_for_width(bw, dt.clear_cover, db, s_across)) \
             if math.isfinite(s_across) else base_legs
-        Aoh, ph = (float(v) for v in demand.torsion_geometry(bw, h, dt.clear_cover_mm, db))
+        Aoh, ph = (float(v) for v in demand.torsion_geometry(bw, h, dt.clear_cover, db))
         allowed = []
         for k, (_, _, cs) in enumerate(stations):
             need = max(c["av"] / legs + c["ata"] / Aoh for c in cs)
             s = area / need if need > 0 else math.inf
             if minimum[k]:
                 s = min(s, legs * area / av_min)
-            smax = min(s_max[k], ph / 8, 300.0) if torsion[k] else s_max[k]
+            smax = min(s_max[k], ph / 8, u.torsion_s_max) if torsion[k] else s_max[k]
             s = min(s, smax) if (here[k] or need > 0) else math.inf
-            allowed.append(math.floor(s / dt.spacing_module_mm + 1e-9) * dt.spacing_module_mm
+            allowed.append(math.floor(s / dt.spacing_module + 1e-9) * dt.spacing_module
                            if math.isfinite(s) else s)
-        t_ok = all(float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph)) <= 1.0
+        t_ok = all(float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, u)) <= 1.0
                    for _, _, cs in stations for c in cs if c["torsion"])
-        if min(allowed) >= dt.min_spacing_mm and t_ok:
+        if min(allowed) >= dt.min_spacing and t_ok:
             chosen = (bar, legs, area, Aoh, ph, allowed)
             break
     if chosen is None:
@@ -215,23 +221,24 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
         has_min = av_s >= av_min * (1 - 1e-9)
         for c in cs:
             vc = c["vc_hi"] if has_min else c["vc_lo"]
-            phi_vn = PHI * (vc + min(av_s * fyt * d, 0.66 * sfc * bw * d))
+            phi_vn = PHI * (vc + min(av_s * fyt * d, u.vs_max * sfc * bw * d))
             u = c["vu"] / phi_vn if c["vu"] > 0 else 0.0
             if c["torsion"]:
                 leg = area / s if math.isfinite(s) else 0.0
                 need = max(c["vu"] / PHI - vc, 0.0) / (fyt * d) / legs + c["ata"] / Aoh
                 u = max(u, need / leg if leg > 0 else math.inf,
-                        float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph)))
+                        float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, u)))
             total = max(u, c["ratio"])
             key = (round(total, 12), round(c["vu"] / phi_vn if phi_vn > 0 else 0.0, 12))
             if key > best:
                 best, winners = key, {c["name"]}
             elif key == best:
                 winners.add(c["name"])
-    zones = [{"member": m.member, "zone": k, "start_mm": round(z.start, 1), "end_mm": round(z.end, 1),
+    nd = dt.position_decimals
+    zones = [{"member": m.member, "zone": k, "start_mm": round(z.start, nd), "end_mm": round(z.end, nd),
               "bar": bar if z.count else "", "legs": legs if z.count else 0,
-              "spacing_mm": round(z.spacing, 1) if np.isfinite(z.spacing) else None, "count": z.count,
+              "spacing_mm": round(z.spacing, nd) if np.isfinite(z.spacing) else None, "count": z.count,
               "kind": "stirrup"}
-             for k, z in enumerate(detailing.zones_from_positions(positions, ln, empty), start=1)]
+             for k, z in enumerate(detailing.zones_from_positions(positions, ln, empty, dt.same_gap), start=1)]
     return ({**row, "status": "designed", "stirrups_total": len(positions), "utilization": round(best[0], 3)},
             zones, winners)

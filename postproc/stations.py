@@ -1,10 +1,11 @@
 """Station grid, resampling of each load case, and the critical-section rule.
 
 All members of a batch are handled at once as flat arrays (struct of arrays):
-station k belongs to member ``member[k]``, lies ``x[k]`` mm from node i, and takes
+station k belongs to member ``member[k]``, lies ``x[k]`` from node i, and takes
 the limit of the force diagram from the left (``side`` 0) or the right (``side`` 1).
 A jump in the input (two rows at one ``x_m``) becomes two stations at that x, the
-left and the right limit, so concentrated loads are never smeared.
+left and the right limit, so concentrated loads are never smeared. Lengths and forces
+are in the run's internal units (mm and N, or in and lb; postproc.units).
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ BEARING = ("column", "wall")  # supports whose reaction puts the end region in c
 
 @dataclass(frozen=True)
 class Geometry:
-    """Per-member arrays of a batch, SI (mm)."""
+    """Per-member arrays of a batch, in the run's internal length (mm or in)."""
 
     length: np.ndarray
     face_i: np.ndarray
@@ -50,20 +51,20 @@ class Samples:
 
     member: np.ndarray  # int index into the batch's members
     case: np.ndarray  # int index into the case list
-    x: np.ndarray  # mm from node i
-    values: dict[str, np.ndarray]  # V, N (N), T, M (N*mm)
+    x: np.ndarray  # from node i (mm or in)
+    values: dict[str, np.ndarray]  # V, N (N or lb), T, M (N*mm or lb*in)
 
     @staticmethod
-    def build(member, case, x, values, tolerance_mm: float = 0.0) -> Samples:
+    def build(member, case, x, values, tolerance: float = 0.0) -> Samples:
         """Rows sorted by (member, case, x), file order kept within a station; rows of one
-        member and case closer than ``tolerance_mm`` are one station (at the first row's x),
+        member and case closer than ``tolerance`` are one station (at the first row's x),
         so that two of them are a jump whatever rounding the export did."""
         if not _is_sorted(member, case, x):  # the store keeps forces in this order already
             order = np.lexsort((x, case, member))  # stable: jump rows keep their file order
             member, case, x = member[order], case[order], x[order]
             values = {k: v[order] for k, v in values.items()}
-        if tolerance_mm > 0 and len(x) > 1:
-            close = (member[1:] == member[:-1]) & (case[1:] == case[:-1]) & (np.diff(x) < tolerance_mm)
+        if tolerance > 0 and len(x) > 1:
+            close = (member[1:] == member[:-1]) & (case[1:] == case[:-1]) & (np.diff(x) < tolerance)
             if close.any():
                 start = np.concatenate([[True], ~close])
                 x = x[start][np.cumsum(start) - 1]
@@ -94,34 +95,34 @@ class EndRules:
 
 
 def jumps(s: Samples, settings: Stations, n_members: int, key: str = "V") -> tuple[np.ndarray, np.ndarray]:
-    """Concentrated loads (key "V", N) or torques (key "T", N*mm): (member, x) of jumps
-    larger than the tolerance in any case (the tolerance in kN, or kN*m for torque)."""
+    """Concentrated loads (key "V") or torques (key "T"): (member, x) of jumps larger than
+    the tolerance in any case (``settings.point_load``, or ``point_torque`` for torque)."""
     same = (s.member[1:] == s.member[:-1]) & (s.case[1:] == s.case[:-1]) & (s.x[1:] == s.x[:-1])
     v = s.values[key]
     vmax = np.zeros(n_members)
     np.maximum.at(vmax, s.member, np.abs(v))
     size = np.abs(v[1:] - v[:-1])
-    unit = 1e3 if key == "V" else 1e6
-    tol = np.maximum(settings.point_load_kN * unit, settings.point_load_fraction * vmax[s.member[1:]])
+    least = settings.point_load if key == "V" else settings.point_torque
+    tol = np.maximum(least, settings.point_load_fraction * vmax[s.member[1:]])
     hit = same & (size > tol)
     return s.member[1:][hit], s.x[1:][hit]
 
 
 def steep_slopes(s: Samples, settings: Stations, n_members: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Neighbouring rows of one member and case whose shear changes faster than
-    ``settings.steep_slope_kN_per_m`` by more than the concentrated-load tolerance: a
-    concentrated load the export spread over a short length. Returns (member, case, x
-    at the start, change in V (N)) of each, for warnings; the design takes the rows as
-    given (a linear change between them)."""
+    ``settings.steep_slope`` by more than the concentrated-load tolerance: a concentrated
+    load the export spread over a short length. Returns (member, case, x at the start,
+    change in V) of each, for warnings; the design takes the rows as given (a linear
+    change between them)."""
     same = (s.member[1:] == s.member[:-1]) & (s.case[1:] == s.case[:-1]) & (s.x[1:] > s.x[:-1])
     v = s.values["V"]
     vmax = np.zeros(n_members)
     np.maximum.at(vmax, s.member, np.abs(v))
     dv = v[1:] - v[:-1]
     with np.errstate(divide="ignore", invalid="ignore"):
-        slope = np.abs(dv) / (s.x[1:] - s.x[:-1])  # N/mm = kN/m
-    tol = np.maximum(settings.point_load_kN * 1e3, settings.point_load_fraction * vmax[s.member[1:]])
-    hit = same & (slope > settings.steep_slope_kN_per_m) & (np.abs(dv) > tol)
+        slope = np.abs(dv) / (s.x[1:] - s.x[:-1])  # N/mm (= kN/m) or lb/in
+    tol = np.maximum(settings.point_load, settings.point_load_fraction * vmax[s.member[1:]])
+    hit = same & (slope > settings.steep_slope) & (np.abs(dv) > tol)
     return s.member[1:][hit], s.case[1:][hit], s.x[:-1][hit], dv[hit]
 
 
@@ -130,7 +131,7 @@ def build_grid(g: Geometry, s: Samples, settings: Stations) -> Grid:
     input station, both limits at every jump, and the sections at d from each face."""
     n = len(g.length)
     a, b = g.start, g.end
-    step = np.minimum(settings.max_step_mm, g.d / settings.steps_per_d)
+    step = np.minimum(settings.max_step, g.d / settings.steps_per_d)
     counts = np.ceil((b - a) / step).astype(np.int64) + 1
     mem_u = np.repeat(np.arange(n), counts)
     first = np.cumsum(counts) - counts

@@ -108,13 +108,25 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from postproc import units
 from postproc.codes import aci318_19_stm as code
-from postproc.settings import BAR_CATALOGUE, Detailing
+from postproc.codes.aci318_19 import SI, US, Edition
+from postproc.settings import BAR_CATALOGUE, BAR_CATALOGUE_US, Detailing, DetailingUS, bar_catalogue
 
 # ASTM A615/A615M Table 1: nominal diameter (mm) and area (mm^2) of deformed bars (from memory
 # for #22 and larger; #10 to #19 as in the project's catalogue).
 TIE_BARS = {**BAR_CATALOGUE, "#22": (22.2, 387.0), "#25": (25.4, 510.0), "#29": (28.7, 645.0),
             "#32": (32.3, 819.0), "#36": (35.8, 1006.0)}
+# ... and the same bars in inches and in^2 under their inch-pound designations (from memory
+# for #7 and larger; #3 to #6 as in the project's catalogue).
+TIE_BARS_US = {**BAR_CATALOGUE_US, "#7": (0.875, 0.60), "#8": (1.000, 0.79), "#9": (1.128, 1.00),
+               "#10": (1.270, 1.27), "#11": (1.410, 1.56)}
+# 1 kN*m, the least face moment taken as a restrained end, in the edition's units (N*mm or lb*in)
+MOMENT_TOLERANCE = {"si": 1e6, "us": 1e6 / (4.4482216152605 * 25.4)}
+
+
+def tie_bars(u: Edition = SI) -> dict[str, tuple[float, float]]:
+    return TIE_BARS if u.units == "si" else TIE_BARS_US
 
 TAN25 = np.tan(np.radians(code.MIN_STRUT_TIE_ANGLE_DEG))
 TAN65 = np.tan(np.radians(90.0 - code.MIN_STRUT_TIE_ANGLE_DEG))
@@ -135,7 +147,8 @@ class StmSelfCheckError(AssertionError):
 
 @dataclass(frozen=True)
 class DeepMembers:
-    """Members to design, one entry per member (arrays of equal length, SI: mm, MPa).
+    """Members to design, one entry per member (arrays of equal length, in the units of
+    ``StmOptions.u``: mm, MPa, or in, psi).
 
     ``clear_span`` is face to face of the bearings; ``bearing_i``/``bearing_j`` the bearing
     lengths along the member (column or wall widths); ``d`` the depth of the tie centroid.
@@ -171,11 +184,11 @@ class DeepMembers:
 
 @dataclass(frozen=True)
 class DeepLoads:
-    """Factored loads per combination (K combinations; N and mm, downward positive).
+    """Factored loads per combination (K combinations; N and mm, or lb and in; downward positive).
 
     ``point_member`` indexes ``DeepMembers``; ``point_x`` is measured from the inner face of
     bearing i; ``point_load`` is (K, number of point loads); ``udl`` (K, members) in N/mm
-    acts over the clear span. ``face_shear_*`` (shear entering the member at the bearing
+    (lb/in) acts over the clear span. ``face_shear_*`` (shear entering the member at the bearing
     face, positive as the bearing's upward reaction) and ``face_moment_*`` (sagging
     positive), (K, members), are optional frame results for end regions; NaN = not given.
     """
@@ -193,20 +206,35 @@ class DeepLoads:
 
 @dataclass(frozen=True)
 class StmOptions:
-    """Settings of the strut-and-tie design; defaults are common practice."""
+    """Settings of the strut-and-tie design; defaults are common practice. Lengths in the
+    units of the edition ``u`` (mm, or in: ``StmOptions.for_units("us")`` has the inch-pound
+    defaults and bars)."""
 
-    point_width_mm: float = 300.0  # loaded width of a point load along the member (column width)
+    point_width: float = 300.0  # loaded width of a point load along the member (column width)
     tie_bar_ladder: tuple[str, ...] = ("#25", "#22", "#19", "#16")  # the largest bar that anchors is taken
-    end_cover_mm: float = 50.0  # from the end of the member to the end of the tie bars
+    end_cover: float = 50.0  # from the end of the member to the end of the tie bars
     straight_bar_spacing_ok: bool = False  # Table 25.4.2.3 first row (spacing, cover, stirrups) applies
     hook_psi_r: float = 1.6  # Table 25.4.3.2: 1.6 unless confining ties are shown
-    hook_psi_o: float = 1.25  # Table 25.4.3.2: 1.25 unless inside a column core with 65 mm side cover
+    hook_psi_o: float = 1.25  # Table 25.4.3.2: 1.25 unless inside a column core with 65 mm | 2.5 in side cover
     beta_c: float = 1.0  # 23.4.3, 23.9.3: confinement credit not taken
     region_beyond_load_h: float = 1.0  # D-region reaches this many h beyond its last point load
     stirrup_ladder: tuple[tuple[str, int], ...] = Detailing().ladder
     web_bar_ladder: tuple[tuple[str, int], ...] = (("#10", 2), ("#13", 2), ("#16", 2), ("#19", 2))
-    spacing_module_mm: float = Detailing().spacing_module_mm
-    min_spacing_mm: float = Detailing().min_spacing_mm
+    spacing_module: float = Detailing().spacing_module
+    min_spacing: float = Detailing().min_spacing
+    u: Edition = SI  # the edition (and units) of the members, loads and tables
+
+    @staticmethod
+    def for_units(name: str) -> StmOptions:
+        """The defaults of a unit system: SI above; inch-pound a 12 in loaded width, 2 in end
+        cover, #8 to #5 tie bars, the inch-pound stirrup ladder, #3 to #6 web bars, a 1 in
+        module and 3 in least spacing (common practice, as the SI values)."""
+        if name == "si":
+            return StmOptions()
+        d = DetailingUS()
+        return StmOptions(point_width=12.0, tie_bar_ladder=("#8", "#7", "#6", "#5"), end_cover=2.0,
+                          stirrup_ladder=d.ladder, web_bar_ladder=(("#3", 2), ("#4", 2), ("#5", 2), ("#6", 2)),
+                          spacing_module=d.spacing_module, min_spacing=d.min_spacing, u=US)
 
 
 @dataclass
@@ -287,7 +315,7 @@ def _members(m: DeepMembers, opts: StmOptions) -> dict:
     out["extension_j"] = _arr(m.extension_j, n, np.nan)
     out["extension_i"] = np.where(np.isnan(out["extension_i"]), out["bearing_i"], out["extension_i"])
     out["extension_j"] = np.where(np.isnan(out["extension_j"]), out["bearing_j"], out["extension_j"])
-    out["point_width"] = _arr(m.point_width, n, opts.point_width_mm)
+    out["point_width"] = _arr(m.point_width, n, opts.point_width)
     out["lam"] = _arr(m.lam, n, 1.0)
     out["tie_bar"] = _arr(m.tie_bar, n, "", object)
     out["tie_bar"] = np.where(pd.isna(out["tie_bar"]), "", out["tie_bar"]).astype(object)
@@ -299,10 +327,11 @@ def _members(m: DeepMembers, opts: StmOptions) -> dict:
         k = int(np.flatnonzero(bad)[0])
         raise ValueError(f"member {out['member'][k]!r}: needs h, bw, f'c, fy, fyt, clear span > 0, "
                          f"h/2 < d < h and bearing lengths >= 0")
-    unknown = ~np.isin(out["tie_bar"], list(TIE_BARS) + [""])
+    bars = tie_bars(opts.u)
+    unknown = ~np.isin(out["tie_bar"], list(bars) + [""])
     if unknown.any():
         raise ValueError(f"member {out['member'][np.flatnonzero(unknown)[0]]!r}: unknown tie bar; "
-                         f"known: {', '.join(TIE_BARS)}")
+                         f"known: {', '.join(bars)}")
     return out
 
 
@@ -439,7 +468,7 @@ def _build_models(M: dict, L: dict, reasons: np.ndarray, opts: StmOptions) -> tu
         V, Mf = L[f"face_shear_{end}"], L[f"face_moment_{end}"]
         given = np.isfinite(V) & np.isfinite(Mf)
         m_centroid = np.where(given, Mf - np.nan_to_num(V) * lb[end][None] / 2, 0.0)
-        tol = 0.05 * np.abs(np.nan_to_num(V)) * h[None] + 1e6
+        tol = 0.05 * np.abs(np.nan_to_num(V)) * h[None] + MOMENT_TOLERANCE[opts.u.units]
         hog[end] = (np.abs(m_centroid) > tol).any(axis=0)
     ok = why == ""
     for end in ("i", "j"):
@@ -892,9 +921,10 @@ def _self_check(t: Truss) -> None:
 
 # --- reinforcement choices -------------------------------------------------------------------
 
-def _choose_spacing(req: np.ndarray, s_max: np.ndarray, ladder, module: float, s_min: float):
+def _choose_spacing(req: np.ndarray, s_max: np.ndarray, ladder, module: float, s_min: float, u: Edition = SI):
     """First (bar, legs) of the ladder whose spacing for Av/s >= req, on the module and at most
     s_max, is at least s_min. Returns bar, legs, spacing, provided A/s and whether it fits."""
+    BAR_CATALOGUE = bar_catalogue(u.units)  # noqa: N806 - the unit system's bars
     n = len(req)
     bar = np.full(n, ladder[-1][0], dtype=object)
     legs = np.full(n, ladder[-1][1])
@@ -963,14 +993,14 @@ def _web(md: _Models, pt: _Points, fl: _Flow, t: Truss, env, active, inside_el, 
     av_demand = np.zeros(nm)
     np.maximum.at(av_demand, em[v_sel], av_tie[v_sel])
     av_min = code.deep_beam_min_distributed(md.bw)
-    s_max = code.deep_beam_max_spacing(md.d)
+    s_max = code.deep_beam_max_spacing(md.d, opts.u)
     av_req = np.maximum(av_min, av_demand)
     ah_req = av_min.copy()
     sv_bar, sv_legs, sv, av_prov, sv_fits = _choose_spacing(av_req, s_max, opts.stirrup_ladder,
-                                                            opts.spacing_module_mm, opts.min_spacing_mm)
+                                                            opts.spacing_module, opts.min_spacing, opts.u)
     sh_bar, sh_n, sh, ah_prov, _ = _choose_spacing(ah_req, s_max, opts.web_bar_ladder,
-                                                   opts.spacing_module_mm, opts.min_spacing_mm)
-    grid_ok = code.distributed_reinforcement_ok(av_prov / md.bw, ah_prov / md.bw, sv, sh)
+                                                   opts.spacing_module, opts.min_spacing, opts.u)
+    grid_ok = code.distributed_reinforcement_ok(av_prov / md.bw, ah_prov / md.bw, sv, sh, opts.u)
     return _Web(spread, av_tie, av_min, av_req, ah_req, s_max, sv_bar, sv_legs, sv, av_prov, sv_fits,
                 sh_bar, sh_n, sh, ah_prov, grid_ok, code.strut_beta_s(False, grid_ok))
 
@@ -993,6 +1023,7 @@ def _tie(M: dict, md: _Models, pt: _Points, t: Truss, theta, env, tolF, opts: St
     """As = Fu/(phi fy) (23.7.2); the bar is the largest of the ladder whose anchorage fits
     at every bearing of the member (23.8.3), unless the member names its bar."""
     nm = len(md.member)
+    TIE_BARS = tie_bars(opts.u)  # noqa: N806 - the unit system's bars
     em = t.el_model
     bot = t.el_kind == _BOT
     as_req_el = np.where(bot, code.tie_area_required(np.clip(t.design_force, 0, None).max(axis=0), md.fy[em]), 0.0)
@@ -1060,7 +1091,7 @@ def _assemble(M, md: _Models, pt: _Points, fl: _Flow, t: Truss, feasible, reason
     np.maximum.at(vu_k.T, pt.model[inside_panel], np.abs(fl.V[:, inside_panel]).T)
     vu = vu_k.max(axis=0, initial=0.0)
     vu_combo = combos[vu_k.argmax(axis=0)] if len(md.member) else np.zeros(0, object)
-    phi_vn = code.deep_beam_shear_limit(md.fc, md.bw, md.d)
+    phi_vn = code.deep_beam_shear_limit(md.fc, md.bw, md.d, opts.u)
     angle_why = _angle_violations(md, t, theta, env, tolF, inside_el)
     struts = _strut_table(md, t, combos, comp, theta, width1, width2, beta_s, fce_s, cap1, cap2, u_strut,
                           inside_el, tolF)
@@ -1068,7 +1099,10 @@ def _assemble(M, md: _Models, pt: _Points, fl: _Flow, t: Truss, feasible, reason
     nodes = _node_rows(faces)
     models = _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web, tie, angle_why, struts, ties, faces)
     members = _member_rows(M, md, models, reasons, method, web)
-    return StmDesign(members, models, nodes, faces, struts, ties, t, tuple(combos))
+    U = units.system(opts.u.units)  # the tables' columns carry the edition's units (force_kip, x_in, ...)
+    named = lambda df: df.rename(columns=U.rename(df.columns))  # noqa: E731
+    return StmDesign(named(members), named(models), named(nodes), named(faces), named(struts), named(ties), t,
+                     tuple(combos))
 
 
 def _strut_widths(md, pt, fl, t: Truss, theta, comp, spread, wt_eff):
@@ -1215,8 +1249,9 @@ def _anchorage(md, pt, t: Truss, theta, env, tolF, db, wt, opts: StmOptions) -> 
     N = len(pt.s)
     off = pt.offsets
     out = {}
-    ld = code.straight_development_length(md.fy, md.fc, db, md.lam, spacing_ok=opts.straight_bar_spacing_ok)
-    ldh = code.hooked_development_length(md.fy, md.fc, db, md.lam, psi_r=opts.hook_psi_r, psi_o=opts.hook_psi_o)
+    ld = code.straight_development_length(md.fy, md.fc, db, md.lam, spacing_ok=opts.straight_bar_spacing_ok, u=opts.u)
+    ldh = code.hooked_development_length(md.fy, md.fc, db, md.lam, psi_r=opts.hook_psi_r, psi_o=opts.hook_psi_o,
+                                         u=opts.u)
     bots = np.flatnonzero(t.el_kind == _BOT)
     for side, kind, slot_of, ext, node_end in (("A", _FAN_A, N + off[:-1], md.extA, t.el_n1),
                                                ("B", _FAN_B, N + off[1:] - 1, md.extB, t.el_n2)):
@@ -1228,7 +1263,7 @@ def _anchorage(md, pt, t: Truss, theta, env, tolF, db, wt, opts: StmOptions) -> 
         if len(at):
             force[t.el_model[at]] = np.clip(t.design_force[:, at], 0, None).max(axis=0)
         with np.errstate(invalid="ignore"):
-            avail = ext - opts.end_cover_mm + code.tie_exit_length(wt, steep)
+            avail = ext - opts.end_cover + code.tie_exit_length(wt, steep)
         present = np.isfinite(avail) & (force > tolF) & (md.whole | (side == "A"))
         how = np.where(~present, "", np.where(avail >= ld, "straight",
                                               np.where(avail >= ldh, "standard hook", "insufficient")))

@@ -1,9 +1,9 @@
 """A folder of immutable, self-checking runs.
 
     STORE/
-      RUN/manifest.json        inputs with sha256, units, code edition, tool version, and
-                               every file of the run with its size and sha256, sealed
-      RUN/members.parquet      validated members table (input schema, SI units)
+      RUN/manifest.json        inputs with sha256, unit system, code edition, tool version,
+                               and every file of the run with its size and sha256, sealed
+      RUN/members.parquet      validated members table (input schema, in the run's unit system)
       RUN/forces/part-*.parquet  validated forces in parts of whole members, each sorted by
                                  member, case, station
       RUN/cases.parquet        basic load cases, where given
@@ -47,9 +47,11 @@ import pyarrow.parquet as pq
 from postproc.adapters import digests
 from postproc.adapters.csv_tables import sort_part
 from postproc import __version__, locks
+from postproc import units as unit_systems
 from postproc.codes import aci318_19
 
 UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment": "kN*m", "stress": "MPa"}
+UNITS_US = {"length": "ft for length_ft and x_ft, in for *_in", "force": "kip", "moment": "kip*ft", "stress": "psi"}
 PART_BYTES = 24 << 20  # CSV bytes per stored part of the forces (small enough to balance 2 workers)
 MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memory, larger ones spill to disk
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
@@ -192,6 +194,12 @@ class Run:
 
     def json(self, rel: str) -> dict:
         return json.loads(self.read_bytes(rel).decode("utf-8"))
+
+    @property
+    def units(self) -> unit_systems.UnitSystem:
+        """The run's unit system (its tables' column names and units); runs stored before
+        there were two are SI."""
+        return unit_systems.system(self.manifest().get("unit_system", "si"))
 
     def members(self) -> pa.Table:
         return self.table("members.parquet")
@@ -378,7 +386,8 @@ class Store:
     # ---------------------------------------------------------------- writing
 
     def ingest(self, name: str, members: pa.Table, cases: pa.Table | None, source, inputs: dict[str, Path],
-               warnings: list[str], extra: dict | None = None, progress=None, then=None) -> Run:
+               warnings: list[str], extra: dict | None = None, progress=None, then=None,
+               units: unit_systems.UnitSystem = unit_systems.SI) -> Run:
         """Write a new run atomically and return it. ``then(run)``, if given, runs on the
         complete but not yet visible run (the design stage writes its design/ there), so
         that the run appears with its design or not at all. Claim the name first
@@ -390,6 +399,8 @@ class Store:
         checked, sorted by member, case, station and file row, and written. Memory is
         bounded by the part size, not by the model. The inputs' sha256 are those of the
         bytes the readers parsed (postproc.adapters.digests), where they recorded them.
+        ``units``: the unit system the tables are in (recorded in the manifest, with the
+        edition of ACI 318-19 it designs with).
         """
         self.check_new_name(name)
         n_parts = max(1, math.ceil(source.size() / PART_BYTES))
@@ -426,8 +437,9 @@ class Store:
                 "run": name,
                 "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
                 "tool": "shearpost", "tool_version": __version__,
-                "code_edition": aci318_19.EDITION,
-                "units": UNITS,
+                "code_edition": aci318_19.edition(units.name).title,
+                "unit_system": units.name,
+                "units": UNITS if units.name == "si" else UNITS_US,
                 "inputs": {role: {"path": str(p), "sha256": digests.recorded(p) or sha256_of(p)}
                            for role, p in inputs.items()},
                 "counts": {"members": members.num_rows, "force_rows": source.rows, "force_parts": len(part_keys),

@@ -4,6 +4,9 @@ The candidate combinations of each station (``combos.candidates``) are evaluated
 their own concurrent axial force and torsion; per station the envelope is what the
 layout needs. ``check_layout`` re-derives phi*Vn of a provided layout for every
 candidate of every station: the detailing self-check. Any NaN fails a check.
+
+Units are the run's (N, mm, MPa or lb, in, psi); the section carries the edition of ACI
+318-19 they belong to (``Section.u``), and every provision is evaluated with it.
 """
 
 from __future__ import annotations
@@ -13,18 +16,20 @@ from dataclasses import dataclass
 import numpy as np
 
 from postproc.codes import aci318_19 as aci
+from postproc.codes.aci318_19 import SI, Edition
 from postproc.combos import Candidates
 
 
 @dataclass(frozen=True)
 class Section:
-    """Per-member (or per-station, after ``take``) section and material arrays (N, mm, MPa)."""
+    """Per-member (or per-station, after ``take``) section and material arrays (N, mm, MPa or
+    lb, in, psi: the units of the edition ``u``)."""
 
     b: np.ndarray
     h: np.ndarray
     d: np.ndarray
     fc: np.ndarray
-    fyt: np.ndarray  # already capped at 420 MPa (20.2.2.4)
+    fyt: np.ndarray  # already capped at 420 MPa | 60,000 psi (20.2.2.4)
     fy: np.ndarray
     lam: np.ndarray
     Ag: np.ndarray
@@ -33,12 +38,13 @@ class Section:
     avmin_exempt: np.ndarray  # Table 9.6.3.1 rows
     Acp: np.ndarray
     pcp: np.ndarray
+    u: Edition = SI  # the edition of ACI 318-19 (and its units) the arrays are in
 
     def take(self, idx: np.ndarray) -> Section:
-        return Section(**{k: getattr(self, k)[idx] for k in self.__dataclass_fields__})
+        return Section(**{k: getattr(self, k)[idx] for k in self.__dataclass_fields__ if k != "u"}, u=self.u)
 
 
-def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf) -> Section:
+def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf, u: Edition = SI) -> Section:
     """Derived section quantities: Ag with any flange, rho_w, torsion geometry of the web rectangle.
 
     Acp and pcp are taken for the web rectangle bw x h alone: ignoring the overhangs
@@ -46,9 +52,9 @@ def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf) -> Section:
     """
     overhang = np.where(np.isfinite(bf), (np.nan_to_num(bf) - b) * np.nan_to_num(hf), 0.0)
     return Section(
-        b=b, h=h, d=d, fc=fc, fyt=np.minimum(fyt, aci.FYT_MAX_MPA), fy=fy, lam=lam, Ag=b * h + overhang,
-        rho_w=np.where(np.isfinite(As), As / (b * d), np.nan), rho_w_min=aci.rho_w_lower_bound(fc, fy),
-        avmin_exempt=aci.av_min_exempt(h, b, hf), Acp=b * h, pcp=2 * (b + h))
+        b=b, h=h, d=d, fc=fc, fyt=np.minimum(fyt, u.fyt_max), fy=fy, lam=lam, Ag=b * h + overhang,
+        rho_w=np.where(np.isfinite(As), As / (b * d), np.nan), rho_w_min=aci.rho_w_lower_bound(fc, fy, u),
+        avmin_exempt=aci.av_min_exempt(h, b, hf, u), Acp=b * h, pcp=2 * (b + h), u=u)
 
 
 def torsion_geometry(b, h, cover_to_stirrup, stirrup_db):
@@ -63,12 +69,12 @@ def torsion_geometry(b, h, cover_to_stirrup, stirrup_db):
 class PairDemand:
     """Per candidate combination of a station (flat, as ``Candidates``)."""
 
-    vu: np.ndarray  # |Vu|, N
-    nu: np.ndarray  # Nu, compression positive, N
-    tu: np.ndarray  # |Tu|, N*mm
+    vu: np.ndarray  # |Vu|, N | lb
+    nu: np.ndarray  # Nu, compression positive, N | lb
+    tu: np.ndarray  # |Tu|, N*mm | lb*in
     vc_hi: np.ndarray  # Vc with Av >= Av,min (Table 22.5.5.1 (a)/(b))
     vc_lo: np.ndarray  # Vc with Av < Av,min (Table 22.5.5.1 (c))
-    av: np.ndarray  # Av/s for strength, Vs/(fyt d) (22.5.8.5.3): no minimum, mm^2/mm
+    av: np.ndarray  # Av/s for strength, Vs/(fyt d) (22.5.8.5.3): no minimum, mm^2/mm | in^2/in
     ata: np.ndarray  # At/s x Aoh (22.7.6.1 with theta = 45 deg, Ao = 0.85 Aoh): divide by Aoh of the bar
     torsion: np.ndarray  # torsion considered, Tu >= phi Tth (22.7.4.1)
     minimum: np.ndarray  # Av,min (9.6.3.1) or the combined minimum (9.6.4.2) applies
@@ -80,7 +86,7 @@ class Demand:
     """Per-station envelope over the candidate combinations."""
 
     pairs: PairDemand
-    vu_max: np.ndarray  # largest |Vu| of any combination, N
+    vu_max: np.ndarray  # largest |Vu| of any combination, N | lb
     av_env: np.ndarray  # largest strength Av/s
     ata_env: np.ndarray  # largest At/s x Aoh where torsion is considered
     minimum: np.ndarray  # the minimum of 9.6.3.1 / 9.6.4.2 applies in some combination
@@ -89,7 +95,8 @@ class Demand:
     heavy: np.ndarray  # Vs > 0.33 sqrt(f'c) bw d in some combination (Table 9.7.6.2.2)
     s_max: np.ndarray  # along the member, Table 9.7.6.2.2 (torsion's ph/8 depends on the bar)
     s_max_across: np.ndarray
-    shear_ratio: np.ndarray  # largest Vu / phi (Vc + 0.66 sqrt(f'c) bw d)
+    shear_ratio: np.ndarray  # largest Vu / phi (Vc + 0.66 | 8 sqrt(f'c) bw d)
+    u: Edition = SI  # the edition it was evaluated with (that of the section)
 
     @property
     def stirrups_needed(self) -> np.ndarray:
@@ -108,31 +115,32 @@ def pair_demand(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = Non
     """Every candidate combination's own requirement. ``sec`` is per station; ``vc_zero`` per
     station, where Vc is taken as zero (18.6.5.2, the hinge zones of special-frame beams)."""
     s = sec.take(cand.station)
+    u = sec.u
     vu = np.abs(cand.values["V"])
     nu = -cand.values["N"]  # ACI sign: compression positive
     tu = np.abs(cand.values["T"])
     phi = aci.PHI_SHEAR
-    vc_hi = aci.vc_with_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, s.lam, s.rho_w)
+    vc_hi = aci.vc_with_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, s.lam, s.rho_w, u)
     rho_c = np.where(np.isfinite(s.rho_w), s.rho_w, s.rho_w_min)
-    vc_lo = aci.vc_without_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, rho_c, s.lam)
+    vc_lo = aci.vc_without_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, rho_c, s.lam, u)
     if vc_zero is not None:
         vc_hi, vc_lo = np.where(vc_zero[cand.station], 0.0, vc_hi), np.where(vc_zero[cand.station], 0.0, vc_lo)
-    minimum = vu > np.where(s.avmin_exempt, np.inf, aci.av_min_threshold(s.fc, s.b, s.d, s.lam))
+    minimum = vu > np.where(s.avmin_exempt, np.inf, aci.av_min_threshold(s.fc, s.b, s.d, s.lam, u))
     minimum |= s.avmin_exempt & (vu > phi * vc_lo)  # Table 9.6.3.1 beams: only where Vu > phi Vc
     torsion = np.zeros(len(vu), bool)
     ata = np.zeros(len(vu))
     if np.any(tu > 0):
-        torsion = (tu > 0) & (tu >= phi * aci.torsion_threshold(s.fc, s.Acp, s.pcp, nu, s.Ag, s.lam))
+        torsion = (tu > 0) & (tu >= phi * aci.torsion_threshold(s.fc, s.Acp, s.pcp, nu, s.Ag, s.lam, u))
         ata = np.where(torsion, aci.at_over_s(tu, 1.0, s.fyt), 0.0)
         minimum |= torsion  # 9.6.4.1
     # strength: Av/s = (Vu/phi - Vc)/(fyt d); where the minimum is not required, the smaller
     # of the steel with Vc by (c) and with Vc by (a)/(b) topped up to Av,min suffices
     q_hi = aci.av_over_s_for_vs(vu / phi - vc_hi, s.fyt, s.d)
     q_lo = aci.av_over_s_for_vs(vu / phi - vc_lo, s.fyt, s.d)
-    av_min = aci.av_min_over_s(s.fc, s.b, s.fyt)
+    av_min = aci.av_min_over_s(s.fc, s.b, s.fyt, u)
     av = np.where(minimum, q_hi, np.minimum(q_lo, np.maximum(q_hi, av_min)))
     return PairDemand(vu=vu, nu=nu, tu=tu, vc_hi=vc_hi, vc_lo=vc_lo, av=av, ata=ata, torsion=torsion,
-                      minimum=minimum, shear_ratio=vu / aci.section_limit(vc_hi, s.fc, s.b, s.d))
+                      minimum=minimum, shear_ratio=vu / aci.section_limit(vc_hi, s.fc, s.b, s.d, u))
 
 
 def required(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) -> Demand:
@@ -141,14 +149,15 @@ def required(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) 
     p = pair_demand(sec, cand, vc_zero)
     bounds = cand.bounds
     s = sec.take(cand.station)
-    heavy_pair = p.vu / aci.PHI_SHEAR - p.vc_hi > 0.33 * aci.sqrt_fc(s.fc) * s.b * s.d  # Table 9.7.6.2.2
+    u = sec.u
+    heavy_pair = p.vu / aci.PHI_SHEAR - p.vc_hi > u.heavy_vs * aci.sqrt_fc(s.fc, u) * s.b * s.d  # Table 9.7.6.2.2
     heavy = _segment_any(heavy_pair, bounds)
-    along, across = aci.max_spacing(np.where(heavy, np.inf, 0.0), sec.fc, sec.b, sec.d)
+    along, across = aci.max_spacing(np.where(heavy, np.inf, 0.0), sec.fc, sec.b, sec.d, u)
     return Demand(
         pairs=p, vu_max=_segment_max(p.vu, bounds), av_env=_segment_max(p.av, bounds),
         ata_env=_segment_max(p.ata, bounds), minimum=_segment_any(p.minimum, bounds),
-        torsion=_segment_any(p.torsion, bounds), av_min_s=aci.av_min_over_s(sec.fc, sec.b, sec.fyt),
-        heavy=heavy, s_max=along, s_max_across=across, shear_ratio=_segment_max(p.shear_ratio, bounds))
+        torsion=_segment_any(p.torsion, bounds), av_min_s=aci.av_min_over_s(sec.fc, sec.b, sec.fyt, u),
+        heavy=heavy, s_max=along, s_max_across=across, shear_ratio=_segment_max(p.shear_ratio, bounds), u=u)
 
 
 def torsion_limit_ratio(sec: Section, cand: Candidates, dem: Demand, Aoh, ph) -> np.ndarray:
@@ -158,7 +167,7 @@ def torsion_limit_ratio(sec: Section, cand: Candidates, dem: Demand, Aoh, ph) ->
     if not p.torsion.any():
         return np.zeros(len(dem.vu_max))
     s = sec.take(cand.station)
-    r = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[cand.station], ph[cand.station])
+    r = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[cand.station], ph[cand.station], sec.u)
     return _segment_max(np.where(p.torsion, r, 0.0), cand.bounds)
 
 
@@ -179,19 +188,19 @@ def allowed_spacing(cand: Candidates, dem: Demand, legs, bar_area, Aoh, ph, here
     that meets every candidate combination (inf where none are needed): each outer leg
     its share of the strength steel plus At/s (22.5.8.5.3, 22.7.6.1); Av >= Av,min or the
     combined minimum (Table 9.6.3.4, 9.6.4.2) where required; s_max along (Table
-    9.7.6.2.2; ph/8 and 300 mm with torsion, 9.7.6.3.3) where stirrups are placed
+    9.7.6.2.2; ph/8 and 300 mm | 12 in with torsion, 9.7.6.3.3) where stirrups are placed
     (``here``). ``legs``, ``Aoh``, ``ph`` per station."""
     need = per_leg_need(cand, dem, legs, Aoh)
     with np.errstate(divide="ignore"):
         s = np.where(need > 0, bar_area / need, np.inf)
         s = np.where(dem.minimum, np.minimum(s, legs * bar_area / dem.av_min_s), s)
-    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph)), dem.s_max)
+    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph, dem.u)), dem.s_max)
     return np.where(here | (need > 0) | dem.minimum, np.minimum(s, s_max), np.inf)
 
 
 @dataclass(frozen=True)
 class Capacity:
-    phi_vn: np.ndarray  # per candidate: phi (Vc + Vs) of the provided layout, N
+    phi_vn: np.ndarray  # per candidate: phi (Vc + Vs) of the provided layout, N | lb
     pair_utilization: np.ndarray  # per candidate: the largest demand/capacity ratio
     utilization: np.ndarray  # per station: the largest over its candidates
     ok: np.ndarray  # per station: every check passes
@@ -203,9 +212,9 @@ def check_layout(sec: Section, cand: Candidates, dem: Demand, bar_area, legs, sp
 
     ``spacing`` per station is the actual gap between the stirrups around it (inf where
     there are none). phi*Vn = phi (Vc + Av fyt d / s) with Vc by Table 22.5.5.1 (a)/(b)
-    where the provided Av >= Av,min, else (c); Vs not above 0.66 sqrt(f'c) bw d (22.5.1.2);
+    where the provided Av >= Av,min, else (c); Vs not above 0.66 | 8 sqrt(f'c) bw d (22.5.1.2);
     with torsion, each outer leg carries its share of the shear plus At/s (22.7.6.1);
-    s <= s_max (9.7.6.2.2, and ph/8, 300 mm with torsion, 9.7.6.3.3); Av >= Av,min, or
+    s <= s_max (9.7.6.2.2, and ph/8, 300 mm | 12 in with torsion, 9.7.6.3.3); Av >= Av,min, or
     Av + 2At >= the combined minimum, where required (9.6.3.1, 9.6.4.2); legs across at
     most s_max across apart where stirrups are needed; the section limits (22.5.1.2,
     22.7.7.1). ``here``: stations where stirrups are placed (s_max holds there). NaN
@@ -214,12 +223,13 @@ def check_layout(sec: Section, cand: Candidates, dem: Demand, bar_area, legs, sp
     p = dem.pairs
     st = cand.station
     s = sec.take(st)
+    u = sec.u
     phi = aci.PHI_SHEAR
     with np.errstate(divide="ignore", invalid="ignore"):
         av_s = np.where(np.isfinite(spacing), legs * bar_area / spacing, 0.0)
     has_min = av_s >= dem.av_min_s * (1 - tol)
     vc = np.where(has_min[st], p.vc_hi, p.vc_lo)
-    vs = np.minimum(aci.vs_from_av_over_s(av_s[st], s.fyt, s.d), aci.vs_max(s.fc, s.b, s.d))
+    vs = np.minimum(aci.vs_from_av_over_s(av_s[st], s.fyt, s.d), aci.vs_max(s.fc, s.b, s.d, u))
     phi_vn = phi * (vc + vs)
     with np.errstate(divide="ignore", invalid="ignore"):
         util = np.where(p.vu > 0, p.vu / phi_vn, 0.0)
@@ -227,12 +237,12 @@ def check_layout(sec: Section, cand: Candidates, dem: Demand, bar_area, legs, sp
             leg = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)[st]
             need = aci.av_over_s_for_vs(p.vu / phi - vc, s.fyt, s.d) / np.maximum(legs[st], 1) + p.ata / Aoh[st]
             util = np.maximum(util, np.where(p.torsion, np.where(leg > 0, need / leg, np.inf), 0.0))
-            tl = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[st], ph[st])
+            tl = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[st], ph[st], u)
             util = np.maximum(util, np.where(p.torsion, tl, 0.0))
     finite = np.isfinite(p.vu) & np.isfinite(p.tu) & np.isfinite(phi_vn)  # (a NaN Vu would read as Vu = 0)
     util = np.where(np.isnan(util) | ~finite, np.inf, util)  # NaN fails
     station_util = _segment_max(util, cand.bounds)
-    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph)), dem.s_max)
+    s_max = np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph, u)), dem.s_max)
     ok = station_util <= 1.0 + tol
     ok &= np.where(here, spacing <= s_max * (1 + tol), True) & ~np.isnan(spacing)
     ok &= ~dem.minimum | has_min

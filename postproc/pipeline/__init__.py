@@ -10,6 +10,13 @@ members of the batch (struct of arrays):
 ``resample`` and the combination candidates are shared; each family (postproc.pipeline.
 beams, ...) supplies its own geometry, demand, layout, check and records, and the
 statuses and messages of its members.
+
+Units: a batch is in the run's internal units (N, mm, MPa; or lb, in, psi: ``settings.units``,
+postproc.units), and the code provisions are evaluated with that unit system's edition
+(``edition(settings)``). Records (members.csv and zones.csv rows, the station trace) are
+keyed by the SI spelling of each column (MEMBER_COLUMNS, ZONE_COLUMNS) with values in the
+run's units (kN or kip, kN*m or kip*ft, mm or in, kg or lb); the engine names the tables
+in the run's unit system (``vu_design_i_kip``, ``spacing_in``) when it writes them.
 """
 
 from __future__ import annotations
@@ -21,7 +28,8 @@ import pandas as pd
 import pyarrow as pa
 
 from postproc import combos as combos_mod
-from postproc import stations
+from postproc import stations, units
+from postproc.codes import aci318_19 as aci
 from postproc.settings import Settings
 
 MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_kN", "vu_design_j_kN",
@@ -38,6 +46,15 @@ class SelfCheckError(AssertionError):
     """A finished layout failed its own check: a defect in shearpost, never a design result."""
 
 
+def edition(settings: Settings) -> aci.Edition:
+    """The edition of ACI 318-19 a run is designed with: that of its unit system."""
+    return aci.edition(settings.units)
+
+
+def unit_system(settings: Settings) -> units.UnitSystem:
+    return units.system(settings.units)
+
+
 def row(member, status, message, **kw) -> dict:
     row = {c: None for c in MEMBER_COLUMNS}
     row.update(member=member, status=status, message=message, stirrups_total=0, stirrup_mass_kg=0.0)
@@ -47,11 +64,11 @@ def row(member, status, message, **kw) -> dict:
 
 @dataclass(frozen=True)
 class BatchInput:
-    members: pd.DataFrame  # members of the batch, all of one family (inputs, SI)
+    members: pd.DataFrame  # members of the batch, all of one family (inputs, the run's column names)
     f_member: np.ndarray  # per force row: index into beams
     f_case: np.ndarray  # per force row: index into cset.cases
-    f_x: np.ndarray  # mm from node i
-    f_values: dict[str, np.ndarray]  # V, N (N), T (N*mm)
+    f_x: np.ndarray  # from node i, mm or in
+    f_values: dict[str, np.ndarray]  # V, N (N or lb), T (N*mm or lb*in)
 
 
 @dataclass(frozen=True)
@@ -77,7 +94,8 @@ class Resampled:
 
 def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> Resampled:
     g, n, names = mb.geo, len(mb.names), mb.names
-    samples = stations.Samples.build(bi.f_member, bi.f_case, bi.f_x, bi.f_values, settings.stations.tolerance_mm)
+    U = unit_system(settings)
+    samples = stations.Samples.build(bi.f_member, bi.f_case, bi.f_x, bi.f_values, settings.stations.tolerance)
     grid = stations.build_grid(g, samples, settings.stations)
     span = float(g.length.max() * 2 + 1e3)
     case_vals, missing = stations.interpolate(samples, len(cset.cases), grid.member, grid.x, grid.side, span)
@@ -96,15 +114,19 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     first_row = np.searchsorted(samples.member, np.arange(n))
     x_lo = np.minimum.reduceat(samples.x, first_row)
     x_hi = np.maximum.reduceat(samples.x, first_row)
-    short = (x_lo > g.start + 10.0) | (x_hi < g.end - 10.0)  # 10 mm: rounding of exported stations
+    slack = settings.stations.coverage_slack  # rounding of exported stations
+    short = (x_lo > g.start + slack) | (x_hi < g.end - slack)
     for m in np.flatnonzero(short):
-        warnings.append(f"member {names[m]}: forces cover x = {x_lo[m] / 1e3:.3f} to {x_hi[m] / 1e3:.3f} m only; "
-                        "the end values are held over the rest of the clear span")
+        warnings.append(f"member {names[m]}: forces cover x = {x_lo[m] / U.per_span:.3f} to "
+                        f"{x_hi[m] / U.per_span:.3f} {U.span} only; the end values are held over the rest of the "
+                        "clear span")
     sm, sc, sx, sdv = stations.steep_slopes(samples, settings.stations, n)
     for m in np.unique(sm):
         k = np.flatnonzero(sm == m)
-        warnings.append(f"member {names[m]}, case {cset.cases[sc[k[0]]]}: V changes by {abs(sdv[k[0]]) / 1e3:,.1f} kN "
-                        f"within {settings.stations.steep_slope_kN_per_m:g} kN/m at x = {sx[k[0]] / 1e3:.4f} m"
+        slope = settings.stations.steep_slope * U.per_span / U.per_force
+        warnings.append(f"member {names[m]}, case {cset.cases[sc[k[0]]]}: V changes by "
+                        f"{abs(sdv[k[0]]) / U.per_force:,.1f} {U.force} within {slope:g} {U.force}/{U.span} "
+                        f"at x = {sx[k[0]] / U.per_span:.4f} {U.span}"
                         + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
                         + ": a concentrated load spread by the export? It is designed as a steep linear change; "
                           "give the two rows one station to make it a concentrated load")
@@ -130,12 +152,12 @@ class BatchOutput:
     zones: list[dict]  # zones.csv rows
     trace: pa.Table  # the station trace
     warnings: list[str]
-    stirrups: pd.DataFrame  # member, x_mm
+    stirrups: pd.DataFrame  # member, x_mm (mm or in, from face i)
 
 
 def design_batch(family, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> BatchOutput:
     """One batch of members of one family through the pipeline."""
-    mb = family.geometry(bi.members)
+    mb = family.geometry(bi.members, settings)
     rs = resample(mb, bi, cset, settings)
     cand = combos_mod.candidates(cset, rs.case_values, signed=family.signed)
     return family.design(mb, rs, cand, cset, settings)

@@ -16,8 +16,9 @@ from postproc import detailing, stations
 from postproc.codes import aci318_19 as aci
 from postproc.demand import beams as demand
 from postproc.demand import frames as fr
-from postproc.pipeline import BatchOutput, MemberGeometry, Resampled, SelfCheckError, frame_beams, governing, row
-from postproc.settings import BAR_CATALOGUE, Settings
+from postproc.pipeline import (BatchOutput, MemberGeometry, Resampled, SelfCheckError, edition, frame_beams, governing,
+                               row, unit_system)
+from postproc.settings import Settings
 
 KINDS = ("beam",)
 USES_VB = False  # beams are designed for V (parallel to h); a Vb column is read for columns
@@ -57,17 +58,20 @@ class Layouts:
     allowed: np.ndarray  # per station: the allowed spacing for the chosen option (inf: none needed)
 
 
-def _geometry(bm: pd.DataFrame) -> Members:
+def _geometry(bm: pd.DataFrame, settings: Settings) -> Members:
+    """Step 1: per-member arrays in the run's internal units, from the columns of its unit system."""
+    U = unit_system(settings)
+    c = lambda si_name: bm[U.col(si_name)]  # noqa: E731
     g = stations.Geometry(
-        length=bm["length_m"].to_numpy() * 1e3, face_i=bm["face_i_mm"].to_numpy(), face_j=bm["face_j_mm"].to_numpy(),
-        d=bm["d_mm"].to_numpy(), h=bm["h_mm"].to_numpy(), support_i=bm["support_i"].to_numpy(object),
+        length=c("length_m").to_numpy() * U.per_span, face_i=c("face_i_mm").to_numpy(), face_j=c("face_j_mm").to_numpy(),
+        d=c("d_mm").to_numpy(), h=c("h_mm").to_numpy(), support_i=bm["support_i"].to_numpy(object),
         support_j=bm["support_j"].to_numpy(object), load_top=(bm["load_face"] == "top").to_numpy())
     sec = demand.section_from_members(
-        b=bm["b_mm"].to_numpy(float), h=g.h, d=g.d, fc=bm["fc_mpa"].to_numpy(), fyt=bm["fyt_mpa"].to_numpy(),
-        lam=bm["lambda"].to_numpy(), fy=bm["fy_mpa"].to_numpy(), As=bm["as_tension_mm2"].to_numpy(float),
-        bf=bm["bf_mm"].to_numpy(float), hf=bm["hf_mm"].to_numpy(float))
+        b=c("b_mm").to_numpy(float), h=g.h, d=g.d, fc=c("fc_mpa").to_numpy(), fyt=c("fyt_mpa").to_numpy(),
+        lam=bm["lambda"].to_numpy(), fy=c("fy_mpa").to_numpy(), As=c("as_tension_mm2").to_numpy(float),
+        bf=c("bf_mm").to_numpy(float), hf=c("hf_mm").to_numpy(float), u=edition(settings))
     return Members(bm["member"].to_numpy(object), g, sec, g.support_i == "free", g.support_j == "free",
-                   fr.frame_beams(bm))
+                   fr.frame_beams(bm, U))
 
 
 def _here(dem: demand.Demand, st, fp: frame_beams.FramePlan) -> np.ndarray:
@@ -84,12 +88,12 @@ def _options(mb: Members, dem: demand.Demand, grid: stations.Grid, st, fp: frame
     across = np.full(len(mb.names), np.inf)
     np.minimum.at(across, grid.member[here], dem.s_max_across[here])
     bars = [bar for bar, _ in st.ladder]
-    db = np.array([BAR_CATALOGUE[b][0] for b in bars])
-    legs = np.array([[max(base, detailing.legs_for_width(b, st.clear_cover_mm, dbk, a)) if np.isfinite(a) else base
+    db = np.array([st.bars[b][0] for b in bars])
+    legs = np.array([[max(base, detailing.legs_for_width(b, st.clear_cover, dbk, a)) if np.isfinite(a) else base
                       for b, a in zip(mb.sec.b, across)] for (_, base), dbk in zip(st.ladder, db)], dtype=float)
-    legs = np.maximum(legs, [fr.legs_for_bar_support(mb.frames, mb.sec.b, st.clear_cover_mm, dbk) for dbk in db])
-    geo = [demand.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover_mm, dbk) for dbk in db]
-    return Options(bars, legs, np.array([BAR_CATALOGUE[b][1] for b in bars]), db,
+    legs = np.maximum(legs, [fr.legs_for_bar_support(mb.frames, mb.sec.b, st.clear_cover, dbk, mb.sec.u) for dbk in db])
+    geo = [demand.torsion_geometry(mb.sec.b, mb.sec.h, st.clear_cover, dbk) for dbk in db]
+    return Options(bars, legs, np.array([st.bars[b][1] for b in bars]), db,
                    np.array([a for a, _ in geo]), np.array([p for _, p in geo]))
 
 
@@ -107,8 +111,9 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
             settings: Settings, fp: frame_beams.FramePlan) -> Layouts:
     """Step 5: the first ladder option that fits the minimum spacing and the torsion section
     limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member
-    (frame beams: the first hoop within 50 mm of each face, 18.6.4.4, 18.4.2.4)."""
+    (frame beams: the first hoop within 50 mm | 2 in of each face, 18.6.4.4, 18.4.2.4)."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    U, u = unit_system(settings), mb.sec.u
     here = _here(dem, st, fp)
     shear_bad = np.zeros(n, bool)
     np.logical_or.at(shear_bad, grid.member, dem.shear_ratio > 1.0)
@@ -117,8 +122,8 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     fits = np.zeros((len(opt.bars), n), bool)
     torsion_ok = np.ones((len(opt.bars), n), bool)
     for k in range(len(opt.bars)):
-        allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module_mm, fp)
-        fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing_mm
+        allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module, fp)
+        fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing
         ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
                                            opt.ph[k][grid.member])
         torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
@@ -128,8 +133,9 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     chosen = np.full(len(grid.x), np.inf)
     hoops = np.zeros(n, bool)
     hoops[grid.member[fp.first_hoop_members]] = True
-    st_hoops = replace(st, first_stirrup="fixed", first_stirrup_mm=min(
-        st.first_stirrup_mm if st.first_stirrup == "fixed" else aci.FIRST_HOOP_MAX_MM, aci.FIRST_HOOP_MAX_MM))
+    first_at = U.col("first_stirrup_mm")  # the settings' own field: first_stirrup_mm | first_stirrup_in
+    st_hoops = replace(st, first_stirrup="fixed", **{first_at: min(
+        st.first_stirrup_at if st.first_stirrup == "fixed" else u.first_hoop_max, u.first_hoop_max)})
     for m in range(n):
         if deep[m] or shear_bad[m] or m in fp.reasons:
             option[m] = -1
@@ -140,10 +146,10 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
             if not torsion_ok[:, m].any():
                 reasons[m] = ("resize", _torsion_message(mb, rs, cand, dem, opt, m))
             else:
-                tight = [f"{opt.bars[j]} x{int(opt.legs[j][m])} legs at {allowed[j][sl].min():g} mm"
+                tight = [f"{opt.bars[j]} x{int(opt.legs[j][m])} legs at {allowed[j][sl].min():g} {U.length}"
                          for j in range(len(opt.bars)) if torsion_ok[j, m]]
-                reasons[m] = ("resize", f"no (bar, legs) of the ladder works at the {st.min_spacing_mm:g} mm minimum "
-                                        f"spacing: {'; '.join(tight)}")
+                reasons[m] = ("resize", f"no (bar, legs) of the ladder works at the {st.min_spacing:g} {U.length} "
+                                        f"minimum spacing: {'; '.join(tight)}")
             continue
         got = detailing.layout_positions(rs.x_clear[sl], allowed[k][sl], float(mb.geo.clear_span[m]),
                                          bool(mb.free_i[m]), bool(mb.free_j[m]), st_hoops if hoops[m] else st,
@@ -194,7 +200,7 @@ def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Pro
         spacing[sl] = detailing.provided_spacing(layout.positions, rs.x_clear[sl], float(mb.geo.clear_span[m]),
                                                  sides[sl])
     legs = np.where(on, opt.legs[k, cols], 0.0)
-    leg_gap = detailing.leg_spacing(mb.sec.b[cols], st.clear_cover_mm, opt.db[k], np.maximum(legs, 1))
+    leg_gap = detailing.leg_spacing(mb.sec.b[cols], st.clear_cover, opt.db[k], np.maximum(legs, 1))
     return Provided(on, spacing, legs, np.where(on, opt.area[k], 0.0), opt.Aoh[k, cols], opt.ph[k, cols], leg_gap)
 
 
@@ -203,12 +209,12 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
     """Step 6, the self-check: every station of every designed member, every candidate
     combination (the capacity-design one of frame beams with it, Vc = 0 where 18.6.5.2
     says so), the spacing limits of frame beams with the chosen hoop bar, the first hoop
-    within 50 mm of each face, and every gap between stirrups against the practical minimum."""
+    within 50 mm | 2 in of each face, and every gap between stirrups against the practical minimum."""
     sec = mb.sec.take(rs.grid.member)
     dem = replace(dem, s_max=np.minimum(dem.s_max, fp.stations.limit_for(opt.db[np.maximum(lay.option, 0)][rs.grid.member])))
     cap = demand.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
                               lay.stirrups_here)
-    per_option = np.array([fr.legs_for_bar_support(mb.frames, mb.sec.b, settings.detailing.clear_cover_mm, dbk)
+    per_option = np.array([fr.legs_for_bar_support(mb.frames, mb.sec.b, settings.detailing.clear_cover, dbk, mb.sec.u)
                            for dbk in opt.db])  # (K, members): 18.6.4.2
     support_legs = per_option[np.maximum(lay.option, 0), np.arange(len(mb.names))]
     short = prov.on & (prov.legs < support_legs[rs.grid.member])
@@ -217,26 +223,29 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
         raise SelfCheckError(f"hoops of member {mb.names[m]} have fewer legs than 18.6.4.2 asks "
                              f"({int(support_legs[m])})")
     bad = prov.on & ~cap.ok
+    mm, slack = unit_system(settings).length, settings.detailing.gap_slack
     if bad.any():
         k = np.flatnonzero(bad)[0]
         m = rs.grid.member[k]
-        raise SelfCheckError(f"layout of member {mb.names[m]} fails its self-check at x = {rs.x_clear[k]:.0f} mm "
-                             f"(utilization {cap.utilization[k]:.3f}, s = {prov.spacing[k]:g} mm, "
-                             f"s_max = {dem.s_max[k]:g} mm)")
-    smin = settings.detailing.min_spacing_mm
+        raise SelfCheckError(f"layout of member {mb.names[m]} fails its self-check at x = {rs.x_clear[k]:.0f} {mm} "
+                             f"(utilization {cap.utilization[k]:.3f}, s = {prov.spacing[k]:g} {mm}, "
+                             f"s_max = {dem.s_max[k]:g} {mm})")
+    smin = settings.detailing.min_spacing
+    hoop_max = mb.sec.u.first_hoop_max
     for m, layout in lay.layouts.items():
         x = layout.positions
         if len(x) and (x[0] <= 0 or x[-1] >= mb.geo.clear_span[m]):
             raise SelfCheckError(f"stirrups of member {mb.names[m]} run outside its clear span "
-                                 f"({x[0]:g} to {x[-1]:g} mm of {mb.geo.clear_span[m]:g} mm)")
-        first = aci.FIRST_HOOP_MAX_MM + 0.05
+                                 f"({x[0]:g} to {x[-1]:g} {mm} of {mb.geo.clear_span[m]:g} {mm})")
+        first = hoop_max + slack
         if fp.first_hoop_members[rs.grid.offsets[m]] and len(x) and (x[0] > first or mb.geo.clear_span[m] - x[-1] > first):
-            raise SelfCheckError(f"hoops of member {mb.names[m]} start {x[0]:g} mm and {mb.geo.clear_span[m] - x[-1]:g} "
-                                 f"mm from the faces, more than {aci.FIRST_HOOP_MAX_MM:g} mm (18.6.4.4, 18.4.2.4)")
+            raise SelfCheckError(f"hoops of member {mb.names[m]} start {x[0]:g} {mm} and "
+                                 f"{mb.geo.clear_span[m] - x[-1]:g} {mm} from the faces, more than {hoop_max:g} {mm} "
+                                 "(18.6.4.4, 18.4.2.4)")
         gaps = np.diff(x)
-        if len(gaps) and gaps.min() < smin - 0.05 and "one zone throughout" not in layout.message:
-            raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} mm apart, under the "
-                                 f"{smin:g} mm minimum")
+        if len(gaps) and gaps.min() < smin - slack and "one zone throughout" not in layout.message:
+            raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} {mm} apart, under the "
+                                 f"{smin:g} {mm} minimum")
     return cap
 
 
@@ -245,6 +254,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
              fp: frame_beams.FramePlan):
     """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
+    U, u = unit_system(settings), mb.sec.u
     fs = fp.stations
     p = dem.pairs
     cs = cand.station
@@ -262,7 +272,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     if torsion_ratio is not None:
         s_ = mb.sec.take(grid.member[cs])
         tr = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s_.fc, s_.b, s_.d, opt.Aoh[k_ref[grid.member[cs]],
-                                    grid.member[cs]], opt.ph[k_ref[grid.member[cs]], grid.member[cs]])
+                                    grid.member[cs]], opt.ph[k_ref[grid.member[cs]], grid.member[cs]], u)
         pair_u = np.maximum(pair_u, np.where(p.torsion & ~prov.on[cs], tr, 0.0))
     gov_station = governing(pair_u, tie, cand.bounds)  # per station: its governing candidate
     station_util = pair_u[gov_station]
@@ -278,26 +288,29 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         has_min = (av_prov >= dem.av_min_s * (1 - 1e-9))[cs] & prov.on[cs]
     vc_used = np.where(has_min, p.vc_hi, np.where(prov.on[cs], p.vc_lo, p.vc_hi))
     sec_p = mb.sec.take(grid.member[cs])
-    limit = aci.section_limit(p.vc_hi, sec_p.fc, sec_p.b, sec_p.d)
+    limit = aci.section_limit(p.vc_hi, sec_p.fc, sec_p.b, sec_p.d, u)
     eq = _vc_equation(sec_p, p, has_min | ~prov.on[cs], fs.vc_zero[cs])
     at_chosen = p.ata / opt.Aoh[k_ref[grid.member[cs]], grid.member[cs]]
     al = aci.al_required(at_chosen, opt.ph[k_ref[grid.member[cs]], grid.member[cs]], sec_p.fyt, sec_p.fy,
-                         sec_p.fc, sec_p.Acp, sec_p.b)
+                         sec_p.fc, sec_p.Acp, sec_p.b, u)
     al = np.where(p.torsion, al, 0.0)
     al_member = np.maximum.reduceat(al, member_bounds[:-1]) if len(al) else np.zeros(n)
 
     rows, zones, stirrups = [], [], []
     first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
+    per_force, per_moment, nd = U.per_force, U.per_moment, st.position_decimals  # table units; decimals of mm (in)
+    area_nd = 0 if U.name == "si" else 2  # mm^2 whole, in^2 to 0.01
     for m in range(n):
         j = gov_member[m]
         common = dict(
             crit_i=rs.rules.crit_i[m], crit_j=rs.rules.crit_j[m],
-            vu_design_i_kN=round(dem.vu_max[first_st[m]] / 1e3, 2), vu_design_j_kN=round(dem.vu_max[last_st[m]] / 1e3, 2),
-            governing_case=name_member[m], phi_vc_kN=round(aci.PHI_SHEAR * vc_used[j] / 1e3, 2),
-            phi_vn_limit_kN=round(limit[j] / 1e3, 2), utilization=round(float(pair_u[j]), 3),
-            x_governing_mm=round(float(rs.x_clear[cs[j]]), 1), vu_kN=round(p.vu[j] / 1e3, 2),
-            nu_kN=round(p.nu[j] / 1e3, 2), tu_kNm=round(p.tu[j] / 1e6, 3), vc_equation=eq[j],
-            al_torsion_mm2=round(float(al_member[m]), 0) if al_member[m] > 0 else None)
+            vu_design_i_kN=round(dem.vu_max[first_st[m]] / per_force, 2),
+            vu_design_j_kN=round(dem.vu_max[last_st[m]] / per_force, 2),
+            governing_case=name_member[m], phi_vc_kN=round(aci.PHI_SHEAR * vc_used[j] / per_force, 2),
+            phi_vn_limit_kN=round(limit[j] / per_force, 2), utilization=round(float(pair_u[j]), 3),
+            x_governing_mm=round(float(rs.x_clear[cs[j]]), nd), vu_kN=round(p.vu[j] / per_force, 2),
+            nu_kN=round(p.nu[j] / per_force, 2), tu_kNm=round(p.tu[j] / per_moment, 3), vc_equation=eq[j],
+            al_torsion_mm2=round(float(al_member[m]), area_nd) if al_member[m] > 0 else None)
         name = mb.names[m]
         if why_deep[m]:
             rows.append(row(name, "deep-beam", why_deep[m], **common))
@@ -312,7 +325,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
                 bd = float(mb.sec.b[m] * mb.sec.d[m]) * ratio
                 msg = (f"Vu exceeds the section limit of 22.5.1.2 (ratio {ratio:.2f}"
                        + (", Vc = 0 by 18.6.5.2" if fs.vc_zero[sl].any() else "")
-                       + f"); needs bw*d of about {bd:,.0f} mm^2")
+                       + f"); needs bw*d of about {bd:,.0f} {U.area}")
             else:
                 msg = lay.reasons[m][1]
             rows.append(row(name, status, msg, **common))
@@ -321,21 +334,23 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         sl = slice(grid.offsets[m], grid.offsets[m + 1])
         # closed where torsion acts (25.7.1.6) and in frame beams (hoops; stirrups with seismic hooks, 18.6.4.6)
         closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any()) or bool(fs.throughout[sl].any())
-        shapes = detailing.stirrup_set(float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover_mm, layout.bar, layout.legs,
-                                       closed, st.open_hook_deg)
-        mass = layout.count * detailing.set_mass(shapes)
+        shapes = detailing.stirrup_set(float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover, layout.bar, layout.legs,
+                                       closed, st.open_hook_deg, u)
+        mass = layout.count * detailing.set_mass(shapes, u)
         message = "; ".join(filter(None, [layout.message, fp.notes.get(m, "")]))
         if al_member[m] > 0:
-            message = "; ".join(filter(None, [message, f"torsion: add Al = {al_member[m]:,.0f} mm^2 of longitudinal "
-                                                      "bars around the perimeter (22.7.6.1, 9.6.4.3, 9.7.5)"]))
+            message = "; ".join(filter(None, [message, f"torsion: add Al = {al_member[m]:,.{area_nd}f} {U.area} of "
+                                                      "longitudinal bars around the perimeter (22.7.6.1, 9.6.4.3, "
+                                                      "9.7.5)"]))
         rows.append(row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
                          **common))
         stirrups.append(pd.DataFrame({"member": name, "x_mm": layout.positions}))
         hinge = 2.0 * mb.geo.h[m] if fs.zone[sl].any() else None  # hoops over 2h (18.6.4.1, 18.4.2.4)
-        for z, (kind, zone) in enumerate(_kinded_zones(layout, float(mb.geo.clear_span[m]), hinge), start=1):
-            zones.append(dict(member=name, zone=z, start_mm=round(zone.start, 1), end_mm=round(zone.end, 1),
+        for z, (kind, zone) in enumerate(_kinded_zones(layout, float(mb.geo.clear_span[m]), hinge, st.same_gap),
+                                         start=1):
+            zones.append(dict(member=name, zone=z, start_mm=round(zone.start, nd), end_mm=round(zone.end, nd),
                               bar=layout.bar if zone.count else "", legs=layout.legs if zone.count else 0,
-                              spacing_mm=round(zone.spacing, 1) if np.isfinite(zone.spacing) else None,
+                              spacing_mm=round(zone.spacing, nd) if np.isfinite(zone.spacing) else None,
                               count=zone.count, kind=kind))
 
     g = gov_station
@@ -349,52 +364,54 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     sec_st = mb.sec.take(grid.member)
     take = lambda values, idx: pa.array(list(values), pa.string()).take(pa.array(idx))  # strings built in Arrow
     trace = pa.table({
-        "member": take(mb.names, grid.member), "x_mm": np.round(rs.x_clear, 2), "side": grid.side,
-        "governing_case": pa.array(list(name_station), pa.string()), "vu_kN": p.vu[g] / 1e3,
-        "vu_max_kN": dem.vu_max / 1e3, "nu_kN": p.nu[g] / 1e3, "tu_kNm": p.tu[g] / 1e6,
-        "phi_vc_kN": aci.PHI_SHEAR * vc_used[g] / 1e3,
+        "member": take(mb.names, grid.member), "x_mm": np.round(rs.x_clear, nd + 1), "side": grid.side,
+        "governing_case": pa.array(list(name_station), pa.string()), "vu_kN": p.vu[g] / per_force,
+        "vu_max_kN": dem.vu_max / per_force, "nu_kN": p.nu[g] / per_force, "tu_kNm": p.tu[g] / per_moment,
+        "phi_vc_kN": aci.PHI_SHEAR * vc_used[g] / per_force,
         # phi*Vn of the combination with the largest Vu, so that it compares with vu_max
-        "phi_vn_kN": np.where(on, cap.phi_vn[largest_v] if cap is not None else np.nan, np.nan) / 1e3,
-        "phi_vn_limit_kN": limit[g] / 1e3,
+        "phi_vn_kN": np.where(on, cap.phi_vn[largest_v] if cap is not None else np.nan, np.nan) / per_force,
+        "phi_vn_limit_kN": limit[g] / per_force,
         "avmin_threshold_kN": np.where(sec_st.avmin_exempt, aci.PHI_SHEAR * p.vc_lo[g],
-                                       aci.av_min_threshold(sec_st.fc, sec_st.b, sec_st.d, sec_st.lam)) / 1e3,
+                                       aci.av_min_threshold(sec_st.fc, sec_st.b, sec_st.d, sec_st.lam, u)) / per_force,
         "vc_equation": pa.array(list(eq[g]), pa.string()),
         "av_s_req": p.av[g], "at_s_req": p.ata[g] / Aoh_st, "av_s_env": dem.av_env, "at_s_env": dem.ata_env / Aoh_st,
         "av_min_s": dem.av_min_s, "avmin_required": dem.minimum, "torsion": dem.torsion,
-        "s_max_mm": np.minimum(np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st)), dem.s_max),
+        "s_max_mm": np.minimum(np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st, u)), dem.s_max),
                                fs.limit_for(opt.db[k_st])),
         "s_allowed_mm": np.where(on, lay.allowed, np.nan),
         "spacing_mm": np.where(on, prov.spacing, np.nan), "av_s_prov": av_prov,
         "al_mm2": al[g], "utilization": station_util,
         # Chapter 18 (postproc.pipeline.frame_beams): frame, capacity-design shear, hinge zone, Vc = 0
         "frame": take([fr.NAMES[c] for c in range(len(fr.NAMES))], fs.code.astype(np.int64)),
-        "ve_kN": fs.ve / 1e3, "ve_eq_kN": fs.ve_eq / 1e3, "hinge_zone": fs.zone, "vc_zero": fs.vc_zero,
+        "ve_kN": fs.ve / per_force, "ve_eq_kN": fs.ve_eq / per_force, "hinge_zone": fs.zone, "vc_zero": fs.vc_zero,
     })
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
     return rows, zones, trace, positions
 
 
-def _kinded_zones(layout: detailing.Layout, clear_span: float, hinge: float | None) -> list[tuple[str, detailing.Zone]]:
+def _kinded_zones(layout: detailing.Layout, clear_span: float, hinge: float | None,
+                  same_gap: float = 0.5) -> list[tuple[str, detailing.Zone]]:
     """zones.csv rows with their kind: the stirrups of the hinge zones at each end are hoops
     (up to and including the first at or beyond 2h from the face, so that the hoops span 2h),
     the rest stirrups; zones are derived from the positions of each part on its own."""
     x = layout.positions
     if hinge is None or not len(x):
-        return [("stirrup", z) for z in detailing.zones_from_positions(x, clear_span, layout.empty)]
+        return [("stirrup", z) for z in detailing.zones_from_positions(x, clear_span, layout.empty, same_gap)]
     last_i = min(int(np.searchsorted(x, hinge - 1e-6)), len(x) - 1)  # the first hoop at or beyond 2h from face i
     first_j = max(int(np.searchsorted(x, clear_span - hinge + 1e-6, side="right")) - 1, 0)
     if first_j <= last_i + 1:  # the hoop zones meet: hoops throughout
-        return [("hoop", z) for z in detailing.zones_from_positions(x, clear_span, [])]
+        return [("hoop", z) for z in detailing.zones_from_positions(x, clear_span, [], same_gap)]
     parts = (("hoop", x[:last_i + 1]), ("stirrup", x[last_i + 1:first_j]), ("hoop", x[first_j:]))
-    return [(kind, z) for kind, part in parts if len(part) for z in detailing.zones_from_positions(part, clear_span, [])]
+    return [(kind, z) for kind, part in parts if len(part)
+            for z in detailing.zones_from_positions(part, clear_span, [], same_gap)]
 
 
 def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray,
                  vc_zero: np.ndarray | None = None) -> np.ndarray:
     """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, zero under tension, or
     zero by 18.6.5.2 in the hinge zones of special-frame beams)."""
-    a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam)
-    cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam)
+    a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam, u=sec.u)
+    cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam, sec.u)
     vc = np.where(with_min, p.vc_hi, p.vc_lo)
     out = np.where(with_min, np.where(np.isclose(p.vc_hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
                    "22.5.5.1(c)").astype(object)
