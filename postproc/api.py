@@ -18,7 +18,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from postproc import engine, engines
+from postproc import engine, engines, units
 from postproc.adapters import csv_tables, digests, elements, ifc
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import load_column_map
@@ -79,12 +79,14 @@ class Design:
 
 
 def design(members, forces, cases=None, config=None, *, column_map=None, store=None, run: str | None = None,
-           workers: int = 1, ifc_key: str = "auto") -> Design:
+           workers: int = 1, ifc_key: str = "auto", units: str | None = None) -> Design:
     """Design every member of a frame and return the tables.
 
     ``members``, ``forces`` and ``cases`` are pandas DataFrames in the CSV schema of the
-    README, or paths to CSV files (``members`` also to an IFC model). ``config`` is a
-    settings TOML path or a dict of its sections; ``column_map`` a mapping TOML path.
+    README (columns in either unit system), or paths to CSV files (``members`` also to an
+    IFC model). ``config`` is a settings TOML path or a dict of its sections; ``column_map``
+    a mapping TOML path; ``units`` ("si" or "us", inch-pound) overrides the settings' unit
+    system, in which the design is made and the tables are named.
     The run is kept in ``store`` (a folder) under ``run`` if given, else in a temporary
     store that lives as long as the returned object. Raises InputError on bad input and
     NothingDesigned when no member could be designed.
@@ -98,14 +100,14 @@ def design(members, forces, cases=None, config=None, *, column_map=None, store=N
         paths = {role: _as_file(value, Path(tmp), role) for role, value in
                  (("members", members), ("forces", forces), ("cases", cases))}
         if isinstance(config, dict):
-            settings, config_path = validated_settings(config, Path("config (a dict)")), None
+            settings, config_path = validated_settings(config, Path("config (a dict)"), units), None
         else:
-            settings, config_path = load_settings(config), config
+            settings, config_path = load_settings(config, units), config
         stored, result = ingest_and_design(store, run, paths["members"], paths["forces"],
                                            paths["cases"], column_map, settings, config_path,
                                            engines.local(workers), ifc_key)
-    out = Design(stored, result.members[engine.MEMBER_COLUMNS], result.zones[engine.ZONE_COLUMNS],
-                 result.warnings, keep, joints=result.joints)
+    out = Design(stored, result.members[engine.member_columns(result.units)],
+                 result.zones[engine.zone_columns(result.units)], result.warnings, keep, joints=result.joints)
     why = nothing_designed(out.members)
     if why:
         raise NothingDesigned(why, out)
@@ -139,21 +141,25 @@ def ingest_and_design(store: Store, name: str | None, members_path: Path, forces
 
 def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_path, settings, config_path,
                        map_parts, ifc_key, task):
+    U = units.system(settings.units)
+    length = U.col("length_m")
     cmap = load_column_map(map_path, csv_tables.KNOWN_COLUMNS)
     fill = settings.input.fill
     warnings: list[str] = []
     cases = csv_tables.read_cases(cases_path, cmap, warnings) if cases_path else None
     from_ifc = Path(members_path).suffix.lower() == ".ifc"
     if from_ifc:
-        probe = elements.forces_source(forces_path, cmap, fill=fill)
-        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc, probe.member_ids())
+        probe = elements.forces_source(forces_path, cmap, fill=fill, units=U)
+        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids())
+        members = units.convert_table(members, units.SI, U)
         lengths = None
     else:
-        members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill)
-        lengths = dict(zip(members.column("member").to_pylist(), members.column("length_m").to_pylist()))
+        members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill, U)
+        lengths = dict(zip(members.column("member").to_pylist(), members.column(length).to_pylist()))
+        member_warnings += _units_hint(members_path, U)
     warnings.extend(member_warnings)
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
-                                    settings.stations.tolerance_mm, fill)
+                                    settings.stations.tolerance, fill, U)
     warnings.extend(source.spec.dialect.notes)
     inputs = {"members": members_path, "forces": forces_path, **elements.extra_inputs(source)}
     for role, path in (("cases", cases_path), ("column_map", map_path), ("settings", config_path)):
@@ -169,10 +175,12 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         warnings.extend(csv_tables.case_only_matches(set(members.column("member").to_pylist()),
                                                      source.member_names))
         if from_ifc:
-            found = {m: L for m, L in zip(members.column("member").to_pylist(),
-                                          members.column("length_m").to_pylist()) if L is not None}
-            warnings.extend(ifc.length_mismatches(found, staged.forces(["member", "x_m"]),
-                                                  settings.ifc.length_tolerance_mm))
+            to_m = units.factor(length, "length_m")
+            found = {m: L * to_m for m, L in zip(members.column("member").to_pylist(),
+                                                 members.column(length).to_pylist()) if L is not None}
+            x = staged.forces(["member", U.col("x_m")])
+            warnings.extend(ifc.length_mismatches(found, units.convert_table(x, U, units.SI),
+                                                  settings.ifc.si().length_tolerance_mm))
         folder = staged.design_path
         folder.mkdir()
         advance = task("designing (parts)", len(staged.force_parts()))
@@ -182,8 +190,22 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
                                               encoding="utf-8")
 
     run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()},
-                       progress=task("reading forces (rows)"), then=design_staged)
+                       progress=task("reading forces (rows)"), then=design_staged, units=U)
     return run, holder["result"]
+
+
+def _units_hint(members_path: Path, U: units.UnitSystem) -> list[str]:
+    """A warning where a members table is spelt in the other unit system than the run's
+    (it is converted; the hint is for whoever meant the other edition of the code)."""
+    header = csv_tables.header_names(members_path)
+    other = units.US if U.name == "si" else units.SI
+    spelt = [c for c in ("length_m", "b_mm", "h_mm", "fc_mpa") if other.col(c) in header and U.col(c) not in header]
+    if len(spelt) < 2:
+        return []
+    return [f"{members_path.name} is in {other.title.split(' (')[0]} units ({', '.join(other.col(c) for c in spelt)}); "
+            f"the run converts it and designs in {U.title} with {engine.aci.edition(U.name).title}"
+            + (": use --units us (or units = \"us\" in the settings) for the inch-pound edition" if U.name == "si"
+               else "")]
 
 
 def read_ifc(path: Path, key: str, st, wanted: set[str]):
@@ -271,9 +293,9 @@ class OpenStore:
 
         r = self._run(name)
         joints = design_table(r, "joints") if (r.design_path / "joints.parquet").exists() \
-            else pd.DataFrame(columns=JOINT_COLUMNS)
-        return Design(r, design_table(r, "members")[engine.MEMBER_COLUMNS],
-                      design_table(r, "zones").reindex(columns=engine.ZONE_COLUMNS),
+            else pd.DataFrame(columns=r.units.cols(JOINT_COLUMNS))
+        return Design(r, design_table(r, "members")[engine.member_columns(r.units)],
+                      design_table(r, "zones").reindex(columns=engine.zone_columns(r.units)),
                       list(r.design_manifest().get("warnings", [])), joints=joints)
 
     def governing(self, run: str | None = None, levels=(), groups=(), statuses=(), top: int | None = None):

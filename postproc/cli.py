@@ -124,13 +124,15 @@ COMMANDS = {
             "to --out. Every member of the input leaves with a status that says why.",
             ["shearpost run --members members.csv --forces forces.csv --cases cases.csv --out results/",
              "shearpost run --members model.ifc --forces forces.csv --out results/ --run level-2-rev-b",
-             "shearpost run --members m.csv --forces export.csv --map export-map.toml --out results/ --json"],
+             "shearpost run --members m.csv --forces export.csv --map export-map.toml --out results/ --json",
+             "shearpost run --units us --members members.csv --forces forces.csv --out results/"],
             {"store", "json", "config"}),
     "demo": ("design the demo building that ships with shearpost",
              "Design the demo building (a reinforced-concrete frame of our own, with its analysis results) exactly "
              "as `run` would, into ./shearpost-demo by default. --scale changes a load case, to try `compare`.",
              ["shearpost demo --run base", "shearpost demo --scale L=1.3 --run more-live",
-              "shearpost demo --without-frames --run no-frames", "shearpost demo --ifc --out demo-ifc/"],
+              "shearpost demo --without-frames --run no-frames", "shearpost demo --ifc --out demo-ifc/",
+              "shearpost demo --units us --run base-us"],
              {"store", "json", "config"}),
     "govern": ("rank the members: those needing action first, then by utilization",
                "Rank the members of a designed run for review: members that need action (resize, deep-beam, "
@@ -242,6 +244,10 @@ def _parser() -> argparse.ArgumentParser:
                         "GlobalId, Name, Tag that matches most)")
     r.add_argument("--out", type=Path, required=True, help="folder for members.csv, zones.csv and report.html")
     for d in (r, q["demo"]):
+        d.add_argument("--units", choices=("si", "us"), default=None,
+                       help="si: SI units and the SI edition of ACI 318-19 (N, mm, MPa; the default); us: inch-pound "
+                            "units and the inch-pound edition (lb, in, psi; #3, #4, #5 bars); default: the settings' "
+                            "units, else si. Input columns may be named in either system")
         d.add_argument("--run", dest="run_name", metavar="NAME", help="name of the new run (default: the date and a counter)")
         d.add_argument("--no-report", action="store_true", help="do not write report.html")
     d = q["demo"]
@@ -454,6 +460,19 @@ def unframed_demo_members(out: Path) -> Path:
     return write_atomic(out / "members-without-frames.csv", lambda fh: members.to_csv(fh, index=False, lineterminator="\n"))
 
 
+def inch_pound_demo_inputs(members: Path, forces: Path, out: Path) -> tuple[Path, Path]:
+    """The demo's tables in inch-pound units (length_ft, b_in, fc_psi, V_kip, ...), converted by
+    the tool and written beside the outputs, so that the run reads them as a US export and
+    its manifest points at the files that were designed; its Grade 420 bars are Grade 60
+    (units.convert_csv). An IFC model is read as it is."""
+    from postproc import units
+
+    folder = out / "inputs-us"
+    if members.suffix.lower() != ".ifc":
+        members = units.convert_csv(members, folder / "members.csv", units.US, grades=True)
+    return members, units.convert_csv(forces, folder / forces.name, units.US)
+
+
 def cmd_design(args) -> int:
     """`run` and `demo`: ingest, design, write the tables and the report, summarise."""
     from postproc import api, engines, export, report
@@ -479,6 +498,8 @@ def cmd_design(args) -> int:
                 _error("shearpost demo: error: --without-frames works on the demo's members.csv, not with --ifc")
                 return EXIT_USAGE
             args.members = unframed_demo_members(args.out)
+        if args.units == "us":
+            args.members, args.forces = inch_pound_demo_inputs(args.members, args.forces, args.out)
     store = Store(args.store)
     inputs = {role: path for role, path in (("members", args.members), ("forces", args.forces), ("cases", args.cases),
                                             ("column_map", args.map), ("settings", args.config)) if path}
@@ -498,7 +519,7 @@ def cmd_design(args) -> int:
     else:
         map_parts = engines.local(args.workers)
     try:
-        settings = load_settings(args.config)
+        settings = load_settings(args.config, args.units)
         with report.progress_bars(show_progress) as task:
             run, result = api.ingest_and_design(store, args.run_name, args.members, args.forces, args.cases,
                                                 args.map, settings, args.config, map_parts, args.ifc_key, task)
@@ -561,13 +582,13 @@ def _run_of(args, store):
 
 
 def _print_frame(df, console, title: str) -> None:
-    """A table under the shared labels, units-aware number formats: kN and kg to 0.1, ratios to 0.001."""
+    """A table under the shared labels, units-aware number formats: kN, kip, kg and lb to 0.1, ratios to 0.001."""
     from rich.table import Table
 
     from postproc.report import shown
 
     t = Table(title=title, title_justify="left")
-    digits = [1 if ("kN" in str(c) or "kg" in str(c)) else 3 for c in df.columns]
+    digits = [1 if str(c).endswith(("_kN", "_kg", "_kip", "_lb")) else 3 for c in df.columns]
     for col in df.columns:
         numeric = df[col].dtype.kind in "if"
         t.add_column(label(str(col)), justify="right" if numeric else "left",
@@ -607,6 +628,8 @@ def cmd_compare(args, store) -> int:
     else:
         console = _console()
         console.print(f"[bold]{report.shown(diff.run_a)}[/bold] (A) -> [bold]{report.shown(diff.run_b)}[/bold] (B)")
+        if diff.note:
+            console.print(report.shown(diff.note))
         console.print(f"added: {report.shown(', '.join(diff.added) or 'none')}")
         console.print(f"removed: {report.shown(', '.join(diff.removed) or 'none')}")
         for df, title in ((diff.status_changes, "Status changes"),
@@ -617,8 +640,9 @@ def cmd_compare(args, store) -> int:
                 _print_frame(df, console, title)
             else:
                 console.print(f"{title}: none")
-        console.print(f"Stirrup mass {diff.mass_a_kg:,.1f} kg -> {diff.mass_b_kg:,.1f} kg "
-                      f"({diff.mass_b_kg - diff.mass_a_kg:+,.1f} kg)")
+        U = diff.units
+        console.print(f"Stirrup {U.mass_word} {diff.mass_a_kg:,.1f} {U.mass} -> {diff.mass_b_kg:,.1f} {U.mass} "
+                      f"({diff.mass_b_kg - diff.mass_a_kg:+,.1f} {U.mass})")
         if diff.newly_resize:
             console.print(f"[bold]Newly need resizing:[/bold] {report.shown(', '.join(diff.newly_resize))}")
     return EXIT_RESIZE if args.fail_on_new_resize and diff.newly_resize else EXIT_OK
@@ -639,24 +663,25 @@ def cmd_runs(args, store) -> int:
         except DamagedRun as exc:  # listed as damaged; the other runs are listed as usual
             rows.append({"run": r.name, "damaged": f"{exc.file}: {exc.reason}", "created": "", "members": None,
                          "force_rows": None, "designed": None, "inputs": {}, "tool_version": None,
-                         "code_edition": None})
+                         "code_edition": None, "unit_system": None})
             continue
         rows.append({"run": r.name, "damaged": None, "created": man["created"], "members": man["counts"]["members"],
                      "force_rows": man["counts"]["force_rows"], "designed": r.has_design(),
                      "inputs": {k: {"path": v["path"], "sha256": v["sha256"]} for k, v in man["inputs"].items()},
-                     "tool_version": man["tool_version"], "code_edition": man["code_edition"]})
+                     "tool_version": man["tool_version"], "code_edition": man["code_edition"],
+                     "unit_system": man.get("unit_system", "si")})
     if args.json:
         print(report.dump_json({"store": str(store.root), "runs": rows}))
         return EXIT_OK
     t = Table(title=f"Runs in {report.shown(store.root)}", title_justify="left")
-    for col in ("run", "created (UTC)", "members", "force rows", "designed", "inputs"):
+    for col in ("run", "created (UTC)", "units", "members", "force rows", "designed", "inputs"):
         t.add_column(col, overflow="fold")
     for r in rows:
         if r["damaged"]:
-            t.add_row(report.shown(r["run"]), "", "", "", "[bold red]DAMAGED[/bold red]",
+            t.add_row(report.shown(r["run"]), "", "", "", "", "[bold red]DAMAGED[/bold red]",
                       report.shown(r["damaged"]) + " (`shearpost verify`)")
             continue
-        t.add_row(report.shown(r["run"]), r["created"][:16].replace("T", " "), str(r["members"]),
+        t.add_row(report.shown(r["run"]), r["created"][:16].replace("T", " "), r["unit_system"], str(r["members"]),
                   f"{r['force_rows']:,}", "yes" if r["designed"] else "no",
                   report.shown(", ".join(Path(v["path"]).name for v in r["inputs"].values())))
     _console().print(t)
@@ -730,15 +755,17 @@ def cmd_schedule(args, store) -> int:
     settings = settings_from_dict(run.manifest().get("settings", {}))
     sched = schedule.for_run(store, run, settings.detailing, args.envelope_groups)
     paths = sched.write(args.out)
+    U = run.units
+    mass = U.col("stirrup_mass_kg")
     doc = {"run": run.name, "marks": len(sched.marks), "designed_members": len(sched.members),
-           "bars": int(sched.bars["count"].sum()), "stirrup_mass_kg": round(float(sched.bars.mass_kg.sum()), 1),
+           "bars": int(sched.bars["count"].sum()), mass: round(float(sched.bars[U.col("mass_kg")].sum()), 1),
            "by_bar": sched.by_bar.to_dict("records"), "files": [str(p) for p in paths], "caution": report.CAUTION}
     if args.json:
         print(report.dump_json(doc))
         return EXIT_OK
     console = _console()
     console.print(f"run {report.shown(run.name)}: {doc['marks']} marks for {doc['designed_members']} designed members, "
-                  f"{doc['bars']:,} bars, {doc['stirrup_mass_kg']:,.1f} kg")
+                  f"{doc['bars']:,} bars, {doc[mass]:,.1f} {U.mass}")
     _print_frame(sched.by_bar, console, "By bar size")
     console.print(f"written: {', '.join(p.name for p in paths if p.suffix == '.csv')} (and .parquet) in "
                   f"{report.shown(args.out)}")

@@ -2,7 +2,8 @@
 
 Values come from the stored run (inputs, station trace, zones); the concrete and steel
 terms at each zone's governing station are evaluated again with the same code
-functions so that every number shown can be followed by hand.
+functions so that every number shown can be followed by hand. Every number is in the
+run's unit system, and the equations quoted are those of its edition of ACI 318-19.
 """
 
 from __future__ import annotations
@@ -18,8 +19,9 @@ from postproc.demand import beams as demand
 from postproc.demand import frames as fr
 from postproc.codes import aci318_19 as aci
 from postproc.govern import design_table
-from postproc.settings import BAR_CATALOGUE, Settings, Stations
+from postproc.settings import Settings, Stations
 from postproc.store import Run, StoreError
+from postproc.units import UnitSystem, si_keyed
 
 
 @dataclass
@@ -34,29 +36,33 @@ def _fmt(v, unit="", nd=1) -> str:
 
 
 def explain(run: Run, member: str, settings: Settings) -> list[Step]:
-    res = design_table(run, "members").set_index("member")
+    U = run.units
+    u = aci.edition(U.name)
+    mm, mpa, kN = U.length, U.stress, U.force
+    res = _keyed(design_table(run, "members")).set_index("member")
     if member not in res.index:
         raise StoreError(f"member '{member}' is not in run '{run.name}'")
     r = res.loc[member]
     steps = [Step("Status", "", [f"{member}: {r.status}" + (f" - {r.message}" if r.message else "")])]
-    inputs = run.members().to_pandas().set_index("member")
+    inputs = _keyed(run.members().to_pandas()).set_index("member")
     if member not in inputs.index:
         return steps
     m = inputs.loc[member]
-    ln = m.length_m * 1000 - m.face_i_mm - m.face_j_mm
-    fyt = min(m.fyt_mpa, aci.FYT_MAX_MPA)
+    ln = m.length_m * U.per_span - m.face_i_mm - m.face_j_mm
+    fyt = min(m.fyt_mpa, u.fyt_max)
     rho = m.as_tension_mm2 / (m.b_mm * m.d_mm) if np.isfinite(m.as_tension_mm2) else np.nan
     steps.append(Step("Inputs", "", [
-        f"bw = {m.b_mm:g} mm, h = {m.h_mm:g} mm, d = {m.d_mm:g} mm" +
-        (f", flange {m.bf_mm:g} x {m.hf_mm:g} mm" if np.isfinite(m.bf_mm) else ""),
-        f"f'c = {m.fc_mpa:g} MPa, sqrt(f'c) used = {float(aci.sqrt_fc(m.fc_mpa)):.3f} MPa (22.5.3.1), "
+        f"bw = {m.b_mm:g} {mm}, h = {m.h_mm:g} {mm}, d = {m.d_mm:g} {mm}" +
+        (f", flange {m.bf_mm:g} x {m.hf_mm:g} {mm}" if np.isfinite(m.bf_mm) else ""),
+        f"f'c = {m.fc_mpa:g} {mpa}, sqrt(f'c) used = {float(aci.sqrt_fc(m.fc_mpa, u)):.3f} {mpa} (22.5.3.1), "
         f"lambda = {m['lambda']:g}",
-        f"fyt = {m.fyt_mpa:g} MPa" + (f", {fyt:g} MPa used for shear (20.2.2.4)" if fyt < m.fyt_mpa else ""),
-        "rho_w = " + (f"{rho:.4f} from As = {m.as_tension_mm2:g} mm^2" if np.isfinite(rho) else
-                      f"not given: Table 22.5.5.1(c) takes {float(aci.rho_w_lower_bound(m.fc_mpa, m.fy_mpa)):.4f}, "
+        f"fyt = {m.fyt_mpa:g} {mpa}" + (f", {fyt:g} {mpa} used for shear (20.2.2.4)" if fyt < m.fyt_mpa else ""),
+        "rho_w = " + (f"{rho:.4f} from As = {m.as_tension_mm2:g} {U.area}" if np.isfinite(rho) else
+                      f"not given: Table 22.5.5.1(c) takes {float(aci.rho_w_lower_bound(m.fc_mpa, m.fy_mpa, u)):.4f}, "
                       "the As,min of 9.6.1.2"),
-        f"length {m.length_m:g} m, faces {m.face_i_mm:g} / {m.face_j_mm:g} mm, clear span ln = {ln:,.0f} mm",
+        f"length {m.length_m:g} {U.span}, faces {m.face_i_mm:g} / {m.face_j_mm:g} {mm}, clear span ln = {ln:,.0f} {mm}",
         f"supports: i {m.support_i}, j {m.support_j}; loads at the {m.load_face}",
+        *([] if U.name == "si" else [f"units: {U.title}; the equations of {u.title}"]),
     ]))
     if r.status in ("no-forces", "not-covered", "invalid"):
         return steps
@@ -65,43 +71,54 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     cases = sorted(set(f.column("case").to_pylist()))
     samples = stations.Samples.build(
         np.zeros(f.num_rows, np.int64), np.array([cases.index(c) for c in f.column("case").to_pylist()], np.int64),
-        f.column("x_m").to_numpy() * 1e3, {"V": f.column("V_kN").to_numpy() * 1e3, "T": f.column("T_kNm").to_numpy() * 1e6},
-        settings.stations.tolerance_mm)
-    steps.append(_point_loads(samples, cases, m, settings.stations))
-    steps.append(_critical_sections(samples, m, r, settings.stations))
+        f.column(U.col("x_m")).to_numpy() * U.per_span, {"V": f.column(U.col("V_kN")).to_numpy() * U.per_force,
+                                                         "T": f.column(U.col("T_kNm")).to_numpy() * U.per_moment},
+        settings.stations.tolerance)
+    steps.append(_point_loads(samples, cases, m, settings.stations, U))
+    steps.append(_critical_sections(samples, m, r, settings.stations, U))
     steps.append(Step("Deep beam", "9.9.1.1", [
-        f"ln = {ln:,.0f} mm {'<=' if ln <= 4 * m.h_mm else '>'} 4h = {4 * m.h_mm:,.0f} mm"
+        f"ln = {ln:,.0f} {mm} {'<=' if ln <= 4 * m.h_mm else '>'} 4h = {4 * m.h_mm:,.0f} {mm}"
         + ("" if r.status != "deep-beam" else f"; {r.message}")]))
-    st = design_table(run, "stations", member=member).sort_values(["x_mm", "side"], kind="stable").reset_index(drop=True)
+    st = _keyed(design_table(run, "stations", member=member)).sort_values(["x_mm", "side"], kind="stable")
+    st = st.reset_index(drop=True)
     k = int(np.argmax(st.vu_max_kN.to_numpy() / st.phi_vn_limit_kN.to_numpy()))
     steps.append(Step("Section limit", "22.5.1.2", [
-        f"largest Vu / phi(Vc + 0.66 sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
-        f"at x = {st.x_mm[k]:,.0f} mm (Vu = {_fmt(st.vu_max_kN[k], 'kN')}, limit {_fmt(st.phi_vn_limit_kN[k], 'kN')})"]))
+        f"largest Vu / phi(Vc + {u.vs_max:g} sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
+        f"at x = {st.x_mm[k]:,.0f} {mm} (Vu = {_fmt(st.vu_max_kN[k], kN)}, limit {_fmt(st.phi_vn_limit_kN[k], kN)})"]))
     if "frame" in m.index and m.frame in ("ordinary", "intermediate", "special"):
-        steps.append(_frame_step(inputs.loc[[member]].reset_index(), m, r, st, ln, settings))
-    steps.append(_governing(r))
+        steps.append(_frame_step(run.members().to_pandas().set_index("member").loc[[member]].reset_index(), m, r, st,
+                                 ln, settings, U))
+    steps.append(_governing(r, U))
     if st.torsion.any():
-        steps.append(_torsion(st, r, m, settings))
+        steps.append(_torsion(st, r, m, settings, U))
     if r.status != "designed":
         return steps
     zones = design_table(run, "zones")
-    zones = zones[zones.member == member].sort_values("zone")
+    zones = _keyed(zones[zones.member == member].sort_values("zone"))
     sec = demand.section_from_members(
         b=np.array([m.b_mm]), h=np.array([m.h_mm]), d=np.array([m.d_mm]), fc=np.array([m.fc_mpa]),
         fyt=np.array([m.fyt_mpa]), lam=np.array([m["lambda"]]), fy=np.array([m.fy_mpa]),
-        As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]))
+        As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]), u=u)
     for z in zones.itertuples():
-        steps.append(_zone_step(z, st, sec, m))
+        steps.append(_zone_step(z, st, sec, m, settings, U))
     worst = int(np.nanargmax(st.utilization.to_numpy()))
     man = run.manifest()
+    density = (f"steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3" if U.name == "si" else
+               f"steel {detailing.STEEL_DENSITY_US * 1728:g} lb/ft^3")
     steps.append(Step("Self-check", "9.5.1.1, 9.6.3, 9.7.6.2.2", [
         f"phi*Vn >= Vu at all {len(st)} stations for every combination; every gap between stirrups (and to a face "
         "or free end) within the spacing the demand allows there; s <= s_max; Av >= Av,min where required",
-        f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} mm ({st.governing_case[worst]})"]))
+        f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} {mm} ({st.governing_case[worst]})"]))
     steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
-        f"{r.stirrups_total} stirrup sets, {r.stirrup_mass_kg:g} kg (steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3)",
+        f"{r.stirrups_total} stirrup sets, {r.stirrup_mass_kg:g} {U.mass} ({density})",
         f"code edition {man.get('code_edition')}, shearpost {man.get('tool_version')}"]))
     return steps
+
+
+def _keyed(df):
+    """A table of the run under our (SI) keys, its values in the run's units: the steps
+    read ``m.b_mm`` for bw in mm, or in inches in an inch-pound run, and say which."""
+    return si_keyed(df)
 
 
 def _combinations(run: Run) -> Step:
@@ -124,53 +141,59 @@ def _combinations(run: Run) -> Step:
     return Step("Combinations", "5.3.1, 5.3.2, 6.4", lines)
 
 
-def _point_loads(samples, cases: list[str], m, settings: Stations) -> Step:
+def _point_loads(samples, cases: list[str], m, settings: Stations, U: UnitSystem) -> Step:
     jm, jx = stations.jumps(samples, settings, 1)
     lines = []
     same = (samples.case[1:] == samples.case[:-1]) & (samples.x[1:] == samples.x[:-1])
     dv = np.abs(np.diff(samples.values["V"]))
     for x in np.unique(jx):
         here = same & (samples.x[1:] == x)
-        size = dv[here].max() / 1e3
+        size = dv[here].max() / U.per_force
         case = cases[samples.case[1:][here][np.argmax(dv[here])]]
-        where = "at a support face" if x <= m.face_i_mm or x >= m.length_m * 1e3 - m.face_j_mm else "on the span"
-        lines.append(f"x = {x / 1e3:.3f} m ({where}): a jump of {size:,.1f} kN in case {case}")
+        where = "at a support face" if x <= m.face_i_mm or x >= m.length_m * U.per_span - m.face_j_mm else "on the span"
+        lines.append(f"x = {x / U.per_span:.3f} {U.span} ({where}): a jump of {size:,.1f} {U.force} in case {case}")
     if not lines:
         lines.append("none: no two rows at one station differ by more than the tolerance "
-                     f"(max of {settings.point_load_kN:g} kN and {settings.point_load_fraction:g} of the largest |V|)")
-    lines.append(f"rows closer than {settings.tolerance_mm:g} mm are one station")
+                     f"(max of {settings.point_load / U.per_force:g} {U.force} and {settings.point_load_fraction:g} "
+                     "of the largest |V|)")
+    lines.append(f"rows closer than {settings.tolerance:g} {U.length} are one station")
     return Step("Concentrated loads", "9.4.3.2(c), 9.9.1.1(b)", lines)
 
 
-def _governing(r) -> Step:
+def _governing(r, U: UnitSystem) -> Step:
     if r.governing_case is None or (isinstance(r.governing_case, float) and np.isnan(r.governing_case)):
         return Step("Governing combination", "", ["none"])
     return Step("Governing combination", "", [
-        f"{r.governing_case} at x = {_fmt(r.x_governing_mm, 'mm', 0)}: Vu = {_fmt(r.vu_kN, 'kN')}, "
-        f"Nu = {_fmt(r.nu_kN, 'kN')} (compression +), Tu = {_fmt(r.tu_kNm, 'kN*m', 2)}",
-        f"phi*Vc = {_fmt(r.phi_vc_kN, 'kN')} by {r.vc_equation}; utilization {r.utilization:.3f} "
+        f"{r.governing_case} at x = {_fmt(r.x_governing_mm, U.length, 0)}: Vu = {_fmt(r.vu_kN, U.force)}, "
+        f"Nu = {_fmt(r.nu_kN, U.force)} (compression +), Tu = {_fmt(r.tu_kNm, U.moment, 2)}",
+        f"phi*Vc = {_fmt(r.phi_vc_kN, U.force)} by {r.vc_equation}; utilization {r.utilization:.3f} "
         "(the larger of Vu/phi*Vn provided and Vu over the section limit; ties go to the larger Vu/phi*Vn)"])
 
 
-def _torsion(st, r, m, settings: Settings) -> Step:
+def _torsion(st, r, m, settings: Settings, U: UnitSystem) -> Step:
+    u = aci.edition(U.name)
+    mm = U.length
     t = st[st.torsion]
     k = t.tu_kNm.idxmax()
     row = st.loc[k]
     lines = [f"torsion considered at {len(t)} of {len(st)} stations (Tu >= phi*Tth, 22.7.4.1; web rectangle "
              "Acp = bw h, equilibrium torsion, not reduced by 22.7.3.2)",
-             f"largest Tu = {_fmt(row.tu_kNm, 'kN*m', 2)} at x = {row.x_mm:,.0f} mm ({row.governing_case})",
-             f"At/s = Tu / (phi 2 (0.85 Aoh) fyt cot 45) = {row.at_s_req:.3f} mm^2/mm per leg (22.7.6.1), Aoh and ph "
-             "of the chosen stirrup bar; closed stirrups (25.7.1.6); s <= min(ph/8, 300 mm) (9.7.6.3.3)",
-             "(Av + 2At)/s >= max(0.062 sqrt(f'c), 0.35) bw/fyt (9.6.4.2), one combined minimum",
+             f"largest Tu = {_fmt(row.tu_kNm, U.moment, 2)} at x = {row.x_mm:,.0f} {mm} ({row.governing_case})",
+             f"At/s = Tu / (phi 2 (0.85 Aoh) fyt cot 45) = {row.at_s_req:.3f} {U.area}/{mm} per leg (22.7.6.1), Aoh "
+             f"and ph of the chosen stirrup bar; closed stirrups (25.7.1.6); s <= min(ph/8, {u.torsion_s_max:g} {mm}) "
+             "(9.7.6.3.3)",
+             f"(Av + 2At)/s >= max({u.av_min_sqrt:g} sqrt(f'c), {u.av_min_flat:g}) bw/fyt (9.6.4.2), one combined "
+             "minimum",
              "cross-sectional limit 22.7.7.1(a) checked with the chosen bar"]
     if isinstance(r.al_torsion_mm2, (int, float)) and np.isfinite(r.al_torsion_mm2):
-        lines.append(f"longitudinal torsion steel Al = {r.al_torsion_mm2:,.0f} mm^2, the larger of (At/s) ph fyt/fy "
-                     "(22.7.6.1) and Al,min (9.6.4.3); add it to the flexural bars, around the perimeter at "
-                     "most 300 mm apart (9.7.5.1)")
+        nd = 0 if U.name == "si" else 2
+        lines.append(f"longitudinal torsion steel Al = {r.al_torsion_mm2:,.{nd}f} {U.area}, the larger of (At/s) ph "
+                     "fyt/fy (22.7.6.1) and Al,min (9.6.4.3); add it to the flexural bars, around the perimeter at "
+                     f"most {u.torsion_s_max:g} {mm} apart (9.7.5.1)")
     return Step("Torsion", "22.7", lines)
 
 
-def _critical_sections(s, m, r, settings: Stations) -> Step:
+def _critical_sections(s, m, r, settings: Stations, U: UnitSystem) -> Step:
     _, jx = stations.jumps(s, settings, 1)
     lines = []
     for end, crit, support, vu in (("i", r.crit_i, m.support_i, r.vu_design_i_kN),
@@ -181,7 +204,7 @@ def _critical_sections(s, m, r, settings: Stations) -> Step:
         if end == "i":
             near = [x for x in jx if m.face_i_mm < x <= m.face_i_mm + m.d_mm]
         else:
-            far = m.length_m * 1000 - m.face_j_mm
+            far = m.length_m * U.per_span - m.face_j_mm
             near = [x for x in jx if far - m.d_mm <= x < far]
         why = []
         if support not in stations.BEARING:
@@ -189,107 +212,117 @@ def _critical_sections(s, m, r, settings: Stations) -> Step:
         if m.load_face != "top":
             why.append("(b) loads act at the bottom (hung)")
         if near:
-            why.append(f"(c) concentrated load between the face and d, at x = {near[0] / 1000:.3f} m")
+            why.append(f"(c) concentrated load between the face and d, at x = {near[0] / U.per_span:.3f} {U.span}")
         rule = "at d from the face" if crit == "d" else "at the face"
-        lines.append(f"end {end}: {rule}; Vu = {_fmt(vu, 'kN')}" +
+        lines.append(f"end {end}: {rule}; Vu = {_fmt(vu, U.force)}" +
                      (f" - {'; '.join(why)}" if why else " - bearing support, top loading, no concentrated load within d"))
     return Step("Critical sections", "9.4.3.2", lines)
 
 
-def _zone_step(z, st, sec: demand.Section, m) -> Step:
+def _zone_step(z, st, sec: demand.Section, m, settings: Settings, U: UnitSystem) -> Step:
+    u = sec.u
+    mm, kN, per = U.length, U.force, U.per_force
     sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
     if not len(sub):  # a lone stirrup between stations: the stations next to it
         sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]
     hoops = getattr(z, "kind", "stirrup") == "hoop"
-    what = f"{z.count} {'hoops' if hoops else 'x'} {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} mm" if z.count > 1 else "")
-    title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} mm, {what if z.count else 'no stirrups'}"
+    what = f"{z.count} {'hoops' if hoops else 'x'} {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} {mm}"
+                                                                              if z.count > 1 else "")
+    title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} {mm}, {what if z.count else 'no stirrups'}"
     if not z.count:
         return Step(title, "9.6.3.1", ["no stirrups: Vu <= the Av,min threshold and phi*Vc throughout"])
     k = sub.utilization.idxmax()
     row = st.loc[k]
-    vu, nu, tu = row.vu_kN * 1e3, row.nu_kN * 1e3, row.tu_kNm * 1e6
+    vu, nu, tu = row.vu_kN * per, row.nu_kN * per, row.tu_kNm * U.per_moment
     b, d, fc = sec.b[0], sec.d[0], sec.fc[0]
-    area = BAR_CATALOGUE[z.bar][1]
+    area = settings.detailing.bars[z.bar][1]
     s = row.spacing_mm  # the actual gap between the stirrups around the station
     av_s_prov = z.legs * area / s
-    has_min = av_s_prov >= float(aci.av_min_over_s(fc, b, sec.fyt[0]))
+    has_min = av_s_prov >= float(aci.av_min_over_s(fc, b, sec.fyt[0], u))
     if bool(row.get("vc_zero", False)):  # the hinge zone of a special-frame beam (18.6.5.2)
         vc = 0.0
     elif has_min:
-        vc = float(aci.vc_with_min_stirrups(fc, b, d, nu, sec.Ag[0], sec.lam[0], sec.rho_w[0]))
+        vc = float(aci.vc_with_min_stirrups(fc, b, d, nu, sec.Ag[0], sec.lam[0], sec.rho_w[0], u))
     else:
         rho = sec.rho_w[0] if np.isfinite(sec.rho_w[0]) else sec.rho_w_min[0]
-        vc = float(aci.vc_without_min_stirrups(fc, b, d, nu, sec.Ag[0], rho, sec.lam[0]))
+        vc = float(aci.vc_without_min_stirrups(fc, b, d, nu, sec.Ag[0], rho, sec.lam[0], u))
     eq = row.vc_equation + (", Av >= Av,min" if has_min else
-                            f", Av < Av,min, lambda_s = {float(aci.size_effect_factor(d)):.3f}")
+                            f", Av < Av,min, lambda_s = {float(aci.size_effect_factor(d, u)):.3f}")
     vs_req = max(vu / aci.PHI_SHEAR - vc, 0.0)
-    vs_prov = min(float(aci.vs_from_av_over_s(av_s_prov, sec.fyt[0], d)), float(aci.vs_max(fc, b, d)))
-    heavy = vs_req > 0.33 * float(aci.sqrt_fc(fc)) * b * d
+    vs_prov = min(float(aci.vs_from_av_over_s(av_s_prov, sec.fyt[0], d)), float(aci.vs_max(fc, b, d, u)))
+    heavy = vs_req > u.heavy_vs * float(aci.sqrt_fc(fc, u)) * b * d
     lines = [
-        f"governing station x = {row.x_mm:,.0f} mm, combination {row.governing_case}",
-        f"Vu = {_fmt(vu / 1e3, 'kN')}, Nu = {_fmt(nu / 1e3, 'kN')} (compression +), Tu = {_fmt(tu / 1e6, 'kN*m', 2)}",
-        f"Vc = {_fmt(vc / 1e3, 'kN')} by Table {eq}; phi*Vc = {_fmt(0.75 * vc / 1e3, 'kN')} (21.2.1)",
-        f"Vs required = Vu/phi - Vc = {_fmt(vs_req / 1e3, 'kN')}; Av/s required = {row.av_s_req:.3f} mm^2/mm "
+        f"governing station x = {row.x_mm:,.0f} {mm}, combination {row.governing_case}",
+        f"Vu = {_fmt(vu / per, kN)}, Nu = {_fmt(nu / per, kN)} (compression +), "
+        f"Tu = {_fmt(tu / U.per_moment, U.moment, 2)}",
+        f"Vc = {_fmt(vc / per, kN)} by Table {eq}; phi*Vc = {_fmt(0.75 * vc / per, kN)} (21.2.1)",
+        f"Vs required = Vu/phi - Vc = {_fmt(vs_req / per, kN)}; Av/s required = {row.av_s_req:.3f} {U.area}/{mm} "
         f"(22.5.8.5.3); Av,min/s = {row.av_min_s:.3f} required here by 9.6.3.1: "
         f"{'yes' if row.avmin_required else 'no'}",
-        f"provided {z.bar} ({area:g} mm^2) x {z.legs} legs, the stirrups around x {s:g} mm apart: "
-        f"Av/s = {av_s_prov:.3f} mm^2/mm, Vs = {_fmt(vs_prov / 1e3, 'kN')}",
-        f"s_max = {row.s_max_mm:g} mm (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} 0.33 sqrt(f'c) bw d"
-        + (", torsion 9.7.6.3.3" if row.torsion else "") + f"); allowed here {row.s_allowed_mm:g} mm",
-        f"phi*Vn = {_fmt(0.75 * (vc + vs_prov) / 1e3, 'kN')} >= Vu; utilization {row.utilization:.3f}",
+        f"provided {z.bar} ({area:g} {U.area}) x {z.legs} legs, the stirrups around x {s:g} {mm} apart: "
+        f"Av/s = {av_s_prov:.3f} {U.area}/{mm}, Vs = {_fmt(vs_prov / per, kN)}",
+        f"s_max = {row.s_max_mm:g} {mm} (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} {u.heavy_vs:g} sqrt(f'c) bw d"
+        + (", torsion 9.7.6.3.3" if row.torsion else "") + f"); allowed here {row.s_allowed_mm:g} {mm}",
+        f"phi*Vn = {_fmt(0.75 * (vc + vs_prov) / per, kN)} >= Vu; utilization {row.utilization:.3f}",
     ]
     if row.torsion:
-        lines.append(f"torsion considered (Tu >= phi*Tth, 22.7.4.1): At/s = {row.at_s_req:.3f} mm^2/mm per leg "
+        lines.append(f"torsion considered (Tu >= phi*Tth, 22.7.4.1): At/s = {row.at_s_req:.3f} {U.area}/{mm} per leg "
                      "(22.7.6.1), closed stirrups (25.7.1.6)")
     if hoops:
-        lines.append("hoops: closed, with seismic hooks (135 degrees, 6 db >= 75 mm; 25.3.4), the hinge zone's "
-                     "spacing limit in s_max (18.6.4.4 or 18.4.2.4)")
+        lines.append(f"hoops: closed, with seismic hooks (135 degrees, 6 db >= {u.hook_min_extension:g} {mm}; 25.3.4), "
+                     "the hinge zone's spacing limit in s_max (18.6.4.4 or 18.4.2.4)")
     return Step(title, "22.5, 9.6.3, 9.7.6.2.2" + (", 18.6.4, 18.4.2.4" if hoops else ""), lines)
 
 
-def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings) -> Step:
-    """The Chapter 18 part of a frame beam (``row``: its input row as a table, ``m`` as a
-    Series): face strengths, capacity-design shear, hinge zones."""
+def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: UnitSystem) -> Step:
+    """The Chapter 18 part of a frame beam (``row``: its input row as a table, in the run's
+    column names; ``m`` as a Series under the SI keys): face strengths, capacity-design
+    shear, hinge zones."""
+    u = aci.edition(U.name)
+    mm, kN, area, mpa = U.length, U.force, U.area, U.stress
     frame = m.frame
-    fb = fr.frame_beams(row)
+    fb = fr.frame_beams(row, U)
     if frame == "ordinary":
         return Step("Moment frame: ordinary", "18.3", [
             "beams of ordinary moment frames: Chapters 9 and 22 (the design above)",
             "18.3.2, at least two continuous bars top and bottom: " +
             ("two bars of db_long fit in the steel at each face (their continuity is for the engineer to confirm)"
              if fb.bars_given[0] else "not checked: no bars given")])
-    kn = lambda v: f"{v / 1e6:,.1f}"
-    lines = [f"bars at the faces: top i {m.as_top_i_mm2:,.0f}, bottom i {m.as_bot_i_mm2:,.0f}, top j "
-             f"{m.as_top_j_mm2:,.0f}, bottom j {m.as_bot_j_mm2:,.0f} mm^2; smallest bar db = {m.db_long_mm:g} mm; "
-             f"fy = {m.fy_mpa:g} MPa",
+    kn = lambda v: f"{v / U.per_moment:,.1f}"  # noqa: E731
+    nd = 0 if U.name == "si" else 2
+    lines = [f"bars at the faces: top i {m.as_top_i_mm2:,.{nd}f}, bottom i {m.as_bot_i_mm2:,.{nd}f}, top j "
+             f"{m.as_top_j_mm2:,.{nd}f}, bottom j {m.as_bot_j_mm2:,.{nd}f} {area}; smallest bar db = {m.db_long_mm:g} "
+             f"{mm}; fy = {m.fy_mpa:g} {mpa}",
              f"Mn- / Mn+ (22.2, strain compatibility): i {kn(fb.mn_neg_i[0])} / {kn(fb.mn_pos_i[0])}, j "
-             f"{kn(fb.mn_neg_j[0])} / {kn(fb.mn_pos_j[0])} kN*m"]
+             f"{kn(fb.mn_neg_j[0])} / {kn(fb.mn_pos_j[0])} {U.moment}"]
     special = frame == "special"
     if special:
         v1, v2 = fr.sway_shears(fb, np.array([ln]), probable=True)
         lines += [f"Mpr- / Mpr+ (1.25 fy, phi = 1): i {kn(fb.mpr_neg_i[0])} / {kn(fb.mpr_pos_i[0])}, j "
-                  f"{kn(fb.mpr_neg_j[0])} / {kn(fb.mpr_pos_j[0])} kN*m",
-                  f"sway shears (Mpr- at one face + Mpr+ at the other) / ln: {v1[0] / 1e3:,.1f} and "
-                  f"{-v2[0] / 1e3:,.1f} kN (18.6.5.1)"]
+                  f"{kn(fb.mpr_neg_j[0])} / {kn(fb.mpr_pos_j[0])} {U.moment}",
+                  f"sway shears (Mpr- at one face + Mpr+ at the other) / ln: {v1[0] / U.per_force:,.1f} and "
+                  f"{-v2[0] / U.per_force:,.1f} {kN} (18.6.5.1)"]
     else:
         v1, v2 = fr.sway_shears(fb, np.array([ln]), probable=False)
-        lines.append(f"sway shears from Mn at both ends / ln: {v1[0] / 1e3:,.1f} and {-v2[0] / 1e3:,.1f} kN "
-                     "(18.4.2.3(a))")
+        lines.append(f"sway shears from Mn at both ends / ln: {v1[0] / U.per_force:,.1f} and "
+                     f"{-v2[0] / U.per_force:,.1f} {kN} (18.4.2.3(a))")
     lines.append("gravity 1.2D + 1.0L + 0.2S (each variable load present or absent) on the clear span as a simple "
                  "beam: the analysis shear less its end-moment part, the mean of V over ln (Fig. R18.6.5)")
     ve = st.ve_kN.to_numpy(float) if "ve_kN" in st else np.full(len(st), np.nan)
     if np.isfinite(ve).any():
         what = "Ve" if special else "the lesser of (a) and (b) with Omega_o = " + f"{settings.frames.omega_o:g}"
-        lines.append(f"{what}: {ve[0]:,.1f} kN at face i, {ve[-1]:,.1f} kN at face j; the design shear at each "
+        lines.append(f"{what}: {ve[0]:,.1f} {kN} at face i, {ve[-1]:,.1f} {kN} at face j; the design shear at each "
                      "station is the larger of it and the analysis envelope (a further candidate combination)")
     h2 = float(aci.smf_beam_hoop_zone_length(m.h_mm))
-    lines.append(f"hoops over 2h = {h2:,.0f} mm from each face, the first within {aci.FIRST_HOOP_MAX_MM:g} mm "
+    lines.append(f"hoops over 2h = {h2:,.0f} {mm} from each face, the first within {u.first_hoop_max:g} {mm} "
                  + ("(18.6.4.1, 18.6.4.4)" if special else "(18.4.2.4)"))
+    high = m.fy_mpa > u.grade_high_fy
     if special:
-        s_hoop = float(aci.smf_beam_hoop_spacing(m.d_mm, m.db_long_mm, m.fy_mpa))
-        lines.append(f"hoop spacing at most min(d/4, {'5' if m.fy_mpa > 420 else '6'} db, 150 mm) = {s_hoop:g} mm "
-                     f"(18.6.4.4); stirrups with seismic hooks at most d/2 = {m.d_mm / 2:g} mm elsewhere (18.6.4.6); "
-                     "legs to support the bars nearest each face, supported bars at most 350 mm apart (18.6.4.2)")
+        s_hoop = float(aci.smf_beam_hoop_spacing(m.d_mm, m.db_long_mm, m.fy_mpa, u))
+        lines.append(f"hoop spacing at most min(d/4, {'5' if high else '6'} db, {u.smf_beam_hoop_s:g} {mm}) = "
+                     f"{s_hoop:g} {mm} (18.6.4.4); stirrups with seismic hooks at most d/2 = {m.d_mm / 2:g} {mm} "
+                     "elsewhere (18.6.4.6); legs to support the bars nearest each face, supported bars at most "
+                     f"{u.smf_beam_hx_max:g} {mm} apart (18.6.4.2)")
         threshold = m.b_mm * m.h_mm * m.fc_mpa / 20.0  # Ag f'c / 20 of the web; the design takes Ag with any flange
         for end, z in (("i", 1), ("j", 2)):
             part = st[st.hinge_zone == z] if "hinge_zone" in st else st.iloc[0:0]
@@ -298,11 +331,12 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings) -> S
             k = part.ve_kN.idxmax()
             zero = bool(part.vc_zero.any())
             lines.append(f"end {end}: Vc = 0 (18.6.5.2) {'yes' if zero else 'no'}: (a) earthquake part "
-                         f"{part.ve_eq_kN[k]:,.1f} kN {'>=' if part.ve_eq_kN[k] >= 0.5 * part.ve_kN[k] else '<'} "
-                         f"Ve/2 = {part.ve_kN[k] / 2:,.1f} kN; (b) the least axial compression of the zone's "
-                         f"combinations under Ag f'c/20 (about {threshold / 1e3:,.0f} kN)")
+                         f"{part.ve_eq_kN[k]:,.1f} {kN} {'>=' if part.ve_eq_kN[k] >= 0.5 * part.ve_kN[k] else '<'} "
+                         f"Ve/2 = {part.ve_kN[k] / 2:,.1f} {kN}; (b) the least axial compression of the zone's "
+                         f"combinations under Ag f'c/20 (about {threshold / U.per_force:,.0f} {kN})")
     else:
-        s_hoop = float(aci.imf_beam_hoop_spacing(m.d_mm, m.db_long_mm, np.inf, m.fy_mpa))
-        lines.append(f"hoop spacing at most min(d/4, {'6' if m.fy_mpa > 420 else '8'} db, 300 mm) = {s_hoop:g} mm and "
-                     f"24 diameters of the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} mm elsewhere (18.4.2.5)")
+        s_hoop = float(aci.imf_beam_hoop_spacing(m.d_mm, m.db_long_mm, np.inf, m.fy_mpa, u))
+        lines.append(f"hoop spacing at most min(d/4, {'6' if high else '8'} db, {u.imf_beam_hoop_s:g} {mm}) = "
+                     f"{s_hoop:g} {mm} and 24 diameters of the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} {mm} "
+                     "elsewhere (18.4.2.5)")
     return Step(f"Moment frame: {frame}", "18.6" if special else "18.4.2", lines)

@@ -7,11 +7,12 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from postproc import units
 from postproc.store import Run, StoreError
 from postproc.terms import NEEDS_ACTION
 
 RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "governing_case",
-                "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message"]
+                "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message"]  # SI names
 
 
 def design_table(run: Run, name: str, member: str | None = None, columns: list[str] | None = None) -> pd.DataFrame:
@@ -60,16 +61,19 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
     if top:
         df = df.head(top)
     df.insert(0, "rank", np.arange(1, len(df) + 1))
-    return df[RANK_COLUMNS].reset_index(drop=True)
+    return df[run.units.cols(RANK_COLUMNS)].reset_index(drop=True)
 
 
 def layout_text(zones: pd.DataFrame) -> str:
-    """A member's zones as one line, e.g. '17 #10x2 @75 | 12 #10x2 @250 | 17 #10x2 @75';
-    hoop zones (frame beams, Chapter 18) say so: '11 hoops #10x3 @125'."""
+    """A member's zones as one line, e.g. '17 #10x2 @75 | 12 #10x2 @250 | 17 #10x2 @75' (spacings
+    in mm, or in inches in an inch-pound run: '17 #3x2 @3 | ...'); hoop zones (frame beams,
+    Chapter 18) say so: '11 hoops #10x3 @125'."""
+    spacing = units.system_of(zones.columns).col("spacing_mm")
+    kinds = zones["kind"] if "kind" in zones else pd.Series("stirrup", index=zones.index)
     parts = []
-    for z in zones.itertuples():
-        hoops = "hoops " if getattr(z, "kind", "stirrup") == "hoop" else ""
-        parts.append("none" if not z.count else f"{z.count} {hoops}{z.bar}x{z.legs} @{z.spacing_mm:g}")
+    for count, bar, legs, s, kind in zip(zones["count"], zones["bar"], zones["legs"], zones[spacing], kinds):
+        hoops = "hoops " if kind == "hoop" else ""
+        parts.append("none" if not count else f"{count} {hoops}{bar}x{legs} @{s:g}")
     return " | ".join(parts)
 
 
@@ -83,25 +87,41 @@ class Comparison:
     utilization_changes: pd.DataFrame
     layout_changes: pd.DataFrame
     demand_changes: pd.DataFrame
-    mass_a_kg: float
+    mass_a_kg: float  # in kg, or lb where the comparison is in inch-pound units
     mass_b_kg: float
     newly_resize: list[str]
+    units: units.UnitSystem = units.SI  # the one unit system both runs are compared in (run B's)
+    note: str = ""  # how the runs were brought into one unit system, where they differ
 
     def as_dict(self) -> dict:
         rec = lambda df: [{k: (None if isinstance(v, float) and np.isnan(v) else v) for k, v in r.items()}
                           for r in df.to_dict("records")]
-        return {"run_a": self.run_a, "run_b": self.run_b, "added": self.added, "removed": self.removed,
-                "status_changes": rec(self.status_changes), "utilization_changes": rec(self.utilization_changes),
-                "layout_changes": rec(self.layout_changes), "demand_changes": rec(self.demand_changes),
-                "stirrup_mass_a_kg": round(self.mass_a_kg, 1),
-                "stirrup_mass_b_kg": round(self.mass_b_kg, 1),
-                "stirrup_mass_change_kg": round(self.mass_b_kg - self.mass_a_kg, 1), "newly_resize": self.newly_resize}
+        U = self.units
+        out = {"run_a": self.run_a, "run_b": self.run_b, "added": self.added, "removed": self.removed,
+               "status_changes": rec(self.status_changes), "utilization_changes": rec(self.utilization_changes),
+               "layout_changes": rec(self.layout_changes), "demand_changes": rec(self.demand_changes),
+               U.col("stirrup_mass_a_kg"): round(self.mass_a_kg, 1),
+               U.col("stirrup_mass_b_kg"): round(self.mass_b_kg, 1),
+               U.col("stirrup_mass_change_kg"): round(self.mass_b_kg - self.mass_a_kg, 1),
+               "newly_resize": self.newly_resize}
+        if U.name != "si" or self.note:
+            out.update(units=U.name, units_note=self.note)
+        return out
 
 
 def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05) -> Comparison:
     """What changed from run a to run b, member by member: utilization by more than
-    ``threshold``, the design shear at either end by more than ``vu_threshold`` (relative)."""
-    ma, mb = design_table(a, "members").set_index("member"), design_table(b, "members").set_index("member")
+    ``threshold``, the design shear at either end by more than ``vu_threshold`` (relative).
+
+    Runs in different unit systems are compared in one: run b's, run a's tables converted
+    into it (design shears, masses, zone positions and spacings); their layouts differ by
+    construction (bar sizes, spacing modules), and each is shown as it was designed."""
+    U = b.units
+    note = "" if a.units == U else (f"run {a.name} is in {a.units.title} and run {b.name} in {U.title}; "
+                                    f"compared in {U.title}, run {a.name}'s values converted")
+    ma = units.convert_table(design_table(a, "members"), a.units, U).set_index("member")
+    mb = design_table(b, "members").set_index("member")
+    vu_i, vu_j, mass = U.col("vu_design_i_kN"), U.col("vu_design_j_kN"), U.col("stirrup_mass_kg")
     added = sorted(set(mb.index) - set(ma.index))
     removed = sorted(set(ma.index) - set(mb.index))
     both = sorted(set(ma.index) & set(mb.index))
@@ -117,8 +137,8 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
                                  "utilization_change": delta[big].round(3).to_numpy()})
     util_changes = util_changes.reindex(util_changes.utilization_change.abs().sort_values(ascending=False).index)
 
-    za, zb = design_table(a, "zones"), design_table(b, "zones")
-    key = ["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
+    za, zb = units.convert_table(design_table(a, "zones"), a.units, U), design_table(b, "zones")
+    key = U.cols(["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"])
     key += ["kind"] if "kind" in za and "kind" in zb else []
     text_a = {m: layout_text(g) for m, g in za.groupby("member")}
     text_b = {m: layout_text(g) for m, g in zb.groupby("member")}
@@ -128,12 +148,12 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
     for m in both:
         if sig_a.get(m) != sig_b.get(m):
             rows.append({"member": m, "layout_a": text_a.get(m, ""), "layout_b": text_b.get(m, ""),
-                         "stirrup_mass_change_kg": round(float(mb.stirrup_mass_kg[m] - ma.stirrup_mass_kg[m]), 2)})
+                         "stirrup_mass_change_kg": round(float(mb[mass][m] - ma[mass][m]), 2)})
     layout_changes = pd.DataFrame(rows, columns=["member", "layout_a", "layout_b", "stirrup_mass_change_kg"])
     demand = []
     for m in both:
-        va = ma.loc[m, ["vu_design_i_kN", "vu_design_j_kN"]].astype(float).to_numpy()
-        vb = mb.loc[m, ["vu_design_i_kN", "vu_design_j_kN"]].astype(float).to_numpy()
+        va = ma.loc[m, [vu_i, vu_j]].astype(float).to_numpy()
+        vb = mb.loc[m, [vu_i, vu_j]].astype(float).to_numpy()
         with np.errstate(invalid="ignore", divide="ignore"):
             rel = np.nanmax(np.abs(vb - va) / np.maximum(np.abs(va), 1e-9)) if np.isfinite(va).any() else np.nan
         if np.isfinite(rel) and rel > vu_threshold:
@@ -143,5 +163,7 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
                                                    "vu_change_rel"])
     was_resize = set(ma.index[ma.status == "resize"])
     newly = sorted(m for m in mb.index[mb.status == "resize"] if m not in was_resize)
+    named = lambda df: df.rename(columns=U.rename(df.columns))  # noqa: E731
     return Comparison(a.name, b.name, added, removed, status_changes, util_changes.reset_index(drop=True),
-                      layout_changes, demand_changes, float(ma.stirrup_mass_kg.sum()), float(mb.stirrup_mass_kg.sum()), newly)
+                      named(layout_changes), named(demand_changes), float(ma[mass].sum()), float(mb[mass].sum()),
+                      newly, U, note)

@@ -8,6 +8,9 @@ The page skeleton is a jinja2 template (templates/, package data); everything is
 drawings are built as strings from whole-run arrays: stations are grouped by member
 once, scaled to pixels in one pass, and thinned to the points that change the picture
 (the shear between loads is linear, and the stations are dense).
+
+The run's tables are read under their SI keys (``units.si_keyed``) with the values in the
+run's units, and every unit written on the page is the run's (kN or kip, mm or in).
 """
 
 from __future__ import annotations
@@ -25,13 +28,14 @@ import pyarrow as pa
 import pyarrow.compute as pac
 from markupsafe import Markup
 
+from postproc import units
 from postproc.govern import rank_order, status_place
 from postproc.report import CAUTION, write_atomic
 from postproc.store import Run
 from postproc.terms import NEEDS_ACTION, STATUSES, did_you_mean
 
 STATION_COLUMNS = ["member", "x_mm", "vu_kN", "vu_max_kN", "phi_vc_kN", "phi_vn_kN", "phi_vn_limit_kN",
-                   "avmin_threshold_kN", "spacing_mm"]
+                   "avmin_threshold_kN", "spacing_mm"]  # SI names; read as the run's (units.UnitSystem.cols)
 COORDS = ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]
 # Utilization bands of the overview: upper limits of bands 0-3; band 4 is above 1.0 (resize).
 BANDS = (0.5, 0.8, 0.95, 1.0)
@@ -66,7 +70,8 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
     page = _template().render(**_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
                               joints=_joint_rows(data, linked),
                               details=Markup(_details(data, detail)), defs=Markup(_legend_defs() + _pattern_defs()),
-                              needs_action=NEEDS_ACTION, caution=CAUTION)
+                              needs_action=NEEDS_ACTION, caution=CAUTION, mass_unit=data.U.mass,
+                              mass_word=data.U.mass_word, force_unit=data.U.force)
     return write_atomic(Path(out_path), lambda fh: fh.write(page))
 
 
@@ -77,17 +82,18 @@ class _Data:
                  joints: pd.DataFrame | None = None):
         self.run, self.m, self.zones = run, m, zones
         self.joints = pd.DataFrame() if joints is None else joints
+        self.U = run.units
         self.manifest, self.design_manifest, self.combinations = run.manifest(), design_manifest, combinations
         self.code = {name: k for k, name in enumerate(m["member"])}
 
     @classmethod
     def load(cls, run: Run) -> _Data:
-        dm = run.table("design/members.parquet").to_pandas()
-        geo = run.members().to_pandas()
+        dm = units.si_keyed(run.table("design/members.parquet").to_pandas())
+        geo = units.si_keyed(run.members().to_pandas())
         keep = ["member", "kind", "level", "group", "length_m", "b_mm", "h_mm", "d_mm", "fc_mpa", "fyt_mpa",
                 "support_i", "support_j", "face_i_mm", "face_j_mm", *COORDS]
         m = dm.merge(geo.reindex(columns=keep), on="member", how="left")
-        m["clear_mm"] = m["length_m"] * 1e3 - m["face_i_mm"].fillna(0) - m["face_j_mm"].fillna(0)
+        m["clear_mm"] = m["length_m"] * run.units.per_span - m["face_i_mm"].fillna(0) - m["face_j_mm"].fillna(0)
         slug = m["member"].astype(str).str.replace(r"[^A-Za-z0-9_-]+", "-", regex=True).str.strip("-").str[:40]
         m["anchor"] = "m" + pd.Series(np.arange(len(m)), dtype=str) + "-" + slug
         m["place"] = status_place(m["status"])
@@ -95,10 +101,11 @@ class _Data:
         order[rank_order(m)] = np.arange(len(m))
         m["order"] = order  # place in the review order of `shearpost govern`: needing action first
         m["band"] = utilization_band(m["utilization"].to_numpy(float), m["status"].to_numpy(object))
-        zones = run.table("design/zones.parquet").to_pandas()
+        zones = units.si_keyed(run.table("design/zones.parquet").to_pandas())
         manifest = run.design_manifest()
         combos = run.table("design/combinations.parquet").num_rows
-        joints = run.table("design/joints.parquet").to_pandas() if "design/joints.parquet" in run.files() else None
+        joints = units.si_keyed(run.table("design/joints.parquet").to_pandas()) \
+            if "design/joints.parquet" in run.files() else None
         return cls(run, m, zones, manifest, combos, joints)
 
     def detail_codes(self, members: list[str] | None) -> list[int]:
@@ -117,7 +124,7 @@ class _Data:
         """The station trace of the given members as arrays, grouped by code, in station order."""
         if not self.run.listed_under("design/stations"):  # one file per part; none when no member was designed
             return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
-        t = self.run.table("design/stations", columns=STATION_COLUMNS)
+        t = self.run.table("design/stations", columns=self.U.cols(STATION_COLUMNS)).rename_columns(STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
         code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
         wanted = np.zeros(len(self.m) + 1, bool)  # the last entry stands for "not a member" (-1)
@@ -304,6 +311,7 @@ class _Drawings:
     def __init__(self, data: _Data, st: dict[str, np.ndarray], codes: list[int]):
         m = data.m
         n = len(m)
+        self.U = data.U
         code = st["code"]
         self.has_st = np.zeros(n, bool)
         self.has_st[np.unique(code)] = True
@@ -371,7 +379,7 @@ class _Drawings:
 def _stirrups(data: _Data, codes: list[int]) -> tuple[dict[int, np.ndarray], dict[int, list]]:
     """Stirrup positions (mm from face i), as the detailing placed them, and zone labels per member."""
     wanted = set(codes)
-    pos = data.run.table("design/stirrups.parquet").to_pandas()
+    pos = units.si_keyed(data.run.table("design/stirrups.parquet").to_pandas())
     pos = pos.assign(code=pos["member"].map(data.code))
     out = {int(c): np.sort(g["x_mm"].to_numpy(float)) for c, g in pos[pos["code"].isin(wanted)].groupby("code")}
     z = data.zones.assign(code=data.zones["member"].map(data.code))
@@ -398,30 +406,32 @@ def _fmt(v, spec: str = ".1f", unit: str = "") -> str:
 
 
 def _member_section(r: dict, k: int, d: _Drawings) -> str:
+    U = d.U
+    mm, kN = U.length, f" {U.force}"
     name = _text(r["member"])
     where = " &middot; ".join(f"{c} {_text(r[c])}" for c in ("level", "group") if _given(r[c]))
     geo = ""
     if _given(r["b_mm"]):
-        geo = (f"b &times; h = {r['b_mm']:g} &times; {r['h_mm']:g} mm, d = {r['d_mm']:g} mm &middot; "
-               f"f&prime;c {r['fc_mpa']:g} MPa, fyt {r['fyt_mpa']:g} MPa &middot; "
-               f"clear span {d.cs[k]:,.0f} mm &middot; "
+        geo = (f"b &times; h = {r['b_mm']:g} &times; {r['h_mm']:g} {mm}, d = {r['d_mm']:g} {mm} &middot; "
+               f"f&prime;c {r['fc_mpa']:g} {U.stress}, fyt {r['fyt_mpa']:g} {U.stress} &middot; "
+               f"clear span {d.cs[k]:,.0f} {mm} &middot; "
                f"supports {_text(r['support_i'])} / {_text(r['support_j'])}")
     facts = [p for p in (where, geo) if p]
     if _given(r["utilization"]):
         crit = lambda c: f" ({_text(r[c])})" if _given(r[c]) else ""
         at = ""
         if _given(r.get("x_governing_mm")):  # the station and combination behind the utilization
-            at = (f" at x = {r['x_governing_mm']:,.0f} mm: Vu {_fmt(r['vu_kN'], '.1f', ' kN')}, "
-                  f"Nu {_fmt(r['nu_kN'], '.1f', ' kN')}" + (f", Tu {_fmt(r['tu_kNm'], '.1f', ' kN*m')}"
-                                                          if _given(r.get("tu_kNm")) and r["tu_kNm"] else ""))
+            at = (f" at x = {r['x_governing_mm']:,.0f} {mm}: Vu {_fmt(r['vu_kN'], '.1f', kN)}, "
+                  f"Nu {_fmt(r['nu_kN'], '.1f', kN)}" + (f", Tu {_fmt(r['tu_kNm'], '.1f', ' ' + U.moment)}"
+                                                       if _given(r.get("tu_kNm")) and r["tu_kNm"] else ""))
         facts.append(f"utilization {r['utilization']:.3f}, {_text(r['governing_case'])}{at} &middot; "
-                     f"&phi;Vc {_fmt(r['phi_vc_kN'], '.1f', ' kN')}"
+                     f"&phi;Vc {_fmt(r['phi_vc_kN'], '.1f', kN)}"
                      + (f" ({_text(r['vc_equation'])})" if _given(r.get("vc_equation")) else "") + " &middot; "
-                     f"&phi;Vn,max {_fmt(r['phi_vn_limit_kN'], '.1f', ' kN')} (22.5.1.2)")
-        facts.append(f"design Vu: i {_fmt(r['vu_design_i_kN'], '.1f', ' kN')}{crit('crit_i')}, "
-                     f"j {_fmt(r['vu_design_j_kN'], '.1f', ' kN')}{crit('crit_j')} (9.4.3.2)")
+                     f"&phi;Vn,max {_fmt(r['phi_vn_limit_kN'], '.1f', kN)} (22.5.1.2)")
+        facts.append(f"design Vu: i {_fmt(r['vu_design_i_kN'], '.1f', kN)}{crit('crit_i')}, "
+                     f"j {_fmt(r['vu_design_j_kN'], '.1f', kN)}{crit('crit_j')} (9.4.3.2)")
     if r["status"] == "designed":
-        facts.append(f"{int(r['stirrups_total']):,} stirrup sets, {_fmt(r['stirrup_mass_kg'], '.1f', ' kg')}")
+        facts.append(f"{int(r['stirrups_total']):,} stirrup sets, {_fmt(r['stirrup_mass_kg'], '.1f', ' ' + U.mass)}")
     msg = f'<p class="msg">{_text(r["message"])}</p>' if _given(r["message"]) else ""
     svg = _member_svg(r, k, d) if d.has_st[k] else ""
     lines = "".join(f'<p class="facts">{p}</p>' for p in facts)
@@ -480,9 +490,9 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
          f"</text>",
          f'<text text-anchor="middle">{_tspans(xpx, [base + 15] * len(xv), map("{:,.0f}".format, xv))}</text>',
          f'<text class="ttl" text-anchor="middle" transform="rotate(-90)" x="{-(TOP + PH / 2):g}" y="16">'
-         f"shear (kN)</text>",
+         f"shear ({d.U.force})</text>",
          f'<text class="ttl" text-anchor="middle" x="{LEFT + PW / 2:g}" y="{base + 32}">'
-         f"distance from the face of support i (mm)</text>"]
+         f"distance from the face of support i ({d.U.length})</text>"]
     if k in d.env:
         p.append(f'<path class="env" d="M{LEFT},{base}L{d.env[k]}L{_g(x_end)},{base}Z"/>')
     for key in ("lim", "avm", "vc", "cap"):
@@ -497,19 +507,19 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
     p.append(f'<path class="ax" d="M{LEFT},{TOP - 4}V{base}H{LEFT + PW}"/>')
     height = base + 42
     if k in d.stirrups or k in d.zone_labels:
-        elev, height = _elevation(r, cs, sx, d.stirrups.get(k, np.array([])), d.zone_labels.get(k, []))
+        elev, height = _elevation(r, cs, sx, d.stirrups.get(k, np.array([])), d.zone_labels.get(k, []), d.U.length)
         p.append(elev)
     label = _text(f"shear diagram and stirrup elevation of member {r['member']}")
     return (f'<svg class="mem" viewBox="0 0 {W} {height:g}" width="{W}" height="{height:g}" role="img" '
             f'aria-label="{label}">{"".join(p)}</svg>')
 
 
-def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list) -> tuple[str, float]:
+def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list, mm: str = "mm") -> tuple[str, float]:
     """The beam outline over the clear span, a line per stirrup, the zones dimensioned below."""
     y0 = BEAM_Y
     hpx = float(np.clip(r["h_mm"] * sx, 30.0, 80.0))
     wpx = cs * sx
-    p = [f'<text class="ttl" x="{LEFT}" y="{y0 - 9}">stirrup elevation, h = {r["h_mm"]:g} mm '
+    p = [f'<text class="ttl" x="{LEFT}" y="{y0 - 9}">stirrup elevation, h = {r["h_mm"]:g} {mm} '
          f'{"(to scale)" if hpx == r["h_mm"] * sx else "(depth not to scale)"}</text>']
     for side, x in (("support_i", LEFT - 12), ("support_j", LEFT + wpx)):
         if r[side] != "free":
@@ -636,9 +646,9 @@ def _overview(data: _Data, linked: set[int]) -> dict:
     plans = _plans(data, placed, level, linked) if placed.any() else []
     missing = int((~placed).sum())
     note = f"; {missing:,} member(s) without coordinates are not drawn" if plans and missing else ""
-    no_plans = ("No plans: this run's members table gives no member coordinates (x_i_m ... z_j_m, read from an IFC "
-                "model), so the members are shown by band above, with those over 0.95 named, and all of them in "
-                "the index.")
+    no_plans = (f"No plans: this run's members table gives no member coordinates ({data.U.col('x_i_m')} ... "
+                f"{data.U.col('z_j_m')}, read from an IFC model), so the members are shown by band above, with those "
+                "over 0.95 named, and all of them in the index.")
     return dict(legend=Markup(_legend(bool(plans))), strips=strips, plans=plans, plans_note=note, no_plans=no_plans)
 
 
@@ -660,7 +670,7 @@ def _plans(data: _Data, placed: np.ndarray, level: pd.Series, linked: set[int]) 
     bar_m = float(nice_step(np.array([(hi - lo) / 5]))[0]) if hi > lo else 1.0
     scale_bar = (f'<path class="scale" d="M{pad:g},{height - 8:.1f}h{bar_m * s:.1f}M{pad:g},{height - 12:.1f}v8'
                  f'M{pad + bar_m * s:.1f},{height - 12:.1f}v8"/><text x="{pad + bar_m * s + 6:.1f}" '
-                 f'y="{height - 5:.1f}">{bar_m:g} m</text>')
+                 f'y="{height - 5:.1f}">{bar_m:g} {data.U.span}</text>')
     top = np.maximum(z1, z2)
     centre = (PLAN_W / 2, pad + (yhi - ylo) * s / 2)
     plans = []
@@ -688,7 +698,7 @@ def _plans(data: _Data, placed: np.ndarray, level: pd.Series, linked: set[int]) 
                           for x, y in zip(x1[cols], y1[cols]))
         n_fail = int((m["band"].to_numpy()[on] == 4).sum())
         n_act = int(m["status"].iloc[np.flatnonzero(on)].isin(NEEDS_ACTION).sum())
-        meta = f"z = {z:.2f} m &middot; {on.sum():,} beams" + (f" &middot; {n_act:,} need action" if n_act else "") + \
+        meta = f"z = {z:.2f} {data.U.span} &middot; {on.sum():,} beams" + (f" &middot; {n_act:,} need action" if n_act else "") + \
             (f", {n_fail:,} over 1.0" if n_fail else "")
         svg = (f'<svg viewBox="0 0 {PLAN_W:g} {height:.0f}" width="{PLAN_W:g}" height="{height:.0f}" role="img" '
                f'aria-label="{_text(f"plan of level {lv}")}">{squares}{"".join(lines)}{"".join(tags)}{scale_bar}</svg>')

@@ -21,7 +21,8 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 from rich import box
 from rich.table import Table
 
-from postproc.engine import MEMBER_COLUMNS, STATUSES, ZONE_COLUMNS, Result
+from postproc import units
+from postproc.engine import STATUSES, Result, member_columns, zone_columns
 from postproc.joints import COLUMNS as JOINT_COLUMNS
 from postproc.terms import NEEDS_ACTION, label
 
@@ -48,11 +49,13 @@ def write_atomic(path: Path, fill) -> Path:
 def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path, names: dict[str, str] | None = None,
                  joints: pd.DataFrame | None = None) -> list[Path]:
     """members.csv and zones.csv in ``out_dir`` (or under the file names ``names`` gives
-    them), and joints.csv where the run has joints of special moment frames (postproc.joints)."""
+    them), and joints.csv where the run has joints of special moment frames (postproc.joints),
+    in the unit system the tables are named in."""
     written = []
-    tables = [("members.csv", members, MEMBER_COLUMNS), ("zones.csv", zones, ZONE_COLUMNS)]
+    U = units.system_of(members.columns)
+    tables = [("members.csv", members, member_columns(U)), ("zones.csv", zones, zone_columns(U))]
     if joints is not None and len(joints):
-        tables.append(("joints.csv", joints, JOINT_COLUMNS))
+        tables.append(("joints.csv", joints, U.cols(JOINT_COLUMNS)))
     for name, df, cols in tables:
         path = Path(out_dir) / (names or {}).get(name, name)
         written.append(write_atomic(path, lambda fh, df=df, cols=cols: df.to_csv(
@@ -66,6 +69,8 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
     from postproc.govern import rank_order
 
     m = result.members
+    U = result.units
+    vu_i, vu_j, mass = U.col("vu_design_i_kN"), U.col("vu_design_j_kN"), U.col("stirrup_mass_kg")
     counts = {s: int((m["status"] == s).sum()) for s in STATUSES}
     action = m[m["status"].isin(NEEDS_ACTION)]
     ranked = m.iloc[rank_order(m)].head(top)
@@ -73,6 +78,7 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
     return {
         "run": run_name,
         "output": None if out_dir is None else str(out_dir),
+        "units": U.name,
         "members": int(len(m)),
         "needs_action": {"count": int(len(action)),
                          "by_status": {s: counts[s] for s in NEEDS_ACTION if counts[s]},
@@ -83,12 +89,12 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
                          if result.combos.prefactored else "ACI 318-19 Table 5.3.1 from basic load cases"},
         "governing": [
             {k: (None if pd.isna(r[k]) else r[k]) for k in ("member", "status", "utilization", "governing_case",
-                                                            "vu_design_i_kN", "vu_design_j_kN")}
+                                                            vu_i, vu_j)}
             for _, r in ranked.iterrows()],
         "joints": {"count": int(len(result.joints)), "over": result.joints.loc[
             result.joints["status"] != "ok", "joint"].head(50).tolist()},
         "stirrups_total": int(m["stirrups_total"].sum()),
-        "stirrup_mass_kg": round(float(m["stirrup_mass_kg"].sum()), 1),
+        mass: round(float(m[mass].sum()), 1),
         "warnings": result.warnings,
         "caution": CAUTION,
     }
@@ -111,12 +117,13 @@ def print_summary(doc: dict, console: Console) -> None:
         if doc["status"].get(status):
             st.add_row(status, str(doc["status"][status]))
     console.print(st)
+    U = units.system(doc.get("units"))
     gov = pd.DataFrame(doc["governing"], columns=["member", "status", "utilization", "governing_case",
-                                                 "vu_design_i_kN", "vu_design_j_kN"])
+                                                 *U.cols(["vu_design_i_kN", "vu_design_j_kN"])])
     gov.insert(0, "rank", range(1, len(gov) + 1))
     console.print(f"Governing members (the first {len(gov)}, as `shearpost govern` ranks them)")
     console.print(governing_table(gov, console.width))
-    console.print(f"Stirrups: {doc['stirrups_total']:,} stirrup sets, {doc['stirrup_mass_kg']:,.1f} kg")
+    console.print(f"Stirrups: {doc['stirrups_total']:,} stirrup sets, {doc[U.col('stirrup_mass_kg')]:,.1f} {U.mass}")
     joints = doc.get("joints", {})
     if joints.get("count"):
         over = joints["over"]
@@ -139,13 +146,16 @@ def print_summary(doc: dict, console: Console) -> None:
 def governing_table(df: pd.DataFrame, width: int) -> Table:
     """Ranked members as a terminal table no wider than ``width``: whole combination names,
     never broken across lines; columns are left out, least useful first, until the table
-    fits (the csv and json formats keep every column)."""
-    vu = df[["vu_design_i_kN", "vu_design_j_kN"]].astype(float).abs().max(axis=1)
+    fits (the csv and json formats keep every column). Column names are those of the
+    table's unit system; the cells are keyed by their SI names."""
+    U = units.system_of(df.columns)
+    vu_i, vu_j = U.col("vu_design_i_kN"), U.col("vu_design_j_kN")
+    vu = df[[vu_i, vu_j]].astype(float).abs().max(axis=1)
     cells = {
         "rank": df["rank"].astype(str), "member": df["member"].map(shown),
         "status": df["status"], "utilization": df["utilization"].map(lambda u: "" if u is None or u != u else f"{u:.3f}"),
         "governing_case": df["governing_case"].map(lambda c: "" if c is None or c != c else shown(c)),
-        "vu_design_i_kN": df["vu_design_i_kN"].map(_kn), "vu_design_j_kN": df["vu_design_j_kN"].map(_kn),
+        "vu_design_i_kN": df[vu_i].map(_kn), "vu_design_j_kN": df[vu_j].map(_kn),
         "vu_design_kN": vu.map(_kn),
     }
     if "level" in df:
@@ -165,7 +175,7 @@ def governing_table(df: pd.DataFrame, width: int) -> Table:
             continue
         t = Table(box=box.SIMPLE_HEAD, pad_edge=False, collapse_padding=True)
         for col in columns:
-            t.add_column("#" if col == "rank" else label(col), justify="right" if col in right else "left",
+            t.add_column("#" if col == "rank" else label(U.col(col)), justify="right" if col in right else "left",
                          no_wrap=col != "member", overflow="fold" if col == "member" else "ellipsis")
         for row in zip(*(cells[c] for c in columns)):
             t.add_row(*row)

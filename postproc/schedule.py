@@ -6,6 +6,9 @@ section, materials and clear span take the most demanding layout among them that
 satisfies every one of them at every station (checked against each member's stored
 demand); where none does, they keep their own layouts. Mark numbers carry over from
 the latest earlier run of the store for every mark whose signature is unchanged.
+
+Tables are in the run's unit system (``A_mm`` or ``A_in``, ``mass_kg`` or ``weight_lb``:
+postproc.units), bars and hooks those of its edition.
 """
 
 from __future__ import annotations
@@ -20,11 +23,12 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from postproc import detailing
+from postproc.codes.aci318_19 import edition
 from postproc.govern import design_table, layout_text
-from postproc.settings import BAR_CATALOGUE, Detailing
+from postproc.settings import Detailing
 from postproc.store import DamagedRun, Run, Store
 
-SECTION_KEYS = ["b_mm", "h_mm", "d_mm", "bf_mm", "hf_mm", "fc_mpa", "fyt_mpa"]
+SECTION_KEYS = ["b_mm", "h_mm", "d_mm", "bf_mm", "hf_mm", "fc_mpa", "fyt_mpa"]  # SI names (units.col for the run's)
 ZONE_KEYS = ["start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"]
 
 
@@ -53,35 +57,38 @@ class Schedule:
         return paths
 
 
-def _signature(section: pd.Series, zones: pd.DataFrame) -> str:
-    sec = [None if pd.isna(section[k]) else round(float(section[k]), 1) for k in SECTION_KEYS]
-    lay = [[None if pd.isna(v) else (round(float(v), 1) if isinstance(v, (int, float, np.number)) else v)
-            for v in row] for row in zones[ZONE_KEYS].itertuples(index=False)]
+def _signature(section: pd.Series, zones: pd.DataFrame, col, nd: int = 1) -> str:
+    sec = [None if pd.isna(section[col(k)]) else round(float(section[col(k)]), nd) for k in SECTION_KEYS]
+    lay = [[None if pd.isna(v) else (round(float(v), nd) if isinstance(v, (int, float, np.number)) else v)
+            for v in row] for row in zones[[col(k) for k in ZONE_KEYS]].itertuples(index=False)]
     kinds = zones["kind"].tolist() if "kind" in zones else []
     lay = [row + ["hoop"] if k == "hoop" else row for row, k in zip(lay, kinds)] if kinds else lay  # hoops differ
     return json.dumps([sec, lay])
 
 
-def _satisfies(zones: pd.DataFrame, positions: np.ndarray, st: pd.DataFrame, clear_span: float) -> bool:
+def _satisfies(zones: pd.DataFrame, positions: np.ndarray, st: pd.DataFrame, clear_span: float, settings: Detailing,
+               col) -> bool:
     """Does a layout (its zones and stirrup positions) meet a member's stored demand at every
     station? The gap around each station against the largest Av/s and, per leg, At/s over
     the combinations, s_max and Av,min (conservative: the envelopes of separate combinations)."""
     bar = next((b for b in zones.bar if b), None)
-    area = BAR_CATALOGUE[bar][1] if bar else 0.0
+    area = settings.bars[bar][1] if bar else 0.0
     legs = int(zones.legs.max())
-    x = st.x_mm.to_numpy(float)
+    x = st[col("x_mm")].to_numpy(float)
     sides = detailing.jump_sides(np.zeros(len(x), int), x, st.side.to_numpy())
     s = detailing.provided_spacing(positions, x, clear_span, sides)
     with np.errstate(divide="ignore"):
         per_leg = np.where(np.isfinite(s), area / s, 0.0)
     need = st.av_s_env.to_numpy() / max(legs, 1) + st.at_s_env.to_numpy()
     ok = per_leg * (1 + 1e-9) >= need
-    ok &= np.where(np.isfinite(s), s <= st.s_max_mm.to_numpy() * (1 + 1e-9), ~st.avmin_required.to_numpy())
+    ok &= np.where(np.isfinite(s), s <= st[col("s_max_mm")].to_numpy() * (1 + 1e-9), ~st.avmin_required.to_numpy())
     ok &= ~st.avmin_required.to_numpy() | (legs * per_leg * (1 + 1e-9) >= st.av_min_s.to_numpy())
     return bool(ok.all())
 
 
 def build(run: Run, settings: Detailing, envelope: bool = False, previous: Schedule | None = None) -> Schedule:
+    U = run.units
+    u, col, nd = edition(U.name), U.col, settings.position_decimals
     res = design_table(run, "members").set_index("member")
     zones = design_table(run, "zones")
     inputs = run.members().to_pandas().set_index("member")
@@ -91,15 +98,15 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
     layout_of = {m: m for m in designed}  # member -> member whose layout it is built with
 
     if envelope:
-        st = design_table(run, "stations").sort_values(["member", "x_mm", "side"], kind="stable")
+        st = design_table(run, "stations").sort_values(["member", col("x_mm"), "side"], kind="stable")
         st_map = {m: g for m, g in st[st.member.isin(designed)].groupby("member")}
         pos = design_table(run, "stirrups")
-        pos_map = {m: np.sort(g.x_mm.to_numpy(float)) for m, g in pos.groupby("member")}
+        pos_map = {m: np.sort(g[col("x_mm")].to_numpy(float)) for m, g in pos.groupby("member")}
         torsion = set(st.member[st.torsion])
-        clear = inputs.length_m * 1000 - inputs.face_i_mm - inputs.face_j_mm
+        clear = inputs[col("length_m")] * U.per_span - inputs[col("face_i_mm")] - inputs[col("face_j_mm")]
         span = clear.round(0)
         info = inputs.loc[designed].assign(span=span.loc[designed])
-        by = ["group", *SECTION_KEYS, "span"] + (["frame"] if "frame" in info else [])  # hoops only with hoops
+        by = ["group", *U.cols(SECTION_KEYS), "span"] + (["frame"] if "frame" in info else [])  # hoops only with hoops
         for _, grp in info.groupby(by, dropna=False):
             names = list(grp.index)
             if len(names) < 2:
@@ -108,13 +115,13 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
             same_bar = lambda c, m: m not in torsion or zmap[c].bar.iloc[0] == zmap[m].bar.iloc[0]
             for cand in order:
                 if all(same_bar(cand, m) and _satisfies(zmap[cand], pos_map.get(cand, np.empty(0)), st_map[m],
-                                                        float(clear[m])) for m in names):
+                                                        float(clear[m]), settings, col) for m in names):
                     for m in names:
                         layout_of[m] = cand
                     break
 
     prev = {} if previous is None else dict(zip(previous.marks.signature, previous.marks.mark))
-    sig_of = {m: _signature(inputs.loc[m], zmap[layout_of[m]]) for m in designed}
+    sig_of = {m: _signature(inputs.loc[m], zmap[layout_of[m]], col, nd) for m in designed}
     groups: dict[str, list[str]] = {}
     for m in designed:
         groups.setdefault(sig_of[m], []).append(m)
@@ -135,8 +142,9 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         z = zmap[layout_of[first]]
         sec = inputs.loc[first]
         mark_rows.append({"mark": mark_of_sig[sig], "members": " ".join(names), "member_count": len(names),
-                          "b_mm": sec.b_mm, "h_mm": sec.h_mm, "fc_mpa": sec.fc_mpa, "fyt_mpa": sec.fyt_mpa,
-                          "layout": layout_text(z), "sets_per_member": int(z["count"].sum()), "signature": sig})
+                          "b_mm": sec[col("b_mm")], "h_mm": sec[col("h_mm")], "fc_mpa": sec[col("fc_mpa")],
+                          "fyt_mpa": sec[col("fyt_mpa")], "layout": layout_text(z),
+                          "sets_per_member": int(z["count"].sum()), "signature": sig})
     marks = pd.DataFrame(mark_rows).sort_values("mark").reset_index(drop=True)
     stations_torsion = _torsion_members(run) if settings.stirrup_shape == "open" else set()
     for m in sorted(designed):
@@ -157,18 +165,20 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         frame = sec.get("frame", "none") in ("special", "intermediate")  # closed, seismic hooks (18.6.4, 18.4.2)
         closed = settings.stirrup_shape == "closed" or m in stations_torsion or frame
         hoops = int(z.loc[z["kind"] == "hoop", "count"].sum()) if "kind" in z else 0
-        shapes = [(sh, sets - hoops) for sh in detailing.stirrup_set(sec.b_mm, sec.h_mm, settings.clear_cover_mm, bar,
-                                                                     legs, closed, settings.open_hook_deg)]
-        shapes += [(sh, hoops) for sh in detailing.hoop_set(sec.b_mm, sec.h_mm, settings.clear_cover_mm, bar, legs)]
+        b, h = sec[col("b_mm")], sec[col("h_mm")]
+        shapes = [(sh, sets - hoops) for sh in detailing.stirrup_set(b, h, settings.clear_cover, bar, legs, closed,
+                                                                     settings.open_hook_deg, u)]
+        shapes += [(sh, hoops) for sh in detailing.hoop_set(b, h, settings.clear_cover, bar, legs, u)]
+        dims, cut_nd = (1, 0) if U.name == "si" else (2, 1)  # mm to 0.1 and cut lengths whole; in to 0.01 and 0.1
         for shape, n_sets in shapes:
             if not n_sets:
                 continue
             count = n_sets * shape.per_set
-            unit = shape.cut_length_mm * BAR_CATALOGUE[bar][1] * detailing.STEEL_DENSITY
+            unit = shape.cut_length * settings.bars[bar][1] * detailing.steel_density(u)
             bar_rows.append({"member": m, "mark": mark, "level": sec.level, "shape": shape.name, "bar": bar,
-                             "A_mm": round(shape.A, 1), "B_mm": round(shape.B, 1), "hook_mm": round(shape.hook_mm, 1),
-                             "bend_diameter_mm": round(shape.bend_diameter_mm, 1),
-                             "cut_length_mm": round(shape.cut_length_mm, 0), "count": count,
+                             "A_mm": round(shape.A, dims), "B_mm": round(shape.B, dims),
+                             "hook_mm": round(shape.hook, dims), "bend_diameter_mm": round(shape.bend_diameter, dims),
+                             "cut_length_mm": round(shape.cut_length, cut_nd), "count": count,
                              "unit_mass_kg": round(unit, 3), "mass_kg": round(unit * count, 2)})
     bars = pd.DataFrame(bar_rows, columns=["member", "mark", "level", "shape", "bar", "A_mm", "B_mm", "hook_mm",
                                            "bend_diameter_mm", "cut_length_mm", "count", "unit_mass_kg", "mass_kg"])
@@ -177,7 +187,8 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
     agg = {"count": ("count", "sum"), "mass_kg": ("mass_kg", "sum")}
     by_level = bars.groupby("level", as_index=False).agg(**agg).round(2)
     by_bar = bars.groupby("bar", as_index=False).agg(**agg).round(2)
-    return Schedule(marks, pd.DataFrame(member_rows), bars, by_level, by_bar)
+    named = lambda df: df.rename(columns=U.rename(df.columns))  # noqa: E731
+    return Schedule(named(marks), pd.DataFrame(member_rows), named(bars), named(by_level), named(by_bar))
 
 
 def _torsion_members(run: Run) -> set[str]:

@@ -34,11 +34,23 @@ LABELS = {
     "vu_change_rel": "Vu change (relative)",
     "stirrup_mass_change_kg": "stirrup mass change kg",
 }
-MOMENT_UNIT = "kN*m"  # how moments are written in text (the column suffix is _kNm)
+MOMENT_UNIT = "kN*m"  # how moments are written in text (the column suffix is _kNm; kip*ft and _kipft inch-pound)
+# the words of a label in an inch-pound run (columns named by postproc.units)
+_US_WORDS = {"kN*m": "kip*ft", "kN": "kip", "kg": "lb", "mass": "weight", "mm": "in", "MPa": "psi"}
 
 
 def label(column: str) -> str:
-    return LABELS.get(column, column)
+    """The label of a column named in either unit system."""
+    if column in LABELS:
+        return LABELS[column]
+    from postproc.units import si_name
+
+    si = si_name(column)
+    if si == column or si not in LABELS:
+        return column
+    import re
+
+    return re.sub(r"kN\*m|\bkN\b|\bkg\b|\bmass\b|\bmm\b|\bMPa\b", lambda m: _US_WORDS[m.group(0)], LABELS[si])
 
 
 def did_you_mean(unknown: str, known, n: int = 3) -> str:
