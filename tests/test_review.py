@@ -122,7 +122,7 @@ def test_closed_stirrup_cut_length_by_hand():
     assert hand == pytest.approx(1625.8, abs=0.1)
     (shape,) = detailing.stirrup_set(300.0, 600.0, 40.0, "#10", 2, closed=True)
     assert shape.name == "closed-135" and (shape.A, shape.B) == (220.0, 520.0)
-    assert shape.cut_length_mm == pytest.approx(hand)
+    assert shape.cut_length == pytest.approx(hand)
 
 
 def test_schedule_files_and_explain(tmp_path, store, capsys):

@@ -1,0 +1,322 @@
+"""Inch-pound units end to end: the inch-pound edition of ACI 318-19, US bar sizes, either
+spelling of every input column, inch-pound tables, and the SI and inch-pound designs of
+one model side by side.
+
+Sources: the inch-pound equations of ACI 318-19 (clauses named at each check), evaluated
+by hand in the comments; ASTM A615/A615M Table 1 for the bars; the AISC Steel
+Construction Manual, Table 3-23 (simple beam and cantilever, uniform load) for the
+shear diagrams of the two worked beams.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from postproc import cli, detailing, units
+from postproc.codes import aci318_19 as aci
+from postproc.settings import BAR_CATALOGUE, BAR_CATALOGUE_US, Settings
+from tests.conftest import design
+
+PSI_PER_MPA = 1e6 / 6894.757293168361  # 1 psi = 6894.757 Pa (exact by the definitions of lbf and in)
+IN = 25.4  # mm per inch, exact
+
+
+def us_beam(member: str, length_ft: float, **kw) -> dict:
+    row = dict(member=member, kind="beam", length_ft=length_ft, b_in=12.0, h_in=24.0, d_in=21.5, fc_psi=4000.0,
+               fyt_psi=60000.0, support_i="column", support_j="column", face_i_in=9.0, face_j_in=9.0, load_face="top")
+    row.update(kw)
+    return row
+
+
+def us_rows(member: str, length_ft: float, shear_kip, n: int = 5) -> list[dict]:
+    """Stations along a member from V(x) (kip, x in ft): linear shear is exact between them."""
+    return [dict(member=member, case="U", x_ft=x, V_kip=shear_kip(x)) for x in np.linspace(0.0, length_ft, n)]
+
+
+def at(st: pd.DataFrame, member: str, x_in: float) -> pd.Series:
+    s = st[(st.member == member) & np.isclose(st.x_in, x_in, atol=1e-3)]
+    assert len(s), f"no station at {x_in} in"
+    return s.iloc[-1]
+
+
+# --- the bars and the edition table ------------------------------------------------------------
+
+def test_inch_bar_sizes_are_astm_a615_table_1():
+    # ASTM A615/A615M Table 1 (inch-pound designations): nominal diameter in, area in^2,
+    # nominal weight lb/ft: #3 0.375, 0.11, 0.376; #4 0.500, 0.20, 0.668; #5 0.625, 0.31,
+    # 1.043; #6 0.750, 0.44, 1.502
+    table = {"#3": (0.375, 0.11, 0.376), "#4": (0.500, 0.20, 0.668), "#5": (0.625, 0.31, 1.043),
+             "#6": (0.750, 0.44, 1.502)}
+    assert set(BAR_CATALOGUE_US) == set(table)
+    for bar, (db, area, weight) in table.items():
+        assert BAR_CATALOGUE_US[bar] == (db, area)
+        assert math.pi * db**2 / 4 == pytest.approx(area, rel=0.02)  # the area of the nominal diameter
+        # the tool weighs bars at 490 lb/ft^3 (common practice): within 2 % of the table's weight
+        assert area * 12 * detailing.steel_density(aci.US) == pytest.approx(weight, rel=0.02)
+
+
+def test_metric_bars_are_the_same_bars_soft_converted():
+    # ASTM A615M designations are the inch bars renamed: #10 = #3, #13 = #4, #16 = #5, #19 = #6
+    for si, us in (("#10", "#3"), ("#13", "#4"), ("#16", "#5"), ("#19", "#6")):
+        (db_mm, a_mm2), (db_in, a_in2) = BAR_CATALOGUE[si], BAR_CATALOGUE_US[us]
+        assert db_mm == pytest.approx(db_in * IN, abs=0.06)
+        assert a_mm2 == pytest.approx(a_in2 * IN**2, rel=0.01)
+
+
+def test_inch_pound_equations_of_chapter_22():
+    u = aci.US
+    fc, bw, d = 4000.0, 12.0, 20.0  # psi, in, in
+    # Table 22.5.5.1(a): Vc = 2 lambda sqrt(f'c) bw d = 2 x 63.246 x 12 x 20 = 30,358 lb
+    assert aci.vc_with_min_stirrups(fc, bw, d, 0.0, bw * 24, u=u) == pytest.approx(2 * math.sqrt(4000) * 240)
+    # 22.5.3.1: sqrt(f'c) <= 100 psi
+    assert aci.sqrt_fc(12000.0, u) == 100.0
+    # 22.5.5.1.3: lambda_s = sqrt(2/(1 + d/10)) <= 1: 1 at d = 10 in, sqrt(2/5) at d = 40 in
+    assert aci.size_effect_factor(10.0, u) == pytest.approx(1.0)
+    assert aci.size_effect_factor(40.0, u) == pytest.approx(math.sqrt(2 / 5))
+    # Table 22.5.5.1(c): 8 lambda_s lambda rho_w^(1/3) sqrt(f'c) bw d
+    assert aci.vc_without_min_stirrups(fc, bw, 40.0, 0.0, 12 * 44, 0.01, u=u) == pytest.approx(
+        8 * math.sqrt(2 / 5) * 0.01 ** (1 / 3) * math.sqrt(4000) * 12 * 40)
+    # 22.5.5.1.1: Vc <= 5 lambda sqrt(f'c) bw d (the axial term is at most 0.05 f'c, 22.5.5.1.2)
+    assert aci.vc_with_min_stirrups(fc, bw, d, 1e9, bw * 24, u=u) == pytest.approx(5 * math.sqrt(4000) * 240)
+    # 22.5.1.2: Vs <= 8 sqrt(f'c) bw d
+    assert aci.vs_max(fc, bw, d, u) == pytest.approx(8 * math.sqrt(4000) * 240)
+    # Table 9.6.3.4: Av,min/s = max(0.75 sqrt(f'c), 50) bw/fyt: 50 governs below 4444 psi
+    assert aci.av_min_over_s(fc, bw, 60000.0, u) == pytest.approx(50 * 12 / 60000)
+    assert aci.av_min_over_s(6000.0, bw, 60000.0, u) == pytest.approx(0.75 * math.sqrt(6000) * 12 / 60000)
+    # 9.6.3.1: Av,min where Vu > phi lambda sqrt(f'c) bw d
+    assert aci.av_min_threshold(fc, bw, d, u=u) == pytest.approx(0.75 * math.sqrt(4000) * 240)
+    # Table 9.6.3.1: shallow beams h <= 10 in; integral with slab h <= 24 in
+    assert aci.av_min_exempt(10.0, 12.0, u=u) and not aci.av_min_exempt(10.5, 12.0, u=u)
+    assert aci.av_min_exempt(24.0, 60.0, 10.0, u=u) and not aci.av_min_exempt(25.0, 60.0, 10.0, u=u)
+    # Table 9.7.6.2.2: d/2 and 24 in; d/4 and 12 in where Vs > 4 sqrt(f'c) bw d
+    light = 4 * math.sqrt(4000) * 12 * 60.0
+    assert aci.max_spacing(light * 0.99, fc, 12.0, 60.0, u)[0] == 24.0
+    assert aci.max_spacing(light * 1.01, fc, 12.0, 60.0, u)[0] == 12.0
+    # 9.6.1.2: As,min/(bw d) = max(3 sqrt(f'c), 200)/fy
+    assert aci.rho_w_lower_bound(fc, 60000.0, u) == pytest.approx(200 / 60000)
+    # Table 22.7.4.1(a): Tth = lambda sqrt(f'c) Acp^2/pcp (no axial force)
+    assert aci.torsion_threshold(fc, 288.0, 72.0, 0.0, 288.0, u=u) == pytest.approx(math.sqrt(4000) * 288**2 / 72)
+    # 22.7.7.1(a): phi (Vc/(bw d) + 8 sqrt(f'c)); 9.7.6.3.3: ph/8 and 12 in
+    assert aci.torsion_section_ok(0.0, 0.0, 240.0, fc, 12.0, 20.0, 100.0, 40.0, u) == 0.0
+    assert aci.torsion_max_spacing(200.0, u) == 12.0 and aci.torsion_max_spacing(80.0, u) == 10.0
+
+
+def test_the_two_editions_are_one_rule_in_two_units():
+    """Each pair of constants agrees within the rounding the editions give them: the inch-pound
+    value converted to SI against the SI value (sqrt(psi) -> sqrt(MPa): x 0.08304)."""
+    root = 1 / math.sqrt(PSI_PER_MPA)  # sqrt(f'c in psi) psi = (this) sqrt(f'c in MPa) MPa: 0.0830
+    si, us = aci.SI, aci.US
+    pairs = {"vc_a": (si.vc_a, us.vc_a * root, 0.024),  # 0.17 vs 2 sqrt(psi) = 0.1661 sqrt(MPa): 2.3 % apart
+             "vc_b": (si.vc_b, us.vc_b * root, 0.007), "vc_max": (si.vc_max, us.vc_max * root, 0.012),
+             "vs_max": (si.vs_max, us.vs_max * root, 0.007), "av_min_threshold": (si.av_min_threshold,
+                                                                                  us.av_min_threshold * root, 0.001),
+             "av_min_sqrt": (si.av_min_sqrt, us.av_min_sqrt * root, 0.005),
+             "av_min_flat": (si.av_min_flat, us.av_min_flat / PSI_PER_MPA, 0.016),
+             "heavy_vs": (si.heavy_vs, us.heavy_vs * root, 0.007), "tth": (si.tth, us.tth * root, 0.001),
+             "sqrt_fc_max": (si.sqrt_fc_max, us.sqrt_fc_max / math.sqrt(PSI_PER_MPA), 0.001),
+             "size_effect": (si.size_effect, us.size_effect / IN, 0.016),
+             "s_max_light": (si.s_max_light, us.s_max_light * IN, 0.017),
+             "fyt_max": (si.fyt_max, us.fyt_max / PSI_PER_MPA, 0.016)}
+    for name, (a, b, rel) in pairs.items():
+        assert a == pytest.approx(b, rel=rel), name
+
+
+# --- two beams by hand in inch-pound units -----------------------------------------------------
+
+@pytest.fixture(scope="module")
+def worked(tmp_path_factory):
+    """A simply supported beam and a cantilever with uniform factored loads, designed with --units us."""
+    # simple beam, 24 ft between nodes, column faces 9 in from them; wu = 6 kip/ft (Table 3-23,
+    # simple beam, uniform load: V(x) = w (l/2 - x))
+    simple = us_beam("S", 24.0)
+    # cantilever, 8 ft from the node, fixed at a column face 9 in from it, free at the tip; wu =
+    # 5 kip/ft (Table 3-23, cantilever, uniform load: V(x) = w (l - x) from the fixed end)
+    canti = us_beam("C", 8.0, h_in=20.0, d_in=17.5, support_j="free", face_j_in=0.0)
+    forces = us_rows("S", 24.0, lambda x: 6.0 * (12.0 - x)) + us_rows("C", 8.0, lambda x: 5.0 * (8.0 - x))
+    return design(tmp_path_factory.mktemp("worked"), [simple, canti], forces, extra=["--units", "us"])
+
+
+def test_simple_beam_by_hand_with_the_inch_pound_equations(worked):
+    assert worked.code == cli.EXIT_OK
+    r = worked.members.set_index("member").loc["S"]
+    assert r.status == "designed" and (r.crit_i, r.crit_j) == ("d", "d")
+    # 9.4.3.2: the critical section at d = 21.5 in from the face, x = (9 + 21.5)/12 = 2.5417 ft:
+    # Vu = 6 (12 - 2.5417) = 56.75 kip at both ends
+    assert r.vu_design_i_kip == pytest.approx(56.75, abs=0.01)
+    assert r.vu_design_j_kip == pytest.approx(56.75, abs=0.01)
+    # Table 22.5.5.1(a): Vc = 2 sqrt(4000) x 12 x 21.5 = 32,634 lb; phi Vc = 24.48 kip (21.2.1)
+    assert r.phi_vc_kip == pytest.approx(24.48, abs=0.01)
+    # 22.5.1.2: phi (Vc + 8 sqrt(f'c) bw d) = 0.75 (32.63 + 130.54) = 122.38 kip
+    assert r.phi_vn_limit_kip == pytest.approx(122.38, abs=0.01)
+    # 22.5.8.5.3: Av/s = (Vu/phi - Vc)/(fyt d) = (75,667 - 32,634)/(60,000 x 21.5) = 0.03336 in^2/in
+    st = at(worked.stations, "S", 21.5)
+    assert st.av_s_req == pytest.approx((56750 / 0.75 - 2 * math.sqrt(4000) * 12 * 21.5) / (60000 * 21.5), rel=1e-4)
+    assert st.av_s_req == pytest.approx(0.03336, abs=5e-5)
+    # Table 9.6.3.4: Av,min/s = max(0.75 sqrt(4000), 50) x 12/60,000 = 0.0100 in^2/in
+    assert st.av_min_s == pytest.approx(0.0100)
+    # Table 9.7.6.2.2: Vs = 43.0 kip <= 4 sqrt(f'c) bw d = 65.3 kip, so s_max = min(d/2, 24) = 10.75 in
+    assert st.s_max_in == pytest.approx(10.75)
+    z = worked.zones[worked.zones.member == "S"].sort_values("zone")
+    # a #3 stirrup with 2 legs, Av = 0.22 in^2: s = 0.22/0.03336 = 6.59 in, 6 in on the 1 in module;
+    # the middle takes s_max on the module, 10 in; the first stirrup 2 in from the face
+    assert set(z.bar) == {"#3"} and set(z.legs) == {2}
+    assert z.spacing_in.iloc[0] == 6.0 and z.start_in.iloc[0] == 2.0
+    assert z.spacing_in.max() == 10.0
+    assert (z.spacing_in.dropna() == z.spacing_in.dropna().round()).all()  # whole inches
+    assert list(worked.zones.columns) == ["member", "zone", "start_in", "end_in", "bar", "legs", "spacing_in", "count"]
+
+
+def test_cantilever_by_hand_with_the_inch_pound_equations(worked):
+    r = worked.members.set_index("member").loc["C"]
+    assert r.status == "designed" and (r.crit_i, r.crit_j) == ("d", "free")
+    # critical section at d = 17.5 in from the column face: x = (9 + 17.5)/12 = 2.2083 ft,
+    # Vu = 5 (8 - 2.2083) = 28.96 kip; none at the free end
+    assert r.vu_design_i_kip == pytest.approx(28.96, abs=0.01)
+    assert r.vu_design_j_kip == pytest.approx(0.0, abs=1e-6)
+    # Vc = 2 sqrt(4000) x 12 x 17.5 = 26,563 lb, phi Vc = 19.92 kip
+    assert r.phi_vc_kip == pytest.approx(19.92, abs=0.01)
+    st = at(worked.stations, "C", 17.5)
+    # Av/s = (28,958/0.75 - 26,563)/(60,000 x 17.5) = 0.01148 in^2/in, above Av,min/s = 0.0100
+    vc = 2 * math.sqrt(4000) * 12 * 17.5
+    assert st.av_s_req == pytest.approx((5000 * (8 - 26.5 / 12) / 0.75 - vc) / (60000 * 17.5), rel=1e-4)
+    assert st.av_s_req == pytest.approx(0.01148, abs=5e-5)
+    # #3 x 2 legs: s = 0.22/0.01148 = 19.2 in, so s_max = min(17.5/2, 24) = 8.75 in governs: 8 in
+    z = worked.zones[worked.zones.member == "C"].sort_values("zone")
+    assert z.spacing_in.iloc[0] == 8.0 and z.start_in.iloc[0] == 2.0  # from the fixed face
+
+
+def test_stirrup_cut_length_and_weight_by_hand_in_inches():
+    # Tables 25.3.2, 25.3.3 (inch-pound): a #3 closed stirrup with 135-degree hooks: D = 4 db =
+    # 1.5 in, extension max(6 db, 3 in) = 3 in. 12 x 24 in with 1.5 in clear cover: A = 9, B = 21;
+    # centreline a = 8.625, c = 20.625, r = D/2 + db/2 = 0.9375; cut = 2a + 2c - 8r + 3 pi r + 2 x 3
+    (shape,) = detailing.stirrup_set(12.0, 24.0, 1.5, "#3", 2, closed=True, u=aci.US)
+    r = 0.9375
+    hand = 2 * 8.625 + 2 * 20.625 - 8 * r + 3 * math.pi * r + 6.0
+    assert (shape.A, shape.B, shape.hook, shape.bend_diameter) == (9.0, 21.0, 3.0, 1.5)
+    assert shape.cut_length == pytest.approx(hand)  # 65.84 in
+    # weight: 65.84 in x 0.11 in^2 x 490/1728 lb/in^3 = 2.05 lb
+    assert detailing.set_mass([shape], aci.US) == pytest.approx(hand * 0.11 * 490 / 1728)
+    # a #6 hook at 90 degrees extends 12 db (Table 25.3.2, No. 6 to No. 8) and bends on 6 db
+    assert detailing.hook_extension(0.75, 90, aci.US) == 9.0 and detailing.bend_diameter(0.75, aci.US) == 4.5
+
+
+# --- one model in both systems -------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def both(tmp_path_factory):
+    """One beam in SI, and its copy converted by the tool to inch-pound names, each designed in its
+    own system. fyt = 400 MPa (58,015 psi) stays under both editions' caps."""
+    tmp = tmp_path_factory.mktemp("both")
+    members = [dict(member="B", kind="beam", length_m=8.0, b_mm=300.0, h_mm=600.0, d_mm=540.0, fc_mpa=30.0,
+                    fyt_mpa=400.0, support_i="column", support_j="column", face_i_mm=250.0, face_j_mm=250.0)]
+    forces = [dict(member="B", case="U", x_m=x, V_kN=400.0 * (4.0 - x) / 4.0) for x in np.linspace(0, 8, 9)]
+    si = design(tmp / "si", members, forces)
+    folder = tmp / "si" / "in"
+    units.convert_csv(folder / "members.csv", tmp / "us-in" / "members.csv", units.US)
+    units.convert_csv(folder / "forces.csv", tmp / "us-in" / "forces.csv", units.US)
+    us_members = pd.read_csv(tmp / "us-in" / "members.csv").to_dict("records")
+    us_forces = pd.read_csv(tmp / "us-in" / "forces.csv").to_dict("records")
+    us = design(tmp / "us", us_members, us_forces, extra=["--units", "us"])
+    return si, us, us_members
+
+
+def test_converted_inputs_carry_inch_pound_names(both):
+    _, _, m = both
+    assert {"length_ft", "b_in", "h_in", "d_in", "fc_psi", "fyt_psi", "face_i_in"} <= set(m[0])
+    assert m[0]["b_in"] == pytest.approx(300 / IN) and m[0]["fc_psi"] == pytest.approx(30 * PSI_PER_MPA)
+
+
+def test_si_and_inch_pound_agree_in_av_s_within_the_editions_constants(both):
+    """Required Av/s where strength governs: (Vu/phi - Vc)/(fyt d). The physical Vu, fyt and d are
+    the same in both runs, so the two differ exactly by the difference of the two editions' Vc of
+    Table 22.5.5.1(a): 0.17 sqrt(f'c [MPa]) against 2 sqrt(f'c [psi]) = 0.1661 sqrt(f'c [MPa]), the
+    inch-pound Vc 2.3 % lower (not the 0.4 % one might guess), so the inch-pound Av/s is higher by
+    (0.17 - 0.16607) sqrt(30) x 300 x 540/(400 x 540) = 0.0161 mm^2/mm (about 1.2 % of the Av/s here)."""
+    si, us, _ = both
+    assert si.code == us.code == cli.EXIT_OK
+    a = si.stations[si.stations.member == "B"].assign(at=lambda t: t.x_mm.round(1))
+    b = us.stations[us.stations.member == "B"].assign(at=lambda t: (t.x_in * IN).round(1))
+    common = a.merge(b, on=["at", "side"], suffixes=("_si", "_us"))  # the input stations and the sections at d
+    common = common[(common.av_s_req_si > common.av_min_s_si) & (common.av_s_req_us * IN > common.av_min_s_us * IN)]
+    assert len(common) >= 4
+    vc_si = 0.17 * math.sqrt(30.0) * 300 * 540  # N
+    vc_us = 2 * math.sqrt(30.0 * PSI_PER_MPA) * (300 / IN) * (540 / IN) * 4.4482216152605  # lb -> N
+    expected = (vc_si - vc_us) / (400.0 * 540.0)
+    assert expected == pytest.approx(0.0161, abs=1e-4)
+    np.testing.assert_allclose(common.av_s_req_us * IN - common.av_s_req_si, expected, rtol=1e-6, atol=1e-9)
+    # the design shears are the same forces, in kip and kN
+    r_si, r_us = si.members.iloc[0], us.members.iloc[0]
+    assert r_us.vu_design_i_kip * 4.4482216152605 == pytest.approx(r_si.vu_design_i_kN, abs=0.025)  # to 0.01 kip
+
+
+def test_member_table_is_the_same_contract_with_inch_pound_suffixes(both):
+    from postproc import engine
+
+    si, us, _ = both
+    assert list(si.members.columns) == engine.MEMBER_COLUMNS
+    assert list(us.members.columns) == [units.US.col(c) for c in engine.MEMBER_COLUMNS]
+    assert "stirrup_weight_lb" in us.members.columns and "vu_design_i_kip" in us.members.columns
+    assert set(us.zones.bar) <= set(BAR_CATALOGUE_US)
+
+
+# --- reading either spelling ------------------------------------------------------------------------
+
+def test_either_spelling_of_each_column_is_read_and_converted(run_design):
+    """The same beam given in SI names, in inch-pound names with f'c in ksi, and mixed, designs the
+    same in an inch-pound run (the station grid aside, the tables agree to their rounding)."""
+    L = 24.0
+    shear = lambda x: 6.0 * (12.0 - x)  # noqa: E731
+    us = us_beam("S", L)
+    ksi = {**{k: v for k, v in us.items() if k != "fc_psi"}, "fc_ksi": 4.0}
+    si = dict(member="S", kind="beam", length_m=L * 0.3048, b_mm=12 * IN, h_mm=24 * IN, d_mm=21.5 * IN,
+              fc_mpa=4000 / PSI_PER_MPA, fyt_mpa=60000 / PSI_PER_MPA, support_i="column", support_j="column",
+              face_i_mm=9 * IN, face_j_mm=9 * IN, load_face="top")
+    si_forces = [dict(member="S", case="U", x_m=r["x_ft"] * 0.3048, V_kN=r["V_kip"] * 4.4482216152605)
+                 for r in us_rows("S", L, shear)]
+    runs = [run_design([us], us_rows("S", L, shear), extra=["--units", "us"]),
+            run_design([ksi], us_rows("S", L, shear), extra=["--units", "us"]),
+            run_design([si], si_forces, extra=["--units", "us"])]
+    for d in runs:
+        assert d.code == cli.EXIT_OK
+        r = d.members.iloc[0]
+        assert r.vu_design_i_kip == pytest.approx(56.75, abs=0.01) and r.phi_vc_kip == pytest.approx(24.48, abs=0.01)
+    assert runs[0].zones.equals(runs[1].zones) and runs[0].zones.equals(runs[2].zones)
+
+
+def test_both_spellings_of_one_quantity_is_an_error_naming_the_column(run_design, capsys):
+    row = {**us_beam("S", 24.0), "b_mm": 300.0}
+    d = run_design([row], us_rows("S", 24.0, lambda x: 6.0 * (12.0 - x)), extra=["--units", "us"])
+    err = capsys.readouterr().err
+    assert d.code == cli.EXIT_INPUT
+    assert "members.csv" in err and "line 1" in err and "b_in" in err and "b_mm" in err and "one unit" in err
+
+
+def test_inch_pound_limits_in_validation(run_design, capsys):
+    # Table 19.2.1.1 of the inch-pound edition: f'c at least 2500 psi
+    d = run_design([us_beam("S", 24.0, fc_psi=2400.0)], us_rows("S", 24.0, lambda x: 1.0), extra=["--units", "us"])
+    assert d.code == cli.EXIT_INPUT and "2,500 psi" in capsys.readouterr().err
+
+
+def test_settings_take_either_spelling_and_refuse_both(tmp_path):
+    from postproc.adapters.errors import InputError
+    from postproc.settings import load_settings
+
+    good = tmp_path / "good.toml"
+    good.write_text('units = "us"\n[detailing]\nmin_spacing_mm = 76.2\nladder = [["#4", 2]]\n')
+    s = load_settings(good)
+    assert s.units == "us" and s.detailing.min_spacing_in == pytest.approx(3.0) and s.detailing.min_spacing == 3.0
+    with pytest.raises(InputError, match="#10, #13, #16, #19"):  # --units si overrides the file: #4 is not an SI bar
+        load_settings(good, "si")
+    bad = tmp_path / "bad.toml"
+    bad.write_text('units = "us"\n[detailing]\nmin_spacing_mm = 75\nmin_spacing_in = 3\n')
+    with pytest.raises(InputError, match="min_spacing_mm.*min_spacing_in"):
+        load_settings(bad)
+    metric = tmp_path / "metric-bars.toml"
+    metric.write_text('units = "us"\n[detailing]\nladder = [["#10", 2]]\n')
+    with pytest.raises(InputError, match="#3, #4, #5, #6"):
+        load_settings(metric)
+    assert Settings.defaults("us").detailing.ladder[0] == ("#3", 2)
