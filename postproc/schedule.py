@@ -152,7 +152,7 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         z = zmap[src]
         sec = inputs.loc[m]
         mark = mark_of_sig[sig_of[m]]
-        al = res.al_torsion_mm2[m] if "al_torsion_mm2" in res else None
+        al = res[col("al_torsion_mm2")][m] if col("al_torsion_mm2") in res else None
         member_rows.append({"member": m, "mark": mark, "level": sec.level, "group": sec.group,
                             "layout_from": src, "layout": layout_text(z),
                             # longitudinal torsion steel to add to the flexural bars (22.7.6.1, 9.6.4.3)
@@ -188,7 +188,7 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
     by_level = bars.groupby("level", as_index=False).agg(**agg).round(2)
     by_bar = bars.groupby("bar", as_index=False).agg(**agg).round(2)
     named = lambda df: df.rename(columns=U.rename(df.columns))  # noqa: E731
-    return Schedule(named(marks), pd.DataFrame(member_rows), named(bars), named(by_level), named(by_bar))
+    return Schedule(named(marks), named(pd.DataFrame(member_rows)), named(bars), named(by_level), named(by_bar))
 
 
 def _torsion_members(run: Run) -> set[str]:
