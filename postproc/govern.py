@@ -115,7 +115,8 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
 
     Runs in different unit systems are compared in one: run b's, run a's tables converted
     into it (design shears, masses, zone positions and spacings); their layouts differ by
-    construction (bar sizes, spacing modules), and each is shown as it was designed."""
+    construction (bar sizes, spacing modules), and each is shown as it was designed, in its
+    own units."""
     U = b.units
     note = "" if a.units == U else (f"run {a.name} is in {a.units.title} and run {b.name} in {U.title}; "
                                     f"compared in {U.title}, run {a.name}'s values converted")
@@ -137,11 +138,13 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
                                  "utilization_change": delta[big].round(3).to_numpy()})
     util_changes = util_changes.reindex(util_changes.utilization_change.abs().sort_values(ascending=False).index)
 
-    za, zb = units.convert_table(design_table(a, "zones"), a.units, U), design_table(b, "zones")
+    za_own, zb = design_table(a, "zones"), design_table(b, "zones")
+    za = units.convert_table(za_own, a.units, U)
     key = U.cols(["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"])
     key += ["kind"] if "kind" in za and "kind" in zb else []
-    text_a = {m: layout_text(g) for m, g in za.groupby("member")}
-    text_b = {m: layout_text(g) for m, g in zb.groupby("member")}
+    own = "" if a.units == U else " (spacings in {})"  # each layout as it was designed, in its own units
+    text_a = {m: layout_text(g) + own.format(a.units.length) for m, g in za_own.groupby("member")}
+    text_b = {m: layout_text(g) + own.format(U.length) for m, g in zb.groupby("member")}
     sig = lambda z: {m: tuple(map(tuple, g[key].fillna(-1).to_numpy().tolist())) for m, g in z.groupby("member")}
     sig_a, sig_b = sig(za), sig(zb)
     rows = []

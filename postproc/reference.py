@@ -83,13 +83,13 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     if not covers(m):
         raise ValueError(f"member {m.member}: beams of moment frames are not covered by the per-member reference")
     st, dt = settings.stations, settings.detailing
-    U, u = units.system(settings.units), aci.edition(settings.units)
+    U, ed = units.system(settings.units), aci.edition(settings.units)
     m = m.rename(units.si_name)
     forces = units.si_keyed(forces)
     L = m.length_m * U.per_span
     a, b = m.face_i_mm, L - m.face_j_mm
     d, h, bw, fc, lam = m.d_mm, m.h_mm, m.b_mm, m.fc_mpa, m["lambda"]
-    fyt = min(m.fyt_mpa, u.fyt_max)
+    fyt = min(m.fyt_mpa, ed.fyt_max)
     series = {}
     vmax = 0.0
     jumps = []
@@ -125,11 +125,11 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     crit_j = "free" if free_j else ("d" if use_j else "face")
 
     rho = m.as_tension_mm2 / (bw * d) if np.isfinite(m.as_tension_mm2) else float("nan")
-    rho_c = rho if np.isfinite(rho) else float(aci.rho_w_lower_bound(fc, m.fy_mpa, u))
+    rho_c = rho if np.isfinite(rho) else float(aci.rho_w_lower_bound(fc, m.fy_mpa, ed))
     Ag = bw * h + ((m.bf_mm - bw) * m.hf_mm if np.isfinite(m.bf_mm) else 0.0)
-    exempt = bool(aci.av_min_exempt(h, bw, m.hf_mm if np.isfinite(m.hf_mm) else None, u))
-    av_min = float(aci.av_min_over_s(fc, bw, fyt, u))
-    sfc = float(aci.sqrt_fc(fc, u))
+    exempt = bool(aci.av_min_exempt(h, bw, m.hf_mm if np.isfinite(m.hf_mm) else None, ed))
+    av_min = float(aci.av_min_over_s(fc, bw, fyt, ed))
+    sfc = float(aci.sqrt_fc(fc, ed))
     Acp, pcp = bw * h, 2 * (bw + h)
 
     # every station, every combination
@@ -145,18 +145,18 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
                     for q in (1, 2, 3)]
         combos = []
         for name, Vu, Nu, Tu in _combo_values(*per_case, combo_names, factors):
-            vc_hi = float(aci.vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam, rho, u))
-            vc_lo = float(aci.vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_c, lam, u))
-            t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, Acp, pcp, Nu, Ag, lam, u))
-            req = (Vu > PHI * vc_lo) if exempt else (Vu > float(aci.av_min_threshold(fc, bw, d, lam, u)))
+            vc_hi = float(aci.vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam, rho, ed))
+            vc_lo = float(aci.vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_c, lam, ed))
+            t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, Acp, pcp, Nu, Ag, lam, ed))
+            req = (Vu > PHI * vc_lo) if exempt else (Vu > float(aci.av_min_threshold(fc, bw, d, lam, ed)))
             req = req or t_on
             q_hi = max(Vu / PHI - vc_hi, 0.0) / (fyt * d)
             q_lo = max(Vu / PHI - vc_lo, 0.0) / (fyt * d)
             av = q_hi if req else min(q_lo, max(q_hi, av_min))
             combos.append(dict(name=name, vu=Vu, nu=Nu, tu=Tu, vc_hi=vc_hi, vc_lo=vc_lo, torsion=t_on, minimum=req,
                                av=av, ata=float(aci.at_over_s(Tu, 1.0, fyt)) if t_on else 0.0,
-                               heavy=(Vu / PHI - vc_hi) > u.heavy_vs * sfc * bw * d,
-                               ratio=Vu / (PHI * (vc_hi + u.vs_max * sfc * bw * d))))
+                               heavy=(Vu / PHI - vc_hi) > ed.heavy_vs * sfc * bw * d,
+                               ratio=Vu / (PHI * (vc_hi + ed.vs_max * sfc * bw * d))))
         stations.append((x - a, side, combos))
 
     vu_env = [max(c["vu"] for c in cs) for _, _, cs in stations]
@@ -177,8 +177,8 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     heavy = [any(c["heavy"] for c in cs) for _, _, cs in stations]
     needed = [mn or any(c["av"] > 0 or c["ata"] > 0 for c in cs) for mn, (_, _, cs) in zip(minimum, stations)]
     here = [nd or dt.stirrups_throughout for nd in needed]
-    s_max = [min(d / 4, u.s_max_heavy) if hv else min(d / 2, u.s_max_light) for hv in heavy]
-    across = [min(d / 2, u.s_max_heavy) if hv else min(d, u.s_max_light) for hv in heavy]
+    s_max = [min(d / 4, ed.s_max_heavy) if hv else min(d / 2, ed.s_max_light) for hv in heavy]
+    across = [min(d / 2, ed.s_max_heavy) if hv else min(d, ed.s_max_light) for hv in heavy]
     s_across = min([a_ for a_, hr in zip(across, here) if hr], default=math.inf)
     x_clear = np.array([x for x, _, _ in stations])
 
@@ -194,11 +194,11 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
             s = area / need if need > 0 else math.inf
             if minimum[k]:
                 s = min(s, legs * area / av_min)
-            smax = min(s_max[k], ph / 8, u.torsion_s_max) if torsion[k] else s_max[k]
+            smax = min(s_max[k], ph / 8, ed.torsion_s_max) if torsion[k] else s_max[k]
             s = min(s, smax) if (here[k] or need > 0) else math.inf
             allowed.append(math.floor(s / dt.spacing_module + 1e-9) * dt.spacing_module
                            if math.isfinite(s) else s)
-        t_ok = all(float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, u)) <= 1.0
+        t_ok = all(float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, ed)) <= 1.0
                    for _, _, cs in stations for c in cs if c["torsion"])
         if min(allowed) >= dt.min_spacing and t_ok:
             chosen = (bar, legs, area, Aoh, ph, allowed)
@@ -221,13 +221,13 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
         has_min = av_s >= av_min * (1 - 1e-9)
         for c in cs:
             vc = c["vc_hi"] if has_min else c["vc_lo"]
-            phi_vn = PHI * (vc + min(av_s * fyt * d, u.vs_max * sfc * bw * d))
+            phi_vn = PHI * (vc + min(av_s * fyt * d, ed.vs_max * sfc * bw * d))
             u = c["vu"] / phi_vn if c["vu"] > 0 else 0.0
             if c["torsion"]:
                 leg = area / s if math.isfinite(s) else 0.0
                 need = max(c["vu"] / PHI - vc, 0.0) / (fyt * d) / legs + c["ata"] / Aoh
                 u = max(u, need / leg if leg > 0 else math.inf,
-                        float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, u)))
+                        float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, ed)))
             total = max(u, c["ratio"])
             key = (round(total, 12), round(c["vu"] / phi_vn if phi_vn > 0 else 0.0, 12))
             if key > best:

@@ -320,3 +320,196 @@ def test_settings_take_either_spelling_and_refuse_both(tmp_path):
     with pytest.raises(InputError, match="#3, #4, #5, #6"):
         load_settings(metric)
     assert Settings.defaults("us").detailing.ladder[0] == ("#3", 2)
+
+
+# --- the demo in both systems ----------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def demo_us(tmp_path_factory):
+    """`shearpost demo --units us`: the demo tables converted by the tool, designed in inch-pound."""
+    from postproc.store import Store
+
+    tmp = tmp_path_factory.mktemp("demo-us")
+    code = cli.main(["demo", "--units", "us", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"])
+    members = pd.read_csv(tmp / "out" / "members.csv", keep_default_na=False, na_values=[""])
+    return code, members, pd.read_csv(tmp / "out" / "zones.csv"), tmp, Store(tmp / "store").latest()
+
+
+def test_every_demo_member_designs_in_both_systems(demo_designed, demo_us):
+    code, us, zones, tmp, _ = demo_us
+    si = demo_designed.members
+    assert code == demo_designed.code == cli.EXIT_OK
+    both = si.set_index("member").status.to_frame("si").join(us.set_index("member").status.rename("us"))
+    assert len(both) == len(si) == len(us)
+    assert (both.si == both.us).all(), both[both.si != both.us]  # the same status member by member
+    assert (both.us == "designed").sum() > 200
+    # the tables a detailer gets: inch columns, #3 to #5 bars, spacings in whole inches, the first
+    # stirrup 2 in from the face (common practice)
+    from postproc import engine
+
+    assert list(us.columns) == engine.member_columns(units.US)
+    assert list(zones.columns) == engine.zone_columns(units.US)
+    assert set(zones.bar.dropna()) - {""} <= {"#3", "#4", "#5"}
+    spacing = zones.spacing_in.dropna()
+    assert (spacing == spacing.round()).all() and spacing.min() >= 3.0
+    assert (zones.groupby("member").start_in.min() == 2.0).mean() > 0.9
+
+
+def test_demo_inputs_were_converted_by_the_tool(demo_us):
+    _, _, _, tmp, run = demo_us
+    folder = tmp / "out" / "inputs-us"
+    m = pd.read_csv(folder / "members.csv")
+    f = pd.read_csv(folder / "forces.csv", nrows=5)
+    assert {"length_ft", "b_in", "h_in", "fc_psi", "fyt_psi", "face_i_in"} <= set(m.columns)
+    assert {"x_ft", "V_kip", "N_kip", "T_kipft", "M_kipft"} <= set(f.columns)
+    assert set(m.fyt_psi) == {60000.0}  # Grade 420 bars are Grade 60 (ASTM A615/A615M)
+    sample = pd.read_csv(cli.sample_folder() / "members.csv")
+    assert m.b_in.to_numpy() == pytest.approx(sample.b_mm.to_numpy() / IN)
+    man = run.manifest()
+    assert man["unit_system"] == "us" and man["code_edition"] == "ACI 318-19 (inch-pound)"
+    assert man["inputs"]["members"]["path"].endswith("members.csv") and "inputs-us" in man["inputs"]["members"]["path"]
+
+
+def test_demo_outputs_speak_inch_pound(demo_us, capsys):
+    _, _, _, tmp, run = demo_us
+    html = (tmp / "out" / "report.html").read_text(encoding="utf-8")
+    assert "shear (kip)" in html and "stirrup weight lb" in html and "(in)" in html
+    for si_word in (" kN", " kg", " mm", "MPa", "shear (kN)"):
+        assert si_word not in html
+    assert cli.main(["explain", "L2-SB-23", "--store", str(tmp / "store")]) == cli.EXIT_OK
+    text = capsys.readouterr().out
+    assert "psi" in text and "kip" in text and "8 sqrt(f'c)" in text and "MPa" not in text and " mm" not in text
+    out = tmp / "sched"
+    assert cli.main(["schedule", "--out", str(out), "--store", str(tmp / "store"), "--json"]) == cli.EXIT_OK
+    capsys.readouterr()
+    bars = pd.read_csv(out / "schedule_bars.csv")
+    assert {"A_in", "B_in", "hook_in", "cut_length_in", "unit_weight_lb", "weight_lb"} <= set(bars.columns)
+    assert bars.hook_in.min() == 3.0  # Table 25.3.2: 6 db and at least 3 in for #3 to #5
+
+
+def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
+    """A sample of demo beams, designed one by one in inch-pound units by the per-member reference
+    (every combination listed), against the engine's inch-pound design."""
+    import pyarrow.parquet as pq
+
+    from postproc import bench, engine, reference
+    from postproc.settings import settings_from_dict
+
+    _, _, _, _, run = demo_us
+    settings = settings_from_dict(run.manifest()["settings"])
+    assert settings.units == "us"
+    names = ["L2-SB-23", "L1-TG-B35", "L3-GX-B45", "L4-GY-5BC", "R-SB-45"]
+    members = run.members().to_pandas().set_index("member", drop=False)
+    forces = pq.read_table(run.path / "forces", filters=[("member", "in", names)]).to_pandas()
+    cset, _ = engine.combination_set(run, run.manifest()["cases"], settings)
+    res = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
+    zones = pq.read_table(run.design_path / "zones.parquet").to_pandas()
+    for m in names:
+        row, z, winners = reference.design_member(members.loc[m], forces[forces.member == m], cset.names,
+                                                  cset.factors, cset.cases, settings)
+        bench.compare_with_reference(m, res.loc[m], row, z, winners, zones[zones.member == m])
+
+
+def test_compare_between_systems_compares_in_one(tmp_path, capsys):
+    """An SI run and an inch-pound run of one beam in one store: compare converts run A into run B's
+    system and says so; each layout is shown in its own units."""
+    from postproc import govern
+    from postproc.store import Store
+
+    members = [dict(member="B", kind="beam", length_m=8.0, b_mm=300.0, h_mm=600.0, d_mm=540.0, fc_mpa=30.0,
+                    fyt_mpa=400.0, support_i="column", support_j="column", face_i_mm=250.0, face_j_mm=250.0)]
+    forces = [dict(member="B", case="U", x_m=x, V_kN=400.0 * (4.0 - x) / 4.0) for x in np.linspace(0, 8, 9)]
+    metric = design(tmp_path, members, forces, extra=["--run", "metric"])
+    store = metric.store  # the same SI tables, read into an inch-pound run of the same store
+    code = cli.main(["run", "--members", str(tmp_path / "in" / "members.csv"), "--forces",
+                     str(tmp_path / "in" / "forces.csv"), "--units", "us", "--store", str(store),
+                     "--run", "imperial", "--out", str(tmp_path / "o2"), "--json"])
+    capsys.readouterr()
+    assert code == metric.code == cli.EXIT_OK
+    s = Store(store)
+    diff = govern.compare(s.run("metric"), s.run("imperial"))
+    assert diff.units == units.US and "run metric is in SI" in diff.note
+    assert "run metric is in SI" in cli_compare(store, capsys)
+    doc = diff.as_dict()
+    assert doc["units"] == "us" and "stirrup_weight_change_lb" in doc
+    assert not diff.status_changes.size and not diff.demand_changes.size  # the same Vu, in kip
+    (lay,) = diff.layout_changes.to_dict("records")
+    assert lay["layout_a"].endswith("(spacings in mm)") and lay["layout_b"].endswith("(spacings in in)")
+    assert "#10x2" in lay["layout_a"] and "#3x2" in lay["layout_b"]
+    assert "stirrup_weight_change_lb" in diff.layout_changes.columns
+
+
+def cli_compare(store, capsys) -> str:
+    assert cli.main(["compare", "metric", "imperial", "--store", str(store)]) == cli.EXIT_OK
+    return capsys.readouterr().out
+
+
+# --- flexure, Chapter 18 and strut-and-tie in inch-pound units ------------------------------------
+
+def test_beam_flexural_strength_by_hand_in_inches():
+    from postproc import sections
+
+    # 12 x 24 in, d = 21.5 in, As = 3.0 in^2, f'c = 4000 psi, fy = 60 ksi (22.2): a = As fy/(0.85 f'c b)
+    # = 4.412 in; c = a/0.85 = 5.19 in (beta1 = 0.85 at 4000 psi, Table 22.2.2.4.3); steel strain
+    # 0.003 (21.5 - 5.19)/5.19 = 0.0094 > fy/Es = 0.00207 (Es = 29,000 ksi): yields;
+    # Mn = As fy (d - a/2) = 3 x 60 x (21.5 - 2.206) = 3473 kip*in
+    s = sections.beam_end_strengths(12.0, 24.0, 21.5, 0.0, 3.0, 4000.0, 60000.0, db_bot=1.0, u=aci.US)
+    a = 3.0 * 60000 / (0.85 * 4000 * 12)
+    assert float(s.mn_pos[0]) == pytest.approx(3.0 * 60000 * (21.5 - a / 2), rel=1e-6)
+    assert float(s.phi_pos[0]) == pytest.approx(0.90)  # tension-controlled (Table 21.2.2)
+    assert sections.beta1(4000.0, aci.US) == 0.85 and sections.beta1(5000.0, aci.US) == pytest.approx(0.80)
+    assert sections.beta1(8000.0, aci.US) == 0.65
+
+
+def test_chapter_18_inch_pound_forms():
+    u = aci.US
+    # Eq. 18.7.5.3: so = 4 + (14 - hx)/3 in, between 4 and 6 in
+    assert aci.smf_column_so(30.0, 1.0, 8.0, u=u) == pytest.approx(6.0)
+    assert aci.smf_column_so(30.0, 1.0, 11.0, u=u) == pytest.approx(5.0)
+    assert aci.smf_column_so(30.0, 1.0, 14.0, u=u) == pytest.approx(4.0)
+    # Eq. 18.7.5.4a: kf = f'c/25,000 + 0.6 >= 1.0
+    assert aci.confinement_kf(5000.0, u) == 1.0 and aci.confinement_kf(15000.0, u) == pytest.approx(1.2)
+    # 18.6.4.4: d/4, 6 in and 6 db; 18.6.2.1: bw >= 10 in; 18.7.5.1: lo >= 18 in
+    assert aci.smf_beam_hoop_spacing(30.0, 1.128, u=u) == pytest.approx(6.0)
+    assert aci.smf_beam_dimensions_ok(200.0, 20.0, 10.0, 24.0, u) and not aci.smf_beam_dimensions_ok(200.0, 20.0, 9.9,
+                                                                                                       24.0, u)
+    assert aci.smf_column_lo(16.0, 60.0, u) == 18.0
+    # Table 18.8.4.3 (inch-pound, from memory): 20, 15, 12, 8 lambda sqrt(f'c) Aj
+    assert aci.joint_strength_coefficient(True, True, True, u) == 20.0
+    assert aci.joint_strength_coefficient(False, False, False, u) == 8.0
+    # 25.7.2.2: #4 ties around #11 bars (1.41 in), #3 around #10 (1.27 in)
+    assert not aci.tie_bar_ok(1.41, 0.375, u=u) and aci.tie_bar_ok(1.27, 0.375, u=u)
+
+
+def test_published_transfer_girder_in_its_own_inch_pound_units():
+    """The deep transfer girder of tests/test_stm.py (PCA Notes on ACI 318; 20 x 60 in, 176 in on
+    16 in columns, f'c = 4000 psi, fy = 60 ksi), designed here in inches and pounds with the
+    inch-pound edition: the published strut 603 kip, tie 512 kip, strut length 94.3 in, tie 160 in,
+    fce = 2550 psi and phi Vn = 512.3 kip (9.9.2.1: 0.75 x 10 sqrt(4000) x 20 x 54)."""
+    from postproc import stm
+
+    ln = 176.0 - 2 * 16
+    m = stm.DeepMembers(member=np.array(["TG"], object), clear_span=np.array([ln]), h=np.array([60.0]),
+                        bw=np.array([20.0]), d=np.array([55.0]), fc=np.array([4000.0]), fy=np.array([60000.0]),
+                        fyt=np.array([60000.0]), bearing_i=np.array([16.0]), bearing_j=np.array([16.0]),
+                        support_i=np.array(["column"], object), support_j=np.array(["column"], object),
+                        top_strut_depth=np.array([10.0]), point_width=np.array([16.0]), tie_bar=np.array(["#8"], object))
+    self_weight = 150 * 60 * 176 * 20 / 1728 / 1000  # kip
+    pu = (1.2 * (self_weight + 180) + 1.6 * 250) * 1000  # lb, lumped at midspan as published
+    loads = stm.DeepLoads(combinations=("U",), point_member=np.array([0]), point_x=np.array([ln / 2]),
+                          point_load=np.array([[pu]]), udl=np.zeros((1, 1)))
+    r = stm.design(m, loads, stm.StmOptions.for_units("us"))
+    s = r.struts[r.struts.element == "fan strut R_i-T1"].iloc[0]
+    assert math.hypot(s.x2_in - s.x1_in, s.y2_in - s.y1_in) == pytest.approx(94.3, rel=1e-3)
+    assert s.force_kip == pytest.approx(603.0, rel=0.01) and s.fce_psi == pytest.approx(2550.0)
+    tie = r.ties[r.ties.element == "bottom tie R_i-B1"].iloc[0]
+    assert tie.force_kip == pytest.approx(512.0, rel=0.01)
+    nodes = r.nodes.set_index("node")
+    assert nodes.x_in["R_j"] - nodes.x_in["R_i"] == pytest.approx(160.0)
+    from postproc.codes import aci318_19_stm as code
+
+    assert float(code.deep_beam_shear_limit(4000.0, 20.0, 54.0, aci.US)) / 1000 == pytest.approx(512.3, abs=0.05)
+    # Table 25.4.3.2 and 25.4.3.1 (inch-pound): ldh of a #8 hook, f'c = 4000 psi:
+    # 60,000 x 1.6 x 1.25 x (4000/15,000 + 0.6)/(55 x 63.25) x 1.0^1.5 = 29.9 in
+    assert float(code.hooked_development_length(60000.0, 4000.0, 1.0, u=aci.US)) == pytest.approx(
+        60000 * 1.6 * 1.25 * (4000 / 15000 + 0.6) / (55 * math.sqrt(4000)))
