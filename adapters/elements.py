@@ -171,6 +171,7 @@ def parse_spec(cmap: ColumnMap) -> ElementSpec | None:
     elif isinstance(sign, dict):
         rule = {}
         for q, pair in sign.items():
+            q = unit_names.si_name(q)  # either unit system's spelling (V_kip is V_kN)
             if q not in QUANTITIES:
                 raise _bad(path, "sign", f"'{q}' is not one of {', '.join(QUANTITIES)}")
             if (not isinstance(pair, list) or len(pair) != 2
@@ -184,6 +185,8 @@ def parse_spec(cmap: ColumnMap) -> ElementSpec | None:
 
     flip = doc.get("reversed_flip")
     if flip is not None:
+        if isinstance(flip, list):
+            flip = [unit_names.si_name(q) if isinstance(q, str) else q for q in flip]  # V_kip is V_kN
         if not isinstance(flip, list) or any(q not in MAY_FLIP for q in flip):
             raise _bad(path, "reversed_flip", f"a list of {' and '.join(MAY_FLIP)} (N and T read the same from "
                                               "either end of an element and never change sign)")

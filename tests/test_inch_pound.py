@@ -287,6 +287,16 @@ def test_either_spelling_of_each_column_is_read_and_converted(run_design):
     assert runs[0].zones.equals(runs[1].zones) and runs[0].zones.equals(runs[2].zones)
 
 
+def test_an_si_run_of_an_inch_pound_table_converts_it_and_says_so(run_design):
+    from postproc.store import Store
+
+    d = run_design([us_beam("S", 24.0)], us_rows("S", 24.0, lambda x: 6.0 * (12.0 - x)))
+    assert d.code == cli.EXIT_OK and "vu_design_i_kN" in d.members  # an SI run: SI tables
+    assert d.members.iloc[0].vu_design_i_kN == pytest.approx(56.75 * 4.4482216152605, abs=0.01)
+    warnings = Store(d.store).latest().manifest()["warnings"]
+    assert any("inch-pound units (length_ft, b_in, h_in, fc_psi)" in w and "--units us" in w for w in warnings)
+
+
 def test_both_spellings_of_one_quantity_is_an_error_naming_the_column(run_design, capsys):
     row = {**us_beam("S", 24.0), "b_mm": 300.0}
     d = run_design([row], us_rows("S", 24.0, lambda x: 6.0 * (12.0 - x)), extra=["--units", "us"])
@@ -513,3 +523,34 @@ def test_published_transfer_girder_in_its_own_inch_pound_units():
     # 60,000 x 1.6 x 1.25 x (4000/15,000 + 0.6)/(55 x 63.25) x 1.0^1.5 = 29.9 in
     assert float(code.hooked_development_length(60000.0, 4000.0, 1.0, u=aci.US)) == pytest.approx(
         60000 * 1.6 * 1.25 * (4000 / 15000 + 0.6) / (55 * math.sqrt(4000)))
+
+
+def test_element_export_chained_into_an_inch_pound_run(tmp_path, capsys, monkeypatch):
+    """The element-force export of tests/test_elements.py (PyNite, N and N*mm, elements drawn both
+    ways) read through --map into an inch-pound run, with the map's columns spelt in SI and in
+    inch-pound names, designs as the member rows of the same frame do in an inch-pound run."""
+    from tests import fea_meshed as fm
+    from tests.test_elements import MAPS, REVERSED, run
+
+    separate, meshed = fm.separate(REVERSED), fm.meshed()
+    forces, members = fm.element_rows(separate), fm.members_table()
+    us_map = MAPS["chain-reversed"].replace(
+        'columns = { case = "lc", V_kN = "fy", N_kN = "fx", T_kNm = "mx", M_kNm = "mz" }',
+        'columns = { case = "lc", V_kip = "fy", N_kip = "fx", T_kipft = "mx", M_kipft = "mz" }').replace(
+        'units = { V_kN = "N", N_kN = "N", T_kNm = "N*mm", M_kNm = "N*mm" }',
+        'units = { V_kip = "N", N_kip = "N", T_kipft = "N*mm", M_kipft = "N*mm" }').replace(
+        'reversed_flip = ["V_kN"]', 'reversed_flip = ["V_kip"]')
+    assert "V_kip" in us_map and "V_kN" not in us_map
+    original = cli.main
+    monkeypatch.setattr(cli, "main", lambda argv: original([*argv, "--units", "us"]))  # test_elements.run's argv
+    results = []
+    for k, map_text in enumerate((MAPS["chain-reversed"], us_map, None)):
+        rows = fm.member_rows(meshed) if map_text is None else forces
+        files = {} if map_text is None else {"chain.csv": fm.chain_table()}
+        results.append(run(tmp_path / f"r{k}", rows, members, map_text, files, capsys))
+    for other in results[1:]:
+        a, b = results[0], other
+        pd.testing.assert_frame_equal(a["zones"], b["zones"])
+        assert (a["members"].status == b["members"].status).all()
+        np.testing.assert_allclose(a["members"].vu_design_i_kip, b["members"].vu_design_i_kip, atol=0.011)
+    assert "vu_design_i_kip" in results[0]["members"] and (results[0]["members"].status == "designed").any()
