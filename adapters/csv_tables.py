@@ -868,7 +868,8 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     out = out.set_column(out.schema.get_field_index("frame"), "frame", pa.array(frame.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("d_mm"), "d_mm", pa.array(d))
     # fy defaults to Grade 420 | 60, the usual longitudinal bar (common practice); used only for rho_w bounds.
-    out = out.set_column(out.schema.get_field_index("fy_mpa"), "fy_mpa", pa.array(np.where(fy_default, u.fy_default, fy)))
+    out = out.set_column(out.schema.get_field_index("fy_mpa"), "fy_mpa",
+                         pa.array(np.where(fy_default, u.fy_default, fy)))
     out = out.set_column(out.schema.get_field_index("lambda"), "lambda", pa.array(np.where(np.isnan(lam), 1.0, lam)))
     out = out.set_column(out.schema.get_field_index("face_i_mm"), "face_i_mm", pa.array(face_i))
     out = out.set_column(out.schema.get_field_index("face_j_mm"), "face_j_mm", pa.array(face_j))

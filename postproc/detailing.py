@@ -272,7 +272,7 @@ def _centred(a: float, b: float, s: float, smin: float, fixed_a: bool, fixed_b: 
     g = d - (n - 1) * s  # the two end gaps together, in (s, 2s]
     if g < 2 * smin - 1e-9:
         return None
-    g_a = np.floor(g / 2 / st.setout_step) * st.setout_step  # on the set-out step (whole mm, 1/8 in) where the anchors are
+    g_a = np.floor(g / 2 / st.setout_step) * st.setout_step  # on the set-out step (whole mm, 1/8 in): the anchors
     inner = [a + g_a + k * s for k in range(n)]
     return [a] * fixed_a + inner + [b] * fixed_b
 

@@ -100,7 +100,8 @@ class Edition:
     ld_min: float  # 25.4.2.1(b): ld >= 300 mm | 12 in
     small_bar_max_db: float  # Table 25.4.2.3: "No. 19 | No. 6 and smaller", db 19.1 mm | 0.75 in
     ld_coefficients: tuple  # Table 25.4.2.3: ld = fy psi / (c lambda sqrt(f'c)) db, c = 2.1, 1.7, 1.4, 1.1 |
-    #                         25, 20, 50/3, 40/3 (spacing met, small / large bar; other cases, small / large; from memory)
+    #                         25, 20, 50/3, 40/3 (spacing met, small / large bar; other cases, small / large;
+    #                         from memory)
     grade_factor_fy: tuple  # Table 25.4.2.5: psi_g 1.0 up to 420 MPa | 60,000 psi, 1.15 up to 550 | 80,000, then 1.3
     hook_psi_c: tuple  # Table 25.4.3.2: psi_c = f'c/105 + 0.6 below 42 MPa | f'c/15,000 + 0.6 below 6000 psi
     ldh_coefficient: float  # 25.4.3.1(a): ldh = fy psi / (23 | 55 lambda sqrt(f'c)) db^1.5
