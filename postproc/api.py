@@ -150,8 +150,10 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
     from_ifc = Path(members_path).suffix.lower() == ".ifc"
     if from_ifc:
         probe = elements.forces_source(forces_path, cmap, fill=fill, units=U)
-        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids())
-        members = units.convert_table(members, units.SI, U)
+        u = engine.aci.edition(U.name)
+        fy = u.fy_default * units.factor(U.col("fy_mpa"), "fy_mpa")  # Grade 420 | 60 where the model gives none
+        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids(), fy)
+        members = _inch_pound_limits(units.convert_table(members, units.SI, U, digits=12), U)  # to 12 digits
         lengths = None
     else:
         members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill, U)
@@ -194,6 +196,24 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
     return run, holder["result"]
 
 
+def _inch_pound_limits(members, U: units.UnitSystem):
+    """An IFC model's members (read in SI) in an inch-pound run: those under the inch-pound
+    edition's least f'c (2500 psi, Table 19.2.1.1; the SI edition's is 17 MPa) are invalid."""
+    if U.name == "si" or "invalid_reason" not in members.column_names:
+        return members
+    import numpy as np
+    import pyarrow as pa
+
+    u = engine.aci.edition(U.name)
+    fc = members.column(U.col("fc_mpa")).to_numpy(zero_copy_only=False).astype(float)
+    why = np.array(members.column("invalid_reason").fill_null("").to_pylist(), dtype=object)
+    low = (why == "") & (fc < u.fc_min)
+    why[low] = [f"f'c {v:,.0f} {U.stress} below {u.fc_min:,g} {U.stress}, the least the inch-pound edition of ACI "
+                f"318-19 admits (19.2.1.1)" for v in fc[low]]
+    column = pa.array([w or None for w in why], pa.string())
+    return members.set_column(members.schema.get_field_index("invalid_reason"), "invalid_reason", column)
+
+
 def _units_hint(members_path: Path, U: units.UnitSystem) -> list[str]:
     """A warning where a members table is spelt in the other unit system than the run's
     (it is converted; the hint is for whoever meant the other edition of the code)."""
@@ -208,10 +228,11 @@ def _units_hint(members_path: Path, U: units.UnitSystem) -> list[str]:
                else "")]
 
 
-def read_ifc(path: Path, key: str, st, wanted: set[str]):
-    """Members from an IFC model, with the settings' defaults for what the model lacks. With
+def read_ifc(path: Path, key: str, st, wanted: set[str], fy_mpa: float = 420.0):
+    """Members from an IFC model (SI), with the settings' defaults for what the model lacks. With
     key 'auto', the attribute (GlobalId, Name, Tag) that matches most force-table members."""
-    defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm)
+    defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm,
+                               fy_mpa=fy_mpa)
     if key != "auto":
         return ifc.read_ifc_members(path, key=key, defaults=defaults)
     best, first_error = None, None

@@ -167,11 +167,12 @@ def convert_names(names, target: UnitSystem) -> list[tuple[str, str, float]]:
     return out
 
 
-def convert_table(t, source: UnitSystem | None, target: UnitSystem):
+def convert_table(t, source: UnitSystem | None, target: UnitSystem, digits: int | None = None):
     """A pyarrow Table or pandas DataFrame with its unit-carrying columns renamed and
     converted for ``target`` (other columns as they are). ``source``: the unit system the
     table is named in (None: each column by its own suffix); nothing is done where it is
-    the target's."""
+    the target's. ``digits``: converted values rounded to that many significant digits
+    (a value that went through SI and back, 60,000 psi, stays 60,000)."""
     if source is not None and source.name == target.name:
         return t
     plan = convert_names(list(t.columns if hasattr(t, "iloc") else t.column_names), target)
@@ -179,12 +180,28 @@ def convert_table(t, source: UnitSystem | None, target: UnitSystem):
         out = t.copy()
         for name, _, f in plan:
             if f != 1.0:
-                out[name] = out[name] * f
+                out[name] = _significant(out[name].to_numpy(float) * f, digits)
         return out.rename(columns={name: new for name, new, _ in plan})
+    import pyarrow as pa
     import pyarrow.compute as pac
 
-    arrays = [pac.multiply(t.column(name), f) if f != 1.0 else t.column(name) for name, _, f in plan]
+    def scaled(col, f):
+        if digits is None:
+            return pac.multiply(col, f)
+        return pa.array(_significant(col.to_numpy() * f, digits), from_pandas=True)  # NaN (a missing value) -> null
+
+    arrays = [scaled(t.column(name), f) if f != 1.0 else t.column(name) for name, _, f in plan]
     return type(t).from_arrays(arrays, names=[new for _, new, _ in plan])
+
+
+def _significant(values, digits: int | None):
+    import numpy as np
+
+    if digits is None:
+        return values
+    with np.errstate(divide="ignore", invalid="ignore"):
+        scale = 10.0 ** (digits - 1 - np.floor(np.log10(np.abs(values))))
+        return np.where(np.isfinite(scale) & (values != 0), np.round(values * scale) / scale, values)
 
 
 # ASTM A615/A615M: the grades of deformed bars under their two designations, Grade 40 [280],
