@@ -58,7 +58,6 @@ class UnitSystem:
     stress: str  # internal: MPa | psi
     mass: str  # kg | lb
     mass_word: str  # "mass" | "weight": how the tables and texts name it
-    internal_force: str  # N | lb
     per_span: float  # internal length per span unit: 1000 mm/m | 12 in/ft
     per_force: float  # internal force per table force: 1000 N/kN | 1000 lb/kip
     per_moment: float  # internal moment per table moment: 1e6 N*mm/(kN*m) | 12000 lb*in/(kip*ft)
@@ -70,20 +69,16 @@ class UnitSystem:
     def cols(self, si_names) -> list[str]:
         return [self.col(c) for c in si_names]
 
-    def named(self, record: dict) -> dict:
-        """A record (dict) keyed by SI column names, keyed by this system's names."""
-        return record if self.name == "si" else {us_name(k): v for k, v in record.items()}
-
     def rename(self, names) -> dict[str, str]:
         """{SI name: this system's name} for the given SI names (for DataFrame.rename)."""
         return {c: self.col(c) for c in names}
 
 
 SI = UnitSystem(name="si", title="SI (N, mm, MPa)", span="m", length="mm", area="mm^2", force="kN", moment="kN*m",
-                stress="MPa", mass="kg", mass_word="mass", internal_force="N",
+                stress="MPa", mass="kg", mass_word="mass",
                 per_span=1e3, per_force=1e3, per_moment=1e6)
 US = UnitSystem(name="us", title="inch-pound (lb, in, psi)", span="ft", length="in", area="in^2", force="kip",
-                moment="kip*ft", stress="psi", mass="lb", mass_word="weight", internal_force="lb",
+                moment="kip*ft", stress="psi", mass="lb", mass_word="weight",
                 per_span=12.0, per_force=1e3, per_moment=12e3)
 SYSTEMS = {"si": SI, "us": US}
 
