@@ -182,7 +182,6 @@ class Detailing:
     stirrup_shape: str = "closed"
     open_hook_deg: int = 90
 
-    units: ClassVar[str] = "si"
     # set-out resolution (common practice): positions kept to 0.1 mm; the middle run's end
     # gaps split on whole millimetres; gaps closer than 0.5 mm are one zone; 0.05 mm slack
     position_decimals: ClassVar[int] = 1
@@ -229,7 +228,6 @@ class DetailingUS:
     stirrup_shape: str = "closed"
     open_hook_deg: int = 90
 
-    units: ClassVar[str] = "us"
     # positions kept to 0.001 in; the middle run's end gaps split on 1/8 in (common practice)
     position_decimals: ClassVar[int] = 3
     setout_step: ClassVar[float] = 0.125

@@ -389,6 +389,11 @@ def test_demo_outputs_speak_inch_pound(demo_us, capsys):
     assert cli.main(["explain", "L2-SB-23", "--store", str(tmp / "store")]) == cli.EXIT_OK
     text = capsys.readouterr().out
     assert "psi" in text and "kip" in text and "8 sqrt(f'c)" in text and "MPa" not in text and " mm" not in text
+    assert cli.main(["govern", "--top", "3", "--format", "csv", "--store", str(tmp / "store")]) == cli.EXIT_OK
+    header = capsys.readouterr().out.splitlines()[0].split(",")
+    assert "vu_design_i_kip" in header and "stirrup_weight_lb" in header
+    assert cli.main(["runs", "--json", "--store", str(tmp / "store")]) == cli.EXIT_OK
+    assert '"unit_system": "us"' in capsys.readouterr().out
     out = tmp / "sched"
     assert cli.main(["schedule", "--out", str(out), "--store", str(tmp / "store"), "--json"]) == cli.EXIT_OK
     capsys.readouterr()
