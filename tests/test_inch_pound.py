@@ -559,3 +559,22 @@ def test_element_export_chained_into_an_inch_pound_run(tmp_path, capsys, monkeyp
         assert (a["members"].status == b["members"].status).all()
         np.testing.assert_allclose(a["members"].vu_design_i_kip, b["members"].vu_design_i_kip, atol=0.011)
     assert "vu_design_i_kip" in results[0]["members"] and (results[0]["members"].status == "designed").any()
+
+
+def test_a_mapping_file_names_our_columns_in_inch_pound_spelling(tmp_path, capsys):
+    """An export in lbf and inches read through --map under inch-pound names (units by pint)."""
+    folder = tmp_path / "in"
+    folder.mkdir()
+    pd.DataFrame([us_beam("S", 24.0)]).to_csv(folder / "members.csv", index=False)
+    rows = us_rows("S", 24.0, lambda x: 6.0 * (12.0 - x))
+    pd.DataFrame({"elem": [r["member"] for r in rows], "lc": "U", "pos": [r["x_ft"] * 12 for r in rows],
+                  "shear": [r["V_kip"] * 1000 for r in rows]}).to_csv(folder / "export.csv", index=False)
+    (folder / "map.toml").write_text('[forces]\ncolumns = { member = "elem", case = "lc", x_ft = "pos", V_kip = "shear" }\n'
+                                     'units = { x_ft = "in", V_kip = "lbf" }\n')
+    code = cli.main(["run", "--units", "us", "--members", str(folder / "members.csv"), "--forces",
+                     str(folder / "export.csv"), "--map", str(folder / "map.toml"), "--store", str(tmp_path / "s"),
+                     "--out", str(tmp_path / "out"), "--json", "--no-report"])
+    capsys.readouterr()
+    assert code == cli.EXIT_OK
+    r = pd.read_csv(tmp_path / "out" / "members.csv").iloc[0]
+    assert r.vu_design_i_kip == pytest.approx(56.75, abs=0.01)  # as in the worked simple beam above
