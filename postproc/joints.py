@@ -24,6 +24,11 @@ The columns' orientation is not in the inputs: phi*Vn is the lesser of the two w
 column's b and h can lie (exact for square columns), and 18.8.2.3 is checked with the
 column's lesser side and db_long_mm (the smallest bar given: a joint it fails surely fails).
 Beams are taken centred on the column (no 2x edge-distance limit on the effective width).
+
+The members table comes in the run's unit system (coordinates in m or ft, sections in mm
+or in), and the joint shear strength is that of its edition (Table 18.8.4.3: 1.7, 1.2,
+1.0 sqrt(MPa) or 20, 15, 12 sqrt(psi)); the table is keyed by the SI column names and
+named in the run's system by the engine.
 """
 
 from __future__ import annotations
@@ -31,12 +36,13 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from postproc import units
 from postproc.codes import aci318_19 as aci
 from postproc.demand import frames as fr
 from postproc.settings import Settings
 
 COLUMNS = ["joint", "members", "vu_kN", "phi_vn_kN", "utilization", "status", "message", "direction", "level",
-           "column_below", "column_above", "coefficient", "aj_mm2"]
+           "column_below", "column_above", "coefficient", "aj_mm2"]  # SI names (units.UnitSystem.cols)
 COORDS = ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]
 DTYPES = {"joint": str, "members": str, "vu_kN": float, "phi_vn_kN": float, "utilization": float, "status": str,
           "message": str, "direction": str, "level": str, "column_below": str, "column_above": str,
@@ -46,7 +52,10 @@ STATUSES = ("ok", "resize")
 
 
 def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFrame, list[str]]:
-    """The joint table of a run's members (the validated input table) and warnings."""
+    """The joint table of a run's members (the validated input table, in the run's column
+    names) and warnings."""
+    U = units.system(settings.units)
+    col, coords = U.col, U.cols(COORDS)
     m = members.reset_index(drop=True)
     empty = pd.DataFrame(columns=COLUMNS)
     frame = m["frame"].fillna("none") if "frame" in m else pd.Series("none", index=m.index)
@@ -56,18 +65,20 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
     special = (kind == "beam") & (frame == "special") & valid
     if not special.any():
         return empty, []
-    has_xyz = m.reindex(columns=COORDS).notna().all(axis=1) if set(COORDS) <= set(m.columns) \
+    has_xyz = m.reindex(columns=coords).notna().all(axis=1) if set(coords) <= set(m.columns) \
         else pd.Series(False, index=m.index)
     if not (special & has_xyz).any():
         return empty, [f"{int(special.sum())} beam(s) of special moment frames, but the members table gives no end "
-                       "coordinates (x_i_m ... z_j_m): the beam-column joints (ACI 318-19 18.8) are not checked"]
+                       f"coordinates ({coords[0]} ... {coords[-1]}): the beam-column joints (ACI 318-19 18.8) are not "
+                       "checked"]
     from scipy.spatial import cKDTree  # here: worker processes import the engine, not this
 
-    tol = settings.frames.joint_tolerance_mm / 1e3
+    span = U.per_span  # coordinates and lengths in m | ft; sections in mm | in
+    tol = settings.frames.joint_tolerance / span
     cols = np.flatnonzero(((kind == "column") & has_xyz & valid).to_numpy())
     beams = np.flatnonzero(((kind == "beam") & has_xyz & valid).to_numpy())
-    xyz = m[COORDS].to_numpy(float).reshape(-1, 2, 3)
-    fb = fr.frame_beams(m)
+    xyz = m[coords].to_numpy(float).reshape(-1, 2, 3)
+    fb = fr.frame_beams(m, U)
     warnings = []
     if not len(cols):
         return empty, [f"{int(special.sum())} beam(s) of special moment frames, but no column with end coordinates: "
@@ -75,15 +86,15 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
 
     low = np.argmin(xyz[cols, :, 2], axis=1)
     bottom, top = xyz[cols, low], xyz[cols, 1 - low]
-    col_b, col_h = m["b_mm"].to_numpy(float)[cols], m["h_mm"].to_numpy(float)[cols]
-    reach = tol + np.maximum(col_b, col_h) / 2e3
+    col_b, col_h = m[col("b_mm")].to_numpy(float)[cols], m[col("h_mm")].to_numpy(float)[cols]
+    reach = tol + np.maximum(col_b, col_h) / (2 * span)
     above = _column_above(cKDTree(bottom), top, bottom, tol)
 
     # beam ends framing into each column top
     ends = np.concatenate([np.stack([beams, np.zeros(len(beams), int)], 1), np.stack([beams, np.ones(len(beams), int)], 1)])
     pts = xyz[ends[:, 0], ends[:, 1]]
     far = xyz[ends[:, 0], 1 - ends[:, 1]]
-    depth = m["h_mm"].to_numpy(float)[ends[:, 0]] / 1e3
+    depth = m[col("h_mm")].to_numpy(float)[ends[:, 0]] / span
     tree = cKDTree(top[:, :2])
     joint_of = np.full(len(ends), -1)
     best = np.full(len(ends), np.inf)
@@ -100,7 +111,7 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
                         f"coordinates (e.g. {', '.join(map(str, missing[:3]))}): those joints are not checked (18.8)")
 
     rows = []
-    length = m["length_m"].to_numpy(float) * 1e3
+    length = m[col("length_m")].to_numpy(float) * span
     for k in np.unique(joint_of[joint_of >= 0]):
         here = np.flatnonzero(joint_of == k)
         if not special.iloc[ends[here, 0]].any():
@@ -112,7 +123,7 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
         for axis in _axes(away):
             along = np.abs(away[:, 0] * axis[1] - away[:, 1] * axis[0]) <= PARALLEL_SIN
             if special.to_numpy()[ends[here, 0]][along].any():  # a direction with beams of the special frame
-                rows.append(_joint_row(m, fb, special, ends[here], away, axis, c, c_above, storey))
+                rows.append(_joint_row(m, fb, special, ends[here], away, axis, c, c_above, storey, U))
     table = pd.DataFrame(rows, columns=COLUMNS)
     for r in table[table.status != "ok"].itertuples():
         warnings.append(f"joint {r.joint} ({r.direction}): {r.message}")
@@ -140,13 +151,14 @@ def _axes(away: np.ndarray) -> list[np.ndarray]:
     return axes
 
 
-def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, storey) -> dict:
+def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, storey, U: units.UnitSystem) -> dict:
+    u, col, mm = fb.u, U.col, U.length
     along = np.abs(away[:, 0] * axis[1] - away[:, 1] * axis[0]) <= PARALLEL_SIN
     side = np.sign(away @ axis)
     beams, end = ends[:, 0], ends[:, 1]
-    bw = m["b_mm"].to_numpy(float)
-    h = m["h_mm"].to_numpy(float)
-    fy = m["fy_mpa"].to_numpy(float)
+    bw = m[col("b_mm")].to_numpy(float)
+    h = m[col("h_mm")].to_numpy(float)
+    fy = m[col("fy_mpa")].to_numpy(float)
     top = np.where(end == 0, fb.as_top_i[beams], fb.as_top_j[beams])
     bot = np.where(end == 0, fb.as_bot_i[beams], fb.as_bot_j[beams])
     mpr_neg = np.where(end == 0, fb.mpr_neg_i[beams], fb.mpr_neg_j[beams])
@@ -169,14 +181,14 @@ def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, stor
     both_sides = (along & (side > 0)).any() and (along & (side < 0)).any()  # 15.2.7: a beam beyond the joint
     across = ~along & (np.abs(away @ axis) <= PARALLEL_SIN)  # perpendicular beams
     perp = np.array([-axis[1], axis[0]])
-    col_b, col_h, fc = float(m["b_mm"].iat[c]), float(m["h_mm"].iat[c]), float(m["fc_mpa"].iat[c])
+    col_b, col_h, fc = float(m[col("b_mm")].iat[c]), float(m[col("h_mm")].iat[c]), float(m[col("fc_mpa")].iat[c])
     lam = float(m["lambda"].iat[c]) if "lambda" in m and np.isfinite(m["lambda"].iat[c]) else 1.0
     bw_min = float(bw[beams[frame_beam]].min())
     best = None
     for depth, width in ((col_h, col_b), (col_b, col_h)):  # the orientation is not known: the lesser
         sides = [bw[beams[across & (np.sign(away @ perp) == s)]] for s in (1, -1)]
         confined = all(len(w) and aci.transverse_beams_confine(w.max(), w.max(), depth) for w in sides)
-        coef = float(aci.joint_strength_coefficient(c_above >= 0, both_sides, confined))
+        coef = float(aci.joint_strength_coefficient(c_above >= 0, both_sides, confined, u))
         bj = float(aci.joint_effective_width(width, depth, bw_min))
         phi_vn = float(aci.joint_design_strength(fc, bj, depth, coef, lam))
         if best is None or phi_vn < best[0]:
@@ -185,21 +197,22 @@ def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, stor
     util = vu / phi_vn
     msgs = []
     if util > 1.0:
-        msgs.append(f"Vu {vu / 1e3:,.1f} kN exceeds phi*Vn {phi_vn / 1e3:,.1f} kN (18.8.4.3): enlarge the column or "
-                    "raise f'c")
+        msgs.append(f"Vu {vu / U.per_force:,.1f} {U.force} exceeds phi*Vn {phi_vn / U.per_force:,.1f} {U.force} "
+                    "(18.8.4.3): enlarge the column or raise f'c")
     db = fb.db_long[beams[frame_beam]]
     through = frame_beam & both_sides
     if through.any() and not aci.joint_depth_ok(min(col_b, col_h), np.nanmax(db), fy[beams[frame_beam]].max(),
-                                                h[beams[frame_beam]].max(), lam):
-        msgs.append(f"18.8.2.3: the column side along the beam bars, at least {min(col_b, col_h):g} mm, must be at least "
-                    f"20 db of the largest beam bar (here db_long {np.nanmax(db):g} mm, the smallest given) and half the "
-                    f"beam depth")
+                                                h[beams[frame_beam]].max(), lam, u):
+        msgs.append(f"18.8.2.3: the column side along the beam bars, at least {min(col_b, col_h):g} {mm}, must be at "
+                    f"least 20 db of the largest beam bar (here db_long {np.nanmax(db):g} {mm}, the smallest given) and "
+                    "half the beam depth")
     names = [m["member"].iat[b] for b in beams[along]]
     level = m["level"].iat[beams[frame_beam][0]] if "level" in m else ""
-    return dict(joint=f"{m['member'].iat[c]}:top", members=" ".join(map(str, names)), vu_kN=round(vu / 1e3, 2),
-                phi_vn_kN=round(phi_vn / 1e3, 2), utilization=round(util, 3), status="ok" if not msgs else "resize",
-                message="; ".join(msgs), direction=_direction(axis), level=level, column_below=m["member"].iat[c],
-                column_above=m["member"].iat[c_above] if c_above >= 0 else "", coefficient=coef, aj_mm2=round(aj, 0))
+    return dict(joint=f"{m['member'].iat[c]}:top", members=" ".join(map(str, names)), vu_kN=round(vu / U.per_force, 2),
+                phi_vn_kN=round(phi_vn / U.per_force, 2), utilization=round(util, 3),
+                status="ok" if not msgs else "resize", message="; ".join(msgs), direction=_direction(axis), level=level,
+                column_below=m["member"].iat[c], column_above=m["member"].iat[c_above] if c_above >= 0 else "",
+                coefficient=coef, aj_mm2=round(aj, 0 if U.name == "si" else 1))
 
 
 def _direction(axis: np.ndarray) -> str:

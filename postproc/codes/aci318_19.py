@@ -76,6 +76,7 @@ class Edition:
     smf_beam_hx_max: float  # 18.6.4.2: transversely supported flexural bars at most 350 mm | 14 in apart
     imf_beam_hoop_s: float  # 18.4.2.4: 300 mm | 12 in
     unsupported_bar_clear: float  # 25.7.2.3(b): unsupported bar at most 150 mm | 6 in clear of a supported one
+    bar_clear_spacing_min: float  # 25.2.1: clear spacing of bars in a layer at least 25 mm | 1 in (and db; from memory)
     smf_column_min_dim: float  # 18.7.2.1(a): 300 mm | 12 in
     lo_min: float  # 18.7.5.1(c), 18.4.3.3: lo at least 450 mm | 18 in
     so_base: float  # Eq. 18.7.5.3: so = 100 + (350 - hx)/3 mm | 4 + (14 - hx)/3 in ...
@@ -118,6 +119,7 @@ SI = Edition(
     hook_small_db_max=16.0, hook_min_extension=75.0,
     first_hoop_max=50.0, fyt_confinement_max=690.0, grade_high_fy=420.0, smf_beam_bw_min=250.0,
     smf_beam_hoop_s=150.0, smf_beam_hx_max=350.0, imf_beam_hoop_s=300.0, unsupported_bar_clear=150.0,
+    bar_clear_spacing_min=25.0,
     smf_column_min_dim=300.0,
     lo_min=450.0, so_base=100.0, so_hx=350.0, so_max=150.0, smf_beyond_lo_max=150.0, kf_fc=175.0, high_fc=70.0,
     imf_column_so=(200.0, 150.0), joint_coefficients=(1.7, 1.2, 1.0, 0.67), tie_large_long_db=32.3,
@@ -133,7 +135,8 @@ US = Edition(
     tth=1.0, tth_axial=4.0, torsion_limit=8.0, al_min=5.0, at_min=25.0, torsion_s_max=12.0,
     hook_small_db_max=0.625, hook_min_extension=3.0,
     first_hoop_max=2.0, fyt_confinement_max=100_000.0, grade_high_fy=60_000.0, smf_beam_bw_min=10.0,
-    smf_beam_hoop_s=6.0, smf_beam_hx_max=14.0, imf_beam_hoop_s=12.0, unsupported_bar_clear=6.0, smf_column_min_dim=12.0,
+    smf_beam_hoop_s=6.0, smf_beam_hx_max=14.0, imf_beam_hoop_s=12.0, unsupported_bar_clear=6.0,
+    bar_clear_spacing_min=1.0, smf_column_min_dim=12.0,
     lo_min=18.0, so_base=4.0, so_hx=14.0, so_max=6.0, smf_beyond_lo_max=6.0, kf_fc=25_000.0, high_fc=10_000.0,
     imf_column_so=(8.0, 6.0), joint_coefficients=(20.0, 15.0, 12.0, 8.0), tie_large_long_db=1.27,
     tie_db=(0.375, 0.5), es=29_000_000.0, beta1_fc=(4000.0, 8000.0), beta1_step=1000.0,

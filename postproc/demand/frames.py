@@ -10,6 +10,9 @@ separate path.
 Sign convention (README): V = dM/dx with M sagging positive, so a beam under gravity has
 V > 0 near node i. Sway 1 puts the top bars in tension at face i and the bottom bars at
 face j (V1 = (Mpr- i + Mpr+ j)/ln > 0); sway 2 the opposite (V2 < 0).
+
+Units are the run's (N, mm, MPa or lb, in, psi), the provisions those of its edition
+(``FrameBeams.u``).
 """
 
 from __future__ import annotations
@@ -19,19 +22,20 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from postproc import sections
+from postproc import sections, units
 from postproc.codes import aci318_19 as aci
+from postproc.codes.aci318_19 import SI, Edition
 
 CODES = {"none": 0, "ordinary": 1, "intermediate": 2, "special": 3}
 NONE, ORDINARY, INTERMEDIATE, SPECIAL = 0, 1, 2, 3
 NAMES = {v: k for k, v in CODES.items()}
 FACES = ("as_top_i_mm2", "as_bot_i_mm2", "as_top_j_mm2", "as_bot_j_mm2")
-CLEAR_BAR_SPACING_MM = 25.0  # 25.2.1: least clear spacing of bars in a layer, with db (from memory)
+CLEAR_BAR_SPACING_MM = SI.bar_clear_spacing_min  # 25.2.1 (SI; the edition's bar_clear_spacing_min in general)
 
 
 @dataclass(frozen=True)
 class FrameBeams:
-    """Per member of a batch (N, mm; NaN where a frame or its bars are not given)."""
+    """Per member of a batch (N, mm or lb, in; NaN where a frame or its bars are not given)."""
 
     code: np.ndarray  # CODES
     as_top_i: np.ndarray
@@ -48,6 +52,7 @@ class FrameBeams:
     mpr_pos_i: np.ndarray
     mpr_neg_j: np.ndarray
     mpr_pos_j: np.ndarray
+    u: Edition = SI  # the edition (and units) of the arrays
 
     @property
     def capacity(self) -> np.ndarray:
@@ -59,16 +64,18 @@ class FrameBeams:
         return np.isfinite(self.as_top_i) & np.isfinite(self.db_long)
 
 
-def frame_beams(bm: pd.DataFrame) -> FrameBeams:
+def frame_beams(bm: pd.DataFrame, U: units.UnitSystem = units.SI) -> FrameBeams:
     """Mn and Mpr of both faces of every frame beam of a batch, both signs, at P = 0, by
     strain compatibility (postproc.sections, checked against concreteproperties): d from
     the top face to the bottom bars, d' = cover_mm (else h - d) to the top bars, the flange
     bf x hf at the top (in compression under positive moment), the bars of each layer of
-    diameter db_long_mm where it displaces the block."""
+    diameter db_long_mm where it displaces the block. ``bm`` is named in the unit system
+    ``U``, whose edition the strengths are computed with."""
     n = len(bm)
+    u = aci.edition(U.name)
     frame = bm["frame"].fillna("none").to_numpy(object) if "frame" in bm else np.full(n, "none", object)
     code = np.array([CODES.get(f, NONE) for f in frame], dtype=np.int8)
-    num = lambda c: bm[c].to_numpy(float) if c in bm else np.full(n, np.nan)
+    num = lambda c: bm[U.col(c)].to_numpy(float) if U.col(c) in bm else np.full(n, np.nan)  # noqa: E731
     faces = [num(c) for c in FACES]
     db = num("db_long_mm")
     fy = num("fy_mpa")
@@ -85,7 +92,7 @@ def frame_beams(bm: pd.DataFrame) -> FrameBeams:
         r = sections.beam_end_strengths(
             num("b_mm")[two], h[two], d[two], np.concatenate([faces[0][k], faces[2][k]]),
             np.concatenate([faces[1][k], faces[3][k]]), num("fc_mpa")[two], fy[two], d_prime=d_prime[two],
-            bf=num("bf_mm")[two], hf=num("hf_mm")[two], db_top=db[two], db_bot=db[two])
+            bf=num("bf_mm")[two], hf=num("hf_mm")[two], db_top=db[two], db_bot=db[two], u=u)
         m = len(k)
         for name, values in (("mn_neg", r.mn_neg), ("mn_pos", r.mn_pos), ("mpr_neg", r.mpr_neg),
                              ("mpr_pos", r.mpr_pos)):
@@ -93,7 +100,7 @@ def frame_beams(bm: pd.DataFrame) -> FrameBeams:
                 arr = np.full(n, np.nan)
                 arr[k] = part
                 out[f"{name}_{end}"] = arr
-    return FrameBeams(code, *faces, db, fy, **out)
+    return FrameBeams(code, *faces, db, fy, **out, u=u)
 
 
 def bar_area(db):
@@ -108,25 +115,30 @@ def member_problems(fb: FrameBeams, clear_span, b, h, d, fc) -> np.ndarray:
     of db_long_mm that fit in each face's steel: at least two at each face is necessary for
     two continuous bars; that they run through is for the engineer to confirm."""
     out = np.full(len(fb.code), "", dtype=object)
+    u = fb.u
+    U = units.system(u.units)
+    mm, area = U.length, U.area
     two = bar_area(fb.db_long) * 2.0 * (1 - 1e-9)
     faces = {"top i": fb.as_top_i, "bottom i": fb.as_bot_i, "top j": fb.as_top_j, "bottom j": fb.as_bot_j}
-    as_min = np.maximum(0.25 * np.sqrt(fc) / fb.fy, 1.4 / fb.fy) * b * d  # 9.6.1.2
-    rho_max = aci.smf_beam_rho_max(fb.fy)
+    as_min = aci.rho_w_lower_bound(fc, fb.fy, u) * b * d  # 9.6.1.2
+    rho_max = aci.smf_beam_rho_max(fb.fy, u)
     for m in np.flatnonzero((fb.code > NONE) & fb.bars_given):
         found = []
         clause = {SPECIAL: "18.6.3.1", INTERMEDIATE: "18.4.2.1", ORDINARY: "18.3.2"}[int(fb.code[m])]
         few = [f for f, a in faces.items() if a[m] < two[m]]
         if few:
             found.append(f"{clause}: two continuous bars at top and bottom, but the steel at the {', '.join(few)} "
-                         f"face holds fewer than two bars of {fb.db_long[m]:g} mm")
+                         f"face holds fewer than two bars of {fb.db_long[m]:g} {mm}")
         if fb.code[m] == SPECIAL:
-            if not aci.smf_beam_dimensions_ok(clear_span[m], d[m], b[m], h[m]):
-                found.append(f"18.6.2.1: clear span {clear_span[m]:,.0f} mm at least 4d = {4 * d[m]:,.0f} mm and bw = "
-                             f"{b[m]:g} mm at least min(0.3h, 250) = {min(0.3 * h[m], 250.0):g} mm")
+            if not aci.smf_beam_dimensions_ok(clear_span[m], d[m], b[m], h[m], u):
+                found.append(f"18.6.2.1: clear span {clear_span[m]:,.0f} {mm} at least 4d = {4 * d[m]:,.0f} {mm} and "
+                             f"bw = {b[m]:g} {mm} at least min(0.3h, {u.smf_beam_bw_min:g}) = "
+                             f"{min(0.3 * h[m], u.smf_beam_bw_min):g} {mm}")
             low = [f for f, a in faces.items() if a[m] < as_min[m] * (1 - 1e-9)]
             high = [f for f, a in faces.items() if a[m] > rho_max[m] * b[m] * d[m] * (1 + 1e-9)]
             if low:
-                found.append(f"18.6.3.1: As at the {', '.join(low)} face below As,min = {as_min[m]:,.0f} mm^2 (9.6.1.2)")
+                found.append(f"18.6.3.1: As at the {', '.join(low)} face below As,min = "
+                             f"{as_min[m]:,.{0 if U.name == 'si' else 2}f} {area} (9.6.1.2)")
             if high:
                 found.append(f"18.6.3.1: As at the {', '.join(high)} face above rho = {rho_max[m]:g}")
         if fb.code[m] >= INTERMEDIATE:
@@ -135,9 +147,9 @@ def member_problems(fb: FrameBeams, clear_span, b, h, d, fc) -> np.ndarray:
             if not ok:
                 c = "18.6.3.2" if fb.code[m] == SPECIAL else "18.4.2.2"
                 found.append(f"{c}: Mn+ at each face at least {face:.2g} of Mn- there and every face strength at "
-                             f"least {span:.2g} of the largest (Mn- {fb.mn_neg_i[m] / 1e6:,.0f} / "
-                             f"{fb.mn_neg_j[m] / 1e6:,.0f}, Mn+ {fb.mn_pos_i[m] / 1e6:,.0f} / "
-                             f"{fb.mn_pos_j[m] / 1e6:,.0f} kN*m at i / j)")
+                             f"least {span:.2g} of the largest (Mn- {fb.mn_neg_i[m] / U.per_moment:,.0f} / "
+                             f"{fb.mn_neg_j[m] / U.per_moment:,.0f}, Mn+ {fb.mn_pos_i[m] / U.per_moment:,.0f} / "
+                             f"{fb.mn_pos_j[m] / U.per_moment:,.0f} {U.moment} at i / j)")
         out[m] = "; ".join(found)
     return out
 
@@ -205,35 +217,38 @@ def vc_zero_zones(zone, member, n_members, ve, ve_eq, least_compression, Ag, fc)
     return out
 
 
-def hoop_spacing_limits(code, zone, d, db_long, fy) -> tuple[np.ndarray, np.ndarray]:
+def hoop_spacing_limits(code, zone, d, db_long, fy, u: Edition = SI) -> tuple[np.ndarray, np.ndarray]:
     """Per station, the spacing limits of Chapter 18 that do not depend on the hoop bar, and
     the multiple of the hoop bar diameter that also limits it (inf where none):
-    special: hoops d/4, 6 db (5 db Grade 550), 150 mm (18.6.4.4), stirrups elsewhere d/2
-    (18.6.4.6); intermediate: hoops d/4, 8 db (6 db Grade 550), 24 db of the hoop, 300 mm
-    (18.4.2.4), d/2 elsewhere (18.4.2.5); ordinary and none: no limit beyond Chapter 9."""
+    special: hoops d/4, 6 db (5 db Grade 550 | 80), 150 mm | 6 in (18.6.4.4), stirrups
+    elsewhere d/2 (18.6.4.6); intermediate: hoops d/4, 8 db (6 db Grade 550 | 80), 24 db of
+    the hoop, 300 mm | 12 in (18.4.2.4), d/2 elsewhere (18.4.2.5); ordinary and none: no
+    limit beyond Chapter 9."""
     hinge = zone > 0
-    special = np.where(hinge, aci.smf_beam_hoop_spacing(d, db_long, fy), aci.smf_beam_stirrup_spacing_elsewhere(d))
-    inter = np.where(hinge, aci.imf_beam_hoop_spacing(d, db_long, np.inf, fy), aci.imf_beam_stirrup_spacing_elsewhere(d))
+    special = np.where(hinge, aci.smf_beam_hoop_spacing(d, db_long, fy, u), aci.smf_beam_stirrup_spacing_elsewhere(d))
+    inter = np.where(hinge, aci.imf_beam_hoop_spacing(d, db_long, np.inf, fy, u),
+                     aci.imf_beam_stirrup_spacing_elsewhere(d))
     limit = np.where(code == SPECIAL, special, np.where(code == INTERMEDIATE, inter, np.inf))
     hoop_multiple = np.where((code == INTERMEDIATE) & hinge, 24.0, np.inf)  # 18.4.2.4(c)
     return limit, hoop_multiple
 
 
-def legs_for_bar_support(fb: FrameBeams, b, cover_to_stirrup, stirrup_db) -> np.ndarray:
+def legs_for_bar_support(fb: FrameBeams, b, cover_to_stirrup, stirrup_db, u: Edition = SI) -> np.ndarray:
     """Per member, the hoop legs across the width that 18.6.4.2 asks of special-frame beams:
     the bars nearest the top and bottom faces supported by 25.7.2.3 (every corner and
-    alternate bar, no unsupported bar more than 150 mm clear from a supported one) with the
-    supported bars at most 350 mm apart. The bars of the layer nearest a face are taken as
-    As / (bar of db_long_mm), rounded up (db_long_mm is the smallest bar: never fewer bars than
-    there are), but no more than one layer holds at the least clear spacing of 25.2.1
-    (max(25 mm, db); from memory), evenly spread inside the stirrup. 2 for other members."""
+    alternate bar, no unsupported bar more than 150 mm | 6 in clear from a supported one) with
+    the supported bars at most 350 mm | 14 in apart. The bars of the layer nearest a face are
+    taken as As / (bar of db_long_mm), rounded up (db_long_mm is the smallest bar: never fewer
+    bars than there are), but no more than one layer holds at the least clear spacing of
+    25.2.1 (max(25 mm | 1 in, db); from memory), evenly spread inside the stirrup. 2 for
+    other members."""
     width = b - 2.0 * (cover_to_stirrup + stirrup_db) - fb.db_long  # between the centres of the corner bars
-    fit = np.floor(width / (fb.db_long + np.fmax(CLEAR_BAR_SPACING_MM, fb.db_long)) + 1e-9) + 1  # one layer
+    fit = np.floor(width / (fb.db_long + np.fmax(u.bar_clear_spacing_min, fb.db_long)) + 1e-9) + 1  # one layer
     n_bars = np.ceil(np.fmax.reduce([fb.as_top_i, fb.as_bot_i, fb.as_top_j, fb.as_bot_j]) / bar_area(fb.db_long) - 1e-9)
     n_bars = np.where(np.isfinite(n_bars), np.clip(np.fmin(n_bars, fit), 2, None), 2).astype(int)
     spacing = np.where(n_bars > 1, width / np.maximum(n_bars - 1, 1), width)
     legs = aci.legs_required(n_bars, np.maximum(np.nan_to_num(spacing, nan=1.0), 1.0), np.nan_to_num(fb.db_long),
-                             hx_max=aci.SMF_BEAM_HX_MAX_MM)
+                             hx_max=u.smf_beam_hx_max, u=u)
     return np.where((fb.code == SPECIAL) & fb.bars_given, legs, 2)
 
 

@@ -17,7 +17,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from postproc import combos
+from postproc import combos, units
 from postproc.codes import aci318_19 as aci
 from postproc.combos import Candidates
 from postproc.demand import frames as fr
@@ -49,10 +49,10 @@ class FrameStations:
 
     code: np.ndarray  # frame of the station's member (demand.frames.CODES)
     zone: np.ndarray  # 1 / 2: hinge zone (hoops) at face i / j; 0 elsewhere
-    ve: np.ndarray  # the capacity-design candidate's shear, N (NaN where none)
-    ve_eq: np.ndarray  # its earthquake-induced part, N
+    ve: np.ndarray  # the capacity-design candidate's shear, N | lb (NaN where none)
+    ve_eq: np.ndarray  # its earthquake-induced part, N | lb
     vc_zero: np.ndarray  # Vc = 0 by 18.6.5.2
-    limit: np.ndarray  # spacing limit of Chapter 18 that does not depend on the bar, mm
+    limit: np.ndarray  # spacing limit of Chapter 18 that does not depend on the bar, mm | in
     hoop_multiple: np.ndarray  # the hoop bar diameter times this also limits the spacing (18.4.2.4(c))
     throughout: np.ndarray  # stirrups at every station (18.6.4.6, 18.4.2.5)
 
@@ -78,7 +78,7 @@ class FramePlan:
 
     @property
     def first_hoop_members(self) -> np.ndarray:
-        """Per station: the first hoop within 50 mm of each face applies (18.6.4.4, 18.4.2.4)."""
+        """Per station: the first hoop within 50 mm | 2 in of each face applies (18.6.4.4, 18.4.2.4)."""
         return self.stations.code >= fr.INTERMEDIATE
 
 
@@ -118,7 +118,7 @@ def plan(mb, rs, cand: Candidates, cset: combos.ComboSet, settings: Settings) ->
     mem = grid.member
     zone = np.where(capacity[mem], fr.hinge_zones(rs.x_clear, clear[mem], sec.h[mem]), 0).astype(np.int8)
     limit, hoop_multiple = fr.hoop_spacing_limits(np.where(capacity[mem], code, fr.NONE), zone, sec.d[mem],
-                                                  fb.db_long[mem], fb.fy[mem])
+                                                  fb.db_long[mem], fb.fy[mem], fb.u)
     st = replace(st, zone=zone, limit=limit, hoop_multiple=hoop_multiple, throughout=capacity[mem])
     sel = np.flatnonzero(capacity[mem])
     if not len(sel):
@@ -131,7 +131,7 @@ def plan(mb, rs, cand: Candidates, cset: combos.ComboSet, settings: Settings) ->
     gc = combos.candidates(gravity, {"V": v_ss}, signed=("V",), tension=None)
     g_max = np.maximum.reduceat(gc.values["V"], gc.bounds[:-1])
     g_min = np.minimum.reduceat(gc.values["V"], gc.bounds[:-1])
-    reversed_sign = _reversed(v_ss, mem[sel], cset, n)
+    reversed_sign = _reversed(v_ss, mem[sel], cset, n, units.system(fb.u.units))
     for m in np.flatnonzero(reversed_sign):
         warnings.append(f"member {mb.names[m]}: V < 0 near node i and V > 0 near node j under dead load, against the "
                         "sign convention (V = dM/dx, README): the capacity-design shear is taken as the largest "
@@ -176,7 +176,7 @@ def plan(mb, rs, cand: Candidates, cset: combos.ComboSet, settings: Settings) ->
     return FramePlan(st, merged, reasons, notes, warnings)
 
 
-def _reversed(v_ss, member, cset, n) -> np.ndarray:
+def _reversed(v_ss, member, cset, n, U: units.UnitSystem) -> np.ndarray:
     """Per member: under dead load alone the simple-beam shear is negative at face i and
     positive at face j, the opposite of the sign convention (V = dM/dx)."""
     dead = [k for k, c in enumerate(cset.cases) if cset.types.get(c) == "D"]
@@ -188,7 +188,7 @@ def _reversed(v_ss, member, cset, n) -> np.ndarray:
     last = np.r_[member[1:] != member[:-1], True]
     scale = np.zeros(n)
     np.maximum.at(scale, member, np.abs(vd))
-    tol = 1e-3 * scale + 1.0  # N
+    tol = 1e-3 * scale + 1e-3 * U.per_force  # 1 N | 1 lb
     bad_i = np.zeros(n, bool)
     bad_j = np.zeros(n, bool)
     bad_i[member[first]] = vd[first] < -tol[member[first]]
@@ -210,19 +210,22 @@ def _append(cand: Candidates, stations: np.ndarray, values: dict, rows: np.ndarr
 
 def _note(fb: fr.FrameBeams, m: int, mb, sel, m_sel, ve, label, zone, vc_zero, settings: Settings) -> str:
     """What Chapter 18 did for member m, for its members.csv message."""
+    U, u = units.system(fb.u.units), fb.u
+    mm, first = U.length, f"{u.first_hoop_max:g} {U.length}"
     mine = sel[m_sel == m]
-    v, rule = ve[m_sel == m] / 1e3, label[m_sel == m]
+    v, rule = ve[m_sel == m] / U.per_force, label[m_sel == m]
     h2 = float(aci.smf_beam_hoop_zone_length(mb.sec.h[m]))
-    kn = lambda a: f"{a / 1e6:,.0f}"
+    kn = lambda a: f"{a / U.per_moment:,.0f}"  # noqa: E731
     if fb.code[m] == fr.SPECIAL:
         zero = [end for end, z in (("i", 1), ("j", 2)) if vc_zero[mine][zone[mine] == z].any()]
-        return (f"special moment frame (18.6): Ve = {v[0]:,.1f} / {v[-1]:,.1f} kN at faces i / j from Mpr- "
+        return (f"special moment frame (18.6): Ve = {v[0]:,.1f} / {v[-1]:,.1f} {U.force} at faces i / j from Mpr- "
                 f"{kn(fb.mpr_neg_i[m])} / {kn(fb.mpr_neg_j[m])} and Mpr+ {kn(fb.mpr_pos_i[m])} / {kn(fb.mpr_pos_j[m])} "
-                f"kN*m (18.6.5.1); hoops over 2h = {h2:,.0f} mm from each face, the first within 50 mm (18.6.4)"
+                f"{U.moment} (18.6.5.1); hoops over 2h = {h2:,.0f} {mm} from each face, the first within {first} "
+                "(18.6.4)"
                 + (f"; Vc = 0 there at end {' and '.join(zero)} (18.6.5.2)" if zero else
                    "; Vc kept: 18.6.5.2 (a) or (b) not met"))
     which = lambda r: "(b)" if r == 4 else "(a)"
     return (f"intermediate moment frame (18.4.2): phi*Vn >= the lesser of (a) from Mn and (b) with Omega_o = "
-            f"{settings.frames.omega_o:g}: {v[0]:,.1f} / {v[-1]:,.1f} kN at faces i / j, {which(rule[0])} / "
-            f"{which(rule[-1])} the lesser (18.4.2.3); hoops over 2h = {h2:,.0f} mm from each face, the first within "
-            f"50 mm (18.4.2.4)")
+            f"{settings.frames.omega_o:g}: {v[0]:,.1f} / {v[-1]:,.1f} {U.force} at faces i / j, {which(rule[0])} / "
+            f"{which(rule[-1])} the lesser (18.4.2.3); hoops over 2h = {h2:,.0f} {mm} from each face, the first within "
+            f"{first} (18.4.2.4)")
