@@ -167,7 +167,8 @@ def test_simple_beam_by_hand_with_the_inch_pound_equations(worked):
     assert z.spacing_in.iloc[0] == 6.0 and z.start_in.iloc[0] == 2.0
     assert z.spacing_in.max() == 10.0
     assert (z.spacing_in.dropna() == z.spacing_in.dropna().round()).all()  # whole inches
-    assert list(worked.zones.columns) == ["member", "zone", "start_in", "end_in", "bar", "legs", "spacing_in", "count"]
+    assert list(worked.zones.columns) == ["member", "zone", "start_in", "end_in", "bar", "legs", "spacing_in", "count",
+                                          "kind"]
 
 
 def test_cantilever_by_hand_with_the_inch_pound_equations(worked):
@@ -413,8 +414,9 @@ def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
     _, _, _, _, run = demo_us
     settings = settings_from_dict(run.manifest()["settings"])
     assert settings.units == "us"
-    names = ["L2-SB-23", "L1-TG-B35", "L3-GX-B45", "L4-GY-5BC", "R-SB-45"]
+    names = ["L2-SB-23", "L1-TG-B35", "L2-GY-4BC", "L3-GX-B34", "L5-GY-4BC", "R-GX-B23"]  # outside the moment frames
     members = run.members().to_pandas().set_index("member", drop=False)
+    assert all(reference.covers(members.loc[m]) for m in names)
     forces = pq.read_table(run.path / "forces", filters=[("member", "in", names)]).to_pandas()
     cset, _ = engine.combination_set(run, run.manifest()["cases"], settings)
     res = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
@@ -486,8 +488,9 @@ def test_chapter_18_inch_pound_forms():
     assert aci.confinement_kf(5000.0, u) == 1.0 and aci.confinement_kf(15000.0, u) == pytest.approx(1.2)
     # 18.6.4.4: d/4, 6 in and 6 db; 18.6.2.1: bw >= 10 in; 18.7.5.1: lo >= 18 in
     assert aci.smf_beam_hoop_spacing(30.0, 1.128, u=u) == pytest.approx(6.0)
-    assert aci.smf_beam_dimensions_ok(200.0, 20.0, 10.0, 24.0, u) and not aci.smf_beam_dimensions_ok(200.0, 20.0, 9.9,
-                                                                                                       24.0, u)
+    # 18.6.2.1(b): bw at least the lesser of 0.3h and 10 in (h = 40 in: 10 in governs)
+    assert aci.smf_beam_dimensions_ok(200.0, 20.0, 10.0, 40.0, u) and not aci.smf_beam_dimensions_ok(200.0, 20.0, 9.9,
+                                                                                                       40.0, u)
     assert aci.smf_column_lo(16.0, 60.0, u) == 18.0
     # Table 18.8.4.3 (inch-pound, from memory): 20, 15, 12, 8 lambda sqrt(f'c) Aj
     assert aci.joint_strength_coefficient(True, True, True, u) == 20.0
@@ -578,3 +581,21 @@ def test_a_mapping_file_names_our_columns_in_inch_pound_spelling(tmp_path, capsy
     assert code == cli.EXIT_OK
     r = pd.read_csv(tmp_path / "out" / "members.csv").iloc[0]
     assert r.vu_design_i_kip == pytest.approx(56.75, abs=0.01)  # as in the worked simple beam above
+
+
+def test_demo_frame_beams_and_joints_in_inch_pound(demo_us, capsys):
+    """The demo's special moment frames designed with the inch-pound edition: hoops within 2 in of
+    each face (18.6.4.4) at no more than 6 in (18.6.4.4: d/4, 6 db, 6 in), joints with the
+    inch-pound coefficients of Table 18.8.4.3 (20, 15, 12 or 8, from memory), and the
+    Chapter 18 step of explain in inch-pound units."""
+    _, members, zones, tmp, run = demo_us
+    hoops = zones[zones.kind == "hoop"]
+    assert len(hoops) and hoops.spacing_in.max() <= 6.0
+    frame = pd.read_csv(cli.sample_folder() / "members.csv").query("frame == 'special'").member
+    firsts = zones[zones.member.isin(frame)].groupby("member").start_in.min()
+    assert (firsts <= 2.0).all()
+    joints = pd.read_csv(tmp / "out" / "joints.csv")
+    assert {"vu_kip", "phi_vn_kip", "aj_in2"} <= set(joints.columns) and set(joints.coefficient) <= {20.0, 15.0, 12.0, 8.0}
+    assert cli.main(["explain", frame.iloc[0], "--store", str(tmp / "store")]) == cli.EXIT_OK
+    text = capsys.readouterr().out
+    assert "Moment frame: special" in text and "kip*ft" in text and "6 in" in text and " mm" not in text
