@@ -333,6 +333,40 @@ def test_settings_take_either_spelling_and_refuse_both(tmp_path):
     assert Settings.defaults("us").detailing.ladder[0] == ("#3", 2)
 
 
+def test_input_fill_in_either_spelling_is_converted_to_the_runs_unit(run_design, tmp_path):
+    """[input] fill names a column in either spelling; its value is in the unit that name
+    carries and fills the run's unit: 4.4482216152605 kN (1 kip) of N filled in an
+    inch-pound run designs as N = 1 kip written out, and 1 kip filled in an SI run as
+    4.4482216152605 kN written out."""
+    from postproc.settings import validated_settings
+
+    s = validated_settings({"units": "us", "input": {"fill": {"N_kN": 4.4482216152605}}}, tmp_path / "s.toml")
+    assert s.input.fill == {"N_kip": 1.0}
+    with pytest.raises(Exception, match="both 'N_kN' and 'N_kip'"):
+        validated_settings({"input": {"fill": {"N_kN": 1.0, "N_kip": 1.0}}}, tmp_path / "s.toml")
+    shear = lambda x: 6.0 * (12.0 - x)  # noqa: E731
+    given = [{**r, "N_kip": 1.0} for r in us_rows("S", 24.0, shear)]
+    blank = [{**r, "N_kip": (None if k == 2 else 1.0)} for k, r in enumerate(us_rows("S", 24.0, shear))]
+    cfg = tmp_path / "fill-si-name.toml"
+    cfg.write_text('[input]\nfill = { N_kN = 4.4482216152605 }\n')
+    a = run_design([us_beam("S", 24.0)], given, extra=["--units", "us"])
+    b = run_design([us_beam("S", 24.0)], blank, extra=["--units", "us", "--config", str(cfg)])
+    assert a.code == b.code == cli.EXIT_OK
+    assert a.members.equals(b.members) and a.zones.equals(b.zones)
+    kn = 4.4482216152605
+    si_rows = [dict(member="S", case="U", x_m=r["x_ft"] * 0.3048, V_kN=r["V_kip"] * kn) for r in us_rows("S", 24.0, shear)]
+    si_given = [{**r, "N_kN": kn} for r in si_rows]
+    si_blank = [{**r, "N_kN": (None if k == 2 else kn)} for k, r in enumerate(si_rows)]
+    cfg_us = tmp_path / "fill-us-name.toml"
+    cfg_us.write_text('[input]\nfill = { N_kip = 1.0 }\n')
+    si_beam = dict(member="S", kind="beam", length_m=24 * 0.3048, b_mm=300.0, h_mm=600.0, d_mm=540.0, fc_mpa=28.0,
+                   fyt_mpa=420.0, support_i="column", support_j="column", face_i_mm=230.0, face_j_mm=230.0)
+    c = run_design([si_beam], si_given)
+    d = run_design([si_beam], si_blank, extra=["--config", str(cfg_us)])
+    assert c.code == d.code == cli.EXIT_OK
+    assert c.members.equals(d.members) and c.zones.equals(d.zones)
+
+
 # --- the demo in both systems ----------------------------------------------------------------------
 
 @pytest.fixture(scope="module")
