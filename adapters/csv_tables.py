@@ -668,7 +668,8 @@ def _check_text(t: pa.Table, spec: CsvSpec, probs: Problems, cols: tuple[Col, ..
             probs.add(_blank(t, c.name), c.name, "missing value")
         rows, values = _marker_rows(t.column(c.name), c.name in FREE_TEXT)
         probs.add(rows, c.name, [("holds a NUL byte (\\x00): the file is damaged" if "\x00" in v else
-                                  f"'{v}' marks a missing value, not an id or label: {missing_hint(spec.fill_name(c.name), True)}")
+                                  f"'{v}' marks a missing value, not an id or label: "
+                                  f"{missing_hint(spec.fill_name(c.name), True)}")
                                  for v in values])
 
 

@@ -698,8 +698,8 @@ def _plans(data: _Data, placed: np.ndarray, level: pd.Series, linked: set[int]) 
                           for x, y in zip(x1[cols], y1[cols]))
         n_fail = int((m["band"].to_numpy()[on] == 4).sum())
         n_act = int(m["status"].iloc[np.flatnonzero(on)].isin(NEEDS_ACTION).sum())
-        meta = f"z = {z:.2f} {data.U.span} &middot; {on.sum():,} beams" + (f" &middot; {n_act:,} need action" if n_act else "") + \
-            (f", {n_fail:,} over 1.0" if n_fail else "")
+        meta = f"z = {z:.2f} {data.U.span} &middot; {on.sum():,} beams" + \
+            (f" &middot; {n_act:,} need action" if n_act else "") + (f", {n_fail:,} over 1.0" if n_fail else "")
         svg = (f'<svg viewBox="0 0 {PLAN_W:g} {height:.0f}" width="{PLAN_W:g}" height="{height:.0f}" role="img" '
                f'aria-label="{_text(f"plan of level {lv}")}">{squares}{"".join(lines)}{"".join(tags)}{scale_bar}</svg>')
         plans.append(dict(level=lv, meta=Markup(meta), svg=Markup(svg), z=z))
