@@ -12,10 +12,14 @@ Scope (said per member in ``reason`` when a member falls outside it)
     top face by downward point loads and a uniform load: (a) deep by span, ln <= 4h,
     modelled whole; (b) otherwise slender, with point loads within 2h of a bearing face:
     the end region (D-region) from the bearing to its B-region boundary.
-    Not modelled: a free end (cantilever), an indirect support (girder, hanger), hung
-    (bottom-face) loads, web openings, continuous deep beams, upward loads, a hogging
-    moment at a modelled bearing (a restrained end is a beam-column joint region), and a
-    model whose struts would meet a tie at less than 25 degrees (23.2.7).
+    Not modelled: a free end (cantilever), an indirect support (girder, hanger) at an end
+    a model bears on (the far end of an end region does not matter), hung (bottom-face)
+    loads, web openings, continuous deep beams, upward loads, a hogging moment at a
+    modelled bearing (a restrained end is a beam-column joint region), a given face shear
+    that reverses (the bearing pulling down), and a model whose struts would meet a tie at
+    less than 25 degrees (23.2.7). Axial tension, where given, is added whole to the bottom
+    tie, axial compression whole to the top chord and the thrust at the top nodes
+    (conservative: the other chord is not relieved).
 
 Model-building rules (all lengths in mm along the member from the inner face of the
 bearing at end i, the clear-span coordinate; heights from the soffit)
@@ -191,6 +195,10 @@ class DeepLoads:
     (lb/in) acts over the clear span. ``face_shear_*`` (shear entering the member at the bearing
     face, positive as the bearing's upward reaction) and ``face_moment_*`` (sagging
     positive), (K, members), are optional frame results for end regions; NaN = not given.
+    ``axial_tension`` (K, members), N >= 0: axial tension the bottom tie carries on top of
+    the truss forces; ``axial_compression`` (K, members), N >= 0: axial compression the top
+    chord and the thrust at the top nodes carry on top of theirs (each the whole force, the
+    other chord not relieved: conservative).
     """
 
     combinations: tuple[str, ...]
@@ -202,6 +210,8 @@ class DeepLoads:
     face_moment_i: np.ndarray | None = None
     face_shear_j: np.ndarray | None = None
     face_moment_j: np.ndarray | None = None
+    axial_tension: np.ndarray | None = None
+    axial_compression: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -353,7 +363,13 @@ def _loads(ld: DeepLoads, n: int) -> dict:
     for k in ("face_shear_i", "face_moment_i", "face_shear_j", "face_moment_j"):
         v = getattr(ld, k)
         face[k] = np.full((K, n), np.nan) if v is None else np.asarray(v, dtype=float).reshape(K, n)
-    return dict(K=K, pm=pm, px=px, pP=pP, w=w, **face)
+    axial = {}
+    for key, name in (("nt", "axial_tension"), ("nc", "axial_compression")):
+        v = getattr(ld, name)
+        axial[key] = np.zeros((K, n)) if v is None else np.asarray(v, dtype=float).reshape(K, n)
+        if not np.isfinite(axial[key]).all() or (axial[key] < 0).any():
+            raise ValueError(f"DeepLoads.{name} must be finite and not negative (N)")
+    return dict(K=K, pm=pm, px=px, pP=pP, w=w, **axial, **face)
 
 
 # --- scope and models ------------------------------------------------------------------
@@ -371,9 +387,6 @@ def _scope_reasons(M: dict, L: dict) -> np.ndarray:
          "truss is not built here")
     for end in ("i", "j"):
         s = M[f"support_{end}"]
-        for kind in ("girder", "hanger"):
-            note(s == kind, f"indirect support at end {end} ({kind}): the reaction enters through a hanger tie and "
-                            "the supporting member's node, which are not modelled here")
         note(~np.isin(s, BEARING + ("free", "girder", "hanger")), f"unknown support kind at end {end}")
     note(M["load_face"] != "top", "hung loads (loads on the bottom face): the hanger ties that lift them to the top "
                                   "are not modelled here")
@@ -383,10 +396,28 @@ def _scope_reasons(M: dict, L: dict) -> np.ndarray:
     if len(L["pm"]):
         up |= np.bincount(L["pm"], weights=(L["pP"] < 0).any(axis=0), minlength=n) > 0
     note(up, "upward load in a combination: the reversed load path (uplift) is not modelled here")
-    for end in ("i", "j"):
-        lb = M[f"bearing_{end}"]
-        note(lb <= 0, f"no bearing length at end {end} (support width along the member): the bearing node "
-                      "cannot be checked")
+    return why
+
+
+def _end_reasons(M: dict, L: dict, uses_i: np.ndarray, uses_j: np.ndarray) -> np.ndarray:
+    """Why a bearing a model uses cannot be modelled ('' where it can): an indirect support,
+    no bearing length, or a frame shear at the face of an end region that reverses."""
+    n = len(M["member"])
+    why = np.full(n, "", dtype=object)
+    for end, uses in (("i", uses_i), ("j", uses_j)):
+        s = M[f"support_{end}"]
+        for kind in ("girder", "hanger"):
+            why[uses & (s == kind) & (why == "")] = (
+                f"indirect support at end {end} ({kind}): the reaction enters through a hanger tie and the "
+                "supporting member's node, which are not modelled here")
+        why[uses & (M[f"bearing_{end}"] <= 0) & (why == "")] = (
+            f"no bearing length at end {end} (support width along the member): the bearing node cannot be checked")
+        fs = L[f"face_shear_{end}"]
+        scale = np.nanmax(np.abs(fs), axis=0, initial=0.0) if fs.size else np.zeros(n)
+        reverses = (np.nan_to_num(fs, nan=0.0) < -(1e-6 * scale + 1.0)).any(axis=0)
+        why[uses & reverses & (why == "")] = (
+            f"the shear at the face of end {end} reverses in a combination (the bearing pulls down, e.g. frame action "
+            "under lateral load): the truss is built for loads carried down to the bearing")
     return why
 
 
@@ -444,6 +475,8 @@ class _Models:
     ra_given: np.ndarray  # (K, nm), NaN for whole models (statics of the lumped loads)
     direct_a: np.ndarray  # (K, nm) load straight into bearing A
     direct_b: np.ndarray
+    nt: np.ndarray  # (K, nm) axial tension added to the bottom tie
+    nc: np.ndarray  # (K, nm) axial compression added to the top chord and the thrust at the top nodes
     pm: np.ndarray  # point loads in the model, local coordinates
     ps: np.ndarray
     pP: np.ndarray
@@ -461,6 +494,9 @@ def _build_models(M: dict, L: dict, reasons: np.ndarray, opts: StmOptions) -> tu
     why = reasons.copy()
     why[ok & ~whole & ~has_i & ~has_j] = ("not a deep beam by 9.9.1.1 (clear span > 4h and no concentrated load "
                                           "within 2h of a bearing face): design sectionally")
+    # the bearing of an end region: its face shear enters the truss; the far end's support does not
+    ends = _end_reasons(M, L, whole | has_i, whole | has_j)
+    why[(why == "") & (ends != "")] = ends[(why == "") & (ends != "")]
     # face moments: a restrained (hogging) end is not a bearing node
     lb = {"i": lbi, "j": lbj}
     hog = {}
@@ -525,7 +561,7 @@ def _build_models(M: dict, L: dict, reasons: np.ndarray, opts: StmOptions) -> tu
         member=mm, name=M["member"][mm], end=end, mirrored=mir, whole=wh, ln=g(ln), s_end=s_end, udl_end=udl_end,
         lbA=lbA, lbB=lbB, extA=extA, extB=extB, h=g(h), bw=g(M["bw"]), d=g(M["d"]), fc=g(M["fc"]),
         fy=g(M["fy"]), fyt=g(M["fyt"]), lam=g(M["lam"]), lp=g(M["point_width"]), a_fixed=g(M["top_strut_depth"]),
-        w=L["w"][:, mm], ra_given=ra, direct_a=direct_a, direct_b=direct_b,
+        w=L["w"][:, mm], ra_given=ra, direct_a=direct_a, direct_b=direct_b, nt=L["nt"][:, mm], nc=L["nc"][:, mm],
         pm=pair_model[in_model], ps=xl[in_model], pP=pP[:, idx[in_model]])
     region = np.full(n, "", dtype=object)
     region[ok & whole] = "whole member (9.9.1.1(a))"
@@ -682,8 +718,6 @@ def _flow(md: _Models, pt: _Points, z: np.ndarray) -> _Flow:
     """Statics and load paths of every model for every combination: shear and moment at
     the panel points, the node of zero shear, the fans' reach and every member force
     (chord forces as moment numerators, to be divided by z)."""
-    nm = len(md.member)
-    K = pt.Q.shape[0]
     N = len(pt.s)
     model, s, k, off = pt.model, pt.s, pt.k, pt.offsets
     first = off[model]
@@ -775,19 +809,26 @@ def _node_types(md: _Models, pt: _Points, fl: _Flow):
 
 def _size_top_strut(md: _Models, pt: _Points, fl: _Flow, beta_c: float):
     """Least top strut depth a for the horizontal thrust at every top node (23.9.2, 23.4.3):
-    a (d - a/2) = H z / (phi 0.85 beta f'c bw), solved for a; the boundary of an end region
-    is a strut end (beta_s = 1.0). Returns a per model (inf where no depth suffices)."""
+    with the thrust H z (a moment) and the axial compression Nc added whole, H z / z + Nc <=
+    c a, c = phi 0.85 beta f'c bw, z = d - a/2, i.e. (d - a/2)(c a - Nc) >= H z, solved for the
+    least a in every combination; the boundary of an end region is a strut end (beta_s = 1.0).
+    Returns a per model (inf where no depth suffices)."""
     beta_n, _ = _node_types(md, pt, fl)
     beta = np.where(pt.kind == _BOUNDARY, code.BETA_S_BOUNDARY, beta_n)
     bulge = _bulge_moment(md, pt)
     bulge_left = np.zeros_like(bulge)
     bulge_left[:, 1:] = bulge[:, :-1]
-    H = np.where(pt.top[None], fl.thrust_num + np.maximum(bulge, bulge_left), 0.0).max(axis=0)
+    Hz = np.where(pt.top[None], fl.thrust_num + np.maximum(bulge, bulge_left), 0.0)  # (K, N)
     m = pt.model
-    X = H / (code.PHI_STM * 0.85 * beta_c * beta * md.fc[m] * md.bw[m])
-    disc = md.d[m] ** 2 - 2 * X
-    a_node = np.where(disc >= 0, md.d[m] - np.sqrt(np.clip(disc, 0, None)), np.inf)
-    a_req = np.maximum.reduceat(np.where(pt.top, a_node, 0.0), pt.offsets[:-1])
+    c = (code.PHI_STM * 0.85 * beta_c * beta * md.fc[m] * md.bw[m])[None]
+    d = md.d[m][None]
+    nc = md.nc[:, m]
+    # a^2 - (2d + Nc/c) a + 2 (d Nc + H z)/c = 0, the smaller root (Nc = 0: a = d - sqrt(d^2 - 2 H z / c))
+    p = 2 * d + nc / c
+    disc = p**2 - 8 * (d * nc + Hz) / c
+    a_k = np.where(disc >= 0, (p - np.sqrt(np.clip(disc, 0, None))) / 2, np.inf)
+    a_node = np.where(pt.top, a_k.max(axis=0) if len(a_k) else 0.0, 0.0)
+    a_req = np.maximum.reduceat(a_node, pt.offsets[:-1])
     return a_req
 
 
@@ -854,9 +895,11 @@ def _elements(md: _Models, pt: _Points, fl: _Flow, a: np.ndarray, z: np.ndarray)
     parts.append((_DIAG_R, fl.tt, idx, N + nxt, -fl.diagR / dsin[None], -fl.diagR / dsin[None]))
     parts.append((_VERT, top.copy(), idx, N + idx, fl.vert, fl.vert))
     top_f = -fl.top_num / zp[None]
-    parts.append((_TOP, fl.tt, idx, nxt, top_f, top_f - np.where(fl.tt[None], bulge, 0.0) / zp[None]))
+    top_extra = np.where(fl.tt[None], bulge / zp[None] + md.nc[:, model], 0.0)  # lumped-away moment, compression
+    parts.append((_TOP, fl.tt, idx, nxt, top_f, top_f - top_extra))
     bot_f = fl.bot_num / zp[None]
-    parts.append((_BOT, fl.panel, N + idx, N + nxt, bot_f, bot_f + np.where(fl.panel[None], bulge, 0.0) / zp[None]))
+    bot_extra = np.where(fl.panel[None], bulge / zp[None] + md.nt[:, model], 0.0)  # lumped-away moment, axial tension
+    parts.append((_BOT, fl.panel, N + idx, N + nxt, bot_f, bot_f + bot_extra))
     kinds, models, n1s, n2s, pts, forces, dforces = [], [], [], [], [], [], []
     for kind, sel, n1, n2, f, df in parts:
         e = np.flatnonzero(sel)
@@ -1064,7 +1107,6 @@ def _tie(M: dict, md: _Models, pt: _Points, t: Truss, theta, env, tolF, opts: St
 def _assemble(M, md: _Models, pt: _Points, fl: _Flow, t: Truss, feasible, reasons, method, opts: StmOptions,
               combos) -> StmDesign:
     K = t.force.shape[0]
-    N = len(pt.s)
     combos = np.asarray(combos, dtype=object)
     ek, em, ep = t.el_kind, t.el_model, t.el_point
     tolF = 1e-9 * fl.scale + 1e-6  # per model
@@ -1180,7 +1222,7 @@ def _faces(md, pt, fl, t, combos, comp, width1, width2, node_type, node_beta, op
     bulge = _bulge_moment(md, pt)
     bulge_left = np.zeros_like(bulge)
     bulge_left[:, 1:] = bulge[:, :-1]
-    thrust = (fl.thrust_num + np.maximum(bulge, bulge_left)) / t.z[model][None]
+    thrust = (fl.thrust_num + np.maximum(bulge, bulge_left)) / t.z[model][None] + md.nc[:, model]
     add(tp, "horizontal thrust", -1, thrust[:, tp], t.a[model[tp]])
     struts = np.flatnonzero(np.isin(t.el_kind, (_FAN_A, _FAN_B, _DIAG_L, _DIAG_R)))
     add(t.el_n1[struts], "strut end", struts, np.clip(comp[:, struts], 0, None), width1[:, struts])

@@ -23,7 +23,6 @@ import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
 from postproc import stm
-from postproc.codes import aci318_19_stm as code
 
 IN = 25.4
 KIP = 4448.2216
@@ -383,3 +382,73 @@ def test_bad_input_is_refused_with_a_message():
         stm.design(members([dict(member="X", ln=3000.0)]), wrong)
     with pytest.raises(ValueError, match="point_member"):
         stm.design(members([dict(member="X", ln=3000.0)]), loads(1, [(3, 100.0, [1.0])]))
+
+
+# --- scope per end, face shear reversing, axial tension ----------------------------------------
+
+def test_end_region_bears_on_its_own_support_only():
+    # slender beam, P = 300 kN at 600 mm from the face of column i; end j frames into a girder. The
+    # end-region model bears on column i only, so the girder at j does not stop it; a deep member
+    # (modelled whole) on a girder is refused for that end
+    m = members([dict(member="E", ln=8000.0, h=600.0, d=540.0, bw=300.0, support_j="girder"),
+                 dict(member="W", ln=3000.0, support_j="girder")])
+    r = stm.design(m, loads(2, [(0, 600.0, [300e3]), (1, 1500.0, [500e3])]))
+    assert row(r.members, member="E").status == "designed"
+    w = row(r.members, member="W")
+    assert w.status == "not-modelled" and "indirect support at end j" in w.reason
+
+
+def test_face_shear_that_reverses_is_refused():
+    # frame action under lateral load: in combination B the bearing at i pulls down by 40 kN
+    m = members([dict(member="E", ln=8000.0, h=600.0, d=540.0, bw=300.0)])
+    fs = np.array([[250e3], [-40e3]])
+    r = stm.design(m, loads(1, [(0, 600.0, [300e3, 100e3])], combos=("A", "B"), face_shear_i=fs))
+    e = row(r.members, member="E")
+    assert e.status == "not-modelled" and "reverses" in e.reason
+
+
+def test_axial_tension_is_added_to_the_bottom_tie_by_hand():
+    # the end-region beam of test_point_load_near_column_face_uses_region_model_by_hand with 100 kN
+    # of axial tension: every bottom-tie panel carries 100 kN more (statics, conservative), so
+    # As = (452.4 + 100) kN / (0.75 x 420 MPa) (23.7.2)
+    m = members([dict(member="E", ln=8000.0, h=600.0, d=540.0, bw=300.0, top_strut_depth=120.0)])
+    plain = stm.design(m, loads(1, [(0, 600.0, [300e3])]))
+    pulled = stm.design(m, loads(1, [(0, 600.0, [300e3])], axial_tension=np.array([[100e3]])))
+    z = 480.0
+    ra = 300e3 * (8200.0 - 600.0) / 8400.0
+    t = row(pulled.ties, element="bottom tie R_i-i:B1")
+    assert t.force_kN * 1e3 == pytest.approx(ra * 800.0 / z + 100e3)
+    assert row(pulled.models, member="E").tie_as_req_mm2 == pytest.approx((ra * 800.0 / z + 100e3) / (0.75 * 420.0))
+    # the truss itself is the same (strut forces and angles): the tension is an allowance on the tie
+    cols = ["element", "force_kN", "angle_deg", "combination"]
+    pd.testing.assert_frame_equal(plain.struts[cols], pulled.struts[cols])
+    with pytest.raises(ValueError, match="axial_tension"):
+        stm.design(m, loads(1, [(0, 600.0, [300e3])], axial_tension=np.array([[-1.0]])))
+
+
+def test_axial_compression_is_added_to_the_top_chord_by_hand():
+    # the same end region with 100 kN of axial compression and the top strut depth fixed at 120 mm:
+    # every top-chord panel and every top node's thrust carry 100 kN more (statics, conservative); the
+    # bottom tie is not relieved. Boundary top chord: 0.75 x 0.85 x 1.0 x 30 x 120 x 300 = 688.5 kN (23.4)
+    m = members([dict(member="E", ln=8000.0, h=600.0, d=540.0, bw=300.0, top_strut_depth=120.0)])
+    plain = stm.design(m, loads(1, [(0, 600.0, [300e3])]))
+    pushed = stm.design(m, loads(1, [(0, 600.0, [300e3])], axial_compression=np.array([[100e3]])))
+    chord = "top chord i:T1-i:T2"
+    assert row(pushed.struts, element=chord).force_kN == pytest.approx(row(plain.struts, element=chord).force_kN + 100)
+    assert row(pushed.struts, element=chord).utilization == pytest.approx(
+        row(pushed.struts, element=chord).force_kN * 1e3 / (0.75 * 0.85 * 30.0 * 120.0 * 300.0))
+    f0 = row(plain.faces, node="i:T1", face="horizontal thrust").force_kN
+    assert row(pushed.faces, node="i:T1", face="horizontal thrust").force_kN == pytest.approx(f0 + 100)
+    pd.testing.assert_frame_equal(plain.ties[["element", "force_kN"]], pushed.ties[["element", "force_kN"]])
+
+
+def test_axial_compression_deepens_the_sized_top_strut():
+    # with the depth sized by the design, (d - a/2)(c a - Nc) >= H z: more compression, a deeper strut
+    m = members([dict(member="G", ln=3000.0)])
+    base = stm.design(m, loads(1, [(0, 1500.0, [3000e3])]))
+    more = stm.design(m, loads(1, [(0, 1500.0, [3000e3])], axial_compression=np.array([[800e3]])))
+    a0, a1 = row(base.models, member="G").top_strut_depth_mm, row(more.models, member="G").top_strut_depth_mm
+    assert a1 > a0
+    # the thrust face at the load node is then exactly at its limit: (H z / z + Nc) / (phi 0.85 f'c a bw) = 1
+    face = more.faces[(more.faces.face == "horizontal thrust")].utilization.max()
+    assert face == pytest.approx(1.0, abs=1e-6)
