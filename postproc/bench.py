@@ -179,8 +179,22 @@ def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -
 def compare_with_reference(m: str, got: pd.Series, row: dict, ref_zones: list[dict], winners: set[str],
                            mine: pd.DataFrame) -> None:
     """The engine's members.csv row and zones of one member against the reference's; the
-    governing combination may be any of those that tie for the utilization. The engine's
-    tables may be named in either unit system (the reference's come under the SI names)."""
+    governing combination may be any of those that tie for the utilization. The reference
+    designs sectionally only: a member it flags by 9.9.1.1 must be one the engine flagged
+    too (designed by strut-and-tie, or not designed with its reason); the strut-and-tie
+    design itself is checked against hand calculations in tests/test_deep_beams.py."""
+    if row.get("status") == "deep-beam":
+        method = got.get("method")
+        stm = isinstance(method, str) and method.startswith("strut-and-tie")
+        if not (stm or got["status"] == "deep-beam"):
+            raise AssertionError(f"reference and engine differ for {m}: the reference flags it by 9.9.1.1, the engine "
+                                 f"designed it by {method!r} ({got['status']})")
+        if got["status"] == "deep-beam" and "9.9.1.1" not in str(got["message"]):
+            raise AssertionError(f"engine's deep-beam row of {m} does not say why: {got['message']!r}")
+        return
+    if isinstance(got.get("method"), str) and got["method"] != "sectional":
+        raise AssertionError(f"reference and engine differ for {m}: the engine used {got['method']!r}, the reference "
+                             "designs it sectionally")
     got, mine = got.rename(units.si_name), units.si_keyed(mine)
     for key, value in row.items():
         if key == "member":

@@ -24,6 +24,7 @@ from postproc.store import Run
 # re-exported: engine.MEMBER_COLUMNS, ZONE_COLUMNS, SelfCheckError, STATUSES are part of its interface
 from postproc.pipeline import MEMBER_COLUMNS, ZONE_COLUMNS, BatchInput, SelfCheckError, design_batch, row  # noqa: F401
 from postproc.pipeline import beams as beam_family
+from postproc.pipeline import deep as deep_step
 from postproc.terms import STATUSES  # noqa: F401
 
 FAMILIES = (beam_family,)  # each designs the members of its KINDS; other kinds are not-covered
@@ -49,6 +50,7 @@ class Result:
     stirrups: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=["member", "x_mm"]))  # x_mm | x_in
     joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
     units: units.UnitSystem = units.SI
+    tables: dict[str, pd.DataFrame] = field(default_factory=dict)  # families' own tables (strut-and-tie models)
 
 
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
@@ -71,6 +73,7 @@ class PartResult:
     warnings: list[str]
     members: set[str]  # every member id found in the part's forces
     stirrups: pd.DataFrame  # member, x_mm: every stirrup's position from face i
+    tables: dict[str, pd.DataFrame] = field(default_factory=dict)
 
 
 def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, map_parts=map,
@@ -101,6 +104,7 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
 
     zones: list[dict] = []
     stirrups: list[pd.DataFrame] = []
+    tables: dict[str, list[pd.DataFrame]] = {}
     seen: set[str] = set()
     if stations_dir is not None:
         stations_dir.mkdir(exist_ok=True)
@@ -112,6 +116,8 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
         warnings.extend(part.warnings)
         seen |= part.members
         stirrups.append(part.stirrups)
+        for name, df in part.tables.items():
+            tables.setdefault(name, []).append(df)
         if progress:
             progress(1)
     for m in sorted(seen - set(input_order)):
@@ -128,7 +134,8 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
         ZONE_COLUMNS)), cset, warnings, positions.rename(columns=U.rename(["x_mm"])),
-        joints.rename(columns=U.rename(joints_mod.COLUMNS)), U)
+        joints.rename(columns=U.rename(joints_mod.COLUMNS)), U,
+        {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()})
 
 
 def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
@@ -169,8 +176,13 @@ def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet
         pq.write_table(trace.rename_columns(U.cols(trace.column_names)), Path(stations_dir) / Path(part_path).name)
     positions = pd.concat([o.stirrups for o in outputs], ignore_index=True) if outputs \
         else pd.DataFrame(columns=["member", "x_mm"])
+    tables: dict[str, list[pd.DataFrame]] = {}
+    for o in outputs:
+        for name, df in o.tables.items():
+            tables.setdefault(name, []).append(df)
     return PartResult([r for o in outputs for r in o.rows], [z for o in outputs for z in o.zones],
-                      [w for o in outputs for w in o.warnings], seen, positions)
+                      [w for o in outputs for w in o.warnings], seen, positions,
+                      {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()})
 
 
 def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col, cset, settings: Settings):
@@ -222,6 +234,9 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     pq.write_table(pa.Table.from_pandas(result.joints.astype({result.units.col(c): t for c, t in
                                                               joints_mod.DTYPES.items()}), preserve_index=False),
                    folder / "joints.parquet")
+    for name in deep_step.TABLES:  # the strut-and-tie models' tables, one file each (empty when none)
+        df = result.tables.get(name, pd.DataFrame({"member": pd.Series([], dtype=str)}))
+        pq.write_table(pa.Table.from_pandas(df, preserve_index=False), folder / f"stm_{name}.parquet")
     try:  # every distinct combination with its factors, where they can be listed one by one
         names, factors = result.combos.explicit
     except ValueError:

@@ -76,15 +76,24 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         settings.stations.tolerance)
     steps.append(_point_loads(samples, cases, m, settings.stations, U))
     steps.append(_critical_sections(samples, m, r, settings.stations, U))
+    method = r.get("method") if isinstance(r.get("method"), str) else ""
+    stm_member = method.startswith("strut-and-tie")
     steps.append(Step("Deep beam", "9.9.1.1", [
         f"ln = {ln:,.0f} {mm} {'<=' if ln <= 4 * m.h_mm else '>'} 4h = {4 * m.h_mm:,.0f} {mm}"
-        + ("" if r.status != "deep-beam" else f"; {r.message}")]))
+        + ("" if r.status != "deep-beam" else f"; {r.message}")]
+        + ([f"designed by {method}: the strut-and-tie steps follow"] if stm_member else [])))
     st = _keyed(design_table(run, "stations", member=member)).sort_values(["x_mm", "side"], kind="stable")
     st = st.reset_index(drop=True)
-    k = int(np.argmax(st.vu_max_kN.to_numpy() / st.phi_vn_limit_kN.to_numpy()))
-    steps.append(Step("Section limit", "22.5.1.2", [
-        f"largest Vu / phi(Vc + {u.vs_max:g} sqrt(f'c) bw d) = {st.vu_max_kN[k] / st.phi_vn_limit_kN[k]:.3f} "
-        f"at x = {st.x_mm[k]:,.0f} {mm} (Vu = {_fmt(st.vu_max_kN[k], kN)}, limit {_fmt(st.phi_vn_limit_kN[k], kN)})"]))
+    region = st["stm_region"].fillna(False).to_numpy(bool) if "stm_region" in st else np.zeros(len(st), bool)
+    if stm_member:
+        steps += strut_and_tie_steps(run, member, U)
+    if (~region).any():
+        ratio = np.where(region, -np.inf, st.vu_max_kN.to_numpy() / st.phi_vn_limit_kN.to_numpy())
+        k = int(np.argmax(ratio))
+        steps.append(Step("Section limit", "22.5.1.2", [
+            f"largest Vu / phi(Vc + {u.vs_max:g} sqrt(f'c) bw d) = {ratio[k]:.3f} "
+            f"at x = {st.x_mm[k]:,.0f} {mm} (Vu = {_fmt(st.vu_max_kN[k], kN)}, limit {_fmt(st.phi_vn_limit_kN[k], kN)})"
+            + (" (outside the strut-and-tie regions)" if region.any() else "")]))
     if "frame" in m.index and m.frame in ("ordinary", "intermediate", "special"):
         steps.append(_frame_step(run.members().to_pandas().set_index("member").loc[[member]].reset_index(), m, r, st,
                                  ln, settings, U))
@@ -100,14 +109,21 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         fyt=np.array([m.fyt_mpa]), lam=np.array([m["lambda"]]), fy=np.array([m.fy_mpa]),
         As=np.array([m.as_tension_mm2]), bf=np.array([m.bf_mm]), hf=np.array([m.hf_mm]), u=u)
     for z in zones.itertuples():
-        steps.append(_zone_step(z, st, sec, m, settings, U))
+        inside = region[(st.x_mm >= z.start_mm - 1e-6).to_numpy() & (st.x_mm <= z.end_mm + 1e-6).to_numpy()]
+        if inside.any():
+            steps.append(_region_zone_step(z, st[region], settings, U))
+        else:
+            steps.append(_zone_step(z, st, sec, m, settings, U))
     worst = int(np.nanargmax(st.utilization.to_numpy()))
     man = run.manifest()
     density = (f"steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3" if U.name == "si" else
                f"steel {detailing.STEEL_DENSITY_US * 1728:g} lb/ft^3")
-    steps.append(Step("Self-check", "9.5.1.1, 9.6.3, 9.7.6.2.2", [
-        f"phi*Vn >= Vu at all {len(st)} stations for every combination; every gap between stirrups (and to a face "
-        "or free end) within the spacing the demand allows there; s <= s_max; Av >= Av,min where required",
+    steps.append(Step("Self-check", "9.5.1.1, 9.6.3, 9.7.6.2.2" + (", 9.9.3.1, 9.9.4.3, 23.7.2" if region.any() else ""), [
+        (f"{int(region.sum())} stations inside the strut-and-tie regions: Av/s provided >= what the model needs "
+         "(0.0025 bw and every stirrup tie over its spread), gap <= min(d/5, 300 mm | 12 in); " if region.any() else "")
+        + f"phi*Vn >= Vu at all {int((~region).sum())} {'other ' if region.any() else ''}stations for every "
+        "combination; every gap between stirrups (and to a face or free end) within the spacing the demand allows "
+        "there; s <= s_max; Av >= Av,min where required",
         f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} {mm} ({st.governing_case[worst]})"]))
     steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
         f"{r.stirrups_total} stirrup sets, {r.stirrup_mass_kg:g} {U.mass} ({density})",
@@ -163,6 +179,14 @@ def _point_loads(samples, cases: list[str], m, settings: Stations, U: UnitSystem
 def _governing(r, U: UnitSystem) -> Step:
     if r.governing_case is None or (isinstance(r.governing_case, float) and np.isnan(r.governing_case)):
         return Step("Governing combination", "", ["none"])
+    if not isinstance(r.vc_equation, str):  # a strut-and-tie check governs
+        x = r.x_governing_mm
+        where = f" at x = {_fmt(x, U.length, 0)}" if isinstance(x, (int, float)) and np.isfinite(x) else ""
+        return Step("Governing combination", "", [
+            f"{r.governing_case}{where}: utilization {r.utilization:.3f}, from the strut-and-tie checks or the "
+            "stirrups of the region against the model (see above); Vu = "
+            f"{_fmt(r.vu_kN, U.force)} at most in the model, limit phi 0.83 sqrt(f'c) bw d = "
+            f"{_fmt(r.phi_vn_limit_kN, U.force)} (9.9.2.1)"])
     return Step("Governing combination", "", [
         f"{r.governing_case} at x = {_fmt(r.x_governing_mm, U.length, 0)}: Vu = {_fmt(r.vu_kN, U.force)}, "
         f"Nu = {_fmt(r.nu_kN, U.force)} (compression +), Tu = {_fmt(r.tu_kNm, U.moment, 2)}",
@@ -206,6 +230,11 @@ def _critical_sections(s, m, r, settings: Stations, U: UnitSystem) -> Step:
         else:
             far = m.length_m * U.per_span - m.face_j_mm
             near = [x for x in jx if far - m.d_mm <= x < far]
+        if crit == "face" and isinstance(r.get("method"), str) and r.method.startswith("strut-and-tie") \
+                and (r.method == "strut-and-tie" or _region_at(r.message, end)):
+            lines.append(f"end {end}: in a strut-and-tie region, whose truss takes the frame's shear at the face; "
+                         f"Vu = {_fmt(vu, U.force)} (the largest over the combinations)")
+            continue
         why = []
         if support not in stations.BEARING:
             why.append(f"(a) a {support} support does not put the end region in compression")
@@ -217,6 +246,105 @@ def _critical_sections(s, m, r, settings: Stations, U: UnitSystem) -> Step:
         lines.append(f"end {end}: {rule}; Vu = {_fmt(vu, U.force)}" +
                      (f" - {'; '.join(why)}" if why else " - bearing support, top loading, no concentrated load within d"))
     return Step("Critical sections", "9.4.3.2", lines)
+
+
+def _region_zone_step(z, st, settings: Settings, U: UnitSystem) -> Step:
+    """A zone inside a strut-and-tie region: the model's Av/s against the stirrups provided."""
+    mm, A = U.length, U.area
+    sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
+    what = f"{z.count} x {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} {mm}" if z.count > 1 else "")
+    title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} {mm}, {what}, strut-and-tie region"
+    k = sub.utilization.idxmax()
+    row = st.loc[k]
+    area = settings.detailing.bars[z.bar][1]
+    return Step(title, "9.9.3.1, 9.9.4.3, 23.7.2", [
+        f"Av/s needed {row.av_s_req:.4g} {A}/{mm}: the larger of 0.0025 bw = {row.av_min_s:.4g} (9.9.3.1(a)) and the "
+        "stirrup ties of the truss over their spread (23.7.2)",
+        f"provided {z.bar} ({area:g} {A}) x {z.legs} legs, {row.spacing_mm:g} {mm} apart at x = {row.x_mm:,.0f} {mm}: "
+        f"Av/s = {row.av_s_prov:.4g} {A}/{mm}; s <= min(d/5, 300 mm | 12 in) = {row.s_max_mm:g} {mm} (9.9.4.3)",
+        f"utilization {row.utilization:.3f} (Av/s needed over provided, highest in the zone)"])
+
+
+def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
+    """The strut-and-tie model of a member, walked through: extent and geometry, loads at
+    the nodes, nodes, struts, ties, anchorage, the deep-beam limits and the web bars."""
+    from postproc.pipeline.deep import stored
+    mm, kN, A, MPa = U.length, U.force, U.area, U.stress
+    tables = {}
+    for name in ("models", "members", "nodes", "faces", "struts", "ties"):
+        df = stored(run, name)
+        tables[name] = df[df["member"] == member] if "member" in df else df
+    if not len(tables["models"]):
+        return [Step("Strut-and-tie model", "23", ["this run's design folder holds no strut-and-tie tables"])]
+    models, summary, nodes, faces, struts, ties = (tables[k] for k in ("models", "members", "nodes", "faces",
+                                                                       "struts", "ties"))
+    steps = []
+    if len(summary):
+        steps.append(Step("Strut-and-tie model: what was assumed", "9.9.1.1, 23.2", [
+            s for s in str(summary.assumptions.iloc[0]).split("; ")]))
+    for mdl in models.itertuples():
+        tag = "whole member" if mdl.model == "whole" else f"end region {mdl.model}"
+        mine = lambda df: df[df.model == mdl.model]  # noqa: E731
+        lines = [f"extent x = {mdl.extent_start_mm:,.0f} to {mdl.extent_end_mm:,.0f} {mm} from face i; top strut depth "
+                 f"a = {mdl.top_strut_depth_mm:,.0f} {mm} (the least for the horizontal thrust at the top nodes, "
+                 "not less than the tie's nodal height), lever arm z = d - a/2 = "
+                 f"{mdl.lever_arm_mm:,.0f} {mm}, tie height in the bearing node {mdl.tie_height_mm:,.0f} {mm}",
+                 f"governing: {mdl.governing} ({mdl.governing_clause}), utilization {mdl.utilization:.3f}"
+                 + (f" in {mdl.governing_combination}" if mdl.governing_combination else "")]
+        steps.append(Step(f"Strut-and-tie model, {tag}", "23.2, 23.4, 23.9", lines))
+        nd = mine(nodes)
+        steps.append(Step(f"Nodes, {tag}", "23.9.1, 23.9.2, Table 23.9.2", [
+            f"{n.node} at x = {n.x_mm:,.0f} {mm}, y = {n.y_mm:,.0f} {mm}: {n.node_type}, beta_n = {n.beta_n:g}; governing "
+            f"face {n.governing_face}" + (f" ({n.element})" if n.element else "") +
+            f", utilization {n.utilization:.3f} ({n.combination})" for n in nd.itertuples()]
+            + [f"each face: stress = force / (width x bw) against phi 0.85 beta_n f'c (phi = 0.75, 21.2.1); "
+               f"{len(mine(faces))} faces checked"]))
+        sr = mine(struts)
+        steps.append(Step(f"Struts, {tag}", "23.4.1, 23.4.3, Table 23.4.3, 23.5", [
+            f"{s.element}: {s.angle_deg:.1f} deg, {s.force_kN:,.1f} {kN} ({s.combination}); widths "
+            f"{s.width_1_mm:,.0f} / {s.width_2_mm:,.0f} {mm}; beta_s = {s.beta_s:g}, fce = 0.85 beta_s f'c = "
+            f"{s.fce_MPa:.2f} {MPa}; phi Fns = {s.phi_fns_kN:,.1f} {kN}; utilization {s.utilization:.3f}"
+            for s in sr.itertuples()]
+            + ["angles between struts and ties are at least 25 degrees (23.2.7)"]))
+        tr = mine(ties)
+        lines = []
+        for t in tr.itertuples():
+            if t.kind == "vertical tie":
+                lines.append(f"{t.element}: {t.force_kN:,.1f} {kN} ({t.combination}) over {t.spread_mm:,.0f} {mm}: "
+                             f"Av/s = F / (0.75 fyt spread) = {t.av_s_req:.4g} {A}/{mm} (23.7.2)")
+            else:
+                lines.append(f"{t.element}: {t.force_kN:,.1f} {kN} ({t.combination}): As = F / (0.75 fy) = "
+                             f"{t.as_req_mm2:,.0f} {mm}^2, provided {t.as_prov_mm2:,.0f} {mm}^2; utilization "
+                             f"{t.utilization:.3f} (23.7.2)")
+        steps.append(Step(f"Ties, {tag}", "23.7.2, 23.3.1", lines))
+        anch = []
+        for end in ("i", "j"):
+            how = getattr(mdl, f"anchorage_{end}")
+            if how:
+                anch.append(f"end {end}: {how}; available {getattr(mdl, f'anchorage_available_{end}_mm'):,.0f} {mm} past "
+                            f"the extended nodal zone against ld = {mdl.ld_mm:,.0f} {mm} (Table 25.4.2.3) and ldh = "
+                            f"{mdl.ldh_mm:,.0f} {mm} (25.4.3.1)")
+        steps.append(Step(f"Tie bars and anchorage, {tag}", "23.8.3, 25.4.2.3, 25.4.3.1", [
+            f"{mdl.tie_bars} {mdl.tie_bar} = {mdl.tie_as_prov_mm2:,.0f} {mm}^2 >= {mdl.tie_as_req_mm2:,.0f} {mm}^2; the "
+            "largest bar of the ladder whose anchorage fits at every bearing", *anch]))
+        steps.append(Step(f"Deep-beam section, {tag}", "9.9.2.1", [
+            f"Vu = {mdl.vu_kN:,.1f} {kN} <= phi 0.83 sqrt(f'c) bw d = {mdl.phi_vn_deep_kN:,.1f} {kN}: "
+            f"{mdl.vu_kN / mdl.phi_vn_deep_kN:.3f}"]))
+    if len(summary):
+        s = summary.iloc[0]
+        steps.append(Step("Distributed reinforcement", "9.9.3.1, 9.9.4.3, 23.5", [
+            f"Av/s and Ah/s >= 0.0025 bw = {s.av_s_min:.4g} {A}/{mm} (9.9.3.1(a), (b)), spacing <= min(d/5, "
+            f"300 mm | 12 in) = {s.s_max_mm:g} {mm} (9.9.4.3); with it interior struts take beta_s = {s.beta_s_interior:g} "
+            "(Table 23.4.3, Table 23.5.1)",
+            f"vertical: Av/s needed {s.av_s_req:.4g} {A}/{mm} (the minimum and the stirrup ties): the stirrup zones "
+            "below",
+            f"horizontal web bars: {s.web_text}",
+            f"bottom tie: {s.tie_text}"]))
+    return steps
+
+
+def _region_at(message, end: str) -> bool:
+    return isinstance(message, str) and f"end region {end}" in message
 
 
 def _zone_step(z, st, sec: demand.Section, m, settings: Settings, U: UnitSystem) -> Step:

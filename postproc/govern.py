@@ -73,7 +73,7 @@ def layout_text(zones: pd.DataFrame) -> str:
     parts = []
     for count, bar, legs, s, kind in zip(zones["count"], zones["bar"], zones["legs"], zones[spacing], kinds):
         hoops = "hoops " if kind == "hoop" else ""
-        parts.append("none" if not count else f"{count} {hoops}{bar}x{legs} @{s:g}")
+        parts.append("none" if not count else f"{count} {hoops}{bar}x{legs}" + (f" @{s:g}" if pd.notna(s) else ""))
     return " | ".join(parts)
 
 

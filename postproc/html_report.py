@@ -30,6 +30,7 @@ from markupsafe import Markup
 
 from postproc import units
 from postproc.govern import rank_order, status_place
+from postproc.pipeline import deep as deep_step
 from postproc.report import CAUTION, write_atomic
 from postproc.store import Run
 from postproc.terms import NEEDS_ACTION, STATUSES, did_you_mean
@@ -297,10 +298,11 @@ def _details(data: _Data, codes: list[int]) -> str:
     if not codes:
         return f'<section id="members"><h2>Members</h2>{note}</section>'
     drawn = _Drawings(data, data.stations(codes), codes)
+    trusses = _trusses(data, codes)
     parts = [f'<section id="members"><h2>Members</h2>{note}']
     records = data.m.to_dict("records")
     for k in codes:
-        parts.append(_member_section(records[k], k, drawn))
+        parts.append(_member_section(records[k], k, drawn, trusses.get(k, "")))
     parts.append("</section>")
     return "".join(parts)
 
@@ -405,7 +407,7 @@ def _fmt(v, spec: str = ".1f", unit: str = "") -> str:
     return f"{v:{spec}}{unit}" if _given(v) else "n/a"
 
 
-def _member_section(r: dict, k: int, d: _Drawings) -> str:
+def _member_section(r: dict, k: int, d: _Drawings, truss: str = "") -> str:
     U = d.U
     mm, kN = U.length, f" {U.force}"
     name = _text(r["member"])
@@ -432,11 +434,16 @@ def _member_section(r: dict, k: int, d: _Drawings) -> str:
                      f"j {_fmt(r['vu_design_j_kN'], '.1f', kN)}{crit('crit_j')} (9.4.3.2)")
     if r["status"] == "designed":
         facts.append(f"{int(r['stirrups_total']):,} stirrup sets, {_fmt(r['stirrup_mass_kg'], '.1f', ' ' + U.mass)}")
+    if _given(r.get("method")) and str(r["method"]).startswith("strut-and-tie"):
+        facts.append(f"designed by {_text(r['method'])} &middot; bottom tie {_text(r['tie_bars'])}, "
+                     f"As,req {_fmt(r['tie_as_req_mm2'], ',.0f' if U.name == 'si' else ',.2f', ' ' + U.area)} &middot; "
+                     f"web bars {_text(r['web_bars'])}")
     msg = f'<p class="msg">{_text(r["message"])}</p>' if _given(r["message"]) else ""
     svg = _member_svg(r, k, d) if d.has_st[k] else ""
     lines = "".join(f'<p class="facts">{p}</p>' for p in facts)
     return (f'<section class="member" id="{r["anchor"]}"><h3>{name} {_status(r["status"])} '
-            f'<a class="meta" href="#index" title="back to the index">&uarr; index</a></h3>{lines}{msg}{svg}</section>')
+            f'<a class="meta" href="#index" title="back to the index">&uarr; index</a></h3>{lines}{msg}{svg}{truss}'
+            "</section>")
 
 
 LEGEND = (("env", "Vu envelope (all combinations)"), ("cap", "\u03c6Vn provided"), ("vc", "\u03c6Vc"),
@@ -549,6 +556,102 @@ def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list, mm:
         texts.append(f'<tspan x="{_g(cx)}" y="{_g(dim_y + 15 + 14 * row)}">{_text(text)}</tspan>')
     p.append(f'<text text-anchor="middle">{"".join(texts)}</text>')
     return "".join(p), round(dim_y + 15 + 14 * max(len(rows_end) - 1, 0) + 10)
+
+
+# ----------------------------------------------------------------------------- strut-and-tie models
+
+TRUSS_TOP = 46  # room for the title, the legend and the top labels above the member
+TRUSS_H_MIN, TRUSS_H_MAX = 90.0, 240.0  # drawn depth of the member, px
+
+
+def _trusses(data: _Data, codes: list[int]) -> dict[int, str]:
+    """The truss of every member designed by strut-and-tie, over its elevation (SVG per code)."""
+    wanted = set(data.m["member"].iloc[codes])
+    struts, ties, nodes = (deep_step.stored(data.run, name) for name in ("struts", "ties", "nodes"))
+    if "member" not in struts or not len(struts):
+        return {}
+    out = {}
+    records = data.m.to_dict("records")
+    by = lambda df: {m: g for m, g in df[df["member"].isin(wanted)].groupby("member")}  # noqa: E731
+    s_by, t_by, n_by = by(struts), by(ties), by(nodes)
+    for name, s in s_by.items():
+        k = data.code[name]
+        out[k] = _truss_svg(records[k], s, t_by.get(name, ties.iloc[:0]), n_by.get(name, nodes.iloc[:0]))
+    return out
+
+
+def _band_of(u) -> np.ndarray:
+    """Band of an element's utilization (as utilization_band; > 1.0 beyond rounding)."""
+    u = np.asarray(u, float)
+    return np.where(u > BANDS[-1] + 1e-9, 4, np.searchsorted(np.asarray(BANDS), np.minimum(u, BANDS[-1])))
+
+
+def _truss_svg(r: dict, struts: pd.DataFrame, ties: pd.DataFrame, nodes: pd.DataFrame) -> str:
+    """The member's elevation over the models' extent (bearings and the start of any sectional
+    part) with the truss drawn over it: struts as solid lines, ties as open lines, nodes as
+    squares, each in the line weight of its utilization band (as in the overview) with its
+    utilization written beside it."""
+    cs, h = float(r["clear_mm"]), float(r["h_mm"])
+    xs = np.r_[struts[["x1_mm", "x2_mm"]].to_numpy().ravel(), ties[["x1_mm", "x2_mm"]].to_numpy().ravel(),
+               nodes["x_mm"].to_numpy()]
+    bear = nodes[nodes["node"].isin(["R_i", "R_j"])]
+    ends = {n: float(x) for n, x in zip(bear["node"], bear["x_mm"])}  # bearing centroids
+    lo = min(float(np.nanmin(xs)), 2 * ends["R_i"] if "R_i" in ends else np.inf)
+    hi = max(float(np.nanmax(xs)), 2 * ends["R_j"] - cs if "R_j" in ends else -np.inf)
+    pad = 0.06 * (hi - lo)
+    lo, hi = lo - (pad if "R_i" not in ends else 0.0), hi + (pad if "R_j" not in ends else 0.0)
+    sx = PW / max(hi - lo, 1.0)
+    hpx = float(np.clip(h * sx, TRUSS_H_MIN, TRUSS_H_MAX))
+    sy = hpx / h
+    X = lambda v: LEFT + (np.asarray(v, float) - lo) * sx  # noqa: E731
+    Y = lambda v: TRUSS_TOP + 16 + hpx - np.asarray(v, float) * sy  # noqa: E731
+    top, bot = float(Y(h)), float(Y(0.0))
+    scale = "to scale" if abs(hpx - h * sx) < 1e-9 else "depth not to scale"
+    p = [f'<text class="ttl" x="{LEFT}" y="16">strut-and-tie model, utilization of each element ({scale}; x from the '
+         "face of support i)</text>",
+         f'<text x="{LEFT}" y="31">struts solid, ties open, nodes square; line weight and dashes by utilization band, '
+         "as in the overview</text>",
+         f'<rect class="beam" x="{LEFT}" y="{_g(top)}" width="{_g(PW)}" height="{_g(bot - top)}"/>']
+    for node, x0, x1 in (("R_i", lo, 0.0), ("R_j", cs, hi)):
+        if node in ends:
+            p.append(f'<rect class="sup" x="{_g(float(X(x0)))}" y="{_g(bot)}" width="{_g((x1 - x0) * sx)}" '
+                     'height="10"/>')
+    for edge, x in (("i", lo), ("j", hi)):  # the member goes on: the sectional part
+        if f"R_{edge}" not in ends:
+            xe = float(X(x))
+            p.append(f'<path class="dim" d="M{xe:.1f},{top - 4:.1f}V{bot + 4:.1f}"/>')
+            anchor = "start" if edge == "i" else "end"
+            p.append(f'<text x="{xe + (4 if edge == "i" else -4):.1f}" y="{bot + 16:.1f}" text-anchor="{anchor}">'
+                     "sectional part</text>")
+    labels = []
+    for df, is_tie in ((struts, False), (ties, True)):
+        if not len(df):
+            continue
+        band = _band_of(df["utilization"].to_numpy(float))
+        x1, y1, x2, y2 = (X(df["x1_mm"]), Y(df["y1_mm"]), X(df["x2_mm"]), Y(df["y2_mm"]))
+        for a, b, c, d, bd, u, el in zip(x1, y1, x2, y2, band, df["utilization"], df["element"]):
+            tip = _text(f"{el}: utilization {u:.3f}")
+            line = f"M{a:.1f},{b:.1f}L{c:.1f},{d:.1f}"
+            p.append(f'<path class="u{bd}{" tie" if is_tie else ""}" d="{line}"><title>{tip}</title></path>')
+            if is_tie:
+                p.append(f'<path class="tiec" d="{line}"/>')
+            mx, my = (a + c) / 2, (b + d) / 2
+            if abs(d - b) < 1:  # a chord: above the top one, below the bottom one
+                labels.append((mx, my - 7 if my < (top + bot) / 2 else my + 13, f"{u:.2f}", "middle"))
+            else:
+                labels.append((mx + 5, my, f"{u:.2f}", "start"))
+    if len(nodes):
+        band = _band_of(nodes["utilization"].to_numpy(float))
+        for x, y, bd, u, nm in zip(X(nodes["x_mm"]), Y(nodes["y_mm"]), band, nodes["utilization"], nodes["node"]):
+            p.append(f'<rect class="node f{bd}" x="{x - 4:.1f}" y="{y - 4:.1f}" width="8" height="8">'
+                     f'<title>{_text(f"node {nm}: utilization {u:.3f}")}</title></rect>')
+            labels.append((x, y - 20 if y < (top + bot) / 2 else y + 27, f"{nm} {u:.2f}", "middle"))
+    for x, y, t, anchor in labels:
+        p.append(f'<text class="utl" x="{x:.1f}" y="{y + 3:.1f}" text-anchor="{anchor}">{_text(t)}</text>')
+    height = bot + 34
+    label = _text(f"strut-and-tie model of member {r['member']}")
+    return (f'<svg class="mem truss" viewBox="0 0 {W} {height:.0f}" width="{W}" height="{height:.0f}" role="img" '
+            f'aria-label="{label}">{"".join(p)}</svg>')
 
 
 # ----------------------------------------------------------------------------- overview

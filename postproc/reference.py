@@ -8,7 +8,11 @@ functions as the engine's (called on scalars) and the stirrup set-out is the sam
 per-member routine. Its purposes are to check the vectorised engine -- its exact
 envelope of combinations above all -- on a sample of members, and to measure what
 vectorisation buys. It works in the run's unit system (``settings.units``) with that
-edition's provisions, as the engine does.
+edition's provisions, as the engine does. It designs sectionally only: a member it flags
+by 9.9.1.1 comes back ``deep-beam``; the engine designs those by strut-and-tie
+(postproc.pipeline.deep), and ``bench.compare_with_reference`` then checks only that the
+engine flagged the same member (tests/test_deep_beams.py checks the strut-and-tie design
+by hand).
 """
 
 from __future__ import annotations

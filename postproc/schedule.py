@@ -1,7 +1,9 @@
 """Beam marks and the bar schedule a detailer builds from.
 
 Members with the same section, materials and stirrup layout share a mark, so each
-mark is drawn once. With ``envelope`` the members of one group label that share
+mark is drawn once. Members designed by strut-and-tie also list their bottom-tie bars and
+horizontal web bars (``strut_and_tie_bars``), and share a mark only with members whose
+tie and web bars are the same. With ``envelope`` the members of one group label that share
 section, materials and clear span take the most demanding layout among them that
 satisfies every one of them at every station (checked against each member's stored
 demand); where none does, they keep their own layouts. Mark numbers carry over from
@@ -22,10 +24,12 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from postproc import detailing
+from postproc import detailing, units
 from postproc.codes.aci318_19 import edition
 from postproc.govern import design_table, layout_text
-from postproc.settings import Detailing
+from postproc.pipeline.deep import bearing_lengths, stored
+from postproc.settings import Detailing, settings_from_dict
+from postproc.stm import tie_bars
 from postproc.store import DamagedRun, Run, Store
 
 SECTION_KEYS = ["b_mm", "h_mm", "d_mm", "bf_mm", "hf_mm", "fc_mpa", "fyt_mpa"]  # SI names (units.col for the run's)
@@ -57,13 +61,77 @@ class Schedule:
         return paths
 
 
-def _signature(section: pd.Series, zones: pd.DataFrame, col, nd: int = 1) -> str:
+def _signature(section: pd.Series, zones: pd.DataFrame, col, nd: int = 1, bars: str = "") -> str:
     sec = [None if pd.isna(section[col(k)]) else round(float(section[col(k)]), nd) for k in SECTION_KEYS]
     lay = [[None if pd.isna(v) else (round(float(v), nd) if isinstance(v, (int, float, np.number)) else v)
             for v in row] for row in zones[[col(k) for k in ZONE_KEYS]].itertuples(index=False)]
     kinds = zones["kind"].tolist() if "kind" in zones else []
     lay = [row + ["hoop"] if k == "hoop" else row for row, k in zip(lay, kinds)] if kinds else lay  # hoops differ
-    return json.dumps([sec, lay])
+    return json.dumps([sec, lay, bars] if bars else [sec, lay])
+
+
+def _longitudinal_bar(member, mark, level, shape: str, bar: str, length: float, hooks: int, count: int, u) -> dict:
+    """A straight bar of out-to-out length ``length`` (mm or in) with ``hooks`` standard 90-degree
+    hooks: tail 12 db, inside bend diameter 6 db to #25 | #8 and 8 db for #29 to #36 | #9 to #11
+    (Table 25.3.1, from memory); cut length on the centreline."""
+    db, area = tie_bars(u)[bar]
+    D = 6.0 * db if db <= (25.4 if u.units == "si" else 1.0) + 1e-9 else 8.0 * db
+    r = D / 2 + db / 2
+    tail = 12.0 * db
+    cut = length - hooks * (r + db / 2) + hooks * (np.pi * r / 2 + tail)
+    unit = cut * area * detailing.steel_density(u)
+    dims, cut_nd = (1, 0) if u.units == "si" else (2, 1)  # as the stirrups' rows
+    return {"member": member, "mark": mark, "level": level, "shape": shape, "bar": bar, "A_mm": round(length, dims),
+            "B_mm": round(tail + r + db / 2, dims) if hooks else 0.0, "hook_mm": round(tail, dims) if hooks else 0.0,
+            "bend_diameter_mm": round(D, dims) if hooks else 0.0, "cut_length_mm": round(cut, cut_nd),
+            "count": int(count), "unit_mass_kg": round(unit, 3), "mass_kg": round(unit * count, 2)}
+
+
+def strut_and_tie_bars(run: Run, members: list[str], marks: dict[str, str]) -> list[dict]:
+    """Bar rows of the bottom ties and horizontal web bars of members designed by strut-and-tie.
+
+    The tie bars run from the end cover at each bearing the model uses (the member ends at the
+    support's far face) with the hooks the anchorage check chose; an end region's bars run on
+    past the region's boundary by ld (Table 25.4.2.3, the tie force there being developed in
+    the sectional part), not beyond the far end. The web bars, one on each face per layer,
+    run the same length straight; their layers fill the depth between the tie and the top
+    bars (taken at the same distance from the top) at the spacing found (9.9.4.3). Not
+    scheduled: the top bars over the supports and any anchorage of the web bars into the
+    supports (the flexural design's)."""
+    if not members:
+        return []
+    models, summary = stored(run, "models"), stored(run, "members")
+    if "member" not in models or not len(models):
+        return []
+    U = run.units
+    u = edition(U.name)
+    inputs = units.si_keyed(run.members().to_pandas()).set_index("member")  # values in the run's units
+    cfg = settings_from_dict(run.manifest().get("settings", {}))
+    deep = cfg.deep
+    rows = []
+    for m in members:
+        mine, s = models[models.member == m], summary[summary.member == m]
+        if not len(mine) or not len(s):
+            continue
+        g, s = inputs.loc[m], s.iloc[0]
+        ln = g.length_m * U.per_span - g.face_i_mm - g.face_j_mm
+        _, ext_i = bearing_lengths(g.face_i_mm, g.h_mm, cfg)
+        _, ext_j = bearing_lengths(g.face_j_mm, g.h_mm, cfg)
+        lo, hi = -float(ext_i) + deep.end_cover, ln + float(ext_j) - deep.end_cover
+        for t in mine.itertuples():
+            if t.model == "whole":
+                a, b, hooks = lo, hi, int(t.anchorage_i == "standard hook") + int(t.anchorage_j == "standard hook")
+            elif t.model == "i":
+                a, b, hooks = lo, min(t.extent_end_mm + t.ld_mm, hi), int(t.anchorage_i == "standard hook")
+            else:
+                a, b, hooks = max(t.extent_start_mm - t.ld_mm, lo), hi, int(t.anchorage_j == "standard hook")
+            where = "" if t.model == "whole" else f", end region {t.model}"
+            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"bottom tie{where}", t.tie_bar, b - a, hooks,
+                                          t.tie_bars, u))
+            layers = max(int(np.ceil((2 * g.d_mm - g.h_mm) / s.web_bar_spacing_mm)) - 1, 1)
+            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"web bars{where}", s.web_bar, b - a, 0,
+                                          layers * int(s.web_bars_per_layer), u))
+    return rows
 
 
 def _satisfies(zones: pd.DataFrame, positions: np.ndarray, st: pd.DataFrame, clear_span: float, settings: Detailing,
@@ -90,6 +158,9 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
     U = run.units
     u, col, nd = edition(U.name), U.col, settings.position_decimals
     res = design_table(run, "members").set_index("member")
+    method = res["method"] if "method" in res else pd.Series("", index=res.index)
+    stm_bars = {m: f"{res.tie_bars[m]} | {res.web_bars[m]}" for m in res.index
+                if isinstance(method[m], str) and method[m].startswith("strut-and-tie")}
     zones = design_table(run, "zones")
     inputs = run.members().to_pandas().set_index("member")
     designed = res.index[res.status == "designed"]
@@ -105,8 +176,8 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         torsion = set(st.member[st.torsion])
         clear = inputs[col("length_m")] * U.per_span - inputs[col("face_i_mm")] - inputs[col("face_j_mm")]
         span = clear.round(0)
-        info = inputs.loc[designed].assign(span=span.loc[designed])
-        by = ["group", *U.cols(SECTION_KEYS), "span"] + (["frame"] if "frame" in info else [])  # hoops only with hoops
+        info = inputs.loc[designed].assign(span=span.loc[designed], bars=[stm_bars.get(m, "") for m in designed])
+        by = ["group", *U.cols(SECTION_KEYS), "span", "bars"] + (["frame"] if "frame" in info else [])  # hoops only with hoops
         for _, grp in info.groupby(by, dropna=False):
             names = list(grp.index)
             if len(names) < 2:
@@ -121,7 +192,7 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
                     break
 
     prev = {} if previous is None else dict(zip(previous.marks.signature, previous.marks.mark))
-    sig_of = {m: _signature(inputs.loc[m], zmap[layout_of[m]], col, nd) for m in designed}
+    sig_of = {m: _signature(inputs.loc[m], zmap[layout_of[m]], col, nd, stm_bars.get(m, "")) for m in designed}
     groups: dict[str, list[str]] = {}
     for m in designed:
         groups.setdefault(sig_of[m], []).append(m)
@@ -144,7 +215,8 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         mark_rows.append({"mark": mark_of_sig[sig], "members": " ".join(names), "member_count": len(names),
                           "b_mm": sec[col("b_mm")], "h_mm": sec[col("h_mm")], "fc_mpa": sec[col("fc_mpa")],
                           "fyt_mpa": sec[col("fyt_mpa")], "layout": layout_text(z),
-                          "sets_per_member": int(z["count"].sum()), "signature": sig})
+                          "sets_per_member": int(z["count"].sum()), "signature": sig,
+                          "tie_and_web_bars": stm_bars.get(first, "")})
     marks = pd.DataFrame(mark_rows).sort_values("mark").reset_index(drop=True)
     stations_torsion = _torsion_members(run) if settings.stirrup_shape == "open" else set()
     for m in sorted(designed):
@@ -180,6 +252,8 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
                              "hook_mm": round(shape.hook, dims), "bend_diameter_mm": round(shape.bend_diameter, dims),
                              "cut_length_mm": round(shape.cut_length, cut_nd), "count": count,
                              "unit_mass_kg": round(unit, 3), "mass_kg": round(unit * count, 2)})
+    mark_of = {m: mark_of_sig[sig_of[m]] for m in designed}
+    bar_rows += strut_and_tie_bars(run, sorted(m for m in designed if m in stm_bars), mark_of)
     bars = pd.DataFrame(bar_rows, columns=["member", "mark", "level", "shape", "bar", "A_mm", "B_mm", "hook_mm",
                                            "bend_diameter_mm", "cut_length_mm", "count", "unit_mass_kg", "mass_kg"])
     per_mark = bars.groupby("mark").mass_kg.sum()

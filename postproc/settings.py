@@ -28,6 +28,15 @@
     [input]                         # the input tables
     fill = { N_kN = 0.0 }           # value of the missing cells of these optional columns (our units);
                                     # without it a missing cell is an input error
+    [deep]                          # deep beams and D-regions (9.9.1.1) designed by strut-and-tie (Ch. 23)
+    bearing_mm = 0                  # bearing length along the member at a column or wall; 0: twice the
+                                    #   face offset (the node on the support's centreline)
+    bearing_max_h = 1.0             # a longer bearing is taken as this many h next to the face
+    load_width_mm = 300             # loaded length of a concentrated load (the width of a column on it)
+    frame_shear_tolerance = 0.05    # a whole-member model is refused where the frame's face shear exceeds
+                                    #   its simple-span reaction by more than this fraction
+    compression_limit = 0.10        # axial compression up to this x f'c Ag is carried by the top chord
+    end_cover_mm = 50               # member end to the end of the tie bars
 
     [ifc]                           # members read from an IFC model
     fc_mpa = 35                     # where the model gives no f'c
@@ -50,7 +59,8 @@ In an inch-pound run (``units = "us"``) the settings carry inch-pound names and 
 ``steep_slope_kip_per_ft = 137``; ladder of #3, #4, #5 bars, ``spacing_module_in = 1``,
 ``min_spacing_in = 3``, ``first_stirrup_in = 2``, ``clear_cover_in = 1.5``; ``fc_psi =
 5000``, ``fyt_psi = 60000``, ``cover_in = 2.5``, ``tolerance_in = 2``,
-``length_tolerance_in = 0.75``; ``joint_tolerance_in = 2``). A setting may be spelt in
+``length_tolerance_in = 0.75``; ``joint_tolerance_in = 2``; ``bearing_in = 0``,
+``load_width_in = 12``, ``end_cover_in = 2``). A setting may be spelt in
 either system (``min_spacing_mm = 75`` in an inch-pound run is 2.95 in); giving both
 spellings of one is an error.
 
@@ -256,6 +266,50 @@ class DetailingUS:
 
 
 @dataclass(frozen=True)
+class Deep:
+    bearing_mm: float = 0.0  # bearing length at a column or wall; 0: twice the face offset
+    bearing_max_h: float = 1.0
+    load_width_mm: float = 300.0
+    frame_shear_tolerance: float = 0.05
+    compression_limit: float = 0.10
+    end_cover_mm: float = 50.0
+
+    @property
+    def bearing(self) -> float:
+        return self.bearing_mm
+
+    @property
+    def load_width(self) -> float:
+        return self.load_width_mm
+
+    @property
+    def end_cover(self) -> float:
+        return self.end_cover_mm
+
+
+@dataclass(frozen=True)
+class DeepUS:
+    bearing_in: float = 0.0
+    bearing_max_h: float = 1.0
+    load_width_in: float = 12.0  # the SI 300 mm, rounded (common practice)
+    frame_shear_tolerance: float = 0.05
+    compression_limit: float = 0.10
+    end_cover_in: float = 2.0  # the SI 50 mm, rounded (common practice)
+
+    @property
+    def bearing(self) -> float:
+        return self.bearing_in
+
+    @property
+    def load_width(self) -> float:
+        return self.load_width_in
+
+    @property
+    def end_cover(self) -> float:
+        return self.end_cover_in
+
+
+@dataclass(frozen=True)
 class Ifc:
     fc_mpa: float = 35.0  # where the model gives no f'c (a warning per member)
     fyt_mpa: float = 420.0
@@ -319,9 +373,9 @@ class Input:
 
 SECTIONS = {
     "si": {"combinations": Combinations, "stations": Stations, "detailing": Detailing, "ifc": Ifc, "frames": Frames,
-           "input": Input},
+           "input": Input, "deep": Deep},
     "us": {"combinations": Combinations, "stations": StationsUS, "detailing": DetailingUS, "ifc": IfcUS,
-           "frames": FramesUS, "input": Input},
+           "frames": FramesUS, "input": Input, "deep": DeepUS},
 }
 
 
@@ -334,6 +388,7 @@ class Settings:
     frames: Frames | FramesUS = field(default_factory=Frames)
     input: Input = field(default_factory=Input)
     units: str = "si"  # the run's unit system: "si" or "us" (postproc.units)
+    deep: Deep | DeepUS = field(default_factory=Deep)
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -427,6 +482,8 @@ def validated_settings(doc: dict, path: Path, units: str | None = None) -> Setti
         raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
     if s.frames.omega_o <= 0:
         raise InputError(path, "[frames].omega_o must be greater than zero")
+    if s.deep.load_width <= 0 or s.deep.bearing_max_h <= 0:
+        raise InputError(path, f"[deep] needs {col('load_width_mm')} > 0 and bearing_max_h > 0")
     return s
 
 
@@ -492,4 +549,5 @@ def settings_from_dict(doc: dict) -> Settings:
     return Settings(combinations=kinds["combinations"](**doc.get("combinations", {})),
                     stations=kinds["stations"](**doc.get("stations", {})), detailing=kinds["detailing"](**d),
                     ifc=kinds["ifc"](**doc.get("ifc", {})), frames=kinds["frames"](**doc.get("frames", {})),
+                    deep=kinds["deep"](**doc.get("deep", {})),
                     input=Input(**doc.get("input", {})), units=system)

@@ -33,7 +33,13 @@ LABELS = {
     "utilization_change": "utilization change",
     "vu_change_rel": "Vu change (relative)",
     "stirrup_mass_change_kg": "stirrup mass change kg",
+    "method": "method",
+    "tie_as_req_mm2": "tie As,req mm^2",
+    "tie_bars": "tie bars",
+    "web_bars": "web bars",
 }
+# members.csv `method`: what designed a member (empty where nothing did)
+METHODS = ("sectional", "strut-and-tie", "strut-and-tie+sectional")
 MOMENT_UNIT = "kN*m"  # how moments are written in text (the column suffix is _kNm; kip*ft and _kipft inch-pound)
 # the words of a label in an inch-pound run (columns named by postproc.units)
 _US_WORDS = {"kN*m": "kip*ft", "kN": "kip", "kg": "lb", "mass": "weight", "mm": "in", "MPa": "psi"}

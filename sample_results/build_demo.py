@@ -6,7 +6,9 @@ are L1..L5 and the roof R. Plan grid 1-5 along X (spans 7.2, 8.4, 8.4, 6.0 m) an
 A-D along Y (6.6, 9.0, 6.6 m), girders on every grid line, one secondary beam per X bay
 at mid-bay of the 9.0 m bay B-C, a 2.4 m balcony cantilever at column A3 on every office
 level. Column B4 stops at L1 to clear the car-park aisle; a transfer girder on line B
-(from 3 to 5) carries it.
+carries it from column B3 to a car-park column 4a, 1.8 m past B4 (x = 25.8 m), so that
+B4 stands within 2h of a bearing face: a D-region (ACI 318-19 9.9.1.1(b)); a girder runs
+on from 4a to B5.
 
 Loads: D is the self weight (beams below the slab only) plus slab and finishes, L the
 office live load, Lr the roof live load; slabs act one way across the short side of each
@@ -47,7 +49,10 @@ LEVELS = tuple(FLOORS)[1:]  # framed levels
 OFFICE = LEVELS[:-1]
 SECONDARY_Y = 11.1  # mid-bay of B-C
 CUT_OFF = "B4"  # column carried by the transfer girder at L1
-TRANSFER = ("L1", "B", "3", "5")  # level, line, from, to
+TRANSFER = ("L1", "B", "3", "4a")  # level, line, from, to
+# The car-park column (800 mm square) under the transfer line that carries the transfer girder's far
+# end: B4 stands 25.8 - 0.4 - 24.0 = 1.4 m from its face, within 2h = 2.4 m (a strut-and-tie end region).
+TRANSFER_POST = ("4a", 25.8)
 BALCONY = "A3"  # edge column with a cantilever on each office level, projecting to -Y
 BALCONY_LENGTH = 2.4
 BALCONY_WIDTH = 3.0  # slab width carried by the cantilever, m
@@ -57,7 +62,8 @@ PLANT_POSTS = (("R-GX-B23", 0.70, 120.0, 15.0), ("R-GX-B34", 2.45, 120.0, 15.0))
 
 # Sections b x h (m) per group, cover to the tension-steel centroid (mm), f'c (MPa).
 SECTIONS = {"column": (0.5, 0.5), "girder-x": (0.4, 0.7), "girder-y": (0.4, 0.7),
-            "secondary": (0.3, 0.6), "cantilever": (0.3, 0.5), "transfer": (0.6, 1.1)}
+            "secondary": (0.3, 0.6), "cantilever": (0.3, 0.5), "transfer": (0.8, 1.2), "post": (0.8, 0.8)}
+COLUMN_GROUPS = ("column", "post")  # "post": the car-park column that carries the transfer girder
 COVER_MM = {"transfer": 90.0}  # two layers of bars; 60 elsewhere
 FC_MPA = {"beam": 35.0, "column": 40.0}
 FY_MPA = 420.0
@@ -96,7 +102,7 @@ class Building:
             E = 4700 * math.sqrt(fc) * 1e3  # ACI 318-19 19.2.2.1(b), kPa
             self.model.add_material(kind, E, E / 2.4, 0.2, UNIT_WEIGHT)
         for group, (b, h) in SECTIONS.items():
-            f = CRACKED["column" if group == "column" else "beam"]
+            f = CRACKED["column" if group in COLUMN_GROUPS else "beam"]
             short, long = min(b, h), max(b, h)
             J = short**3 * long * (1 / 3 - 0.21 * short / long * (1 - short**4 / (12 * long**4)))
             self.model.add_section(group, b * h, f * h * b**3 / 12, f * b * h**3 / 12, f * J)
@@ -109,7 +115,7 @@ class Building:
 
     def add(self, name: str, i: str, j: str, group: str, level: str, ends) -> None:
         """Add a member and its members.csv row; ends = ((support, face_mm), (support, face_mm))."""
-        kind = "column" if group == "column" else "beam"
+        kind = "column" if group in COLUMN_GROUPS else "beam"
         b, h = SECTIONS[group]
         self.model.add_member(name, i, j, kind, group)
         (si, fi), (sj, fj) = ends
@@ -129,7 +135,8 @@ class Building:
         """Support and node-to-face distance (mm) of a beam end at (x, z): a column below the
         node, else the girder running across the beam through that node."""
         if grid and self.column_below(level, grid):
-            return "column", SECTIONS["column"][0] * 500
+            below = tuple(FLOORS)[tuple(FLOORS).index(level) - 1]
+            return "column", self.rows[f"{below}-C-{grid}"]["b_mm"] / 2
         across, coord, pos = ("y", x, z) if axis == "x" else ("x", z, x)
         for _, start, end, b in self.lines.get((level, across, coord), []):
             if start < pos < end:
@@ -158,15 +165,11 @@ def build_frame(bld: Building) -> None:
                     (("column", 0.0), ("column", 0.0)))
             if lo == "P1":
                 bld.model.def_support(f"P1-{grid}", True, True, True, True, True, True)  # fixed base
+    _transfer_post(bld)
     xs, ys = list(X_LINES.items()), list(Y_LINES.items())
-    t_level, t_line, t_from, t_to = TRANSFER
     for level in LEVELS:
         for y_name, z in ys:  # X girders first: beams along Y may frame into them
-            spans = list(zip(xs, xs[1:]))
-            if level == t_level and y_name == t_line:
-                a, b = [k for k, (x_name, _) in enumerate(xs) if x_name in (t_from, t_to)]
-                spans = spans[:a] + [(xs[a], xs[b])] + spans[b:]
-            for (na, xa), (nb, xb) in spans:
+            for (na, xa), (nb, xb) in _line_spans(level, y_name, xs):
                 group, tag = ("transfer", "TG") if (level, y_name, na, nb) == TRANSFER else ("girder-x", "GX")
                 gi, gj = y_name + na, y_name + nb
                 bld.beam(f"{level}-{tag}-{y_name}{na}{nb}", level, group, "x", z, (gi, xa, gi), (gj, xb, gj))
@@ -183,6 +186,41 @@ def build_frame(bld: Building) -> None:
                     bld.node(level, "T" + BALCONY, x, z - BALCONY_LENGTH), "cantilever", level,
                     (("column", SECTIONS["column"][0] * 500), ("free", 0.0)))
     _flanges(bld)
+    _transfer_releases(bld)
+
+
+def _transfer_post(bld: Building) -> None:
+    """The car-park column that carries the transfer girder's far end (fixed base)."""
+    level, line = TRANSFER[0], TRANSFER[1]
+    label, x = TRANSFER_POST
+    grid = line + label
+    below = tuple(FLOORS)[tuple(FLOORS).index(level) - 1]
+    bld.add(f"{below}-C-{grid}", bld.node(below, grid, x, Y_LINES[line]), bld.node(level, grid, x, Y_LINES[line]),
+            "post", below, (("column", 0.0), ("column", 0.0)))
+    bld.model.def_support(f"{below}-{grid}", True, True, True, True, True, True)
+
+
+def _transfer_releases(bld: Building) -> None:
+    """The cut-off column's base and the girders framing into the transfer girder at it are
+    pinned (bending released), so that the transfer girder carries no compatibility torsion
+    (a common detailing choice for transfer girders)."""
+    level = TRANSFER[0]
+    node = f"{level}-{CUT_OFF}"
+    for name, row in bld.rows.items():
+        m = bld.model.members[name]
+        if row["kind"] == "column" and m.i_node.name == node:
+            bld.model.def_releases(name, Ryi=True, Rzi=True)
+        elif row["kind"] == "beam" and row["group"] != "transfer" and node in (m.i_node.name, m.j_node.name):
+            bld.model.def_releases(name, **{"Rzi" if m.i_node.name == node else "Rzj": True})
+
+
+def _line_spans(level: str, y_name: str, xs: list) -> list:
+    """The X spans of a grid line at a level: grid to grid, except on the transfer line, which
+    passes over the cut-off column to the car-park column 4a and then runs on to the next grid."""
+    points = list(xs)
+    if (level, y_name) == TRANSFER[:2]:
+        points = sorted([p for p in xs if y_name + p[0] != CUT_OFF] + [TRANSFER_POST], key=lambda p: p[1])
+    return list(zip(points, points[1:]))
 
 
 def column_faces(bld: Building) -> None:
@@ -262,12 +300,13 @@ def apply_loads(bld: Building) -> None:
 
 
 def _line_load(bld: Building, level, axis, coord, a0, a1, w, case) -> None:
-    """Uniform load w over [a0, a1] of the beam line at coord (on the beam that holds it)."""
-    name, start = next((n, s) for n, s, e, _ in bld.lines[(level, axis, coord)]
-                       if s <= a0 + 1e-9 and a1 <= e + 1e-9)
-    bld.model.add_member_dist_load(name, "FY", -w, -w, a0 - start, a1 - start, case)
-    if case == "D":
-        bld.weight[level] += w * (a1 - a0)
+    """Uniform load w over [a0, a1] of the beam line at coord (on the beams that hold it)."""
+    for name, start, end, _ in bld.lines[(level, axis, coord)]:
+        lo, hi = max(a0, start), min(a1, end)
+        if hi > lo + 1e-9:
+            bld.model.add_member_dist_load(name, "FY", -w, -w, lo - start, hi - start, case)
+            if case == "D":
+                bld.weight[level] += w * (hi - lo)
 
 
 def _lateral(bld: Building) -> None:

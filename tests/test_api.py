@@ -54,7 +54,8 @@ def test_stations_and_store_views(both):
     stored = store.run()
     pd.testing.assert_frame_equal(stored.members.reset_index(drop=True), result.members.reset_index(drop=True))
     ranked = store.governing(top=3)
-    assert ranked.status.iloc[0] == "deep-beam"  # needs action: first
+    assert ranked.status.iloc[0] in ("designed", "resize")  # nothing needs action in the demo: by utilization
+    assert list(ranked.utilization) == sorted(ranked.utilization, reverse=True)
     diff = store.compare(runs.run.iloc[0], runs.run.iloc[0])
     assert diff.layout_changes.empty and diff.status_changes.empty
     sched = store.schedule()

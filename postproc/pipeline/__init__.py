@@ -21,7 +21,7 @@ in the run's unit system (``vu_design_i_kip``, ``spacing_in``) when it writes th
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -36,7 +36,10 @@ MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_
                   "crit_i", "crit_j", "phi_vc_kN", "phi_vn_limit_kN", "utilization", "stirrups_total",
                   "stirrup_mass_kg",
                   # added after the first release, at the end (the table's columns are a contract)
-                  "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2"]
+                  "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2",
+                  # deep beams and D-regions (strut-and-tie, Ch. 23): which method designed the member, the
+                  # bottom tie's steel (As required, the bars), the horizontal web bars (9.9.3.1(b))
+                  "method", "tie_as_req_mm2", "tie_bars", "web_bars"]
 ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count",
                 # added after the first release, at the end: stirrup, hoop (beams); tie, spiral (columns)
                 "kind"]
@@ -153,6 +156,7 @@ class BatchOutput:
     trace: pa.Table  # the station trace
     warnings: list[str]
     stirrups: pd.DataFrame  # member, x_mm (mm or in, from face i)
+    tables: dict[str, pd.DataFrame] = field(default_factory=dict)  # a family's own tables (strut-and-tie models)
 
 
 def design_batch(family, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> BatchOutput:

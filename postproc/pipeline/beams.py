@@ -1,7 +1,8 @@
 """Beams (ACI 318-19 Chapters 9 and 22): the family steps of the batch pipeline.
 
-geometry -> (shared resample, candidates) -> demand -> options -> layout -> provided ->
-check -> records.
+geometry -> (shared resample, candidates) -> demand -> deep regions -> options -> layout ->
+provided -> check -> records. The members 9.9.1.1 flags go to the strut-and-tie step
+(postproc.pipeline.deep) after the demand; its regions join the layout and the checks.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from postproc.demand import beams as demand
 from postproc.demand import frames as fr
 from postproc.pipeline import (BatchOutput, MemberGeometry, Resampled, SelfCheckError, edition, frame_beams, governing,
                                row, unit_system)
+from postproc.pipeline import deep as deep_step
 from postproc.settings import Settings
 
 KINDS = ("beam",)
@@ -108,24 +110,29 @@ def _allowed_spacing(k: int, opt: Options, dem: demand.Demand, cand, grid: stati
 
 
 def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, deep: np.ndarray,
-            settings: Settings, fp: frame_beams.FramePlan) -> Layouts:
+            settings: Settings, fp: frame_beams.FramePlan, reg: deep_step.Regions) -> Layouts:
     """Step 5: the first ladder option that fits the minimum spacing and the torsion section
     limit (22.7.7.1, with that bar's Aoh and ph), then the stirrup positions of each member
-    (frame beams: the first hoop within 50 mm | 2 in of each face, 18.6.4.4, 18.4.2.4)."""
+    (frame beams: the first hoop within 50 mm | 2 in of each face, 18.6.4.4, 18.4.2.4). Inside a
+    strut-and-tie region the model's spacing replaces the sectional one."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
     U, u = unit_system(settings), mb.sec.u
-    here = _here(dem, st, fp)
+    here = _here(dem, st, fp) | reg.station
     shear_bad = np.zeros(n, bool)
-    np.logical_or.at(shear_bad, grid.member, dem.shear_ratio > 1.0)
+    np.logical_or.at(shear_bad, grid.member, (dem.shear_ratio > 1.0) & ~reg.station)
     starts = grid.offsets[:-1]
     allowed = np.full((len(opt.bars), len(grid.x)), np.inf)
     fits = np.zeros((len(opt.bars), n), bool)
     torsion_ok = np.ones((len(opt.bars), n), bool)
     for k in range(len(opt.bars)):
         allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module, fp)
+        if reg.station.any():
+            allowed[k] = np.where(reg.station, deep_step.allowed_spacing(reg, opt.legs[k][grid.member], opt.area[k],
+                                                                         st.spacing_module), allowed[k])
         fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing
         ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
                                            opt.ph[k][grid.member])
+        ratio = np.where(reg.station, 0.0, ratio)  # torsion in a region is refused by the deep step
         torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
     usable = fits & torsion_ok
     option = np.where(usable.any(axis=0), np.argmax(usable, axis=0), -1)
@@ -205,11 +212,12 @@ def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Pro
 
 
 def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided, lay: Layouts,
-           settings: Settings, opt: Options, fp: frame_beams.FramePlan) -> demand.Capacity:
+           settings: Settings, opt: Options, fp: frame_beams.FramePlan, reg: deep_step.Regions) -> demand.Capacity:
     """Step 6, the self-check: every station of every designed member, every candidate
     combination (the capacity-design one of frame beams with it, Vc = 0 where 18.6.5.2
     says so), the spacing limits of frame beams with the chosen hoop bar, the first hoop
-    within 50 mm | 2 in of each face, and every gap between stirrups against the practical minimum."""
+    within 50 mm | 2 in of each face, and every gap between stirrups against the practical minimum.
+    Stations inside a strut-and-tie region are checked against the model (deep_step.check)."""
     sec = mb.sec.take(rs.grid.member)
     dem = replace(dem, s_max=np.minimum(dem.s_max, fp.stations.limit_for(opt.db[np.maximum(lay.option, 0)][rs.grid.member])))
     cap = demand.check_layout(sec, cand, dem, prov.area, prov.legs, prov.spacing, prov.Aoh, prov.ph, prov.leg_gap,
@@ -222,7 +230,7 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
         m = rs.grid.member[np.flatnonzero(short)[0]]
         raise SelfCheckError(f"hoops of member {mb.names[m]} have fewer legs than 18.6.4.2 asks "
                              f"({int(support_legs[m])})")
-    bad = prov.on & ~cap.ok
+    bad = prov.on & ~cap.ok & ~reg.station
     mm, slack = unit_system(settings).length, settings.detailing.gap_slack
     if bad.any():
         k = np.flatnonzero(bad)[0]
@@ -251,8 +259,9 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
 
 def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Options, lay: Layouts,
              prov: Provided, cap: demand.Capacity | None, why_deep: np.ndarray, settings: Settings,
-             fp: frame_beams.FramePlan):
-    """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace."""
+             fp: frame_beams.FramePlan, reg: deep_step.Regions, region_util: np.ndarray):
+    """Step 7: members.csv rows, zones.csv rows, stirrup positions and the station trace.
+    The sectional utilization leaves out the stations of strut-and-tie regions."""
     st, grid, n = settings.detailing, rs.grid, len(mb.names)
     U, u = unit_system(settings), mb.sec.u
     fs = fp.stations
@@ -274,6 +283,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         tr = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s_.fc, s_.b, s_.d, opt.Aoh[k_ref[grid.member[cs]],
                                     grid.member[cs]], opt.ph[k_ref[grid.member[cs]], grid.member[cs]], u)
         pair_u = np.maximum(pair_u, np.where(p.torsion & ~prov.on[cs], tr, 0.0))
+    pair_u = np.where(reg.station[cs], 0.0, pair_u)
     gov_station = governing(pair_u, tie, cand.bounds)  # per station: its governing candidate
     station_util = pair_u[gov_station]
     member_bounds = cand.bounds[grid.offsets]
@@ -317,7 +327,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
             continue
         if lay.option[m] < 0:
             sl = slice(grid.offsets[m], grid.offsets[m + 1])
-            ratio = float(dem.shear_ratio[sl].max())
+            ratio = float(np.where(reg.station[sl], 0.0, dem.shear_ratio[sl]).max())
             status = "resize"
             if m in fp.reasons:
                 status, msg = fp.reasons[m]
@@ -363,7 +373,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
                            np.where(on, 0.0, np.nan))
     sec_st = mb.sec.take(grid.member)
     take = lambda values, idx: pa.array(list(values), pa.string()).take(pa.array(idx))  # strings built in Arrow
-    trace = pa.table({
+    columns = {
         "member": take(mb.names, grid.member), "x_mm": np.round(rs.x_clear, nd + 1), "side": grid.side,
         "governing_case": pa.array(list(name_station), pa.string()), "vu_kN": p.vu[g] / per_force,
         "vu_max_kN": dem.vu_max / per_force, "nu_kN": p.nu[g] / per_force, "tu_kNm": p.tu[g] / per_moment,
@@ -384,7 +394,8 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         # Chapter 18 (postproc.pipeline.frame_beams): frame, capacity-design shear, hinge zone, Vc = 0
         "frame": take([fr.NAMES[c] for c in range(len(fr.NAMES))], fs.code.astype(np.int64)),
         "ve_kN": fs.ve / per_force, "ve_eq_kN": fs.ve_eq / per_force, "hinge_zone": fs.zone, "vc_zero": fs.vc_zero,
-    })
+    }
+    trace = pa.table(deep_step.station_columns(reg, columns, region_util, sec_st.b, per_force))
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
     return rows, zones, trace, positions
 
@@ -451,12 +462,17 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
     cantilever = mb.free_i | mb.free_j
     why_deep = deep_beam_reasons(mb.geo.clear_span, mb.geo.h, mb.geo.d, cantilever, rs.rules.point_load_near_bearing)
     why_deep = fp.unless_refused(why_deep)  # a frame beam failing Chapter 18 (18.6.2.1: ln >= 4d) says that first
+    reg = deep_step.regions(mb, rs, cset, dem, why_deep, settings)
+    not_here = np.where(reg.flagged, np.where(reg.skip(), reg.message, ""), why_deep)  # no layout: say why
     opt = _options(mb, dem, rs.grid, settings.detailing, fp)
-    lay = _layout(mb, rs, cand, dem, opt, why_deep != "", settings, fp)
+    lay = _layout(mb, rs, cand, dem, opt, not_here != "", settings, fp, reg)
     prov = _provided(mb, rs, opt, lay, settings.detailing)
-    cap = _check(mb, rs, cand, dem, prov, lay, settings, opt, fp)
-    rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, why_deep, settings, fp)
-    return BatchOutput(rows, zones, trace, rs.warnings + fp.warnings, positions)
+    cap = _check(mb, rs, cand, dem, prov, lay, settings, opt, fp, reg)
+    region_util = deep_step.check(reg, prov, mb.names, rs, settings)
+    rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, not_here, settings, fp,
+                                             reg, region_util)
+    rows = deep_step.records(reg, rows, lay, region_util, rs, settings)
+    return BatchOutput(rows, zones, trace, rs.warnings + fp.warnings, positions, reg.tables)
 
 
 geometry = _geometry
