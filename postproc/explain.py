@@ -270,6 +270,7 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
     the nodes, nodes, struts, ties, anchorage, the deep-beam limits and the web bars."""
     from postproc.pipeline.deep import stored
     mm, kN, A, MPa = U.length, U.force, U.area, U.stress
+    fl, fa = (0, 0) if U.name == "si" else (1, 2)  # decimals of lengths and areas: mm and mm^2 whole
     tables = {}
     for name in ("models", "members", "nodes", "faces", "struts", "ties"):
         df = stored(run, name)
@@ -285,16 +286,16 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
     for mdl in models.itertuples():
         tag = "whole member" if mdl.model == "whole" else f"end region {mdl.model}"
         mine = lambda df: df[df.model == mdl.model]  # noqa: E731
-        lines = [f"extent x = {mdl.extent_start_mm:,.0f} to {mdl.extent_end_mm:,.0f} {mm} from face i; top strut depth "
-                 f"a = {mdl.top_strut_depth_mm:,.0f} {mm} (the least for the horizontal thrust at the top nodes, "
+        lines = [f"extent x = {mdl.extent_start_mm:,.0f} to {mdl.extent_end_mm:,.{fl}f} {mm} from face i; top strut depth "
+                 f"a = {mdl.top_strut_depth_mm:,.{fl}f} {mm} (the least for the horizontal thrust at the top nodes, "
                  "not less than the tie's nodal height), lever arm z = d - a/2 = "
-                 f"{mdl.lever_arm_mm:,.0f} {mm}, tie height in the bearing node {mdl.tie_height_mm:,.0f} {mm}",
+                 f"{mdl.lever_arm_mm:,.{fl}f} {mm}, tie height in the bearing node {mdl.tie_height_mm:,.{fl}f} {mm}",
                  f"governing: {mdl.governing} ({mdl.governing_clause}), utilization {mdl.utilization:.3f}"
                  + (f" in {mdl.governing_combination}" if mdl.governing_combination else "")]
         steps.append(Step(f"Strut-and-tie model, {tag}", "23.2, 23.4, 23.9", lines))
         nd = mine(nodes)
         steps.append(Step(f"Nodes, {tag}", "23.9.1, 23.9.2, Table 23.9.2", [
-            f"{n.node} at x = {n.x_mm:,.0f} {mm}, y = {n.y_mm:,.0f} {mm}: {n.node_type}, beta_n = {n.beta_n:g}; governing "
+            f"{n.node} at x = {n.x_mm:,.{fl}f} {mm}, y = {n.y_mm:,.{fl}f} {mm}: {n.node_type}, beta_n = {n.beta_n:g}; governing "
             f"face {n.governing_face}" + (f" ({n.element})" if n.element else "") +
             f", utilization {n.utilization:.3f} ({n.combination})" for n in nd.itertuples()]
             + [f"each face: stress = force / (width x bw) against phi 0.85 beta_n f'c (phi = 0.75, 21.2.1); "
@@ -302,7 +303,7 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
         sr = mine(struts)
         steps.append(Step(f"Struts, {tag}", "23.4.1, 23.4.3, Table 23.4.3, 23.5", [
             f"{s.element}: {s.angle_deg:.1f} deg, {s.force_kN:,.1f} {kN} ({s.combination}); widths "
-            f"{s.width_1_mm:,.0f} / {s.width_2_mm:,.0f} {mm}; beta_s = {s.beta_s:g}, fce = 0.85 beta_s f'c = "
+            f"{s.width_1_mm:,.0f} / {s.width_2_mm:,.{fl}f} {mm}; beta_s = {s.beta_s:g}, fce = 0.85 beta_s f'c = "
             f"{s.fce_MPa:.2f} {MPa}; phi Fns = {s.phi_fns_kN:,.1f} {kN}; utilization {s.utilization:.3f}"
             for s in sr.itertuples()]
             + ["angles between struts and ties are at least 25 degrees (23.2.7)"]))
@@ -310,22 +311,22 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
         lines = []
         for t in tr.itertuples():
             if t.kind == "vertical tie":
-                lines.append(f"{t.element}: {t.force_kN:,.1f} {kN} ({t.combination}) over {t.spread_mm:,.0f} {mm}: "
+                lines.append(f"{t.element}: {t.force_kN:,.1f} {kN} ({t.combination}) over {t.spread_mm:,.{fl}f} {mm}: "
                              f"Av/s = F / (0.75 fyt spread) = {t.av_s_req:.4g} {A}/{mm} (23.7.2)")
             else:
                 lines.append(f"{t.element}: {t.force_kN:,.1f} {kN} ({t.combination}): As = F / (0.75 fy) = "
-                             f"{t.as_req_mm2:,.0f} {mm}^2, provided {t.as_prov_mm2:,.0f} {mm}^2; utilization "
+                             f"{t.as_req_mm2:,.{fl}f} {mm}^2, provided {t.as_prov_mm2:,.{fl}f} {mm}^2; utilization "
                              f"{t.utilization:.3f} (23.7.2)")
         steps.append(Step(f"Ties, {tag}", "23.7.2, 23.3.1", lines))
         anch = []
         for end in ("i", "j"):
             how = getattr(mdl, f"anchorage_{end}")
             if how:
-                anch.append(f"end {end}: {how}; available {getattr(mdl, f'anchorage_available_{end}_mm'):,.0f} {mm} past "
-                            f"the extended nodal zone against ld = {mdl.ld_mm:,.0f} {mm} (Table 25.4.2.3) and ldh = "
-                            f"{mdl.ldh_mm:,.0f} {mm} (25.4.3.1)")
+                anch.append(f"end {end}: {how}; available {getattr(mdl, f'anchorage_available_{end}_mm'):,.{fl}f} {mm} past "
+                            f"the extended nodal zone against ld = {mdl.ld_mm:,.{fl}f} {mm} (Table 25.4.2.3) and ldh = "
+                            f"{mdl.ldh_mm:,.{fl}f} {mm} (25.4.3.1)")
         steps.append(Step(f"Tie bars and anchorage, {tag}", "23.8.3, 25.4.2.3, 25.4.3.1", [
-            f"{mdl.tie_bars} {mdl.tie_bar} = {mdl.tie_as_prov_mm2:,.0f} {mm}^2 >= {mdl.tie_as_req_mm2:,.0f} {mm}^2; the "
+            f"{mdl.tie_bars} {mdl.tie_bar} = {mdl.tie_as_prov_mm2:,.{fl}f} {mm}^2 >= {mdl.tie_as_req_mm2:,.{fl}f} {mm}^2; the "
             "largest bar of the ladder whose anchorage fits at every bearing", *anch]))
         steps.append(Step(f"Deep-beam section, {tag}", "9.9.2.1", [
             f"Vu = {mdl.vu_kN:,.1f} {kN} <= phi 0.83 sqrt(f'c) bw d = {mdl.phi_vn_deep_kN:,.1f} {kN}: "

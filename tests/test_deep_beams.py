@@ -23,7 +23,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from postproc import bench, cli, explain, reference, synthetic
-from postproc.settings import settings_from_dict
+from postproc.settings import Settings, settings_from_dict
 from postproc.store import Store
 from tests.conftest import beam, design, rows_from_function
 
@@ -218,7 +218,7 @@ def test_the_region_stirrups_are_checked_against_the_model(slender):
         x_clear = st.x_mm.to_numpy()
 
     with pytest.raises(SelfCheckError, match="strut-and-tie self-check"):
-        deep.check(reg, Prov, np.array(["E"], object), Rs)
+        deep.check(reg, Prov, np.array(["E"], object), Rs, Settings())
 
 
 # --- every member 9.9.1.1 flags and the tool does not design says why ----------------------------------

@@ -99,7 +99,10 @@ def stored(run, name: str) -> pd.DataFrame:
     checks, under the SI column names with the values in the run's units (units.si_keyed);
     empty where the run holds none (designed before they existed)."""
     rel = f"design/stm_{name}.parquet"
-    return units.si_keyed(run.table(rel).to_pandas()) if rel in run.listed_under("design") else pd.DataFrame()
+    if rel not in run.listed_under("design"):
+        return pd.DataFrame()
+    df = units.si_keyed(run.table(rel).to_pandas())
+    return df.rename(columns={c: c[:-4] + "_MPa" for c in df.columns if c.endswith("_mpa")})  # stm's spelling
 
 
 def _empty(n: int, S: int) -> Regions:
@@ -377,7 +380,7 @@ def _summary_row(m, mb, r_m, mine, whole, excess, tension, compression, lb_i, lb
         if not used:
             continue
         src = (f"[deep] {U.col('bearing_mm')} = {settings.deep.bearing:g}" if settings.deep.bearing > 0
-               else f"twice the {(g.face_i if end == 'i' else g.face_j)[m]:g} {L} face offset")
+               else f"twice the {(g.face_i if end == 'i' else g.face_j)[m]:,.{nd + 1}f} {L} face offset")
         end_bearing.append(f"bearing {end} ({sup}) {lb:,.{nd}f} {L}" + ("" if lb == full else f" of {full:,.{nd}f} {L}")
                            + f" ({src}" + (f", at most {settings.deep.bearing_max_h:g}h" if lb < full else "") + ")")
     said.append("; ".join(end_bearing))
