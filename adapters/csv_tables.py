@@ -84,7 +84,7 @@ class Col:
 
 MEMBER_COLUMNS = (
     Col("member", False, True), Col("kind", False), Col("length_m", True, True),
-    Col("b_mm", True, True), Col("h_mm", True, True), Col("d_mm", True), Col("cover_mm", True),
+    Col("b_mm", True), Col("h_mm", True), Col("d_mm", True), Col("cover_mm", True),  # b, h: unless circular
     Col("fc_mpa", True, True), Col("fyt_mpa", True, True), Col("fy_mpa", True), Col("lambda", True),
     Col("support_i", False, True), Col("support_j", False, True),
     Col("face_i_mm", True), Col("face_j_mm", True), Col("load_face", False),
@@ -707,6 +707,7 @@ PLAUSIBLE_MEMBERS = {"length_m": (0.05, 500.0), "b_mm": (50.0, 20000.0), "h_mm":
                      "face_j_mm": (None, 20000.0), "bf_mm": (None, 50000.0), "hf_mm": (None, 5000.0),
                      "as_tension_mm2": (None, 1e7), "as_top_i_mm2": (None, 1e7), "as_bot_i_mm2": (None, 1e7),
                      "as_top_j_mm2": (None, 1e7), "as_bot_j_mm2": (None, 1e7), "db_long_mm": (6.0, 80.0),
+                     "diameter_mm": (50.0, 20000.0),
                      **{c: (-1e6, 1e6) for c in COORDINATES}}
 PLAUSIBLE_FORCES = {"x_m": (None, 500.0), "V_kN": (-1e6, 1e6), "N_kN": (-1e7, 1e7), "T_kNm": (-1e7, 1e7),
                     "M_kNm": (-1e8, 1e8)}
@@ -773,7 +774,11 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     t, probs, notices = read_table(path, "members", MEMBER_COLUMNS, cmap, fill, units)
     named = probs.table.source_name  # the file's name of one of our columns
     spec = probs.spec
-    _check_numbers(t, spec, probs)
+    if named("diameter_mm") not in spec.present:  # no circular section: b and h are required columns
+        missing = [c for c in ("b_mm", "h_mm") if named(c) not in spec.present]
+        if missing:
+            raise InputErrors([InputError(spec.path, "required column is missing", 1, named(c)) for c in missing])
+    _check_numbers(t, spec, probs, blank_ok=BLANK_NOT_GIVEN | {"b_mm", "h_mm"})  # b, h: checked below
     _check_text(t, spec, probs)
     member = _str(t, "member")
     _, first, counts = np.unique(member, return_index=True, return_counts=True)
@@ -796,10 +801,24 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     for name, v in (("length_m", L), ("b_mm", b), ("h_mm", h)):
         probs.add(v <= 0, name, "must be greater than zero")
     _check_plausible(t, probs, PLAUSIBLE_MEMBERS, units)
+    # a circular section (columns) gives its diameter and neither b nor h; every other gives both
+    diameter = _num(t, "diameter_mm")
+    circular = ~np.isnan(diameter)
+    for name, v in (("b_mm", b), ("h_mm", h)):
+        probs.add(~circular & np.isnan(v), name, f"missing or NaN value (give {named('b_mm')} and {named('h_mm')}, or "
+                                                 f"{named('diameter_mm')} for a circular column)")
+        probs.add(circular & ~np.isnan(v), name, f"a circular section ({named('diameter_mm')}) takes no "
+                                                 f"{named('b_mm')} or {named('h_mm')}: leave them empty")
+    probs.add(circular & (kind == "beam"), "diameter_mm", "circular sections are designed as columns only (kind column)")
+    probs.add(circular & ~np.isnan(_num(t, "d_mm")), "d_mm", f"a circular section takes d = 0.8 D (22.5.2.2): give "
+                                                             f"{named('cover_mm')} (face to bar centre) instead")
+    probs.add(circular & np.isnan(_num(t, "cover_mm")), "cover_mm", f"a circular column needs {named('cover_mm')}, "
+                                                                    "face to the centre of its longitudinal bars")
+    h = np.where(circular, diameter, h)
     d_given, cover = _num(t, "d_mm"), _num(t, "cover_mm")
     neither = np.isnan(d_given) & np.isnan(cover)
-    probs.add(neither, "d_mm", f"give {named('d_mm')} or {named('cover_mm')}")
-    d = np.where(np.isnan(d_given), h - cover, d_given)
+    probs.add(neither & ~circular, "d_mm", f"give {named('d_mm')} or {named('cover_mm')}")
+    d = np.where(circular, 0.8 * diameter, np.where(np.isnan(d_given), h - cover, d_given))
     probs.add(~np.isnan(d_given) & (d_given <= 0), "d_mm", "must be greater than zero")
     probs.add(~np.isnan(d_given) & (d_given >= h), "d_mm", f"effective depth must be less than {named('h_mm')}")
     probs.add(np.isnan(d_given) & ~np.isnan(cover) & ((cover <= 0) | (cover >= h)), "cover_mm",

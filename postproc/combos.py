@@ -259,6 +259,24 @@ def amplified_earthquake(cset: ComboSet, omega: float) -> ComboSet:
     return ComboSet(list(cset.cases), rows, False, cset.patterns, cset.types)
 
 
+def extremes(cset: ComboSet, values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The least and the largest factored value over every combination, at each station.
+
+    ``values`` (n_cases, S): one quantity of every case at every station. Exact: the terms of
+    a row are chosen independently, so a row's extremes are its fixed part plus each term's
+    least (largest) option; then the extremes over the rows (e.g. the range of the factored
+    axial force for a column's Mpr, 18.7.6.1.1).
+    """
+    lo = np.full(values.shape[1], np.inf)
+    hi = np.full(values.shape[1], -np.inf)
+    for row in cset.rows:
+        base = _combine(row.fixed[None, :], values)[0]
+        per_term = [_combine(t.options, values) for t in row.terms]
+        lo = np.minimum(lo, base + sum((v.min(axis=0) for v in per_term), np.zeros(values.shape[1])))
+        hi = np.maximum(hi, base + sum((v.max(axis=0) for v in per_term), np.zeros(values.shape[1])))
+    return lo, hi
+
+
 # ----------------------------------------------------------------------------- envelope
 
 

@@ -431,7 +431,8 @@ def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[flo
         while j + 1 < n and owner[i] >= 0 and owner[j + 1] == owner[i]:
             j += 1
         count = j - i + 1
-        zones.append(Zone(float(x[i]), float(x[j]), float(gaps[i]) if count > 1 else np.nan, count))
+        # a run's gaps agree within same_gap; its spacing is the one most of them have
+        zones.append(Zone(float(x[i]), float(x[j]), float(np.median(gaps[i:j])) if count > 1 else np.nan, count))
         if j < n - 1 and hole_gap[j]:
             zones.append(Zone(float(x[j]), float(x[j + 1]), np.nan, 0))
         i = j + 1
@@ -467,3 +468,48 @@ def jump_sides(member: np.ndarray, x: np.ndarray, side: np.ndarray) -> np.ndarra
     partner = np.zeros(len(x), bool)
     partner[1:] = (member[1:] == member[:-1]) & (x[1:] == x[:-1]) & (side[:-1] == 0) & (side[1:] == 1)
     return np.where(side == 0, -1, np.where(partner, 1, 0)).astype(np.int8)
+
+
+# ----------------------------------------------------------------------------- column ties
+
+SPIRAL_EXTRA_TURNS = 1.5  # 25.7.3.4: 1.5 extra turns at each end anchor a spiral (from memory)
+CIRCULAR_TIE_LAP = {"si": 150.0, "us": 6.0}  # 25.7.2.4: the ends of a circular tie overlap 150 mm | 6 in (from memory)
+
+
+def tie_set(b: float, h: float, clear: float, bar: str, legs_v: int, legs_vb: int, circular: bool,
+            name: str = "tie", u: Edition = SI) -> list[Shape]:
+    """The bars of one tie or hoop set of a column, cut lengths on the bar centreline.
+
+    Rectangle: a perimeter ``name`` (closed, 135-degree hooks: Table 25.3.2 for ties, the seismic
+    hook of 25.3.4 for hoops, the same extension max(6 db, 75 mm | 3 in) for bars up to No. 25 |
+    No. 8) of outside dimensions b - 2 clear by h - 2 clear, and crossties (25.3.5: a 135-degree
+    hook at one end and a 90-degree one at the other, alternated end for end, 18.7.5.2(c)):
+    legs_v - 2 across the b faces (parallel to h) and legs_vb - 2 across the h faces. Circle: one
+    circular tie or hoop of outside diameter D - 2 clear whose ends overlap 150 mm | 6 in and end
+    in 90-degree hooks (25.7.2.4; the seismic hook of a circular hoop, 25.3.4).
+    """
+    db, _ = bar_catalogue(u.units)[bar]
+    D = bend_diameter(db, u)
+    r = D / 2 + db / 2
+    e135, e90 = hook_extension(db, 135, u), hook_extension(db, 90, u)
+    if circular:
+        A = b - 2 * clear
+        cut = np.pi * (A - db) + CIRCULAR_TIE_LAP[u.units] + 2 * (e90 + np.pi * r / 2)
+        return [Shape(f"circular-{name}", bar, A, A, e90, D, float(cut), 1)]
+    perimeter = stirrup_set(b, h, clear, bar, 2, True, u=u)[0]
+    shapes = [replace(perimeter, name=f"{name}-135")]
+    for count, across in ((legs_v - 2, h), (legs_vb - 2, b)):
+        if count > 0:
+            B = across - 2 * clear
+            shapes.append(Shape("crosstie-135-90", bar, db, B, e135, D, _cut_length(B - db - 2 * r, 225, r, e135 + e90),
+                                int(count)))
+    return shapes
+
+
+def spiral_shape(diameter: float, clear: float, bar: str, pitch: float, turns: float, u: Edition = SI) -> Shape:
+    """A spiral of ``turns`` turns at ``pitch`` plus 1.5 extra turns at each end (25.7.3.4), outside
+    diameter D - 2 clear; cut length on the helix of the bar centreline (splices not included)."""
+    db, _ = bar_catalogue(u.units)[bar]
+    A = diameter - 2 * clear
+    per_turn = float(np.hypot(np.pi * (A - db), pitch))
+    return Shape("spiral", bar, A, pitch, 0.0, 0.0, per_turn * (turns + 2 * SPIRAL_EXTRA_TURNS), 1)

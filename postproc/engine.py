@@ -25,9 +25,10 @@ from postproc.store import Run
 from postproc.pipeline import MEMBER_COLUMNS, ZONE_COLUMNS, BatchInput, SelfCheckError, design_batch, row  # noqa: F401
 from postproc.pipeline import beams as beam_family
 from postproc.pipeline import deep as deep_step
+from postproc.pipeline import columns as column_family
 from postproc.terms import STATUSES  # noqa: F401
 
-FAMILIES = (beam_family,)  # each designs the members of its KINDS; other kinds are not-covered
+FAMILIES = (beam_family, column_family)  # each designs the members of its KINDS; other kinds are not-covered
 BATCH_CELLS = 500_000  # combinations x stations per batch: bounds memory (and stays in cache), not results
 
 
@@ -101,6 +102,9 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     for m, kind in zip(members.loc[~covered, "member"], members.loc[~covered, "kind"]):
         rows.append(row(m, "not-covered", f"the design of members of kind '{kind}' is not covered yet"))
     designable = members[covered].sort_values("member").reset_index(drop=True)
+    for family in FAMILIES:  # what a family needs from the whole table (a column's joints: the beams there)
+        if hasattr(family, "prepare"):
+            designable = family.prepare(designable, settings)
 
     zones: list[dict] = []
     stirrups: list[pd.DataFrame] = []

@@ -36,7 +36,14 @@ from postproc.store import Run
 from postproc.terms import NEEDS_ACTION, STATUSES, did_you_mean
 
 STATION_COLUMNS = ["member", "x_mm", "vu_kN", "vu_max_kN", "phi_vc_kN", "phi_vn_kN", "phi_vn_limit_kN",
-                   "avmin_threshold_kN", "spacing_mm"]  # SI names; read as the run's (units.UnitSystem.cols)
+                   "avmin_threshold_kN", "spacing_mm",
+                   # the shear parallel to b and the capacity-design shear of columns (NaN for beams)
+                   "vb_max_kN", "phi_vc_vb_kN", "phi_vn_vb_kN", "phi_vn_limit_vb_kN", "avmin_threshold_vb_kN",
+                   "ve_kN", "ve_vb_kN"]
+# a column's second diagram draws its Vb series in the places of the V ones
+VB_SERIES = {"vu_max_kN": "vb_max_kN", "phi_vc_kN": "phi_vc_vb_kN", "phi_vn_kN": "phi_vn_vb_kN",
+             "phi_vn_limit_kN": "phi_vn_limit_vb_kN", "avmin_threshold_kN": "avmin_threshold_vb_kN",
+             "ve_kN": "ve_vb_kN"}  # SI names; read as the run's (units.UnitSystem.cols)
 COORDS = ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]
 # Utilization bands of the overview: upper limits of bands 0-3; band 4 is above 1.0 (resize).
 BANDS = (0.5, 0.8, 0.95, 1.0)
@@ -92,8 +99,11 @@ class _Data:
         dm = units.si_keyed(run.table("design/members.parquet").to_pandas())
         geo = units.si_keyed(run.members().to_pandas())
         keep = ["member", "kind", "level", "group", "length_m", "b_mm", "h_mm", "d_mm", "fc_mpa", "fyt_mpa",
-                "support_i", "support_j", "face_i_mm", "face_j_mm", *COORDS]
+                "support_i", "support_j", "face_i_mm", "face_j_mm", *COORDS, "diameter_mm", "frame", "db_long_mm",
+                "n_long"]
         m = dm.merge(geo.reindex(columns=keep), on="member", how="left")
+        m["h_mm"] = m["h_mm"].fillna(m["diameter_mm"])  # a circular column: its diameter across both ways
+        m["b_mm"] = m["b_mm"].fillna(m["diameter_mm"])
         m["clear_mm"] = m["length_m"] * run.units.per_span - m["face_i_mm"].fillna(0) - m["face_j_mm"].fillna(0)
         slug = m["member"].astype(str).str.replace(r"[^A-Za-z0-9_-]+", "-", regex=True).str.strip("-").str[:40]
         m["anchor"] = "m" + pd.Series(np.arange(len(m)), dtype=str) + "-" + slug
@@ -297,12 +307,22 @@ def _details(data: _Data, codes: list[int]) -> str:
         note += f'<p class="meta">Detail sections for {len(codes):,} of {len(m):,} members.</p>'
     if not codes:
         return f'<section id="members"><h2>Members</h2>{note}</section>'
-    drawn = _Drawings(data, data.stations(codes), codes)
+    st = data.stations(codes)
+    drawn = _Drawings(data, st, codes)
+    columns = [k for k in codes if data.m["kind"].iat[k] == "column"]
+    drawn_vb = None
+    if columns:  # a column's second diagram: the shear parallel to b, with its own scale
+        on = np.isin(st["code"], columns)
+        drawn_vb = _Drawings(data, {key: (st[VB_SERIES.get(key, key)][on]) for key in st}, columns)
+        note += ('<p class="meta">A column has two diagrams, Vu parallel to h (V) and parallel to b (Vb), along its '
+                 "clear height from the bottom face; its elevation lies on its side under them, the end zones lo "
+                 "shaded. Each &phi;Vn is that direction's alone; the ties satisfy both together by the "
+                 "interaction of 22.5.1.10 and 22.5.1.11.</p>")
     trusses = _trusses(data, codes)
     parts = [f'<section id="members"><h2>Members</h2>{note}']
     records = data.m.to_dict("records")
     for k in codes:
-        parts.append(_member_section(records[k], k, drawn, trusses.get(k, "")))
+        parts.append(_member_section(records[k], k, drawn, drawn_vb, trusses.get(k, "")))
     parts.append("</section>")
     return "".join(parts)
 
@@ -324,8 +344,9 @@ class _Drawings:
         self.sx = PW / np.where(self.cs > 0, self.cs, 1.0)
 
         top = np.zeros(n)
-        for c in ("vu_max_kN", "phi_vc_kN", "phi_vn_kN", "avmin_threshold_kN"):
-            np.fmax.at(top, code, st[c])
+        column = (m["kind"].to_numpy(object) == "column")[code]  # a column's Ve is drawn (a frame beam's is noted)
+        for c in ("vu_max_kN", "phi_vc_kN", "phi_vn_kN", "avmin_threshold_kN", "ve_kN"):
+            np.fmax.at(top, code, np.where(column, st[c], np.nan) if c == "ve_kN" else st[c])
         lim_lo = np.full(n, np.inf)
         np.fmin.at(lim_lo, code, st["phi_vn_limit_kN"])
         self.show_lim = lim_lo <= 1.25 * top  # the section limit (22.5.1.2) is drawn when it is near the plot
@@ -348,6 +369,7 @@ class _Drawings:
         self.vc = line("phi_vc_kN")
         self.avm = line("avmin_threshold_kN")
         self.lim = line("phi_vn_limit_kN", self.show_lim[code])
+        self.ve = line("ve_kN", column)  # columns of moment frames: the capacity-design shear
         self.cap = _points(*self._thin(*self._steps(data, code, x, st["phi_vn_kN"], st["spacing_mm"])))
         self.stirrups, self.zone_labels = _stirrups(data, codes)
 
@@ -407,13 +429,19 @@ def _fmt(v, spec: str = ".1f", unit: str = "") -> str:
     return f"{v:{spec}}{unit}" if _given(v) else "n/a"
 
 
-def _member_section(r: dict, k: int, d: _Drawings, truss: str = "") -> str:
+def _member_section(r: dict, k: int, d: _Drawings, d_vb: _Drawings | None = None, truss: str = "") -> str:
     U = d.U
     mm, kN = U.length, f" {U.force}"
     name = _text(r["member"])
     where = " &middot; ".join(f"{c} {_text(r[c])}" for c in ("level", "group") if _given(r[c]))
     geo = ""
-    if _given(r["b_mm"]):
+    if r.get("kind") == "column" and _given(r["b_mm"]):
+        size = (f"D = {r['diameter_mm']:g} {mm} (bw = D, d = 0.8 D, 22.5.2.2)" if _given(r.get("diameter_mm")) else
+                f"b &times; h = {r['b_mm']:g} &times; {r['h_mm']:g} {mm}")
+        bars = f"{int(r['n_long'])} bars of {r['db_long_mm']:g} {mm}" if _given(r.get("n_long")) else "bars not given"
+        geo = (f"column {size}, {bars} &middot; f&prime;c {r['fc_mpa']:g} {U.stress}, fyt {r['fyt_mpa']:g} "
+               f"{U.stress} &middot; clear height {d.cs[k]:,.0f} {mm} &middot; frame {_text(r.get('frame') or 'none')}")
+    elif _given(r["b_mm"]):
         geo = (f"b &times; h = {r['b_mm']:g} &times; {r['h_mm']:g} {mm}, d = {r['d_mm']:g} {mm} &middot; "
                f"f&prime;c {r['fc_mpa']:g} {U.stress}, fyt {r['fyt_mpa']:g} {U.stress} &middot; "
                f"clear span {d.cs[k]:,.0f} {mm} &middot; "
@@ -438,8 +466,16 @@ def _member_section(r: dict, k: int, d: _Drawings, truss: str = "") -> str:
         facts.append(f"designed by {_text(r['method'])} &middot; bottom tie {_text(r['tie_bars'])}, "
                      f"As,req {_fmt(r['tie_as_req_mm2'], ',.0f' if U.name == 'si' else ',.2f', ' ' + U.area)} &middot; "
                      f"web bars {_text(r['web_bars'])}")
+    if r.get("kind") == "column" and _given(r.get("utilization_v")):
+        facts.append(f"V alone {r['utilization_v']:.3f}, Vb alone {r['utilization_vb']:.3f} &middot; "
+                     f"design Vb: i {_fmt(r['vb_design_i_kN'], '.1f', kN)}, j {_fmt(r['vb_design_j_kN'], '.1f', kN)}"
+                     + (f" &middot; Ve {_fmt(r['ve_v_kN'], '.0f', kN)} / {_fmt(r['ve_vb_kN'], '.0f', kN)}"
+                        if _given(r.get("ve_v_kN")) else "")
+                     + (f" &middot; lo {r['lo_mm']:,.0f} {mm}" if _given(r.get("lo_mm")) else ""))
     msg = f'<p class="msg">{_text(r["message"])}</p>' if _given(r["message"]) else ""
     svg = _member_svg(r, k, d) if d.has_st[k] else ""
+    if r.get("kind") == "column" and d_vb is not None and d_vb.has_st[k]:
+        svg = _member_svg(r, k, d, "Vu parallel to h (V)", False) + _member_svg(r, k, d_vb, "Vu parallel to b (Vb)")
     lines = "".join(f'<p class="facts">{p}</p>' for p in facts)
     return (f'<section class="member" id="{r["anchor"]}"><h3>{name} {_status(r["status"])} '
             f'<a class="meta" href="#index" title="back to the index">&uarr; index</a></h3>{lines}{msg}{svg}{truss}'
@@ -447,19 +483,19 @@ def _member_section(r: dict, k: int, d: _Drawings, truss: str = "") -> str:
 
 
 LEGEND = (("env", "Vu envelope (all combinations)"), ("cap", "\u03c6Vn provided"), ("vc", "\u03c6Vc"),
-          ("avm", "Av,min threshold (9.6.3.1)"), ("lim", "\u03c6Vn,max (22.5.1.2)"),
-          ("crit", "critical section (9.4.3.2)"))
+          ("avm", "Av,min threshold (9.6.3.1, 10.6.2.1)"), ("lim", "\u03c6Vn,max (22.5.1.2)"),
+          ("ve", "Ve, capacity design (18.7.6.1, 18.4.3.1)"), ("crit", "critical section (9.4.3.2)"))
 
 
-def _legend_id(cap: bool, lim: bool) -> str:
-    return f"lg{int(cap)}{int(lim)}"
+def _legend_id(cap: bool, lim: bool, ve: bool = False) -> str:
+    return f"lg{int(cap)}{int(lim)}" + ("e" if ve else "")
 
 
 def _legend_defs() -> str:
     """One legend per combination of optional series, defined once and placed with <use>."""
     out = []
-    for cap, lim in itertools.product((False, True), repeat=2):
-        shown = {"env", "vc", "avm", "crit"} | {k for k, on in (("cap", cap), ("lim", lim)) if on}
+    for cap, lim, ve in itertools.product((False, True), repeat=3):
+        shown = {"env", "vc", "avm", "crit"} | {k for k, on in (("cap", cap), ("lim", lim), ("ve", ve)) if on}
         x, y, items = 0.0, 0.0, []
         for key, text in LEGEND:
             if key not in shown:
@@ -471,7 +507,7 @@ def _legend_defs() -> str:
                       f'<path class="{key}" d="M{x:g},{y - 2.5:g}h18"/>')
             items.append(f'{sample}<text x="{x + 23:g}" y="{y + 1:g}">{_text(text)}</text>')
             x += width + 22
-        out.append(f'<g id="{_legend_id(cap, lim)}">{"".join(items)}</g>')
+        out.append(f'<g id="{_legend_id(cap, lim, ve)}">{"".join(items)}</g>')
     return "".join(out)
 
 
@@ -479,7 +515,7 @@ def _tspans(xs, ys, labels) -> str:
     return "".join(f'<tspan x="{_g(x)}" y="{_g(y)}">{t}</tspan>' for x, y, t in zip(xs, ys, labels))
 
 
-def _member_svg(r: dict, k: int, d: _Drawings) -> str:
+def _member_svg(r: dict, k: int, d: _Drawings, title: str | None = None, with_elevation: bool = True) -> str:
     cs, sx = float(d.cs[k]), float(d.sx[k])
     x_end = LEFT + cs * sx
     base = TOP + PH
@@ -490,7 +526,7 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
     if x_end - (LEFT + xv[-1] * sx) > 48:  # label the clear span at the far face
         xv.append(cs)
     xpx = [LEFT + v * sx for v in xv]
-    p = [f'<use href="#{_legend_id(k in d.cap, bool(d.show_lim[k]))}" x="{LEFT}" y="16"/>',
+    p = [f'<use href="#{_legend_id(k in d.cap, bool(d.show_lim[k]), k in d.ve)}" x="{LEFT}" y="16"/>',
          f'<path class="g" d="{"".join(f"M{LEFT},{_g(y)}h{PW}" for y in ypx[1:])}'
          f'{"".join(f"M{_g(x)},{TOP}V{base}" for x in xpx[1:])}"/>',
          f'<text text-anchor="end">{_tspans([LEFT - 6] * len(yv), [y + 4 for y in ypx], map("{:g}".format, yv))}'
@@ -499,10 +535,13 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
          f'<text class="ttl" text-anchor="middle" transform="rotate(-90)" x="{-(TOP + PH / 2):g}" y="16">'
          f"shear ({d.U.force})</text>",
          f'<text class="ttl" text-anchor="middle" x="{LEFT + PW / 2:g}" y="{base + 32}">'
-         f"distance from the face of support i ({d.U.length})</text>"]
+         + (f"height above the bottom face ({d.U.length})" if r.get("kind") == "column" else
+            f"distance from the face of support i ({d.U.length})") + "</text>"]
+    if title:
+        p.append(f'<text class="ttl" x="{LEFT + PW:g}" y="{TOP - 8}" text-anchor="end">{_text(title)}</text>')
     if k in d.env:
         p.append(f'<path class="env" d="M{LEFT},{base}L{d.env[k]}L{_g(x_end)},{base}Z"/>')
-    for key in ("lim", "avm", "vc", "cap"):
+    for key in ("lim", "avm", "vc", "ve", "cap"):
         pts = getattr(d, key).get(k)
         if pts:
             p.append(f'<polyline class="{key}" points="{pts}"/>')
@@ -513,10 +552,10 @@ def _member_svg(r: dict, k: int, d: _Drawings) -> str:
             p.append(f'<path class="crit" d="M{_g(x)},{TOP - 4}V{base}"/>')
     p.append(f'<path class="ax" d="M{LEFT},{TOP - 4}V{base}H{LEFT + PW}"/>')
     height = base + 42
-    if k in d.stirrups or k in d.zone_labels:
+    if with_elevation and (k in d.stirrups or k in d.zone_labels):
         elev, height = _elevation(r, cs, sx, d.stirrups.get(k, np.array([])), d.zone_labels.get(k, []), d.U.length)
         p.append(elev)
-    label = _text(f"shear diagram and stirrup elevation of member {r['member']}")
+    label = _text(f"shear diagram{' (' + title + ')' if title else ''} and elevation of member {r['member']}")
     return (f'<svg class="mem" viewBox="0 0 {W} {height:g}" width="{W}" height="{height:g}" role="img" '
             f'aria-label="{label}">{"".join(p)}</svg>')
 
@@ -526,19 +565,28 @@ def _elevation(r: dict, cs: float, sx: float, pos: np.ndarray, labels: list, mm:
     y0 = BEAM_Y
     hpx = float(np.clip(r["h_mm"] * sx, 30.0, 80.0))
     wpx = cs * sx
-    p = [f'<text class="ttl" x="{LEFT}" y="{y0 - 9}">stirrup elevation, h = {r["h_mm"]:g} {mm} '
-         f'{"(to scale)" if hpx == r["h_mm"] * sx else "(depth not to scale)"}</text>']
+    column = r.get("kind") == "column"
+    scale = "(to scale)" if hpx == r["h_mm"] * sx else "(depth not to scale)"
+    what = (f"column elevation on its side, bottom face at the left, {r['h_mm']:g} {mm} deep {scale}" if column else
+            f"stirrup elevation, h = {r['h_mm']:g} {mm} {scale}")
+    p = [f'<text class="ttl" x="{LEFT}" y="{y0 - 9}">{_text(what)}</text>']
+    lo = r.get("lo_mm")
+    shade = ""
+    if column and _given(lo):  # the end zones lo (18.7.5.1, 18.4.3.3), shaded
+        w_lo = min(float(lo), cs / 2) * sx
+        shade = (f'<rect class="lo" x="{LEFT}" y="{y0}" width="{_g(w_lo)}" height="{_g(hpx)}"/>'
+                 f'<rect class="lo" x="{_g(LEFT + wpx - w_lo)}" y="{y0}" width="{_g(w_lo)}" height="{_g(hpx)}"/>')
     for side, x in (("support_i", LEFT - 12), ("support_j", LEFT + wpx)):
         if r[side] != "free":
             p.append(f'<rect class="sup" x="{_g(x)}" y="{y0 - 8}" width="12" height="{_g(hpx + 16)}"/>')
-    p.append(f'<rect class="beam" x="{LEFT}" y="{y0}" width="{_g(wpx)}" height="{_g(hpx)}"/>')
+    p.append(f'<rect class="beam" x="{LEFT}" y="{y0}" width="{_g(wpx)}" height="{_g(hpx)}"/>{shade}')
     if len(pos):
         top, length = _g(y0 + 3), _g(hpx - 6)
         xs = np.round(LEFT + pos * sx, 1).tolist()
         p.append(f'<path class="stir" d="{"".join(f"M{x:g} {top}v{length}" for x in xs)}"/>')
     dim_y = y0 + hpx + 10
-    for z0, z1, _, hoop in labels:  # hinge zones (Chapter 18): hoops, hatched over the beam
-        if hoop:
+    for z0, z1, _, hoop in labels:  # hinge zones (Chapter 18): hoops, hatched over the beam (a column shades lo)
+        if hoop and not column:
             p.append(f'<rect class="hinge" x="{_g(LEFT + z0 * sx)}" y="{y0}" width="{_g(max((z1 - z0) * sx, 2.0))}" '
                      f'height="{_g(hpx)}"><title>hoops (ACI 318-19 18.6.4, 18.4.2.4)</title></rect>')
     edges = sorted({round(LEFT + e * sx, 1) for z0, z1, _, _ in labels for e in (z0, z1)})

@@ -45,6 +45,10 @@
     tolerance_mm = 50               # how far a beam end may be from its support
     length_tolerance_mm = 20        # IFC length against the force table's last station
 
+    [columns]
+    biaxial_shear = "code"          # "code" (22.5.1.10, 22.5.1.11) or "elliptical" (sqrt of the sum of squares)
+    circular_transverse = "hoops"   # circular columns: "hoops" (circular ties or hoops) or "spiral" (25.7.3)
+
     [frames]                        # moment frames of the seismic-force-resisting system (ACI 318-19 Ch. 18)
     by_group = { perimeter = "special" }  # frame of every member of a group whose members.csv `frame` is empty
     omega_o = 3.0                   # overstrength factor of the general building code, for 18.4.2.3(b)
@@ -363,6 +367,14 @@ class FramesUS:
 
 
 @dataclass(frozen=True)
+class Columns:
+    """Column design choices (no units: the same in both systems)."""
+
+    biaxial_shear: str = "code"  # "code" (ACI 318-19 22.5.1.10, 22.5.1.11) or "elliptical" (common practice)
+    circular_transverse: str = "hoops"  # circular columns: "hoops" (circular ties or hoops) or "spiral" (25.7.3)
+
+
+@dataclass(frozen=True)
 class Input:
     # optional numeric column -> value of its missing cells (blank, NaN, #N/A, ...), in the unit
     # its name carries; either spelling (N_kN or N_kip) is accepted and kept in the run's spelling
@@ -373,9 +385,9 @@ class Input:
 
 SECTIONS = {
     "si": {"combinations": Combinations, "stations": Stations, "detailing": Detailing, "ifc": Ifc, "frames": Frames,
-           "input": Input, "deep": Deep},
+           "input": Input, "deep": Deep, "columns": Columns},
     "us": {"combinations": Combinations, "stations": StationsUS, "detailing": DetailingUS, "ifc": IfcUS,
-           "frames": FramesUS, "input": Input, "deep": DeepUS},
+           "frames": FramesUS, "input": Input, "deep": DeepUS, "columns": Columns},
 }
 
 
@@ -389,6 +401,7 @@ class Settings:
     input: Input = field(default_factory=Input)
     units: str = "si"  # the run's unit system: "si" or "us" (postproc.units)
     deep: Deep | DeepUS = field(default_factory=Deep)
+    columns: Columns = field(default_factory=Columns)
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -484,6 +497,10 @@ def validated_settings(doc: dict, path: Path, units: str | None = None) -> Setti
         raise InputError(path, "[frames].omega_o must be greater than zero")
     if s.deep.load_width <= 0 or s.deep.bearing_max_h <= 0:
         raise InputError(path, f"[deep] needs {col('load_width_mm')} > 0 and bearing_max_h > 0")
+    if s.columns.biaxial_shear not in ("code", "elliptical"):
+        raise InputError(path, "[columns].biaxial_shear must be \"code\" (22.5.1.10, 22.5.1.11) or \"elliptical\"")
+    if s.columns.circular_transverse not in ("hoops", "spiral"):
+        raise InputError(path, "[columns].circular_transverse must be \"hoops\" or \"spiral\"")
     return s
 
 
@@ -549,5 +566,5 @@ def settings_from_dict(doc: dict) -> Settings:
     return Settings(combinations=kinds["combinations"](**doc.get("combinations", {})),
                     stations=kinds["stations"](**doc.get("stations", {})), detailing=kinds["detailing"](**d),
                     ifc=kinds["ifc"](**doc.get("ifc", {})), frames=kinds["frames"](**doc.get("frames", {})),
-                    deep=kinds["deep"](**doc.get("deep", {})),
+                    deep=kinds["deep"](**doc.get("deep", {})), columns=Columns(**doc.get("columns", {})),
                     input=Input(**doc.get("input", {})), units=system)

@@ -189,7 +189,14 @@ class Run:
         names = [rel] if rel.endswith(".parquet") else self.listed_under(rel)
         if not names:
             raise StoreError(f"run '{self.name}' has no {rel}")
-        parts = [pq.read_table(pa.BufferReader(self.read_bytes(n)), columns=columns, filters=filters) for n in names]
+        parts = []
+        for n in names:  # parts of different families may hold different columns: a missing one reads as null
+            data = self.read_bytes(n)
+            have = None if columns is None else [c for c in columns if c in pq.read_schema(pa.BufferReader(data)).names]
+            t = pq.read_table(pa.BufferReader(data), columns=have, filters=filters)
+            for c in [] if columns is None else [c for c in columns if c not in t.column_names]:
+                t = t.append_column(c, pa.nulls(t.num_rows, pa.float64()))
+            parts.append(t if columns is None else t.select(columns))
         return parts[0] if len(parts) == 1 else pa.concat_tables(parts, promote_options="default")
 
     def json(self, rel: str) -> dict:

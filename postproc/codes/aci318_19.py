@@ -78,6 +78,7 @@ class Edition:
     unsupported_bar_clear: float  # 25.7.2.3(b): unsupported bar at most 150 mm | 6 in clear of a supported one
     bar_clear_spacing_min: float  # 25.2.1: clear spacing of bars in a layer at least 25 mm | 1 in (and db; from memory)
     smf_column_min_dim: float  # 18.7.2.1(a): 300 mm | 12 in
+    smf_column_hx_high: float  # 18.7.5.2(f): hx <= 200 mm | 8 in where Pu > 0.3 Ag f'c or f'c > 70 MPa | 10,000 psi
     lo_min: float  # 18.7.5.1(c), 18.4.3.3: lo at least 450 mm | 18 in
     so_base: float  # Eq. 18.7.5.3: so = 100 + (350 - hx)/3 mm | 4 + (14 - hx)/3 in ...
     so_hx: float  # ... (the 350 mm | 14 in) ...
@@ -89,6 +90,7 @@ class Edition:
     joint_coefficients: tuple  # Table 18.8.4.3 (from memory): 1.7, 1.2, 1.0, 0.67 | 20, 15, 12, 8
     tie_large_long_db: float  # 25.7.2.2: longitudinal bars larger than No. 32 | No. 10 (32.3 mm | 1.27 in)
     tie_db: tuple  # 25.7.2.2: tie at least No. 10, No. 13 (9.5, 12.7 mm) | No. 3, No. 4 (0.375, 0.5 in)
+    spiral_clear: tuple  # 25.7.3.1: clear spacing of a spiral's turns at least 25 mm | 1 in, at most 75 mm | 3 in
     # --- flexure (22.2, 20.2.2.2) ---
     es: float  # 20.2.2.2: Es = 200,000 MPa | 29,000,000 psi
     beta1_fc: tuple  # Table 22.2.2.4.3: 0.85 to 28 MPa | 4000 psi, 0.65 from 55 MPa | 8000 psi ...
@@ -120,10 +122,10 @@ SI = Edition(
     first_hoop_max=50.0, fyt_confinement_max=690.0, grade_high_fy=420.0, smf_beam_bw_min=250.0,
     smf_beam_hoop_s=150.0, smf_beam_hx_max=350.0, imf_beam_hoop_s=300.0, unsupported_bar_clear=150.0,
     bar_clear_spacing_min=25.0,
-    smf_column_min_dim=300.0,
+    smf_column_min_dim=300.0, smf_column_hx_high=200.0,
     lo_min=450.0, so_base=100.0, so_hx=350.0, so_max=150.0, smf_beyond_lo_max=150.0, kf_fc=175.0, high_fc=70.0,
     imf_column_so=(200.0, 150.0), joint_coefficients=(1.7, 1.2, 1.0, 0.67), tie_large_long_db=32.3,
-    tie_db=(9.5, 12.7), es=200_000.0, beta1_fc=(28.0, 55.0), beta1_step=7.0,
+    tie_db=(9.5, 12.7), spiral_clear=(25.0, 75.0), es=200_000.0, beta1_fc=(28.0, 55.0), beta1_step=7.0,
     distributed_s_max=300.0, deep_s_max=300.0, deep_shear_limit=0.83, sqrt_fc_max_development=8.3, ld_min=300.0,
     small_bar_max_db=19.1, ld_coefficients=(2.1, 1.7, 1.4, 1.1), grade_factor_fy=(420.0, 550.0),
     hook_psi_c=(105.0, 42.0), ldh_coefficient=23.0, ldh_min=150.0, hook_side_cover=65.0)
@@ -136,10 +138,10 @@ US = Edition(
     hook_small_db_max=0.625, hook_min_extension=3.0,
     first_hoop_max=2.0, fyt_confinement_max=100_000.0, grade_high_fy=60_000.0, smf_beam_bw_min=10.0,
     smf_beam_hoop_s=6.0, smf_beam_hx_max=14.0, imf_beam_hoop_s=12.0, unsupported_bar_clear=6.0,
-    bar_clear_spacing_min=1.0, smf_column_min_dim=12.0,
+    bar_clear_spacing_min=1.0, smf_column_min_dim=12.0, smf_column_hx_high=8.0,
     lo_min=18.0, so_base=4.0, so_hx=14.0, so_max=6.0, smf_beyond_lo_max=6.0, kf_fc=25_000.0, high_fc=10_000.0,
     imf_column_so=(8.0, 6.0), joint_coefficients=(20.0, 15.0, 12.0, 8.0), tie_large_long_db=1.27,
-    tie_db=(0.375, 0.5), es=29_000_000.0, beta1_fc=(4000.0, 8000.0), beta1_step=1000.0,
+    tie_db=(0.375, 0.5), spiral_clear=(1.0, 3.0), es=29_000_000.0, beta1_fc=(4000.0, 8000.0), beta1_step=1000.0,
     distributed_s_max=12.0, deep_s_max=12.0, deep_shear_limit=10.0, sqrt_fc_max_development=100.0, ld_min=12.0,
     small_bar_max_db=0.75, ld_coefficients=(25.0, 20.0, 50.0 / 3.0, 40.0 / 3.0), grade_factor_fy=(60_000.0, 80_000.0),
     hook_psi_c=(15_000.0, 6000.0), ldh_coefficient=55.0, ldh_min=6.0, hook_side_cover=2.5)
@@ -766,3 +768,49 @@ def biaxial_shear_utilization_elliptical(ratio_x, ratio_y):
     """sqrt((Vu,x/phi Vn,x)^2 + (Vu,y/phi Vn,y)^2) (common practice): never less than the code's
     rule of 22.5.1.11 above, so a layout that passes it also passes the code's."""
     return np.hypot(ratio_x, ratio_y)
+
+
+
+# --- spirals and circular sections (25.7.3, 22.7.6.1) -------------------------------------
+
+def spiral_pitch_limits(db_spiral, u: Edition = SI):
+    """(least, greatest) centre-to-centre pitch of a spiral: clear spacing between 25 and 75 mm |
+    1 and 3 in (25.7.3.1; the 4/3 dagg of 25.7.3.1 is not checked)."""
+    db = np.asarray(db_spiral, float)
+    return u.spiral_clear[0] + db, u.spiral_clear[1] + db
+
+
+def spiral_min_rho_s(Ag, Ach, fc, fyt, u: Edition = SI):
+    """Volumetric ratio of a spiral: rho_s >= 0.45 (Ag/Ach - 1) f'c/fyt (25.7.3.3), fyt at most
+    690 MPa | 100,000 psi (Table 20.2.2.4(a), from memory)."""
+    return 0.45 * (np.asarray(Ag, float) / Ach - 1.0) * fc / np.minimum(fyt, u.fyt_confinement_max)
+
+
+def circular_torsion_geometry(diameter, clear_cover, db_tie):
+    """Aoh and ph of a circular section: the area and perimeter enclosed by the centreline of the
+    outermost circular hoop or spiral (R22.7.6.1, as for the rectangle of a closed stirrup)."""
+    dc = np.maximum(np.asarray(diameter, float) - 2.0 * clear_cover - db_tie, 1e-6)
+    return np.pi * dc**2 / 4.0, np.pi * dc
+
+
+# --- short columns of ordinary moment frames (18.3.3) -------------------------------------
+
+def ordinary_frame_short_column(clear_height, c1):
+    """18.3.3 (from memory): columns of ordinary moment frames with a clear height at most five times
+    c1 (the column dimension in the direction of the shear considered) are designed for shear by
+    18.4.3.1."""
+    return np.asarray(clear_height, float) <= 5.0 * np.asarray(c1, float)
+
+
+BIAXIAL_RULES = ("code", "elliptical")
+
+
+def biaxial_interaction(ratio_x, ratio_y, rule: str = "code"):
+    """Utilization of shear along both principal axes: ``"code"`` is 22.5.1.10 and 22.5.1.11
+    (``biaxial_shear_utilization``), ``"elliptical"`` the common-practice circle, which is never
+    less than the code's rule (``biaxial_shear_utilization_elliptical``)."""
+    if rule == "code":
+        return biaxial_shear_utilization(ratio_x, ratio_y)
+    if rule == "elliptical":
+        return biaxial_shear_utilization_elliptical(ratio_x, ratio_y)
+    raise ValueError(f"rule must be one of {', '.join(BIAXIAL_RULES)}")

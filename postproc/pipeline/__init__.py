@@ -39,10 +39,14 @@ MEMBER_COLUMNS = ["member", "status", "message", "governing_case", "vu_design_i_
                   "x_governing_mm", "vu_kN", "nu_kN", "tu_kNm", "vc_equation", "al_torsion_mm2",
                   # deep beams and D-regions (strut-and-tie, Ch. 23): which method designed the member, the
                   # bottom tie's steel (As required, the bars), the horizontal web bars (9.9.3.1(b))
-                  "method", "tie_as_req_mm2", "tie_bars", "web_bars"]
+                  "method", "tie_as_req_mm2", "tie_bars", "web_bars",
+                  # shear parallel to b (Vb_kN) and capacity design (columns)
+                  "vb_design_i_kN", "vb_design_j_kN", "vb_kN", "utilization_v", "utilization_vb", "phi_vc_vb_kN",
+                  "phi_vn_limit_vb_kN", "ve_v_kN", "ve_vb_kN", "lo_mm"]
 ZONE_COLUMNS = ["member", "zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count",
-                # added after the first release, at the end: stirrup, hoop (beams); tie, spiral (columns)
-                "kind"]
+                # added after the first release, at the end: stirrup, hoop (beams); tie, hoop, spiral (columns);
+                # a column's legs parallel to b (legs: parallel to h)
+                "kind", "legs_vb"]
 
 
 class SelfCheckError(AssertionError):

@@ -16,6 +16,7 @@ import pyarrow as pa
 from postproc import detailing, stations
 from postproc.codes import aci318_19 as aci
 from postproc.demand import beams as demand
+from postproc.demand import lateral
 from postproc.demand import frames as fr
 from postproc.pipeline import (BatchOutput, MemberGeometry, Resampled, SelfCheckError, edition, frame_beams, governing,
                                row, unit_system)
@@ -23,8 +24,8 @@ from postproc.pipeline import deep as deep_step
 from postproc.settings import Settings
 
 KINDS = ("beam",)
-USES_VB = False  # beams are designed for V (parallel to h); a Vb column is read for columns
-SIGNED = ("V", "T")  # quantities whose sign does not matter to the demand (|Vu|, |Tu|)
+USES_VB = True  # beams are designed for V (parallel to h); Vb, where given, is checked with those stirrups
+SIGNED = ("V", "Vb", "T")  # quantities whose sign does not matter to the demand (|Vu|, |Vb|, |Tu|)
 
 
 @dataclass(frozen=True)
@@ -468,11 +469,57 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
     lay = _layout(mb, rs, cand, dem, opt, not_here != "", settings, fp, reg)
     prov = _provided(mb, rs, opt, lay, settings.detailing)
     cap = _check(mb, rs, cand, dem, prov, lay, settings, opt, fp, reg)
+    cap, vb = _check_vb(mb, rs, cand, dem, opt, lay, prov, cap, settings)
     region_util = deep_step.check(reg, prov, mb.names, rs, settings)
     rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, not_here, settings, fp,
                                              reg, region_util)
+    for r in rows:  # the shear parallel to b, where given
+        r.update(vb.get(r["member"], {}))
     rows = deep_step.records(reg, rows, lay, region_util, rs, settings)
     return BatchOutput(rows, zones, trace, rs.warnings + fp.warnings, positions, reg.tables)
+
+
+def _check_vb(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, lay: Layouts, prov: Provided,
+              cap: demand.Capacity, settings: Settings):
+    """Vb (forces.csv Vb_kN, parallel to b), where given, checked with the stirrups laid out for V
+    (postproc.demand.lateral): the interaction of both directions joins each candidate's utilization;
+    a beam whose stirrups do not suffice about the other axis is not designed, with the reason.
+    Returns the capacity and, per member, its members.csv values for Vb."""
+    vb = np.abs(cand.values.get("Vb", np.zeros(len(cand))))
+    if not vb.any():
+        return cap, {}
+    U = unit_system(settings)
+    grid, cs = rs.grid, cand.station
+    mem = grid.member[cs]
+    sec = mb.sec.take(mem)
+    k = np.maximum(lay.option, 0)
+    closed = np.full(len(mb.names), settings.detailing.stirrup_shape == "closed")
+    np.logical_or.at(closed, grid.member, dem.torsion)  # 25.7.1.6
+    legs_b = lateral.horizontal_legs(opt.legs[k, np.arange(len(k))].astype(int), closed)[mem]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio_v = np.where(prov.on[cs], np.where(dem.pairs.vu > 0, dem.pairs.vu / cap.phi_vn, 0.0), 0.0)
+    got = lateral.check(sec.b, sec.h, sec.d, sec.fc, sec.fyt, sec.lam, sec.Ag, vb, -cand.values["N"], ratio_v,
+                        legs_b, opt.area[k][mem], prov.spacing[cs], settings.columns.biaxial_shear, mb.sec.u)
+    on = prov.on[cs]
+    bounds = cand.bounds[grid.offsets]
+    out = {}
+    for m in range(len(mb.names)):
+        sl = slice(bounds[m], bounds[m + 1])
+        if not vb[sl].any():
+            continue
+        first, last = grid.offsets[m], grid.offsets[m + 1] - 1
+        at = lambda s: vb[cand.bounds[s]:cand.bounds[s + 1]].max(initial=0.0) / U.per_force  # noqa: E731
+        out[mb.names[m]] = dict(vb_design_i_kN=round(at(first), 2), vb_design_j_kN=round(at(last), 2),
+                                utilization_vb=round(float(got.ratio[sl].max()), 3))
+        bad = np.flatnonzero(got.fails[sl] & on[sl])
+        if lay.option[m] >= 0 and len(bad):
+            j = sl.start + bad[0]
+            lay.option[m] = -1
+            lay.reasons[m] = ("resize", f"{got.why[j]} at x = {rs.x_clear[cs[j]]:,.0f} {U.length} "
+                                        f"({vb[j] / U.per_force:,.1f} {U.force}): the stirrups are designed for V and "
+                                        "checked for Vb, not designed for it")
+    return replace(cap, pair_utilization=np.where(on, np.maximum(cap.pair_utilization, got.interaction),
+                                                  cap.pair_utilization)), out
 
 
 geometry = _geometry

@@ -1,0 +1,62 @@
+"""The shear parallel to b of a beam (forces.csv ``Vb_kN``), checked with the stirrups laid out
+for V (ACI 318-19 22.5, 9.6.3, 9.7.6.2.2): the same provisions about the other axis.
+
+About that axis the section has bw = h and d = b less the cover of the V direction (h - d),
+the flanges left out (conservative), and the legs parallel to b are the horizontal legs of the
+stirrup set: two of each closed stirrup, one of an open one. The side bars are not known, so
+Vc is Table 22.5.5.1(a) where those legs give Av,min and zero where they do not (conservative).
+The two directions act together by the interaction of 22.5.1.10 and 22.5.1.11 (or the ellipse,
+a setting). The layout is not changed for Vb: where it does not suffice, the beam is reported
+with the reason.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from postproc.codes import aci318_19 as aci
+from postproc.codes.aci318_19 import SI, Edition
+
+PHI = aci.PHI_SHEAR
+
+
+@dataclass(frozen=True)
+class Lateral:
+    ratio: np.ndarray  # per candidate: Vb / phi Vn about the other axis (and over its section limit)
+    interaction: np.ndarray  # per candidate: both directions together
+    fails: np.ndarray  # per station: a check about the other axis fails
+    why: np.ndarray  # per station: which ('' where none)
+
+
+def horizontal_legs(legs: np.ndarray, closed: np.ndarray) -> np.ndarray:
+    """Legs parallel to b of a stirrup set of ``legs`` vertical legs (detailing.stirrup_set): the outer
+    stirrup's top and bottom (its bottom alone where open) and two of each inner closed stirrup."""
+    inner = np.maximum(legs // 2 - 1, 0)
+    return np.where(closed, 2, 1) + 2 * inner
+
+
+def check(b, h, d, fc, fyt, lam, Ag, vb, nu, ratio_v, legs_b, bar_area, spacing, rule: str, u: Edition = SI,
+          tol: float = 1e-9) -> Lateral:
+    """Per candidate (arrays aligned; ``spacing`` the gap in force at its station, ``ratio_v`` its
+    Vu / phi Vn about the main axis): the ratio about the other axis and the interaction; and the
+    checks 9.6.3.1 (Av,min where Vb > phi 0.083 lambda sqrt(f'c) bw d), 22.5.1.2 and 9.7.6.2.2 (d/2)."""
+    bw, dd = h, b - (h - d)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        av_s = np.where(np.isfinite(spacing), legs_b * bar_area / spacing, 0.0)
+    has_min = av_s >= aci.av_min_over_s(fc, bw, fyt, u) * (1 - tol)
+    vc_a = aci.vc_with_min_stirrups(fc, bw, dd, nu, Ag, lam, u=u)
+    vc = np.where(has_min, vc_a, 0.0)
+    vs = np.minimum(av_s * fyt * dd, aci.vs_max(fc, bw, dd, u))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = np.where(vb > 0, vb / (PHI * (vc + vs)), 0.0)
+        limit = vb / aci.section_limit(vc_a, fc, bw, dd, u)
+    r = np.nan_to_num(np.maximum(r, limit), nan=np.inf)
+    both = aci.biaxial_interaction(np.nan_to_num(ratio_v, nan=np.inf), r, rule)
+    need_min = vb > aci.av_min_threshold(fc, bw, dd, lam, u)
+    why = np.where(both > 1 + tol, "Vu and Vb together exceed phi Vn (22.5.1.10, 22.5.1.11)",
+                   np.where(need_min & ~has_min, "Vb needs Av,min across b (9.6.3.1)",
+                            np.where(need_min & (spacing > dd / 2 * (1 + tol)),
+                                     "the stirrups are wider apart than d/2 about the other axis (9.7.6.2.2)", "")))
+    return Lateral(r, both, why != "", why)
