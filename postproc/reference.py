@@ -67,14 +67,15 @@ def _snap(xs: list[float], tol: float) -> list[float]:
     return out
 
 
-def _combo_values(V, N, T, names, factors):
-    """Every combination's (|V|, Nu compression positive, |T|)."""
+def _combo_values(V, N, T, names, factors, Vb=None):
+    """Every combination's (|V|, Nu compression positive, |T|, |Vb|)."""
     out = []
     for name, row in zip(names, factors):
         v = sum(f * p for f, p in zip(row, V))
         n = sum(f * p for f, p in zip(row, N))
         t = sum(f * p for f, p in zip(row, T))
-        out.append((name, abs(v), -n, abs(t)))
+        vb = sum(f * p for f, p in zip(row, Vb)) if Vb is not None else 0.0
+        out.append((name, abs(v), -n, abs(t), abs(vb)))
     return out
 
 
@@ -100,8 +101,9 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     for case in cases:
         rows = forces[forces.case == case].sort_values("x_m", kind="stable")
         xs = _snap([x * U.per_span for x in rows.x_m], st.tolerance)
+        vbs = [v * U.per_force for v in rows.Vb_kN] if "Vb_kN" in rows else [0.0] * len(xs)
         series[case] = (xs, [v * U.per_force for v in rows.V_kN], [v * U.per_force for v in rows.N_kN],
-                        [v * U.per_moment for v in rows.T_kNm])
+                        [v * U.per_moment for v in rows.T_kNm], vbs)
         vmax = max([vmax] + [abs(v) for v in series[case][1]])
     for case in cases:
         xs, vs = series[case][0], series[case][1]
@@ -146,9 +148,9 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
             src = b - d
         right = side == 1 or src != x
         per_case = [[_value(s[0], s[q], src, right) if s[0] else 0.0 for s in (series[c] for c in cases)]
-                    for q in (1, 2, 3)]
+                    for q in (1, 2, 3, 4)]
         combos = []
-        for name, Vu, Nu, Tu in _combo_values(*per_case, combo_names, factors):
+        for name, Vu, Nu, Tu, Vb in _combo_values(*per_case[:3], combo_names, factors, per_case[3]):
             vc_hi = float(aci.vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam, rho, ed))
             vc_lo = float(aci.vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_c, lam, ed))
             t_on = Tu > 0 and Tu >= PHI * float(aci.torsion_threshold(fc, Acp, pcp, Nu, Ag, lam, ed))
@@ -157,7 +159,7 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
             q_hi = max(Vu / PHI - vc_hi, 0.0) / (fyt * d)
             q_lo = max(Vu / PHI - vc_lo, 0.0) / (fyt * d)
             av = q_hi if req else min(q_lo, max(q_hi, av_min))
-            combos.append(dict(name=name, vu=Vu, nu=Nu, tu=Tu, vc_hi=vc_hi, vc_lo=vc_lo, torsion=t_on, minimum=req,
+            combos.append(dict(name=name, vu=Vu, vb=Vb, nu=Nu, tu=Tu, vc_hi=vc_hi, vc_lo=vc_lo, torsion=t_on, minimum=req,
                                av=av, ata=float(aci.at_over_s(Tu, 1.0, fyt)) if t_on else 0.0,
                                heavy=(Vu / PHI - vc_hi) > ed.heavy_vs * sfc * bw * d,
                                ratio=Vu / (PHI * (vc_hi + ed.vs_max * sfc * bw * d))))
@@ -217,6 +219,7 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
 
     # the self-check at every station against every combination, and the governing one
     best, winners = (-1.0, -1.0), set()
+    closed = dt.stirrup_shape == "closed" or any(torsion)
     for k, (x, side, cs) in enumerate(stations):
         partner = k > 0 and stations[k - 1][0] == x and stations[k - 1][1] == 0 and side == 1
         rule = -1 if side == 0 else (1 if partner else 0)
@@ -233,6 +236,12 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
                 u = max(u, need / leg if leg > 0 else math.inf,
                         float(aci.torsion_section_ok(c["vu"], c["tu"], c["vc_hi"], fc, bw, d, Aoh, ph, ed)))
             total = max(u, c["ratio"])
+            if c["vb"] > 0:  # Vb, checked about the other axis with the horizontal legs (postproc.demand.lateral)
+                total = max(total, _lateral(c, b_w=bw, h=h, d=d, fc=fc, fyt=fyt, lam=lam, Ag=Ag, s=s, area=area,
+                                            legs=legs, closed=closed, ratio_v=c["vu"] / phi_vn,
+                                            rule=settings.columns.biaxial_shear, ed=ed))
+                if total > 1 + 1e-9:
+                    return {**row, "status": "resize"}, [], set()
             key = (round(total, 12), round(c["vu"] / phi_vn if phi_vn > 0 else 0.0, 12))
             if key > best:
                 best, winners = key, {c["name"]}
@@ -246,3 +255,198 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
              for k, z in enumerate(detailing.zones_from_positions(positions, ln, empty, dt.same_gap), start=1)]
     return ({**row, "status": "designed", "stirrups_total": len(positions), "utilization": round(best[0], 3)},
             zones, winners)
+
+
+def _lateral(c: dict, b_w, h, d, fc, fyt, lam, Ag, s, area, legs, closed, ratio_v, rule, ed) -> float:
+    """A beam's Vb about the other axis (bw = h, d = b - (h - d)): Vc by Table 22.5.5.1(a) where the
+    horizontal legs (two of each closed stirrup, one of an open one) give Av,min, else 0; the
+    interaction with V (22.5.1.10, 22.5.1.11 or elliptical); the section limit 22.5.1.2."""
+    bw, dd = h, b_w - (h - d)
+    legs_b = (2 if closed else 1) + 2 * max(legs // 2 - 1, 0)
+    av_s = legs_b * area / s if math.isfinite(s) else 0.0
+    r8 = min(math.sqrt(fc), ed.sqrt_fc_max)
+    vc_a = _vc(fc, bw, dd, c["nu"], Ag, lam, 0.0, True, ed)
+    has_min = av_s >= max(ed.av_min_sqrt * math.sqrt(fc), ed.av_min_flat) * bw / fyt * (1 - 1e-9)
+    vc = vc_a if has_min else 0.0
+    r = c["vb"] / (PHI * (vc + min(av_s * fyt * dd, ed.vs_max * r8 * bw * dd)))
+    r = max(r, c["vb"] / (PHI * (vc_a + ed.vs_max * r8 * bw * dd)))
+    if c["vb"] > PHI * ed.av_min_threshold * lam * r8 * bw * dd and (not has_min or s > dd / 2 * (1 + 1e-9)):
+        return math.inf  # Av,min (9.6.3.1) and d/2 (9.7.6.2.2) about the other axis
+    return max(math.hypot(ratio_v, r) if rule == "elliptical" else
+               (max(ratio_v, r, (ratio_v + r) / 1.5) if ratio_v > 0.5 and r > 0.5 else max(ratio_v, r)), 0.0)
+
+
+def _vc(fc: float, bw: float, d: float, Nu: float, Ag: float, lam: float, rho: float, with_min: bool,
+        ed: aci.Edition = aci.SI) -> float:
+    """Table 22.5.5.1 written out: (a)/(b) with Av >= Av,min, (c) without; Nu/(6Ag) <= 0.05 f'c
+    (22.5.5.1.2), sqrt(f'c) <= 8.3 MPa | 100 psi (22.5.3.1), 0 <= Vc <= 0.42 | 5 lambda sqrt(f'c) bw d
+    (22.5.5.1.1); the coefficients of the edition ``ed``."""
+    r = min(math.sqrt(fc), ed.sqrt_fc_max)
+    axial = min(Nu / (6.0 * Ag), 0.05 * fc)
+    if with_min:
+        coef = max(ed.vc_a * lam * r, ed.vc_b * lam * rho ** (1 / 3) * r)
+    else:
+        coef = ed.vc_b * min(math.sqrt(2.0 / (1.0 + ed.size_effect * d)), 1.0) * lam * rho ** (1 / 3) * r
+    return min(max((coef + axial) * bw * d, 0.0), ed.vc_max * lam * r * bw * d)
+
+
+def _gap_at(positions: list[float], x: float, clear: float) -> float:
+    """The gap between the ties on either side of x (beyond the end ties: the larger of the gap to
+    the face and the gap next to it); at a tie, the larger of its two gaps."""
+    pts = [0.0] + list(positions) + [clear]
+    gaps = [b - a for a, b in zip(pts[:-1], pts[1:])]
+    if len(gaps) >= 3:
+        gaps[0], gaps[-1] = max(gaps[0], gaps[1]), max(gaps[-1], gaps[-2])
+    k = bisect.bisect_left(pts, x)
+    if k < len(pts) and pts[k] == x and 0 < k < len(pts) - 1:
+        return max(gaps[k - 1], gaps[k])
+    return gaps[max(min(k - 1, len(gaps) - 1), 0)]
+
+
+def check_column(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], factors: np.ndarray, cases: list[str],
+                 bar: str, legs_v: int, legs_vb: int, positions: np.ndarray, settings: Settings,
+                 step: float | None = None) -> dict:
+    """A plain re-check of a column's ties (Chapter 10 columns without torsion): at stations every
+    ``step`` (default 10 mm | 0.4 in) and at every input station, for every combination listed one by one, each
+    direction's phi Vn with the tie gap in force there (22.5.1.1, 22.5.8.5.3, 22.5.2.2, Vs <= 0.66
+    sqrt(f'c) bw d), the interaction (22.5.1.10, 22.5.1.11, or elliptical), Av,min where Vu > 0.5 phi
+    Vc (10.6.2.1, 10.6.2.2), 10.7.6.5.2 and 25.7.2.1(b). Returns the largest utilization, the
+    problems found, and the least spacing the demand allows anywhere. ``m`` and ``forces`` are
+    named in the run's unit system; lengths in its internal units."""
+    U, ed = units.system(settings.units), aci.edition(settings.units)
+    m = m.rename(units.si_name)
+    forces = units.si_keyed(forces)
+    step = settings.detailing.spacing_module / 2.5 if step is None else step
+    circular = np.isfinite(m.get("diameter_mm", np.nan))
+    fc, lam = float(m.fc_mpa), float(m["lambda"])
+    fyt = min(float(m.fyt_mpa), ed.fyt_max)
+    D = float(m.diameter_mm) if circular else None
+    b, h = (D, D) if circular else (float(m.b_mm), float(m.h_mm))
+    edge = float(m.cover_mm) if np.isfinite(m.cover_mm) else h - float(m.d_mm)
+    n, db = int(m.n_long), float(m.db_long_mm)
+    one = float(m.as_long_mm2) / n if np.isfinite(m.get("as_long_mm2", np.nan)) else math.pi * db**2 / 4
+    Ag = math.pi * D**2 / 4 if circular else b * h
+    if circular:
+        dirs = {"v": (D, 0.8 * D, n // 2 * one / (D * 0.8 * D)), "vb": (D, 0.8 * D, n // 2 * one / (D * 0.8 * D))}
+    else:
+        pairs = (n - 4) // 2
+        on_b = math.floor(pairs * (b - 2 * edge) / (b + h - 4 * edge) + 0.5)
+        on_h = pairs - on_b
+        dirs = {"v": (b, h - edge, (on_b + 2) * one / (b * (h - edge))),
+                "vb": (h, b - edge, (on_h + 2) * one / (h * (b - edge)))}
+    legs = {"v": legs_v, "vb": legs_vb}
+    db_tie, area = settings.detailing.bars[bar]
+    L = float(m.length_m) * U.per_span
+    a, clear = float(m.face_i_mm), L - float(m.face_i_mm) - float(m.face_j_mm)
+    rule = settings.columns.biaxial_shear
+    series = {}
+    for case in cases:
+        rows = forces[forces.case == case].sort_values("x_m", kind="stable")
+        xs = [x * U.per_span for x in rows.x_m]
+        series[case] = (xs, [v * U.per_force for v in rows.V_kN], [v * U.per_force for v in rows.Vb_kN],
+                        [v * U.per_force for v in rows.N_kN])
+    pts = {a + k * step for k in range(int(clear // step) + 1)} | {a + clear}
+    pts |= {x for s in series.values() for x in s[0] if a <= x <= a + clear}
+    s_tie = min(16 * db, 48 * db_tie, min(b, h))  # 25.7.2.1(b)
+    worst, problems, least = 0.0, [], math.inf
+    pos = sorted(float(p) for p in positions)
+    for x in sorted(pts):
+        per_case = {c: [(_value(s[0], s[k], x, True) if s[0] else 0.0) for k in (1, 2, 3)] for c, s in series.items()}
+        s_gap = _gap_at(pos, x - a, clear)
+        needed = {"v": False, "vb": False}
+        heavy = {"v": False, "vb": False}
+        for name, row in zip(combo_names, factors):
+            V = abs(sum(f * per_case[c][0] for f, c in zip(row, cases)))
+            Vb = abs(sum(f * per_case[c][1] for f, c in zip(row, cases)))
+            Nu = -sum(f * per_case[c][2] for f, c in zip(row, cases))
+            vu = {"v": V, "vb": Vb}
+            ratio, t_need = {}, {}
+            for k, (bw, d, rho) in dirs.items():
+                av_min = max(ed.av_min_sqrt * math.sqrt(fc), ed.av_min_flat) * bw / fyt  # 10.6.2.2
+                av_s = legs[k] * area / s_gap
+                has_min = av_s >= av_min * (1 - 1e-9)
+                vc = _vc(fc, bw, d, Nu, Ag, lam, rho, has_min, ed)
+                vc_lo = _vc(fc, bw, d, Nu, Ag, lam, rho, False, ed)
+                vc_hi = _vc(fc, bw, d, Nu, Ag, lam, rho, True, ed)
+                vs = min(av_s * fyt * d, ed.vs_max * min(math.sqrt(fc), ed.sqrt_fc_max) * bw * d)
+                ratio[k] = vu[k] / (PHI * (vc + vs)) if vu[k] > 0 else 0.0
+                if vu[k] > PHI * (vc_hi + ed.vs_max * min(math.sqrt(fc), ed.sqrt_fc_max) * bw * d) * (1 + 1e-9):
+                    problems.append(f"x = {x - a:.0f}: {name}: {k} over the section limit (22.5.1.2)")
+                if vu[k] > 0.5 * PHI * vc_lo:  # 10.6.2.1
+                    needed[k] = True
+                    if not has_min:
+                        problems.append(f"x = {x - a:.0f}: {name}: Av < Av,min in direction {k} (10.6.2.1)")
+                    t_need[k] = av_min / (legs[k] * area)
+                heavy[k] |= vu[k] / PHI - vc_hi > ed.heavy_vs * min(math.sqrt(fc), ed.sqrt_fc_max) * bw * d
+            rx, ry = ratio["v"], ratio["vb"]
+            u = math.hypot(rx, ry) if rule == "elliptical" else (
+                max(rx, ry, (rx + ry) / 1.5) if rx > 0.5 and ry > 0.5 else max(rx, ry))
+            worst = max(worst, u)
+            if u > 1 + 1e-9:
+                problems.append(f"x = {x - a:.0f}: {name}: utilization {u:.4f}")
+            least = min(least, 1.0 / _least_t(vu, Nu, dirs, legs, area, fc, fyt, lam, Ag, rule, t_need, ed))
+        s_max = s_tie
+        for k, (bw, d, _) in dirs.items():
+            if needed[k]:
+                s_max = min(s_max, min(d / 4, ed.s_max_heavy) if heavy[k] else min(d / 2, ed.s_max_light))  # 10.7.6.5.2
+        least = min(least, s_max)
+        if s_gap > s_max * (1 + 1e-9):
+            problems.append(f"x = {x - a:.0f}: gap {s_gap:g} mm over s_max {s_max:g} mm")
+    return {"utilization": worst, "problems": problems, "least_spacing": least}
+
+
+def _least_t(vu, Nu, dirs, legs, area, fc, fyt, lam, Ag, rule, t_need, ed) -> float:
+    """The least 1/s at which one combination passes, within each stretch where the Vc of each
+    direction is fixed (Table 22.5.5.1 switches to (a)/(b) at Av = Av,min): each direction alone in
+    closed form, the interaction by a scalar root search."""
+    r8 = min(math.sqrt(fc), ed.sqrt_fc_max)
+    k_of = {k: legs[k] * area * fyt * d for k, (bw, d, _) in dirs.items()}  # Vs per unit 1/s
+    t_min = {k: max(ed.av_min_sqrt * math.sqrt(fc), ed.av_min_flat) * bw / fyt / (legs[k] * area)
+             for k, (bw, d, _) in dirs.items()}
+    breaks = sorted({0.0, *t_min.values()})
+    lower = max([0.0, *t_need.values()])
+    for lo, hi in zip(breaks, breaks[1:] + [math.inf]):
+        if hi <= lower:
+            continue
+        lo = max(lo, lower)
+        c = {k: _vc(fc, bw, d, Nu, Ag, lam, rho, lo >= t_min[k] * (1 - 1e-12), ed) for k, (bw, d, rho) in dirs.items()}
+        cap = {k: ed.vs_max * r8 * bw * d for k, (bw, d, _) in dirs.items()}
+
+        def ratio(k, t):
+            return vu[k] / (PHI * (c[k] + min(k_of[k] * t, cap[k]))) if vu[k] > 0 else 0.0
+
+        def ok(t):
+            rx, ry = ratio("v", t), ratio("vb", t)
+            u = math.hypot(rx, ry) if rule == "elliptical" else (
+                max(rx, ry, (rx + ry) / 1.5) if rx > 0.5 and ry > 0.5 else max(rx, ry))
+            return u <= 1 + 1e-9
+
+        # each direction alone: Vs = Vu/(phi r) - Vc for the target ratio r; the interaction sets r
+        def t_for(k, r):
+            return max(vu[k] / (PHI * r) - c[k], 0.0) / k_of[k] if vu[k] > 0 else 0.0
+
+        options = [max(lo, t_for("v", 1.0), t_for("vb", 1.0))]
+        if rule == "elliptical":
+            options.append(_root(lambda t: math.hypot(ratio("v", t), ratio("vb", t)) - 1.0, lo))
+        else:
+            options.append(max(lo, min(t_for("v", 0.5), t_for("vb", 0.5)) * (1 + 1e-12)))  # one ratio <= 0.5
+            options.append(_root(lambda t: ratio("v", t) + ratio("vb", t) - 1.5, lo))  # the sum <= 1.5
+        good = [t for t in options if t < hi and ok(t)]
+        if good:
+            return max(min(good), 1e-300)
+    return math.inf
+
+
+def _root(f, lo: float) -> float:
+    """The least t >= lo with f(t) <= 0 for a nonincreasing f: doubling, then 200 halvings."""
+    if f(lo) <= 0:
+        return lo
+    hi = max(lo, 1e-6) * 2
+    while f(hi) > 0:
+        hi *= 2
+        if hi > 1e6:
+            return math.inf
+    for _ in range(200):
+        mid = (lo + hi) / 2
+        lo, hi = (lo, mid) if f(mid) <= 0 else (mid, hi)
+    return hi

@@ -103,7 +103,7 @@ def test_random_columns_pass_their_self_check_and_the_plain_recheck(tmp_path, dr
             inside = x[(x >= zone.start_mm - 0.05) & (x <= zone.end_mm + 0.05)]
             assert len(inside) == zone.count
             if zone.count > 1:
-                assert np.allclose(np.diff(inside), zone.spacing_mm, atol=detailing.SAME_GAP_MM)
+                assert np.allclose(np.diff(inside), zone.spacing_mm, atol=s.detailing.same_gap)
         assert set(z.kind) <= {"tie", "hoop", "spiral"}
         has_torsion = (forces[forces.member == m.member].T_kNm != 0).any()
         if m.frame != "none" or has_torsion:

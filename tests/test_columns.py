@@ -351,3 +351,21 @@ def test_beam_vb_is_checked_with_the_stirrups_about_the_other_axis(tmp_path):
     # HIGH: 150 kN / (0.75 x 191.4 kN) = 1.045 > 1 with the same stirrups: reported, the layout is not changed for Vb
     assert 150e3 / (PHI * vn_b) > 1.0
     assert m.status["HIGH"] == "resize" and "Vb" in m.message["HIGH"] and "22.5.1.11" in m.message["HIGH"]
+
+
+def test_column_in_inch_pound_units(tmp_path):
+    # The inch-pound edition's own equations (ACI 318-19, in., psi): 16 x 24 in column, bars 2.5 in from the
+    # faces, f'c = 4000 psi, 8 No. 8 bars (1.0 in), Nu = 270 kip. V (parallel to h = 24 in): bw = 16, d = 21.5 in;
+    # Table 22.5.5.1(a): Vc = (2 sqrt(4000) + 270,000/(6 x 384)) x 16 x 21.5 = (126.5 + 117.2) x 344 lb = 83.8 kip.
+    # V = 5 kip needs no steel (Vu <= 0.5 phi Vc, 10.6.2.1): 25.7.2.1 governs, min(16 x 1.0, 48 x 0.375, 16) = 16 in.
+    member = dict(member="US1", kind="column", length_ft=12.0, b_in=16.0, h_in=24.0, cover_in=2.5, fc_psi=4000.0,
+                  fyt_psi=60_000.0, support_i="column", support_j="column", db_long_in=1.0, n_long=8)
+    forces = [dict(member="US1", case="U", x_ft=x, V_kip=5.0, Vb_kip=0.0, N_kip=-270.0) for x in (0.0, 12.0)]
+    d = design(tmp_path, [member], forces, extra=["--units", "us"])
+    assert d.code == 0
+    row = d.members.set_index("member").loc["US1"]
+    vc = (2 * math.sqrt(4000) + 270_000 / (6 * 16 * 24)) * 16 * 21.5
+    assert row.phi_vc_kip == pytest.approx(PHI * vc / 1e3, abs=0.01)
+    z = d.zones[d.zones.member == "US1"]
+    assert z.spacing_in.dropna().min() == min(16 * 1.0, 48 * 0.375, 16.0) == 16.0
+    assert set(z.kind) == {"tie"}
