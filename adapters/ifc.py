@@ -52,7 +52,9 @@ Supports (each beam end, within the settings' tolerance)
     gives ``girder``, the face offset being where the axis leaves that web. Priority:
     column, wall, girder; else ``free``. In an analysis view, a restrained point
     connection counts as a column of no width (face offset 0).
-    Columns in the table carry ``column`` at both ends; they are not designed.
+    Columns in the table carry ``column`` at both ends, their faces where the beams meet them;
+    a circular profile gives ``diameter_mm``, and ShearpostDesign ``NLong``, ``AsLong``,
+    ``TiesH``, ``TiesB`` (with ``Frame`` and ``DbLong``) their bars and tie legs.
 """
 
 from __future__ import annotations
@@ -91,6 +93,8 @@ EXTRA_COLUMNS = ("invalid_reason", "source_id")  # the end coordinates x_i_m ...
 # ShearpostDesign properties of a moment-frame beam (ACI 318-19 Chapter 18) -> members.csv columns
 FRAME_PROPERTIES = {"Frame": "frame", "AsTopI": "as_top_i_mm2", "AsBotI": "as_bot_i_mm2", "AsTopJ": "as_top_j_mm2",
                     "AsBotJ": "as_bot_j_mm2", "DbLong": "db_long_mm"}
+# ... and of a column's bars and ties (with Frame and DbLong above): counts and a total area
+COLUMN_PROPERTIES = {"NLong": "n_long", "AsLong": "as_long_mm2", "TiesH": "ties_h", "TiesB": "ties_b"}
 VERTICAL_COS = math.cos(math.radians(10.0))  # axis within 10 degrees of vertical: a column
 PARALLEL_SIN = math.sin(math.radians(10.0))  # beams within 10 degrees of parallel continue, not support
 PRIORITY = {"column": 0, "wall": 1, "girder": 2}
@@ -223,6 +227,7 @@ class Section:
     hf_mm: float | None
     v_lo_m: float  # bottom, relative to the centroid line
     v_hi_m: float  # top, relative to the centroid line
+    diameter_mm: float | None = None  # a circular column
 
 
 def measure(poly: Polygon) -> tuple[float, float, float | None, float | None]:
@@ -533,6 +538,21 @@ class _Model:
                 found[column] = self.units.mm2(prop.NominalValue, prop.Unit)
         return found
 
+    def column_values(self, entity) -> dict:
+        """A column's bar count, total steel and tie legs from the ShearpostDesign property set
+        (COLUMN_PROPERTIES; its frame and bar diameter come with frame_values)."""
+        found: dict = {}
+        for pset, prop in _element_properties(entity):
+            column = COLUMN_PROPERTIES.get(prop.Name) if pset == DESIGN_PSET else None
+            if column is None or column in found:
+                continue
+            if column == "as_long_mm2":
+                found[column] = self.units.mm2(prop.NominalValue, prop.Unit)
+            else:
+                raw = getattr(prop.NominalValue, "wrappedValue", prop.NominalValue)
+                found[column] = float(raw) if isinstance(raw, (int, float)) else None
+        return found
+
 
 # ---------------------------------------------------------------- elements
 
@@ -603,12 +623,15 @@ def _finish(part: _Part, sweep: _Sweep) -> None:
     poly = sweep.section(part.axis, 1e3)
     u0, v0, u1, v1 = poly.bounds
     c = poly.centroid.y
-    if part.role == "column":  # b and h as the profile's x and y extents; columns are not designed
+    diameter = None
+    if part.role == "column":  # b and h as the profile's x and y extents
         b, h, bf, hf = u1 - u0, v1 - v0, None, None
         part.footprint, part.z_range = sweep.footprint(), sweep.z_range()
+        if sweep.profile.is_a("IfcCircleProfileDef"):
+            diameter = b  # the outline's extent: the circle's vertices include its four extreme points
     else:
         b, h, bf, hf = measure(poly)
-    part.section = Section(b, h, bf, hf, (v0 - c) / 1e3, (v1 - c) / 1e3)
+    part.section = Section(b, h, bf, hf, (v0 - c) / 1e3, (v1 - c) / 1e3, diameter)
     part.line = sweep.centroid_line()
     part.problem = _profile_problem(sweep.profile, part.role)
 
@@ -743,6 +766,29 @@ def _carries(carrier: _Part, end: tuple[float, float], tol: float) -> bool:
     standing on the beam (its base at or above the beam's top, within ``tol``)."""
     stands_on = carrier.role != "point" and carrier.z_range[0] >= end[1] - tol
     return _overlaps(end, carrier.z_range, tol) and not stands_on
+
+
+def _column_faces(parts: list[_Part], tol: float) -> dict[int, tuple[float, float]]:
+    """Node-to-face distances (m) at the foot and the head of every column with nodes: the beams
+    whose plan lines reach its footprint (within ``tol``) and whose depth at that point spans the
+    node's height; the clear height runs from the top of the highest such beam at the foot to the
+    soffit of the lowest at the head (0 where none: a footing, a free end)."""
+    beams = [p for p in parts if p.role == "beam" and p.section is not None and p.line is not None]
+    tree = STRtree([LineString([p.line[0][:2], p.line[1][:2]]) for p in beams]) if beams else None
+    out: dict[int, tuple[float, float]] = {}
+    for c in parts:
+        if c.role != "column" or c.nodes is None or tree is None:
+            continue
+        foot, head = sorted(c.nodes, key=lambda n: n[2])
+        where = c.footprint if c.footprint is not None and not c.footprint.is_empty else Point(foot[:2])
+        faces = [0.0, 0.0]
+        for k in tree.query(where, predicate="dwithin", distance=tol):
+            for end, node in enumerate((foot, head)):
+                lo, hi = beams[k].z_range_at(node[:2])
+                if lo - tol <= node[2] <= hi + tol:
+                    faces[end] = max(faces[end], hi - node[2] if end == 0 else node[2] - lo)
+        out[c.entity.id()] = (faces[0], faces[1]) if c.nodes[0][2] <= c.nodes[1][2] else (faces[1], faces[0])
+    return out
 
 
 def _supports(parts: list[_Part], tol: float, warnings: list[str], ids: dict[int, str]):
@@ -936,6 +982,8 @@ def _level(entity) -> str:
 def _value_problem(row: dict) -> str | None:
     """The first value that read_members would refuse, as a reason."""
     L, b, h, d = row["length_m"], row["b_mm"], row["h_mm"], row["d_mm"]
+    if row.get("diameter_mm") is not None:
+        b = h = row["diameter_mm"]
     if not (b > 0 and h > 0):
         return "section has no width or depth"
     if not 0 < d < h:
@@ -992,6 +1040,8 @@ def read_ifc_members(path, *, key: str = "globalid",
     parts += _restraints(m, warnings)
     ids = _member_ids(path, members, key)
     supports = _supports(parts, defaults.tolerance_mm / 1e3, warnings, ids)
+    for entity_id, (foot, head) in _column_faces(parts, defaults.tolerance_mm / 1e3).items():
+        supports[entity_id] = [("column", foot), ("column", head)]
     rows = [_row(m, p, ids[p.entity.id()], supports.get(p.entity.id()), defaults, warnings) for p in members]
     if defaults.fyt_mpa > aci.FYT_MAX_MPA:
         warnings.append(f"fyt {defaults.fyt_mpa:g} MPa from the settings is capped at {aci.FYT_MAX_MPA:g} MPa "
@@ -1011,8 +1061,8 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
         (xi, yi, zi), (xj, yj, zj) = np.round(p.nodes, 6).tolist()
         row.update(x_i_m=xi, y_i_m=yi, z_i_m=zi, x_j_m=xj, y_j_m=yj, z_j_m=zj,
                    length_m=round(float(np.linalg.norm(p.nodes[1] - p.nodes[0])), 6))
-    if p.role == "column":
-        ends = [("column", 0.0)] * 2
+    if p.role == "column":  # faces where the beams meet it (_column_faces)
+        ends = ends or [("column", 0.0)] * 2
     (si, fi), (sj, fj) = ends or [("free", 0.0)] * 2
     row.update(support_i=si, support_j=sj, face_i_mm=round(fi * 1e3, 3), face_j_mm=round(fj * 1e3, 3))
     fc = m.fc_mpa(entity, materials)
@@ -1021,7 +1071,13 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
     defaulted = []
     if fc is None:
         defaulted.append(f"f'c not in the model; {defaults.fc_mpa:g} MPa taken from the settings")
-    if p.section is not None:
+    if p.section is not None and p.section.diameter_mm is not None:  # a circular column: d = 0.8 D (22.5.2.2)
+        D = round(p.section.diameter_mm, 3)
+        if cover is None:
+            cover = defaults.cover_mm
+            defaulted.append(f"cover not in the model; {defaults.cover_mm:g} mm taken from the settings")
+        row.update(diameter_mm=D, d_mm=0.8 * D, cover_mm=cover)
+    elif p.section is not None:
         s = p.section
         row.update({k: None if v is None else round(v, 3) for k, v in
                     (("b_mm", s.b_mm), ("h_mm", s.h_mm), ("bf_mm", s.bf_mm), ("hf_mm", s.hf_mm))})
@@ -1033,14 +1089,16 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
     if row["invalid_reason"] is None and (steel := _steel_material(materials)):
         row["invalid_reason"] = f"material '{steel}' is steel: not a reinforced-concrete section"
     row.update(m.frame_values(entity))
+    if p.role == "column":
+        row.update(m.column_values(entity))
     if row["invalid_reason"] is None:
         row["invalid_reason"] = _value_problem(row) or _frame_problem(row, p.role)
     if row["invalid_reason"] is None and p.role == "beam" and (si, sj) == ("free", "free"):
         # as members.csv refuses both ends free: a member that rests on nothing is not designed
         row["invalid_reason"] = (f"no support found at either end within {defaults.tolerance_mm:g} mm "
                                  "([ifc] tolerance_mm): a member needs at least one support; check the model")
-    if p.role == "beam" and row["invalid_reason"] is None:
-        warnings.extend(f"member {member}: {what}" for what in defaulted)
+    if row["invalid_reason"] is None and (p.role == "beam" or row.get("db_long_mm") is not None):
+        warnings.extend(f"member {member}: {what}" for what in defaulted)  # columns: where they are designed
     return row
 
 

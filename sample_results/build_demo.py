@@ -19,11 +19,13 @@ are fixed. The model's axes are PyNite's: global Y is vertical, so plan Y is the
 forces.csv holds 21 equal stations per member plus, at every node along a beam where
 another member frames in, a row just left and a row just right of it (one row where the
 two agree after rounding). V and M are in the member's local x-y plane (for beams the
-vertical plane; for columns the global X-vertical plane). Signs: see member_values().
+vertical plane; for columns the global X-vertical plane); Vb is the shear along the local z
+axis (the other principal direction). Signs: see member_values().
 
 The perimeter frames (grid lines A, D, 1 and 5, every level) are special moment frames of
 the seismic system: their beams carry `frame = special` and longitudinal bars of our own
-choosing from the flexural design in frame_beams(). Every member carries its end
+choosing from the flexural design in frame_beams(); their columns are special-frame columns
+too, and every column's bars come from a P-M check of each combination in column_bars(). Every member carries its end
 coordinates (x_i_m ... z_j_m, plan X and Y and height, metres), from which the joints of
 the special frames are found.
 
@@ -224,18 +226,20 @@ def _line_spans(level: str, y_name: str, xs: list) -> list:
 
 
 def column_faces(bld: Building) -> None:
-    """Column ends: node to the soffit or top of the deepest beam through the node (0 at the
-    footing). Runs after the analysis, which splits every beam at the nodes along it."""
+    """Column ends: the beams hang below their nodes (the top of the slab at the node's level, as
+    the IFC model draws them), so a column's clear height runs from the node at its foot (the top
+    of the slab or footing) to the soffit of the deepest beam through the node at its head. Runs
+    after the analysis, which splits every beam at the nodes along it."""
     depth: dict[str, float] = {}
     for name, row in bld.rows.items():
         if row["kind"] == "beam":
             for sub in bld.model.members[name].sub_members.values():
                 for n in (sub.i_node.name, sub.j_node.name):
-                    depth[n] = max(depth.get(n, 0.0), row["h_mm"] / 2)
+                    depth[n] = max(depth.get(n, 0.0), row["h_mm"])
     for name, row in bld.rows.items():
         if row["kind"] == "column":
             m = bld.model.members[name]
-            row["face_i_mm"], row["face_j_mm"] = depth.get(m.i_node.name, 0.0), depth.get(m.j_node.name, 0.0)
+            row["face_i_mm"], row["face_j_mm"] = 0.0, depth.get(m.j_node.name, 0.0)
 
 
 def _flanges(bld: Building) -> None:
@@ -345,10 +349,10 @@ def stations(member, n: int) -> list[tuple[float, float]]:
 
 
 def member_values(member, case: str, xq) -> np.ndarray:
-    """Rows of (V, N, T, M) at the queried x: V = PyNite Fy shear, N = -axial (PyNite takes
-    compression positive), T = torque, M = -Mz (sagging positive, so dM/dx = V)."""
+    """Rows of (V, N, T, M, Vb) at the queried x: V = PyNite Fy shear, N = -axial (PyNite takes
+    compression positive), T = torque, M = -Mz (sagging positive, so dM/dx = V), Vb = Fz shear."""
     return np.array([(member.shear("Fy", x, case), -member.axial(x, case), member.torque(x, case),
-                      -member.moment("Mz", x, case)) for x in xq])
+                      -member.moment("Mz", x, case), member.shear("Fz", x, case)) for x in xq])
 
 
 def extract(bld: Building) -> tuple[pd.DataFrame, dict[str, dict[str, np.ndarray]]]:
@@ -367,7 +371,8 @@ def extract(bld: Building) -> tuple[pd.DataFrame, dict[str, dict[str, np.ndarray
             keep = np.ones(len(x), bool)
             keep[1:] = ~((x[1:] == x[:-1]) & np.all(r[1:] == r[:-1], axis=1))
             rows.append(pd.DataFrame({"member": name, "case": case, "x_m": x[keep], "V_kN": r[keep, 0],
-                                      "N_kN": r[keep, 1], "T_kNm": r[keep, 2], "M_kNm": r[keep, 3]}))
+                                      "N_kN": r[keep, 1], "T_kNm": r[keep, 2], "M_kNm": r[keep, 3],
+                                      "Vb_kN": r[keep, 4]}))
     return pd.concat(rows, ignore_index=True), raw
 
 
@@ -436,6 +441,71 @@ def _as_for(mu_kNm: float, b: float, d: float, fc: float) -> float:
     return k * (d - math.sqrt(d * d - 2.0 * mn / k)) / FY_MPA
 
 
+COLUMN_BARS = ((8, 20.0), (8, 25.0), (12, 20.0), (12, 25.0), (16, 25.0), (12, 32.0), (16, 32.0))  # lightest first
+
+
+def column_bars(bld: Building, raw) -> list[str]:
+    """Frames and longitudinal bars of the columns: the perimeter columns belong to the special
+    moment frames; each column takes the first arrangement of COLUMN_BARS with at least 1 % of Ag
+    (ACI 318-19 10.6.1.1, 18.7.4.1) whose design strength holds every combination of Table 5.3.1
+    at both ends: Mu,x/phi Mn,x + Mu,y/phi Mn,y <= 1 at the combination's Pu (a straight-line
+    interaction, conservative: common practice), phi Mn from postproc.sections (strain compatibility,
+    Table 21.2.2) about each axis; Mu,y is PyNite's My. Where none does (the columns of the transfer
+    bay carry more moment than a 500 mm column can), the heaviest is taken and the column named in
+    the returned notes: the demo's sections are kept so that its analysis stays as it is."""
+    from postproc import combos, sections
+    from postproc.settings import Combinations
+
+    cases = list(CASES)
+    names, factors = combos.aci_5_3_1(CASES, cases, Combinations()).explicit
+    notes = []
+    for name, row in bld.rows.items():
+        if row["kind"] != "column":
+            continue
+        member = bld.model.members[name]
+        ends = (0.0, member.L())
+        n = np.array([[raw[name][c][0 if x == 0.0 else -1, 1] for c in cases] for x in ends])  # tension +
+        mz = np.array([[raw[name][c][0 if x == 0.0 else -1, 3] for c in cases] for x in ends])
+        my = np.array([[member.moment("My", x, c) for c in cases] for x in ends])
+        pu = -(n @ factors.T).ravel() * 1e3  # N, compression positive; (end, combination)
+        mux, muy = np.abs(mz @ factors.T).ravel() * 1e6, np.abs(my @ factors.T).ravel() * 1e6
+        grid = name.split("-")[-1]  # e.g. A1: the columns of the perimeter frames are special (PERIMETER)
+        row["frame"] = "special" if grid[0] in PERIMETER[0] or grid[1:] in PERIMETER[1] else "none"
+        b, h, edge = row["b_mm"], row["h_mm"], row["cover_mm"]
+        for count, db in COLUMN_BARS:
+            if count * math.pi * db**2 / 4 < 0.01 * b * h:
+                continue
+            phi_mn = [sections.design_moment(sections.rectangular_column_sections(
+                b, h, count, db, edge, row["fc_mpa"], FY_MPA, direction=d).take(np.zeros(len(pu), int)), pu).moment
+                for d in ("h", "b")]
+            if np.all(mux / phi_mn[0] + muy / phi_mn[1] <= 1.0):  # NaN (Pu above phi Pn,max) fails
+                row["db_long_mm"], row["n_long"] = db, count
+                break
+        else:
+            count, db = _within_shear_limit(row, pu, member.L() * 1e3 - row["face_i_mm"] - row["face_j_mm"])
+            row["n_long"], row["db_long_mm"] = count, db
+            notes.append(f"{name}: no arrangement passes the P-M check (largest Mu {max(mux.max(), muy.max()) / 1e6:,.0f}"
+                         f" kN*m at Pu up to {pu.max() / 1e3:,.0f} kN): {count} bars of {db:g} mm taken")
+    return notes
+
+
+def _within_shear_limit(row: dict, pu: np.ndarray, clear_mm: float) -> tuple[int, float]:
+    """For a column no arrangement of COLUMN_BARS suits in flexure: the heaviest one (at least 1 % of
+    Ag) whose shear from Mpr at both ends (ACI 318-19 18.7.6.1.1, over the combinations' Pu) stays
+    within the section limit 22.5.1.2 with Vc = 0, phi 0.66 sqrt(f'c) bw d, so that a special-frame
+    column of the demo can still have its ties designed."""
+    from postproc import sections
+
+    b, h, edge = row["b_mm"], row["h_mm"], row["cover_mm"]
+    limit = 0.75 * 0.66 * math.sqrt(row["fc_mpa"]) * b * (h - edge)
+    for count, db in reversed(COLUMN_BARS):
+        sec = sections.rectangular_column_sections(b, h, count, db, edge, row["fc_mpa"], FY_MPA)
+        mpr = sections.largest_over_axial(sec, pu[None, :])[0]
+        if row["frame"] != "special" or 2 * mpr / clear_mm <= limit:
+            return count, db
+    return COLUMN_BARS[0]
+
+
 def coordinates(bld: Building) -> None:
     """Every member's end coordinates in members.csv (m): plan X, plan Y (the model's Z) and
     height (the model's Y), node i then node j."""
@@ -492,6 +562,7 @@ def main() -> None:
     forces, raw = extract(bld)
     tension_steel(bld, raw)
     frames = frame_beams(bld, raw)
+    notes = column_bars(bld, raw)
     coordinates(bld)
     members = pd.DataFrame(list(bld.rows.values()))
     members.to_csv(OUT / "members.csv", index=False)
@@ -504,6 +575,8 @@ def main() -> None:
         print("check  " + line)
     for line in frames:
         print("frames " + line)
+    for line in notes:
+        print("column " + line)
 
 
 if __name__ == "__main__":

@@ -12,7 +12,8 @@ f'c in Pset_MaterialConcrete.CompressiveStrength (35 MPa beams, 40 MPa columns);
 ShearpostDesign property set carries the cover (60 mm, 90 mm for the transfer girder). A
 beam of a special moment frame has a ShearpostDesign set of its own, with the cover, its
 frame and its bars (Frame, AsTopI, AsBotI, AsTopJ, AsBotJ, DbLong) as build_demo.py chose
-them and wrote them to members.csv (run build_demo.py first).
+them and wrote them to members.csv (run build_demo.py first); so has every column, with the
+cover, its frame and its bars (Frame, DbLong, NLong: column_rows()).
 
 The output is deterministic: GlobalIds are derived from fixed names (a member's from its
 id) and the header carries a fixed time stamp.
@@ -43,7 +44,16 @@ def frame_rows() -> dict[str, dict]:
     if not MEMBERS_CSV.exists():
         return {}
     with open(MEMBERS_CSV, newline="", encoding="utf-8") as fh:
-        return {r["member"]: r for r in csv.DictReader(fh) if r.get("frame") not in (None, "", "none")}
+        return {r["member"]: r for r in csv.DictReader(fh) if r.get("frame") not in (None, "", "none")
+                and r.get("kind") != "column"}
+
+
+def column_rows() -> dict[str, dict]:
+    """The columns of members.csv with their bars (build_demo.py's P-M check): member -> its row."""
+    if not MEMBERS_CSV.exists():
+        return {}
+    with open(MEMBERS_CSV, newline="", encoding="utf-8") as fh:
+        return {r["member"]: r for r in csv.DictReader(fh) if r.get("kind") == "column" and r.get("db_long_mm")}
 NAMESPACE = uuid.uuid5(uuid.NAMESPACE_URL, "shearpost:sample_results/demo_building.ifc")
 TIME_STAMP = "2026-01-01T00:00:00"
 
@@ -135,6 +145,20 @@ class Writer:
                                     HasProperties=props)
         self.rel("IfcRelDefinesByProperties", RelatedObjects=[element], RelatingPropertyDefinition=pset)
 
+    def column_pset(self, name: str, cover_mm: float, row: dict, element) -> None:
+        """A column's own ShearpostDesign set: the cover, its frame and its bars (diameter in the
+        file's mm, a count)."""
+        props = [self.f.createIfcPropertySingleValue("Cover", None, self.f.createIfcPositiveLengthMeasure(cover_mm), None),
+                 self.f.createIfcPropertySingleValue("Frame", None, self.f.createIfcLabel(row.get("frame") or "none"),
+                                                     None),
+                 self.f.createIfcPropertySingleValue("DbLong", None,
+                                                     self.f.createIfcPositiveLengthMeasure(float(row["db_long_mm"])), None),
+                 self.f.createIfcPropertySingleValue("NLong", None, self.f.createIfcCountMeasure(int(float(row["n_long"]))),
+                                                     None)]
+        pset = self.f.create_entity("IfcPropertySet", GlobalId=guid(f"ShearpostDesign-{name}"), Name="ShearpostDesign",
+                                    HasProperties=props)
+        self.rel("IfcRelDefinesByProperties", RelatedObjects=[element], RelatingPropertyDefinition=pset)
+
     def design_pset(self, cover_mm: float, members: list):
         cover = self.f.createIfcPropertySingleValue("Cover", "face to centroid of the tension steel",
                                                     self.f.createIfcPositiveLengthMeasure(cover_mm), None)
@@ -161,7 +185,7 @@ def write(bld: Building, path: Path = OUT) -> Path:
     contained = {level: [] for level in storeys}
     by_kind: dict[str, list] = {"beam": [], "column": []}
     by_cover: dict[float, list] = {}
-    frames = frame_rows()
+    frames, columns = frame_rows(), column_rows()
     for name, row in bld.rows.items():
         member = bld.model.members[name]
         i, j = member.i_node, member.j_node
@@ -185,6 +209,8 @@ def write(bld: Building, path: Path = OUT) -> Path:
         by_kind[row["kind"]].append(element)
         if name in frames:
             w.frame_pset(name, row["cover_mm"], frames[name], element)
+        elif name in columns:
+            w.column_pset(name, row["cover_mm"], columns[name], element)
         else:
             by_cover.setdefault(row["cover_mm"], []).append(element)
 

@@ -27,7 +27,10 @@ BEAMS = (("B1", (0, 0), (6, 0), 0.3, 0.6, (1.2, 0.15)),  # between columns C1 an
 COLUMNS = (("C1", 0, 0), ("C2", 6, 0), ("C3", 3, 5))  # 400 x 400, 3.5 m high (Model.column)
 PLANTED = ("C4", 3, 0)  # a column standing on B1 where S1 frames in: it carries neither beam
 COMMON = dict(cover_mm=60.0, fc_mpa=FC_MPA, fyt_mpa=420.0, fy_mpa=420.0, load_face="top")
-# members.csv by hand. Faces: half the 400 mm column = 200 mm; S1 on B1's 300 mm web = 150 mm.
+# members.csv by hand. Faces: half the 400 mm column = 200 mm; S1 on B1's 300 mm web = 150 mm. A column's head
+# is at the soffit of the deepest beam meeting it (beam tops flush with the column tops): C1 under B1 (600 mm),
+# C2 under B1 and K1 (600 mm), C3 under S1 (500 mm); C4 stands on B1 and S1, nothing at its head. Columns:
+# 8 bars of 20 mm (ShearpostDesign DbLong and NLong in the IFC model).
 MEMBERS = [
     dict(member="B1", kind="beam", length_m=6.0, b_mm=300.0, h_mm=600.0, support_i="column", face_i_mm=200.0,
          support_j="column", face_j_mm=200.0, bf_mm=1200.0, hf_mm=150.0, level="Level 1", **COMMON),
@@ -36,8 +39,9 @@ MEMBERS = [
     dict(member="K1", kind="beam", length_m=2.0, b_mm=300.0, h_mm=500.0, support_i="column", face_i_mm=200.0,
          support_j="free", face_j_mm=0.0, level="Level 1", **COMMON),
 ] + [dict(member=n, kind="column", length_m=3.5, b_mm=400.0, h_mm=400.0, support_i="column", face_i_mm=0.0,
-          support_j="column", face_j_mm=0.0, level=level, **COMMON)
-      for n, level in (("C1", "Ground"), ("C2", "Ground"), ("C3", "Ground"), ("C4", "Level 1"))]
+          support_j="column", face_j_mm=head, level=level, db_long_mm=20.0, n_long=8, **COMMON)
+      for n, level, head in (("C1", "Ground", 600.0), ("C2", "Ground", 600.0), ("C3", "Ground", 500.0),
+                             ("C4", "Level 1", 0.0))]
 # uniform loads (kN/m) per case; S1's end reactions w L / 2 act on B1 at mid-span
 W = {"D": {"B1": 20.0, "S1": 15.0, "K1": 12.0}, "L": {"B1": 10.0, "S1": 10.0, "K1": 8.0}}
 
@@ -52,6 +56,8 @@ def forces() -> list[dict]:
                                    jumps=(3.0,))
         rows += rows_from_function("S1", case, 5.0, lambda x: w["S1"] * (2.5 - x))
         rows += rows_from_function("K1", case, 2.0, lambda x: w["K1"] * (2.0 - x))
+        for n in ("C1", "C2", "C3", "C4"):  # columns: a constant shear, invented
+            rows += rows_from_function(n, case, 3.5, lambda x: 0.2 * w["B1"], n=3)
     return rows
 
 
@@ -61,6 +67,8 @@ def authored_frame(schema: str, unit: str, pressure_prefix: str | None, path):
     elements = [m.column(n, x, y) for n, x, y in COLUMNS]
     name, x, y = PLANTED
     elements.append(m.element("IfcColumn", name, m.level1, matrix(SITE + [x, y, TOP]), m.rect(0.4, 0.4), 3.5))
+    for column in elements:
+        m.pset(column, "ShearpostDesign", {"Cover": COVER_M * m.k, "DbLong": 0.02 * m.k, "NLong": 8})
     for name, (x0, y0), (x1, y1), b, h, flange in BEAMS:
         profile = m.rect(b, h) if flange is None else m.tee(h, flange[0], b, flange[1])
         beam = m.beam(name, (x0, y0, TOP - h / 2), (x1, y1, TOP - h / 2), profile)
@@ -104,8 +112,8 @@ def test_small_frame_ifc_design_equals_csv_design(frame_inputs, tmp_path, schema
     assert_frame_equal(zones, csv_zones)
     # the design is not empty: rules of ACI 318-19 9.4.3.2 (d from a column face, the face at a girder)
     rows = members.set_index("member")
-    assert dict(rows.status) == {"B1": "designed", "S1": "designed", "K1": "designed", "C1": "not-covered",
-                                 "C2": "not-covered", "C3": "not-covered", "C4": "not-covered"}
+    assert dict(rows.status) == {"B1": "designed", "S1": "designed", "K1": "designed", "C1": "designed",
+                                 "C2": "designed", "C3": "designed", "C4": "designed"}
     assert [tuple(rows.loc[b, ["crit_i", "crit_j"]]) for b in ("B1", "S1", "K1")] == [
         ("d", "d"), ("face", "d"), ("d", "free")]
     # S1 at the girder face, x = 0.15 m: 1.2D + 1.6L (ACI 318-19 Table 5.3.1(b)) of w (L/2 - x)
