@@ -65,7 +65,8 @@ def _member_row(name: str, kind: str, length: float, size: dict, faces: tuple[fl
             "fyt_mpa": 420.0, "fy_mpa": 420.0, "lambda": 1.0, "support_i": "column", "support_j": "column",
             "face_i_mm": faces[0], "face_j_mm": faces[1], "load_face": "top", "bf_mm": np.nan,
             "hf_mm": np.nan, "as_tension_mm2": np.nan, "level": "L1" if kind == "beam" else "S1",
-            "group": "girder-x" if kind == "beam" else "column"}
+            "group": "girder-x" if kind == "beam" else "column",
+            "db_long_mm": np.nan if kind == "beam" else 25.0, "n_long": np.nan if kind == "beam" else 8}
 
 
 def _build() -> tuple[FEModel3D, list[dict]]:

@@ -127,7 +127,8 @@ def test_govern_fits_80_columns_without_breaking_combination_names(store):
 
 def test_members_needing_action_rank_first(run_design, capsys):
     L = 6.0
-    members = [beam("OK", L), beam("DEEP", 2.0, h_mm=700.0), beam("NOFORCE", L), {**beam("COL", 3.0), "kind": "column"},
+    members = [beam("OK", L), beam("DEEP", 2.0, h_mm=700.0), beam("NOFORCE", L),
+               {**beam("COL", 3.0), "kind": "column", "db_long_mm": 20.0, "n_long": 8},
                beam("HOT", L)]
     forces = (rows_from_function("OK", "U", L, lambda x: 100 - 33 * x, n=5)
               + rows_from_function("DEEP", "U", 2.0, lambda x: 100 - 100 * x, n=5)
@@ -138,7 +139,8 @@ def test_members_needing_action_rank_first(run_design, capsys):
     assert cli.main(["govern", "--store", str(res.store), "--format", "json"]) == 0
     ranked = json.loads(capsys.readouterr().out)
     order = [r["member"] for r in ranked]
-    # needing action (deep-beam: clear span <= 4h, 9.9.1.1(a); no-forces) before the designed, columns last
+    # needing action (deep-beam: clear span <= 4h, 9.9.1.1(a); no-forces) before the designed, by utilization
+    # (the column, 20 kN on 300 x 600, last)
     assert order[:2] == ["DEEP", "NOFORCE"] and order[2:4] == ["HOT", "OK"] and order[-1] == "COL"
     assert ranked[2]["utilization"] > ranked[3]["utilization"]
 
@@ -160,7 +162,7 @@ def test_a_run_that_designs_nothing_exits_1_and_says_why(tmp_path, capsys):
     code = cli.main(["run", "--members", str(columns_only["members"]), "--forces", str(columns_only["forces"]),
                      "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out2"), "--no-report", "--json"])
     captured = capsys.readouterr()
-    assert code == cli.EXIT_INPUT and "column shear design is not covered yet" in captured.err
+    assert code == cli.EXIT_INPUT and "invalid members" in captured.err and "db_long_mm" in captured.err
     assert "no member was designed" in json.loads(captured.out)["nothing_designed"]
 
 

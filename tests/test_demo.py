@@ -22,8 +22,9 @@ def test_every_member_appears_with_a_status(demo):
     assert code == 0
     assert sorted(out.index) == sorted(given.member)
     kinds = given.set_index("member").kind
-    assert (out.status[kinds == "column"] == "not-covered").all()
+    assert (out.status[kinds == "column"] == "designed").all()  # every column of the demo
     assert (out.status[kinds == "beam"].isin(["designed", "deep-beam"])).all()
+    assert not (out.status == "not-covered").any()
     # plant post 0.45 m from the column face, and the cut-off column 1.75 m from the face of the transfer
     # girder's bearing: within 2h (9.9.1.1(b)), end regions by strut-and-tie, the rest sectionally
     for name in ("R-GX-B23", "L1-TG-B34a"):
@@ -57,3 +58,26 @@ def test_secondary_beam_by_hand(demo):
     n = math.floor((8000 - 2 * 50) / s) + 1
     assert 50 <= 8000 - (50 + (n - 1) * s) <= s
     assert (z["count"].iloc[0], z.start_mm.iloc[0], z.end_mm.iloc[0]) == (n, 50, 50 + (n - 1) * s)
+
+
+def test_perimeter_columns_get_confinement_zones(demo):
+    # the columns on grid lines A, D, 1 and 5 are special-frame columns (18.7): hoops throughout, at most so over
+    # lo from each joint face (18.7.5.1, 18.7.5.3) and at most min(6 db, 150 mm) beyond (18.7.5.5)
+    _, out, zones = demo
+    given = pd.read_csv(SAMPLE / "members.csv").set_index("member")
+    cols = given[given.kind == "column"]
+    special = cols[cols.frame == "special"]
+    assert len(special) and all(g[0] in "AD" or g[1:] in ("1", "5") for g in special.index.str.split("-").str[-1])
+    for name, m in special.iterrows():
+        row = out.loc[name]
+        clear = m.length_m * 1e3 - m.face_i_mm - m.face_j_mm
+        lo = max(m.b_mm, m.h_mm, clear / 6, 450.0)  # 18.7.5.1
+        assert row.lo_mm == pytest.approx(lo, abs=0.5)
+        z = zones[zones.member == name].sort_values("zone")
+        assert set(z.kind) == {"hoop"}
+        assert z.end_mm.iloc[0] >= min(lo, clear / 2) - 1e-6 and z.start_mm.iloc[-1] <= max(clear - lo, clear / 2)
+        assert z.spacing_mm.dropna().max() <= min(6 * m.db_long_mm, 150.0) + 1e-6
+        assert row.ve_v_kN > 0 and row.ve_vb_kN > 0 and "18.7.6.1.1" in row.message
+    interior = cols[cols.frame == "none"].index
+    assert set(zones[zones.member.isin(interior)].kind) == {"tie"}
+    assert out.loc[interior, "ve_v_kN"].isna().all()

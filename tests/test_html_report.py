@@ -39,11 +39,13 @@ def small(tmp_path_factory):
     """A run with ids full of markup and control characters, a resize, a column and a plain beam."""
     tmp = tmp_path_factory.mktemp("odd")
     members = [beam(ODD_ID, 6.0, level="<i>L1</i>"), beam("OK", 6.0), *(beam(i, 6.0) for i in UNSEEN_IDS),
-               beam("SMALL", 6.0, b_mm=250.0, h_mm=500.0), {**beam("COL", 3.0), "kind": "column"}]
+               beam("SMALL", 6.0, b_mm=250.0, h_mm=500.0),
+               {**beam("COL", 3.0), "kind": "column", "db_long_mm": 20.0, "n_long": 8}]
     forces = (rows_from_function(ODD_ID, "U", 6.0, lambda x: 150 - 50 * x, n=7)
               + rows_from_function("OK", "U", 6.0, lambda x: 100 - 33 * x, n=7)
               + sum((rows_from_function(i, "U", 6.0, lambda x: 90 - 30 * x, n=7) for i in UNSEEN_IDS), [])
-              + rows_from_function("SMALL", "U", 6.0, lambda x: 900 * (1 - x / 3), n=3))
+              + rows_from_function("SMALL", "U", 6.0, lambda x: 900 * (1 - x / 3), n=3)
+              + rows_from_function("COL", "U", 3.0, lambda x: 12.0, n=3))
     res = design(tmp, members, forces)
     assert res.code == cli.EXIT_RESIZE
     return Store(res.store).runs()[-1]
@@ -99,8 +101,8 @@ def test_index_puts_failures_first_then_utilization(small, tmp_path):
     html = write_html_report(run, tmp_path / "r.html").read_text(encoding="utf-8")
     rows = re.findall(r"<tr[^>]*><td>(?:<a [^>]*>)?(.*?)(?:</a>)?</td>.*?<td class=\"n\">([\d.]*)</td>", html)
     names = [n for n, _ in rows]
-    assert names[0] == "SMALL" and names[-1] == "COL"  # resize first; no utilization last
-    utils = [float(u) for n, u in rows[1:-1]]
+    assert names[0] == "SMALL" and names[-1] == "COL"  # resize first; then by utilization (the column's is least)
+    utils = [float(u) for n, u in rows[1:]]
     assert utils == sorted(utils, reverse=True)
 
 
@@ -152,7 +154,9 @@ def test_members_not_designed_show_status_and_message(demo):
     _, _, html, members, _ = demo
     found = sections(html)
     col = found["P1-C-A1"]
-    assert "not-covered" in col and "is not covered yet" in col and "<svg" not in col
+    # a column of a special frame: two shear diagrams (V and Vb, with its Ve), then its elevation with lo shaded
+    assert "designed" in col and col.count('<svg class="mem"') == 2 and "Vu parallel to b (Vb)" in col
+    assert "column elevation" in col and 'class="lo"' in col and 'class="ve"' in col and 'class="stir"' in col
 
 
 def test_members_argument_limits_the_details_not_the_index(demo, tmp_path):

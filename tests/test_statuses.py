@@ -14,7 +14,9 @@ def test_statuses_for_members_missing_on_either_side(run_design):
               + rows_from_function("GHOST", "U", 4.0, lambda x: 50 - 25 * x, n=3))
     res = run_design(members, forces)
     status = res.members.set_index("member").status.to_dict()
-    assert status == {"OK": "designed", "NOFORCE": "no-forces", "COL": "not-covered", "GHOST": "no-geometry"}
+    assert status == {"OK": "designed", "NOFORCE": "no-forces", "COL": "invalid", "GHOST": "no-geometry"}
+    col = res.members.set_index("member").loc["COL"]
+    assert "db_long_mm" in col.message and "25.7.2.1" in col.message  # a column without its bars: said why
     assert list(res.members.member[:3]) == ["OK", "NOFORCE", "COL"]  # input order first
 
 
