@@ -276,7 +276,7 @@ def nothing_designed(members: pd.DataFrame, examples: int = 3) -> str | None:
         lines.append("invalid members, e.g. " + "; ".join(f"{m}: {why}" for m, why in
                                                           zip(invalid["member"][:examples], invalid["message"])))
     if "not-covered" in counts:
-        lines.append(f"{int(counts['not-covered'])} column(s): column shear design is not covered yet")
+        lines.append(f"{int(counts['not-covered'])} member(s) of a kind this tool does not design")
     return "\n".join(lines)
 
 

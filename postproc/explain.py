@@ -48,6 +48,9 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     if member not in inputs.index:
         return steps
     m = inputs.loc[member]
+    if m.get("kind") == "column":
+        raw = run.members().to_pandas()
+        return steps + _column(run, member, r, raw[raw.member == member].reset_index(drop=True), settings)
     ln = m.length_m * U.per_span - m.face_i_mm - m.face_j_mm
     fyt = min(m.fyt_mpa, u.fyt_max)
     rho = m.as_tension_mm2 / (m.b_mm * m.d_mm) if np.isfinite(m.as_tension_mm2) else np.nan
@@ -469,3 +472,134 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: U
                      f"{s_hoop:g} {mm} and 24 diameters of the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} {mm} "
                      "elsewhere (18.4.2.5)")
     return Step(f"Moment frame: {frame}", "18.6" if special else "18.4.2", lines)
+
+
+# ----------------------------------------------------------------------------- columns
+
+
+def _column(run: Run, member: str, r, df, settings: Settings) -> list[Step]:
+    """A column's calculation: section and bars, both shear directions with the concurrent axial
+    force, the tie rules, and in moment frames the end zones and the capacity-design shear. ``df``:
+    the member's row of the members table in the run's names."""
+    from postproc.pipeline import columns as family
+
+    U = run.units
+    mm, mpa, kN = U.length, U.stress, U.force
+    mb = family.geometry(df, settings)
+    s = mb.sec
+    u = s.u
+    m = _keyed(df).iloc[0]
+    circular = bool(s.circular[0])
+    frame = str(m.get("frame") or "none")
+    clear = float(mb.geo.clear_span[0])
+    fyt = float(s.fyt[0])
+    size = (f"D = {s.b[0]:.4g} {mm}: bw = D, d = 0.8 D = {s.d_v[0]:.4g} {mm} in both directions (22.5.2.2)" if circular
+            else f"b x h = {s.b[0]:.4g} x {s.h[0]:.4g} {mm}; V (parallel to h): bw = {s.bw_v[0]:.4g}, d = {s.d_v[0]:.4g} {mm}; "
+                 f"Vb (parallel to b): bw = {s.bw_vb[0]:.4g}, d = {s.d_vb[0]:.4g} {mm}")
+    steps = [Step("Inputs", "", [
+        size, f"Ag = {s.Ag[0]:,.{0 if U.name == 'si' else 1}f} {U.area}; bars: {int(s.n_long[0])} of "
+              f"{s.db_long[0]:.4g} {mm} ({s.bar_area[0]:,.{0 if U.name == 'si' else 2}f} {U.area} each, "
+              f"{100 * s.ast[0] / s.Ag[0]:.2f} % of Ag), {s.edge[0]:.4g} {mm} from the faces",
+        f"rho_w for Table 22.5.5.1: {s.rho_v[0]:.4f} (V) and {s.rho_vb[0]:.4f} (Vb), the bars of the tension "
+        + ("half (n/2)" if circular else "face"),
+        f"f'c = {s.fc[0]:g} {mpa} (sqrt used {float(aci.sqrt_fc(s.fc[0], u)):.3f}, 22.5.3.1), fyt = {m.fyt_mpa:g} "
+        f"{mpa}" + (f", {fyt:g} for shear (20.2.2.4)" if fyt < m.fyt_mpa else "") + f", lambda = {s.lam[0]:g}",
+        f"length {m.length_m:g} {U.span} from the bottom node; faces {m.face_i_mm:.4g} / {m.face_j_mm:.4g} {mm}; clear "
+        f"height {clear:,.0f} {mm}; frame: {frame}",
+        *([] if U.name == "si" else [f"units: {U.title}; the equations of {u.title}"])])]
+    if r.status in ("no-forces", "invalid"):
+        return steps
+    steps.append(_combinations(run))
+    steps.append(Step("Critical sections", "", [
+        "at the faces of both joints: no shear is taken at d from a joint face (common practice: a beam's reaction "
+        "does not put the column's end region in the compression 9.4.3.2 asks for)",
+        f"Vu at the bottom face {_fmt(r.vu_design_i_kN, kN)} (V), {_fmt(r.vb_design_i_kN, kN)} (Vb); at the top "
+        f"face {_fmt(r.vu_design_j_kN, kN)} (V), {_fmt(r.vb_design_j_kN, kN)} (Vb)"]))
+    if frame != "none" and isinstance(r.message, str):
+        notes = [t for t in r.message.split("; ") if any(w in t for w in ("frame", "Ve", "lo", "Vc = 0", "checked"))]
+        steps.append(Step("Moment frame", "18.7 special, 18.4.3 intermediate, 18.3.3 ordinary", notes or [
+            "ordinary frame, clear height above 5 c1 in both directions: Chapter 10 alone (18.3.3)"]))
+    st = _keyed(design_table(run, "stations", member=member)).sort_values(["x_mm", "side"], kind="stable") \
+        .reset_index(drop=True)
+    if len(st):
+        kv = int(np.argmax(st.vu_max_kN / st.phi_vn_limit_kN))
+        kb = int(np.argmax(st.vb_max_kN / st.phi_vn_limit_vb_kN))
+        steps.append(Step("Section limits", "22.5.1.2", [
+            f"V: largest Vu / phi (Vc + {u.vs_max:g} sqrt(f'c) bw d) = {st.vu_max_kN[kv] / st.phi_vn_limit_kN[kv]:.3f} at "
+            f"x = {st.x_mm[kv]:,.0f} {mm}", f"Vb: {st.vb_max_kN[kb] / st.phi_vn_limit_vb_kN[kb]:.3f} at "
+                                          f"x = {st.x_mm[kb]:,.0f} {mm}"]))
+    steps.append(_governing(r, U))
+    if isinstance(r.utilization_v, float) and np.isfinite(r.utilization_v):
+        steps.append(Step("Both directions", "22.5.1.10, 22.5.1.11", [
+            f"largest Vu/phi Vn alone: {r.utilization_v:.3f} (V), {r.utilization_vb:.3f} (Vb)",
+            ("interaction by the code's rule: neglected where either ratio is 0.5 or less, else their sum at most 1.5"
+             if settings.columns.biaxial_shear == "code" else
+             "interaction by the elliptical rule: sqrt(ratio_V^2 + ratio_Vb^2) <= 1 (common practice; never less "
+             "than the code's rule of 22.5.1.11)"),
+            "a capacity-design shear Ve acts along one principal axis at a time (common practice)"]))
+    if r.status != "designed":
+        return steps
+    zones = _keyed(design_table(run, "zones"))
+    zones = zones[zones.member == member].sort_values("zone")
+    for z in zones.itertuples():
+        steps.append(_column_zone(z, st, mb, frame, settings, U))
+    steps.append(Step("Self-check", "10.6.2, 10.7.6.5.2, 25.7.2, 22.5.1.2", [
+        f"phi Vn of each direction and their interaction hold every combination at all {len(st)} stations with the "
+        "widest gap among each station and its neighbours; Av >= Av,min where Vu > 0.5 phi Vc; every spacing rule; "
+        "the end ties within half the allowed spacing of the faces",
+        f"highest utilization {r.utilization:.3f}"]))
+    steps.append(Step("Ties", "25.3.2, 25.3.3, 25.3.4, 25.3.5, 25.7.2", [
+        f"{r.stirrups_total} sets, {r.stirrup_mass_kg:g} {U.mass} (perimeter hoop or tie with 135-degree hooks, crossties "
+        "with a 135-degree and a 90-degree hook alternated end for end)"]))
+    return steps
+
+
+def _column_zone(z, st, mb, frame: str, settings: Settings, U: UnitSystem) -> Step:
+    s = mb.sec
+    u, mm, kN = s.u, U.length, U.force
+    sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
+    if not len(sub):
+        sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]
+    what = f"{z.count} x {z.bar} {z.kind}s" + (f" @ {z.spacing_mm:g} {mm}" if z.count > 1 else "")
+    title = f"Zone {z.zone}: {z.start_mm:,.{0 if U.name == 'si' else 1}f} to {z.end_mm:,.{0 if U.name == 'si' else 1}f} " \
+            f"{mm}, {what}"
+    if not z.count:
+        return Step(title, "", ["no ties"])
+    own = sub[np.isclose(sub.spacing_mm, z.spacing_mm)] if z.count > 1 else sub
+    row = (own if len(own) else sub).sort_values("utilization", ascending=False, kind="stable").iloc[0]
+    conf = sub.s_confinement_mm[np.isfinite(sub.s_confinement_mm)]
+    db_tie, area = settings.detailing.bars[z.bar]
+    legs_v, legs_vb = int(z.legs), int(z.legs_vb)
+    gap = row.spacing_mm
+    nu = row.nu_kN * U.per_force
+    lines = [f"governing station x = {row.x_mm:,.0f} {mm}, {row.governing_case}: Vu = {_fmt(row.vu_kN, kN)} (V), "
+             f"{_fmt(row.vb_kN, kN)} (Vb), Nu = {_fmt(row.nu_kN, kN)} (compression +)"]
+    for label, legs, bw, d, phi_vc in (("V", legs_v, s.bw_v[0], s.d_v[0], row.phi_vc_kN),
+                                       ("Vb", legs_vb, s.bw_vb[0], s.d_vb[0], row.phi_vc_vb_kN)):
+        av_s = legs * area / gap
+        av_min = float(aci.column_av_min_over_s(s.fc[0], bw, s.fyt[0], u))
+        has_min = av_s >= av_min * (1 - 1e-9)
+        vc = phi_vc * U.per_force / aci.PHI_SHEAR  # the governing combination's own, as designed
+        how = ("0: 18.7.6.2.1 over lo" if bool(row.vc_zero) and vc == 0 else
+               "Table 22.5.5.1" + ("(a)/(b)" if has_min else "(c)") + f" with Nu = {_fmt(nu / U.per_force, kN)}")
+        vs = min(av_s * s.fyt[0] * d, float(aci.vs_max(s.fc[0], bw, d, u)))
+        lines.append(f"{label}: {legs} legs x {area:g} {U.area} at {gap:.4g} {mm}: Av/s = {av_s:.4g} {U.area}/{mm} "
+                     f"({'>=' if has_min else '<'} Av,min/s {av_min:.4g}, 10.6.2.2); Vc = {_fmt(vc / U.per_force, kN)} "
+                     f"({how}); Vs = {_fmt(vs / U.per_force, kN)} (22.5.8.5.3, bw = {bw:.4g}, d = {d:.4g} {mm}); "
+                     f"phi Vn = {_fmt(0.75 * (vc + vs) / U.per_force, kN)}")
+    s16, s48, least = 16 * s.db_long[0], 48 * db_tie, s.least[0]
+    rules = [f"25.7.2.1(b): min(16 db = {s16:.4g}, 48 db tie = {s48:.4g}, least side {least:.4g}) = "
+             f"{min(s16, s48, least):.4g} {mm}"]
+    rules.append(f"10.7.6.5.2 where shear reinforcement is required: d/2 (d/4 where Vs > {u.heavy_vs:g} sqrt(f'c) bw d) "
+                 f"of that direction; s_max here {row.s_max_mm:.4g} {mm}")
+    if frame == "special":
+        rules.append(f"18.7.5.3 over lo: min(least side / 4, 6 db, so = {u.so_base:g} + ({u.so_hx:g} - hx)/3 within "
+                     f"{u.so_base:g}..{u.so_max:g} {mm}); 18.7.5.5 beyond lo: min(6 db, {u.smf_beyond_lo_max:g} {mm}); "
+                     "Ash by Table 18.7.5.4" +
+                     (f" asks for s <= {conf.min():.4g} {mm} in this zone" if len(conf) else
+                      " sets no spacing in this zone"))
+    elif frame == "intermediate":
+        rules.append(f"18.4.3.3 over lo: min(8 db, {u.imf_column_so[0]:g} {mm}, least side / 2), the first hoop within "
+                     "so/2 of the face")
+    rules.append(f"allowed here {row.s_allowed_mm:g} {mm}; provided {gap:.4g} {mm}; utilization {row.utilization:.3f}")
+    return Step(title, "22.5, 10.6.2, 10.7.6.5.2, 25.7.2", lines + rules)

@@ -12,7 +12,8 @@ from postproc.store import Run, StoreError
 from postproc.terms import NEEDS_ACTION
 
 RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "governing_case",
-                "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message"]  # SI names
+                "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message",
+                "kind"]  # SI names; kind (beam, column) added at the end
 
 
 def design_table(run: Run, name: str, member: str | None = None, columns: list[str] | None = None) -> pd.DataFrame:
@@ -29,8 +30,8 @@ def design_table(run: Run, name: str, member: str | None = None, columns: list[s
 def results_with_labels(run: Run) -> pd.DataFrame:
     """Design results joined with the members' level and group labels."""
     res = design_table(run, "members")
-    labels = run.members().select(["member", "level", "group"]).to_pandas()
-    return res.merge(labels, on="member", how="left").fillna({"level": "", "group": ""})
+    labels = run.members().select(["member", "level", "group", "kind"]).to_pandas()
+    return res.merge(labels, on="member", how="left").fillna({"level": "", "group": "", "kind": ""})
 
 
 def status_place(status: pd.Series) -> np.ndarray:
@@ -67,13 +68,22 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
 def layout_text(zones: pd.DataFrame) -> str:
     """A member's zones as one line, e.g. '17 #10x2 @75 | 12 #10x2 @250 | 17 #10x2 @75' (spacings
     in mm, or in inches in an inch-pound run: '17 #3x2 @3 | ...'); hoop zones (frame beams,
-    Chapter 18) say so: '11 hoops #10x3 @125'."""
+    Chapter 18) say so: '11 hoops #10x3 @125'; a column's zones give its legs each way (parallel to
+    h x parallel to b) and their kind: '8 #13 hoops 3x3 @100', '14 #10 ties 3x3 @200'."""
     spacing = units.system_of(zones.columns).col("spacing_mm")
     kinds = zones["kind"] if "kind" in zones else pd.Series("stirrup", index=zones.index)
+    legs_vb = zones["legs_vb"] if "legs_vb" in zones else pd.Series(np.nan, index=zones.index)
     parts = []
-    for count, bar, legs, s, kind in zip(zones["count"], zones["bar"], zones["legs"], zones[spacing], kinds):
-        hoops = "hoops " if kind == "hoop" else ""
-        parts.append("none" if not count else f"{count} {hoops}{bar}x{legs}" + (f" @{s:g}" if pd.notna(s) else ""))
+    for count, bar, legs, s, kind, lvb in zip(zones["count"], zones["bar"], zones["legs"], zones[spacing], kinds,
+                                              legs_vb):
+        if not count:
+            parts.append("none")
+        elif pd.notna(lvb) and kind in ("tie", "hoop", "spiral"):  # a column
+            at = f" @{s:g}" if pd.notna(s) else ""
+            parts.append(f"{count} {bar} {kind}s {legs}x{int(lvb)}{at}" if kind != "spiral" else f"{bar} spiral{at}")
+        else:
+            hoops = "hoops " if kind == "hoop" else ""
+            parts.append(f"{count} {hoops}{bar}x{legs}" + (f" @{s:g}" if pd.notna(s) else ""))
     return " | ".join(parts)
 
 
@@ -140,7 +150,8 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
 
     za_own, zb = design_table(a, "zones"), design_table(b, "zones")
     za = units.convert_table(za_own, a.units, U)
-    key = U.cols(["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count"])
+    key = [c for c in U.cols(["zone", "start_mm", "end_mm", "bar", "legs", "spacing_mm", "count", "legs_vb"])
+           if c in za.columns and c in zb.columns]  # runs of earlier versions have no legs_vb
     key += ["kind"] if "kind" in za and "kind" in zb else []
     own = "" if a.units == U else " (spacings in {})"  # each layout as it was designed, in its own units
     text_a = {m: layout_text(g) + own.format(a.units.length) for m, g in za_own.groupby("member")}

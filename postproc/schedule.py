@@ -61,11 +61,19 @@ class Schedule:
         return paths
 
 
+COLUMN_KEYS = ["diameter_mm", "cover_mm", "db_long_mm", "n_long"]  # and a column's: what shapes its ties (SI names)
+
+
 def _signature(section: pd.Series, zones: pd.DataFrame, col, nd: int = 1, bars: str = "") -> str:
-    sec = [None if pd.isna(section[col(k)]) else round(float(section[col(k)]), nd) for k in SECTION_KEYS]
+    num = lambda v: None if pd.isna(v) else round(float(v), nd)  # noqa: E731
+    sec = [num(section.get(col(k))) for k in SECTION_KEYS]
     lay = [[None if pd.isna(v) else (round(float(v), nd) if isinstance(v, (int, float, np.number)) else v)
             for v in row] for row in zones[[col(k) for k in ZONE_KEYS]].itertuples(index=False)]
     kinds = zones["kind"].tolist() if "kind" in zones else []
+    if section.get("kind") == "column":  # ties, hoops or a spiral, their legs each way, and the bars they tie
+        legs_vb = zones["legs_vb"].tolist() if "legs_vb" in zones else [None] * len(lay)
+        lay = [row + [k, num(lb)] for row, k, lb in zip(lay, kinds, legs_vb)]
+        return json.dumps([["column", *sec, *(num(section.get(col(k))) for k in COLUMN_KEYS)], lay])
     lay = [row + ["hoop"] if k == "hoop" else row for row, k in zip(lay, kinds)] if kinds else lay  # hoops differ
     return json.dumps([sec, lay, bars] if bars else [sec, lay])
 
@@ -184,9 +192,13 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
                 continue
             order = sorted(names, key=lambda m: (-res.stirrups_total[m], m))  # most demanding first
             same_bar = lambda c, m: m not in torsion or zmap[c].bar.iloc[0] == zmap[m].bar.iloc[0]
+            fits = lambda c, m: (_satisfies_column(zmap[c], zmap[m], pos_map.get(c, np.empty(0)), st_map[m],  # noqa
+                                                   float(clear[m]), settings, col)
+                                 if inputs.kind[m] == "column" else
+                                 same_bar(c, m) and _satisfies(zmap[c], pos_map.get(c, np.empty(0)), st_map[m],
+                                                               float(clear[m]), settings, col))
             for cand in order:
-                if all(same_bar(cand, m) and _satisfies(zmap[cand], pos_map.get(cand, np.empty(0)), st_map[m],
-                                                        float(clear[m]), settings, col) for m in names):
+                if all(fits(cand, m) for m in names):
                     for m in names:
                         layout_of[m] = cand
                     break
@@ -216,7 +228,9 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
                           "b_mm": sec[col("b_mm")], "h_mm": sec[col("h_mm")], "fc_mpa": sec[col("fc_mpa")],
                           "fyt_mpa": sec[col("fyt_mpa")], "layout": layout_text(z),
                           "sets_per_member": int(z["count"].sum()), "signature": sig,
-                          "tie_and_web_bars": stm_bars.get(first, "")})
+                          "tie_and_web_bars": stm_bars.get(first, ""),
+                          # added at the end: beam or column, and a circular column's diameter
+                          "kind": sec.get("kind", "beam"), "diameter_mm": sec.get(col("diameter_mm"))})
     marks = pd.DataFrame(mark_rows).sort_values("mark").reset_index(drop=True)
     stations_torsion = _torsion_members(run) if settings.stirrup_shape == "open" else set()
     for m in sorted(designed):
@@ -238,9 +252,12 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
         closed = settings.stirrup_shape == "closed" or m in stations_torsion or frame
         hoops = int(z.loc[z["kind"] == "hoop", "count"].sum()) if "kind" in z else 0
         b, h = sec[col("b_mm")], sec[col("h_mm")]
-        shapes = [(sh, sets - hoops) for sh in detailing.stirrup_set(b, h, settings.clear_cover, bar, legs, closed,
-                                                                     settings.open_hook_deg, u)]
-        shapes += [(sh, hoops) for sh in detailing.hoop_set(b, h, settings.clear_cover, bar, legs, u)]
+        if sec.get("kind") == "column":
+            shapes = _column_shapes(sec, z, bar, settings, col, u)
+        else:
+            shapes = [(sh, sets - hoops) for sh in detailing.stirrup_set(b, h, settings.clear_cover, bar, legs, closed,
+                                                                         settings.open_hook_deg, u)]
+            shapes += [(sh, hoops) for sh in detailing.hoop_set(b, h, settings.clear_cover, bar, legs, u)]
         dims, cut_nd = (1, 0) if U.name == "si" else (2, 1)  # mm to 0.1 and cut lengths whole; in to 0.01 and 0.1
         for shape, n_sets in shapes:
             if not n_sets:
@@ -263,6 +280,46 @@ def build(run: Run, settings: Detailing, envelope: bool = False, previous: Sched
     by_bar = bars.groupby("bar", as_index=False).agg(**agg).round(2)
     named = lambda df: df.rename(columns=U.rename(df.columns))  # noqa: E731
     return Schedule(named(marks), named(pd.DataFrame(member_rows)), named(bars), named(by_level), named(by_bar))
+
+
+def _column_shapes(sec: pd.Series, zones: pd.DataFrame, bar: str, settings: Detailing, col, u) -> list:
+    """The bars of a column's ties and hoops, zone by zone (a hoop zone's perimeter bar is a hoop with
+    seismic hooks, 25.3.4; a tie zone's a tie, Table 25.3.2), with their crossties (25.3.5), or its
+    spiral (25.7.3), as (shape, sets). The clear cover to the ties is the bars' cover (face to bar
+    centre) less half a bar and the tie bar, as the design took it."""
+    circular = pd.notna(sec.get(col("diameter_mm")))
+    b = sec[col("diameter_mm")] if circular else sec[col("b_mm")]
+    h = sec[col("diameter_mm")] if circular else sec[col("h_mm")]
+    edge = sec[col("cover_mm")] if pd.notna(sec[col("cover_mm")]) else h - sec[col("d_mm")]
+    clear = max(edge - sec[col("db_long_mm")] / 2 - settings.bars[bar][0], 0.0)
+    spacing = col("spacing_mm")
+    out: dict[tuple, list] = {}
+    for z in zones[zones["count"] > 0].to_dict("records"):
+        if z["kind"] == "spiral":
+            pitch = z[spacing] if pd.notna(z[spacing]) else h
+            return [(detailing.spiral_shape(b, clear, bar, pitch, int(zones["count"].sum()), u), 1)]
+        for shape in detailing.tie_set(b, h, clear, bar, int(z["legs"]), int(z["legs_vb"]), circular, z["kind"], u):
+            out.setdefault((shape.name, round(shape.cut_length, 6)), [shape, 0])[1] += z["count"]
+    return [(shape, sets) for shape, sets in out.values()]
+
+
+def _satisfies_column(zones: pd.DataFrame, own: pd.DataFrame, positions: np.ndarray, st: pd.DataFrame,
+                      clear_span: float, settings: Detailing, col) -> bool:
+    """Do a column's ties (another column's layout) do for this one? The same bar, legs each way and
+    kinds as its own layout, and at every station a gap no wider than the spacing its demand allows
+    there for that choice (s_allowed_mm: shear in both directions, the spacing rules, confinement),
+    the end ties within half of it from the faces (10.7.6.1.2, 10.7.6.1.3)."""
+    key = lambda z: (tuple(z.bar[z["count"] > 0].unique()), int(z.legs.max()), int(z.legs_vb.max()),  # noqa: E731
+                     tuple(sorted(set(z.kind[z["count"] > 0]))))
+    if key(zones) != key(own) or not len(positions):
+        return False
+    x = st[col("x_mm")].to_numpy(float)
+    sides = detailing.jump_sides(np.zeros(len(x), int), x, st.side.to_numpy())
+    s = detailing.provided_spacing(positions, x, clear_span, sides)
+    allowed = st[col("s_allowed_mm")].to_numpy(float)
+    slack = settings.gap_slack
+    return bool(np.all(s <= allowed * (1 + 1e-9)) and positions[0] <= allowed[0] / 2 + slack
+                and clear_span - positions[-1] <= allowed[-1] / 2 + slack)
 
 
 def _torsion_members(run: Run) -> set[str]:

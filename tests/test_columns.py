@@ -369,3 +369,33 @@ def test_column_in_inch_pound_units(tmp_path):
     z = d.zones[d.zones.member == "US1"]
     assert z.spacing_in.dropna().min() == min(16 * 1.0, 48 * 0.375, 16.0) == 16.0
     assert set(z.kind) == {"tie"}
+
+
+def test_explain_govern_and_schedule_of_columns(circular, smf):
+    """A column reads through every view: `explain` walks both directions and the tie rules (a special
+    frame's confinement too), `govern` says it is a column and gives its legs each way, and the
+    schedule's marks are columns with ties, hoops (seismic hooks) and crossties."""
+    from postproc import explain, govern, schedule
+    from postproc.settings import settings_from_dict
+    from postproc.store import Store
+
+    def text(d, member):
+        run = Store(d.store).runs()[-1]
+        steps = explain.explain(run, member, settings_from_dict(run.manifest()["settings"]))
+        return run, "\n".join(line for s in steps for line in [s.title, s.clause, *s.lines])
+
+    run, t = text(circular["code"], "CIRC")
+    assert "D = 500 mm: bw = D, d = 0.8 D = 400 mm in both directions (22.5.2.2)" in t
+    assert "22.5.1.10" in t and "neglected where either ratio is 0.5 or less" in t
+    assert "Table 22.5.5.1(a)/(b) with Nu = 800.0 kN" in t and "Self-check" in t
+    ranked = govern.rank(run)
+    assert set(ranked.kind) == {"column"}
+    marks = schedule.build(run, settings_from_dict(run.manifest()["settings"]).detailing).marks
+    assert marks.layout.str.contains(" ties 2x2 @").all(), marks.layout
+
+    run, t = text(smf, "ASH")
+    assert "18.7.5.3 over lo" in t and "Ash by Table 18.7.5.4 asks for s <=" in t and "sets no spacing" in t and "Vc = 0 over lo" not in t
+    sched = schedule.build(run, settings_from_dict(run.manifest()["settings"]).detailing)
+    assert set(sched.marks.kind) == {"column"}
+    shapes = set(sched.bars["shape"])
+    assert {"hoop-135", "crosstie-135-90"} <= shapes, shapes
