@@ -482,13 +482,20 @@ def test_demo_frames_and_compare(demo_pair, capsys):
     assert len(perimeter) == 84
     assert frames.loc[perimeter, "message"].str.contains("special moment frame").all()
     assert set(zones[zones.member.isin(perimeter)].kind) == {"hoop", "stirrup"}
-    assert set(zones[~zones.member.isin(perimeter)].kind) <= {"stirrup"}
+    # the columns of the perimeter frames are special too (18.7: hoops throughout), the others tied
+    columns = [m for m in frames.index if m.split("-")[1] == "C"]
+    framed_columns = [m for m in columns if frames.message[m].startswith("special moment frame")
+                      or "special moment frame (18.7)" in frames.message[m]]
+    assert len(framed_columns) == 84
+    assert set(zones[zones.member.isin(framed_columns)].kind) == {"hoop"}
+    assert set(zones[zones.member.isin(set(columns) - set(framed_columns))].kind) == {"tie"}
+    assert set(zones[~zones.member.isin(perimeter + columns)].kind) <= {"stirrup"}
     assert (framed / "joints.csv").exists() and not (plain / "joints.csv").exists()
-    # compare: every perimeter girder changes (hoops), nothing else does
+    # compare: every perimeter girder and column changes (hoops), nothing else does
     assert cli.main(["compare", "plain", "frames", "--store", str(store), "--json"]) == 0
     diff = json.loads(capsys.readouterr().out)
     changed = {r["member"] for r in diff["layout_changes"]}
-    assert changed == set(perimeter)
+    assert changed == set(perimeter) | set(framed_columns)
     assert diff["stirrup_mass_change_kg"] > 0
     assert any(r["member"] in perimeter for r in diff["demand_changes"])  # Ve above the analysis shear somewhere
 

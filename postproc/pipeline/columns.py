@@ -370,7 +370,7 @@ def _frame_notes(mb, m, ve, moment, p_least, p_most, special, intermediate, shor
                     "Ve not limited by the beams' Mpr (18.7.6.1.1): ") + str(mb.joint_note[m]) + (")" if limited else ""))
         if zero["v"][sl].any() or zero["vb"][sl].any():
             out.append("Vc = 0 over lo (18.7.6.2.1)")
-        out.append("not checked here: strong column-weak beam (18.7.3.2), joints (18.8), splices (18.7.4.3), "
+        out.append("not checked here: strong column-weak beam (18.7.3.2), joints (18.8: joints.csv), splices (18.7.4.3), "
                    "columns under discontinued walls (18.7.5.6)")
         return out
     if intermediate[m]:
