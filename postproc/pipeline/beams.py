@@ -469,7 +469,7 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
     lay = _layout(mb, rs, cand, dem, opt, not_here != "", settings, fp, reg)
     prov = _provided(mb, rs, opt, lay, settings.detailing)
     cap = _check(mb, rs, cand, dem, prov, lay, settings, opt, fp, reg)
-    cap, vb = _check_vb(mb, rs, cand, dem, opt, lay, prov, cap, settings)
+    cap, vb = _check_vb(mb, rs, cand, dem, opt, lay, prov, cap, settings, reg)
     region_util = deep_step.check(reg, prov, mb.names, rs, settings)
     rows, zones, trace, positions = _records(mb, rs, cset, cand, dem, opt, lay, prov, cap, not_here, settings, fp,
                                              reg, region_util)
@@ -480,9 +480,10 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
 
 
 def _check_vb(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, lay: Layouts, prov: Provided,
-              cap: demand.Capacity, settings: Settings):
+              cap: demand.Capacity, settings: Settings, reg: deep_step.Regions):
     """Vb (forces.csv Vb_kN, parallel to b), where given, checked with the stirrups laid out for V
     (postproc.demand.lateral): the interaction of both directions joins each candidate's utilization;
+    inside a strut-and-tie region V is carried by the model (checked there), so Vb is checked alone;
     a beam whose stirrups do not suffice about the other axis is not designed, with the reason.
     Returns the capacity and, per member, its members.csv values for Vb."""
     vb = np.abs(cand.values.get("Vb", np.zeros(len(cand))))
@@ -497,7 +498,8 @@ def _check_vb(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options
     np.logical_or.at(closed, grid.member, dem.torsion)  # 25.7.1.6
     legs_b = lateral.horizontal_legs(opt.legs[k, np.arange(len(k))].astype(int), closed)[mem]
     with np.errstate(divide="ignore", invalid="ignore"):
-        ratio_v = np.where(prov.on[cs], np.where(dem.pairs.vu > 0, dem.pairs.vu / cap.phi_vn, 0.0), 0.0)
+        ratio_v = np.where(prov.on[cs] & ~reg.station[cs], np.where(dem.pairs.vu > 0, dem.pairs.vu / cap.phi_vn, 0.0),
+                           0.0)
     got = lateral.check(sec.b, sec.h, sec.d, sec.fc, sec.fyt, sec.lam, sec.Ag, vb, -cand.values["N"], ratio_v,
                         legs_b, opt.area[k][mem], prov.spacing[cs], settings.columns.biaxial_shear, mb.sec.u)
     on = prov.on[cs]
