@@ -111,7 +111,10 @@ KNOWN_COLUMNS = {  # every spelling of every column (a mapping file may name any
     "forces": tuple(sp for c in FORCE_COLUMNS for sp in unit_names.spellings(c.name)),
     "cases": tuple(c.name for c in CASE_COLUMNS),
 }
-FILLABLE = tuple(c.name for c in (*MEMBER_COLUMNS, *FORCE_COLUMNS) if c.numeric and not c.required)
+# optional numeric columns a setting may fill; b and h are optional only because a blank pair means a
+# circular section (diameter_mm): filling them would silently turn it rectangular
+FILLABLE = tuple(c.name for c in (*MEMBER_COLUMNS, *FORCE_COLUMNS)
+                 if c.numeric and not c.required and c.name not in ("b_mm", "h_mm"))
 
 
 def missing_hint(column: str, required: bool) -> str:

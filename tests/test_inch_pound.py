@@ -168,7 +168,7 @@ def test_simple_beam_by_hand_with_the_inch_pound_equations(worked):
     assert z.spacing_in.max() == 10.0
     assert (z.spacing_in.dropna() == z.spacing_in.dropna().round()).all()  # whole inches
     assert list(worked.zones.columns) == ["member", "zone", "start_in", "end_in", "bar", "legs", "spacing_in", "count",
-                                          "kind"]
+                                          "kind", "legs_vb"]
 
 
 def test_cantilever_by_hand_with_the_inch_pound_equations(worked):
@@ -397,7 +397,9 @@ def test_every_demo_member_designs_in_both_systems(demo_designed, demo_us):
     assert set(zones.bar.dropna()) - {""} <= {"#3", "#4", "#5"}
     spacing = zones.spacing_in.dropna()
     assert (spacing == spacing.round()).all() and spacing.min() >= 3.0
-    assert (zones.groupby("member").start_in.min() == 2.0).mean() > 0.9
+    # (beams; a column's first tie is at half its spacing from the face below, 25.7.2.4.1)
+    beams = pd.read_csv(cli.sample_folder() / "members.csv").query("kind == 'beam'").member
+    assert (zones[zones.member.isin(beams)].groupby("member").start_in.min() == 2.0).mean() > 0.9
 
 
 def test_demo_inputs_were_converted_by_the_tool(demo_us):
@@ -434,7 +436,8 @@ def test_demo_outputs_speak_inch_pound(demo_us, capsys):
     capsys.readouterr()
     bars = pd.read_csv(out / "schedule_bars.csv")
     assert {"A_in", "B_in", "hook_in", "cut_length_in", "unit_weight_lb", "weight_lb"} <= set(bars.columns)
-    assert bars.hook_in.min() == 3.0  # Table 25.3.2: 6 db and at least 3 in for #3 to #5
+    transverse = bars[~bars["shape"].str.contains("tie, end region|web bars")]  # not the straight STM bars
+    assert transverse.hook_in.min() == 3.0  # Table 25.3.2: 6 db and at least 3 in for #3 to #5
 
 
 def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
@@ -448,7 +451,7 @@ def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
     _, _, _, _, run = demo_us
     settings = settings_from_dict(run.manifest()["settings"])
     assert settings.units == "us"
-    names = ["L2-SB-23", "L1-TG-B35", "L2-GY-4BC", "L3-GX-B34", "L5-GY-4BC", "R-GX-B23"]  # outside the moment frames
+    names = ["L2-SB-23", "L1-GX-B4a5", "L2-GY-4BC", "L3-GX-B34", "L5-GY-4BC", "R-GX-B23"]  # outside the moment frames
     members = run.members().to_pandas().set_index("member", drop=False)
     assert all(reference.covers(members.loc[m]) for m in names)
     forces = pq.read_table(run.path / "forces", filters=[("member", "in", names)]).to_pandas()
@@ -625,7 +628,7 @@ def test_demo_frame_beams_and_joints_in_inch_pound(demo_us, capsys):
     _, members, zones, tmp, run = demo_us
     hoops = zones[zones.kind == "hoop"]
     assert len(hoops) and hoops.spacing_in.max() <= 6.0
-    frame = pd.read_csv(cli.sample_folder() / "members.csv").query("frame == 'special'").member
+    frame = pd.read_csv(cli.sample_folder() / "members.csv").query("frame == 'special' and kind == 'beam'").member
     firsts = zones[zones.member.isin(frame)].groupby("member").start_in.min()
     assert (firsts <= 2.0).all()
     joints = pd.read_csv(tmp / "out" / "joints.csv")

@@ -8,7 +8,6 @@ import shutil
 import subprocess
 import sys
 import sysconfig
-import time
 import venv
 from pathlib import Path
 
@@ -20,7 +19,6 @@ SOURCES = ["pyproject.toml", "README.md", "LICENSE", "postproc", "adapters", "sa
 
 @pytest.mark.install
 def test_wheel_installs_in_a_fresh_venv_and_runs_the_demo(tmp_path):
-    started = time.perf_counter()
     src = tmp_path / "src"  # a clean copy: the build leaves nothing in the working tree
     src.mkdir()
     for name in SOURCES:
@@ -57,7 +55,6 @@ def test_wheel_installs_in_a_fresh_venv_and_runs_the_demo(tmp_path):
     for name in ("members.csv", "zones.csv", "report.html"):
         assert (work / "shearpost-demo" / name).stat().st_size > 1000, name
     assert "Needs action" in (work / "shearpost-demo" / "report.html").read_text(encoding="utf-8")
-    assert time.perf_counter() - started < 60  # kept quick: no download, no dependency install
 
 
 def test_every_subpackage_is_installed():
