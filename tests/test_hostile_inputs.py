@@ -42,6 +42,7 @@ import os
 import random
 import re
 import shutil
+import tempfile
 import unicodedata
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -772,8 +773,7 @@ def two_runs(tmp_path_factory, request):
 
         Run.read_bytes = spy
         try:
-            out = root / f"intact-{name}"
-            code, text = run_command(argv, store, out, request)
+            code, text = run_command(argv, store, request)
         finally:
             Run.read_bytes = original
         assert code == cli.EXIT_OK, (name, text)
@@ -782,8 +782,12 @@ def two_runs(tmp_path_factory, request):
     report_outcomes(request, "damaged-store corpus", STORE_OUTCOMES)
 
 
-def run_command(argv, store: Path, out: Path, request) -> tuple[int, str]:
-    """A command on the store; its stdout, a marker line, its stderr (the out path written as {out})."""
+def run_command(argv, store: Path, request) -> tuple[int, str]:
+    """A command on the store; its stdout, a marker line, its stderr (the out path written as {out}).
+    The out folder's path has the same length in every call (mkdtemp's fixed-length suffix), so
+    that terminal lines wrap alike wherever the test runs (a worker's temporary folder differs)."""
+    out = Path(tempfile.mkdtemp(prefix="shearpost-out-")) / "o"
+    request.addfinalizer(lambda: shutil.rmtree(out.parent, ignore_errors=True))
     buf_out, buf_err = io.StringIO(), io.StringIO()
     with contextlib.redirect_stdout(buf_out), contextlib.redirect_stderr(buf_err):
         code = cli.main([a.replace("{out}", str(out)) for a in argv] + ["--store", str(store)])
@@ -844,7 +848,7 @@ def test_damaged_store_is_named_and_other_runs_work(two_runs, tmp_path, request,
     try:
         damage(target, case)
         damaged = snapshot(store)
-        code, text = run_command(COMMANDS[case.command], store, tmp_path / "out", request)
+        code, text = run_command(COMMANDS[case.command], store, request)
         STORE_OUTCOMES[(case.damage, code)] += 1
         run_manifest = case.file == "manifest.json"
         # the files the command opens (seen on the intact store), its run's manifest, and a schedule's own
@@ -861,15 +865,15 @@ def test_damaged_store_is_named_and_other_runs_work(two_runs, tmp_path, request,
             assert code == cli.EXIT_OK, f"{case.note}: exit {code}: {text[-800:]}"
             assert text == outputs[case.command], f"{case.note}: the output changed"
         assert snapshot(store) == damaged, "a reader wrote into the store"
-        code, text = run_command(["verify", "--run", "beta"], store, tmp_path / "v", request)
+        code, text = run_command(["verify", "--run", "beta"], store, request)
         assert code == EXIT_DAMAGED and case.file in text, text
         if k % 4 == 0:  # (on a quarter of the cases) the store's other run works
-            code, text = run_command(["runs", "--json"], store, tmp_path / "r", request)
+            code, text = run_command(["runs", "--json"], store, request)
             assert code == cli.EXIT_OK
             listed = {r["run"]: r for r in json.loads(text.split("--stderr--")[0])["runs"]}
             assert set(listed) == {"alpha", "beta"}
             assert bool(listed["beta"]["damaged"]) == run_manifest and not listed["alpha"]["damaged"]
-            code, text = run_command(["govern", "--run", "alpha", "--format", "csv"], store, tmp_path / "g", request)
+            code, text = run_command(["govern", "--run", "alpha", "--format", "csv"], store, request)
             assert code == cli.EXIT_OK and text == outputs["govern"], text
     finally:
         if saved is not None:
