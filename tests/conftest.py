@@ -95,3 +95,45 @@ def run_design(tmp_path):
 def tree_snapshot(root: Path) -> dict:
     """Every file under root with its size: to show that nothing changed on disk."""
     return {str(p.relative_to(root)): p.stat().st_size for p in root.rglob("*") if p.is_file()} if root.exists() else {}
+
+
+# ---------------------------------------------------------------- crash safety and hostile environments
+
+SMALL_MEMBERS = [beam("B1", 6.0), beam("B2", 5.0)]
+SMALL_FORCES = rows_from_function("B1", "U", 6.0, lambda x: 100 - 30 * x, n=5) + \
+    rows_from_function("B2", "U", 5.0, lambda x: 80 - 30 * x, n=5)
+
+
+def run_argv(members: Path, forces: Path, store: Path, out: Path, *extra: str) -> list[str]:
+    return ["run", "--members", str(members), "--forces", str(forces), "--store", str(store), "--out", str(out),
+            "--json", *extra]
+
+
+@pytest.fixture(scope="module")
+def big_model(tmp_path_factory) -> dict[str, Path]:
+    """Big enough to take several seconds and three stored parts (so that worker processes run)."""
+    from postproc.synthetic import generate
+
+    return generate(tmp_path_factory.mktemp("big") / "model", members=3000, cases=20, stations=21)
+
+
+@pytest.fixture(scope="module")
+def earlier_store(tmp_path_factory) -> Path:
+    """A store with one earlier, designed run named 'earlier' (made once per module, copied per test)."""
+    root = tmp_path_factory.mktemp("earlier")
+    paths = write_inputs(root / "in", SMALL_MEMBERS, SMALL_FORCES)
+    code = cli.main(run_argv(paths["members"], paths["forces"], root / "store", root / "out", "--run", "earlier",
+                             "--no-report"))
+    assert code == cli.EXIT_OK
+    return root / "store"
+
+
+def print_tally(request, lines: list[str]) -> None:
+    """Print a corpus test's tally of outcomes below the test run (past pytest's capture)."""
+    capman = request.config.pluginmanager.getplugin("capturemanager")
+    tr = request.config.pluginmanager.get_plugin("terminalreporter")
+    if capman is not None and tr is not None:
+        with capman.global_and_fixture_disabled():
+            tr.write_line("")
+            for line in lines:
+                tr.write_line(line)

@@ -30,12 +30,8 @@ import pytest
 
 from postproc import cli
 from postproc.store import Store
-from postproc.synthetic import generate
-from tests.conftest import beam, rows_from_function, write_inputs
+from tests.conftest import SMALL_FORCES, SMALL_MEMBERS, beam, rows_from_function, run_argv, write_inputs
 
-SMALL_MEMBERS = [beam("B1", 6.0), beam("B2", 5.0)]
-SMALL_FORCES = rows_from_function("B1", "U", 6.0, lambda x: 100 - 30 * x, n=5) + \
-    rows_from_function("B2", "U", 5.0, lambda x: 80 - 30 * x, n=5)
 
 
 def hashed_tree(root: Path) -> dict[str, str]:
@@ -44,26 +40,6 @@ def hashed_tree(root: Path) -> dict[str, str]:
         return {}
     return {str(p.relative_to(root)): hashlib.sha256(p.read_bytes()).hexdigest()
             for p in sorted(root.rglob("*")) if p.is_file()}
-
-
-def run_argv(members: Path, forces: Path, store: Path, out: Path, *extra: str) -> list[str]:
-    return ["run", "--members", str(members), "--forces", str(forces), "--store", str(store), "--out", str(out),
-            "--json", *extra]
-
-
-@pytest.fixture(scope="module")
-def big_model(tmp_path_factory) -> dict[str, Path]:
-    return generate(tmp_path_factory.mktemp("big") / "model", members=3000, cases=20, stations=21)
-
-
-@pytest.fixture(scope="module")
-def earlier_store(tmp_path_factory) -> Path:
-    """A store with one earlier, designed run named 'earlier' (made once, copied per test)."""
-    root = tmp_path_factory.mktemp("earlier")
-    paths = write_inputs(root / "in", SMALL_MEMBERS, SMALL_FORCES)
-    code = cli.main(run_argv(paths["members"], paths["forces"], root / "store", root / "out", "--run", "earlier"))
-    assert code == cli.EXIT_OK
-    return root / "store"
 
 
 def readable_forces(run_path: Path) -> int:

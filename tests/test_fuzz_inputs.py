@@ -33,6 +33,7 @@ from pathlib import Path
 import pytest
 
 from postproc import cli
+from tests.conftest import print_tally
 
 # ---------------------------------------------------------------- the valid pair of files
 
@@ -646,13 +647,7 @@ def fuzz_root(tmp_path_factory, request):
         return
     lines = [f"fuzz outcomes over {total} inputs (expected -> exit code: count; 'raised' = exception out of cli.main)"]
     lines += [f"  {exp:8s} -> {code}: {n}" for (exp, code), n in sorted(OUTCOMES.items(), key=str) if n]
-    capman = request.config.pluginmanager.getplugin("capturemanager")
-    tr = request.config.pluginmanager.get_plugin("terminalreporter")
-    if capman is not None and tr is not None:
-        with capman.global_and_fixture_disabled():
-            tr.write_line("")
-            for line in lines:
-                tr.write_line(line)
+    print_tally(request, lines)
 
 
 LINE = re.compile(r"line (\d+)")

@@ -12,8 +12,6 @@ in its own session, killed with real signals; the disks are real tmpfs mounts (a
 from __future__ import annotations
 
 import contextlib
-import io
-import json
 import os
 import shutil
 import signal
@@ -32,25 +30,10 @@ from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap
 from postproc.store import Store
 from postproc.synthetic import generate
-from tests.conftest import beam, rows_from_function, write_inputs
-from tests.test_crash_safety import SMALL_FORCES, SMALL_MEMBERS, designing, hashed_tree, run_argv, temp_folders
+from tests.conftest import SMALL_FORCES, SMALL_MEMBERS, beam, run_argv, write_inputs
+from tests.test_crash_safety import hashed_tree, temp_folders
 
 POSIX = os.name == "posix"
-
-
-@pytest.fixture(scope="module")
-def big_model(tmp_path_factory) -> dict[str, Path]:
-    """Big enough to take several seconds and three stored parts (so that worker processes run)."""
-    return generate(tmp_path_factory.mktemp("big") / "model", members=3000, cases=20, stations=21)
-
-
-@pytest.fixture(scope="module")
-def earlier_store(tmp_path_factory) -> Path:
-    root = tmp_path_factory.mktemp("earlier")
-    paths = write_inputs(root / "in", SMALL_MEMBERS, SMALL_FORCES)
-    assert cli.main(run_argv(paths["members"], paths["forces"], root / "store", root / "out", "--run", "earlier",
-                             "--no-report")) == cli.EXIT_OK
-    return root / "store"
 
 
 def start(argv: list[str], cwd: Path, **kw) -> subprocess.Popen:

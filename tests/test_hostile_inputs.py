@@ -52,6 +52,7 @@ import pytest
 
 from postproc import cli
 from postproc.store import Run, Store
+from tests.conftest import print_tally
 
 EXIT_DAMAGED = getattr(cli, "EXIT_DAMAGED", 4)
 
@@ -560,13 +561,7 @@ def report_outcomes(request, title: str, counter: collections.Counter) -> None:
         return
     lines = [f"{title}: {total} inputs (group -> exit code: count)"]
     lines += [f"  {group:9s} -> {code}: {n}" for (group, code), n in sorted(counter.items(), key=str) if n]
-    capman = request.config.pluginmanager.getplugin("capturemanager")
-    tr = request.config.pluginmanager.get_plugin("terminalreporter")
-    if capman is not None and tr is not None:
-        with capman.global_and_fixture_disabled():
-            tr.write_line("")
-            for line in lines:
-                tr.write_line(line)
+    print_tally(request, lines)
     counter.clear()
 
 
