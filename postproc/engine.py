@@ -130,6 +130,7 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
         rows.append(row(m, "no-forces", "no rows in the forces table"))
 
     out = pd.DataFrame(rows, columns=MEMBER_COLUMNS)
+    warnings += columns_without_vb(out, designable)
     out["_o"] = out["member"].map(lambda m: input_order.get(m, len(input_order)))
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
     zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
@@ -153,6 +154,27 @@ def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> lis
             "marked as part of a moment frame (members.csv `frame`, or [frames] by_group in the settings): ACI 318-19 "
             "Chapter 18 (capacity-design shear, hoops, joints) was NOT applied; every member is designed by Chapters 9 "
             "and 22 alone"]
+
+
+def columns_without_vb(out: pd.DataFrame, members: pd.DataFrame) -> list[str]:
+    """Columns designed with Vb zero at both faces in every combination (forces.csv without
+    Vb_kN, an element export, or a plane-frame analysis): their ties are designed for the
+    analysis V alone, so each says so in its message (``out`` is changed in place) and one
+    warning names them; a frame column's Ve from Mpr parallel to b still applies (18.7.6.1.1)."""
+    if "kind" not in members:
+        return []
+    columns = set(members.loc[members["kind"] == "column", "member"])
+    flat = (out["member"].isin(columns) & out["status"].isin(["designed", "resize"])
+            & out["vb_design_i_kN"].fillna(0.0).eq(0.0) & out["vb_design_j_kN"].fillna(0.0).eq(0.0))
+    if not flat.any():
+        return []
+    note = ("Vb_kN is zero at both faces in every combination (not given?): the analysis shear parallel to b is "
+            "taken as zero")
+    out.loc[flat, "message"] = [f"{m}; {note}" if isinstance(m, str) and m else note for m in out.loc[flat, "message"]]
+    names = sorted(out.loc[flat, "member"])
+    return [f"{len(names)} column(s) with Vb_kN zero at both faces in every combination ({', '.join(names[:5])}"
+            f"{' ...' if len(names) > 5 else ''}): their ties are designed for V (parallel to h) alone, with Vb taken "
+            "as zero; give Vb_kN from a three-dimensional analysis, or confirm the plane frame"]
 
 
 def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings,

@@ -399,3 +399,24 @@ def test_explain_govern_and_schedule_of_columns(circular, smf):
     assert set(sched.marks.kind) == {"column"}
     shapes = set(sched.bars["shape"])
     assert {"hoop-135", "crosstie-135-90"} <= shapes, shapes
+
+
+def test_a_column_without_vb_says_it_is_designed_for_v_alone():
+    """forces.csv without Vb_kN (a plane frame, or an element export): the column's ties are
+    designed for V alone; its message and one warning of the run say so, naming it. A column
+    whose forces give Vb is not named."""
+    import pandas as pd
+
+    import postproc
+
+    rows = constant("NOVB", 3.6, V=150.0, N=-1200.0) + constant("WITHVB", 3.6, V=150.0, Vb=60.0, N=-1200.0)
+    forces = pd.DataFrame(rows)
+    flat = postproc.design(pd.DataFrame([column("NOVB")]), forces[forces.member == "NOVB"].drop(columns="Vb_kN"))
+    both = postproc.design(pd.DataFrame([column("NOVB"), column("WITHVB")]), forces)
+    for d in (flat, both):
+        m = d.members.set_index("member")
+        assert m.status["NOVB"] == "designed"
+        assert "Vb_kN is zero at both faces in every combination" in m.message["NOVB"]
+        named = [w for w in d.warnings if "column(s) with Vb_kN zero" in w]
+        assert len(named) == 1 and "1 column(s)" in named[0] and "NOVB" in named[0] and "WITHVB" not in named[0]
+    assert "Vb_kN is zero" not in both.members.set_index("member").message["WITHVB"]
