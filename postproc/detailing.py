@@ -18,6 +18,7 @@ Lengths are in the run's internal unit (mm or in), bars those of its unit system
 
 from __future__ import annotations
 
+import functools
 import itertools
 from dataclasses import dataclass, field, replace
 
@@ -169,21 +170,30 @@ def floor_to_module(s: np.ndarray, module: float) -> np.ndarray:
 
 def choose_levels(u: np.ndarray, s_env: np.ndarray, max_levels: int) -> np.ndarray:
     """Spacings per station from one face, nondecreasing toward the middle, at most ``max_levels``
-    distinct values, each <= the allowed spacing, using the fewest stirrups."""
+    distinct values, each <= the allowed spacing, using the fewest stirrups: every choice of
+    levels (the tightest always among them) is scored in one step, the first of the least
+    cost wins (postproc.reference.choose_levels scores them one by one)."""
     values = np.unique(s_env)
     if len(values) <= max_levels:
         return s_env
     widths = np.diff(np.concatenate([u, [u[-1]]]))
     pos = np.searchsorted(values, s_env)
     lengths = np.bincount(pos, weights=widths, minlength=len(values))
-    best, best_cost = None, np.inf
-    for rest in itertools.combinations(range(1, len(values)), max_levels - 1):
-        chosen = np.array((0, *rest))
-        use = chosen[np.searchsorted(chosen, np.arange(len(values)), side="right") - 1]
-        cost = np.sum(lengths / np.where(np.isfinite(values[use]), values[use], 1e12))
-        if cost < best_cost:
-            best, best_cost = use, cost
-    return values[best][pos]
+    use = _level_choices(len(values), max_levels)  # (choices, values): the level each value is set to
+    denominators = values[use]
+    cost = np.sum(lengths / np.where(np.isfinite(denominators), denominators, 1e12), axis=1)
+    return values[use[np.argmin(cost)]][pos]
+
+
+@functools.lru_cache(maxsize=256)
+def _level_choices(n_values: int, max_levels: int) -> np.ndarray:
+    """Every set of ``max_levels`` of ``n_values`` sorted spacings holding the least, in the order of
+    itertools.combinations; row c gives, for each value, the largest chosen level not above it."""
+    chosen = np.array([(0, *rest) for rest in itertools.combinations(range(1, n_values), max_levels - 1)])
+    at = (chosen[:, :, None] <= np.arange(n_values)[None, None, :]).sum(axis=1) - 1
+    use = np.take_along_axis(chosen, at, axis=1)
+    use.flags.writeable = False
+    return use
 
 
 @dataclass
@@ -388,78 +398,196 @@ def _rounded(pos: np.ndarray, st: Detailing) -> np.ndarray:
     return np.round(pos, st.position_decimals)
 
 
-def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[float, float]],
-                         same_gap: float = Detailing.same_gap) -> list[Zone]:
-    """Zones as a detailer sets them out, derived from the stirrup positions.
+@dataclass(frozen=True)
+class Zones:
+    """Zones of a batch of stirrup groups, in order (group by group, from face i): zone k
+    holds ``count[k]`` stirrups from ``start[k]`` to ``end[k]`` at ``spacing[k]`` (NaN: one
+    stirrup or none) and belongs to group ``group[k]``."""
 
-    Runs of equal gaps are zones; where two runs meet, the stirrup between them belongs
-    to the tighter one; a lone gap between two runs (a transition) belongs to neither,
-    so each zone is "count stirrups from start to end at spacing". Spans left without
-    stirrups on purpose are zones of count 0. Gaps closer than ``same_gap`` (0.5 mm, or
-    the inch-pound settings' 0.02 in) are equal."""
-    n = len(x)
-    if not n:
-        return [Zone(0.0, clear_span, np.nan, 0)]
-    holes = [(a, b) for a, b in empty if b > a]
+    group: np.ndarray
+    start: np.ndarray
+    end: np.ndarray
+    spacing: np.ndarray
+    count: np.ndarray
+
+
+def zones_batch(x: np.ndarray, offsets: np.ndarray, clear_span: np.ndarray, hole_lo: np.ndarray,
+                hole_hi: np.ndarray, same_gap: float = Detailing.same_gap) -> Zones:
+    """Zones as a detailer sets them out, derived from the stirrup positions of every group
+    of a batch at once (group g: ``x[offsets[g]:offsets[g + 1]]``, ascending, in a clear span
+    ``clear_span[g]``, with at most one span left without stirrups on purpose, ``hole_lo[g]``
+    to ``hole_hi[g]``, NaN where none).
+
+    Runs of equal gaps are zones (a run goes on while each gap is within ``same_gap`` of its
+    first: 0.5 mm, or the inch-pound settings' 0.02 in); where two runs meet, the stirrup
+    between them belongs to the tighter one; a lone gap between two runs (a transition)
+    belongs to neither, so each zone is "count stirrups from start to end at spacing". Spans
+    left without stirrups on purpose are zones of count 0. postproc.reference.zones_from_positions
+    is the same, one group at a time."""
+    G, N = len(offsets) - 1, len(x)
+    counts = np.diff(offsets)
+    grp = np.repeat(np.arange(G), counts)
+    with np.errstate(invalid="ignore"):
+        has_hole = hole_hi > hole_lo  # NaN: none
+    # gap k lies between stirrups k and k + 1; it is a gap of its group where both are in it
+    gap = np.diff(x)
+    valid = grp[1:] == grp[:-1] if N else np.zeros(0, bool)
+    g_of = grp[:-1] if N else np.zeros(0, np.int64)
+    hole_gap = valid & has_hole[g_of] & (hole_lo[g_of] <= x[:-1] + 1e-6) & (hole_hi[g_of] >= x[1:] - 1e-6)
+    # where a run starting at gap k would end: while the next gap is within same_gap of gap k
+    end = np.arange(len(gap))
+    cur = np.flatnonzero(valid & ~hole_gap)
+    while len(cur):
+        nxt = np.minimum(end[cur] + 1, max(len(gap) - 1, 0))
+        go = (end[cur] + 1 < len(gap)) & valid[nxt] & ~hole_gap[nxt] & (np.abs(gap[nxt] - gap[cur]) < same_gap)
+        cur = cur[go]
+        end[cur] += 1
+    # the runs: from the first gap of each group, each starting after the last one ends
+    start = np.zeros(len(gap), bool)
+    cur = offsets[:-1][counts > 1]
+    while len(cur):
+        start[cur] = True
+        nxt = end[cur] + 1
+        cur = nxt[(nxt < len(gap)) & valid[np.minimum(nxt, max(len(gap) - 1, 0))]]
+    run = start & ~hole_gap  # a gap inside a hole is no run
+    latest = np.maximum.accumulate(np.where(start, np.arange(len(gap)), -1)) if len(gap) else np.zeros(0, np.int64)
+    run_of = np.where(valid & ~hole_gap, latest, -1)  # the run (its first gap) each gap is in
+    multi = np.zeros(len(gap), bool)
+    multi[run] = end[run] > np.flatnonzero(run)
+    # owners: the stirrups of runs of two gaps or more, the tighter run first where two meet
+    owner = np.full(N, -1)
+    left = np.full(N, -1)  # the run through the gap before each stirrup
+    right = np.full(N, -1)  # the run through the gap after it
+    if len(gap):
+        in_multi = (run_of >= 0) & multi[np.maximum(run_of, 0)]
+        left[1:] = np.where(in_multi, run_of, -1)
+        right[:-1] = np.where(in_multi, run_of, -1)
+    lg = np.where(left >= 0, gap[np.maximum(left, 0)] if len(gap) else 0.0, np.inf)
+    rg = np.where(right >= 0, gap[np.maximum(right, 0)] if len(gap) else 0.0, np.inf)
+    owner = np.where((left >= 0) & (lg <= rg), left, right)  # equal gaps: the earlier run (a stable order)
+    # a lone gap between two stirrups nobody owns: in a chain of such gaps, every other one from its first
+    lone = run & ~multi
+    free = lone.copy()
+    if len(gap):
+        free &= (owner[:-1] < 0) & (owner[1:] < 0)
+    idx = np.arange(len(gap))
+    chain_start = free & ~np.concatenate([[False], free[:-1]])
+    first = np.maximum.accumulate(np.where(chain_start, idx, 0)) if len(gap) else idx
+    claim = free & ((idx - first) % 2 == 0)
+    owner[:-1][claim] = idx[claim]
+    owner[1:][claim] = idx[claim]
+    # zones: stirrups of one owner together, every other stirrup alone
+    i = np.arange(N)
+    together = np.zeros(N, bool)  # stirrup k joins the zone of stirrup k - 1
+    if N:
+        together[1:] = valid & (owner[1:] >= 0) & (owner[1:] == owner[:-1])
+    heads = np.flatnonzero(~together)
+    tails = np.concatenate([heads[1:] - 1, [N - 1]]) if len(heads) else heads
+    cnt = tails - heads + 1
+    spacing = _segment_median(gap, heads, cnt - 1)
+    z_group = grp[heads]
+    after_hole = np.zeros(len(heads), bool)
+    inner = tails < N - 1
+    after_hole[inner] = hole_gap[tails[inner]] & valid[tails[inner]]
+    # the pieces in order: a leading empty zone, the zones (each maybe followed by an empty one), a trailing one
+    nonempty = counts > 0
+    first_x = np.where(nonempty, x[np.minimum(offsets[:-1], max(N - 1, 0))] if N else 0.0, np.nan)
+    last_x = np.where(nonempty, x[np.maximum(offsets[1:] - 1, 0)] if N else 0.0, np.nan)
+    with np.errstate(invalid="ignore"):
+        lead = nonempty & has_hole & (hole_lo <= 0.0) & (0.0 < first_x)
+        trail = nonempty & has_hole & (hole_hi >= clear_span) & (last_x < clear_span)
+    g_all = np.arange(G)
+    e = np.flatnonzero(after_hole)
+    pieces = [  # (group, order within it, start, end, spacing, count)
+        (g_all[~nonempty], np.full((~nonempty).sum(), -1), np.zeros((~nonempty).sum()), clear_span[~nonempty],
+         np.full((~nonempty).sum(), np.nan), np.zeros((~nonempty).sum(), np.int64)),
+        (g_all[lead], np.full(lead.sum(), -1), np.zeros(lead.sum()), first_x[lead], np.full(lead.sum(), np.nan),
+         np.zeros(lead.sum(), np.int64)),
+        (z_group, 2 * heads, x[heads], x[tails], spacing, cnt),
+        (z_group[e], 2 * tails[e] + 1, x[tails[e]], x[tails[e] + 1], np.full(len(e), np.nan), np.zeros(len(e), np.int64)),
+        (g_all[trail], np.full(trail.sum(), 2 * N + 2), last_x[trail], clear_span[trail], np.full(trail.sum(), np.nan),
+         np.zeros(trail.sum(), np.int64)),
+    ]
+    cols = [np.concatenate([p[c] for p in pieces]) for c in range(6)]
+    order = np.lexsort((cols[1], cols[0]))
+    return Zones(cols[0][order].astype(np.int64), cols[2][order].astype(float), cols[3][order].astype(float),
+                 cols[4][order].astype(float), cols[5][order].astype(np.int64))
+
+
+def _segment_median(values: np.ndarray, heads: np.ndarray, lengths: np.ndarray) -> np.ndarray:
+    """The median of values[heads[k]:heads[k] + lengths[k]] for each k (NaN where empty), as
+    numpy.median gives it: the middle value, or the mean of the two middle ones."""
+    out = np.full(len(heads), np.nan)
+    has = lengths > 0
+    if not has.any():
+        return out
+    seg = np.repeat(np.arange(len(heads))[has], lengths[has])
+    idx = np.repeat(heads[has] - np.cumsum(np.r_[0, lengths[has][:-1]]), lengths[has]) + np.arange(len(seg))
+    order = np.lexsort((values[idx], seg))
+    v = values[idx][order]
+    base = np.cumsum(np.r_[0, lengths[has][:-1]])
+    n = lengths[has]
+    lo, hi = v[base + (n - 1) // 2], v[base + n // 2]
+    out[has] = np.where(n % 2 == 1, hi, (lo + hi) / 2.0)
+    return out
+
+
+def provided_spacing_batch(x: np.ndarray, offsets: np.ndarray, clear_span: np.ndarray, station_group: np.ndarray,
+                           stations: np.ndarray, side: np.ndarray | None = None) -> np.ndarray:
+    """Spacing in force at each station of a batch: the gap between the stirrups on either
+    side; beyond the first or last stirrup, the larger of the gap to the face or free end
+    and the gap next to it; inf where there are none (and where ``station_group`` is -1).
+    Group g's stirrups are ``x[offsets[g]:offsets[g + 1]]``, ascending, in a clear span
+    ``clear_span[g]``. At a station on a stirrup, ``side`` says which gap it stands for: -1
+    the one before it (the left limit of a jump), +1 the one after it (the right limit), 0
+    the larger of the two (shear continuous there). postproc.reference.provided_spacing is
+    the same, one member at a time."""
+    S, G = len(stations), len(offsets) - 1
+    out = np.full(S, np.inf)
+    counts = np.diff(offsets)
+    sel = np.flatnonzero(station_group >= 0)
+    sel = sel[counts[station_group[sel]] > 0]
+    if not len(sel):
+        return out
+    # ext: for each group, the gap before each of its stirrups and the gap after the last
+    grp = np.repeat(np.arange(G), counts)
+    e_off = offsets + np.arange(G + 1)
+    ext = np.empty(len(x) + G)
+    local = np.arange(len(x)) - offsets[grp]
     gaps = np.diff(x)
-    hole_gap = np.array([any(a <= x[k] + 1e-6 and b >= x[k + 1] - 1e-6 for a, b in holes) for k in range(n - 1)],
-                        bool)
-    runs = []  # (first gap, last gap) of each run of equal gaps, holes excluded
-    k = 0
-    while k < n - 1:
-        j = k
-        while j + 1 < n - 1 and not hole_gap[k] and not hole_gap[j + 1] and abs(gaps[j + 1] - gaps[k]) < same_gap:
-            j += 1
-        if not hole_gap[k]:
-            runs.append((k, j))
-        k = j + 1
-    owner = np.full(n, -1)
-    multi = sorted((r for r in range(len(runs)) if runs[r][1] > runs[r][0]), key=lambda r: gaps[runs[r][0]])
-    for r in multi:  # tighter runs first
-        p, q = runs[r]
-        free = owner[p:q + 2] < 0
-        owner[p:q + 2][free] = r
-    for r, (p, q) in enumerate(runs):
-        if q == p and owner[p] < 0 and owner[p + 1] < 0:  # a lone gap between two lone stirrups
-            owner[p:p + 2] = r
-    zones: list[Zone] = []
-    if holes and holes[0][0] <= 0.0 < x[0]:
-        zones.append(Zone(0.0, float(x[0]), np.nan, 0))
-    i = 0
-    while i < n:
-        j = i
-        while j + 1 < n and owner[i] >= 0 and owner[j + 1] == owner[i]:
-            j += 1
-        count = j - i + 1
-        # a run's gaps agree within same_gap; its spacing is the one most of them have
-        zones.append(Zone(float(x[i]), float(x[j]), float(np.median(gaps[i:j])) if count > 1 else np.nan, count))
-        if j < n - 1 and hole_gap[j]:
-            zones.append(Zone(float(x[j]), float(x[j + 1]), np.nan, 0))
-        i = j + 1
-    if holes and holes[-1][1] >= clear_span and x[-1] < clear_span:
-        zones.append(Zone(float(x[-1]), clear_span, np.nan, 0))
-    return zones
+    ext[e_off[grp] + local] = np.r_[0.0, gaps]
+    lone = counts == 1
+    filled = counts > 0
+    first, last = offsets[:-1][filled], offsets[1:][filled] - 1
+    ext[e_off[:-1][filled]] = np.maximum(x[first], np.where(lone[filled], 0.0, ext[e_off[:-1][filled] + 1]))
+    ext[e_off[1:][filled] - 1] = np.maximum(clear_span[filled] - x[last],
+                                             np.where(lone[filled], 0.0, ext[e_off[1:][filled] - 2]))
+    # k: the group's stirrups before each station (strictly), by one sort of stirrups and stations together
+    g_s, x_s = station_group[sel], stations[sel]
+    keys_g = np.concatenate([g_s, grp])
+    keys_x = np.concatenate([x_s, x])
+    tag = np.concatenate([np.zeros(len(sel), np.int8), np.ones(len(x), np.int8)])  # a station before a stirrup at it
+    order = np.lexsort((tag, keys_x, keys_g))
+    is_stirrup = tag[order] == 1
+    before_count = np.cumsum(is_stirrup) - is_stirrup  # stirrups ahead of each in the merged order
+    k = np.empty(len(order), np.int64)
+    k[order] = before_count
+    k = k[:len(sel)] - offsets[g_s]
+    n = counts[g_s]
+    base = e_off[g_s]
+    on = (k < n) & (x[offsets[g_s] + np.minimum(k, n - 1)] == x_s)
+    before, after = ext[base + k], ext[base + np.minimum(k + 1, n)]
+    side = np.zeros(S, np.int8) if side is None else side
+    sd = side[sel]
+    at_stirrup = np.where(sd < 0, before, np.where(sd > 0, after, np.maximum(before, after)))
+    out[sel] = np.where(on, at_stirrup, before)
+    return out
 
 
 def provided_spacing(x: np.ndarray, stations: np.ndarray, clear_span: float, side: np.ndarray | None = None) -> np.ndarray:
-    """Spacing in force at each station: the gap between the stirrups on either side;
-    beyond the first or last stirrup, the larger of the gap to the face or free end and
-    the gap next to it; inf where there are none. At a station on a stirrup, ``side``
-    says which gap it stands for: -1 the one before it (the left limit of a jump), +1 the
-    one after it (the right limit), 0 the larger of the two (shear continuous there)."""
-    n = len(x)
-    if n == 0:
-        return np.full(len(stations), np.inf)
-    gaps = np.diff(x)
-    edge_lo = max(x[0], gaps[0] if n > 1 else 0.0)
-    edge_hi = max(clear_span - x[-1], gaps[-1] if n > 1 else 0.0)
-    ext = np.concatenate([[edge_lo], gaps, [edge_hi]])  # ext[k]: the gap before stirrup k
-    k = np.searchsorted(x, stations, side="left")  # stirrups before each station
-    on = (k < n) & (x[np.minimum(k, n - 1)] == stations)
-    before, after = ext[k], ext[np.minimum(k + 1, n)]
-    side = np.zeros(len(stations), np.int8) if side is None else side
-    at_stirrup = np.where(side < 0, before, np.where(side > 0, after, np.maximum(before, after)))
-    return np.where(on, at_stirrup, before)
+    """``provided_spacing_batch`` for one member's stirrups ``x`` at its ``stations``."""
+    return provided_spacing_batch(np.asarray(x, float), np.array([0, len(x)]), np.array([clear_span], float),
+                                  np.zeros(len(stations), np.int64), np.asarray(stations, float), side)
 
 
 def jump_sides(member: np.ndarray, x: np.ndarray, side: np.ndarray) -> np.ndarray:

@@ -18,6 +18,7 @@ by hand).
 from __future__ import annotations
 
 import bisect
+import itertools
 import math
 
 import numpy as np
@@ -26,7 +27,7 @@ import pandas as pd
 from postproc import detailing, units
 from postproc.demand import beams as demand
 from postproc.codes import aci318_19 as aci
-from postproc.settings import Settings
+from postproc.settings import Detailing, Settings
 from postproc.stations import BEARING
 
 PHI = aci.PHI_SHEAR
@@ -223,7 +224,7 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
     for k, (x, side, cs) in enumerate(stations):
         partner = k > 0 and stations[k - 1][0] == x and stations[k - 1][1] == 0 and side == 1
         rule = -1 if side == 0 else (1 if partner else 0)
-        s = float(detailing.provided_spacing(positions, np.array([x]), ln, np.array([rule], np.int8))[0])
+        s = float(provided_spacing(positions, np.array([x]), ln, np.array([rule], np.int8))[0])
         av_s = legs * area / s if math.isfinite(s) else 0.0
         has_min = av_s >= av_min * (1 - 1e-9)
         for c in cs:
@@ -252,7 +253,7 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
               "bar": bar if z.count else "", "legs": legs if z.count else 0,
               "spacing_mm": round(z.spacing, nd) if np.isfinite(z.spacing) else None, "count": z.count,
               "kind": "stirrup"}
-             for k, z in enumerate(detailing.zones_from_positions(positions, ln, empty, dt.same_gap), start=1)]
+             for k, z in enumerate(zones_from_positions(positions, ln, empty, dt.same_gap), start=1)]
     return ({**row, "status": "designed", "stirrups_total": len(positions), "utilization": round(best[0], 3)},
             zones, winners)
 
@@ -450,3 +451,104 @@ def _root(f, lo: float) -> float:
         mid = (lo + hi) / 2
         lo, hi = (lo, mid) if f(mid) <= 0 else (mid, hi)
     return hi
+
+
+# ----------------------------------------------------------------------------- the set-out, one member at a time
+# The plain forms of the batched set-out steps of postproc.detailing, kept to check them
+# (tests/test_layout_batch.py) and used by this module's own design.
+
+
+def choose_levels(u: np.ndarray, s_env: np.ndarray, max_levels: int) -> np.ndarray:
+    """The plain per-member level choice (what detailing.choose_levels computes in one step):
+    spacings per station from one face, nondecreasing toward the middle, at most ``max_levels``
+    distinct values, each <= the allowed spacing, using the fewest stirrups."""
+    values = np.unique(s_env)
+    if len(values) <= max_levels:
+        return s_env
+    widths = np.diff(np.concatenate([u, [u[-1]]]))
+    pos = np.searchsorted(values, s_env)
+    lengths = np.bincount(pos, weights=widths, minlength=len(values))
+    best, best_cost = None, np.inf
+    for rest in itertools.combinations(range(1, len(values)), max_levels - 1):
+        chosen = np.array((0, *rest))
+        use = chosen[np.searchsorted(chosen, np.arange(len(values)), side="right") - 1]
+        cost = np.sum(lengths / np.where(np.isfinite(values[use]), values[use], 1e12))
+        if cost < best_cost:
+            best, best_cost = use, cost
+    return values[best][pos]
+
+
+def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[float, float]],
+                         same_gap: float = Detailing.same_gap) -> list[detailing.Zone]:
+    """The plain per-member zones (what detailing.zones_batch derives for a whole batch):
+    zones as a detailer sets them out, derived from the stirrup positions.
+
+    Runs of equal gaps are zones; where two runs meet, the stirrup between them belongs
+    to the tighter one; a lone gap between two runs (a transition) belongs to neither,
+    so each zone is "count stirrups from start to end at spacing". Spans left without
+    stirrups on purpose are zones of count 0. Gaps closer than ``same_gap`` (0.5 mm, or
+    the inch-pound settings' 0.02 in) are equal."""
+    n = len(x)
+    if not n:
+        return [detailing.Zone(0.0, clear_span, np.nan, 0)]
+    holes = [(a, b) for a, b in empty if b > a]
+    gaps = np.diff(x)
+    hole_gap = np.array([any(a <= x[k] + 1e-6 and b >= x[k + 1] - 1e-6 for a, b in holes) for k in range(n - 1)],
+                        bool)
+    runs = []  # (first gap, last gap) of each run of equal gaps, holes excluded
+    k = 0
+    while k < n - 1:
+        j = k
+        while j + 1 < n - 1 and not hole_gap[k] and not hole_gap[j + 1] and abs(gaps[j + 1] - gaps[k]) < same_gap:
+            j += 1
+        if not hole_gap[k]:
+            runs.append((k, j))
+        k = j + 1
+    owner = np.full(n, -1)
+    multi = sorted((r for r in range(len(runs)) if runs[r][1] > runs[r][0]), key=lambda r: gaps[runs[r][0]])
+    for r in multi:  # tighter runs first
+        p, q = runs[r]
+        free = owner[p:q + 2] < 0
+        owner[p:q + 2][free] = r
+    for r, (p, q) in enumerate(runs):
+        if q == p and owner[p] < 0 and owner[p + 1] < 0:  # a lone gap between two lone stirrups
+            owner[p:p + 2] = r
+    zones: list[detailing.Zone] = []
+    if holes and holes[0][0] <= 0.0 < x[0]:
+        zones.append(detailing.Zone(0.0, float(x[0]), np.nan, 0))
+    i = 0
+    while i < n:
+        j = i
+        while j + 1 < n and owner[i] >= 0 and owner[j + 1] == owner[i]:
+            j += 1
+        count = j - i + 1
+        # a run's gaps agree within same_gap; its spacing is the one most of them have
+        zones.append(detailing.Zone(float(x[i]), float(x[j]), float(np.median(gaps[i:j])) if count > 1 else np.nan, count))
+        if j < n - 1 and hole_gap[j]:
+            zones.append(detailing.Zone(float(x[j]), float(x[j + 1]), np.nan, 0))
+        i = j + 1
+    if holes and holes[-1][1] >= clear_span and x[-1] < clear_span:
+        zones.append(detailing.Zone(float(x[-1]), clear_span, np.nan, 0))
+    return zones
+
+
+def provided_spacing(x: np.ndarray, stations: np.ndarray, clear_span: float, side: np.ndarray | None = None) -> np.ndarray:
+    """The plain per-member spacing in force (what detailing.provided_spacing_batch computes
+    for a whole batch) at each station: the gap between the stirrups on either side;
+    beyond the first or last stirrup, the larger of the gap to the face or free end and
+    the gap next to it; inf where there are none. At a station on a stirrup, ``side``
+    says which gap it stands for: -1 the one before it (the left limit of a jump), +1 the
+    one after it (the right limit), 0 the larger of the two (shear continuous there)."""
+    n = len(x)
+    if n == 0:
+        return np.full(len(stations), np.inf)
+    gaps = np.diff(x)
+    edge_lo = max(x[0], gaps[0] if n > 1 else 0.0)
+    edge_hi = max(clear_span - x[-1], gaps[-1] if n > 1 else 0.0)
+    ext = np.concatenate([[edge_lo], gaps, [edge_hi]])  # ext[k]: the gap before stirrup k
+    k = np.searchsorted(x, stations, side="left")  # stirrups before each station
+    on = (k < n) & (x[np.minimum(k, n - 1)] == stations)
+    before, after = ext[k], ext[np.minimum(k + 1, n)]
+    side = np.zeros(len(stations), np.int8) if side is None else side
+    at_stirrup = np.where(side < 0, before, np.where(side > 0, after, np.maximum(before, after)))
+    return np.where(on, at_stirrup, before)
