@@ -61,6 +61,40 @@ class Layout:
         return len(self.positions)
 
 
+@dataclass(frozen=True)
+class Stirrups:
+    """The stirrup positions of a batch of members, one array: member m's (ascending, from face
+    i) are ``x[offsets[m]:offsets[m + 1]]`` (none where not laid out); its span left without
+    stirrups on purpose is ``hole_lo[m]`` to ``hole_hi[m]`` (NaN where none)."""
+
+    x: np.ndarray
+    offsets: np.ndarray
+    hole_lo: np.ndarray
+    hole_hi: np.ndarray
+
+    @property
+    def counts(self) -> np.ndarray:
+        return np.diff(self.offsets)
+
+    @property
+    def member(self) -> np.ndarray:
+        """Per stirrup: its member."""
+        return np.repeat(np.arange(len(self.offsets) - 1), self.counts)
+
+    @classmethod
+    def gather(cls, layouts: dict[int, Layout], n: int) -> Stirrups:
+        """The layouts of members 0 .. n - 1 (a dict by member) as one batch."""
+        counts = np.zeros(n, np.int64)
+        lo, hi = np.full(n, np.nan), np.full(n, np.nan)
+        for m, lay in layouts.items():
+            counts[m] = len(lay.positions)
+            if lay.empty:  # layout_positions leaves one span at most
+                (lo[m], hi[m]), = lay.empty
+        order = sorted(layouts)
+        x = np.concatenate([layouts[m].positions for m in order]) if order else np.zeros(0)
+        return cls(x.astype(float, copy=False), np.r_[0, np.cumsum(counts)], lo, hi)
+
+
 def hook_extension(db: float, degrees: int, u: Edition = SI) -> float:
     """Straight extension of a stirrup hook (Table 25.3.2): 90 degrees, No. 10 to No. 16 | No. 3
     to No. 5 max(6 db, 75 mm | 3 in) and No. 19 to No. 25 | No. 6 to No. 8 12 db; 135 degrees,

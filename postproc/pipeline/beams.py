@@ -7,6 +7,7 @@ provided -> check -> records. The members 9.9.1.1 flags go to the strut-and-tie 
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -59,6 +60,7 @@ class Layouts:
     reasons: dict[int, tuple[str, str]]  # member -> (status, message) where not designed
     stirrups_here: np.ndarray  # per station: stirrups are placed there (needed, or throughout)
     allowed: np.ndarray  # per station: the allowed spacing for the chosen option (inf: none needed)
+    stirrups: detailing.Stirrups  # the positions of every laid-out member, one array
 
 
 def _geometry(bm: pd.DataFrame, settings: Settings) -> Members:
@@ -125,6 +127,7 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     allowed = np.full((len(opt.bars), len(grid.x)), np.inf)
     fits = np.zeros((len(opt.bars), n), bool)
     torsion_ok = np.ones((len(opt.bars), n), bool)
+    torsion_worst = np.zeros((len(opt.bars), n))  # the largest ratio of 22.7.7.1 per option, regions included
     for k in range(len(opt.bars)):
         allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module, fp)
         if reg.station.any():
@@ -133,6 +136,7 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
         fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing
         ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
                                            opt.ph[k][grid.member])
+        torsion_worst[k] = np.maximum.reduceat(ratio, starts)
         ratio = np.where(reg.station, 0.0, ratio)  # torsion in a region is refused by the deep step
         torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
     usable = fits & torsion_ok
@@ -152,7 +156,7 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
         k = option[m]
         if k < 0:
             if not torsion_ok[:, m].any():
-                reasons[m] = ("resize", _torsion_message(mb, rs, cand, dem, opt, m))
+                reasons[m] = ("resize", _torsion_message(opt, torsion_worst, m))
             else:
                 tight = [f"{opt.bars[j]} x{int(opt.legs[j][m])} legs at {allowed[j][sl].min():g} {U.length}"
                          for j in range(len(opt.bars)) if torsion_ok[j, m]]
@@ -169,14 +173,12 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
         positions, empty, note = got
         layouts[m] = detailing.Layout(opt.bars[k], int(opt.legs[k][m]), positions, empty, note)
         chosen[sl] = allowed[k][sl]
-    return Layouts(option, layouts, reasons, here, chosen)
+    return Layouts(option, layouts, reasons, here, chosen, detailing.Stirrups.gather(layouts, n))
 
 
-def _torsion_message(mb, rs, cand, dem, opt, m) -> str:
-    sl = slice(rs.grid.offsets[m], rs.grid.offsets[m + 1])
+def _torsion_message(opt: Options, torsion_worst: np.ndarray, m: int) -> str:
     best = int(np.argmax(opt.Aoh[:, m]))
-    ratio = demand.torsion_limit_ratio(mb.sec.take(rs.grid.member), cand, dem, opt.Aoh[best][rs.grid.member],
-                                       opt.ph[best][rs.grid.member])[sl].max()
+    ratio = torsion_worst[best, m]
     return (f"Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) (ratio {ratio:.2f} with {opt.bars[best]} "
             "stirrups): enlarge the section (the limit grows with bw*d and with Aoh^2/ph) or raise f'c; "
             "more stirrups do not help")
@@ -197,16 +199,12 @@ class Provided:
 
 def _provided(mb: Members, rs: Resampled, opt: Options, lay: Layouts, st) -> Provided:
     grid = rs.grid
-    S = len(grid.x)
     on = lay.option[grid.member] >= 0
-    spacing = np.full(S, np.inf)
     k = np.maximum(lay.option, 0)[grid.member]
     cols = grid.member
-    sides = detailing.jump_sides(grid.member, grid.x, grid.side)
-    for m, layout in lay.layouts.items():
-        sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        spacing[sl] = detailing.provided_spacing(layout.positions, rs.x_clear[sl], float(mb.geo.clear_span[m]),
-                                                 sides[sl])
+    sp = lay.stirrups  # members not laid out have none: inf there
+    spacing = detailing.provided_spacing_batch(sp.x, sp.offsets, mb.geo.clear_span, grid.member, rs.x_clear,
+                                               detailing.jump_sides(grid.member, grid.x, grid.side))
     legs = np.where(on, opt.legs[k, cols], 0.0)
     leg_gap = detailing.leg_spacing(mb.sec.b[cols], st.clear_cover, opt.db[k], np.maximum(legs, 1))
     return Provided(on, spacing, legs, np.where(on, opt.area[k], 0.0), opt.Aoh[k, cols], opt.ph[k, cols], leg_gap)
@@ -241,20 +239,33 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
                              f"s_max = {dem.s_max[k]:g} {mm})")
     smin = settings.detailing.min_spacing
     hoop_max = mb.sec.u.first_hoop_max
-    for m, layout in lay.layouts.items():
-        x = layout.positions
-        if len(x) and (x[0] <= 0 or x[-1] >= mb.geo.clear_span[m]):
+    sp, span = lay.stirrups, mb.geo.clear_span
+    has = sp.counts > 0
+    first_x = np.where(has, sp.x[np.minimum(sp.offsets[:-1], max(len(sp.x) - 1, 0))] if len(sp.x) else 0.0, np.nan)
+    last_x = np.where(has, sp.x[np.maximum(sp.offsets[1:] - 1, 0)] if len(sp.x) else 0.0, np.nan)
+    gaps = np.diff(sp.x)
+    inner = sp.member[1:] == sp.member[:-1] if len(sp.x) else np.zeros(0, bool)
+    least_gap = np.full(len(span), np.inf)
+    np.minimum.at(least_gap, sp.member[1:][inner], gaps[inner])
+    one_zone = np.array(["one zone throughout" in lay.layouts[m].message if m in lay.layouts else False
+                         for m in range(len(span))], bool)
+    first = hoop_max + slack
+    hoops = fp.first_hoop_members[rs.grid.offsets[:-1]] if len(rs.grid.x) else np.zeros(len(span), bool)
+    with np.errstate(invalid="ignore"):
+        outside = has & ((first_x <= 0) | (last_x >= span))
+        far = has & hoops & ((first_x > first) | (span - last_x > first))
+        close = (least_gap < smin - slack) & ~one_zone
+    for m in np.flatnonzero(outside | far | close)[:1]:  # the first failing member, as the member loop finds it
+        x = sp.x[sp.offsets[m]:sp.offsets[m + 1]]
+        if outside[m]:
             raise SelfCheckError(f"stirrups of member {mb.names[m]} run outside its clear span "
-                                 f"({x[0]:g} to {x[-1]:g} {mm} of {mb.geo.clear_span[m]:g} {mm})")
-        first = hoop_max + slack
-        if fp.first_hoop_members[rs.grid.offsets[m]] and len(x) and (x[0] > first or mb.geo.clear_span[m] - x[-1] > first):
+                                 f"({x[0]:g} to {x[-1]:g} {mm} of {span[m]:g} {mm})")
+        if far[m]:
             raise SelfCheckError(f"hoops of member {mb.names[m]} start {x[0]:g} {mm} and "
-                                 f"{mb.geo.clear_span[m] - x[-1]:g} {mm} from the faces, more than {hoop_max:g} {mm} "
+                                 f"{span[m] - x[-1]:g} {mm} from the faces, more than {hoop_max:g} {mm} "
                                  "(18.6.4.4, 18.4.2.4)")
-        gaps = np.diff(x)
-        if len(gaps) and gaps.min() < smin - slack and "one zone throughout" not in layout.message:
-            raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps.min():g} {mm} apart, under the "
-                                 f"{smin:g} {mm} minimum")
+        raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps[sp.offsets[m]:sp.offsets[m + 1] - 1].min():g} "
+                             f"{mm} apart, under the {smin:g} {mm} minimum")
     return cap
 
 
@@ -307,21 +318,28 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     al = np.where(p.torsion, al, 0.0)
     al_member = np.maximum.reduceat(al, member_bounds[:-1]) if len(al) else np.zeros(n)
 
-    rows, zones, stirrups = [], [], []
+    rows = []
     first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
     per_force, per_moment, nd = U.per_force, U.per_moment, st.position_decimals  # table units; decimals of mm (in)
     area_nd = 0 if U.name == "si" else 2  # mm^2 whole, in^2 to 0.01
-    for m in range(n):
-        j = gov_member[m]
-        common = dict(
-            crit_i=rs.rules.crit_i[m], crit_j=rs.rules.crit_j[m],
-            vu_design_i_kN=round(dem.vu_max[first_st[m]] / per_force, 2),
-            vu_design_j_kN=round(dem.vu_max[last_st[m]] / per_force, 2),
-            governing_case=name_member[m], phi_vc_kN=round(aci.PHI_SHEAR * vc_used[j] / per_force, 2),
-            phi_vn_limit_kN=round(limit[j] / per_force, 2), utilization=round(float(pair_u[j]), 3),
-            x_governing_mm=round(float(rs.x_clear[cs[j]]), nd), vu_kN=round(p.vu[j] / per_force, 2),
-            nu_kN=round(p.nu[j] / per_force, 2), tu_kNm=round(p.tu[j] / per_moment, 3), vc_equation=eq[j],
-            al_torsion_mm2=round(float(al_member[m]), area_nd) if al_member[m] > 0 else None)
+    j = gov_member
+    member_values = dict(  # members.csv values of every member (numpy rounding where the values are numpy's)
+        crit_i=list(rs.rules.crit_i), crit_j=list(rs.rules.crit_j),
+        vu_design_i_kN=list(np.round(dem.vu_max[first_st] / per_force, 2)),
+        vu_design_j_kN=list(np.round(dem.vu_max[last_st] / per_force, 2)),
+        governing_case=list(name_member), phi_vc_kN=list(np.round(aci.PHI_SHEAR * vc_used[j] / per_force, 2)),
+        phi_vn_limit_kN=list(np.round(limit[j] / per_force, 2)),
+        utilization=[round(v, 3) for v in pair_u[j].tolist()],
+        x_governing_mm=[round(v, nd) for v in rs.x_clear[cs[j]].tolist()], vu_kN=list(np.round(p.vu[j] / per_force, 2)),
+        nu_kN=list(np.round(p.nu[j] / per_force, 2)), tu_kNm=list(np.round(p.tu[j] / per_moment, 3)),
+        vc_equation=list(eq[j]),
+        al_torsion_mm2=[round(v, area_nd) if v > 0 else None for v in al_member.tolist()])
+    keys = list(member_values)
+    needs_closed = (np.logical_or.reduceat(dem.torsion | fs.throughout, first_st) if n else np.zeros(0, bool))
+    set_masses: dict[tuple, float] = {}  # one stirrup set's mass per (b, h, bar, legs, closed)
+    designed = np.zeros(n, bool)
+    for m, values in enumerate(zip(*member_values.values())):
+        common = dict(zip(keys, values))
         name = mb.names[m]
         if why_deep[m]:
             rows.append(row(name, "deep-beam", why_deep[m], **common))
@@ -341,13 +359,16 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
                 msg = lay.reasons[m][1]
             rows.append(row(name, status, msg, **common))
             continue
+        designed[m] = True
         layout = lay.layouts[m]
-        sl = slice(grid.offsets[m], grid.offsets[m + 1])
         # closed where torsion acts (25.7.1.6) and in frame beams (hoops; stirrups with seismic hooks, 18.6.4.6)
-        closed = st.stirrup_shape == "closed" or bool(dem.torsion[sl].any()) or bool(fs.throughout[sl].any())
-        shapes = detailing.stirrup_set(float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover, layout.bar, layout.legs,
-                                       closed, st.open_hook_deg, u)
-        mass = layout.count * detailing.set_mass(shapes, u)
+        closed = st.stirrup_shape == "closed" or bool(needs_closed[m])
+        key = (float(mb.sec.b[m]), float(mb.geo.h[m]), layout.bar, layout.legs, closed)
+        if key not in set_masses:
+            set_masses[key] = detailing.set_mass(detailing.stirrup_set(
+                float(mb.sec.b[m]), mb.geo.h[m], st.clear_cover, layout.bar, layout.legs, closed, st.open_hook_deg, u),
+                u)
+        mass = layout.count * set_masses[key]
         message = "; ".join(filter(None, [layout.message, fp.notes.get(m, "")]))
         if al_member[m] > 0:
             message = "; ".join(filter(None, [message, f"torsion: add Al = {al_member[m]:,.{area_nd}f} {U.area} of "
@@ -355,14 +376,8 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
                                                       "9.7.5)"]))
         rows.append(row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
                          **common))
-        stirrups.append(pd.DataFrame({"member": name, "x_mm": layout.positions}))
-        hinge = 2.0 * mb.geo.h[m] if fs.zone[sl].any() else None  # hoops over 2h (18.6.4.1, 18.4.2.4)
-        for z, (kind, zone) in enumerate(_kinded_zones(layout, float(mb.geo.clear_span[m]), hinge, st.same_gap),
-                                         start=1):
-            zones.append(dict(member=name, zone=z, start_mm=round(zone.start, nd), end_mm=round(zone.end, nd),
-                              bar=layout.bar if zone.count else "", legs=layout.legs if zone.count else 0,
-                              spacing_mm=round(zone.spacing, nd) if np.isfinite(zone.spacing) else None,
-                              count=zone.count, kind=kind))
+    hinged = np.logical_or.reduceat(fs.zone > 0, first_st) if n else np.zeros(0, bool)
+    zones, stirrups = _zone_rows(mb, lay, designed, hinged, st.same_gap, nd)
 
     g = gov_station
     k_st = k_ref[grid.member]
@@ -397,25 +412,63 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         "ve_kN": fs.ve / per_force, "ve_eq_kN": fs.ve_eq / per_force, "hinge_zone": fs.zone, "vc_zero": fs.vc_zero,
     }
     trace = pa.table(deep_step.station_columns(reg, columns, region_util, sec_st.b, per_force))
-    positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
-    return rows, zones, trace, positions
+    return rows, zones, trace, stirrups
 
 
-def _kinded_zones(layout: detailing.Layout, clear_span: float, hinge: float | None,
-                  same_gap: float = 0.5) -> list[tuple[str, detailing.Zone]]:
-    """zones.csv rows with their kind: the stirrups of the hinge zones at each end are hoops
-    (up to and including the first at or beyond 2h from the face, so that the hoops span 2h),
-    the rest stirrups; zones are derived from the positions of each part on its own."""
-    x = layout.positions
-    if hinge is None or not len(x):
-        return [("stirrup", z) for z in detailing.zones_from_positions(x, clear_span, layout.empty, same_gap)]
-    last_i = min(int(np.searchsorted(x, hinge - 1e-6)), len(x) - 1)  # the first hoop at or beyond 2h from face i
-    first_j = max(int(np.searchsorted(x, clear_span - hinge + 1e-6, side="right")) - 1, 0)
-    if first_j <= last_i + 1:  # the hoop zones meet: hoops throughout
-        return [("hoop", z) for z in detailing.zones_from_positions(x, clear_span, [], same_gap)]
-    parts = (("hoop", x[:last_i + 1]), ("stirrup", x[last_i + 1:first_j]), ("hoop", x[first_j:]))
-    return [(kind, z) for kind, part in parts if len(part)
-            for z in detailing.zones_from_positions(part, clear_span, [], same_gap)]
+def _zone_rows(mb: Members, lay: Layouts, designed: np.ndarray, hinged: np.ndarray, same_gap: float,
+               nd: int) -> tuple[list[dict], pd.DataFrame]:
+    """zones.csv rows and the stirrup positions of the designed members, for the whole batch at
+    once. In frame beams (``hinged``) the stirrups of the hinge zones at each end are hoops (up
+    to and including the first at or beyond 2h from the face, so that the hoops span 2h,
+    18.6.4.1, 18.4.2.4), the rest stirrups; zones are derived from the positions of each part
+    on its own (hoops throughout where the hoop zones meet)."""
+    sp = lay.stirrups
+    span, counts = mb.geo.clear_span, sp.counts
+    mine = designed[sp.member]
+    x, member = sp.x[mine], sp.member[mine]
+    if not designed.any():
+        return [], pd.DataFrame(columns=["member", "x_mm"])
+    stirrups = pd.DataFrame({"member": mb.names[member], "x_mm": x})
+    # each designed member's parts: (first stirrup, last + 1, kind, whether its hole applies)
+    hinge = 2.0 * mb.geo.h
+    n_lt = np.bincount(member[x < (hinge - 1e-6)[member]], minlength=len(span))  # searchsorted(x, 2h - 1e-6)
+    n_le = np.bincount(member[x <= (span - hinge + 1e-6)[member]], minlength=len(span))
+    last_i = np.minimum(n_lt, counts - 1)  # the first hoop at or beyond 2h from face i
+    first_j = np.maximum(n_le - 1, 0)
+    split = hinged & (counts > 0)
+    three = split & (first_j > last_i + 1)
+    lo0 = sp.offsets[:-1]
+    parts = []  # (member, start, stop, kind code, order)
+    plain = designed & ~split
+    hoops_all = designed & split & ~three
+    for sel, start, stop, kind, order in (
+            (plain, lo0, sp.offsets[1:], 0, 0), (hoops_all, lo0, sp.offsets[1:], 1, 0),
+            (three & designed, lo0, lo0 + last_i + 1, 1, 0), (three & designed, lo0 + last_i + 1, lo0 + first_j, 0, 1),
+            (three & designed, lo0 + first_j, sp.offsets[1:], 1, 2)):
+        m = np.flatnonzero(sel)
+        parts.append((m, start[m], stop[m], np.full(len(m), kind), np.full(len(m), order)))
+    pm, p0, p1, pk, po = (np.concatenate([p[c] for p in parts]) for c in range(5))
+    order = np.lexsort((po, pm))
+    pm, p0, p1, pk = pm[order], p0[order], p1[order], pk[order]
+    own_hole = (pk == 0) & plain[pm]
+    # the parts of each member follow each other and cover its stirrups: together, x
+    zb = detailing.zones_batch(x, np.r_[0, np.cumsum(p1 - p0)], span[pm],
+                               np.where(own_hole, sp.hole_lo[pm], np.nan), np.where(own_hole, sp.hole_hi[pm], np.nan),
+                               same_gap)
+    zm = pm[zb.group]
+    first_of = np.r_[True, zm[1:] != zm[:-1]]
+    number = np.arange(len(zm)) - np.maximum.accumulate(np.where(first_of, np.arange(len(zm)), 0)) + 1
+    kinds = np.array(["stirrup", "hoop"], dtype=object)[pk[zb.group]]
+    bars = {m: (lay.layouts[m].bar, lay.layouts[m].legs) for m in np.unique(zm).tolist()}
+    names = mb.names
+    zones = []
+    for m, z, a, b, s, c, kind in zip(zm.tolist(), number.tolist(), zb.start.tolist(), zb.end.tolist(),
+                                      zb.spacing.tolist(), zb.count.tolist(), kinds):
+        bar, legs = bars[m]
+        zones.append(dict(member=names[m], zone=z, start_mm=round(a, nd), end_mm=round(b, nd), bar=bar if c else "",
+                          legs=legs if c else 0, spacing_mm=round(s, nd) if math.isfinite(s) else None, count=c,
+                          kind=kind))
+    return zones, stirrups
 
 
 def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray,

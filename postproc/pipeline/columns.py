@@ -501,6 +501,7 @@ class Layouts:
     layouts: dict[int, detailing.Layout]
     reasons: dict[int, str]
     allowed: list[Allowed]
+    stirrups: detailing.Stirrups  # the positions of every laid-out member, one array
 
 
 def _tie_settings(settings: Settings):
@@ -552,7 +553,7 @@ def _layout(mb: Members, rs: Resampled, opts: list[Option], allowed: list[Allowe
             what = "pitch" if spiral[m] else f"{st.min_spacing:g} {U.length} minimum spacing"
             reasons[m] = (f"no tie bar and legs of the ladder work at the {what}: " + "; ".join(tried) if tried else
                           "no tie bar of the ladder may tie these bars (25.7.2.2: No. 13 ties around No. 36 bars)")
-    return Layouts(option, layouts, reasons, allowed)
+    return Layouts(option, layouts, reasons, allowed, detailing.Stirrups.gather(layouts, n))
 
 
 def _spiral_positions(clear: float, pitch: float, st):
@@ -574,12 +575,9 @@ class Provided:
 
 def _provided(mb: Members, rs: Resampled, lay: Layouts) -> Provided:
     grid = rs.grid
-    spacing = np.full(len(grid.x), np.inf)
-    sides = detailing.jump_sides(grid.member, grid.x, grid.side)
-    for m, layout in lay.layouts.items():
-        sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        spacing[sl] = detailing.provided_spacing(layout.positions, rs.x_clear[sl], float(mb.geo.clear_span[m]),
-                                                 sides[sl])
+    sp = lay.stirrups  # members not laid out have none: inf there
+    spacing = detailing.provided_spacing_batch(sp.x, sp.offsets, mb.geo.clear_span, grid.member, rs.x_clear,
+                                               detailing.jump_sides(grid.member, grid.x, grid.side))
     return Provided(lay.option[grid.member] >= 0, spacing, np.maximum(lay.option, 0)[grid.member])
 
 
@@ -637,20 +635,32 @@ def _check(mb: Members, rs: Resampled, cases: demand.Cases, cap: Capacity, prov:
                              f"(utilization {st_util[j]:.3f}, s = {prov.spacing[j]:g}, s_max = {s_max[j]:g}, "
                              f"Av,min {'missing' if bad_min[j] else 'met'}, confinement 1/s >= {t_conf[j]:.5f})")
     smin, slack = settings.detailing.min_spacing, settings.detailing.gap_slack
-    for m, layout in lay.layouts.items():
-        x = layout.positions
-        clear = float(mb.geo.clear_span[m])
-        sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        if len(x) == 0 or x[0] <= 0 or x[-1] >= clear:
+    sp, clear = lay.stirrups, mb.geo.clear_span
+    laid = np.zeros(len(clear), bool)
+    laid[list(lay.layouts)] = True
+    has = sp.counts > 0
+    first_x = np.where(has, sp.x[np.minimum(sp.offsets[:-1], max(len(sp.x) - 1, 0))] if len(sp.x) else 0.0, np.nan)
+    last_x = np.where(has, sp.x[np.maximum(sp.offsets[1:] - 1, 0)] if len(sp.x) else 0.0, np.nan)
+    gaps = np.diff(sp.x)
+    inner = sp.member[1:] == sp.member[:-1] if len(sp.x) else np.zeros(0, bool)
+    least_gap = np.full(len(clear), np.inf)
+    np.minimum.at(least_gap, sp.member[1:][inner], gaps[inner])
+    exempt = np.zeros(len(clear), bool)
+    exempt[[m for m, lay_m in lay.layouts.items() if lay_m.message in ("spiral", "end zones meet; one zone throughout")]] = True
+    first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
+    with np.errstate(invalid="ignore"):
+        outside = laid & (~has | (first_x <= 0) | (last_x >= clear))
+        close = laid & (least_gap < smin - slack) & ~exempt
+        far_i = laid & ~mb.free_i & (first_x > a_limit[first_st] / 2.0 + slack)
+        far_j = laid & ~mb.free_j & (clear - last_x > a_limit[last_st] / 2.0 + slack)
+    for m in np.flatnonzero(outside | close | far_i | far_j)[:1]:  # the first failing member, as a member loop finds it
+        if outside[m]:
             raise SelfCheckError(f"ties of column {mb.names[m]} do not lie within its clear height")
-        gaps = np.diff(x)
-        if len(gaps) and gaps.min() < smin - slack and layout.message not in ("spiral", "end zones meet; one zone throughout"):
-            raise SelfCheckError(f"ties of column {mb.names[m]} are {gaps.min():g} apart, under the {smin:g} minimum")
-        ends = ((x[0], a_limit[sl][0], mb.free_i[m]), (clear - x[-1], a_limit[sl][-1], mb.free_j[m]))
-        for gap, allowed, free in ends:
-            if not free and gap > allowed / 2.0 + slack:
-                raise SelfCheckError(f"the end tie of column {mb.names[m]} is {gap:g} from a face, over half the "
-                                     f"allowed spacing {allowed:g} (10.7.6.1.2, 10.7.6.1.3)")
+        if close[m]:
+            raise SelfCheckError(f"ties of column {mb.names[m]} are {least_gap[m]:g} apart, under the {smin:g} minimum")
+        gap, allowed = (first_x[m], a_limit[first_st[m]]) if far_i[m] else (clear[m] - last_x[m], a_limit[last_st[m]])
+        raise SelfCheckError(f"the end tie of column {mb.names[m]} is {gap:g} from a face, over half the "
+                             f"allowed spacing {allowed:g} (10.7.6.1.2, 10.7.6.1.3)")
 
 
 def _with_neighbours(values: np.ndarray, member: np.ndarray, pick) -> np.ndarray:
@@ -745,8 +755,13 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
                                                      np.minimum(s_.bw_v, s_.bw_vb), u), 0.0)
     al_member = demand.segment_max(al, member_bounds)
 
-    rows, zones, positions = [], [], []
+    rows, zones = [], []
     first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
+    sp = lay.stirrups
+    zb = detailing.zones_batch(sp.x, sp.offsets, mb.geo.clear_span, sp.hole_lo, sp.hole_hi)  # every laid-out member
+    z_bounds = np.searchsorted(zb.group, np.arange(n + 1))
+    z_all = [detailing.Zone(*z) for z in zip(zb.start.tolist(), zb.end.tolist(), zb.spacing.tolist(), zb.count.tolist())]
+    designed = np.zeros(n, bool)
     for m in range(n):
         name = mb.names[m]
         if mb.problem[m]:
@@ -780,7 +795,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
         lv, lvb = int(opt.legs_v[m]), int(opt.legs_vb[m])
         circular = bool(mb.sec.circular[m])
         clear = float(mb.geo.clear_span[m])
-        zl = detailing.zones_from_positions(layout.positions, clear, layout.empty)
+        zl = z_all[z_bounds[m]:z_bounds[m + 1]]
         kinds = [_kind_of_zone(str(mb.frame[m]), bool(spiral[m]), float(mb.lo[m]), clear, z) for z in zl]
         if spiral[m]:
             pitch = float(np.diff(layout.positions).min()) if len(layout.positions) > 1 else clear
@@ -808,7 +823,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
         message = "; ".join([f"{opt.bar} {what}, {legs_note}"] + notes)
         rows.append(row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
                         **common))
-        positions.append(pd.DataFrame({"member": name, "x_mm": layout.positions}))
+        designed[m] = True
         for zk, (zone, kind) in enumerate(zip(zl, kinds), start=1):
             zones.append(dict(member=name, zone=zk, start_mm=round(zone.start, nd), end_mm=round(zone.end, nd),
                               bar=opt.bar if zone.count else "", legs=lv if zone.count else 0,
@@ -816,7 +831,9 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
                               count=zone.count, kind=kind, legs_vb=lvb if zone.count else 0))
     trace = _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, gov_station, name_station, vmax_v, vmax_vb,
                    vc_v_used, vc_vb_used, lim_v, lim_vb, eq, u_v, u_vb, util, al, settings)
-    pos = pd.concat(positions, ignore_index=True) if positions else pd.DataFrame(columns=["member", "x_mm"])
+    mine = designed[sp.member]
+    pos = (pd.DataFrame({"member": mb.names[sp.member[mine]], "x_mm": sp.x[mine]}) if designed.any()
+           else pd.DataFrame(columns=["member", "x_mm"]))
     return rows, zones, trace, pos
 
 
