@@ -9,7 +9,7 @@ the point of least demand (a cantilever from its fixed end), at most
 centred between the end runs. Every gap between neighbouring stirrups lies between
 the practical minimum spacing and the spacing the demand allows everywhere in it; the
 gap from a face or a free end to the nearest stirrup is held to the same limit. The
-zones of zones.csv are derived from the positions (``zones_from_positions``), so the
+zones of zones.csv are derived from the positions (``zones_batch``, a whole batch at once), so the
 two can never disagree.
 
 Lengths are in the run's internal unit (mm or in), bars those of its unit system
