@@ -406,7 +406,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
                                fs.limit_for(opt.db[k_st])),
         "s_allowed_mm": np.where(on, lay.allowed, np.nan),
         "spacing_mm": np.where(on, prov.spacing, np.nan), "av_s_prov": av_prov,
-        "al_mm2": al[g], "utilization": station_util,
+        "utilization": station_util,
         # Chapter 18 (postproc.pipeline.frame_beams): frame, capacity-design shear, hinge zone, Vc = 0
         "frame": take([fr.NAMES[c] for c in range(len(fr.NAMES))], fs.code.astype(np.int64)),
         "ve_kN": fs.ve / per_force, "ve_eq_kN": fs.ve_eq / per_force, "hinge_zone": fs.zone, "vc_zero": fs.vc_zero,

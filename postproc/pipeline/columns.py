@@ -830,7 +830,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
                               spacing_mm=round(zone.spacing, nd) if np.isfinite(zone.spacing) else None,
                               count=zone.count, kind=kind, legs_vb=lvb if zone.count else 0))
     trace = _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, gov_station, name_station, vmax_v, vmax_vb,
-                   vc_v_used, vc_vb_used, lim_v, lim_vb, eq, u_v, u_vb, util, al, settings)
+                   vc_v_used, vc_vb_used, lim_v, lim_vb, eq, u_v, u_vb, util, settings)
     mine = designed[sp.member]
     pos = (pd.DataFrame({"member": mb.names[sp.member[mine]], "x_mm": sp.x[mine]}) if designed.any()
            else pd.DataFrame(columns=["member", "x_mm"]))
@@ -848,7 +848,7 @@ def _case_names(mb, cases: demand.Cases, cand, cset, rs, which: np.ndarray) -> n
 
 
 def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax_v, vmax_vb, vc_v_used, vc_vb_used,
-           lim_v, lim_vb, eq, u_v, u_vb, util, al, settings) -> pa.Table:
+           lim_v, lim_vb, eq, u_v, u_vb, util, settings) -> pa.Table:
     grid = rs.grid
     S = len(grid.x)
     U = unit_system(settings)
@@ -857,14 +857,13 @@ def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax
     mem = grid.member
     area = np.array([o.ties.area for o in opts])[k]
     legs_v = _pick([o.ties.legs_v for o in opts], k, mem)
-    legs_vb = _pick([o.ties.legs_vb for o in opts], k, mem)
     aoh = _pick([o.ties.Aoh for o in opts], k, mem)
     with np.errstate(divide="ignore", invalid="ignore"):
         t_prov = np.where(on & np.isfinite(prov.spacing), 1.0 / prov.spacing, 0.0)
     t_env = _pick([a.t_env for a in lay.allowed], k)
     t_case = _pick([a.t_case for a in lay.allowed], k[cases.station])
     s = mb.sec.take(mem)
-    amin_v, amin_vb = demand.av_min(s)
+    amin_v, _ = demand.av_min(s)
     at_case = np.where(cases.torsion, cases.ata / aoh[cases.station], 0.0)
     at_env = demand.segment_max(at_case, cases.bounds)
     # Av/s each direction needs at the least 1/s of its station's cases, with the chosen legs
@@ -891,16 +890,14 @@ def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax
         "av_min_s": amin_v, "avmin_required": demand.segment_any(cases.minimum_v, cases.bounds),
         "torsion": demand.segment_any(cases.torsion, cases.bounds),
         "s_max_mm": s_max, "s_allowed_mm": np.where(on, s_allowed, nan), "spacing_mm": np.where(on, prov.spacing, nan),
-        "av_s_prov": np.where(on, legs_v * area * t_prov, nan), "al_mm2": al[g], "utilization": util[g],
+        "av_s_prov": np.where(on, legs_v * area * t_prov, nan), "utilization": util[g],
         # the direction parallel to b, the capacity design, the end zones
         "vb_kN": cases.vu_vb[g] / U.per_force, "vb_max_kN": vmax_vb / U.per_force, "phi_vc_vb_kN": aci.PHI_SHEAR * vc_vb_used[g] / U.per_force,
         "phi_vn_vb_kN": np.where(on, cap.strength.phi_vn_vb[largest_vb], nan) / U.per_force,
         "phi_vn_limit_vb_kN": lim_vb[g] / U.per_force, "avmin_threshold_vb_kN": 0.5 * aci.PHI_SHEAR * cases.vc_vb_lo[g] / U.per_force,
-        "av_min_s_vb": amin_vb, "avmin_required_vb": demand.segment_any(cases.minimum_vb, cases.bounds),
-        "av_s_prov_vb": np.where(on, legs_vb * area * t_prov, nan),
         "utilization_v": u_v[g], "utilization_vb": u_vb[g],
         "ve_kN": fr.ve_v[mem] / U.per_force, "ve_vb_kN": fr.ve_vb[mem] / U.per_force,
-        "in_lo": fr.in_lo, "vc_zero": vc_zero, "s_confinement_mm": np.where(on, s_conf, nan),
+        "vc_zero": vc_zero, "s_confinement_mm": np.where(on, s_conf, nan),
     })
 
 
