@@ -306,14 +306,15 @@ def _gap_at(positions: list[float], x: float, clear: float) -> float:
 
 def check_column(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], factors: np.ndarray, cases: list[str],
                  bar: str, legs_v: int, legs_vb: int, positions: np.ndarray, settings: Settings,
-                 step: float | None = None) -> dict:
+                 step: float | None = None, stations=None) -> dict:
     """A plain re-check of a column's ties (Chapter 10 columns without torsion): at stations every
     ``step`` (default 10 mm | 0.4 in) and at every input station, for every combination listed one by one, each
     direction's phi Vn with the tie gap in force there (22.5.1.1, 22.5.8.5.3, 22.5.2.2, Vs <= 0.66
     sqrt(f'c) bw d), the interaction (22.5.1.10, 22.5.1.11, or elliptical), Av,min where Vu > 0.5 phi
     Vc (10.6.2.1, 10.6.2.2), 10.7.6.5.2 and 25.7.2.1(b). Returns the largest utilization, the
     problems found, and the least spacing the demand allows anywhere. ``m`` and ``forces`` are
-    named in the run's unit system; lengths in its internal units."""
+    named in the run's unit system; lengths in its internal units. ``stations`` (from the face at
+    the bottom, as the station trace's x) checks at those points only, instead."""
     U, ed = units.system(settings.units), aci.edition(settings.units)
     m = m.rename(units.si_name)
     forces = units.si_keyed(forces)
@@ -346,8 +347,11 @@ def check_column(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fac
         xs = [x * U.per_span for x in rows.x_m]
         series[case] = (xs, [v * U.per_force for v in rows.V_kN], [v * U.per_force for v in rows.Vb_kN],
                         [v * U.per_force for v in rows.N_kN])
-    pts = {a + k * step for k in range(int(clear // step) + 1)} | {a + clear}
-    pts |= {x for s in series.values() for x in s[0] if a <= x <= a + clear}
+    if stations is None:
+        pts = {a + k * step for k in range(int(clear // step) + 1)} | {a + clear}
+        pts |= {x for s in series.values() for x in s[0] if a <= x <= a + clear}
+    else:
+        pts = {a + float(x) for x in stations}
     s_tie = min(16 * db, 48 * db_tie, min(b, h))  # 25.7.2.1(b)
     worst, problems, least = 0.0, [], math.inf
     pos = sorted(float(p) for p in positions)

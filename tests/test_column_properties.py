@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute  # noqa: F401 (pa.compute)
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
@@ -110,10 +112,16 @@ def test_random_columns_pass_their_self_check_and_the_plain_recheck(tmp_path, dr
             continue  # the plain re-check covers Chapter 10 columns without torsion
         check = reference.check_column(m, forces[forces.member == m.member], names, factors, list(cset.cases),
                                        z.bar.iloc[0], int(z.legs.max()), int(z.legs_vb.max()), x, s)
-        assert check["problems"] == []
-        # the engine reports its stations' largest; between them (10 mm here) it can be a little higher, within
-        # what the forces change over one station step (the design already allows for it: see _with_neighbours)
-        assert row.utilization - 1e-3 <= check["utilization"] <= row.utilization * 1.02 + 1e-3
+        assert check["problems"] == []  # every 10 mm: no utilization over 1, no rule broken
+        # the engine reports the largest at its own stations (at most 50 mm and d/8 apart): the plain re-check
+        # at those stations finds the same; between them (10 mm above) it can be higher, by what the forces
+        # change over one station step, and the layout still passes there (the design allows for it, see
+        # _with_neighbours)
+        at = out.trace.filter(pa.compute.equal(out.trace.column("member"), m.member)).column("x_mm").to_numpy()
+        on_grid = reference.check_column(m, forces[forces.member == m.member], names, factors, list(cset.cases),
+                                         z.bar.iloc[0], int(z.legs.max()), int(z.legs_vb.max()), x, s, stations=at)
+        assert on_grid["utilization"] == pytest.approx(row.utilization, abs=1e-3)
+        assert check["utilization"] >= row.utilization - 1e-3
 
 
 def test_engine_spacing_is_the_plain_least_spacing_on_the_module(tmp_path):
