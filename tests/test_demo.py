@@ -81,3 +81,15 @@ def test_perimeter_columns_get_confinement_zones(demo):
     interior = cols[cols.frame == "none"].index
     assert set(zones[zones.member.isin(interior)].kind) == {"tie"}
     assert out.loc[interior, "ve_v_kN"].isna().all()
+
+
+def test_a_frame_columns_trace_draws_vc_zero_over_lo_in_both_directions(demo_designed):
+    # P1-C-A1 (special frame, Vc = 0 over lo for both directions, 18.7.6.2.1): each diagram's phi*Vc is that of
+    # its own direction's largest Vu, zero within lo; before, Vb's was taken from V's governing Ve case
+    st = demo_designed.stations
+    c = st[st.member == "P1-C-A1"]
+    message = pd.read_csv(demo_designed.out / "members.csv").set_index("member").message["P1-C-A1"]
+    assert "Vc = 0 over lo (18.7.6.2.1)" in message
+    zero = c[c.vc_zero]
+    assert len(zero) > 10 and (zero.phi_vc_kN == 0).all() and (zero.phi_vc_vb_kN == 0).all()
+    assert (c[~c.vc_zero].phi_vc_vb_kN > 0).all()

@@ -880,10 +880,12 @@ def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax
         "member": take(mb.names, mem), "x_mm": np.round(rs.x_clear, 2), "side": grid.side,
         "governing_case": pa.array(list(name_station), pa.string()), "vu_kN": cases.vu_v[g] / U.per_force,
         "vu_max_kN": vmax_v / U.per_force, "nu_kN": cases.nu[g] / U.per_force, "tu_kNm": cases.tu[g] / U.per_moment,
-        "phi_vc_kN": aci.PHI_SHEAR * vc_v_used[g] / U.per_force,
+        # each direction's phi*Vc, phi*Vn, section limit and Av,min threshold at its own largest Vu (what its
+        # diagram draws; another direction's case, e.g. a Ve case of the other sway, may keep Vc there)
+        "phi_vc_kN": aci.PHI_SHEAR * vc_v_used[largest_v] / U.per_force,
         "phi_vn_kN": np.where(on, cap.strength.phi_vn_v[largest_v], nan) / U.per_force,
-        "phi_vn_limit_kN": lim_v[g] / U.per_force,
-        "avmin_threshold_kN": 0.5 * aci.PHI_SHEAR * cases.vc_v_lo[g] / U.per_force,  # 10.6.2.1
+        "phi_vn_limit_kN": lim_v[largest_v] / U.per_force,
+        "avmin_threshold_kN": 0.5 * aci.PHI_SHEAR * cases.vc_v_lo[largest_v] / U.per_force,  # 10.6.2.1
         "vc_equation": pa.array(list(eq[g]), pa.string()),
         "av_s_req": np.where(on, legs_v * area * t_case[g], nan), "at_s_req": at_case[g],
         "av_s_env": np.where(on, legs_v * area * t_env, nan), "at_s_env": at_env,
@@ -892,9 +894,10 @@ def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax
         "s_max_mm": s_max, "s_allowed_mm": np.where(on, s_allowed, nan), "spacing_mm": np.where(on, prov.spacing, nan),
         "av_s_prov": np.where(on, legs_v * area * t_prov, nan), "utilization": util[g],
         # the direction parallel to b, the capacity design, the end zones
-        "vb_kN": cases.vu_vb[g] / U.per_force, "vb_max_kN": vmax_vb / U.per_force, "phi_vc_vb_kN": aci.PHI_SHEAR * vc_vb_used[g] / U.per_force,
+        "vb_kN": cases.vu_vb[g] / U.per_force, "vb_max_kN": vmax_vb / U.per_force, "phi_vc_vb_kN": aci.PHI_SHEAR * vc_vb_used[largest_vb] / U.per_force,
         "phi_vn_vb_kN": np.where(on, cap.strength.phi_vn_vb[largest_vb], nan) / U.per_force,
-        "phi_vn_limit_vb_kN": lim_vb[g] / U.per_force, "avmin_threshold_vb_kN": 0.5 * aci.PHI_SHEAR * cases.vc_vb_lo[g] / U.per_force,
+        "phi_vn_limit_vb_kN": lim_vb[largest_vb] / U.per_force,
+        "avmin_threshold_vb_kN": 0.5 * aci.PHI_SHEAR * cases.vc_vb_lo[largest_vb] / U.per_force,
         "utilization_v": u_v[g], "utilization_vb": u_vb[g],
         "ve_kN": fr.ve_v[mem] / U.per_force, "ve_vb_kN": fr.ve_vb[mem] / U.per_force,
         "vc_zero": vc_zero, "s_confinement_mm": np.where(on, s_conf, nan),
