@@ -315,13 +315,14 @@ def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
     if K <= 1:
         return valid.copy()
     neg = -np.inf
+    masked = (lambda c: c) if valid.all() else (lambda c: np.where(valid, c, neg))  # invalid: never on the front
     if len(coords) == 1:
-        a = np.where(valid, coords[0], neg)
+        a = masked(coords[0])
         out = np.zeros((S, K), bool)
         out[np.arange(S), np.argmax(a, axis=1)] = True
         return out & valid
     if len(coords) == 2:
-        a, b = (np.where(valid, c, neg) for c in coords)
+        a, b = (masked(c) for c in coords)
         order = np.argsort(-a, axis=1, kind="stable")  # a descending; ties keep their order
         bs = np.take_along_axis(b, order, axis=1)
         before = np.maximum.accumulate(np.hstack([np.full((S, 1), neg), bs[:, :-1]]), axis=1)
@@ -329,7 +330,7 @@ def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
         np.put_along_axis(out, order, bs > before, axis=1)
         return out & valid
     out = valid.copy()
-    stack = np.stack([np.where(valid, c, neg) for c in coords])  # (k, S, K)
+    stack = np.stack([masked(c) for c in coords])  # (k, S, K)
     # first against a few strong entries of each station (the best in each coordinate and
     # in their sum): most entries fall to one of them; then pairwise among the rest
     pivots = np.stack([np.argmax(c, axis=1) for c in stack] + [np.argmax(stack.sum(axis=0), axis=1)], axis=1)
@@ -370,13 +371,29 @@ def _compact(keep: np.ndarray, *arrays: np.ndarray) -> tuple[np.ndarray, ...]:
     return tuple(out)
 
 
-def _combine(factors: np.ndarray, values: np.ndarray) -> np.ndarray:
+def _combine(factors: np.ndarray, values: np.ndarray, stations_first: bool = False) -> np.ndarray:
     """factors (k, n_cases) times values (n_cases, S), summed case by case in case order:
     the same bits whatever S is (a matrix product may round differently for other shapes,
-    and the governing station must not depend on how members are batched)."""
-    out = np.zeros((factors.shape[0], values.shape[1]))
+    and the governing station must not depend on how members are batched). (k, S), or
+    (S, k) with ``stations_first`` (the same numbers, laid out for per-station work)."""
+    k, S = factors.shape[0], values.shape[1]
+    out = np.zeros((S, k) if stations_first else (k, S))
+    term = np.empty_like(out)
     for c in np.flatnonzero(factors.any(axis=0)):
-        out += factors[:, c:c + 1] * values[c]
+        if stations_first:
+            np.multiply(values[c][:, None], factors[:, c], out=term)
+        else:
+            np.multiply(factors[:, c:c + 1], values[c], out=term)
+        out += term
+    return out
+
+
+def _combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, station: np.ndarray) -> np.ndarray:
+    """``_combine(factors, values)[which, station]`` computed for those entries alone (the
+    same sums, term by term in the same order: the same bits)."""
+    out = np.zeros(len(which))
+    for c in np.flatnonzero(factors.any(axis=0)):
+        out += factors[which, c] * values[c, station]
     return out
 
 
@@ -424,16 +441,21 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
     the front of some sign quadrant."""
     _, factors = cset.explicit
     keys = cset.__dict__["_keys"]
-    vals = {q: _combine(factors, v).T for q, v in case_values.items()}  # (S, n_combinations)
+    used = active + ([tension] if use_tension else [])
+    vals = {q: _combine(factors, case_values[q], stations_first=True) for q in used}  # (S, n_combinations)
+    flipped = {q: np.negative(vals[q]) for q in active}  # -1 times V (T): the other sign's quadrant
     keep = np.zeros(vals[active[0]].shape, bool)
     valid = np.ones_like(keep)
     for signs in itertools.product((1.0, -1.0), repeat=len(active)):
-        coords = [sg * vals[q] for sg, q in zip(signs, active)] + ([vals[tension]] if use_tension else [])
+        coords = [vals[q] if sg > 0 else flipped[q] for sg, q in zip(signs, active)] \
+            + ([vals[tension]] if use_tension else [])
         keep |= _front(coords, valid)
     st_idx, c_idx = np.nonzero(keep)  # station-major
     choice = np.full((len(c_idx), max_terms), -1, np.int64)
     choice[:, :keys.shape[1] - 1] = keys[c_idx, 1:]
-    return st_idx, keys[c_idx, 0], choice, {q: v[st_idx, c_idx] for q, v in vals.items()}
+    values = {q: vals[q][st_idx, c_idx] if q in vals else _combine_at(factors, v, c_idx, st_idx)
+              for q, v in case_values.items()}  # the quantities off the front: at the kept entries alone
+    return st_idx, keys[c_idx, 0], choice, values
 
 
 def _group_candidates(cset: ComboSet, case_values, active: list[str], use_tension: bool, tension, max_terms):
