@@ -41,7 +41,27 @@ class Section:
     u: Edition = SI  # the edition of ACI 318-19 (and its units) the arrays are in
 
     def take(self, idx: np.ndarray) -> Section:
-        return Section(**{k: getattr(self, k)[idx] for k in self.__dataclass_fields__ if k != "u"}, u=self.u)
+        """The section at ``idx`` (per station, per candidate): each array gathered when first read."""
+        return _Taken(self, np.asarray(idx))
+
+
+class _Taken:
+    """``Section.take``: the same attributes, each gathered from the whole section on first
+    use (a kernel reads a few of them over every candidate; gathering all would cost more
+    than the kernel)."""
+
+    def __init__(self, whole: Section, idx: np.ndarray):
+        self._whole, self._idx, self.u = whole, idx, whole.u
+
+    def __getattr__(self, name: str):
+        if name not in Section.__dataclass_fields__:
+            raise AttributeError(name)
+        value = getattr(self._whole, name)[self._idx]
+        self.__dict__[name] = value
+        return value
+
+    def take(self, idx: np.ndarray) -> _Taken:
+        return _Taken(self._whole, self._idx[idx])
 
 
 def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf, u: Edition = SI) -> Section:
@@ -164,11 +184,14 @@ def torsion_limit_ratio(sec: Section, cand: Candidates, dem: Demand, Aoh, ph) ->
     """Per station, the largest ratio of 22.7.7.1(a) over the candidates where torsion is
     considered (0 elsewhere); ``Aoh``, ``ph`` per station for the bar in question."""
     p = dem.pairs
-    if not p.torsion.any():
+    t = np.flatnonzero(p.torsion)  # the candidates where torsion is considered: the rest give 0
+    if not len(t):
         return np.zeros(len(dem.vu_max))
-    s = sec.take(cand.station)
-    r = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[cand.station], ph[cand.station], sec.u)
-    return _segment_max(np.where(p.torsion, r, 0.0), cand.bounds)
+    st = cand.station[t]
+    s = sec.take(st)
+    r = np.zeros(len(p.torsion))
+    r[t] = aci.torsion_section_ok(p.vu[t], p.tu[t], p.vc_hi[t], s.fc, s.b, s.d, Aoh[st], ph[st], sec.u)
+    return _segment_max(r, cand.bounds)
 
 
 def per_leg_need(cand: Candidates, dem: Demand, legs, Aoh) -> np.ndarray:
@@ -233,12 +256,15 @@ def check_layout(sec: Section, cand: Candidates, dem: Demand, bar_area, legs, sp
     phi_vn = phi * (vc + vs)
     with np.errstate(divide="ignore", invalid="ignore"):
         util = np.where(p.vu > 0, p.vu / phi_vn, 0.0)
-        if p.torsion.any():
-            leg = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)[st]
-            need = aci.av_over_s_for_vs(p.vu / phi - vc, s.fyt, s.d) / np.maximum(legs[st], 1) + p.ata / Aoh[st]
-            util = np.maximum(util, np.where(p.torsion, np.where(leg > 0, need / leg, np.inf), 0.0))
-            tl = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s.fc, s.b, s.d, Aoh[st], ph[st], u)
-            util = np.maximum(util, np.where(p.torsion, tl, 0.0))
+        t = np.flatnonzero(p.torsion)  # candidates where torsion is considered (elsewhere util >= 0 stands)
+        if len(t):
+            stt, s_t = st[t], s.take(t)
+            leg = np.where(np.isfinite(spacing), bar_area / spacing, 0.0)[stt]
+            need = aci.av_over_s_for_vs(p.vu[t] / phi - vc[t], s_t.fyt, s_t.d) / np.maximum(legs[stt], 1) \
+                + p.ata[t] / Aoh[stt]
+            ut = np.maximum(util[t], np.where(leg > 0, need / leg, np.inf))
+            tl = aci.torsion_section_ok(p.vu[t], p.tu[t], p.vc_hi[t], s_t.fc, s_t.b, s_t.d, Aoh[stt], ph[stt], u)
+            util[t] = np.maximum(ut, tl)
     finite = np.isfinite(p.vu) & np.isfinite(p.tu) & np.isfinite(phi_vn)  # (a NaN Vu would read as Vu = 0)
     util = np.where(np.isnan(util) | ~finite, np.inf, util)  # NaN fails
     station_util = _segment_max(util, cand.bounds)

@@ -478,11 +478,16 @@ def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray
     a = aci.vc_with_min_stirrups(sec.fc, sec.b, sec.d, p.nu, sec.Ag, sec.lam, u=sec.u)
     cap = aci.vc_cap(sec.fc, sec.b, sec.d, sec.lam, sec.u)
     vc = np.where(with_min, p.vc_hi, p.vc_lo)
-    out = np.where(with_min, np.where(np.isclose(p.vc_hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
-                   "22.5.5.1(c)").astype(object)
-    out = np.where(np.isclose(vc, cap, rtol=1e-9) & (vc > 0), "22.5.5.1.1 cap", out)
-    out = np.where(vc <= 0, "Vc = 0 (axial tension)", out)
-    return out if vc_zero is None else np.where(vc_zero, "Vc = 0 (18.6.5.2)", out)
+    row = np.where(with_min, np.where(np.isclose(p.vc_hi, a, rtol=1e-9, atol=1e-6), 0, 1), 2).astype(np.int8)
+    row[np.isclose(vc, cap, rtol=1e-9) & (vc > 0)] = 3
+    row[vc <= 0] = 4
+    if vc_zero is not None:
+        row[np.asarray(vc_zero, bool)] = 5
+    return _VC_ROWS[row]  # the text of each row once, gathered (object array of str)
+
+
+_VC_ROWS = np.array(["22.5.5.1(a)", "22.5.5.1(b)", "22.5.5.1(c)", "22.5.5.1.1 cap", "Vc = 0 (axial tension)",
+                     "Vc = 0 (18.6.5.2)"], dtype=object)
 
 
 def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
