@@ -41,6 +41,7 @@ from functools import cached_property
 
 import numpy as np
 
+from postproc import kernels
 from postproc.settings import Combinations
 
 VARIABLE = ("L", "Lr", "S", "R")
@@ -310,10 +311,19 @@ class Candidates:
 def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
     """(S, K) bool: the entries of each station (row) that no other valid entry of the same
     station dominates in the given coordinates (each (S, K); larger is worse for the
-    design). Exact ties may keep more than one (a superset is always safe)."""
+    design). Exact ties may keep more than one (a superset is always safe).
+
+    Exactly, entry o drops entry e (o before e: o_first): with one coordinate, o larger or
+    equal and first (the first largest is kept); with two, o ahead in the first (larger, or
+    equal and first) and at least e in the second (the sort below); with three or more, o
+    at least e in every coordinate, larger in one or equal in all and first. Each relation
+    is transitive; the kept entries are the valid ones no valid entry drops.
+    ``postproc.kernels.front`` is the compiled twin."""
     S, K = valid.shape
     if K <= 1:
         return valid.copy()
+    if kernels.use_compiled(S * K * len(coords)):  # the same set, entry by entry against the front so far
+        return kernels.front(np.stack(coords), np.ones((1, len(coords))), valid)
     neg = -np.inf
     masked = (lambda c: c) if valid.all() else (lambda c: np.where(valid, c, neg))  # invalid: never on the front
     if len(coords) == 1:
@@ -443,13 +453,18 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
     keys = cset.__dict__["_keys"]
     used = active + ([tension] if use_tension else [])
     vals = {q: _combine(factors, case_values[q], stations_first=True) for q in used}  # (S, n_combinations)
-    flipped = {q: np.negative(vals[q]) for q in active}  # -1 times V (T): the other sign's quadrant
-    keep = np.zeros(vals[active[0]].shape, bool)
-    valid = np.ones_like(keep)
-    for signs in itertools.product((1.0, -1.0), repeat=len(active)):
-        coords = [vals[q] if sg > 0 else flipped[q] for sg, q in zip(signs, active)] \
-            + ([vals[tension]] if use_tension else [])
-        keep |= _front(coords, valid)
+    quadrants = list(itertools.product((1.0, -1.0), repeat=len(active)))
+    valid = np.ones(vals[active[0]].shape, bool)
+    if kernels.use_compiled(valid.size * len(used) * len(quadrants)):  # every quadrant in one pass
+        signs = np.array([list(sg) + [1.0] * use_tension for sg in quadrants]).reshape(len(quadrants), len(used))
+        keep = kernels.front(np.stack([vals[q] for q in used]), signs, valid)
+    else:
+        flipped = {q: np.negative(vals[q]) for q in active}  # -1 times V (T): the other sign's quadrant
+        keep = np.zeros(valid.shape, bool)
+        for signs in quadrants:
+            coords = [vals[q] if sg > 0 else flipped[q] for sg, q in zip(signs, active)] \
+                + ([vals[tension]] if use_tension else [])
+            keep |= _front(coords, valid)
     st_idx, c_idx = np.nonzero(keep)  # station-major
     choice = np.full((len(c_idx), max_terms), -1, np.int64)
     choice[:, :keys.shape[1] - 1] = keys[c_idx, 1:]

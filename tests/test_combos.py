@@ -10,7 +10,7 @@ from hypothesis import HealthCheck, given, settings, strategies as hs
 
 
 from postproc.demand import beams as demand
-from postproc import combos
+from postproc import combos, kernels
 from postproc.combos import aci_5_3_1, candidates, prefactored
 from postproc.settings import Combinations
 
@@ -133,13 +133,19 @@ def _section(stations: int) -> demand.Section:
                                        fy=one(420), As=one(np.nan), bf=one(np.nan), hf=one(np.nan))
 
 
+KERNEL_PATHS = ["numpy", pytest.param("compiled", marks=pytest.mark.skipif(
+    not kernels.available(), reason="numba is not installed (pip install 'shearpost[compiled]')"))]
+
+
+@pytest.mark.parametrize("path", KERNEL_PATHS)  # postproc.kernels: the numpy reference or the compiled twin
 @pytest.mark.parametrize("dense_limit", [combos.DENSE_LIMIT, 0])  # over the listed combinations; term by term
 @settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(model=models())
-def test_exact_envelope_equals_brute_force_enumeration(model, dense_limit, monkeypatch):
+def test_exact_envelope_equals_brute_force_enumeration(model, dense_limit, path, monkeypatch):
     """Every quantity the design takes from the combinations, over the candidates, equals
     the same over every combination listed one by one (brute force)."""
     monkeypatch.setattr(combos, "DENSE_LIMIT", dense_limit)
+    monkeypatch.setenv(kernels.ENV, path)
     types, cases, patterns, vals = model
     cs = aci_5_3_1(types, cases, Combinations(), patterns)
     s_count = vals["V"].shape[1]
@@ -168,3 +174,69 @@ def test_exact_envelope_equals_brute_force_enumeration(model, dense_limit, monke
             np.testing.assert_allclose(
                 demand.allowed_spacing(cand, exact, one(legs), area, one(Aoh), one(ph), here),
                 demand.allowed_spacing(All, brute, one(legs), area, one(Aoh), one(ph), here), rtol=1e-12)
+
+
+# --- the compiled front (postproc.kernels) against the numpy one: the same set, bit for bit ------------
+
+
+def _both_paths(monkeypatch, fn):
+    monkeypatch.setenv(kernels.ENV, "numpy")
+    reference = fn()
+    monkeypatch.setenv(kernels.ENV, "compiled")
+    return reference, fn()
+
+
+@pytest.mark.skipif(not kernels.available(), reason="numba is not installed")
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=hs.data())
+def test_compiled_front_keeps_the_same_entries_as_numpy(data, monkeypatch):
+    """Small integers make ties in one, two or all coordinates common (the front keeps the
+    first of equal entries; with two coordinates, the first-coordinate ties as the sort
+    does); some entries are invalid."""
+    S, K, m = data.draw(hs.integers(1, 8)), data.draw(hs.integers(1, 24)), data.draw(hs.integers(1, 4))
+    ints = hs.integers(-3, 3)
+    coords = [np.array([[data.draw(ints) for _ in range(K)] for _ in range(S)], float) * data.draw(hs.sampled_from([1.0, -1.0, 0.5]))
+              for _ in range(m)]
+    valid = np.array([[data.draw(hs.booleans()) or data.draw(hs.booleans()) for _ in range(K)] for _ in range(S)])
+    numpy_front, compiled_front = _both_paths(monkeypatch, lambda: combos._front(coords, valid))
+    assert np.array_equal(numpy_front, compiled_front)
+    # and exactly what no other valid entry drops (the definition in _front's docstring, pair by pair)
+    for s_ in range(S):
+        for e in range(K):
+            at = lambda k: np.array([c[s_, k] for c in coords])  # noqa: E731
+            dropped = any(valid[s_, o] and o != e and _drops(at(o), at(e), o < e) for o in range(K))
+            assert numpy_front[s_, e] == (valid[s_, e] and not dropped)
+
+
+def _drops(o, e, o_first):
+    """o drops e: one coordinate, o larger or equal and first; two, o ahead in the first
+    (larger, or equal and first) and at least e in the second; three or more, o at least e
+    in all, larger in one or equal in all and first."""
+    if len(o) == 1:
+        return o[0] > e[0] or (o[0] == e[0] and o_first)
+    if len(o) == 2:
+        return (o[0] > e[0] or (o[0] == e[0] and o_first)) and o[1] >= e[1]
+    return bool(np.all(o >= e) and (np.any(o > e) or o_first))
+
+
+@pytest.mark.skipif(not kernels.available(), reason="numba is not installed")
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(model=models())
+def test_compiled_candidates_are_the_numpy_candidates_bit_for_bit(model, monkeypatch):
+    types, cases, patterns, vals = model
+    cs = aci_5_3_1(types, cases, Combinations(), patterns)
+    a, b = _both_paths(monkeypatch, lambda: candidates(cs, vals))
+    for name in ("station", "row", "choice", "bounds"):
+        assert np.array_equal(getattr(a, name), getattr(b, name)), name
+    for q in a.values:
+        assert a.values[q].tobytes() == b.values[q].tobytes(), q
+
+
+def test_kernel_choice_is_checked(monkeypatch):
+    monkeypatch.setenv(kernels.ENV, "fastest")
+    with pytest.raises(ValueError, match="SHEARPOST_KERNELS"):
+        kernels.choice()
+    monkeypatch.setenv(kernels.ENV, "numpy")
+    assert not kernels.use_compiled(10**9)  # the numpy path whatever the size
+    monkeypatch.setenv(kernels.ENV, "auto")
+    assert not kernels.use_compiled(kernels.AUTO_CELLS - 1)  # small work: numba is not even imported

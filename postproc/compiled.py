@@ -1,0 +1,73 @@
+"""The numba kernels behind ``postproc.kernels`` (imported only through it: importing this
+module imports numba). Each one is the twin of a numpy function named in its docstring and
+gives the same bits: comparisons of the same float64 numbers, no arithmetic of its own
+beyond a product by +1 or -1 (exact), no fast-math."""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+
+@njit(cache=True, inline="always")
+def _removes(stack, signs, q, s, o, e):
+    """``combos._removes`` for entries o and e of station s in sign quadrant q: with two
+    coordinates, o ahead in the first (larger, or equal and before e) and at least as large
+    in the second; with three or more, o at least as large in every coordinate and larger
+    in one, or equal in all and before e."""
+    m = stack.shape[2]
+    if m == 2:
+        if signs[q, 1] * stack[s, o, 1] < signs[q, 1] * stack[s, e, 1]:
+            return False
+        a_o, a_e = signs[q, 0] * stack[s, o, 0], signs[q, 0] * stack[s, e, 0]
+        return a_o > a_e or (a_o == a_e and o < e)
+    larger = o < e
+    for j in range(m):
+        c_o, c_e = signs[q, j] * stack[s, o, j], signs[q, j] * stack[s, e, j]
+        if not c_o >= c_e:
+            return False
+        if c_o > c_e:
+            larger = True
+    return larger
+
+
+@njit(cache=True)
+def front(stack, signs, valid, out):
+    """``combos._front`` for every sign quadrant (``signs`` (Q, m)) at once, OR-ed into ``out``
+    (S, K); ``stack`` (S, K, m). Per station and quadrant the entries are taken in turn
+    against the front so far: one that a kept entry removes is dropped, otherwise it drops
+    the kept entries it removes and is kept. The relation is transitive and does not depend
+    on the order the entries are taken in, so what is kept at the end is what no entry
+    removes: ``combos._front``'s set. With one coordinate, the first largest."""
+    S, K, m = stack.shape
+    kept = np.empty(K, np.int64)
+    for s in range(S):
+        for q in range(signs.shape[0]):
+            if m == 1:
+                best = -1
+                for e in range(K):
+                    if valid[s, e] and (best < 0 or signs[q, 0] * stack[s, e, 0] > signs[q, 0] * stack[s, best, 0]):
+                        best = e
+                if best >= 0:
+                    out[s, best] = True
+                continue
+            n = 0
+            for e in range(K):
+                if not valid[s, e]:
+                    continue
+                dropped = False
+                for i in range(n):
+                    if _removes(stack, signs, q, s, kept[i], e):
+                        dropped = True
+                        break
+                if dropped:
+                    continue
+                j = 0
+                for i in range(n):
+                    if not _removes(stack, signs, q, s, e, kept[i]):
+                        kept[j] = kept[i]
+                        j += 1
+                kept[j] = e
+                n = j + 1
+            for i in range(n):
+                out[s, kept[i]] = True

@@ -1,0 +1,73 @@
+"""Compiled kernels (numba), each the twin of a numpy function that stays the reference.
+
+``SHEARPOST_KERNELS`` chooses the path: ``numpy`` (the numpy functions alone), ``compiled``
+(the kernels here wherever they exist; an error where numba cannot be imported), or
+``auto`` (the default: the kernels for work of at least ``AUTO_CELLS`` cells where numba
+imports, numpy otherwise, so that small runs do not pay for importing and loading the
+compiled code). Both paths give the same bits: the kernels do the same comparisons of
+the same float64 numbers (no fast-math, no arithmetic of their own); tests check them
+against each other and against brute force.
+
+The kernels themselves are in ``postproc.compiled`` (imported only when used, since it
+imports numba). Their machine code is cached beside it (or in numba's user cache where
+that is not writable), so that each worker process loads it instead of compiling it.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+ENV = "SHEARPOST_KERNELS"
+CHOICES = ("auto", "numpy", "compiled")
+AUTO_CELLS = 2_000_000  # entries x coordinates of one call from which "auto" takes the compiled kernel
+
+_compiled = None  # the jitted functions, once loaded
+
+
+def choice() -> str:
+    value = os.environ.get(ENV, "auto").strip().lower() or "auto"
+    if value not in CHOICES:
+        raise ValueError(f"{ENV}={value!r}: one of {', '.join(CHOICES)}")
+    return value
+
+
+def available() -> bool:
+    """Whether numba can be imported (the extra ``compiled``)."""
+    return _load(required=False) is not None
+
+
+def use_compiled(cells: int) -> bool:
+    """Whether a call of ``cells`` entries x coordinates takes the compiled kernel."""
+    how = choice()
+    if how == "numpy" or (how == "auto" and cells < AUTO_CELLS):
+        return False
+    return _load(required=how == "compiled") is not None
+
+
+def _load(required: bool):
+    global _compiled
+    if _compiled is None:
+        try:
+            import numba  # noqa: F401
+        except ImportError:
+            if required:
+                raise
+            _compiled = False
+        else:
+            from postproc import compiled
+            _compiled = compiled
+    return _compiled or None
+
+
+def front(stack: np.ndarray, signs: np.ndarray, valid: np.ndarray) -> np.ndarray:
+    """``combos._front`` of several sign quadrants at once, OR-ed: (S, K) bool.
+
+    ``stack`` (m, S, K): the coordinates; ``signs`` (Q, m): each quadrant's factor (+1 or
+    -1) of each coordinate (a product by -1 only flips the sign: the same numbers as the
+    numpy path's negated arrays); ``valid`` (S, K)."""
+    out = np.zeros(valid.shape, bool)
+    by_entry = np.ascontiguousarray(np.moveaxis(np.asarray(stack, np.float64), 0, -1))  # (S, K, m)
+    _load(required=True).front(by_entry, np.ascontiguousarray(signs, dtype=np.float64), np.ascontiguousarray(valid), out)
+    return out
