@@ -401,9 +401,11 @@ def _combine(factors: np.ndarray, values: np.ndarray, stations_first: bool = Fal
 def _combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, station: np.ndarray) -> np.ndarray:
     """``_combine(factors, values)[which, station]`` computed for those entries alone (the
     same sums, term by term in the same order: the same bits)."""
+    cols = np.flatnonzero(factors.any(axis=0))
+    f, v = factors.T[cols][:, which], values[cols][:, station]  # (cases used, entries): gathered once
     out = np.zeros(len(which))
-    for c in np.flatnonzero(factors.any(axis=0)):
-        out += factors[which, c] * values[c, station]
+    for i in range(len(cols)):
+        out += f[i] * v[i]
     return out
 
 
@@ -452,13 +454,15 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
     _, factors = cset.explicit
     keys = cset.__dict__["_keys"]
     used = active + ([tension] if use_tension else [])
-    vals = {q: _combine(factors, case_values[q], stations_first=True) for q in used}  # (S, n_combinations)
     quadrants = list(itertools.product((1.0, -1.0), repeat=len(active)))
-    valid = np.ones(vals[active[0]].shape, bool)
-    if kernels.use_compiled(valid.size * len(used) * len(quadrants)):  # every quadrant in one pass
+    s_count = case_values[active[0]].shape[1]
+    vals = {}
+    if kernels.use_compiled(s_count * len(factors) * len(used) * len(quadrants)):  # sums and quadrants in one pass
         signs = np.array([list(sg) + [1.0] * use_tension for sg in quadrants]).reshape(len(quadrants), len(used))
-        keep = kernels.front(np.stack([vals[q] for q in used]), signs, valid)
+        keep = kernels.dense_front(factors, [case_values[q] for q in used], signs)
     else:
+        vals = {q: _combine(factors, case_values[q], stations_first=True) for q in used}  # (S, n_combinations)
+        valid = np.ones(vals[active[0]].shape, bool)
         flipped = {q: np.negative(vals[q]) for q in active}  # -1 times V (T): the other sign's quadrant
         keep = np.zeros(valid.shape, bool)
         for signs in quadrants:
@@ -469,7 +473,7 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
     choice = np.full((len(c_idx), max_terms), -1, np.int64)
     choice[:, :keys.shape[1] - 1] = keys[c_idx, 1:]
     values = {q: vals[q][st_idx, c_idx] if q in vals else _combine_at(factors, v, c_idx, st_idx)
-              for q, v in case_values.items()}  # the quantities off the front: at the kept entries alone
+              for q, v in case_values.items()}  # what is not summed yet: at the kept entries alone
     return st_idx, keys[c_idx, 0], choice, values
 
 

@@ -1,7 +1,7 @@
 """The numba kernels behind ``postproc.kernels`` (imported only through it: importing this
 module imports numba). Each one is the twin of a numpy function named in its docstring and
-gives the same bits: comparisons of the same float64 numbers, no arithmetic of its own
-beyond a product by +1 or -1 (exact), no fast-math."""
+gives the same bits: the same float64 operations in the same order (no fast-math, so no
+fused multiply-add), and products by +1 or -1 (exact)."""
 
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ from numba import njit
 
 @njit(cache=True, inline="always")
 def _removes(stack, signs, q, s, o, e):
-    """``combos._removes`` for entries o and e of station s in sign quadrant q: with two
-    coordinates, o ahead in the first (larger, or equal and before e) and at least as large
-    in the second; with three or more, o at least as large in every coordinate and larger
-    in one, or equal in all and before e."""
+    """Whether entry o drops entry e of station s in sign quadrant q (``combos._front``):
+    with two coordinates, o ahead in the first (larger, or equal and before e) and at least
+    as large in the second; with three or more, o at least as large in every coordinate and
+    larger in one, or equal in all and before e."""
     m = stack.shape[2]
     if m == 2:
         if signs[q, 1] * stack[s, o, 1] < signs[q, 1] * stack[s, e, 1]:
@@ -32,42 +32,72 @@ def _removes(stack, signs, q, s, o, e):
 
 
 @njit(cache=True)
+def _station_front(stack, s, signs, valid, out, kept):
+    """``combos._front`` of station s for every sign quadrant (``signs`` (Q, m)), OR-ed into
+    ``out[s]``; ``stack`` (S, K, m), ``valid`` (S, K). Per quadrant the entries are taken in
+    turn against the front so far: one that a kept entry drops is dropped, otherwise it
+    drops the kept entries it removes and is kept. The relation is transitive and does not
+    depend on the order the entries are taken in, so what is kept at the end is what no
+    entry drops: ``combos._front``'s set. With one coordinate, the first largest."""
+    K, m = stack.shape[1], stack.shape[2]
+    for q in range(signs.shape[0]):
+        if m == 1:
+            best = -1
+            for e in range(K):
+                if valid[s, e] and (best < 0 or signs[q, 0] * stack[s, e, 0] > signs[q, 0] * stack[s, best, 0]):
+                    best = e
+            if best >= 0:
+                out[s, best] = True
+            continue
+        n = 0
+        for e in range(K):
+            if not valid[s, e]:
+                continue
+            dropped = False
+            for i in range(n):
+                if _removes(stack, signs, q, s, kept[i], e):
+                    dropped = True
+                    break
+            if dropped:
+                continue
+            j = 0
+            for i in range(n):
+                if not _removes(stack, signs, q, s, e, kept[i]):
+                    kept[j] = kept[i]
+                    j += 1
+            kept[j] = e
+            n = j + 1
+        for i in range(n):
+            out[s, kept[i]] = True
+
+
+@njit(cache=True)
 def front(stack, signs, valid, out):
-    """``combos._front`` for every sign quadrant (``signs`` (Q, m)) at once, OR-ed into ``out``
-    (S, K); ``stack`` (S, K, m). Per station and quadrant the entries are taken in turn
-    against the front so far: one that a kept entry removes is dropped, otherwise it drops
-    the kept entries it removes and is kept. The relation is transitive and does not depend
-    on the order the entries are taken in, so what is kept at the end is what no entry
-    removes: ``combos._front``'s set. With one coordinate, the first largest."""
-    S, K, m = stack.shape
+    """``combos._front`` of every station (``stack`` (S, K, m)) and sign quadrant, OR-ed into ``out`` (S, K)."""
+    kept = np.empty(stack.shape[1], np.int64)
+    for s in range(stack.shape[0]):
+        _station_front(stack, s, signs, valid, out, kept)
+
+
+@njit(cache=True)
+def dense_front(factors, cols, values, signs, out):
+    """``combos._dense_candidates``' front without its (S, K) arrays: station by station,
+    each combination's coordinates summed as ``combos._combine`` sums them (0, then
+    factor x case value case by case over ``cols`` in order), then ``_station_front``.
+    ``factors`` (K, n_cases), ``values`` (S, m, n_cases), ``signs`` (Q, m), ``out`` (S, K)."""
+    S, m = values.shape[0], values.shape[1]
+    K = factors.shape[0]
+    stack = np.empty((1, K, m))
+    valid = np.ones((1, K), np.bool_)
+    row = np.zeros((1, K), np.bool_)
     kept = np.empty(K, np.int64)
     for s in range(S):
-        for q in range(signs.shape[0]):
-            if m == 1:
-                best = -1
-                for e in range(K):
-                    if valid[s, e] and (best < 0 or signs[q, 0] * stack[s, e, 0] > signs[q, 0] * stack[s, best, 0]):
-                        best = e
-                if best >= 0:
-                    out[s, best] = True
-                continue
-            n = 0
-            for e in range(K):
-                if not valid[s, e]:
-                    continue
-                dropped = False
-                for i in range(n):
-                    if _removes(stack, signs, q, s, kept[i], e):
-                        dropped = True
-                        break
-                if dropped:
-                    continue
-                j = 0
-                for i in range(n):
-                    if not _removes(stack, signs, q, s, e, kept[i]):
-                        kept[j] = kept[i]
-                        j += 1
-                kept[j] = e
-                n = j + 1
-            for i in range(n):
-                out[s, kept[i]] = True
+        for k in range(K):
+            for j in range(m):
+                acc = 0.0
+                for c in cols:
+                    acc += values[s, j, c] * factors[k, c]
+                stack[0, k, j] = acc
+        row[0, :] = False
+        _station_front(stack, 0, signs, valid, row, kept)
+        out[s, :] = row[0, :]

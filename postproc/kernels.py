@@ -71,3 +71,15 @@ def front(stack: np.ndarray, signs: np.ndarray, valid: np.ndarray) -> np.ndarray
     by_entry = np.ascontiguousarray(np.moveaxis(np.asarray(stack, np.float64), 0, -1))  # (S, K, m)
     _load(required=True).front(by_entry, np.ascontiguousarray(signs, dtype=np.float64), np.ascontiguousarray(valid), out)
     return out
+
+
+def dense_front(factors: np.ndarray, case_values: list[np.ndarray], signs: np.ndarray) -> np.ndarray:
+    """``front`` of every combination (``factors`` (K, n_cases)) at every station, their
+    coordinates summed inside the kernel as ``combos._combine`` sums them (``case_values``:
+    per coordinate (n_cases, S)): (S, K) bool."""
+    cols = np.flatnonzero(np.asarray(factors).any(axis=0)).astype(np.int64)
+    by_station = np.ascontiguousarray(np.moveaxis(np.stack(case_values).astype(np.float64), 2, 0))  # (S, m, n_cases)
+    out = np.zeros((by_station.shape[0], len(factors)), bool)
+    _load(required=True).dense_front(np.ascontiguousarray(factors, dtype=np.float64), cols, by_station,
+                                     np.ascontiguousarray(signs, dtype=np.float64), out)
+    return out
