@@ -400,8 +400,13 @@ def _combine(factors: np.ndarray, values: np.ndarray, stations_first: bool = Fal
 
 def _combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, station: np.ndarray) -> np.ndarray:
     """``_combine(factors, values)[which, station]`` computed for those entries alone (the
-    same sums, term by term in the same order: the same bits)."""
+    same sums, term by term in the same order: the same bits). A quantity zero in every case
+    sums to +0 everywhere (0 + f x 0 is +0 whatever the signs)."""
+    if not values.any():
+        return np.zeros(len(which))
     cols = np.flatnonzero(factors.any(axis=0))
+    if kernels.use_compiled(len(which) * len(cols)):
+        return kernels.combine_at(factors, values, which, station)
     f, v = factors.T[cols][:, which], values[cols][:, station]  # (cases used, entries): gathered once
     out = np.zeros(len(which))
     for i in range(len(cols)):

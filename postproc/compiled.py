@@ -101,3 +101,14 @@ def dense_front(factors, cols, values, signs, out):
         row[0, :] = False
         _station_front(stack, 0, signs, valid, row, kept)
         out[s, :] = row[0, :]
+
+
+@njit(cache=True)
+def combine_at(factors, cols, values, which, station, out):
+    """``combos._combine_at``: for each entry i, 0 plus factors[which[i], c] x values[c,
+    station[i]] case by case over ``cols`` in order, into ``out``."""
+    for i in range(len(which)):
+        acc = 0.0
+        for c in cols:
+            acc += factors[which[i], c] * values[c, station[i]]
+        out[i] = acc

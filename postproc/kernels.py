@@ -83,3 +83,13 @@ def dense_front(factors: np.ndarray, case_values: list[np.ndarray], signs: np.nd
     _load(required=True).dense_front(np.ascontiguousarray(factors, dtype=np.float64), cols, by_station,
                                      np.ascontiguousarray(signs, dtype=np.float64), out)
     return out
+
+
+def combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, station: np.ndarray) -> np.ndarray:
+    """``combos._combine_at`` compiled: the same sums, one entry at a time."""
+    cols = np.flatnonzero(np.asarray(factors).any(axis=0)).astype(np.int64)
+    out = np.empty(len(which))
+    _load(required=True).combine_at(np.ascontiguousarray(factors, dtype=np.float64), cols,
+                                    np.ascontiguousarray(values, dtype=np.float64), np.asarray(which, np.int64),
+                                    np.asarray(station, np.int64), out)
+    return out
