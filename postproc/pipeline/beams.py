@@ -471,6 +471,12 @@ def _zone_rows(mb: Members, lay: Layouts, designed: np.ndarray, hinged: np.ndarr
     return zones, stirrups
 
 
+# what gave Vc, by code: Table 22.5.5.1 rows (a), (b), (c); the 22.5.5.1.1 cap; zero under axial
+# tension (22.5.5.1); zero by 18.6.5.2 in the hinge zones of special-frame beams
+_VC_ROWS = np.array(["22.5.5.1(a)", "22.5.5.1(b)", "22.5.5.1(c)", "22.5.5.1.1 cap", "Vc = 0 (axial tension)",
+                     "Vc = 0 (18.6.5.2)"], dtype=object)
+
+
 def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray,
                  vc_zero: np.ndarray | None = None) -> np.ndarray:
     """Which row of Table 22.5.5.1 gave Vc (or its 22.5.5.1.1 cap, zero under tension, or
@@ -485,9 +491,6 @@ def _vc_equation(sec: demand.Section, p: demand.PairDemand, with_min: np.ndarray
         row[np.asarray(vc_zero, bool)] = 5
     return _VC_ROWS[row]  # the text of each row once, gathered (object array of str)
 
-
-_VC_ROWS = np.array(["22.5.5.1(a)", "22.5.5.1(b)", "22.5.5.1(c)", "22.5.5.1.1 cap", "Vc = 0 (axial tension)",
-                     "Vc = 0 (18.6.5.2)"], dtype=object)
 
 
 def deep_beam_reasons(clear_span, h, d, cantilever, point_near_bearing) -> np.ndarray:
