@@ -17,7 +17,8 @@ from concurrent.futures import ProcessPoolExecutor
 
 from postproc import faults
 
-PRELOAD = ["postproc.engine", "postproc.faults"]  # imported once by the fork server, not by each worker
+# imported once by the fork server, not by each worker; the first makes its workers ignore Ctrl-C from the start
+PRELOAD = ["postproc.forkserver_preload", "postproc.engine", "postproc.faults"]
 
 
 def start_method() -> str:
@@ -29,10 +30,10 @@ def start_method() -> str:
 def _worker_start(main_pid: int, main_started: float) -> None:
     """Worker initializer: one BLAS/OpenMP thread in this worker process; Ctrl-C left to the
     main process, and a watchdog that ends the worker when the main process is gone."""
+    faults.worker_init(main_pid, main_started)  # first: Ctrl-C ignored before anything slow
     from threadpoolctl import threadpool_limits
 
     threadpool_limits(1)
-    faults.worker_init(main_pid, main_started)
 
 
 def local(workers: int = 1):

@@ -165,6 +165,25 @@ def test_ctrl_c_stops_the_run_with_one_line(tmp_path, big_model, earlier_store):
     assert not temp_folders(store)
 
 
+@pytest.mark.skipif(not POSIX, reason="the fork server is POSIX")
+def test_a_worker_ignores_ctrl_c_from_its_first_instruction():
+    """A Ctrl-C that lands while a worker is still starting (before its initializer has run) gave
+    a traceback from that worker. Workers forked by the fork server with engines.PRELOAD start
+    with SIGINT ignored; checked in a fresh interpreter (a fork server is one per process),
+    in a pool without any initializer."""
+    code = ("import multiprocessing as mp, signal\n"
+            "from concurrent.futures import ProcessPoolExecutor\n"
+            "from postproc import engines\n"
+            "ctx = mp.get_context('forkserver')\n"
+            "ctx.set_forkserver_preload(engines.PRELOAD)\n"
+            "with ProcessPoolExecutor(1, mp_context=ctx) as pool:\n"
+            "    seen = pool.submit(signal.getsignal, signal.SIGINT).result()\n"
+            "print(seen == signal.SIG_IGN, signal.getsignal(signal.SIGINT) is signal.default_int_handler)\n")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.split() == ["True", "True"]  # the worker ignores it; the main process still acts on it
+
+
 @pytest.mark.skipif(not sys.platform.startswith("linux"), reason="sets a worker's memory limit with prlimit (Linux)")
 def test_a_worker_out_of_memory_gives_one_line_and_its_exit_code(tmp_path, big_model, earlier_store):
     """A worker whose memory runs out mid-design (its address space limited to what it holds

@@ -1,0 +1,10 @@
+"""Imported by the multiprocessing fork server only (postproc.engines.PRELOAD), before its
+loop starts: Ctrl-C is ignored there, and a worker forked from it starts with the handlers
+the server had at that moment (CPython's forkserver restores them in each child), so a
+worker ignores Ctrl-C from its first instruction, not only once its initializer runs
+(postproc.faults.worker_init). The main process alone acts on Ctrl-C. Nothing else imports
+this module."""
+
+import signal
+
+signal.signal(signal.SIGINT, signal.SIG_IGN)
