@@ -129,7 +129,8 @@ class _Data:
                 raise ValueError(f"no member(s) {', '.join(map(repr, unknown[:10]))} in run '{self.run.name}'"
                                  + did_you_mean(unknown[0], self.code))
             codes = np.unique([self.code[name] for name in members])
-        return sorted(codes.tolist(), key=lambda k: self.m["order"].iat[k])
+        codes = np.asarray(codes, np.int64)
+        return codes[np.argsort(self.m["order"].to_numpy()[codes], kind="stable")].tolist()
 
     def stations(self, codes: list[int]) -> dict[str, np.ndarray]:
         """The station trace of the given members as arrays, grouped by code, in station order."""
@@ -318,9 +319,9 @@ def _details(data: _Data, codes: list[int]) -> str:
                  "clear height from the bottom face; its elevation lies on its side under them, the end zones lo "
                  "shaded. Each &phi;Vn is that direction's alone; the ties satisfy both together by the "
                  "interaction of 22.5.1.10 and 22.5.1.11.</p>")
-    trusses = _trusses(data, codes)
-    parts = [f'<section id="members"><h2>Members</h2>{note}']
     records = data.m.to_dict("records")
+    trusses = _trusses(data, codes, records)
+    parts = [f'<section id="members"><h2>Members</h2>{note}']
     for k in codes:
         parts.append(_member_section(records[k], k, drawn, drawn_vb, trusses.get(k, "")))
     parts.append("</section>")
@@ -405,7 +406,12 @@ def _stirrups(data: _Data, codes: list[int]) -> tuple[dict[int, np.ndarray], dic
     wanted = set(codes)
     pos = units.si_keyed(data.run.table("design/stirrups.parquet").to_pandas())
     pos = pos.assign(code=pos["member"].map(data.code))
-    out = {int(c): np.sort(g["x_mm"].to_numpy(float)) for c, g in pos[pos["code"].isin(wanted)].groupby("code")}
+    pos = pos[pos["code"].isin(wanted)]
+    code, x = pos["code"].to_numpy(np.int64), pos["x_mm"].to_numpy(float)
+    order = np.lexsort((x, code))  # by member, then along it
+    code, x = code[order], x[order]
+    starts = np.flatnonzero(np.r_[True, code[1:] != code[:-1]]) if len(code) else np.zeros(0, np.int64)
+    out = {int(code[a]): x[a:b] for a, b in zip(starts.tolist(), np.r_[starts[1:], len(code)].tolist())}
     z = data.zones.assign(code=data.zones["member"].map(data.code))
     z = z[z["code"].isin(wanted)].sort_values(["code", "zone"], kind="stable")
     labels: dict[int, list] = {}
@@ -612,20 +618,42 @@ TRUSS_TOP = 46  # room for the title, the legend and the top labels above the me
 TRUSS_H_MIN, TRUSS_H_MAX = 90.0, 240.0  # drawn depth of the member, px
 
 
-def _trusses(data: _Data, codes: list[int]) -> dict[int, str]:
-    """The truss of every member designed by strut-and-tie, over its elevation (SVG per code)."""
+def _trusses(data: _Data, codes: list[int], records: list[dict]) -> dict[int, str]:
+    """The truss of every member designed by strut-and-tie, over its elevation (SVG per code).
+
+    The three stored tables are turned into numpy columns once and cut per member by
+    sorted position: a pandas sub-frame per member (groupby, then a dozen column reads
+    and masks on each) cost far more than drawing the truss itself."""
     wanted = set(data.m["member"].iloc[codes])
     struts, ties, nodes = (deep_step.stored(data.run, name) for name in ("struts", "ties", "nodes"))
     if "member" not in struts or not len(struts):
         return {}
+    s_by = _by_member(struts, wanted, ("x1_mm", "y1_mm", "x2_mm", "y2_mm", "utilization", "element"))
+    t_by = _by_member(ties, wanted, ("x1_mm", "y1_mm", "x2_mm", "y2_mm", "utilization", "element"))
+    n_by = _by_member(nodes, wanted, ("x_mm", "y_mm", "utilization", "node"))
+    none_t = {c: np.zeros(0) for c in ("x1_mm", "y1_mm", "x2_mm", "y2_mm", "utilization", "element")}
+    none_n = {c: np.zeros(0) for c in ("x_mm", "y_mm", "utilization", "node")}
     out = {}
-    records = data.m.to_dict("records")
-    by = lambda df: {m: g for m, g in df[df["member"].isin(wanted)].groupby("member")}  # noqa: E731
-    s_by, t_by, n_by = by(struts), by(ties), by(nodes)
     for name, s in s_by.items():
         k = data.code[name]
-        out[k] = _truss_svg(records[k], s, t_by.get(name, ties.iloc[:0]), n_by.get(name, nodes.iloc[:0]))
+        out[k] = _truss_svg(records[k], s, t_by.get(name, none_t), n_by.get(name, none_n))
     return out
+
+
+def _by_member(df: pd.DataFrame, wanted: set, columns: tuple[str, ...]) -> dict[str, dict[str, np.ndarray]]:
+    """A table's columns as numpy arrays, cut per wanted member (rows in stored order)."""
+    if "member" not in df or not len(df):
+        return {}
+    member = df["member"].to_numpy(object)
+    sel = np.flatnonzero(np.fromiter((m in wanted for m in member), bool, len(member)))
+    if not len(sel):
+        return {}
+    sel = sel[np.argsort(member[sel], kind="stable")]
+    cols = {c: df[c].to_numpy(float if c.endswith(("_mm", "utilization")) else object)[sel] for c in columns}
+    names = member[sel]
+    starts = np.flatnonzero(np.r_[True, names[1:] != names[:-1]])
+    ends = np.r_[starts[1:], len(names)]
+    return {names[a]: {c: v[a:b] for c, v in cols.items()} for a, b in zip(starts.tolist(), ends.tolist())}
 
 
 def _band_of(u) -> np.ndarray:
@@ -634,16 +662,14 @@ def _band_of(u) -> np.ndarray:
     return np.where(u > BANDS[-1] + 1e-9, 4, np.searchsorted(np.asarray(BANDS), np.minimum(u, BANDS[-1])))
 
 
-def _truss_svg(r: dict, struts: pd.DataFrame, ties: pd.DataFrame, nodes: pd.DataFrame) -> str:
+def _truss_svg(r: dict, struts: dict[str, np.ndarray], ties: dict[str, np.ndarray], nodes: dict[str, np.ndarray]) -> str:
     """The member's elevation over the models' extent (bearings and the start of any sectional
     part) with the truss drawn over it: struts as solid lines, ties as open lines, nodes as
     squares, each in the line weight of its utilization band (as in the overview) with its
     utilization written beside it."""
     cs, h = float(r["clear_mm"]), float(r["h_mm"])
-    xs = np.r_[struts[["x1_mm", "x2_mm"]].to_numpy().ravel(), ties[["x1_mm", "x2_mm"]].to_numpy().ravel(),
-               nodes["x_mm"].to_numpy()]
-    bear = nodes[nodes["node"].isin(["R_i", "R_j"])]
-    ends = {n: float(x) for n, x in zip(bear["node"], bear["x_mm"])}  # bearing centroids
+    xs = np.r_[struts["x1_mm"], struts["x2_mm"], ties["x1_mm"], ties["x2_mm"], nodes["x_mm"]]
+    ends = {n: float(x) for n, x in zip(nodes["node"], nodes["x_mm"]) if n in ("R_i", "R_j")}  # bearing centroids
     lo = min(float(np.nanmin(xs)), 2 * ends["R_i"] if "R_i" in ends else np.inf)
     hi = max(float(np.nanmax(xs)), 2 * ends["R_j"] - cs if "R_j" in ends else -np.inf)
     pad = 0.06 * (hi - lo)
@@ -673,9 +699,9 @@ def _truss_svg(r: dict, struts: pd.DataFrame, ties: pd.DataFrame, nodes: pd.Data
                      "sectional part</text>")
     labels = []
     for df, is_tie in ((struts, False), (ties, True)):
-        if not len(df):
+        if not len(df["utilization"]):
             continue
-        band = _band_of(df["utilization"].to_numpy(float))
+        band = _band_of(df["utilization"])
         x1, y1, x2, y2 = (X(df["x1_mm"]), Y(df["y1_mm"]), X(df["x2_mm"]), Y(df["y2_mm"]))
         for a, b, c, d, bd, u, el in zip(x1, y1, x2, y2, band, df["utilization"], df["element"]):
             tip = _text(f"{el}: utilization {u:.3f}")
@@ -688,8 +714,8 @@ def _truss_svg(r: dict, struts: pd.DataFrame, ties: pd.DataFrame, nodes: pd.Data
                 labels.append((mx, my - 7 if my < (top + bot) / 2 else my + 13, f"{u:.2f}", "middle"))
             else:
                 labels.append((mx + 5, my, f"{u:.2f}", "start"))
-    if len(nodes):
-        band = _band_of(nodes["utilization"].to_numpy(float))
+    if len(nodes["utilization"]):
+        band = _band_of(nodes["utilization"])
         for x, y, bd, u, nm in zip(X(nodes["x_mm"]), Y(nodes["y_mm"]), band, nodes["utilization"], nodes["node"]):
             p.append(f'<rect class="node f{bd}" x="{x - 4:.1f}" y="{y - 4:.1f}" width="8" height="8">'
                      f'<title>{_text(f"node {nm}: utilization {u:.3f}")}</title></rect>')
