@@ -32,6 +32,7 @@ from postproc import units
 from postproc.govern import rank_order, status_place
 from postproc.pipeline import deep as deep_step
 from postproc.report import CAUTION, write_atomic
+from postproc.settings import settings_from_dict
 from postproc.store import Run
 from postproc.terms import NEEDS_ACTION, STATUSES, did_you_mean
 
@@ -68,12 +69,19 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
     """Write the report of a designed run to ``out_path`` and return it.
 
     The index and the overview always cover every member; ``members`` limits the
-    detail sections (diagram and elevation) to the ids listed.
+    detail sections (diagram and elevation) to the ids listed. Without it, a run of more
+    members than the settings' ``[report] detail_sections`` gets a compact report: the
+    sections of that many members, the first in review order (those needing action
+    first); any other member's section is written on demand with ``members``.
     """
     if not run.has_design():
         raise ValueError(f"run '{run.name}' has no design; design it with `shearpost run` first")
     data = _Data.load(run)
     detail = data.detail_codes(members)
+    limit = settings_from_dict(run.manifest().get("settings", {})).report.detail_sections
+    if members is None and len(detail) > limit:
+        data.compact = limit
+        detail = detail[:limit]
     linked = set(detail)
     page = _template().render(**_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
                               joints=_joint_rows(data, linked),
@@ -93,6 +101,7 @@ class _Data:
         self.U = run.units
         self.manifest, self.design_manifest, self.combinations = run.manifest(), design_manifest, combinations
         self.code = {name: k for k, name in enumerate(m["member"])}
+        self.compact = 0  # a compact report: the detail sections of this many members, the first in review order
 
     @classmethod
     def load(cls, run: Run) -> _Data:
@@ -136,7 +145,10 @@ class _Data:
         """The station trace of the given members as arrays, grouped by code, in station order."""
         if not self.run.listed_under("design/stations"):  # one file per part; none when no member was designed
             return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
-        t = self.run.table("design/stations", columns=self.U.cols(STATION_COLUMNS)).rename_columns(STATION_COLUMNS)
+        few = len(codes) <= 64  # a page on demand: only those members' rows are decoded
+        where = [("member", "in", [str(self.m["member"].iat[k]) for k in codes])] if few else None
+        t = self.run.table("design/stations", columns=self.U.cols(STATION_COLUMNS), filters=where)
+        t = t.rename_columns(STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
         code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
         wanted = np.zeros(len(self.m) + 1, bool)  # the last entry stands for "not a member" (-1)
@@ -306,6 +318,11 @@ def _details(data: _Data, codes: list[int]) -> str:
             "with that combination's axial force; the self-check holds it for every combination.</p>")
     if len(codes) < len(m):
         note += f'<p class="meta">Detail sections for {len(codes):,} of {len(m):,} members.</p>'
+    if data.compact:
+        note += (f'<p class="meta">A compact report: sections for the first {data.compact:,} members in review order '
+                 "(those needing action first, then by utilization; <code>[report] detail_sections</code> in the "
+                 "settings). The index lists every member; <code>shearpost report --run "
+                 f"{_text(data.run.name)} --member ID --out ID.html</code> writes any member&rsquo;s section.</p>")
     if not codes:
         return f'<section id="members"><h2>Members</h2>{note}</section>'
     st = data.stations(codes)

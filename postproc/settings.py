@@ -49,6 +49,15 @@
     biaxial_shear = "code"          # "code" (22.5.1.10, 22.5.1.11) or "elliptical" (sqrt of the sum of squares)
     circular_transverse = "hoops"   # circular columns: "hoops" (circular ties or hoops) or "spiral" (25.7.3)
 
+    [run]                           # how a run uses the machine (never its results)
+    memory_mb = 1536                # largest resident memory of any one process of the run, MB (ingest
+                                    #   and each design worker): forces spill to disk beyond a quarter of
+                                    #   it, and the design cuts stored parts into tasks that fit
+
+    [report]
+    detail_sections = 500           # report.html draws member sections for at most this many members,
+                                    #   the first in review order; `shearpost report --member ID` any other
+
     [frames]                        # moment frames of the seismic-force-resisting system (ACI 318-19 Ch. 18)
     by_group = { perimeter = "special" }  # frame of every member of a group whose members.csv `frame` is empty
     omega_o = 3.0                   # overstrength factor of the general building code, for 18.4.2.3(b)
@@ -375,6 +384,26 @@ class Columns:
 
 
 @dataclass(frozen=True)
+class Resources:
+    """How a run uses the machine (no units: the same in both systems; no effect on results)."""
+
+    # largest resident memory of any one process of a run (the main process while it reads the
+    # forces, each worker while it designs), MB: ingest keeps the forces in memory only while they
+    # fit in a quarter of it, and the design cuts a stored part into tasks small enough for it
+    memory_mb: int = 1536
+
+
+@dataclass(frozen=True)
+class Report:
+    """report.html (no units)."""
+
+    # a member section (shear diagram, elevation) is drawn for at most this many members, the
+    # first in review order (those needing action first); the index and the overview always list
+    # every member, and `shearpost report --member ID` writes any member's section on demand
+    detail_sections: int = 500
+
+
+@dataclass(frozen=True)
 class Input:
     # optional numeric column -> value of its missing cells (blank, NaN, #N/A, ...), in the unit
     # its name carries; either spelling (N_kN or N_kip) is accepted and kept in the run's spelling
@@ -385,9 +414,9 @@ class Input:
 
 SECTIONS = {
     "si": {"combinations": Combinations, "stations": Stations, "detailing": Detailing, "ifc": Ifc, "frames": Frames,
-           "input": Input, "deep": Deep, "columns": Columns},
+           "input": Input, "deep": Deep, "columns": Columns, "run": Resources, "report": Report},
     "us": {"combinations": Combinations, "stations": StationsUS, "detailing": DetailingUS, "ifc": IfcUS,
-           "frames": FramesUS, "input": Input, "deep": DeepUS, "columns": Columns},
+           "frames": FramesUS, "input": Input, "deep": DeepUS, "columns": Columns, "run": Resources, "report": Report},
 }
 
 
@@ -402,6 +431,8 @@ class Settings:
     units: str = "si"  # the run's unit system: "si" or "us" (postproc.units)
     deep: Deep | DeepUS = field(default_factory=Deep)
     columns: Columns = field(default_factory=Columns)
+    run: Resources = field(default_factory=Resources)
+    report: Report = field(default_factory=Report)
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -499,6 +530,8 @@ def validated_settings(doc: dict, path: Path, units: str | None = None) -> Setti
         raise InputError(path, f"[deep] needs {col('load_width_mm')} > 0 and bearing_max_h > 0")
     if s.columns.biaxial_shear not in ("code", "elliptical"):
         raise InputError(path, "[columns].biaxial_shear must be \"code\" (22.5.1.10, 22.5.1.11) or \"elliptical\"")
+    if s.run.memory_mb < 256:
+        raise InputError(path, "[run].memory_mb must be at least 256 (the libraries alone take about 150 MB)")
     if s.columns.circular_transverse not in ("hoops", "spiral"):
         raise InputError(path, "[columns].circular_transverse must be \"hoops\" or \"spiral\"")
     return s
@@ -567,4 +600,5 @@ def settings_from_dict(doc: dict) -> Settings:
                     stations=kinds["stations"](**doc.get("stations", {})), detailing=kinds["detailing"](**d),
                     ifc=kinds["ifc"](**doc.get("ifc", {})), frames=kinds["frames"](**doc.get("frames", {})),
                     deep=kinds["deep"](**doc.get("deep", {})), columns=Columns(**doc.get("columns", {})),
-                    input=Input(**doc.get("input", {})), units=system)
+                    input=Input(**doc.get("input", {})), run=Resources(**doc.get("run", {})),
+                    report=Report(**doc.get("report", {})), units=system)

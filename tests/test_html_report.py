@@ -324,3 +324,28 @@ def test_strut_and_tie_members_draw_their_truss_with_each_utilization(demo):
             assert f"<title>{label}: utilization {u:.3f}</title>" in truss
     assert truss.count('class="tiec"') == len(ties[ties.member == "L1-TG-B34a"])  # each tie drawn open
     assert "sectional part" in truss  # the region's boundary toward the sectionally designed span
+
+def test_a_large_run_gets_a_compact_report_and_any_section_on_demand(tmp_path):
+    """Above [report] detail_sections members, the report draws the sections of the first
+    members in review order only (those needing action first, as `shearpost govern` ranks
+    them), lists every member in the index, and writes any other member's section on demand."""
+    config = tmp_path / "settings.toml"
+    config.write_text("[report]\ndetail_sections = 2\n", encoding="utf-8")
+    members = [beam("SMALL", 6.0, b_mm=250.0, h_mm=500.0), *(beam(f"B{k}", 6.0) for k in range(4))]
+    forces = (rows_from_function("SMALL", "U", 6.0, lambda x: 900 * (1 - x / 3), n=3)
+              + sum((rows_from_function(f"B{k}", "U", 6.0, lambda x, k=k: (60 + 25 * k) * (1 - x / 3), n=7)
+                     for k in range(4)), []))
+    res = design(tmp_path, members, forces, extra=["--config", str(config)])
+    assert res.code == cli.EXIT_RESIZE
+    run = Store(res.store).runs()[-1]
+    html = (res.out / "report.html").read_text(encoding="utf-8")
+    # review order: the resize first, then by utilization (B3 carries the largest shear)
+    assert list(sections(html)) == ["SMALL", "B3"]
+    assert "A compact report: sections for the first 2 members" in html
+    assert f"shearpost report --run {run.name} --member ID" in html
+    assert index_of(html).count("<tr") == len(members) + 1
+    assert len(re.findall(r'<td><a href="#', index_of(html))) == 2
+    one = write_html_report(run, tmp_path / "one.html", ["B0"]).read_text(encoding="utf-8")
+    assert list(sections(one)) == ["B0"] and "A compact report" not in one
+    full = sections(write_html_report(run, tmp_path / "b3.html", ["B3"]).read_text(encoding="utf-8"))
+    assert full["B3"] == sections(html)["B3"]  # a section on demand is the one the report draws
