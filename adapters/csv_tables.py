@@ -1002,7 +1002,23 @@ def sort_part(t: pa.Table) -> pa.Table:
     the rows by their ranks (much faster than comparing strings row by row)."""
     keys = [_ranks(t.column("member")), _ranks(t.column("case")), t.column(station_column(t)).to_numpy(),
             t.column("_row").to_numpy()]
+    if _in_order(keys):  # a file already sorted by member, case and station: nothing to move
+        return t
     return t.take(pa.array(np.lexsort(keys[::-1])))
+
+
+def _in_order(keys: list[np.ndarray]) -> bool:
+    """Whether the rows are already in the order of the keys (first key first), as lexsort
+    would put them: one pass over neighbouring rows, no sort."""
+    if not len(keys[0]):
+        return True
+    tied = np.ones(len(keys[0]) - 1, bool)  # rows equal on every key so far
+    for k in keys:
+        a, b = k[:-1], k[1:]
+        if np.any(tied & (b < a)):
+            return False
+        tied &= a == b
+    return True
 
 
 def _ranks(col: pa.ChunkedArray) -> np.ndarray:

@@ -192,7 +192,8 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
                                               encoding="utf-8")
 
     run = store.ingest(name, members, cases, source, inputs, warnings, {"settings": settings.as_dict()},
-                       progress=task("reading forces (rows)"), then=design_staged, units=U)
+                       progress=task("reading forces (rows)"), then=design_staged, units=U,
+                       memory_mb=settings.run.memory_mb)
     return run, holder["result"]
 
 

@@ -20,7 +20,7 @@ import pyarrow.parquet as pq
 
 from postproc.adapters import csv_tables
 from postproc.adapters.mapping import ColumnMap
-from postproc import engine, reference, synthetic, units
+from postproc import engine, html_report, reference, report, synthetic, units
 from postproc.settings import Settings
 from postproc.store import Store
 
@@ -44,10 +44,23 @@ class Figures:
     engine_s_per_member: float
     peak_rss_mb: float
     workers: int
+    report_s: float = 0.0  # report.html of the designed run (compact above [report] detail_sections)
+    report_members: int = 0  # members with a detail section in it
+    stage_seconds: dict = None  # seconds by stage (postproc.stages.ORDER), design stages summed over processes
 
     @property
     def end_to_end_s(self) -> float:
-        return self.ingest_s + self.design_s
+        return self.ingest_s + self.design_s + self.report_s
+
+    def shares(self) -> list[tuple[str, float, float]]:
+        """(stage, seconds, share of all stages) in pipeline order. The design's stages are
+        seconds spent in each step summed over the worker processes; ingest and report are
+        this process's."""
+        from postproc.stages import ORDER
+
+        spent = {"ingest": self.ingest_s, **(self.stage_seconds or {}), "report": self.report_s}
+        total = sum(spent.values()) or 1.0
+        return [(k, spent[k], spent[k] / total) for k in ORDER if k in spent]
 
     def rows(self) -> list[tuple[str, str]]:
         return [
@@ -62,7 +75,11 @@ class Figures:
             ("per-member reference", f"{self.reference_s_per_member * 1e3:.1f} ms/member on {self.reference_members} "
                                      f"members, identical results; the engine is "
                                      f"{self.reference_s_per_member / self.engine_s_per_member:,.0f} x faster"),
-            ("end to end (ingest + design)", f"{self.end_to_end_s:.2f} s with {self.workers} worker(s)"),
+            ("report.html", f"{self.report_s:.2f} s, member sections for {self.report_members:,} of "
+                            f"{self.members:,} members"),
+            ("end to end (ingest + design + report)", f"{self.end_to_end_s:.2f} s with {self.workers} worker(s) = "
+                                                      f"{self.end_to_end_s / self.csv_read_s:.1f} x the bare CSV read"),
+            ("stage shares", "; ".join(f"{k} {s:.2f} s ({f:.0%})" for k, s, f in self.shares())),
             ("peak resident memory", f"{self.peak_rss_mb:,.0f} MB (ingest and design, largest process)"),
         ]
 
@@ -127,33 +144,59 @@ def run(members: int, cases: int, stations: int, seed: int, sample: int, map_par
             cases_table = csv_tables.read_cases(paths["cases"], ColumnMap()) if basic else None
             source = csv_tables.ForcesReader(paths["forces"], ColumnMap(), lengths, cases_table, paths.get("cases"))
             store = Store(tmp / "store")
-            run_ = store.ingest("bench", table, cases_table, source, dict(paths), warnings, progress=progress)
+            run_ = store.ingest("bench", table, cases_table, source, dict(paths), warnings, progress=progress,
+                                memory_mb=Settings().run.memory_mb)
             ingest_s = time.perf_counter() - t
 
             settings = Settings()
             holder = {}
+
+            def write(folder: Path) -> None:
+                holder["r"] = result = engine.design_into(run_, settings, folder, map_parts, timed=True)
+                (folder / "manifest.json").write_text(report.dump_json(engine.design_manifest(result, settings)),
+                                                      encoding="utf-8")
+
             t = time.perf_counter()
-            store.write_design(run_, lambda f: holder.setdefault("r", engine.design_into(run_, settings, f, map_parts)))
+            store.write_design(run_, write)
             design_s = time.perf_counter() - t
             result = holder["r"]
 
-        # the bare reads, streamed as the tool streams (whole-file reads would need the model in memory)
-        t = time.perf_counter()
-        n_rows = sum(b.num_rows for b in pcsv.open_csv(paths["forces"]))
-        pcsv.read_csv(paths["members"])
-        csv_read_s = time.perf_counter() - t
-        t = time.perf_counter()
-        for part in run_.force_parts():
-            pq.read_table(part, columns=["member", "case", "x_m", "V_kN", "N_kN", "T_kNm"])
-        store_read_s = time.perf_counter() - t
+            t = time.perf_counter()
+            designed = store.run(run_.name)
+            html_report.write_html_report(designed, tmp / "report.html")
+            report_s = time.perf_counter() - t
+
+        # the bare reads, streamed as the tool streams (whole-file reads would need the model in memory),
+        # each the median of 5 (the machine may be shared)
+        def csv_read() -> int:
+            pcsv.read_csv(paths["members"])
+            return sum(b.num_rows for b in pcsv.open_csv(paths["forces"]))
+
+        def store_read() -> None:
+            for part in run_.force_parts():
+                pq.read_table(part, columns=["member", "case", "x_m", "V_kN", "N_kN", "T_kNm"])
+
+        n_rows = csv_read()
+        csv_read_s = _median_s(csv_read)
+        store_read_s = _median_s(store_read)
 
         ref_s, n_ref = _reference_check(run_, result, settings, sample, seed)
-        return Figures(members, cases, basic, result.combos.distinct_count, stations, n_rows, paths["forces"].stat().st_size / 1e6, generate_s, csv_read_s,
-                       ingest_s, store_read_s, design_s, n_ref, ref_s / max(n_ref, 1), design_s / members,
-                       memory.mb, workers)
+        return Figures(members, cases, basic, result.combos.distinct_count, stations, n_rows,
+                       paths["forces"].stat().st_size / 1e6, generate_s, csv_read_s, ingest_s, store_read_s, design_s,
+                       n_ref, ref_s / max(n_ref, 1), design_s / members, memory.mb, workers, report_s,
+                       min(members, settings.report.detail_sections), result.stage_seconds)
     finally:
         if folder is None:
             shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _median_s(fn, times: int = 5) -> float:
+    spent = []
+    for _ in range(times):
+        t = time.perf_counter()
+        fn()
+        spent.append(time.perf_counter() - t)
+    return float(np.median(spent))
 
 
 def _reference_check(run_, result, settings: Settings, sample: int, seed: int) -> tuple[float, int]:

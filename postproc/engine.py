@@ -6,6 +6,8 @@ status: designed by its family, or invalid, not-covered, no-forces, no-geometry.
 from __future__ import annotations
 
 import functools
+import math
+import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -17,6 +19,7 @@ import pyarrow.parquet as pq
 
 from postproc import combos as combos_mod
 from postproc import joints as joints_mod
+from postproc import stages
 from postproc import units
 from postproc.codes import aci318_19 as aci
 from postproc.settings import Settings
@@ -52,6 +55,7 @@ class Result:
     joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
     units: units.UnitSystem = units.SI
     tables: dict[str, pd.DataFrame] = field(default_factory=dict)  # families' own tables (strut-and-tie models)
+    stage_seconds: dict[str, float] = field(default_factory=dict)  # CPU seconds by stage (timed designs only)
 
 
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
@@ -75,15 +79,18 @@ class PartResult:
     members: set[str]  # every member id found in the part's forces
     stirrups: pd.DataFrame  # member, x_mm: every stirrup's position from face i
     tables: dict[str, pd.DataFrame] = field(default_factory=dict)
+    stage_seconds: dict[str, float] = field(default_factory=dict)
 
 
 def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, map_parts=map,
-               progress=None) -> Result:
+               progress=None, timed: bool = False) -> Result:
     """Design every member of a stored run, part by part (each part holds whole members).
 
     ``map_parts(fn, parts)`` runs the parts (the built-in map, or a distributed engine's);
     each part's station trace is written to ``stations_dir`` as it arrives, so memory is
     bounded by the part size. The tables are named in the unit system of ``settings``.
+    ``timed``: the seconds of each stage, in every process, are gathered into
+    ``Result.stage_seconds`` (postproc.stages; `shearpost bench`).
     """
     U = units.system(settings.units)
     members = run.members().to_pandas()
@@ -109,12 +116,14 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     zones: list[dict] = []
     stirrups: list[pd.DataFrame] = []
     tables: dict[str, list[pd.DataFrame]] = {}
-    seen: set[str] = set()
     if stations_dir is not None:
         stations_dir.mkdir(exist_ok=True)
+    work, seen = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
+                              getattr(map_parts, "workers", 1))
     task = functools.partial(design_part, members=designable, cset=cset, settings=settings,
-                             stations_dir=None if stations_dir is None else str(stations_dir))
-    for part in map_parts(task, [str(p) for p in run.force_parts()]):
+                             stations_dir=None if stations_dir is None else str(stations_dir), timed=timed)
+    stage_seconds: dict[str, float] = {}
+    for t, part in zip(work, map_parts(task, work)):
         rows.extend(part.rows)
         zones.extend(part.zones)
         warnings.extend(part.warnings)
@@ -122,8 +131,9 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
         stirrups.append(part.stirrups)
         for name, df in part.tables.items():
             tables.setdefault(name, []).append(df)
+        stages.merge(stage_seconds, part.stage_seconds)
         if progress:
-            progress(1)
+            progress(1 / t.of)
     for m in sorted(seen - set(input_order)):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
     for m in designable["member"][~designable["member"].isin(seen)]:
@@ -140,7 +150,7 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
         ZONE_COLUMNS)), cset, warnings, positions.rename(columns=U.rename(["x_mm"])),
         joints.rename(columns=U.rename(joints_mod.COLUMNS)), U,
-        {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()})
+        {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()}, stage_seconds)
 
 
 def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
@@ -177,38 +187,137 @@ def columns_without_vb(out: pd.DataFrame, members: pd.DataFrame) -> list[str]:
             "as zero; give Vb_kN from a three-dimensional analysis, or confirm the plane frame"]
 
 
-def design_part(part_path: str, members: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings,
-                stations_dir: str | None = None) -> PartResult:
-    """Design the members whose forces are in one stored part (a pure function of its inputs,
-    so that any engine may run the parts in any order or place), family by family, in
-    batches. The part's station trace is written to ``stations_dir`` under the part's own
-    file name, by the worker itself."""
+@dataclass(frozen=True)
+class Task:
+    """One unit of design work: the members ``first`` to ``last`` (ids, inclusive) of one
+    family in one stored part (``family`` None: every member of the part). The station
+    trace goes to ``trace_name``; tasks listed in order give the tables in stored order
+    (part, family, member), however many tasks a part is cut into."""
+
+    part: str
+    family: int | None = None
+    first: str | None = None
+    last: str | None = None
+    trace_name: str = ""
+    of: int = 1  # tasks of this part (progress counts parts)
+
+
+# resident bytes a design task holds per force row while it runs, measured on the synthetic
+# frames (the station trace of a whole task, 7 to 8 stations of about 40 columns per input row,
+# dominates); the base is what the libraries take before any data
+TASK_BYTES_PER_ROW = 2_600
+PROCESS_BASE_MB = 320
+
+
+def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settings,
+                 workers: int = 1) -> tuple[list[Task], set[str]]:
+    """The design's tasks, and every member id found in the forces. Each stored part is cut,
+    family by family, at the starts of its batches (``batch_starts``: the results stay
+    those of an uncut part to the last bit), into pieces of about equal rows, so that the
+    pieces number a multiple of ``workers`` (no worker idles while another designs the last
+    part) and each fits [run] memory_mb in its worker (``TASK_BYTES_PER_ROW``). A part that
+    needs no cutting stays one task."""
+    workers = max(workers, 1)
+    cap = max(1.0, (settings.run.memory_mb - PROCESS_BASE_MB) * 2**20 / TASK_BYTES_PER_ROW)  # rows per task
+    seen: set[str] = set()
+    per_part = []  # (part, units: [(family, first id, last id, rows)])
+    for part in parts:
+        counts = pac.value_counts(pq.read_table(part, columns=["member"]).column("member").combine_chunks())
+        rows_of = dict(zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist()))
+        seen.update(rows_of)
+        here = members[members["member"].isin(rows_of)]
+        units_ = []
+        for k, family in enumerate(FAMILIES):
+            mine = here[here["kind"].isin(family.KINDS)].reset_index(drop=True)
+            if not len(mine):
+                continue
+            names = mine["member"].tolist()
+            starts = batch_starts(mine, cset, settings).tolist()
+            for a, b in zip(starts, [*starts[1:], len(names)]):
+                units_.append((k, names[a], names[b - 1], sum(rows_of[m] for m in names[a:b])))
+        per_part.append((part, units_))
+    total = sum(u[3] for _, us in per_part for u in us)
+    part_rows = [sum(u[3] for u in us) for _, us in per_part]
+    if workers == 1 and all(r <= cap for r in part_rows):
+        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], seen
+    pieces = [1] * len(per_part)
+    for m in range(1, 64):  # the fewest pieces that number a multiple of the workers
+        target = max(total / (m * workers), 1.0)
+        pieces = [max(1, round(r / target), math.ceil(r / cap)) for r in part_rows]
+        if sum(pieces) % workers == 0:
+            break
+    tasks = []
+    for (part, us), k, rows in zip(per_part, pieces, part_rows):
+        stem = Path(part).name
+        if k == 1 and len({u[0] for u in us}) <= 1:
+            tasks.append(Task(part, trace_name=stem))
+            continue
+        batch_rows = np.array([u[3] for u in us], np.int64)
+        piece = _pieces(batch_rows, k)
+        while k < len(us) and np.bincount(piece, batch_rows).max() > max(cap, batch_rows.max()):
+            k += 1  # the memory first: a piece over the bound is cut again (a batch is never cut)
+            piece = _pieces(batch_rows, k)
+        fam = np.array([u[0] for u in us])
+        first = np.flatnonzero(np.r_[True, (piece[1:] != piece[:-1]) | (fam[1:] != fam[:-1])]).tolist()
+        mine = [(us[a][0], us[a][1], us[b - 1][2]) for a, b in zip(first, [*first[1:], len(us)])]
+        tasks += [Task(part, f, lo, hi, stem if j == 0 else f"{stem[:-len('.parquet')]}.t{j:04d}.parquet", len(mine))
+                  for j, (f, lo, hi) in enumerate(mine)]
+    return tasks, seen
+
+
+def _pieces(batch_rows: np.ndarray, k: int) -> np.ndarray:
+    """Piece of each batch, cutting a part's batches into k runs of about equal rows."""
+    done = np.cumsum(batch_rows) - batch_rows  # rows before each batch
+    return np.minimum(done * k // max(int(batch_rows.sum()), 1), k - 1)
+
+
+def design_part(task: Task | str, members: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings,
+                stations_dir: str | None = None, timed: bool = False) -> PartResult:
+    """Design the members of one task, whose forces are in one stored part (a pure function of
+    its inputs, so that any engine may run the tasks in any order or place), family by
+    family, in batches. The task's station trace is written to ``stations_dir`` under the
+    task's file name, by the worker itself."""
+    task = Task(task, trace_name=Path(task).name) if isinstance(task, str) else task
+    if timed:
+        stages.instrument()
+        stages.take()
+        started = time.perf_counter()
+    part_path = task.part
     U = units.system(settings.units)
     present = set(pq.read_schema(part_path).names)
     vb = U.col("Vb_kN")  # not in the parts of element exports
+    within = None if task.first is None else [("member", ">=", task.first), ("member", "<=", task.last)]
     forces = pq.read_table(part_path, columns=["member", *(c for c in U.cols(["case", "x_m", "V_kN", "Vb_kN", "N_kN",
-                                                                               "T_kNm"]) if c in present or c != vb)])
+                                                                               "T_kNm"]) if c in present or c != vb)],
+                           filters=within)
     member_col = forces.column("member").combine_chunks()
     seen = set(pac.unique(member_col).to_pylist())
     members = members[members["member"].isin(seen)].reset_index(drop=True)
     outputs = []
-    for family in FAMILIES:
+    for k, family in enumerate(FAMILIES):
+        if task.family is not None and k != task.family:
+            continue
         mine = members[members["kind"].isin(family.KINDS)].reset_index(drop=True)
         if len(mine):
             outputs += _family_batches(family, mine, forces, member_col, cset, settings)
     traces = [o.trace for o in outputs]
     if stations_dir is not None and traces:
-        trace = pa.concat_tables(traces, promote_options="default")
-        pq.write_table(trace.rename_columns(U.cols(trace.column_names)), Path(stations_dir) / Path(part_path).name)
+        with stages.clock("trace write"):
+            trace = pa.concat_tables(traces, promote_options="default")
+            pq.write_table(trace.rename_columns(U.cols(trace.column_names)), Path(stations_dir) / task.trace_name)
     positions = pd.concat([o.stirrups for o in outputs], ignore_index=True) if outputs \
         else pd.DataFrame(columns=["member", "x_mm"])
     tables: dict[str, list[pd.DataFrame]] = {}
     for o in outputs:
         for name, df in o.tables.items():
             tables.setdefault(name, []).append(df)
+    spent = {}
+    if timed:  # what no named step took: reading the part, cutting batches, gathering the outputs
+        spent = stages.take()
+        spent["other design"] = time.perf_counter() - started - sum(spent.values())
     return PartResult([r for o in outputs for r in o.rows], [z for o in outputs for z in o.zones],
                       [w for o in outputs for w in o.warnings], seen, positions,
-                      {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()})
+                      {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()}, spent)
 
 
 def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col, cset, settings: Settings):
@@ -232,27 +341,39 @@ def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col,
         f_member, x, cidx = f_member[order], x[order], cidx[order]
         values = {k: v[order] for k, v in values.items()}
     bounds = np.searchsorted(f_member, np.arange(len(members) + 1))
+    out = []
+    cuts = batch_starts(members, cset, settings)
+    for start, stop in zip(cuts.tolist(), [*cuts[1:].tolist(), len(members)]):
+        r0, r1 = bounds[start], bounds[stop]
+        batch = BatchInput(members.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start, cidx[r0:r1],
+                           x[r0:r1], {k: v[r0:r1] for k, v in values.items()})
+        out.append(design_batch(family, batch, cset, settings))
+    return out
+
+
+def batch_starts(members: pd.DataFrame, cset, settings: Settings) -> np.ndarray:
+    """Where the batches of a family's members begin (positions): each batch takes members
+    while their estimated station-candidate cells stay within BATCH_CELLS. Greedy from the
+    first member, so a task that begins at one of these positions cuts the same batches
+    after it (and the batch's sums, to the last bit, stay those of an uncut part)."""
+    U = units.system(settings.units)
     d = members[U.col("d_mm")].to_numpy()
     clear = members[U.col("length_m")].to_numpy() * U.per_span - members[U.col("face_i_mm")].to_numpy() \
         - members[U.col("face_j_mm")].to_numpy()
     est = (clear / np.minimum(settings.stations.max_step, d / settings.stations.steps_per_d) + 8) \
         * max(2 * len(cset.rows), len(cset.cases))
-    out, start = [], 0
+    starts, start = [], 0
     while start < len(members):
-        stop = start + max(1, int(np.searchsorted(np.cumsum(est[start:]), BATCH_CELLS)))
-        r0, r1 = bounds[start], bounds[stop]
-        batch = BatchInput(members.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start, cidx[r0:r1],
-                           x[r0:r1], {k: v[r0:r1] for k, v in values.items()})
-        out.append(design_batch(family, batch, cset, settings))
-        start = stop
-    return out
+        starts.append(start)
+        start += max(1, int(np.searchsorted(np.cumsum(est[start:]), BATCH_CELLS)))
+    return np.array(starts, np.int64)
 
 
-def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progress=None) -> Result:
+def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progress=None, timed: bool = False) -> Result:
     """Design a run and write its design folder's contents into ``folder`` (a temporary
     folder the store renames into place): member results, zones, combinations, the
     per-station trace (stations/, one file per part) and a manifest."""
-    result = design_run(run, settings, folder / "stations", map_parts, progress)
+    result = design_run(run, settings, folder / "stations", map_parts, progress, timed)
     pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
     pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, result.units.col("x_mm"): float}),

@@ -61,6 +61,7 @@ def local(workers: int = 1):
             raise
         pool.shutdown(wait=True)
 
+    run.workers = workers  # the design cuts its tasks to a multiple of it (engine.design_tasks)
     return run
 
 
@@ -83,4 +84,5 @@ def dask(address: str | None = None, workers: int = 2):
             if cluster is not None:
                 cluster.close()
 
+    run.workers = workers
     return run

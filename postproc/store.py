@@ -54,6 +54,10 @@ UNITS = {"length": "m for length_m and x_m, mm for *_mm", "force": "kN", "moment
 UNITS_US = {"length": "ft for length_ft and x_ft, in for *_in", "force": "kip", "moment": "kip*ft", "stress": "psi"}
 PART_BYTES = 24 << 20  # CSV bytes per stored part of the forces (small enough to balance 2 workers)
 MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memory, larger ones spill to disk
+# resident bytes of the ingest per byte of CSV: held in Arrow, and while a block is validated
+# (measured on the synthetic frames: see README, performance); both bounds follow the memory setting
+ARROW_PER_CSV_BYTE = 3.0
+BLOCK_PER_MEMORY = 1 / 24  # CSV block size as a share of [run] memory_mb
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
 MANIFEST = "manifest.json"
 SEAL = "seal"  # key of the manifest's own sha256
@@ -394,7 +398,7 @@ class Store:
 
     def ingest(self, name: str, members: pa.Table, cases: pa.Table | None, source, inputs: dict[str, Path],
                warnings: list[str], extra: dict | None = None, progress=None, then=None,
-               units: unit_systems.UnitSystem = unit_systems.SI) -> Run:
+               units: unit_systems.UnitSystem = unit_systems.SI, memory_mb: float | None = None) -> Run:
         """Write a new run atomically and return it. ``then(run)``, if given, runs on the
         complete but not yet visible run (the design stage writes its design/ there), so
         that the run appears with its design or not at all. Claim the name first
@@ -407,16 +411,24 @@ class Store:
         bounded by the part size, not by the model. The inputs' sha256 are those of the
         bytes the readers parsed (postproc.adapters.digests), where they recorded them.
         ``units``: the unit system the tables are in (recorded in the manifest, with the
-        edition of ACI 318-19 it designs with).
+        edition of ACI 318-19 it designs with). ``memory_mb`` ([run] memory_mb) bounds this
+        process's resident memory: the forces are partitioned in memory only while they fit in
+        a quarter of it, and read in blocks of a 24th of it (at most the reader's own block).
         """
         self.check_new_name(name)
         n_parts = max(1, math.ceil(source.size() / PART_BYTES))
+        in_memory = source.size() <= MEMORY_BYTES
+        if memory_mb is not None:
+            budget = memory_mb * 2**20
+            in_memory = in_memory and source.size() * ARROW_PER_CSV_BYTE <= budget / 4
+            if hasattr(source, "BLOCK"):
+                source.BLOCK = int(min(source.BLOCK, max(1 << 20, budget * BLOCK_PER_MEMORY)))
 
         def write(tmp: Path) -> None:
             pq.write_table(members, tmp / "members.parquet")
             if cases is not None:
                 pq.write_table(cases, tmp / "cases.parquet")
-            parts = _PartBuffer(tmp / "spill", in_memory=source.size() <= MEMORY_BYTES)
+            parts = _PartBuffer(tmp / "spill", in_memory=in_memory)
             try:
                 for batch in source.batches():
                     part = part_of(batch.column("member"), n_parts)

@@ -1,5 +1,7 @@
 """The engines give identical results: in-process, local worker processes, dask.distributed."""
 
+from dataclasses import replace
+
 import pandas as pd
 import pyarrow.parquet as pq
 import pytest
@@ -52,3 +54,82 @@ def test_batch_size_does_not_change_the_design(staged, monkeypatch):
     for a, b in zip(ref, small):
         pd.testing.assert_frame_equal(a.sort_values(list(a.columns[:2])).reset_index(drop=True),
                                       b.sort_values(list(b.columns[:2])).reset_index(drop=True))
+
+
+@pytest.fixture(scope="module")
+def one_part(tmp_path_factory):
+    """A synthetic model stored in one part, designed as one task (the reference)."""
+    tmp = tmp_path_factory.mktemp("tasks")
+    paths = synthetic.generate(tmp / "model", members=150, cases=6, stations=11, seed=7)
+    members, _ = csv_tables.read_members(paths["members"], ColumnMap())
+    run = Store(tmp / "store").ingest("r", members, None, csv_tables.ForcesReader(paths["forces"], ColumnMap()), {},
+                                      [])
+    assert len(run.force_parts()) == 1
+    return tmp, run
+
+
+def _inline(workers: int):
+    """This process, posing as an engine of ``workers`` workers (the tasks are cut for them)."""
+    def run(fn, parts):
+        return map(fn, parts)
+
+    run.workers = workers
+    return run
+
+
+def _stored(folder):
+    return {name: pq.read_table(folder / name).to_pandas() for name in ("members.parquet", "zones.parquet",
+                                                                         "stirrups.parquet", "stations")}
+
+
+@pytest.mark.parametrize("workers, memory_mb", [(2, 1536), (3, 1536), (1, 330), (2, 330)])
+def test_tasks_cut_parts_at_batch_starts_and_change_nothing(one_part, workers, memory_mb, monkeypatch):
+    """A part cut into tasks (a multiple of the workers, or smaller to fit [run] memory_mb) gives
+    the tables of the uncut part to the last bit, rows in the same order."""
+    tmp, run = one_part
+    monkeypatch.setattr(engine, "BATCH_CELLS", 40_000)  # batches of a few members: room to cut
+    settings = Settings()
+    designable = run.members().to_pandas().sort_values("member").reset_index(drop=True)
+    cset, _ = engine.combination_set(run, run.manifest()["cases"], settings)
+    ref_folder = tmp / "uncut"
+    if not ref_folder.exists():
+        ref_folder.mkdir()
+        engine.design_into(run, settings, ref_folder, _inline(1))
+    small = Settings(run=replace(settings.run, memory_mb=memory_mb))
+    tasks, seen = engine.design_tasks([str(p) for p in run.force_parts()], designable, cset, small, workers)
+    assert seen == set(designable["member"])
+    if memory_mb == 1536:  # the pieces number a multiple of the workers (one family here: one task a piece)
+        assert len(tasks) % workers == 0
+    else:  # each task within the memory: rows of its members at most what the setting allows
+        cap = (memory_mb - engine.PROCESS_BASE_MB) * 2**20 / engine.TASK_BYTES_PER_ROW
+        forces = run.forces(["member"]).to_pandas()["member"].value_counts()
+        for t in tasks:
+            rows = forces[(forces.index >= t.first) & (forces.index <= t.last)].sum()
+            assert rows <= cap  # (a batch, never cut, is smaller than that here)
+        assert len(tasks) > 1
+    starts = set(designable["member"].iloc[engine.batch_starts(designable, cset, settings)])
+    assert all(t.first in starts for t in tasks if t.first is not None) and len(starts) > 3
+    folder = tmp / f"cut-{workers}-{memory_mb}"
+    folder.mkdir()
+    engine.design_into(run, small, folder, _inline(workers))
+    assert len(list((folder / "stations").iterdir())) == len(tasks)
+    ref, got = _stored(ref_folder), _stored(folder)
+    for name in ref:
+        pd.testing.assert_frame_equal(ref[name], got[name], check_exact=True, obj=name)
+
+
+def test_already_sorted_forces_skip_the_sort():
+    """sort_part puts rows in member, case, station, file-row order; rows already in that order
+    come back as they are, without a sort."""
+    import numpy as np
+    import pyarrow as pa
+
+    rng = np.random.default_rng(3)
+    n = 400
+    t = pa.table({"member": [f"M{k}" for k in rng.integers(0, 9, n)], "case": [f"C{k}" for k in rng.integers(0, 3, n)],
+                  "x_m": rng.integers(0, 5, n).astype(float), "_row": np.arange(n)})
+    ordered = csv_tables.sort_part(t)
+    df = ordered.to_pandas()
+    assert df.equals(df.sort_values(["member", "case", "x_m", "_row"]).reset_index(drop=True))
+    assert csv_tables.sort_part(ordered) is ordered  # nothing moved, nothing copied
+    assert csv_tables.sort_part(t) is not t
