@@ -869,6 +869,8 @@ def _plans(data: _Data, placed: np.ndarray, level: pd.Series, linked: set[int]) 
     centre = (PLAN_W / 2, pad + (yhi - ylo) * s / 2)
     plans = []
     beams = ~vertical
+    bands, names, status = m["band"].astype(int).tolist(), m["member"].tolist(), m["status"].tolist()
+    util, anchors, codes = m["utilization"].tolist(), m["anchor"].tolist(), m.index.tolist()
     for lv in dict.fromkeys(level[beams]):
         on = beams & (level == lv).to_numpy()
         z = float(np.median(np.r_[z1[on], z2[on]]))
@@ -876,18 +878,15 @@ def _plans(data: _Data, placed: np.ndarray, level: pd.Series, linked: set[int]) 
         idx = np.flatnonzero(on)
         idx = idx[np.lexsort((m["band"].to_numpy()[idx],))]  # failures drawn last, on top
         lines, tags = [], []
-        for k in idx:
-            r = m.iloc[k]
-            band = int(r["band"])
+        for k in idx.tolist():  # the columns as lists: a row read through pandas per member is slow
+            band = bands[k]
             cls = "nd" if band == NOT_DESIGNED else f"u{band}"
-            tip = _text(f"{r['member']}: {r['status']}" + ("" if pd.isna(r["utilization"]) else
-                                                             f", utilization {r['utilization']:.3f}"))
+            tip = _text(f"{names[k]}: {status[k]}" + ("" if pd.isna(util[k]) else f", utilization {util[k]:.3f}"))
             a, b, c, d = X(x1[k]), Y(y1[k]), X(x2[k]), Y(y2[k])
             line = f'<path class="{cls}" d="M{a:.1f},{b:.1f}L{c:.1f},{d:.1f}"><title>{tip}</title></path>'
-            code = m.index[k]
-            lines.append(f'<a href="#{r["anchor"]}">{line}</a>' if code in linked else line)
-            if band == 4 or r["status"] in NEEDS_ACTION:
-                tags.append(_tag(r["member"], a, b, c, d, band == 4, centre))
+            lines.append(f'<a href="#{anchors[k]}">{line}</a>' if codes[k] in linked else line)
+            if band == 4 or status[k] in NEEDS_ACTION:
+                tags.append(_tag(names[k], a, b, c, d, band == 4, centre))
         squares = "".join(f'<rect class="col" x="{X(x) - 3.5:.1f}" y="{Y(y) - 3.5:.1f}" width="7" height="7"/>'
                           for x, y in zip(x1[cols], y1[cols]))
         n_fail = int((m["band"].to_numpy()[on] == 4).sum())
