@@ -57,7 +57,7 @@ MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memo
 # resident bytes of the ingest per byte of CSV: held in Arrow, and while a block is validated
 # (measured on the synthetic frames: see README, performance); both bounds follow the memory setting
 ARROW_PER_CSV_BYTE = 3.0
-BLOCK_PER_MEMORY = 1 / 24  # CSV block size as a share of [run] memory_mb
+BLOCK_PER_MEMORY = 1 / 64  # CSV block size as a share of [run] memory_mb (a block takes about 14 times its size)
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
 MANIFEST = "manifest.json"
 SEAL = "seal"  # key of the manifest's own sha256
@@ -413,7 +413,7 @@ class Store:
         ``units``: the unit system the tables are in (recorded in the manifest, with the
         edition of ACI 318-19 it designs with). ``memory_mb`` ([run] memory_mb) bounds this
         process's resident memory: the forces are partitioned in memory only while they fit in
-        a quarter of it, and read in blocks of a 24th of it (at most the reader's own block).
+        a quarter of it, and read in blocks of a 64th of it (at most the reader's own block).
         """
         self.check_new_name(name)
         n_parts = max(1, math.ceil(source.size() / PART_BYTES))
@@ -530,12 +530,16 @@ class Store:
 
 
 class _PartBuffer:
-    """Rows gathered per part: in memory for files up to MEMORY_BYTES, else in spill files."""
+    """Rows gathered per part: in memory while they fit the memory setting, else in spill
+    files. A spill file is an Arrow IPC stream (each slice written through as it comes):
+    a Parquet writer holds column buffers per open file, about 20 MB each once the slices
+    are large, which across a hundred-odd parts was most of the ingest's memory."""
 
     def __init__(self, folder: Path, in_memory: bool):
         self.folder, self.in_memory = folder, in_memory
         self.tables: dict[int, list[pa.Table]] = {}
-        self.writers: dict[int, pq.ParquetWriter] = {}
+        self.writers: dict[int, pa.ipc.RecordBatchStreamWriter] = {}
+        self.files: dict[int, pa.NativeFile] = {}
         if not in_memory:
             folder.mkdir()
 
@@ -544,12 +548,14 @@ class _PartBuffer:
             self.tables.setdefault(k, []).append(t)
             return
         if k not in self.writers:  # uncompressed: read back once, soon
-            self.writers[k] = pq.ParquetWriter(self.folder / f"{k:05d}.parquet", t.schema, compression="none")
+            self.files[k] = pa.OSFile(str(self.folder / f"{k:05d}.arrows"), "wb")
+            self.writers[k] = pa.ipc.new_stream(self.files[k], t.schema)
         self.writers[k].write_table(t)
 
     def close(self) -> None:
-        for w in self.writers.values():
+        for k, w in self.writers.items():
             w.close()
+            self.files[k].close()
 
     def keys(self) -> list[int]:
         return sorted(self.tables if self.in_memory else self.writers)
@@ -557,8 +563,9 @@ class _PartBuffer:
     def take(self, k: int) -> pa.Table:
         if self.in_memory:
             return pa.concat_tables(self.tables.pop(k))
-        path = self.folder / f"{k:05d}.parquet"
-        t = pq.read_table(path)
+        path = self.folder / f"{k:05d}.arrows"
+        with pa.OSFile(str(path), "rb") as fh:
+            t = pa.ipc.open_stream(fh).read_all()
         path.unlink()
         return t
 
