@@ -145,8 +145,8 @@ class _Data:
         """The station trace of the given members as arrays, grouped by code, in station order."""
         if not self.run.listed_under("design/stations"):  # one file per part; none when no member was designed
             return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
-        few = len(codes) <= 64  # a page on demand: only those members' rows are decoded
-        where = [("member", "in", [str(self.m["member"].iat[k]) for k in codes])] if few else None
+        some = len(codes) < len(self.m)  # a compact report or a page on demand: only those members' rows are kept
+        where = [("member", "in", [str(self.m["member"].iat[k]) for k in codes])] if some else None
         t = self.run.table("design/stations", columns=self.U.cols(STATION_COLUMNS), filters=where)
         t = t.rename_columns(STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
@@ -336,7 +336,7 @@ def _details(data: _Data, codes: list[int]) -> str:
                  "clear height from the bottom face; its elevation lies on its side under them, the end zones lo "
                  "shaded. Each &phi;Vn is that direction's alone; the ties satisfy both together by the "
                  "interaction of 22.5.1.10 and 22.5.1.11.</p>")
-    records = data.m.to_dict("records")
+    records = dict(zip(codes, data.m.iloc[codes].to_dict("records")))  # the drawn members' rows only
     trusses = _trusses(data, codes, records)
     parts = [f'<section id="members"><h2>Members</h2>{note}']
     for k in codes:
@@ -635,7 +635,7 @@ TRUSS_TOP = 46  # room for the title, the legend and the top labels above the me
 TRUSS_H_MIN, TRUSS_H_MAX = 90.0, 240.0  # drawn depth of the member, px
 
 
-def _trusses(data: _Data, codes: list[int], records: list[dict]) -> dict[int, str]:
+def _trusses(data: _Data, codes: list[int], records: dict[int, dict]) -> dict[int, str]:
     """The truss of every member designed by strut-and-tie, over its elevation (SVG per code).
 
     The three stored tables are turned into numpy columns once and cut per member by
