@@ -55,7 +55,7 @@ class Result:
     joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
     units: units.UnitSystem = units.SI
     tables: dict[str, pd.DataFrame] = field(default_factory=dict)  # families' own tables (strut-and-tie models)
-    stage_seconds: dict[str, float] = field(default_factory=dict)  # CPU seconds by stage (timed designs only)
+    stage_seconds: dict[str, float] = field(default_factory=dict)  # seconds by stage, summed over processes (timed only)
 
 
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
@@ -86,9 +86,10 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
                progress=None, timed: bool = False) -> Result:
     """Design every member of a stored run, part by part (each part holds whole members).
 
-    ``map_parts(fn, parts)`` runs the parts (the built-in map, or a distributed engine's);
-    each part's station trace is written to ``stations_dir`` as it arrives, so memory is
-    bounded by the part size. The tables are named in the unit system of ``settings``.
+    ``map_parts(fn, tasks)`` runs the tasks (the built-in map, or an engine's; its
+    ``workers`` attribute, where it has one, sizes the tasks: ``design_tasks``); each
+    task's station trace is written to ``stations_dir`` by its worker, so a worker's memory
+    is bounded by the task size. The tables are named in the unit system of ``settings``.
     ``timed``: the seconds of each stage, in every process, are gathered into
     ``Result.stage_seconds`` (postproc.stages; `shearpost bench`).
     """
