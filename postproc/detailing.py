@@ -511,7 +511,6 @@ def zones_batch(x: np.ndarray, offsets: np.ndarray, clear_span: np.ndarray, hole
     owner[:-1][claim] = idx[claim]
     owner[1:][claim] = idx[claim]
     # zones: stirrups of one owner together, every other stirrup alone
-    i = np.arange(N)
     together = np.zeros(N, bool)  # stirrup k joins the zone of stirrup k - 1
     if N:
         together[1:] = valid & (owner[1:] >= 0) & (owner[1:] == owner[:-1])

@@ -12,7 +12,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
-import pyarrow.parquet as pq
 
 from postproc import detailing, stations
 from postproc.demand import beams as demand
