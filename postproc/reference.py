@@ -243,7 +243,8 @@ def design_member(m: pd.Series, forces: pd.DataFrame, combo_names: list[str], fa
                                             rule=settings.columns.biaxial_shear, ed=ed))
                 if total > 1 + 1e-9:
                     return {**row, "status": "resize"}, [], set()
-            key = (round(total, 12), round(c["vu"] / phi_vn if phi_vn > 0 else 0.0, 12))
+            # ties to 1e-9, as the engine's (postproc.pipeline.governing): a shear of a few micro-newtons is a tie
+            key = (round(total, 9), round(c["vu"] / phi_vn if phi_vn > 0 else 0.0, 9))
             if key > best:
                 best, winners = key, {c["name"]}
             elif key == best:
