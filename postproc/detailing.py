@@ -81,6 +81,18 @@ class Stirrups:
         """Per stirrup: its member."""
         return np.repeat(np.arange(len(self.offsets) - 1), self.counts)
 
+    def extents(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Per member: its first and last stirrup (NaN where it has none) and the least gap
+        between two of its stirrups (inf where it has fewer than two), for the self-checks."""
+        has, x = self.counts > 0, self.x
+        first = np.where(has, x[np.minimum(self.offsets[:-1], max(len(x) - 1, 0))] if len(x) else 0.0, np.nan)
+        last = np.where(has, x[np.maximum(self.offsets[1:] - 1, 0)] if len(x) else 0.0, np.nan)
+        member = self.member
+        inner = member[1:] == member[:-1] if len(x) else np.zeros(0, bool)
+        least_gap = np.full(len(self.offsets) - 1, np.inf)
+        np.minimum.at(least_gap, member[1:][inner], np.diff(x)[inner])
+        return first, last, least_gap
+
     @classmethod
     def gather(cls, layouts: dict[int, Layout], n: int) -> Stirrups:
         """The layouts of members 0 .. n - 1 (a dict by member) as one batch."""

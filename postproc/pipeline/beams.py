@@ -241,12 +241,7 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
     hoop_max = mb.sec.u.first_hoop_max
     sp, span = lay.stirrups, mb.geo.clear_span
     has = sp.counts > 0
-    first_x = np.where(has, sp.x[np.minimum(sp.offsets[:-1], max(len(sp.x) - 1, 0))] if len(sp.x) else 0.0, np.nan)
-    last_x = np.where(has, sp.x[np.maximum(sp.offsets[1:] - 1, 0)] if len(sp.x) else 0.0, np.nan)
-    gaps = np.diff(sp.x)
-    inner = sp.member[1:] == sp.member[:-1] if len(sp.x) else np.zeros(0, bool)
-    least_gap = np.full(len(span), np.inf)
-    np.minimum.at(least_gap, sp.member[1:][inner], gaps[inner])
+    first_x, last_x, least_gap = sp.extents()
     one_zone = np.array(["one zone throughout" in lay.layouts[m].message if m in lay.layouts else False
                          for m in range(len(span))], bool)
     first = hoop_max + slack
@@ -264,7 +259,7 @@ def _check(mb: Members, rs: Resampled, cand, dem: demand.Demand, prov: Provided,
             raise SelfCheckError(f"hoops of member {mb.names[m]} start {x[0]:g} {mm} and "
                                  f"{span[m] - x[-1]:g} {mm} from the faces, more than {hoop_max:g} {mm} "
                                  "(18.6.4.4, 18.4.2.4)")
-        raise SelfCheckError(f"stirrups of member {mb.names[m]} are {gaps[sp.offsets[m]:sp.offsets[m + 1] - 1].min():g} "
+        raise SelfCheckError(f"stirrups of member {mb.names[m]} are {least_gap[m]:g} "
                              f"{mm} apart, under the {smin:g} {mm} minimum")
     return cap
 

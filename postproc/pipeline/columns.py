@@ -639,12 +639,7 @@ def _check(mb: Members, rs: Resampled, cases: demand.Cases, cap: Capacity, prov:
     laid = np.zeros(len(clear), bool)
     laid[list(lay.layouts)] = True
     has = sp.counts > 0
-    first_x = np.where(has, sp.x[np.minimum(sp.offsets[:-1], max(len(sp.x) - 1, 0))] if len(sp.x) else 0.0, np.nan)
-    last_x = np.where(has, sp.x[np.maximum(sp.offsets[1:] - 1, 0)] if len(sp.x) else 0.0, np.nan)
-    gaps = np.diff(sp.x)
-    inner = sp.member[1:] == sp.member[:-1] if len(sp.x) else np.zeros(0, bool)
-    least_gap = np.full(len(clear), np.inf)
-    np.minimum.at(least_gap, sp.member[1:][inner], gaps[inner])
+    first_x, last_x, least_gap = sp.extents()
     exempt = np.zeros(len(clear), bool)
     exempt[[m for m, lay_m in lay.layouts.items() if lay_m.message in ("spiral", "end zones meet; one zone throughout")]] = True
     first_st, last_st = grid.offsets[:-1], grid.offsets[1:] - 1
