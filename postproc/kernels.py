@@ -49,14 +49,15 @@ def use_compiled(cells: int) -> bool:
 def _load(required: bool):
     global _compiled
     if _compiled is None:
-        try:
+        try:  # numba missing, or its shared library not loadable (e.g. no memory left to map it)
             import numba  # noqa: F401
-        except ImportError:
+
+            from postproc import compiled
+        except (ImportError, OSError, MemoryError):
             if required:
                 raise
-            _compiled = False
+            _compiled = False  # the numpy twins give the same results
         else:
-            from postproc import compiled
             _compiled = compiled
     return _compiled or None
 

@@ -7,7 +7,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pyarrow.parquet as pq
 import pytest
 
 from postproc import cli
@@ -64,7 +63,7 @@ def design(tmp: Path, members: list[dict], forces: list[dict], cases: list[dict]
         argv += ["--cases", str(paths["cases"])]
     code = cli.main(argv)
     runs = Store(store).runs()
-    st = pq.read_table(runs[-1].design_path / "stations").to_pandas() if runs and runs[-1].has_design() else None
+    st = runs[-1].table("design/stations").to_pandas() if runs and runs[-1].has_design() else None
     zones = pd.read_csv(out / "zones.csv") if (out / "zones.csv").exists() else pd.DataFrame()
     members_out = pd.read_csv(out / "members.csv", keep_default_na=False, na_values=[""]) if (out / "members.csv").exists() else pd.DataFrame()
     return Designed(code, members_out, zones, st, out, store)
@@ -77,7 +76,7 @@ def demo_designed(tmp_path_factory) -> Designed:
     tmp = tmp_path_factory.mktemp("demo-session")
     code = cli.main(["demo", "--store", str(tmp / "store"), "--out", str(tmp / "out"), "--json"])
     out = tmp / "out"
-    st = pq.read_table(Store(tmp / "store").latest().design_path / "stations").to_pandas()
+    st = Store(tmp / "store").latest().table("design/stations").to_pandas()  # parts of each family, all columns
     return Designed(code, pd.read_csv(out / "members.csv", keep_default_na=False, na_values=[""]),
                     pd.read_csv(out / "zones.csv"), st, out, tmp / "store")
 

@@ -114,14 +114,13 @@ def test_random_columns_pass_their_self_check_and_the_plain_recheck(tmp_path, dr
                                        z.bar.iloc[0], int(z.legs.max()), int(z.legs_vb.max()), x, s)
         assert check["problems"] == []  # every 10 mm: no utilization over 1, no rule broken
         # the engine reports the largest at its own stations (at most 50 mm and d/8 apart): the plain re-check
-        # at those stations finds the same; between them (10 mm above) it can be higher, by what the forces
-        # change over one station step, and the layout still passes there (the design allows for it, see
-        # _with_neighbours)
+        # at those stations finds the same; between them (every 10 mm above, which need not hit the engine's
+        # stations) it can be higher or lower, by what the forces change over one station step, and the layout
+        # passes there too (the design allows for it, see _with_neighbours)
         at = out.trace.filter(pa.compute.equal(out.trace.column("member"), m.member)).column("x_mm").to_numpy()
         on_grid = reference.check_column(m, forces[forces.member == m.member], names, factors, list(cset.cases),
                                          z.bar.iloc[0], int(z.legs.max()), int(z.legs_vb.max()), x, s, stations=at)
         assert on_grid["utilization"] == pytest.approx(row.utilization, abs=1e-3)
-        assert check["utilization"] >= row.utilization - 1e-3
 
 
 def test_engine_spacing_is_the_plain_least_spacing_on_the_module(tmp_path):
