@@ -643,6 +643,19 @@ def _blank(t: pa.Table, name: str) -> np.ndarray:
     return pac.equal(col, "").to_numpy(zero_copy_only=False)
 
 
+def checked_block(spec: CsvSpec, raw: pa.Table, quoted, first_row: int, tally: Tally):
+    """One block of a forces file (rows from ``first_row``, 0-based) in our schema, with what
+    every forces reader checks first: broken rows, numbers, text. Returns the table, its
+    Problems (raise them once the reader's own checks are added) and the rows' ids."""
+    ids = np.arange(first_row, first_row + raw.num_rows, dtype=np.int64)
+    probs = Problems(spec, ids)
+    t = spec.to_ours(raw, probs, tally)
+    probs.add(spec.broken_rows(raw, quoted), None, BROKEN)
+    _check_numbers(t, spec, probs)
+    _check_text(t, spec, probs)
+    return t, probs, ids
+
+
 def _check_numbers(t: pa.Table, spec: CsvSpec, probs: Problems, cols: tuple[Col, ...] | None = None,
                    blank_ok=BLANK_NOT_GIVEN) -> None:
     """No blank, NaN or infinite number in a column the file has (a blank is allowed only
@@ -950,12 +963,7 @@ class ForcesReader:
     def batches(self):
         self.rows, self.case_names, self.member_names, self.tally = 0, set(), set(), Tally()
         for raw, quoted in self._stream():
-            ids = np.arange(self.rows, self.rows + raw.num_rows, dtype=np.int64)
-            probs = Problems(self.spec, ids)
-            t = self.spec.to_ours(raw, probs, self.tally)
-            probs.add(self.spec.broken_rows(raw, quoted), None, BROKEN)
-            _check_numbers(t, self.spec, probs)
-            _check_text(t, self.spec, probs)
+            t, probs, ids = checked_block(self.spec, raw, quoted, self.rows, self.tally)
             x = _num(t, "x_m")
             probs.add(x < 0, "x_m", f"station before node i ({self.spec.table.source_name('x_m')} < 0)")
             _check_plausible(t, probs, PLAUSIBLE_FORCES, self.units)

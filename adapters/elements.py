@@ -33,7 +33,7 @@ import pyarrow.compute as pac
 
 from postproc import units as unit_names
 from postproc.adapters.csv_tables import (BROKEN, MAX_REPORTED, PLAUSIBLE_FORCES, Col, ForcesReader, InputErrors,
-                                          Problems, Tally, _check_numbers, _check_plausible, _check_text, _codes,
+                                          Problems, Tally, _check_numbers, _check_plausible, _check_text, _codes, checked_block,
                                           check_cases_cover_forces, normalise_text, prepare, read_table,
                                           record_lines, si_keyed, sort_part, stream_blocks)
 from postproc.adapters.errors import InputError
@@ -808,12 +808,7 @@ class ElementForcesReader:
         el = self.el
         self.rows, self.case_names = 0, set()
         for raw, quoted in self._stream():
-            ids = np.arange(self.rows, self.rows + raw.num_rows, dtype=np.int64)
-            probs = Problems(self.spec, ids)
-            t = self.spec.to_ours(raw, probs, self.tally)
-            probs.add(self.spec.broken_rows(raw, quoted), None, BROKEN)
-            _check_numbers(t, self.spec, probs)
-            _check_text(t, self.spec, probs)
+            t, probs, ids = checked_block(self.spec, raw, quoted, self.rows, self.tally)
             _check_plausible(t, probs, {q: PLAUSIBLE_FORCES[q] for q in QUANTITIES})
             probs.raise_if_any()
             k = lay.index_of(t.column("element"))  # every element is in the layout (pass 1)
