@@ -136,3 +136,21 @@ def print_tally(request, lines: list[str]) -> None:
             tr.write_line("")
             for line in lines:
                 tr.write_line(line)
+
+
+def equal_to_reference(run, names, settings) -> None:
+    """The stored design of each member ``names`` of ``run`` against the brute-force per-member
+    design (postproc.reference: every combination listed one by one); raises on a difference."""
+    import pyarrow.parquet as pq
+
+    from postproc import bench, engine, reference
+
+    members = run.members().to_pandas().set_index("member", drop=False)
+    forces = pq.read_table(run.path / "forces", filters=[("member", "in", list(names))]).to_pandas()
+    cset, _ = engine.combination_set(run, run.manifest()["cases"], settings)
+    res = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
+    zones = pq.read_table(run.design_path / "zones.parquet").to_pandas()
+    for m in names:
+        row, z, winners = reference.design_member(members.loc[m], forces[forces.member == m], cset.names,
+                                                  cset.factors, cset.cases, settings)
+        bench.compare_with_reference(m, res.loc[m], row, z, winners, zones[zones.member == m])

@@ -738,20 +738,28 @@ def store_cases() -> list[StoreCase]:
 STORE_CASES = store_cases()
 
 
-@pytest.fixture(scope="module")
-def two_runs(tmp_path_factory, request):
-    """A store with runs 'alpha' and 'beta' (beta with a stored schedule), the files each reader
-    command reads of beta, and each command's output on the intact store."""
-    root = tmp_path_factory.mktemp("store")
+def store_with_runs(root: Path, names, cases: bool = False) -> Path:
+    """root/store with one designed run per name, of the plain inputs (written to root/in),
+    with their cases.csv where ``cases``. Returns the store folder."""
     inputs = root / "in"
     inputs.mkdir()
     for which, name in FILES.items():
         (inputs / name).write_bytes(_plain(which))
     store = root / "store"
-    for name in ("alpha", "beta"):
+    for name in names:
+        given = ["--cases", str(inputs / "cases.csv")] if cases else []
         assert cli.main(["run", "--members", str(inputs / "members.csv"), "--forces", str(inputs / "forces.csv"),
-                         "--cases", str(inputs / "cases.csv"), "--store", str(store), "--out", str(root / name),
-                         "--run", name, "--no-report", "--json"]) in (cli.EXIT_OK, cli.EXIT_RESIZE)
+                         *given, "--store", str(store), "--out", str(root / name), "--run", name, "--no-report",
+                         "--json"]) in (cli.EXIT_OK, cli.EXIT_RESIZE)
+    return store
+
+
+@pytest.fixture(scope="module")
+def two_runs(tmp_path_factory, request):
+    """A store with runs 'alpha' and 'beta' (beta with a stored schedule), the files each reader
+    command reads of beta, and each command's output on the intact store."""
+    root = tmp_path_factory.mktemp("store")
+    store = store_with_runs(root, ("alpha", "beta"), cases=True)
     assert cli.main(["schedule", "--run", "beta", "--store", str(store), "--out", str(root / "sched")]) == cli.EXIT_OK
     beta = Run(store / "beta")
     assert sorted(beta.files()) == RUN_FILES, sorted(beta.files())
@@ -905,15 +913,7 @@ def test_an_edited_manifest_never_changes_a_schedule(tmp_path):
 def test_runs_lists_a_run_with_a_damaged_manifest_and_the_others(tmp_path, capsys):
     """Issue 9: one damaged manifest broke `runs` for the whole store (a traceback). Now the run
     is listed as damaged, with the file, and every other run as usual."""
-    inputs = tmp_path / "in"
-    inputs.mkdir()
-    for which, name in FILES.items():
-        (inputs / name).write_bytes(_plain(which))
-    store = tmp_path / "store"
-    for name in ("one", "two"):
-        assert cli.main(["run", "--members", str(inputs / "members.csv"), "--forces", str(inputs / "forces.csv"),
-                         "--store", str(store), "--out", str(tmp_path / name), "--run", name, "--no-report",
-                         "--json"]) in (cli.EXIT_OK, cli.EXIT_RESIZE)
+    store = store_with_runs(tmp_path, ("one", "two"))
     (store / "one" / "manifest.json").write_text("{\"run\": \"one\", \"created\":", encoding="utf-8")  # cut short
     capsys.readouterr()
     assert cli.main(["runs", "--store", str(store), "--json"]) == cli.EXIT_OK

@@ -19,7 +19,7 @@ import pytest
 from postproc import cli, detailing, units
 from postproc.codes import aci318_19 as aci
 from postproc.settings import BAR_CATALOGUE, BAR_CATALOGUE_US, Settings
-from tests.conftest import design
+from tests.conftest import design, equal_to_reference
 
 PSI_PER_MPA = 1e6 / 6894.757293168361  # 1 psi = 6894.757 Pa (exact by the definitions of lbf and in)
 IN = 25.4  # mm per inch, exact
@@ -443,9 +443,7 @@ def test_demo_outputs_speak_inch_pound(demo_us, capsys):
 def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
     """A sample of demo beams, designed one by one in inch-pound units by the per-member reference
     (every combination listed), against the engine's inch-pound design."""
-    import pyarrow.parquet as pq
-
-    from postproc import bench, engine, reference
+    from postproc import reference
     from postproc.settings import settings_from_dict
 
     _, _, _, _, run = demo_us
@@ -454,14 +452,7 @@ def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
     names = ["L2-SB-23", "L1-GX-B4a5", "L2-GY-4BC", "L3-GX-B34", "L5-GY-4BC", "R-GX-B23"]  # outside the moment frames
     members = run.members().to_pandas().set_index("member", drop=False)
     assert all(reference.covers(members.loc[m]) for m in names)
-    forces = pq.read_table(run.path / "forces", filters=[("member", "in", names)]).to_pandas()
-    cset, _ = engine.combination_set(run, run.manifest()["cases"], settings)
-    res = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
-    zones = pq.read_table(run.design_path / "zones.parquet").to_pandas()
-    for m in names:
-        row, z, winners = reference.design_member(members.loc[m], forces[forces.member == m], cset.names,
-                                                  cset.factors, cset.cases, settings)
-        bench.compare_with_reference(m, res.loc[m], row, z, winners, zones[zones.member == m])
+    equal_to_reference(run, names, settings)
 
 
 def test_compare_between_systems_compares_in_one(tmp_path, capsys):

@@ -12,9 +12,10 @@ import pyarrow.parquet as pq
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as hs
 
-from postproc import bench, cli, engine, explain, reference
+from postproc import cli, explain, reference
 from postproc.settings import Settings, settings_from_dict
 from postproc.store import Store
+from tests.conftest import equal_to_reference
 
 BEAM = dict(b_mm=300.0, h_mm=600.0, d_mm=540.0, fc_mpa=30.0, fyt_mpa=420.0, face_i_mm=0.0, face_j_mm=0.0)
 
@@ -190,18 +191,6 @@ def test_explain_names_the_combinations_loads_and_vc_equation(demo):
     assert "22.5.5.1(" in text and "Governing combination" in text
 
 
-def _reference_rows(run, names, settings):
-    members = run.members().to_pandas().set_index("member", drop=False)
-    forces = pq.read_table(run.path / "forces", filters=[("member", "in", list(names))]).to_pandas()
-    cset, _ = engine.combination_set(run, run.manifest()["cases"], settings)
-    res = pq.read_table(run.design_path / "members.parquet").to_pandas().set_index("member")
-    zones = pq.read_table(run.design_path / "zones.parquet").to_pandas()
-    for m in names:
-        row, z, winners = reference.design_member(members.loc[m], forces[forces.member == m], cset.names,
-                                                  cset.factors, cset.cases, settings)
-        bench.compare_with_reference(m, res.loc[m], row, z, winners, zones[zones.member == m])
-
-
 def test_demo_members_equal_the_brute_force_design(demo):
     """A sample of demo beams (interior girders with torsion, the transfer girder, beams with
     earthquake combinations) designed one by one over all 50 combinations listed one by one
@@ -214,7 +203,7 @@ def test_demo_members_equal_the_brute_force_design(demo):
     members = demo.members().to_pandas().set_index("member", drop=False)
     assert all(reference.covers(members.loc[m]) for m in names)
     assert not reference.covers(members.loc["L2-GY-1BC"])  # a perimeter girder: a special-frame beam, not covered
-    _reference_rows(demo, names, settings)
+    equal_to_reference(demo, names, settings)
 
 
 # --- random frames with basic load cases, patterns and both signs of lateral loads ---------------------
@@ -252,4 +241,4 @@ def test_random_frames_equal_the_brute_force_design(frame, tmp_path_factory):
     res = design(tmp_path_factory.mktemp("f"), members, forces, cases, extra=["--no-report"])
     assert res.code in (0, 3)
     run = Store(res.store).latest()
-    _reference_rows(run, [m["member"] for m in members], Settings())
+    equal_to_reference(run, [m["member"] for m in members], Settings())
