@@ -4,7 +4,7 @@
 (the kernels here wherever they exist; an error where numba cannot be imported), or
 ``auto`` (the default: the kernels for work of at least ``AUTO_CELLS`` cells where numba
 imports, numpy otherwise, so that small runs do not pay for importing and loading the
-compiled code). Both paths give the same bits: the kernels do the same comparisons of
+compiled code; once a process has loaded them, for work of at least ``LOADED_CELLS``). Both paths give the same bits: the kernels do the same comparisons of
 the same float64 numbers (no fast-math, no arithmetic of their own); tests check them
 against each other and against brute force.
 
@@ -22,6 +22,7 @@ import numpy as np
 ENV = "SHEARPOST_KERNELS"
 CHOICES = ("auto", "numpy", "compiled")
 AUTO_CELLS = 2_000_000  # entries x coordinates of one call from which "auto" takes the compiled kernel
+LOADED_CELLS = 10_000  # the same, once the kernels are loaded in this process (a call costs microseconds)
 
 _compiled = None  # the jitted functions, once loaded
 
@@ -41,7 +42,7 @@ def available() -> bool:
 def use_compiled(cells: int) -> bool:
     """Whether a call of ``cells`` entries x coordinates takes the compiled kernel."""
     how = choice()
-    if how == "numpy" or (how == "auto" and cells < AUTO_CELLS):
+    if how == "numpy" or (how == "auto" and cells < (LOADED_CELLS if _compiled else AUTO_CELLS)):
         return False
     return _load(required=how == "compiled") is not None
 

@@ -239,4 +239,9 @@ def test_kernel_choice_is_checked(monkeypatch):
     monkeypatch.setenv(kernels.ENV, "numpy")
     assert not kernels.use_compiled(10**9)  # the numpy path whatever the size
     monkeypatch.setenv(kernels.ENV, "auto")
+    monkeypatch.setattr(kernels, "_compiled", None)  # a process that has not loaded the kernels yet
     assert not kernels.use_compiled(kernels.AUTO_CELLS - 1)  # small work: numba is not even imported
+    assert kernels._compiled is None
+    if kernels.available():  # once loaded, smaller work takes them too (the same bits, fewer numpy passes)
+        assert kernels.use_compiled(kernels.LOADED_CELLS)
+        assert not kernels.use_compiled(kernels.LOADED_CELLS - 1)
