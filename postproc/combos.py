@@ -302,10 +302,26 @@ class Candidates:
 
     def names(self, cset: ComboSet, which: np.ndarray) -> np.ndarray:
         """Names of the candidates ``which`` (built once per distinct combination)."""
-        keys = np.column_stack([self.row[which], self.choice[which]]) if len(which) else np.zeros((0, 1), int)
-        uniq, inv = np.unique(keys, axis=0, return_inverse=True)
+        if not len(which):
+            return np.array([], dtype=object)
+        keys = np.column_stack([self.row[which], self.choice[which]])
+        uniq, inv = _unique_rows(keys)
         text = np.array([cset.rows[k[0]].name(k[1:1 + len(cset.rows[k[0]].terms)]) for k in uniq], dtype=object)
-        return text[inv.reshape(-1)] if len(which) else np.array([], dtype=object)
+        return text[inv]
+
+
+def _unique_rows(keys: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct rows of an integer array and the index of each row among them (as
+    ``np.unique(keys, axis=0, return_inverse=True)``, through one integer per row: mixed radix
+    over each column's range, row order kept)."""
+    lo = keys.min(axis=0)
+    radix = keys.max(axis=0) - lo + 1
+    if np.sum(np.log2(radix.astype(float))) >= 62:  # too many distinct values to pack in an int64
+        uniq, inv = np.unique(keys, axis=0, return_inverse=True)
+        return uniq, inv.reshape(-1)
+    weight = np.cumprod(np.r_[radix[1:], 1][::-1])[::-1]  # the first column most significant
+    _, first, inv = np.unique((keys - lo) @ weight, return_index=True, return_inverse=True)
+    return keys[first], inv.reshape(-1)
 
 
 def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
