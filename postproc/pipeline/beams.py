@@ -285,11 +285,14 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
             tie = np.where(prov.on[cs], np.where(cap.phi_vn > 0, p.vu / cap.phi_vn, 0.0), p.vu)
     else:
         pair_u, tie = p.shear_ratio, p.vu
-    if torsion_ratio is not None:
-        s_ = mb.sec.take(grid.member[cs])
-        tr = aci.torsion_section_ok(p.vu, p.tu, p.vc_hi, s_.fc, s_.b, s_.d, opt.Aoh[k_ref[grid.member[cs]],
-                                    grid.member[cs]], opt.ph[k_ref[grid.member[cs]], grid.member[cs]], u)
-        pair_u = np.maximum(pair_u, np.where(p.torsion & ~prov.on[cs], tr, 0.0))
+    if torsion_ratio is not None:  # the section limit with torsion (22.7.7.1), where no layout is provided
+        t_ = np.flatnonzero(p.torsion & ~prov.on[cs])
+        mt = grid.member[cs[t_]]
+        s_ = mb.sec.take(mt)
+        tr = aci.torsion_section_ok(p.vu[t_], p.tu[t_], p.vc_hi[t_], s_.fc, s_.b, s_.d, opt.Aoh[k_ref[mt], mt],
+                                    opt.ph[k_ref[mt], mt], u)
+        pair_u = pair_u.copy()
+        pair_u[t_] = np.maximum(pair_u[t_], tr)
     pair_u = np.where(reg.station[cs], 0.0, pair_u)
     gov_station = governing(pair_u, tie, cand.bounds)  # per station: its governing candidate
     station_util = pair_u[gov_station]
@@ -304,13 +307,20 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
             av_prov = np.where(prov.on & np.isfinite(prov.spacing), prov.legs * prov.area / prov.spacing, 0.0)
         has_min = (av_prov >= dem.av_min_s * (1 - 1e-9))[cs] & prov.on[cs]
     vc_used = np.where(has_min, p.vc_hi, np.where(prov.on[cs], p.vc_lo, p.vc_hi))
-    sec_p = mb.sec.take(grid.member[cs])
-    limit = aci.section_limit(p.vc_hi, sec_p.fc, sec_p.b, sec_p.d, u)
-    eq = _vc_equation(sec_p, p, has_min | ~prov.on[cs], fs.vc_zero[cs])
-    at_chosen = p.ata / opt.Aoh[k_ref[grid.member[cs]], grid.member[cs]]
-    al = aci.al_required(at_chosen, opt.ph[k_ref[grid.member[cs]], grid.member[cs]], sec_p.fyt, sec_p.fy,
-                         sec_p.fc, sec_p.Acp, sec_p.b, u)
-    al = np.where(p.torsion, al, 0.0)
+    # what is reported of a candidate, for the governing ones alone (of each station, then of each member)
+    shown = np.concatenate([gov_station, gov_member])
+    sec_p = mb.sec.take(grid.member[cs[shown]])
+    p_shown = demand.PairDemand(**{f: getattr(p, f)[shown] for f in demand.PairDemand.__dataclass_fields__})
+    limit = aci.section_limit(p_shown.vc_hi, sec_p.fc, sec_p.b, sec_p.d, u)
+    eq = _vc_equation(sec_p, p_shown, (has_min | ~prov.on[cs])[shown], fs.vc_zero[cs[shown]])
+    limit_station, limit_member = limit[:len(gov_station)], limit[len(gov_station):]
+    eq_station, eq_member = eq[:len(gov_station)], eq[len(gov_station):]
+    al = np.zeros(len(cs))  # Al where torsion is considered (22.7.6.1, 9.6.4.3)
+    t_ = np.flatnonzero(p.torsion)
+    mt = grid.member[cs[t_]]
+    s_ = mb.sec.take(mt)
+    al[t_] = aci.al_required(p.ata[t_] / opt.Aoh[k_ref[mt], mt], opt.ph[k_ref[mt], mt], s_.fyt, s_.fy, s_.fc, s_.Acp,
+                             s_.b, u)
     al_member = np.maximum.reduceat(al, member_bounds[:-1]) if len(al) else np.zeros(n)
 
     rows = []
@@ -323,11 +333,11 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         vu_design_i_kN=list(np.round(dem.vu_max[first_st] / per_force, 2)),
         vu_design_j_kN=list(np.round(dem.vu_max[last_st] / per_force, 2)),
         governing_case=list(name_member), phi_vc_kN=list(np.round(aci.PHI_SHEAR * vc_used[j] / per_force, 2)),
-        phi_vn_limit_kN=list(np.round(limit[j] / per_force, 2)),
+        phi_vn_limit_kN=list(np.round(limit_member / per_force, 2)),
         utilization=[round(v, 3) for v in pair_u[j].tolist()],
         x_governing_mm=[round(v, nd) for v in rs.x_clear[cs[j]].tolist()], vu_kN=list(np.round(p.vu[j] / per_force, 2)),
         nu_kN=list(np.round(p.nu[j] / per_force, 2)), tu_kNm=list(np.round(p.tu[j] / per_moment, 3)),
-        vc_equation=list(eq[j]),
+        vc_equation=list(eq_member),
         al_torsion_mm2=[round(v, area_nd) if v > 0 else None for v in al_member.tolist()])
     keys = list(member_values)
     needs_closed = (np.logical_or.reduceat(dem.torsion | fs.throughout, first_st) if n else np.zeros(0, bool))
@@ -391,10 +401,10 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
         "phi_vc_kN": aci.PHI_SHEAR * vc_used[g] / per_force,
         # phi*Vn of the combination with the largest Vu, so that it compares with vu_max
         "phi_vn_kN": np.where(on, cap.phi_vn[largest_v] if cap is not None else np.nan, np.nan) / per_force,
-        "phi_vn_limit_kN": limit[g] / per_force,
+        "phi_vn_limit_kN": limit_station / per_force,
         "avmin_threshold_kN": np.where(sec_st.avmin_exempt, aci.PHI_SHEAR * p.vc_lo[g],
                                        aci.av_min_threshold(sec_st.fc, sec_st.b, sec_st.d, sec_st.lam, u)) / per_force,
-        "vc_equation": pa.array(list(eq[g]), pa.string()),
+        "vc_equation": pa.array(list(eq_station), pa.string()),
         "av_s_req": p.av[g], "at_s_req": p.ata[g] / Aoh_st, "av_s_env": dem.av_env, "at_s_env": dem.ata_env / Aoh_st,
         "av_min_s": dem.av_min_s, "avmin_required": dem.minimum, "torsion": dem.torsion,
         "s_max_mm": np.minimum(np.where(dem.torsion, np.minimum(dem.s_max, aci.torsion_max_spacing(ph_st, u)), dem.s_max),
