@@ -321,7 +321,11 @@ def _design_chunk(mb, rs, dem, chunk, names, factors, settings: Settings, note, 
     per_station["phi_vn_deep"][sel] = np.where(on, stm_code.deep_beam_shear_limit(sec.fc[mc], sec.b[mc], g.d[mc], u),
                                                np.nan)
     per_station["av_req"][sel] = np.where(on, stm_code.deep_beam_min_distributed(sec.b[mc]), 0.0)
-    by_member = dict(tuple(models.groupby("member", sort=False)))
+    model_cols = models.to_dict("list")  # plain lists, each member's rows (one or two models) gathered below
+    rows_of: dict[str, list[int]] = {}
+    for i, name in enumerate(model_cols["member"]):
+        rows_of.setdefault(name, []).append(i)
+    by_member = {name: {k: [v[i] for i in at] for k, v in model_cols.items()} for name, at in rows_of.items()}
     recs = [SimpleNamespace(**rec) for rec in res.to_dict("records")]
     rows = [_summary_row(chunk[k], mb, recs[k], by_member[mb.names[chunk[k]]], whole[k], excess_share[k],
                          tension[:, k].max(initial=0.0), compression[k], lb_i[k], lb_j[k], full_i[k], full_j[k],
@@ -365,12 +369,12 @@ def _frame_excess(fs_i, fs_j, ra, rb, names, tolerance: float, U):
 
 
 def _summary_row(m, mb, r_m, mine, whole, excess, tension, compression, lb_i, lb_j, full_i, full_j, settings) -> dict:
-    """One modelled member: its method, the tie and web bars as text, and what was assumed."""
+    """One modelled member: its method, the tie and web bars as text, and what was assumed.
+    ``mine``: its models' columns as plain lists (a member has one or two models)."""
     g = mb.geo
     U = unit_system(settings)
     L, F, A = U.length, U.force, U.area
     nd = 0 if U.name == "si" else 1  # lengths in text: whole mm, in to 0.1
-    mine = {k: list(v) for k, v in mine.to_dict("list").items()}  # plain lists: a member has one or two models
     joined = not whole
     method = METHOD_JOINED if joined else METHOD_STM
     said = []
