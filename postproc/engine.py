@@ -73,8 +73,8 @@ def combination_set(run: Run, case_names: list[str], settings: Settings) -> tupl
 
 @dataclass
 class PartResult:
-    rows: list[dict]
-    zones: list[dict]
+    rows: pd.DataFrame  # members.csv rows (MEMBER_COLUMNS, SI-keyed): columns, not a dict per member
+    zones: pd.DataFrame  # zones.csv rows (ZONE_COLUMNS)
     warnings: list[str]
     members: set[str]  # every member id found in the part's forces
     stirrups: pd.DataFrame  # member, x_mm: every stirrup's position from face i
@@ -100,7 +100,7 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     warnings += chapter_18_warnings(members, cset)
     joints, joint_warnings = joints_mod.design_joints(members, settings)
     warnings += joint_warnings
-    rows: list[dict] = []
+    rows: list[dict] = []  # members not designed here (invalid, not covered, no forces, no geometry)
     reason = members["invalid_reason"] if "invalid_reason" in members else pd.Series(None, index=members.index)
     invalid = reason.notna() & (reason != "")
     for m, why in zip(members.loc[invalid, "member"], reason[invalid]):
@@ -114,7 +114,8 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
         if hasattr(family, "prepare"):
             designable = family.prepare(designable, settings)
 
-    zones: list[dict] = []
+    designed: list[pd.DataFrame] = []
+    zones: list[pd.DataFrame] = []
     stirrups: list[pd.DataFrame] = []
     tables: dict[str, list[pd.DataFrame]] = {}
     if stations_dir is not None:
@@ -125,8 +126,8 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
                              stations_dir=None if stations_dir is None else str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
     for t, part in zip(work, map_parts(task, work)):
-        rows.extend(part.rows)
-        zones.extend(part.zones)
+        designed.append(part.rows)
+        zones.append(part.zones)
         warnings.extend(part.warnings)
         seen |= part.members
         stirrups.append(part.stirrups)
@@ -140,18 +141,33 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     for m in designable["member"][~designable["member"].isin(seen)]:
         rows.append(row(m, "no-forces", "no rows in the forces table"))
 
-    out = pd.DataFrame(rows, columns=MEMBER_COLUMNS)
+    out = _joined([pd.DataFrame(rows, columns=MEMBER_COLUMNS), *designed], MEMBER_COLUMNS)
     warnings += columns_without_vb(out, designable)
-    out["_o"] = out["member"].map(lambda m: input_order.get(m, len(input_order)))
+    order = pd.Series(input_order, dtype=np.int64)
+    out["_o"] = out["member"].map(order).fillna(len(input_order)).astype(np.int64)
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
-    zdf = pd.DataFrame(zones, columns=ZONE_COLUMNS)
-    zdf = zdf.assign(_o=zdf["member"].map(input_order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
+    zdf = _joined(zones, ZONE_COLUMNS)
+    zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
     positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
         ZONE_COLUMNS)), cset, warnings, positions.rename(columns=U.rename(["x_mm"])),
         joints.rename(columns=U.rename(joints_mod.COLUMNS)), U,
         {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()}, stage_seconds)
+
+
+def _joined(frames: list[pd.DataFrame], columns: list[str]) -> pd.DataFrame:
+    """The parts' record tables as one, each column typed as if built from all the records at
+    once (a column that is empty in one part, or holds another type there, is read again from
+    its values)."""
+    frames = [f for f in frames if len(f)]
+    if not frames:
+        return pd.DataFrame(columns=columns)
+    out = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0].reset_index(drop=True)
+    for c in columns:
+        if out[c].dtype == object:
+            out[c] = pd.Series(out[c].tolist(), dtype=None)
+    return out
 
 
 def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
@@ -316,7 +332,9 @@ def design_part(task: Task | str, members: pd.DataFrame, cset: combos_mod.ComboS
     if timed:  # what no named step took: reading the part, cutting batches, gathering the outputs
         spent = stages.take()
         spent["other design"] = time.perf_counter() - started - sum(spent.values())
-    return PartResult([r for o in outputs for r in o.rows], [z for o in outputs for z in o.zones],
+    # the records travel as tables: one dict per member would be pickled and kept field by field
+    return PartResult(pd.DataFrame([r for o in outputs for r in o.rows], columns=MEMBER_COLUMNS),
+                      pd.DataFrame([z for o in outputs for z in o.zones], columns=ZONE_COLUMNS),
                       [w for o in outputs for w in o.warnings], seen, positions,
                       {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()}, spent)
 
