@@ -51,7 +51,6 @@ class Result:
     zones: pd.DataFrame  # zone_columns(units)
     combos: combos_mod.ComboSet
     warnings: list[str] = field(default_factory=list)
-    stirrups: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=["member", "x_mm"]))  # x_mm | x_in
     joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
     units: units.UnitSystem = units.SI
     tables: dict[str, pd.DataFrame] = field(default_factory=dict)  # families' own tables (strut-and-tie models)
@@ -82,14 +81,15 @@ class PartResult:
     stage_seconds: dict[str, float] = field(default_factory=dict)
 
 
-def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, map_parts=map,
-               progress=None, timed: bool = False) -> Result:
+def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progress=None, timed: bool = False) -> Result:
     """Design every member of a stored run, part by part (each part holds whole members).
 
     ``map_parts(fn, tasks)`` runs the tasks (the built-in map, or an engine's; its
     ``workers`` attribute, where it has one, sizes the tasks: ``design_tasks``); each
-    task's station trace is written to ``stations_dir`` by its worker, so a worker's memory
-    is bounded by the task size. The tables are named in the unit system of ``settings``.
+    task's station trace is written to ``folder``/stations by its worker, so a worker's memory
+    is bounded by the task size, and the stirrup positions of each task are appended to
+    ``folder``/stirrups.parquet as it comes (the largest table: it is never held whole). The
+    tables are named in the unit system of ``settings``.
     ``timed``: the seconds of each stage, in every process, are gathered into
     ``Result.stage_seconds`` (postproc.stages; `shearpost bench`).
     """
@@ -116,26 +116,32 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
 
     designed: list[pd.DataFrame] = []
     zones: list[pd.DataFrame] = []
-    stirrups: list[pd.DataFrame] = []
     tables: dict[str, list[pd.DataFrame]] = {}
-    if stations_dir is not None:
-        stations_dir.mkdir(exist_ok=True)
+    stations_dir = folder / "stations"
+    stations_dir.mkdir(exist_ok=True)
+    x_col = U.col("x_mm")
+    positions = pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
+                                                                        (x_col, pa.float64())]))
     work, seen = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
                               getattr(map_parts, "workers", 1))
     task = functools.partial(design_part, members=designable, cset=cset, settings=settings,
-                             stations_dir=None if stations_dir is None else str(stations_dir), timed=timed)
+                             stations_dir=str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
-    for t, part in zip(work, map_parts(task, work)):
-        designed.append(part.rows)
-        zones.append(part.zones)
-        warnings.extend(part.warnings)
-        seen |= part.members
-        stirrups.append(part.stirrups)
-        for name, df in part.tables.items():
-            tables.setdefault(name, []).append(df)
-        stages.merge(stage_seconds, part.stage_seconds)
-        if progress:
-            progress(1 / t.of)
+    with positions:  # each task's stirrups appended as it comes
+        for t, part in zip(work, map_parts(task, work)):
+            designed.append(part.rows)
+            zones.append(part.zones)
+            warnings.extend(part.warnings)
+            seen |= part.members
+            if len(part.stirrups):
+                positions.write_table(pa.table({
+                    "member": pa.array(part.stirrups["member"].astype(str), pa.large_string()),
+                    x_col: pa.array(part.stirrups["x_mm"].astype(float), pa.float64())}))
+            for name, df in part.tables.items():
+                tables.setdefault(name, []).append(df)
+            stages.merge(stage_seconds, part.stage_seconds)
+            if progress:
+                progress(1 / t.of)
     for m in sorted(seen - set(input_order)):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
     for m in designable["member"][~designable["member"].isin(seen)]:
@@ -148,11 +154,9 @@ def design_run(run: Run, settings: Settings, stations_dir: Path | None = None, m
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
     zdf = _joined(zones, ZONE_COLUMNS)
     zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
-    positions = pd.concat(stirrups, ignore_index=True) if stirrups else pd.DataFrame(columns=["member", "x_mm"])
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
-        ZONE_COLUMNS)), cset, warnings, positions.rename(columns=U.rename(["x_mm"])),
-        joints.rename(columns=U.rename(joints_mod.COLUMNS)), U,
+        ZONE_COLUMNS)), cset, warnings, joints.rename(columns=U.rename(joints_mod.COLUMNS)), U,
         {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()}, stage_seconds)
 
 
@@ -392,11 +396,9 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     """Design a run and write its design folder's contents into ``folder`` (a temporary
     folder the store renames into place): member results, zones, combinations, the
     per-station trace (stations/, one file per part) and a manifest."""
-    result = design_run(run, settings, folder / "stations", map_parts, progress, timed)
+    result = design_run(run, settings, folder, map_parts, progress, timed)  # writes stations/ and stirrups.parquet
     pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
-    pq.write_table(pa.Table.from_pandas(result.stirrups.astype({"member": str, result.units.col("x_mm"): float}),
-                                        preserve_index=False), folder / "stirrups.parquet")
     pq.write_table(pa.Table.from_pandas(result.joints.astype({result.units.col(c): t for c, t in
                                                               joints_mod.DTYPES.items()}), preserve_index=False),
                    folder / "joints.parquet")
