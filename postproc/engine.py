@@ -53,7 +53,6 @@ class Result:
     warnings: list[str] = field(default_factory=list)
     joints: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=joints_mod.COLUMNS))
     units: units.UnitSystem = units.SI
-    tables: dict[str, pd.DataFrame] = field(default_factory=dict)  # families' own tables (strut-and-tie models)
     stage_seconds: dict[str, float] = field(default_factory=dict)  # seconds by stage, summed over processes (timed only)
 
 
@@ -87,9 +86,10 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     ``map_parts(fn, tasks)`` runs the tasks (the built-in map, or an engine's; its
     ``workers`` attribute, where it has one, sizes the tasks: ``design_tasks``); each
     task's station trace is written to ``folder``/stations by its worker, so a worker's memory
-    is bounded by the task size, and the stirrup positions of each task are appended to
-    ``folder``/stirrups.parquet as it comes (the largest table: it is never held whole). The
-    tables are named in the unit system of ``settings``.
+    is bounded by the task size; the stirrup positions of each task are appended to
+    ``folder``/stirrups.parquet as it comes, and the families' own tables (strut-and-tie
+    models) to ``folder``/stm_<name>.parquet (``TableSpill``): none of them is held whole.
+    The tables are named in the unit system of ``settings``.
     ``timed``: the seconds of each stage, in every process, are gathered into
     ``Result.stage_seconds`` (postproc.stages; `shearpost bench`).
     """
@@ -116,7 +116,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
 
     designed: list[pd.DataFrame] = []
     zones: list[pd.DataFrame] = []
-    tables: dict[str, list[pd.DataFrame]] = {}
+    tables = TableSpill(folder / "stm-parts", {name: folder / f"stm_{name}.parquet" for name in deep_step.TABLES})
     stations_dir = folder / "stations"
     stations_dir.mkdir(exist_ok=True)
     x_col = U.col("x_mm")
@@ -138,10 +138,11 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
                     "member": pa.array(part.stirrups["member"].astype(str), pa.large_string()),
                     x_col: pa.array(part.stirrups["x_mm"].astype(float), pa.float64())}))
             for name, df in part.tables.items():
-                tables.setdefault(name, []).append(df)
+                tables.add(name, df)
             stages.merge(stage_seconds, part.stage_seconds)
             if progress:
                 progress(1 / t.of)
+    tables.write()
     for m in sorted(seen - set(input_order)):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
     for m in designable["member"][~designable["member"].isin(seen)]:
@@ -156,8 +157,41 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
-        ZONE_COLUMNS)), cset, warnings, joints.rename(columns=U.rename(joints_mod.COLUMNS)), U,
-        {name: pd.concat(dfs, ignore_index=True) for name, dfs in tables.items()}, stage_seconds)
+        ZONE_COLUMNS)), cset, warnings, joints.rename(columns=U.rename(joints_mod.COLUMNS)), U, stage_seconds)
+
+
+class TableSpill:
+    """Tables that arrive task by task and are written as one Parquet file each, never held
+    whole: each task's piece goes to a file of its own under ``folder``; ``write`` then
+    appends the pieces in order to the final file, each cast to the schema that unifies them
+    all (a column empty in one task and text in another is text), and removes ``folder``.
+    A table that never arrives is written empty, with a text ``member`` column."""
+
+    def __init__(self, folder: Path, targets: dict[str, Path]):
+        self.folder, self.targets, self.pieces = folder, targets, {name: [] for name in targets}
+
+    def add(self, name: str, df: pd.DataFrame) -> None:
+        if not len(df):
+            return
+        self.folder.mkdir(exist_ok=True)
+        path = self.folder / f"{name}-{len(self.pieces[name]):05d}.parquet"
+        pq.write_table(pa.Table.from_pandas(df, preserve_index=False), path)
+        self.pieces[name].append(path)
+
+    def write(self) -> None:
+        for name, target in self.targets.items():
+            pieces = self.pieces[name]
+            if not pieces:
+                empty = pd.DataFrame({"member": pd.Series([], dtype=str)})
+                pq.write_table(pa.Table.from_pandas(empty, preserve_index=False), target)
+                continue
+            schema = pa.unify_schemas([pq.read_schema(p) for p in pieces], promote_options="permissive")
+            with pq.ParquetWriter(target, schema) as out:
+                for p in pieces:
+                    out.write_table(pq.read_table(p).cast(schema))
+                    p.unlink()
+        if self.folder.exists():
+            self.folder.rmdir()
 
 
 def _joined(frames: list[pd.DataFrame], columns: list[str]) -> pd.DataFrame:
@@ -394,17 +428,15 @@ def batch_starts(members: pd.DataFrame, cset, settings: Settings) -> np.ndarray:
 
 def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progress=None, timed: bool = False) -> Result:
     """Design a run and write its design folder's contents into ``folder`` (a temporary
-    folder the store renames into place): member results, zones, combinations, the
-    per-station trace (stations/, one file per part) and a manifest."""
-    result = design_run(run, settings, folder, map_parts, progress, timed)  # writes stations/ and stirrups.parquet
+    folder the store renames into place): member results, zones, stirrups, joints, the
+    strut-and-tie models' tables, combinations and the per-station trace (stations/, one
+    file per task)."""
+    result = design_run(run, settings, folder, map_parts, progress, timed)  # writes stations/, stirrups, stm_*
     pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
     pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
     pq.write_table(pa.Table.from_pandas(result.joints.astype({result.units.col(c): t for c, t in
                                                               joints_mod.DTYPES.items()}), preserve_index=False),
                    folder / "joints.parquet")
-    for name in deep_step.TABLES:  # the strut-and-tie models' tables, one file each (empty when none)
-        df = result.tables.get(name, pd.DataFrame({"member": pd.Series([], dtype=str)}))
-        pq.write_table(pa.Table.from_pandas(df, preserve_index=False), folder / f"stm_{name}.parquet")
     try:  # every distinct combination with its factors, where they can be listed one by one
         names, factors = result.combos.explicit
     except ValueError:

@@ -156,3 +156,27 @@ def test_part_records_join_as_if_built_at_once():
         pieces = [records[a:b] for a, b in zip([0, *cuts], [*cuts, n])]
         joined = engine._joined([pd.DataFrame(p, columns=columns) for p in pieces], columns)
         pd.testing.assert_frame_equal(joined, whole)
+
+
+def test_table_spill_writes_the_pieces_as_one_table(tmp_path):
+    """The strut-and-tie tables arrive task by task and are written piece by piece: the file
+    holds what one table of all the pieces would hold (a column empty in one piece and text
+    or numbers in another takes the text or numbers), in order; nothing is left beside it."""
+    pieces = [pd.DataFrame({"member": ["A", "B"], "combination": [None, None], "force_kN": [1, 2],
+                            "clause": ["23.4.1", "23.7.2"]}),
+              pd.DataFrame({"member": [], "combination": [], "force_kN": [], "clause": []}),
+              pd.DataFrame({"member": ["C"], "combination": ["1.2D + 1.6L"], "force_kN": [2.5], "clause": [None]})]
+    spill = engine.TableSpill(tmp_path / "pieces", {"struts": tmp_path / "struts.parquet",
+                                                    "nodes": tmp_path / "nodes.parquet"})
+    for df in pieces:
+        spill.add("struts", df)
+    spill.write()
+    got = pq.read_table(tmp_path / "struts.parquet").to_pandas()
+    whole = pd.concat(pieces, ignore_index=True)
+    assert got["member"].tolist() == ["A", "B", "C"]
+    assert got["force_kN"].tolist() == [1.0, 2.0, 2.5]
+    assert got["combination"].isna().tolist() == whole["combination"].isna().tolist() == [True, True, False]
+    assert got["combination"].iloc[2] == "1.2D + 1.6L"
+    assert got["clause"].tolist()[:2] == ["23.4.1", "23.7.2"] and pd.isna(got["clause"].iloc[2])
+    assert pq.read_table(tmp_path / "nodes.parquet").num_rows == 0  # never arrived: written empty
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["nodes.parquet", "struts.parquet"]
