@@ -122,13 +122,12 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     x_col = U.col("x_mm")
     positions = pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
                                                                         (x_col, pa.float64())]))
-    work, seen = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
-                              getattr(map_parts, "workers", 1))
-    task = functools.partial(design_part, members=designable, cset=cset, settings=settings,
-                             stations_dir=str(stations_dir), timed=timed)
+    work, seen, members_of = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
+                                          getattr(map_parts, "workers", 1))
+    task = functools.partial(design_task, cset=cset, settings=settings, stations_dir=str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
     with positions:  # each task's stirrups appended as it comes
-        for t, part in zip(work, map_parts(task, work)):
+        for t, part in zip(work, map_parts(task, [(t, members_of[t.part]) for t in work])):
             designed.append(part.rows)
             zones.append(part.zones)
             warnings.extend(part.warnings)
@@ -265,8 +264,9 @@ PROCESS_BASE_MB = 320
 
 
 def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settings,
-                 workers: int = 1) -> tuple[list[Task], set[str]]:
-    """The design's tasks, and every member id found in the forces. Each stored part is cut,
+                 workers: int = 1) -> tuple[list[Task], set[str], dict[str, pd.DataFrame]]:
+    """The design's tasks, every member id found in the forces, and the rows of ``members``
+    in each part (a task travels with those alone). Each stored part is cut,
     family by family, at the starts of its batches (``batch_starts``: the results stay
     those of an uncut part to the last bit), into pieces of about equal rows, so that the
     pieces number a multiple of ``workers`` (no worker idles while another designs the last
@@ -276,11 +276,14 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
     cap = max(1.0, (settings.run.memory_mb - PROCESS_BASE_MB) * 2**20 / TASK_BYTES_PER_ROW)  # rows per task
     seen: set[str] = set()
     per_part = []  # (part, units: [(family, first id, last id, rows)])
+    members_of = {}
+    where = pd.Index(members["member"])
     for part in parts:
         counts = pac.value_counts(pq.read_table(part, columns=["member"]).column("member").combine_chunks())
         rows_of = dict(zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist()))
         seen.update(rows_of)
-        here = members[members["member"].isin(rows_of)]
+        at = where.get_indexer(list(rows_of))
+        here = members_of[part] = members.iloc[np.sort(at[at >= 0])].reset_index(drop=True)
         units_ = []
         for k, family in enumerate(FAMILIES):
             mine = here[here["kind"].isin(family.KINDS)].reset_index(drop=True)
@@ -294,7 +297,7 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
     total = sum(u[3] for _, us in per_part for u in us)
     part_rows = [sum(u[3] for u in us) for _, us in per_part]
     if workers == 1 and all(r <= cap for r in part_rows):
-        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], seen
+        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], seen, members_of
     pieces = [1] * len(per_part)
     for m in range(1, 64):  # the fewest pieces that number a multiple of the workers
         target = max(total / (m * workers), 1.0)
@@ -317,13 +320,19 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
         mine = [(us[a][0], us[a][1], us[b - 1][2]) for a, b in zip(first, [*first[1:], len(us)])]
         tasks += [Task(part, f, lo, hi, stem if j == 0 else f"{stem[:-len('.parquet')]}.t{j:04d}.parquet", len(mine))
                   for j, (f, lo, hi) in enumerate(mine)]
-    return tasks, seen
+    return tasks, seen, members_of
 
 
 def _pieces(batch_rows: np.ndarray, k: int) -> np.ndarray:
     """Piece of each batch, cutting a part's batches into k runs of about equal rows."""
     done = np.cumsum(batch_rows) - batch_rows  # rows before each batch
     return np.minimum(done * k // max(int(batch_rows.sum()), 1), k - 1)
+
+
+def design_task(item: tuple[Task, pd.DataFrame], **kw) -> PartResult:
+    """``design_part`` of a task and the members of its part, as ``design_tasks`` gives them."""
+    task, members = item
+    return design_part(task, members, **kw)
 
 
 def design_part(task: Task | str, members: pd.DataFrame, cset: combos_mod.ComboSet, settings: Settings,
