@@ -57,7 +57,10 @@ MEMORY_BYTES = 512 << 20  # forces files up to this size are partitioned in memo
 # resident bytes of the ingest per byte of CSV: held in Arrow, and while a block is validated
 # (measured on the synthetic frames: see README, performance); both bounds follow the memory setting
 ARROW_PER_CSV_BYTE = 3.0
-BLOCK_PER_MEMORY = 1 / 64  # CSV block size as a share of [run] memory_mb (a block takes about 14 times its size)
+# CSV block size as a share of [run] memory_mb: a block being validated takes about 14 times its size, and
+# pyarrow's streaming CSV reader reads raw blocks ahead in the background while one is validated (measured:
+# some 20 to 30 blocks in flight on a 2-core machine; 24 MB blocks held 700 MB), so blocks stay small
+BLOCK_PER_MEMORY = 1 / 256
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$")
 MANIFEST = "manifest.json"
 SEAL = "seal"  # key of the manifest's own sha256
