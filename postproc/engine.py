@@ -122,12 +122,12 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     x_col = U.col("x_mm")
     positions = pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
                                                                         (x_col, pa.float64())]))
-    work, seen, members_of = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
-                                          getattr(map_parts, "workers", 1))
+    work, seen, rows_of_part = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
+                                            getattr(map_parts, "workers", 1))
     task = functools.partial(design_task, cset=cset, settings=settings, stations_dir=str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
     with positions:  # each task's stirrups appended as it comes
-        for t, part in zip(work, map_parts(task, [(t, members_of[t.part]) for t in work])):
+        for t, part in zip(work, map_parts(task, _WithMembers(work, designable, rows_of_part))):
             designed.append(part.rows)
             zones.append(part.zones)
             warnings.extend(part.warnings)
@@ -148,11 +148,13 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
         rows.append(row(m, "no-forces", "no rows in the forces table"))
 
     out = _joined([pd.DataFrame(rows, columns=MEMBER_COLUMNS), *designed], MEMBER_COLUMNS)
+    designed.clear()  # the parts' tables, now joined: not held through the sort below
     warnings += columns_without_vb(out, designable)
     order = pd.Series(input_order, dtype=np.int64)
     out["_o"] = out["member"].map(order).fillna(len(input_order)).astype(np.int64)
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
     zdf = _joined(zones, ZONE_COLUMNS)
+    zones.clear()
     zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
@@ -264,9 +266,9 @@ PROCESS_BASE_MB = 320
 
 
 def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settings,
-                 workers: int = 1) -> tuple[list[Task], set[str], dict[str, pd.DataFrame]]:
-    """The design's tasks, every member id found in the forces, and the rows of ``members``
-    in each part (a task travels with those alone). Each stored part is cut,
+                 workers: int = 1) -> tuple[list[Task], set[str], dict[str, np.ndarray]]:
+    """The design's tasks, every member id found in the forces, and the positions in
+    ``members`` of each part's members (a task travels with those alone). Each stored part is cut,
     family by family, at the starts of its batches (``batch_starts``: the results stay
     those of an uncut part to the last bit), into pieces of about equal rows, so that the
     pieces number a multiple of ``workers`` (no worker idles while another designs the last
@@ -276,14 +278,15 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
     cap = max(1.0, (settings.run.memory_mb - PROCESS_BASE_MB) * 2**20 / TASK_BYTES_PER_ROW)  # rows per task
     seen: set[str] = set()
     per_part = []  # (part, units: [(family, first id, last id, rows)])
-    members_of = {}
+    rows_of_part = {}
     where = pd.Index(members["member"])
     for part in parts:
         counts = pac.value_counts(pq.read_table(part, columns=["member"]).column("member").combine_chunks())
         rows_of = dict(zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist()))
         seen.update(rows_of)
         at = where.get_indexer(list(rows_of))
-        here = members_of[part] = members.iloc[np.sort(at[at >= 0])].reset_index(drop=True)
+        rows_of_part[part] = np.sort(at[at >= 0])
+        here = members.iloc[rows_of_part[part]]
         units_ = []
         for k, family in enumerate(FAMILIES):
             mine = here[here["kind"].isin(family.KINDS)].reset_index(drop=True)
@@ -297,7 +300,7 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
     total = sum(u[3] for _, us in per_part for u in us)
     part_rows = [sum(u[3] for u in us) for _, us in per_part]
     if workers == 1 and all(r <= cap for r in part_rows):
-        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], seen, members_of
+        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], seen, rows_of_part
     pieces = [1] * len(per_part)
     for m in range(1, 64):  # the fewest pieces that number a multiple of the workers
         target = max(total / (m * workers), 1.0)
@@ -320,13 +323,28 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
         mine = [(us[a][0], us[a][1], us[b - 1][2]) for a, b in zip(first, [*first[1:], len(us)])]
         tasks += [Task(part, f, lo, hi, stem if j == 0 else f"{stem[:-len('.parquet')]}.t{j:04d}.parquet", len(mine))
                   for j, (f, lo, hi) in enumerate(mine)]
-    return tasks, seen, members_of
+    return tasks, seen, rows_of_part
 
 
 def _pieces(batch_rows: np.ndarray, k: int) -> np.ndarray:
     """Piece of each batch, cutting a part's batches into k runs of about equal rows."""
     done = np.cumsum(batch_rows) - batch_rows  # rows before each batch
     return np.minimum(done * k // max(int(batch_rows.sum()), 1), k - 1)
+
+
+class _WithMembers:
+    """Each task with the members of its part, the pair made as it is taken (the engine
+    sends a few ahead; the members' rows are not copied for every task at once)."""
+
+    def __init__(self, tasks: list[Task], members: pd.DataFrame, rows_of_part: dict[str, np.ndarray]):
+        self.tasks, self.members, self.rows_of_part = tasks, members, rows_of_part
+
+    def __len__(self) -> int:
+        return len(self.tasks)
+
+    def __iter__(self):
+        for t in self.tasks:
+            yield t, self.members.iloc[self.rows_of_part[t.part]].reset_index(drop=True)
 
 
 def design_task(item: tuple[Task, pd.DataFrame], **kw) -> PartResult:

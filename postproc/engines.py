@@ -12,7 +12,9 @@ session. dask.distributed workers get the same limit from dask's own worker envi
 
 from __future__ import annotations
 
+import itertools
 import multiprocessing as mp
+from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 
 from postproc import faults
@@ -39,12 +41,13 @@ def _worker_start(main_pid: int, main_started: float) -> None:
 def local(workers: int = 1):
     """Parts in this process (workers <= 1) or in that many worker processes. Workers
     ignore Ctrl-C, end themselves when the main process goes away, and are stopped at
-    once when anything fails or the caller stops early (postproc.faults)."""
+    once when anything fails or the caller stops early (postproc.faults). ``parts`` may be
+    a sized iterable whose items are made as they are taken: at most two per worker are
+    made and sent ahead of the results taken."""
 
     def run(fn, parts):
         from threadpoolctl import threadpool_limits
 
-        parts = list(parts)
         if workers <= 1 or len(parts) <= 1:
             with threadpool_limits(1):  # restored when the design is done
                 yield from map(fn, parts)
@@ -54,8 +57,14 @@ def local(workers: int = 1):
             ctx.set_forkserver_preload(PRELOAD)
         pool = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
                                    initializer=_worker_start, initargs=faults.main_identity())
+        items = iter(parts)
+        ahead = deque(pool.submit(fn, item) for item in itertools.islice(items, 2 * workers))
         try:
-            yield from pool.map(fn, parts)
+            while ahead:
+                done = ahead.popleft().result()
+                for item in itertools.islice(items, 1):
+                    ahead.append(pool.submit(fn, item))
+                yield done
         except BaseException:
             faults.terminate(pool)
             raise
