@@ -58,8 +58,8 @@ def local(workers: int = 1):
         pool = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
                                    initializer=_worker_start, initargs=faults.main_identity())
         items = iter(parts)
-        ahead = deque(pool.submit(fn, item) for item in itertools.islice(items, 2 * workers))
         try:
+            ahead = deque(pool.submit(fn, item) for item in itertools.islice(items, 2 * workers))
             while ahead:
                 done = ahead.popleft().result()
                 for item in itertools.islice(items, 1):
