@@ -120,13 +120,13 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     stations_dir = folder / "stations"
     stations_dir.mkdir(exist_ok=True)
     x_col = U.col("x_mm")
-    positions = pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
-                                                                        (x_col, pa.float64())]))
     work, seen, rows_of_part = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
                                             getattr(map_parts, "workers", 1))
     task = functools.partial(design_task, cset=cset, settings=settings, stations_dir=str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
-    with positions:  # each task's stirrups appended as it comes
+    with pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
+                                                                  (x_col, pa.float64())])) as positions:
+        # each task's stirrups appended as it comes
         for t, part in zip(work, map_parts(task, _WithMembers(work, designable, rows_of_part))):
             designed.append(part.rows)
             zones.append(part.zones)
@@ -189,7 +189,11 @@ class TableSpill:
             schema = pa.unify_schemas([pq.read_schema(p) for p in pieces], promote_options="permissive")
             with pq.ParquetWriter(target, schema) as out:
                 for p in pieces:
-                    out.write_table(pq.read_table(p).cast(schema))
+                    t = pq.read_table(p)
+                    for f in schema:  # a column a piece lacks is empty there, as pd.concat would leave it
+                        if f.name not in t.column_names:
+                            t = t.append_column(f.name, pa.nulls(t.num_rows, f.type))
+                    out.write_table(t.select(schema.names).cast(schema))
                     p.unlink()
         if self.folder.exists():
             self.folder.rmdir()
@@ -333,8 +337,10 @@ def _pieces(batch_rows: np.ndarray, k: int) -> np.ndarray:
 
 
 class _WithMembers:
-    """Each task with the members of its part, the pair made as it is taken (the engine
-    sends a few ahead; the members' rows are not copied for every task at once)."""
+    """Each task with the members it designs (those of its part; of a cut part, those of its
+    family from ``first`` to ``last``), the pair made as it is taken: the local engine makes
+    a few ahead of the results (engines.local), so the members' rows are not copied for
+    every task at once (a dask cluster takes them all at the start)."""
 
     def __init__(self, tasks: list[Task], members: pd.DataFrame, rows_of_part: dict[str, np.ndarray]):
         self.tasks, self.members, self.rows_of_part = tasks, members, rows_of_part
@@ -344,7 +350,11 @@ class _WithMembers:
 
     def __iter__(self):
         for t in self.tasks:
-            yield t, self.members.iloc[self.rows_of_part[t.part]].reset_index(drop=True)
+            mine = self.members.iloc[self.rows_of_part[t.part]]
+            if t.first is not None:  # the ids compare as the part's filter compares them (by code point)
+                ids = mine["member"]
+                mine = mine[(ids >= t.first) & (ids <= t.last) & mine["kind"].isin(FAMILIES[t.family].KINDS)]
+            yield t, mine.reset_index(drop=True)
 
 
 def design_task(item: tuple[Task, pd.DataFrame], **kw) -> PartResult:

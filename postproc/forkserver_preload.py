@@ -12,4 +12,7 @@ signal.signal(signal.SIGINT, signal.SIG_IGN)
 
 from postproc import kernels  # noqa: E402  (after the handler: loading takes a while)
 
-kernels.warm()
+try:  # only a head start: a worker loads the kernels itself, or takes the numpy path, if this fails
+    kernels.warm()
+except Exception:  # noqa: BLE001  (a fork server that fails here would fail every worker start)
+    pass

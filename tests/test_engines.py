@@ -170,7 +170,8 @@ def test_table_spill_writes_the_pieces_as_one_table(tmp_path):
     pieces = [pd.DataFrame({"member": ["A", "B"], "combination": [None, None], "force_kN": [1, 2],
                             "clause": ["23.4.1", "23.7.2"]}),
               pd.DataFrame({"member": [], "combination": [], "force_kN": [], "clause": []}),
-              pd.DataFrame({"member": ["C"], "combination": ["1.2D + 1.6L"], "force_kN": [2.5], "clause": [None]})]
+              pd.DataFrame({"member": ["C"], "combination": ["1.2D + 1.6L"], "force_kN": [2.5], "clause": [None]}),
+              pd.DataFrame({"force_kN": [4.0], "member": ["D"]})]  # columns missing and in another order
     spill = engine.TableSpill(tmp_path / "pieces", {"struts": tmp_path / "struts.parquet",
                                                     "nodes": tmp_path / "nodes.parquet"})
     for df in pieces:
@@ -178,10 +179,11 @@ def test_table_spill_writes_the_pieces_as_one_table(tmp_path):
     spill.write()
     got = pq.read_table(tmp_path / "struts.parquet").to_pandas()
     whole = pd.concat(pieces, ignore_index=True)
-    assert got["member"].tolist() == ["A", "B", "C"]
-    assert got["force_kN"].tolist() == [1.0, 2.0, 2.5]
-    assert got["combination"].isna().tolist() == whole["combination"].isna().tolist() == [True, True, False]
+    assert list(got.columns) == list(whole.columns) == ["member", "combination", "force_kN", "clause"]
+    assert got["member"].tolist() == ["A", "B", "C", "D"]
+    assert got["force_kN"].tolist() == [1.0, 2.0, 2.5, 4.0]
+    assert got["combination"].isna().tolist() == whole["combination"].isna().tolist() == [True, True, False, True]
     assert got["combination"].iloc[2] == "1.2D + 1.6L"
-    assert got["clause"].tolist()[:2] == ["23.4.1", "23.7.2"] and pd.isna(got["clause"].iloc[2])
+    assert got["clause"].tolist()[:2] == ["23.4.1", "23.7.2"] and got["clause"].iloc[2:].isna().all()
     assert pq.read_table(tmp_path / "nodes.parquet").num_rows == 0  # never arrived: written empty
     assert sorted(p.name for p in tmp_path.iterdir()) == ["nodes.parquet", "struts.parquet"]
