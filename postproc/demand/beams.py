@@ -11,7 +11,7 @@ Units are the run's (N, mm, MPa or lb, in, psi); the section carries the edition
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import numpy as np
 
@@ -99,6 +99,10 @@ class PairDemand:
     torsion: np.ndarray  # torsion considered, Tu >= phi Tth (22.7.4.1)
     minimum: np.ndarray  # Av,min (9.6.3.1) or the combined minimum (9.6.4.2) applies
     shear_ratio: np.ndarray  # Vu / phi (Vc + 0.66 sqrt(f'c) bw d) (22.5.1.2)
+
+    def take(self, idx: np.ndarray) -> PairDemand:
+        """The candidates ``idx``, every array gathered."""
+        return PairDemand(**{f.name: getattr(self, f.name)[idx] for f in fields(self)})
 
 
 @dataclass(frozen=True)

@@ -310,7 +310,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     # what is reported of a candidate, for the governing ones alone (of each station, then of each member)
     shown = np.concatenate([gov_station, gov_member])
     sec_p = mb.sec.take(grid.member[cs[shown]])
-    p_shown = demand.PairDemand(**{f: getattr(p, f)[shown] for f in demand.PairDemand.__dataclass_fields__})
+    p_shown = p.take(shown)
     limit = aci.section_limit(p_shown.vc_hi, sec_p.fc, sec_p.b, sec_p.d, u)
     eq = _vc_equation(sec_p, p_shown, (has_min | ~prov.on[cs])[shown], fs.vc_zero[cs[shown]])
     limit_station, limit_member = limit[:len(gov_station)], limit[len(gov_station):]
