@@ -491,8 +491,8 @@ def zones_from_positions(x: np.ndarray, clear_span: float, empty: list[tuple[flo
     Runs of equal gaps are zones; where two runs meet, the stirrup between them belongs
     to the tighter one; a lone gap between two runs (a transition) belongs to neither,
     so each zone is "count stirrups from start to end at spacing". Spans left without
-    stirrups on purpose are zones of count 0. Gaps closer than ``same_gap`` (0.5 mm, or
-    the inch-pound settings' 0.02 in) are equal."""
+    stirrups on purpose are zones of count 0. Gaps closer than ``same_gap`` (0.15 mm, or
+    the inch-pound settings' 0.005 in: the rounding of two positions) are equal."""
     n = len(x)
     if not n:
         return [detailing.Zone(0.0, clear_span, np.nan, 0)]

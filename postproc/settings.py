@@ -206,10 +206,11 @@ class Detailing:
     open_hook_deg: int = 90
 
     # set-out resolution (common practice): positions kept to 0.1 mm; the middle run's end
-    # gaps split on whole millimetres; gaps closer than 0.5 mm are one zone; 0.05 mm slack
+    # gaps split on whole millimetres; gaps that differ by no more than the rounding of two
+    # positions (0.1 mm) are one zone, so that count x spacing spans a zone exactly; 0.05 mm slack
     position_decimals: ClassVar[int] = 1
     setout_step: ClassVar[float] = 1.0
-    same_gap: ClassVar[float] = 0.5
+    same_gap: ClassVar[float] = 0.15
     gap_slack: ClassVar[float] = 0.05
 
     @property
@@ -251,10 +252,11 @@ class DetailingUS:
     stirrup_shape: str = "closed"
     open_hook_deg: int = 90
 
-    # positions kept to 0.001 in; the middle run's end gaps split on 1/8 in (common practice)
+    # positions kept to 0.001 in; the middle run's end gaps split on 1/8 in (common practice);
+    # gaps within the rounding of two positions (0.002 in) are one zone
     position_decimals: ClassVar[int] = 3
     setout_step: ClassVar[float] = 0.125
-    same_gap: ClassVar[float] = 0.02
+    same_gap: ClassVar[float] = 0.005
     gap_slack: ClassVar[float] = 0.002
 
     @property
