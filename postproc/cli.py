@@ -475,7 +475,7 @@ def inch_pound_demo_inputs(members: Path, forces: Path, out: Path) -> tuple[Path
 
 def cmd_design(args) -> int:
     """`run` and `demo`: ingest, design, write the tables and the report, summarise."""
-    from postproc import api, engines, export, report
+    from postproc import api, engines, export, memory, report
     from postproc.adapters.errors import InputError
     from postproc.settings import load_settings
     from postproc.store import DamagedRun, Store, StoreError
@@ -533,14 +533,16 @@ def cmd_design(args) -> int:
         _error(f"error: {exc}")
         return EXIT_USAGE
     args.state.update(run=run.name)
-    with report.progress_bars(show_progress) as task:
-        export.write_outputs(run, args.out, not args.no_report,
-                             None if args.no_report else task("writing report.html", 1))
-    args.state.update(written=True, out=str(args.out))
     doc = report.summary(result, run.name, args.out)
     doc["report"] = None if args.no_report else str(args.out / "report.html")
     why = api.nothing_designed(result.members)
     doc["nothing_designed"] = why
+    del result  # the outputs are written from the stored run: its tables are not held twice
+    memory.release()
+    with report.progress_bars(show_progress) as task:
+        export.write_outputs(run, args.out, not args.no_report,
+                             None if args.no_report else task("writing report.html", 1))
+    args.state.update(written=True, out=str(args.out))
     if args.json:
         print(report.dump_json(doc))
     else:

@@ -19,7 +19,7 @@ import pyarrow.parquet as pq
 
 from postproc import combos as combos_mod
 from postproc import joints as joints_mod
-from postproc import stages
+from postproc import memory, stages
 from postproc import units
 from postproc.codes import aci318_19 as aci
 from postproc.settings import Settings
@@ -142,6 +142,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
             if progress:
                 progress(1 / t.of)
     tables.write()
+    memory.release()  # what the tasks' results took on their way in
     for m in sorted(seen - set(input_order)):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
     for m in designable["member"][~designable["member"].isin(seen)]:
@@ -153,9 +154,11 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     order = pd.Series(input_order, dtype=np.int64)
     out["_o"] = out["member"].map(order).fillna(len(input_order)).astype(np.int64)
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
+    memory.release()
     zdf = _joined(zones, ZONE_COLUMNS)
     zones.clear()
     zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
+    memory.release()
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
     return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
         ZONE_COLUMNS)), cset, warnings, joints.rename(columns=U.rename(joints_mod.COLUMNS)), U, stage_seconds)
@@ -469,8 +472,8 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
     strut-and-tie models' tables, combinations and the per-station trace (stations/, one
     file per task)."""
     result = design_run(run, settings, folder, map_parts, progress, timed)  # writes stations/, stirrups, stm_*
-    pq.write_table(pa.Table.from_pandas(result.members, preserve_index=False), folder / "members.parquet")
-    pq.write_table(pa.Table.from_pandas(result.zones, preserve_index=False), folder / "zones.parquet")
+    write_parquet(result.members, folder / "members.parquet")
+    write_parquet(result.zones, folder / "zones.parquet")
     pq.write_table(pa.Table.from_pandas(result.joints.astype({result.units.col(c): t for c, t in
                                                               joints_mod.DTYPES.items()}), preserve_index=False),
                    folder / "joints.parquet")
@@ -482,6 +485,15 @@ def design_into(run: Run, settings: Settings, folder: Path, map_parts=map, progr
                              **{c: factors[:, k] for k, c in enumerate(result.combos.cases)}}),
                    folder / "combinations.parquet")
     return result
+
+
+def write_parquet(df: pd.DataFrame, path: Path, rows: int = 65_536) -> None:
+    """A DataFrame as Parquet, converted a slice of ``rows`` at a time under the schema of the
+    whole frame (the table is never held twice: once in pandas, once in Arrow)."""
+    schema = pa.Schema.from_pandas(df, preserve_index=False)
+    with pq.ParquetWriter(path, schema) as writer:
+        for start in range(0, max(len(df), 1), rows):
+            writer.write_table(pa.Table.from_pandas(df.iloc[start:start + rows], schema=schema, preserve_index=False))
 
 
 def design_manifest(result: Result, settings: Settings) -> dict:

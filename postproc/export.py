@@ -15,7 +15,7 @@ import os
 import uuid
 from pathlib import Path
 
-from postproc import html_report, locks, report
+from postproc import html_report, locks, memory, report
 from postproc.store import Run, Store
 
 OUTPUTS = ("members.csv", "zones.csv", "joints.csv", "report.html")
@@ -78,6 +78,8 @@ def write_outputs(run: Run, out: Path, with_report: bool = True, progress=None) 
                 staged[name] = (out / f".{name}.{tag}.tmp", out / name)
             report.write_tables(members, zones, out, {n: staged[n][0].name for n in names if n.endswith(".csv")},
                                 joints if has_joints else None)
+            del members, zones
+            memory.release()  # before the report reads the run again
             if with_report:
                 html_report.write_html_report(run, staged["report.html"][0])
                 if progress:

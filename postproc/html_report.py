@@ -28,7 +28,7 @@ import pyarrow as pa
 import pyarrow.compute as pac
 from markupsafe import Markup
 
-from postproc import units
+from postproc import memory, units
 from postproc.govern import rank_order, status_place
 from postproc.pipeline import deep as deep_step
 from postproc.report import CAUTION, write_atomic
@@ -46,6 +46,10 @@ VB_SERIES = {"vu_max_kN": "vb_max_kN", "phi_vc_kN": "phi_vc_vb_kN", "phi_vn_kN":
              "phi_vn_limit_kN": "phi_vn_limit_vb_kN", "avmin_threshold_kN": "avmin_threshold_vb_kN",
              "ve_kN": "ve_vb_kN"}  # SI names; read as the run's (units.UnitSystem.cols)
 COORDS = ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]
+# the design columns the index, the overview and the ranking read for every member; a drawn member's
+# section reads its whole row (_Data.records)
+SUMMARY_COLUMNS = ["member", "status", "utilization", "governing_case", "stirrups_total", "stirrup_mass_kg",
+                   "message"]
 # Utilization bands of the overview: upper limits of bands 0-3; band 4 is above 1.0 (resize).
 BANDS = (0.5, 0.8, 0.95, 1.0)
 BAND_LABELS = ("\u2264 0.5", "0.5\u20130.8", "0.8\u20130.95", "0.95\u20131.0", "> 1.0")
@@ -83,20 +87,21 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
         data.compact = limit
         detail = detail[:limit]
     linked = set(detail)
-    page = _template().render(**_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
-                              joints=_joint_rows(data, linked),
-                              details=Markup(_details(data, detail)), defs=Markup(_legend_defs() + _pattern_defs()),
-                              needs_action=NEEDS_ACTION, caution=CAUTION, mass_unit=data.U.mass,
-                              mass_word=data.U.mass_word, force_unit=data.U.force)
-    return write_atomic(Path(out_path), lambda fh: fh.write(page))
+    pieces = _template().generate(  # streamed to the file: the page of a large run is never held whole
+        **_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
+        joints=_joint_rows(data, linked), details=Markup(_details(data, detail)),
+        defs=Markup(_legend_defs() + _pattern_defs()), needs_action=NEEDS_ACTION, caution=CAUTION,
+        mass_unit=data.U.mass, mass_word=data.U.mass_word, force_unit=data.U.force)
+    return write_atomic(Path(out_path), lambda fh: fh.writelines(pieces))
 
 
 class _Data:
     """The design tables joined with the input geometry; member k of ``m`` has code k."""
 
-    def __init__(self, run: Run, m: pd.DataFrame, zones: pd.DataFrame, design_manifest: dict, combinations: int,
+    def __init__(self, run: Run, m: pd.DataFrame, design_manifest: dict, combinations: int,
                  joints: pd.DataFrame | None = None):
-        self.run, self.m, self.zones = run, m, zones
+        self.run, self.m = run, m
+        self.zones = pd.DataFrame()  # of the members drawn only (``load_zones``)
         self.joints = pd.DataFrame() if joints is None else joints
         self.U = run.units
         self.manifest, self.design_manifest, self.combinations = run.manifest(), design_manifest, combinations
@@ -105,12 +110,13 @@ class _Data:
 
     @classmethod
     def load(cls, run: Run) -> _Data:
-        dm = units.si_keyed(run.table("design/members.parquet").to_pandas())
-        geo = units.si_keyed(run.members().to_pandas())
+        dm = units.si_keyed(run.table("design/members.parquet", columns=run.units.cols(SUMMARY_COLUMNS)).to_pandas())
         keep = ["member", "kind", "level", "group", "length_m", "b_mm", "h_mm", "d_mm", "fc_mpa", "fyt_mpa",
                 "support_i", "support_j", "face_i_mm", "face_j_mm", *COORDS, "diameter_mm", "frame", "db_long_mm",
                 "n_long"]
-        m = dm.merge(geo.reindex(columns=keep), on="member", how="left")
+        geo = units.si_keyed(run.table("members.parquet", columns=run.units.cols(keep)).to_pandas())
+        m = dm.merge(geo, on="member", how="left")
+        del dm, geo
         m["h_mm"] = m["h_mm"].fillna(m["diameter_mm"])  # a circular column: its diameter across both ways
         m["b_mm"] = m["b_mm"].fillna(m["diameter_mm"])
         m["clear_mm"] = m["length_m"] * run.units.per_span - m["face_i_mm"].fillna(0) - m["face_j_mm"].fillna(0)
@@ -121,12 +127,28 @@ class _Data:
         order[rank_order(m)] = np.arange(len(m))
         m["order"] = order  # place in the review order of `shearpost govern`: needing action first
         m["band"] = utilization_band(m["utilization"].to_numpy(float), m["status"].to_numpy(object))
-        zones = units.si_keyed(run.table("design/zones.parquet").to_pandas())
         manifest = run.design_manifest()
         combos = run.table("design/combinations.parquet").num_rows
         joints = units.si_keyed(run.table("design/joints.parquet").to_pandas()) \
             if "design/joints.parquet" in run.files() else None
-        return cls(run, m, zones, manifest, combos, joints)
+        memory.release()
+        return cls(run, m, manifest, combos, joints)
+
+    def _of(self, codes: list[int]) -> list | None:
+        """A Parquet filter on the given members' rows (None where they are all the members)."""
+        return [("member", "in", [str(self.m["member"].iat[k]) for k in codes])] if len(codes) < len(self.m) else None
+
+    def load_zones(self, codes: list[int]) -> None:
+        """The zones of the given members (those drawn; all of them in a full report)."""
+        self.zones = units.si_keyed(self.run.table("design/zones.parquet", filters=self._of(codes)).to_pandas())
+
+    def records(self, codes: list[int]) -> dict[int, dict]:
+        """The whole design row of each given member (``m`` holds the summary columns only),
+        with its geometry, by code."""
+        full = units.si_keyed(self.run.table("design/members.parquet", filters=self._of(codes)).to_pandas())
+        rows = self.m.iloc[codes].drop(columns=[c for c in SUMMARY_COLUMNS if c != "member"])
+        rows = full.merge(rows.assign(_code=rows.index), on="member", how="right")
+        return {int(k): r for k, r in zip(rows.pop("_code"), rows.to_dict("records"))}
 
     def detail_codes(self, members: list[str] | None) -> list[int]:
         """Codes of the members that get a detail section, in the default order."""
@@ -145,9 +167,8 @@ class _Data:
         """The station trace of the given members as arrays, grouped by code, in station order."""
         if not self.run.listed_under("design/stations"):  # one file per part; none when no member was designed
             return {**{c: np.zeros(0) for c in STATION_COLUMNS[1:]}, "code": np.zeros(0, np.int64)}
-        some = len(codes) < len(self.m)  # a compact report or a page on demand: only those members' rows are kept
-        where = [("member", "in", [str(self.m["member"].iat[k]) for k in codes])] if some else None
-        t = self.run.table("design/stations", columns=self.U.cols(STATION_COLUMNS), filters=where)
+        # a compact report or a page on demand: only those members' rows are kept
+        t = self.run.table("design/stations", columns=self.U.cols(STATION_COLUMNS), filters=self._of(codes))
         t = t.rename_columns(STATION_COLUMNS)
         names = pa.array([str(v) for v in self.m["member"]], pa.string())
         code = pac.index_in(t.column("member"), value_set=names).fill_null(-1).to_numpy().astype(np.int64)
@@ -224,16 +245,17 @@ def _joint_rows(data: _Data, linked: set[int]) -> list[dict]:
                  message="" if not _given(r.message) else r.message) for r in j.itertuples()]
 
 
-def _index_rows(data: _Data, linked: set[int]) -> list[dict]:
+def _index_rows(data: _Data, linked: set[int]):
+    """The index, a row at a time (the template consumes it once, as the page is written)."""
     m = data.m.sort_values("order")
     util = m["utilization"].map(lambda u: "" if pd.isna(u) else f"{u:.3f}")
     mass = m["stirrup_mass_kg"].map(lambda v: "" if pd.isna(v) else f"{v:.1f}")
     sets = m["stirrups_total"].fillna(0).astype(int)
-    return [dict(member=name, anchor=anchor, linked=k in linked, level=lvl, group=grp, status=status,
+    return (dict(member=name, anchor=anchor, linked=k in linked, level=lvl, group=grp, status=status,
                  place=int(place), act=status in NEEDS_ACTION, utilization=u, governing=gov, sets=n, mass=kg)
             for k, name, anchor, status, place, u, gov, lvl, grp, n, kg in zip(
                 m.index, m["member"], m["anchor"], m["status"], m["place"], util, m["governing_case"], m["level"],
-                m["group"], sets, mass)]
+                m["group"], sets, mass))
 
 
 # ----------------------------------------------------------------------------- colours and numbers
@@ -325,6 +347,7 @@ def _details(data: _Data, codes: list[int]) -> str:
                  f"{_text(data.run.name)} --member ID --out ID.html</code> writes any member&rsquo;s section.</p>")
     if not codes:
         return f'<section id="members"><h2>Members</h2>{note}</section>'
+    data.load_zones(codes)
     st = data.stations(codes)
     drawn = _Drawings(data, st, codes)
     columns = [k for k in codes if data.m["kind"].iat[k] == "column"]
@@ -336,7 +359,7 @@ def _details(data: _Data, codes: list[int]) -> str:
                  "clear height from the bottom face; its elevation lies on its side under them, the end zones lo "
                  "shaded. Each &phi;Vn is that direction's alone; the ties satisfy both together by the "
                  "interaction of 22.5.1.10 and 22.5.1.11.</p>")
-    records = dict(zip(codes, data.m.iloc[codes].to_dict("records")))  # the drawn members' rows only
+    records = data.records(codes)  # the drawn members' rows only
     trusses = _trusses(data, codes, records)
     parts = [f'<section id="members"><h2>Members</h2>{note}']
     for k in codes:

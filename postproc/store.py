@@ -46,7 +46,7 @@ import pyarrow.parquet as pq
 
 from postproc.adapters import digests
 from postproc.adapters.csv_tables import sort_part
-from postproc import __version__, locks
+from postproc import __version__, locks, memory
 from postproc import units as unit_systems
 from postproc.codes import aci318_19
 
@@ -472,6 +472,7 @@ class Store:
             }
             _write_json(tmp / MANIFEST, manifest)
             if then is not None:
+                memory.release()  # the ingest's buffers, kept by the allocators, before the design starts
                 then(Run(tmp, staged=True))
             seal_folder(tmp, skip=SEALED_FOLDERS)
 
