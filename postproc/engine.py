@@ -113,6 +113,8 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     for family in FAMILIES:  # what a family needs from the whole table (a column's joints: the beams there)
         if hasattr(family, "prepare"):
             designable = family.prepare(designable, settings)
+    del members, reason, invalid, covered  # the whole table: designable holds what the tasks need
+    memory.release()
 
     designed: list[pd.DataFrame] = []
     zones: list[pd.DataFrame] = []
@@ -142,7 +144,8 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
             if progress:
                 progress(1 / t.of)
     tables.write()
-    memory.release()  # what the tasks' results took on their way in
+    designable = designable[["member", "kind"]]  # all the rest is needed no more (columns_without_vb)
+    memory.release()  # with what the tasks' results took on their way in
     for m in sorted(seen - set(input_order)):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
     for m in designable["member"][~designable["member"].isin(seen)]:

@@ -49,11 +49,19 @@ def workers_of(proc: subprocess.Popen, n: int = 2, timeout: float = 60) -> tuple
         assert proc.poll() is None, f"the run ended first: {proc.stderr.read().decode()[-600:]}"
         kids = psutil.Process(proc.pid).children(recursive=True)
         servers = [k for k in kids if "forkserver" in " ".join(_cmdline(k))]
-        workers = [k for k in kids if servers and k.ppid() == servers[0].pid]
+        workers = [k for k in kids if servers and _ppid(k) == servers[0].pid]
         if len(workers) >= n:
             return workers, kids
         time.sleep(0.02)
     raise AssertionError("the workers never started")
+
+
+def _ppid(p: psutil.Process) -> int | None:
+    """The parent's pid, None for a process that ended since it was listed (a short-lived child)."""
+    try:
+        return p.ppid()
+    except psutil.NoSuchProcess:
+        return None
 
 
 def _cmdline(p: psutil.Process) -> list[str]:
