@@ -96,7 +96,8 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
 
 
 class _Data:
-    """The design tables joined with the input geometry; member k of ``m`` has code k."""
+    """The design's summary columns (``SUMMARY_COLUMNS``) joined with the input geometry; member k
+    of ``m`` has code k. A drawn member's whole row and zones are read for it alone."""
 
     def __init__(self, run: Run, m: pd.DataFrame, design_manifest: dict, combinations: int,
                  joints: pd.DataFrame | None = None):
