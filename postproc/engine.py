@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import functools
 import math
+import pickle
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -117,7 +118,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     memory.release()
 
     designed: list[pd.DataFrame] = []
-    zones: list[pd.DataFrame] = []
+    zone_spill = folder / "zones-parts.pickle"  # the tasks' zone rows wait on disk until the members' are joined
     tables = TableSpill(folder / "stm-parts", {name: folder / f"stm_{name}.parquet" for name in deep_step.TABLES})
     stations_dir = folder / "stations"
     stations_dir.mkdir(exist_ok=True)
@@ -127,11 +128,12 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     task = functools.partial(design_task, cset=cset, settings=settings, stations_dir=str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
     with pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
-                                                                  (x_col, pa.float64())])) as positions:
+                                                                  (x_col, pa.float64())])) as positions, \
+            open(zone_spill, "wb") as zone_file:
         # each task's stirrups appended as it comes
         for t, part in zip(work, map_parts(task, _WithMembers(work, designable, rows_of_part))):
             designed.append(part.rows)
-            zones.append(part.zones)
+            pickle.dump(part.zones, zone_file, pickle.HIGHEST_PROTOCOL)  # this process's own, read back below
             warnings.extend(part.warnings)
             seen |= part.members
             if len(part.stirrups):
@@ -158,6 +160,9 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     out["_o"] = out["member"].map(order).fillna(len(input_order)).astype(np.int64)
     out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
     memory.release()
+    with open(zone_spill, "rb") as zone_file:
+        zones = [pickle.load(zone_file) for _ in work]
+    zone_spill.unlink()
     zdf = _joined(zones, ZONE_COLUMNS)
     zones.clear()
     zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
