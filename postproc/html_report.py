@@ -87,7 +87,7 @@ def write_html_report(run: Run, out_path: Path, members: list[str] | None = None
         data.compact = limit
         detail = detail[:limit]
     linked = set(detail)
-    pieces = _template().generate(  # streamed to the file: the page of a large run is never held whole
+    pieces = _template().generate(  # streamed to the file: the index of a large run is never held whole
         **_header(data, linked), rows=_index_rows(data, linked), **_overview(data, linked),
         joints=_joint_rows(data, linked), details=Markup(_details(data, detail)),
         defs=Markup(_legend_defs() + _pattern_defs()), needs_action=NEEDS_ACTION, caution=CAUTION,

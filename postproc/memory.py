@@ -11,7 +11,6 @@ each stage rather than their sum.
 from __future__ import annotations
 
 import ctypes
-import ctypes.util
 import sys
 
 import pyarrow as pa
@@ -22,8 +21,8 @@ def _glibc_trim():
     Windows return freed memory through their own allocators)."""
     if not sys.platform.startswith("linux"):
         return None
-    try:
-        return ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6").malloc_trim
+    try:  # the process's own symbols: ctypes.util.find_library would start ldconfig at every import
+        return ctypes.CDLL(None).malloc_trim
     except (OSError, AttributeError):  # musl and other C libraries have no malloc_trim
         return None
 

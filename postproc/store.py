@@ -199,8 +199,14 @@ class Run:
         parts = []
         for n in names:  # parts of different families may hold different columns: a missing one reads as null
             data = self.read_bytes(n)
-            have = None if columns is None else [c for c in columns if c in pq.read_schema(pa.BufferReader(data)).names]
-            t = pq.read_table(pa.BufferReader(data), columns=have, filters=filters)
+            schema = pq.read_schema(pa.BufferReader(data))
+            have = None if columns is None else [c for c in columns if c in schema.names]
+            if filters and any(c in schema.names and pa.types.is_null(schema.field(c).type) for c, *_ in filters):
+                # a column without a value (a table written empty from pandas): no row can match, and Arrow
+                # refuses to compare it with the filter's values
+                t = pq.read_table(pa.BufferReader(data), columns=have).slice(0, 0)
+            else:
+                t = pq.read_table(pa.BufferReader(data), columns=have, filters=filters)
             for c in [] if columns is None else [c for c in columns if c not in t.column_names]:
                 t = t.append_column(c, pa.nulls(t.num_rows, pa.float64()))
             parts.append(t if columns is None else t.select(columns))

@@ -157,6 +157,18 @@ def test_a_run_that_designs_nothing_exits_1_and_says_why(tmp_path, capsys):
     assert "'B-1'" in captured.err and "'frame_7'" in captured.err  # what the ids of each side look like
     assert (tmp_path / "out" / "report.html").exists()  # the report does not crash on it
     assert "Needs action: 4 members" in (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    # a compact report (fewer detail sections than members) and one member's page read the drawn members'
+    # zones alone: the run has none, and its empty zones table must not break the filtered read
+    (tmp_path / "compact.toml").write_text("[report]\ndetail_sections = 1\n", encoding="utf-8")
+    code = cli.main(["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]), "--config",
+                     str(tmp_path / "compact.toml"), "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out3")])
+    captured = capsys.readouterr()
+    assert code == cli.EXIT_INPUT and "no member was designed" in captured.err
+    assert "A compact report" in (tmp_path / "out3" / "report.html").read_text(encoding="utf-8")
+    code = cli.main(["report", "--store", str(tmp_path / "store"), "--member", "B-1", "--out",
+                     str(tmp_path / "B-1.html")])
+    assert code == cli.EXIT_OK and "B-1" in (tmp_path / "B-1.html").read_text(encoding="utf-8")
+    capsys.readouterr()
     columns_only = write_inputs(tmp_path / "cols", [{**beam("C1", 3.0), "kind": "column"}],
                                 rows_from_function("C1", "U", 3.0, lambda x: 10.0, n=3))
     code = cli.main(["run", "--members", str(columns_only["members"]), "--forces", str(columns_only["forces"]),

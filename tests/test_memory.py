@@ -9,7 +9,7 @@ from postproc import memory
 
 
 def test_release_runs_on_every_platform():
-    memory.release()  # macOS and Windows: garbage collection and pyarrow's pool only
+    memory.release()  # macOS, Windows and musl: pyarrow's pool only
 
 
 @pytest.mark.skipif(not sys.platform.startswith("linux") or memory._TRIM is None,
