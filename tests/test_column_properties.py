@@ -16,7 +16,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute  # noqa: F401 (pa.compute)
 import pytest
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, example, given, settings, strategies as st
 
 from postproc import combos as combos_mod
 from postproc import detailing, reference
@@ -80,8 +80,19 @@ def columns(draw):
     return members, pd.DataFrame(rows)
 
 
+# found by this test in CI: the first tie bar of the ladder exceeds the cross-sectional limit of
+# 22.7.7.1(a) with its Aoh and ph (Tu 29 kN m on 600 x 300 with 75 mm cover), the next one does not;
+# the layout took the first and the self-check refused it (a SelfCheckError, not a design)
+TORSION_NEEDS_THE_NEXT_BAR = (
+    [dict(member="C0", kind="column", length_m=3.0, fc_mpa=25.0, fyt_mpa=420.0, support_i="column",
+          support_j="column", face_i_mm=0.0, face_j_mm=0.0, db_long_mm=16.0, frame="none", b_mm=600.0, h_mm=300.0,
+          n_long=4, cover_mm=75.0)],
+    pd.DataFrame([dict(member="C0", case="D", x_m=x, V_kN=0.0, Vb_kN=0.0, N_kN=0.0, T_kNm=29.0) for x in (0.0, 3.0)]))
+
+
 @settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(columns(), st.booleans(), st.sampled_from(["code", "elliptical"]))
+@example(drawn=TORSION_NEEDS_THE_NEXT_BAR, typed=False, rule="code")
 def test_random_columns_pass_their_self_check_and_the_plain_recheck(tmp_path, drawn, typed, rule):
     members, forces = drawn
     mdf, cset, s, out = designed(tmp_path, members, forces, typed, rule)  # SelfCheckError fails the test

@@ -512,7 +512,10 @@ def _tie_settings(settings: Settings):
 
 
 def _layout(mb: Members, rs: Resampled, opts: list[Option], allowed: list[Allowed], blocked: np.ndarray,
-            spiral: np.ndarray, settings: Settings) -> Layouts:
+            torsion_over: list[np.ndarray], spiral: np.ndarray, settings: Settings) -> Layouts:
+    """The first tie option of the ladder that each member's allowed spacing, the practical minimum
+    and the cross-sectional limit of 22.7.7.1(a) (``torsion_over``: with that option's Aoh and ph)
+    admit, laid out along the clear height."""
     grid, n = rs.grid, len(mb.names)
     st = _tie_settings(settings)
     U = unit_system(settings)
@@ -526,6 +529,10 @@ def _layout(mb: Members, rs: Resampled, opts: list[Option], allowed: list[Allowe
         tried = []
         for k, (opt, a) in enumerate(zip(opts, allowed)):
             if not opt.usable[m]:
+                continue
+            if torsion_over[k][m]:  # a larger bar's smaller Aoh may pass where this one does not, or the reverse
+                tried.append(f"{opt.ties.bar}: Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) with its "
+                             "Aoh and ph")
                 continue
             floor = aci.spiral_pitch_limits(opt.ties.db, mb.sec.u)[0] if spiral[m] else st.min_spacing
             if not np.isfinite(a.t_env[sl]).all():
@@ -957,20 +964,18 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
                            "(18.7.4.1)")
             if why:
                 blocked_msg[m] = ("resize", "special moment frame column: " + "; ".join(why))
-    torsion_bad = np.zeros(n, bool)
-    for k, opt in enumerate(opts):
+    torsion_over = []  # per tie option, the members whose Vu and Tu exceed 22.7.7.1(a) with its Aoh and ph
+    for opt in opts:
         tie_c = opt.ties.take(grid.member[cases.station])
         ratio = demand.segment_max(demand.torsion_ratios(cases, sec_c, tie_c), cases.bounds[grid.offsets])
-        if k == 0:
-            torsion_bad = ratio > 1.0
-        else:
-            torsion_bad &= ratio > 1.0
+        torsion_over.append(ratio > 1.0)
+    torsion_bad = np.logical_and.reduce(torsion_over) if torsion_over else np.zeros(n, bool)
     for m in np.flatnonzero(torsion_bad & ~np.isin(np.arange(n), list(blocked_msg))):
         blocked_msg[m] = ("resize", "Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) with every tie bar: "
                                     "enlarge the section or raise f'c")
     blocked = np.zeros(n, bool)
     blocked[list(blocked_msg)] = True
-    lay = _layout(mb, rs, opts, allowed, blocked, spiral, settings)
+    lay = _layout(mb, rs, opts, allowed, blocked, torsion_over, spiral, settings)
     prov = _provided(mb, rs, lay)
     cap = _capacity(mb, rs, cases, sec_c, opts, prov, settings)
     _check(mb, rs, cases, _capacity(mb, rs, cases, sec_c, opts, prov, settings,
