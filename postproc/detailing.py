@@ -465,11 +465,11 @@ def zones_batch(x: np.ndarray, offsets: np.ndarray, clear_span: np.ndarray, hole
     to ``hole_hi[g]``, NaN where none).
 
     Runs of equal gaps are zones (a run goes on while each gap is within ``same_gap`` of its
-    first: 0.15 mm, or the inch-pound settings' 0.005 in, above the rounding of two positions); where two runs meet, the stirrup
-    between them belongs to the tighter one; a lone gap between two runs (a transition)
-    belongs to neither, so each zone is "count stirrups from start to end at spacing". Spans
-    left without stirrups on purpose are zones of count 0. postproc.reference.zones_from_positions
-    is the same, one group at a time."""
+    first: 0.15 mm, or the inch-pound settings' 0.005 in, above the rounding of two
+    positions); where two runs meet, the stirrup between them belongs to the tighter one; a
+    lone gap between two runs (a transition) belongs to neither, so each zone is "count
+    stirrups from start to end at spacing". Spans left without stirrups on purpose are zones
+    of count 0. postproc.reference.zones_from_positions is the same, one group at a time."""
     G, N = len(offsets) - 1, len(x)
     counts = np.diff(offsets)
     grp = np.repeat(np.arange(G), counts)

@@ -445,9 +445,7 @@ class _Drawings:
 def _stirrups(data: _Data, codes: list[int]) -> tuple[dict[int, np.ndarray], dict[int, list]]:
     """Stirrup positions (mm from face i), as the detailing placed them, and zone labels per member."""
     wanted = set(codes)
-    names = [name for name, k in data.code.items() if k in wanted]  # the drawn members' rows alone are decoded
-    pos = units.si_keyed(data.run.table("design/stirrups.parquet", filters=[("member", "in", names)] if names
-                                        else None).to_pandas())
+    pos = units.si_keyed(data.run.table("design/stirrups.parquet", filters=data._of(codes)).to_pandas())
     pos = pos.assign(code=pos["member"].map(data.code))
     pos = pos[pos["code"].isin(wanted)]
     code, x = pos["code"].to_numpy(np.int64), pos["x_mm"].to_numpy(float)
