@@ -952,6 +952,12 @@ class ForcesReader:
     def _stream(self, only: list[str] | None = None):
         return stream_blocks(self.spec, self.BLOCK, only)
 
+    def forget_members(self) -> None:
+        """Let go of what was kept per member while reading (the lengths the stations were
+        checked against, the ids seen), once the notices that need them are given: the design
+        that follows the ingest needs neither (about 190 MB at 580,000 members)."""
+        self.lengths_m, self.member_names = None, set()
+
     def member_ids(self) -> set[str]:
         """The member ids of the file (reads one column)."""
         out: set[str] = set()

@@ -480,6 +480,11 @@ class ElementForcesReader:
     def member_ids(self) -> set[str]:
         return set(self.layout().members.tolist())
 
+    def forget_members(self) -> None:
+        """As ForcesReader.forget_members, with the element layout and node breaks checked
+        against (the parts are checked by then)."""
+        self.lengths_m, self.member_names, self._layout, self._node_break = None, set(), None, None
+
     def _build_layout(self, facts: pa.Table) -> Layout:
         import pandas as pd
 

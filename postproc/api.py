@@ -154,14 +154,14 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         fy = u.fy_default * units.factor(U.col("fy_mpa"), "fy_mpa")  # Grade 420 | 60 where the model gives none
         members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids(), fy)
         members = _inch_pound_limits(units.convert_table(members, units.SI, U, digits=12), U)  # to 12 digits
-        lengths = None
     else:
         members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill, U)
-        lengths = dict(zip(members.column("member").to_pylist(), members.column(length).to_pylist()))
         member_warnings += _units_hint(members_path, U)
     warnings.extend(member_warnings)
+    lengths = None if from_ifc else dict(zip(members.column("member").to_pylist(), members.column(length).to_pylist()))
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
                                     settings.stations.tolerance, fill, U)
+    del lengths  # the reader's alone, let go with its other per-member state (forget_members)
     warnings.extend(source.spec.dialect.notes)
     inputs = {"members": members_path, "forces": forces_path, **elements.extra_inputs(source)}
     for role, path in (("cases", cases_path), ("column_map", map_path), ("settings", config_path)):
@@ -176,6 +176,7 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         warnings.extend(source.notices())  # cells filled, ids normalised (known once every row is read)
         warnings.extend(csv_tables.case_only_matches(set(members.column("member").to_pylist()),
                                                      source.member_names))
+        source.forget_members()
         if from_ifc:
             to_m = units.factor(length, "length_m")
             found = {m: L * to_m for m, L in zip(members.column("member").to_pylist(),

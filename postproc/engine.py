@@ -96,7 +96,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     """
     U = units.system(settings.units)
     members = run.members().to_pandas()
-    input_order = {m: k for k, m in enumerate(members["member"])}
+    input_order = pd.Index(members["member"])  # ids are unique (members.csv and IFC are checked)
     cset, warnings = combination_set(run, run.manifest()["cases"], settings)
     warnings += chapter_18_warnings(members, cset)
     joints, joint_warnings = joints_mod.design_joints(members, settings)
@@ -117,7 +117,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     del members, reason, invalid, covered  # the whole table: designable holds what the tasks need
     memory.release()
 
-    designed: list[pd.DataFrame] = []
+    designed: list[dict[str, pd.Series]] = []
     zone_spill = folder / "zones-parts.pickle"  # the tasks' zone rows wait on disk until the members' are joined
     tables = TableSpill(folder / "stm-parts", {name: folder / f"stm_{name}.parquet" for name in deep_step.TABLES})
     stations_dir = folder / "stations"
@@ -132,7 +132,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
             open(zone_spill, "wb") as zone_file:
         # each task's stirrups appended as it comes
         for t, part in zip(work, map_parts(task, _WithMembers(work, designable, rows_of_part))):
-            designed.append(part.rows)
+            designed.append(dict(part.rows.items()))
             pickle.dump(part.zones, zone_file, pickle.HIGHEST_PROTOCOL)  # this process's own, read back below
             warnings.extend(part.warnings)
             seen |= part.members
@@ -148,28 +148,22 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     tables.write()
     designable = designable[["member", "kind"]]  # all the rest is needed no more (columns_without_vb)
     memory.release()  # with what the tasks' results took on their way in
-    for m in sorted(seen - set(input_order)):
+    for m in sorted(m for m in seen if m not in input_order):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
     for m in designable["member"][~designable["member"].isin(seen)]:
         rows.append(row(m, "no-forces", "no rows in the forces table"))
 
-    out = _joined([pd.DataFrame(rows, columns=MEMBER_COLUMNS), *designed], MEMBER_COLUMNS)
-    designed.clear()  # the parts' tables, now joined: not held through the sort below
+    out = _joined([dict(pd.DataFrame(rows, columns=MEMBER_COLUMNS).items()), *designed], MEMBER_COLUMNS, input_order)
     warnings += columns_without_vb(out, designable)
-    order = pd.Series(input_order, dtype=np.int64)
-    out["_o"] = out["member"].map(order).fillna(len(input_order)).astype(np.int64)
-    out = out.sort_values(["_o", "member"]).drop(columns="_o").reset_index(drop=True)
     memory.release()
     with open(zone_spill, "rb") as zone_file:
-        zones = [pickle.load(zone_file) for _ in work]
+        zones = [dict(pickle.load(zone_file).items()) for _ in work]
     zone_spill.unlink()
-    zdf = _joined(zones, ZONE_COLUMNS)
-    zones.clear()
-    zdf = zdf.assign(_o=zdf["member"].map(order)).sort_values(["_o", "zone"], kind="stable").drop(columns="_o")
+    zdf = _joined(zones, ZONE_COLUMNS, input_order, within="zone")
     memory.release()
     # the records are keyed by the SI spelling of each column; the tables take the run's (postproc.pipeline)
-    return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.reset_index(drop=True).rename(columns=U.rename(
-        ZONE_COLUMNS)), cset, warnings, joints.rename(columns=U.rename(joints_mod.COLUMNS)), U, stage_seconds)
+    return Result(out.rename(columns=U.rename(MEMBER_COLUMNS)), zdf.rename(columns=U.rename(ZONE_COLUMNS)), cset,
+                  warnings, joints.rename(columns=U.rename(joints_mod.COLUMNS)), U, stage_seconds)
 
 
 class TableSpill:
@@ -210,17 +204,39 @@ class TableSpill:
             self.folder.rmdir()
 
 
-def _joined(frames: list[pd.DataFrame], columns: list[str]) -> pd.DataFrame:
-    """The parts' record tables as one, each column typed as if built from all the records at
-    once (a column that is empty in one part, or holds another type there, is read again from
-    its values)."""
-    frames = [f for f in frames if len(f)]
-    if not frames:
+def _joined(parts: list[dict[str, pd.Series]], columns: list[str], input_order: pd.Index,
+            within: str | None = None) -> pd.DataFrame:
+    """The parts' record tables (each as its columns) as one, its rows in the input order of
+    their members (members the input lacks last, by id; ``within``: the column that orders
+    the rows of one member, in a stable sort), each column typed as if built from all the
+    records at once (a column that is empty in one part, or holds another type there, is
+    read again from its values). Built one column at a time, each taken out of the parts
+    as it is joined and its memory handed back, and inserted without consolidating the
+    table's blocks, so that the parts and the whole are never held twice (a whole run's
+    members: memory.release): ``parts`` is left empty."""
+    parts[:] = [p for p in parts if len(p["member"])]
+    if not parts:
         return pd.DataFrame(columns=columns)
-    out = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0].reset_index(drop=True)
+
+    def join(c: str) -> pd.Series:
+        col = pd.concat([p.pop(c) for p in parts], ignore_index=True)
+        return pd.Series(col.tolist(), dtype=None) if col.dtype == object else col
+
+    keys = {"member": join("member")}
+    position = input_order.get_indexer(keys["member"])
+    missing = position < 0
+    if missing.any():
+        position[missing] = len(input_order) + pd.factorize(keys["member"][missing], sort=True)[0]
+    if within is None:
+        order = np.argsort(position, kind="stable")
+    else:
+        keys[within] = join(within)
+        order = np.lexsort((keys[within].to_numpy(), position))
+    out = pd.DataFrame(index=pd.RangeIndex(len(order)))
     for c in columns:
-        if out[c].dtype == object:
-            out[c] = pd.Series(out[c].tolist(), dtype=None)
+        out[c] = (keys.pop(c) if c in keys else join(c)).take(order).reset_index(drop=True)
+        memory.release()
+    parts.clear()
     return out
 
 

@@ -143,7 +143,8 @@ def test_already_sorted_forces_skip_the_sort():
 def test_part_records_join_as_if_built_at_once():
     """Each task sends its members.csv and zones.csv records as a table; joined, every column
     has the type and values it has when all records are built into one table at once (a
-    column empty in one task, numbers in another, text with gaps), whatever the split."""
+    column empty in one task, numbers in another, text with gaps), whatever the split, and
+    the rows come in the input order of their members."""
     import numpy as np
 
     rng = np.random.default_rng(3)
@@ -159,8 +160,23 @@ def test_part_records_join_as_if_built_at_once():
         whole = pd.DataFrame(records, columns=columns)
         cuts = sorted(set(rng.integers(0, n + 1, size=int(rng.integers(0, 4))).tolist()))
         pieces = [records[a:b] for a, b in zip([0, *cuts], [*cuts, n])]
-        joined = engine._joined([pd.DataFrame(p, columns=columns) for p in pieces], columns)
+        parts = [dict(pd.DataFrame(p, columns=columns).items()) for p in pieces]
+        joined = engine._joined(parts, columns, pd.Index([r["member"] for r in records]))
         pd.testing.assert_frame_equal(joined, whole)
+        assert parts == []  # taken out of the parts as joined
+
+
+def test_part_records_join_in_input_order():
+    """The joined records follow the members' input order whatever order the tasks sent them
+    in; a member the input lacks (forces without geometry) comes last, by id; the rows of one
+    member (its zones) are ordered by the given column, ties kept in the order they came."""
+    columns = ["member", "zone", "tag"]
+    parts = [dict(pd.DataFrame({"member": ["B", "ZZ", "A", "B"], "zone": [2, 1, 1, 1],
+                                "tag": ["b2", "zz", "a1", "b1"]}).items()),
+             dict(pd.DataFrame({"member": ["C", "Y", "B"], "zone": [1, 1, 1], "tag": ["c1", "y", "b1'"]}).items())]
+    joined = engine._joined(parts, columns, pd.Index(["C", "B", "A"]), within="zone")
+    assert joined["tag"].tolist() == ["c1", "b1", "b1'", "b2", "a1", "y", "zz"]
+    assert joined.index.equals(pd.RangeIndex(7))
 
 
 def test_table_spill_writes_the_pieces_as_one_table(tmp_path):
