@@ -123,8 +123,8 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     stations_dir = folder / "stations"
     stations_dir.mkdir(exist_ok=True)
     x_col = U.col("x_mm")
-    work, seen, rows_of_part = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
-                                            getattr(map_parts, "workers", 1))
+    work, strays, rows_of_part = design_tasks([str(p) for p in run.force_parts()], designable, cset, settings,
+                                              getattr(map_parts, "workers", 1))
     task = functools.partial(design_task, cset=cset, settings=settings, stations_dir=str(stations_dir), timed=timed)
     stage_seconds: dict[str, float] = {}
     with pq.ParquetWriter(folder / "stirrups.parquet", pa.schema([("member", pa.large_string()),
@@ -135,7 +135,6 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
             designed.append(dict(part.rows.items()))
             pickle.dump(part.zones, zone_file, pickle.HIGHEST_PROTOCOL)  # this process's own, read back below
             warnings.extend(part.warnings)
-            seen |= part.members
             if len(part.stirrups):
                 positions.write_table(pa.table({
                     "member": pa.array(part.stirrups["member"].astype(str), pa.large_string()),
@@ -148,9 +147,12 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     tables.write()
     designable = designable[["member", "kind"]]  # all the rest is needed no more (columns_without_vb)
     memory.release()  # with what the tasks' results took on their way in
-    for m in sorted(m for m in seen if m not in input_order):
+    for m in sorted(m for m in strays if m not in input_order):
         rows.append(row(m, "no-geometry", "forces given but no row in the members table"))
-    for m in designable["member"][~designable["member"].isin(seen)]:
+    with_forces = np.zeros(len(designable), bool)
+    for at in rows_of_part.values():
+        with_forces[at] = True
+    for m in designable["member"][~with_forces]:
         rows.append(row(m, "no-forces", "no rows in the forces table"))
 
     out = _joined([dict(pd.DataFrame(rows, columns=MEMBER_COLUMNS).items()), *designed], MEMBER_COLUMNS, input_order)
@@ -298,7 +300,8 @@ PROCESS_BASE_MB = 320
 
 def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settings,
                  workers: int = 1) -> tuple[list[Task], set[str], dict[str, np.ndarray]]:
-    """The design's tasks, every member id found in the forces, and the positions in
+    """The design's tasks, the member ids of the forces that ``members`` lacks (not kept for
+    all members: a set of every id holds tens of MB on a large model), and the positions in
     ``members`` of each part's members (a task travels with those alone). Each stored part is cut,
     family by family, at the starts of its batches (``batch_starts``: the results stay
     those of an uncut part to the last bit), into pieces of about equal rows, so that the
@@ -307,15 +310,15 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
     needs no cutting stays one task."""
     workers = max(workers, 1)
     cap = max(1.0, (settings.run.memory_mb - PROCESS_BASE_MB) * 2**20 / TASK_BYTES_PER_ROW)  # rows per task
-    seen: set[str] = set()
+    strays: set[str] = set()
     per_part = []  # (part, units: [(family, first id, last id, rows)])
     rows_of_part = {}
     where = pd.Index(members["member"])
     for part in parts:
         counts = pac.value_counts(pq.read_table(part, columns=["member"]).column("member").combine_chunks())
         rows_of = dict(zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist()))
-        seen.update(rows_of)
         at = where.get_indexer(list(rows_of))
+        strays.update(m for m, k in zip(rows_of, at) if k < 0)
         rows_of_part[part] = np.sort(at[at >= 0])
         here = members.iloc[rows_of_part[part]]
         units_ = []
@@ -331,7 +334,7 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
     total = sum(u[3] for _, us in per_part for u in us)
     part_rows = [sum(u[3] for u in us) for _, us in per_part]
     if workers == 1 and all(r <= cap for r in part_rows):
-        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], seen, rows_of_part
+        return [Task(p, trace_name=Path(p).name) for p, _ in per_part], strays, rows_of_part
     pieces = [1] * len(per_part)
     for m in range(1, 64):  # the fewest pieces that number a multiple of the workers
         target = max(total / (m * workers), 1.0)
@@ -354,7 +357,7 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
         mine = [(us[a][0], us[a][1], us[b - 1][2]) for a, b in zip(first, [*first[1:], len(us)])]
         tasks += [Task(part, f, lo, hi, stem if j == 0 else f"{stem[:-len('.parquet')]}.t{j:04d}.parquet", len(mine))
                   for j, (f, lo, hi) in enumerate(mine)]
-    return tasks, seen, rows_of_part
+    return tasks, strays, rows_of_part
 
 
 def _pieces(batch_rows: np.ndarray, k: int) -> np.ndarray:

@@ -2,6 +2,7 @@
 
 from dataclasses import replace
 
+import numpy as np
 import pandas as pd
 import pyarrow.parquet as pq
 import pytest
@@ -96,9 +97,10 @@ def test_tasks_cut_parts_at_batch_starts_and_change_nothing(one_part, workers, m
         ref_folder.mkdir()
         engine.design_into(run, settings, ref_folder, _inline(1))
     small = Settings(run=replace(settings.run, memory_mb=memory_mb))
-    tasks, seen, rows_of_part = engine.design_tasks([str(p) for p in run.force_parts()], designable, cset, small,
-                                                    workers)
-    assert seen == set(designable["member"])
+    tasks, strays, rows_of_part = engine.design_tasks([str(p) for p in run.force_parts()], designable, cset, small,
+                                                      workers)
+    assert strays == set()  # every member with forces is in the table
+    assert sorted(np.concatenate(list(rows_of_part.values()))) == list(range(len(designable)))
     forces = run.forces(["member"]).to_pandas()
     for part, rows in rows_of_part.items():  # each task travels with the members of its part, in their order
         here = set(pq.read_table(part, columns=["member"]).column("member").to_pylist())
