@@ -1397,47 +1397,84 @@ def _tie_table(md, t, combos, web: _Web, tie: _Tie, inside, tolF):
     })
 
 
+def _first_per_group(group: np.ndarray, key: np.ndarray, n: int) -> np.ndarray:
+    """Per group 0..n-1, the row with the smallest ``key`` (NaN after every number), the first
+    row among equal keys (what a stable pandas sort, a groupby idxmax, max or min keeps);
+    -1 where the group has no row."""
+    order = np.lexsort((key, group))  # stable: equal keys stay in row order
+    g = group[order]
+    head = np.ones(len(g), bool)
+    head[1:] = g[1:] != g[:-1]
+    out = np.full(n, -1, np.int64)
+    out[g[head]] = order[head]
+    return out
+
+
+def _picked(values, rows: np.ndarray, fill) -> np.ndarray:
+    """``values`` at ``rows``, ``fill`` where a row is -1 (a group without rows)."""
+    values = np.asarray(values)
+    if not len(values):
+        return np.full(len(rows), fill, dtype=object if isinstance(fill, str) else float)
+    return np.where(rows >= 0, values[np.maximum(rows, 0)], fill)
+
+
 def _node_rows(faces: pd.DataFrame) -> pd.DataFrame:
+    """One row per checked node: its most used face (the first of equals), by model and position."""
     cols = ["member", "model", "model_index", "node", "x_mm", "y_mm", "node_type", "beta_n", "utilization",
             "governing_face", "element", "combination"]
-    g = faces.sort_values("utilization", ascending=False, kind="stable").drop_duplicates(["model_index", "node_slot"])
-    return g.rename(columns={"face": "governing_face"})[cols].sort_values(
-        ["model_index", "x_mm", "y_mm"]).reset_index(drop=True)
+    mi, slot = faces["model_index"].to_numpy(), faces["node_slot"].to_numpy()
+    by_use = np.lexsort((np.arange(len(faces)), -faces["utilization"].to_numpy()))  # most used first, NaN last
+    pair = mi[by_use] * (int(slot.max(initial=0)) + 1) + slot[by_use]
+    _, first = np.unique(pair, return_index=True)
+    kept = by_use[np.sort(first)]  # each node's most used face, in the order above
+    order = kept[np.lexsort((np.arange(len(kept)), faces["y_mm"].to_numpy()[kept], faces["x_mm"].to_numpy()[kept],
+                             mi[kept]))]
+    return faces.iloc[order].rename(columns={"face": "governing_face"})[cols].reset_index(drop=True)
 
 
 def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, angle_why, struts, ties,
                 faces) -> pd.DataFrame:
-    """One row per model: status, the governing check over every element, face and rule."""
+    """One row per model: status, the governing check over every element, face and rule
+    (the largest utilization; the first listed of equals)."""
     nm = len(md.member)
     ids = np.arange(nm)
     anch = tie.anch
     bearing_label = {"A": np.where(md.mirrored, "R_j", "R_i"), "B": np.full(nm, "R_j")}
-    vt = ties[ties.kind == "vertical tie"]
-    checks = pd.concat([
-        pd.DataFrame({"model_index": struts.model_index, "utilization": struts.utilization,
-                      "governing": struts.element, "clause": struts.clause, "combination": struts.combination}),
-        pd.DataFrame({"model_index": faces.model_index, "utilization": faces.utilization,
-                      "governing": "node " + faces.node + " " + faces.face
-                      + np.where(faces.element != "", " (" + faces.element + ")", ""),
-                      "clause": faces.clause, "combination": faces.combination}),
-        pd.DataFrame({"model_index": vt.model_index, "utilization": vt.utilization, "governing": vt.element,
-                      "clause": vt.clause, "combination": vt.combination}),
-        pd.DataFrame({"model_index": ids, "utilization": vu / phi_vn,
-                      "governing": "deep-beam section: Vu against phi 0.83 sqrt(f'c) bw d", "clause": "9.9.2.1",
-                      "combination": vu_combo}),
-        *[pd.DataFrame({"model_index": ids[anch[s]["how"] != ""], "utilization": anch[s]["util"][anch[s]["how"] != ""],
-                        "governing": "tie anchorage at " + bearing_label[s][anch[s]["how"] != ""],
-                        "clause": "23.8.3, 25.4.2.3, 25.4.3.1", "combination": ""}) for s in ("A", "B")],
-        pd.DataFrame({"model_index": ids[~feasible], "utilization": np.inf,
-                      "governing": "top strut depth: the section is too shallow for the thrust",
-                      "clause": "23.4.3, 23.9.2", "combination": ""}),
-        pd.DataFrame({"model_index": ids[~web.sv_fits], "utilization": web.av_req[~web.sv_fits]
-                      / web.av_prov[~web.sv_fits], "governing": "stirrups: no ladder entry fits above the minimum "
-                      "spacing", "clause": "9.9.3.1, 23.7.2", "combination": ""}),
-    ], ignore_index=True)
-    checks = checks[checks.utilization.notna()]
-    gov = checks.loc[checks.groupby("model_index").utilization.idxmax()].set_index("model_index").reindex(ids)
-    util = gov.utilization.fillna(0.0).to_numpy()
+    vt = (ties["kind"] == "vertical tie").to_numpy()
+    anchored = {s: anch[s]["how"] != "" for s in ("A", "B")}
+    checks = [  # (model, utilization, governing, clause, combination) of each kind of check
+        (struts["model_index"], struts["utilization"], struts["element"], struts["clause"], struts["combination"]),
+        (faces["model_index"], faces["utilization"], None, faces["clause"], faces["combination"]),  # named below
+        (ties["model_index"][vt], ties["utilization"][vt], ties["element"][vt], ties["clause"][vt],
+         ties["combination"][vt]),
+        (ids, vu / phi_vn, "deep-beam section: Vu against phi 0.83 sqrt(f'c) bw d", "9.9.2.1", vu_combo),
+        *[(ids[a], anch[s]["util"][a], np.array(["tie anchorage at " + b for b in bearing_label[s][a]], dtype=object),
+           "23.8.3, 25.4.2.3, 25.4.3.1", "") for s, a in anchored.items()],
+        (ids[~feasible], np.inf, "top strut depth: the section is too shallow for the thrust", "23.4.3, 23.9.2", ""),
+        (ids[~web.sv_fits], web.av_req[~web.sv_fits] / web.av_prov[~web.sv_fits],
+         "stirrups: no ladder entry fits above the minimum spacing", "9.9.3.1, 23.7.2", ""),
+    ]
+    sizes = [len(c[0]) for c in checks]
+
+    def column(k: int, dtype=object) -> np.ndarray:
+        return np.concatenate([np.broadcast_to(np.asarray(c[k], dtype=dtype), (n,)) for c, n in zip(checks, sizes)])
+
+    model, util = column(0, np.int64), column(1, float)
+    valid = np.flatnonzero(~np.isnan(util))
+    at = _first_per_group(model[valid], -util[valid], nm)
+    row = np.where(at >= 0, valid[np.maximum(at, 0)], -1)  # the governing check of each model, -1 if none
+    face_first = sizes[0]
+    in_faces = (row >= face_first) & (row < face_first + sizes[1])
+    governing = np.concatenate([np.broadcast_to(np.asarray(c[2] if c[2] is not None else "", dtype=object), (n,))
+                                for c, n in zip(checks, sizes)])
+    f = row[in_faces] - face_first  # a node face, spelled out where it governs
+    element = faces["element"].to_numpy()[f]
+    named = (("node " + faces["node"].to_numpy()[f] + " " + faces["face"].to_numpy()[f]).astype(object)
+             + np.where(element != "", " (" + element.astype(object) + ")", ""))
+    gov_text = _picked(governing, row, "")
+    gov_text[in_faces] = named
+    gov_clause, gov_combination = _picked(column(3), row, ""), _picked(column(4), row, "")
+    util = _picked(util, row, 0.0).astype(float)
     status = np.where(angle_why != "", "not-modelled", np.where(util > 1.0 + 1e-9, "resize", "designed"))
     x0 = np.where(md.whole | ~md.mirrored, 0.0, md.ln - md.s_end)
     x1 = np.where(md.whole, md.ln, np.where(md.mirrored, md.ln, md.s_end))
@@ -1451,12 +1488,11 @@ def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, ang
     has_j = md.whole | md.mirrored
     return pd.DataFrame({
         "member": md.name, "model": md.end, "model_index": ids, "status": status,
-        "reason": np.where(status == "resize", gov.governing.fillna("") + " (" + gov.clause.fillna("") + ")",
-                           angle_why),
+        "reason": np.where(status == "resize", gov_text + " (" + gov_clause + ")", angle_why),
         "extent_start_mm": x0, "extent_end_mm": x1, "top_strut_depth_mm": t.a, "lever_arm_mm": t.z,
-        "tie_height_mm": tie.wt_eff, "utilization": util, "governing": gov.governing.fillna("").to_numpy(),
-        "governing_clause": gov.clause.fillna("").to_numpy(),
-        "governing_combination": gov.combination.fillna("").to_numpy(),
+        "tie_height_mm": tie.wt_eff, "utilization": util, "governing": gov_text,
+        "governing_clause": gov_clause,
+        "governing_combination": gov_combination,
         "vu_kN": vu / 1e3, "phi_vn_deep_kN": phi_vn / 1e3,
         "tie_as_req_mm2": tie.as_req, "tie_bar": tie.bar, "tie_bars": tie.n_bars, "tie_as_prov_mm2": tie.n_bars * tie.area,
         "ld_mm": anch["ld"], "ldh_mm": anch["ldh"],
@@ -1471,43 +1507,45 @@ def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, ang
 
 
 def _member_rows(M, md, models: pd.DataFrame, reasons, method, web: _Web) -> pd.DataFrame:
-    """One row per input member: the worst of its models decides (not-modelled, resize, designed)."""
+    """One row per input member: the worst of its models decides (not-modelled, resize, designed;
+    then the larger utilization; the first model of equals)."""
     n = len(M["member"])
-    rank = models.status.map({"designed": 0, "resize": 1, "not-modelled": 2}).to_numpy()
-    key = rank * 1e6 + np.minimum(models.utilization.to_numpy(), 1e5)
-    worst = models.assign(member_index=md.member, key=key).sort_values("key", ascending=False, kind="stable") \
-        .drop_duplicates("member_index").set_index("member_index").reindex(np.arange(n))
-    has = worst.model.notna().to_numpy()
-    agg = models.assign(member_index=md.member).groupby("member_index").agg(
-        tie_as_req_mm2=("tie_as_req_mm2", "max"), tie_bars=("tie_bars", "max"), av_s_req=("av_s_req", "max"),
-        beta_s_interior=("beta_s_interior", "min")).reindex(np.arange(n))
-    # the stirrups of the model needing most; the web bars are the same in every model of a member
-    most = models.assign(member_index=md.member).sort_values("av_s_req", ascending=False, kind="stable") \
-        .drop_duplicates("member_index").set_index("member_index").reindex(np.arange(n))
+    group = np.asarray(md.member, dtype=np.int64)
+    col = {c: models[c].to_numpy() for c in models.columns}
+    rank = np.where(col["status"] == "resize", 1, np.where(col["status"] == "not-modelled", 2, 0))
+    key = rank * 1e6 + np.minimum(col["utilization"], 1e5)
+    worst = _first_per_group(group, -key, n)
+    most = _first_per_group(group, -col["av_s_req"], n)  # the stirrups of the model needing most
+    largest = {c: _picked(col[c], _first_per_group(group, -col[c], n), np.nan) for c in ("tie_as_req_mm2", "tie_bars")}
+    beta_s = _picked(col["beta_s_interior"], _first_per_group(group, col["beta_s_interior"], n), np.nan)
+    has = worst >= 0
     first = np.full(n, -1)
     first[md.member[::-1]] = np.arange(len(md.member))[::-1]
     f = np.clip(first, 0, None)
     take = lambda arr, fill: np.where(has, arr[f] if len(arr) else fill, fill)  # noqa: E731
-    status = np.where(has, worst.status.fillna("not-modelled"), "not-modelled")
+    of_worst = lambda c, fill: _picked(col[c], worst, fill)  # noqa: E731
+    worst_status = of_worst("status", "")
+    status = np.where(has, worst_status, "not-modelled")
+    not_modelled = worst_status == "not-modelled"
     has = has & (status != "not-modelled")  # a member not modelled shows no utilization or steel
-    reason = np.where(worst.status == "not-modelled", worst.model.fillna("") + ": " + worst.reason.fillna(""),
-                      np.where(has, worst.reason.fillna(""), reasons))
+    reason = np.where(not_modelled, of_worst("model", "") + ": " + of_worst("reason", ""),
+                      np.where(has, of_worst("reason", ""), reasons))
     return pd.DataFrame({
         "member": M["member"], "status": status, "reason": reason, "method": method,
-        "utilization": np.where(has, worst.utilization, np.nan),
-        "governing": np.where(has, worst.governing.fillna(""), ""),
-        "governing_clause": np.where(has, worst.governing_clause.fillna(""), ""),
-        "governing_combination": np.where(has, worst.governing_combination.fillna(""), ""),
-        "tie_as_req_mm2": np.where(has, agg.tie_as_req_mm2, np.nan),
-        "tie_bar": np.where(has, worst.tie_bar.fillna(""), ""),
-        "tie_bars": np.where(has, agg.tie_bars.fillna(0), 0).astype(int),
-        "av_s_min": take(web.av_min, np.nan), "av_s_req": np.where(has, agg.av_s_req, np.nan),
-        "stirrup_bar": np.where(has, most.stirrup_bar.fillna(""), ""),
-        "stirrup_legs": np.where(has, most.stirrup_legs.fillna(0), 0).astype(int),
-        "stirrup_spacing_mm": np.where(has, most.stirrup_spacing_mm, np.nan),
-        "av_s_prov": np.where(has, most.av_s_prov, np.nan),
+        "utilization": np.where(has, of_worst("utilization", np.nan), np.nan),
+        "governing": np.where(has, of_worst("governing", ""), ""),
+        "governing_clause": np.where(has, of_worst("governing_clause", ""), ""),
+        "governing_combination": np.where(has, of_worst("governing_combination", ""), ""),
+        "tie_as_req_mm2": np.where(has, largest["tie_as_req_mm2"], np.nan),
+        "tie_bar": np.where(has, of_worst("tie_bar", ""), ""),
+        "tie_bars": np.where(has, np.nan_to_num(largest["tie_bars"].astype(float)), 0).astype(int),
+        "av_s_min": take(web.av_min, np.nan), "av_s_req": np.where(has, _picked(col["av_s_req"], most, np.nan), np.nan),
+        "stirrup_bar": np.where(has, _picked(col["stirrup_bar"], most, ""), ""),
+        "stirrup_legs": np.where(has, np.nan_to_num(_picked(col["stirrup_legs"], most, 0).astype(float)), 0).astype(int),
+        "stirrup_spacing_mm": np.where(has, _picked(col["stirrup_spacing_mm"], most, np.nan), np.nan),
+        "av_s_prov": np.where(has, _picked(col["av_s_prov"], most, np.nan), np.nan),
         "ah_s_req": take(web.ah_req, np.nan), "web_bar": take(web.sh_bar, ""),
         "web_bars_per_layer": take(web.sh_n, 0).astype(int), "web_bar_spacing_mm": take(web.sh, np.nan),
         "ah_s_prov": take(web.ah_prov, np.nan), "s_max_mm": take(web.s_max, np.nan),
-        "beta_s_interior": np.where(has, agg.beta_s_interior, np.nan),
+        "beta_s_interior": np.where(has, beta_s, np.nan),
     })

@@ -452,3 +452,23 @@ def test_axial_compression_deepens_the_sized_top_strut():
     # the thrust face at the load node is then exactly at its limit: (H z / z + Nc) / (phi 0.85 f'c a bw) = 1
     face = more.faces[(more.faces.face == "horizontal thrust")].utilization.max()
     assert face == pytest.approx(1.0, abs=1e-6)
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, 4), st.sampled_from([np.nan, -0.0, 0.0, 0.5, 1.0, 1.0, np.inf])),
+                max_size=30))
+def test_the_governing_row_of_each_group_is_the_one_pandas_keeps(rows):
+    """The strut-and-tie tables pick each model's governing check, each member's worst model
+    and each node's most used face in numpy; the row picked is the one pandas' stable
+    descending sort with drop_duplicates keeps (NaN last, the first of equals, -0.0 equal
+    to 0.0), and the value is groupby max's: the reference is pandas itself."""
+    df = pd.DataFrame(rows, columns=["g", "v"]).astype({"g": np.int64, "v": float})
+    got = stm._first_per_group(df["g"].to_numpy(), -df["v"].to_numpy(), 6)
+    kept = df.sort_values("v", ascending=False, kind="stable").drop_duplicates("g")
+    want = np.full(6, -1)
+    want[kept["g"].to_numpy()] = kept.index.to_numpy()
+    assert got.tolist() == want.tolist()
+    largest = df.groupby("g")["v"].max()
+    for g, value in largest.items():
+        picked = df["v"].to_numpy()[got[g]]
+        assert np.array_equal(picked, value, equal_nan=True) and np.signbit(picked) == np.signbit(value)
