@@ -333,15 +333,18 @@ def _design_chunk(mb, rs, dem, chunk, names, factors, settings: Settings, note, 
     if not rows:
         return None
     summary = pd.DataFrame(rows).set_index("position")
-    keep = set(mb.names[summary.index.to_numpy()])
-    ties = units.si_keyed(r.ties)
-    _stirrup_ties(ties[ties.member.isin(keep) & (ties.kind == "vertical tie")], mb, rs, per_station)
-    tables = {"members": r.members[r.members.member.isin(keep)].rename(columns={"method": "models"}).merge(
+    kept_model = kept[m_of]  # the models' rows are in model order
+
+    def of_kept(df: pd.DataFrame) -> pd.DataFrame:  # the rows of the kept members' models
+        return df if kept.all() else df[kept_model[df["model_index"].to_numpy()]]
+
+    ties = of_kept(units.si_keyed(r.ties))
+    _stirrup_ties(ties[ties.kind == "vertical tie"], mb, rs, per_station)
+    tables = {"members": r.members[kept].rename(columns={"method": "models"}).merge(  # r.members: in chunk order
         summary[["member", "method", "message", "tie_text", "web_text", "assumptions"]], on="member", how="left")}
     for name in TABLES[1:]:
-        df = getattr(r, name)
-        tables[name] = df[df.member.isin(keep)].drop(columns=[c for c in ("model_index", "el_index", "node_slot")
-                                                             if c in df.columns])
+        tables[name] = of_kept(getattr(r, name)).drop(columns=["model_index", "el_index", "node_slot"],
+                                                        errors="ignore")
     return summary, tables
 
 
