@@ -213,9 +213,9 @@ def _joined(parts: list[dict[str, pd.Series]], columns: list[str], input_order: 
     the rows of one member, in a stable sort), each column typed as if built from all the
     records at once (a column that is empty in one part, or holds another type there, is
     read again from its values). Built one column at a time, each taken out of the parts
-    as it is joined and its memory handed back, and inserted without consolidating the
-    table's blocks, so that the parts and the whole are never held twice (a whole run's
-    members: memory.release): ``parts`` is left empty."""
+    as it is joined (its pages handed back: memory.release) and inserted without
+    consolidating the table's blocks, so that the parts and the whole are never held
+    twice; ``parts`` is left empty."""
     parts[:] = [p for p in parts if len(p["member"])]
     if not parts:
         return pd.DataFrame(columns=columns)
