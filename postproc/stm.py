@@ -1462,7 +1462,8 @@ def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, ang
     model, util = column(0, np.int64), column(1, float)
     valid = np.flatnonzero(~np.isnan(util))
     at = _first_per_group(model[valid], -util[valid], nm)
-    row = np.where(at >= 0, valid[np.maximum(at, 0)], -1)  # the governing check of each model, -1 if none
+    row = np.full(nm, -1, np.int64)  # the governing check of each model, -1 if none
+    row[at >= 0] = valid[at[at >= 0]]
     face_first = sizes[0]
     in_faces = (row >= face_first) & (row < face_first + sizes[1])
     governing = np.concatenate([np.broadcast_to(np.asarray(c[2] if c[2] is not None else "", dtype=object), (n,))
