@@ -178,12 +178,16 @@ def axial_stress_term(Nu, Ag, fc):
 
 def vc_cap(fc, bw, d, lam=1.0, u: Edition = SI):
     """Upper limit on Vc: 0.42 | 5 lambda sqrt(f'c) bw d (22.5.5.1.1)."""
-    return u.vc_max * lam * sqrt_fc(fc, u) * bw * d
+    return _cap(sqrt_fc(fc, u), bw, d, lam, u)
 
 
-def _vc_limited(v, fc, bw, d, lam, u: Edition):
+def _cap(root_fc, bw, d, lam, u: Edition):  # vc_cap, sqrt(f'c) of 22.5.3.1 already taken (once per Vc)
+    return u.vc_max * lam * root_fc * bw * d
+
+
+def _vc_limited(v, root_fc, bw, d, lam, u: Edition):
     # 22.5.5.1.1 cap; Vc is not taken less than zero (22.5.5.1, from memory).
-    return np.clip(v * bw * d, 0.0, vc_cap(fc, bw, d, lam, u))
+    return np.clip(v * bw * d, 0.0, _cap(root_fc, bw, d, lam, u))
 
 
 def vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam=1.0, rho_w=None, u: Edition = SI):
@@ -192,10 +196,11 @@ def vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam=1.0, rho_w=None, u: Edition = SI
     (a) [0.17 | 2 lambda sqrt(f'c) + Nu/(6Ag)] bw d
     (b) [0.66 | 8 lambda rho_w^(1/3) sqrt(f'c) + Nu/(6Ag)] bw d, used where rho_w is known.
     """
-    coef = u.vc_a * lam * sqrt_fc(fc, u)
+    root_fc = sqrt_fc(fc, u)
+    coef = u.vc_a * lam * root_fc
     if rho_w is not None:  # both add the same axial term, so the larger coefficient gives the larger Vc
-        coef = np.where(np.isfinite(rho_w), np.maximum(coef, u.vc_b * lam * np.cbrt(rho_w) * sqrt_fc(fc, u)), coef)
-    return _vc_limited(coef + axial_stress_term(Nu, Ag, fc), fc, bw, d, lam, u)
+        coef = np.where(np.isfinite(rho_w), np.maximum(coef, u.vc_b * lam * np.cbrt(rho_w) * root_fc), coef)
+    return _vc_limited(coef + axial_stress_term(Nu, Ag, fc), root_fc, bw, d, lam, u)
 
 
 def vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_w, lam=1.0, u: Edition = SI):
@@ -204,8 +209,9 @@ def vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_w, lam=1.0, u: Edition = SI):
     (c) [0.66 | 8 lambda_s lambda rho_w^(1/3) sqrt(f'c) + Nu/(6Ag)] bw d
     """
     axial = axial_stress_term(Nu, Ag, fc)
-    v = u.vc_b * size_effect_factor(d, u) * lam * np.cbrt(rho_w) * sqrt_fc(fc, u) + axial
-    return _vc_limited(v, fc, bw, d, lam, u)
+    root_fc = sqrt_fc(fc, u)
+    v = u.vc_b * size_effect_factor(d, u) * lam * np.cbrt(rho_w) * root_fc + axial
+    return _vc_limited(v, root_fc, bw, d, lam, u)
 
 
 def vs_max(fc, bw, d, u: Edition = SI):
