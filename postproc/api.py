@@ -154,11 +154,12 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         fy = u.fy_default * units.factor(U.col("fy_mpa"), "fy_mpa")  # Grade 420 | 60 where the model gives none
         members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids(), fy)
         members = _inch_pound_limits(units.convert_table(members, units.SI, U, digits=12), U)  # to 12 digits
+        lengths = None
     else:
         members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill, U)
+        lengths = dict(zip(members.column("member").to_pylist(), members.column(length).to_pylist()))
         member_warnings += _units_hint(members_path, U)
     warnings.extend(member_warnings)
-    lengths = None if from_ifc else dict(zip(members.column("member").to_pylist(), members.column(length).to_pylist()))
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
                                     settings.stations.tolerance, fill, U)
     del lengths  # the reader's alone, let go with its other per-member state (forget_members)

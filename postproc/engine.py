@@ -117,7 +117,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     del members, reason, invalid, covered  # the whole table: designable holds what the tasks need
     memory.release()
 
-    designed: list[dict[str, pd.Series]] = []
+    designed: list[pd.DataFrame] = []
     zone_spill = folder / "zones-parts.pickle"  # the tasks' zone rows wait on disk until the members' are joined
     tables = TableSpill(folder / "stm-parts", {name: folder / f"stm_{name}.parquet" for name in deep_step.TABLES})
     stations_dir = folder / "stations"
@@ -132,7 +132,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
             open(zone_spill, "wb") as zone_file:
         # each task's stirrups appended as it comes
         for t, part in zip(work, map_parts(task, _WithMembers(work, designable, rows_of_part))):
-            designed.append(dict(part.rows.items()))
+            designed.append(part.rows)
             pickle.dump(part.zones, zone_file, pickle.HIGHEST_PROTOCOL)  # this process's own, read back below
             warnings.extend(part.warnings)
             if len(part.stirrups):
@@ -155,11 +155,12 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     for m in designable["member"][~with_forces]:
         rows.append(row(m, "no-forces", "no rows in the forces table"))
 
-    out = _joined([dict(pd.DataFrame(rows, columns=MEMBER_COLUMNS).items()), *designed], MEMBER_COLUMNS, input_order)
+    designed.insert(0, pd.DataFrame(rows, columns=MEMBER_COLUMNS))  # the list itself: _joined empties it
+    out = _joined(designed, MEMBER_COLUMNS, input_order)
     warnings += columns_without_vb(out, designable)
     memory.release()
     with open(zone_spill, "rb") as zone_file:
-        zones = [dict(pickle.load(zone_file).items()) for _ in work]
+        zones = [pickle.load(zone_file) for _ in work]
     zone_spill.unlink()
     zdf = _joined(zones, ZONE_COLUMNS, input_order, within="zone")
     memory.release()
@@ -206,17 +207,18 @@ class TableSpill:
             self.folder.rmdir()
 
 
-def _joined(parts: list[dict[str, pd.Series]], columns: list[str], input_order: pd.Index,
+def _joined(frames: list[pd.DataFrame], columns: list[str], input_order: pd.Index,
             within: str | None = None) -> pd.DataFrame:
-    """The parts' record tables (each as its columns) as one, its rows in the input order of
+    """The parts' record tables as one, its rows in the input order of
     their members (members the input lacks last, by id; ``within``: the column that orders
     the rows of one member, in a stable sort), each column typed as if built from all the
     records at once (a column that is empty in one part, or holds another type there, is
     read again from its values). Built one column at a time, each taken out of the parts
     as it is joined (its pages handed back: memory.release) and inserted without
     consolidating the table's blocks, so that the parts and the whole are never held
-    twice; ``parts`` is left empty."""
-    parts[:] = [p for p in parts if len(p["member"])]
+    twice; ``frames`` is emptied, so that the caller's list does not keep the parts alive."""
+    parts = [dict(f.items()) for f in frames if len(f)]  # each part as its columns
+    frames.clear()
     if not parts:
         return pd.DataFrame(columns=columns)
 

@@ -1444,7 +1444,7 @@ def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, ang
     anchored = {s: anch[s]["how"] != "" for s in ("A", "B")}
     checks = [  # (model, utilization, governing, clause, combination) of each kind of check
         (struts["model_index"], struts["utilization"], struts["element"], struts["clause"], struts["combination"]),
-        (faces["model_index"], faces["utilization"], None, faces["clause"], faces["combination"]),  # named below
+        (faces["model_index"], faces["utilization"], "", faces["clause"], faces["combination"]),  # named below
         (ties["model_index"][vt], ties["utilization"][vt], ties["element"][vt], ties["clause"][vt],
          ties["combination"][vt]),
         (ids, vu / phi_vn, "deep-beam section: Vu against phi 0.83 sqrt(f'c) bw d", "9.9.2.1", vu_combo),
@@ -1466,13 +1466,11 @@ def _model_rows(md, t, feasible, vu, vu_combo, phi_vn, web: _Web, tie: _Tie, ang
     row[at >= 0] = valid[at[at >= 0]]
     face_first = sizes[0]
     in_faces = (row >= face_first) & (row < face_first + sizes[1])
-    governing = np.concatenate([np.broadcast_to(np.asarray(c[2] if c[2] is not None else "", dtype=object), (n,))
-                                for c, n in zip(checks, sizes)])
     f = row[in_faces] - face_first  # a node face, spelled out where it governs
     element = faces["element"].to_numpy()[f]
     named = (("node " + faces["node"].to_numpy()[f] + " " + faces["face"].to_numpy()[f]).astype(object)
              + np.where(element != "", " (" + element.astype(object) + ")", ""))
-    gov_text = _picked(governing, row, "")
+    gov_text = _picked(column(2), row, "")
     gov_text[in_faces] = named
     gov_clause, gov_combination = _picked(column(3), row, ""), _picked(column(4), row, "")
     util = _picked(util, row, 0.0).astype(float)
@@ -1517,7 +1515,7 @@ def _member_rows(M, md, models: pd.DataFrame, reasons, method, web: _Web) -> pd.
     key = rank * 1e6 + np.minimum(col["utilization"], 1e5)
     worst = _first_per_group(group, -key, n)
     most = _first_per_group(group, -col["av_s_req"], n)  # the stirrups of the model needing most
-    largest = {c: _picked(col[c], _first_per_group(group, -col[c], n), np.nan) for c in ("tie_as_req_mm2", "tie_bars")}
+    largest = lambda c, fill: _picked(col[c], _first_per_group(group, -col[c], n), fill)  # noqa: E731
     beta_s = _picked(col["beta_s_interior"], _first_per_group(group, col["beta_s_interior"], n), np.nan)
     has = worst >= 0
     first = np.full(n, -1)
@@ -1537,12 +1535,12 @@ def _member_rows(M, md, models: pd.DataFrame, reasons, method, web: _Web) -> pd.
         "governing": np.where(has, of_worst("governing", ""), ""),
         "governing_clause": np.where(has, of_worst("governing_clause", ""), ""),
         "governing_combination": np.where(has, of_worst("governing_combination", ""), ""),
-        "tie_as_req_mm2": np.where(has, largest["tie_as_req_mm2"], np.nan),
+        "tie_as_req_mm2": np.where(has, largest("tie_as_req_mm2", np.nan), np.nan),
         "tie_bar": np.where(has, of_worst("tie_bar", ""), ""),
-        "tie_bars": np.where(has, np.nan_to_num(largest["tie_bars"].astype(float)), 0).astype(int),
+        "tie_bars": np.where(has, largest("tie_bars", 0), 0).astype(int),
         "av_s_min": take(web.av_min, np.nan), "av_s_req": np.where(has, _picked(col["av_s_req"], most, np.nan), np.nan),
         "stirrup_bar": np.where(has, _picked(col["stirrup_bar"], most, ""), ""),
-        "stirrup_legs": np.where(has, np.nan_to_num(_picked(col["stirrup_legs"], most, 0).astype(float)), 0).astype(int),
+        "stirrup_legs": np.where(has, _picked(col["stirrup_legs"], most, 0), 0).astype(int),
         "stirrup_spacing_mm": np.where(has, _picked(col["stirrup_spacing_mm"], most, np.nan), np.nan),
         "av_s_prov": np.where(has, _picked(col["av_s_prov"], most, np.nan), np.nan),
         "ah_s_req": take(web.ah_req, np.nan), "web_bar": take(web.sh_bar, ""),

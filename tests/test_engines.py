@@ -162,7 +162,7 @@ def test_part_records_join_as_if_built_at_once():
         whole = pd.DataFrame(records, columns=columns)
         cuts = sorted(set(rng.integers(0, n + 1, size=int(rng.integers(0, 4))).tolist()))
         pieces = [records[a:b] for a, b in zip([0, *cuts], [*cuts, n])]
-        parts = [dict(pd.DataFrame(p, columns=columns).items()) for p in pieces]
+        parts = [pd.DataFrame(p, columns=columns) for p in pieces]
         joined = engine._joined(parts, columns, pd.Index([r["member"] for r in records]))
         pd.testing.assert_frame_equal(joined, whole)
         assert parts == []  # taken out of the parts as joined
@@ -173,9 +173,8 @@ def test_part_records_join_in_input_order():
     in; a member the input lacks (forces without geometry) comes last, by id; the rows of one
     member (its zones) are ordered by the given column, ties kept in the order they came."""
     columns = ["member", "zone", "tag"]
-    parts = [dict(pd.DataFrame({"member": ["B", "ZZ", "A", "B"], "zone": [2, 1, 1, 1],
-                                "tag": ["b2", "zz", "a1", "b1"]}).items()),
-             dict(pd.DataFrame({"member": ["C", "Y", "B"], "zone": [1, 1, 1], "tag": ["c1", "y", "b1'"]}).items())]
+    parts = [pd.DataFrame({"member": ["B", "ZZ", "A", "B"], "zone": [2, 1, 1, 1], "tag": ["b2", "zz", "a1", "b1"]}),
+             pd.DataFrame({"member": ["C", "Y", "B"], "zone": [1, 1, 1], "tag": ["c1", "y", "b1'"]})]
     joined = engine._joined(parts, columns, pd.Index(["C", "B", "A"]), within="zone")
     assert joined["tag"].tolist() == ["c1", "b1", "b1'", "b2", "a1", "y", "zz"]
     assert joined.index.equals(pd.RangeIndex(7))
