@@ -1515,7 +1515,8 @@ def _member_rows(M, md, models: pd.DataFrame, reasons, method, web: _Web) -> pd.
     key = rank * 1e6 + np.minimum(col["utilization"], 1e5)
     worst = _first_per_group(group, -key, n)
     most = _first_per_group(group, -col["av_s_req"], n)  # the stirrups of the model needing most
-    largest = lambda c, fill: _picked(col[c], _first_per_group(group, -col[c], n), fill)  # noqa: E731
+    # the largest tie of a member's models; a zero tie prints as 0, never -0 (+ 0.0)
+    largest = lambda c, fill: _picked(col[c], _first_per_group(group, -col[c], n), fill) + 0.0  # noqa: E731
     beta_s = _picked(col["beta_s_interior"], _first_per_group(group, col["beta_s_interior"], n), np.nan)
     has = worst >= 0
     first = np.full(n, -1)
