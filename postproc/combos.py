@@ -287,24 +287,31 @@ class Candidates:
 
     Candidate k belongs to station ``station[k]``; those of station s are
     ``bounds[s]:bounds[s+1]``. ``values`` holds each candidate's factored V, N, T (signs
-    kept). ``row`` and ``choice`` (one option index per term, -1 beyond the row's
-    terms) name it.
+    kept). ``row`` and ``choices[choice_at[k]]`` (one option index per term, -1 beyond the
+    row's terms) name it: the options are held once per combination of the table, not
+    once per candidate.
     """
 
     station: np.ndarray
     row: np.ndarray
-    choice: np.ndarray
+    choice_at: np.ndarray
+    choices: np.ndarray
     values: dict[str, np.ndarray]
     bounds: np.ndarray
 
     def __len__(self) -> int:
         return len(self.station)
 
+    @property
+    def choice(self) -> np.ndarray:
+        """The option of each term of every candidate, (candidates, terms)."""
+        return self.choices[self.choice_at]
+
     def names(self, cset: ComboSet, which: np.ndarray) -> np.ndarray:
         """Names of the candidates ``which`` (built once per distinct combination)."""
         if not len(which):
             return np.array([], dtype=object)
-        keys = np.column_stack([self.row[which], self.choice[which]])
+        keys = np.column_stack([self.row[which], self.choices[self.choice_at[which]]])
         uniq, inv = _unique_rows(keys)
         text = np.array([cset.rows[k[0]].name(k[1:1 + len(cset.rows[k[0]].terms)]) for k in uniq], dtype=object)
         return text[inv]
@@ -456,15 +463,18 @@ def candidates(cset: ComboSet, case_values: dict[str, np.ndarray], signed=("V", 
         use = [q for j, q in enumerate(coord_q) if k >> j & 1]
         sub = {q: v[:, at] for q, v in case_values.items()}
         group = _dense_candidates if cset.count <= DENSE_LIMIT else _group_candidates
-        st, row, choice, vals = group(cset, sub, [q for q in use if q != tension], tension in use, tension, max_terms)
-        parts.append((at[st], row, choice, vals))
+        st, row, choices, choice_at, vals = group(cset, sub, [q for q in use if q != tension], tension in use,
+                                                  tension, max_terms)
+        parts.append((at[st], row, choices, choice_at, vals))
     station = np.concatenate([p[0] for p in parts])
     order = np.argsort(station, kind="stable")
     station = station[order]
+    before = np.cumsum([0] + [len(p[2]) for p in parts[:-1]])  # each part's options follow the previous part's
     return Candidates(
         station=station, row=np.concatenate([p[1] for p in parts])[order],
-        choice=np.concatenate([p[2] for p in parts])[order],
-        values={q: np.concatenate([p[3][q] for p in parts])[order] for q in quantities},
+        choice_at=np.concatenate([p[3] + b for p, b in zip(parts, before)])[order],
+        choices=np.concatenate([p[2] for p in parts]),
+        values={q: np.concatenate([p[4][q] for p in parts])[order] for q in quantities},
         bounds=np.searchsorted(station, np.arange(s_count + 1)))
 
 
@@ -491,11 +501,11 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
                 + ([vals[tension]] if use_tension else [])
             keep |= _front(coords, valid)
     st_idx, c_idx = np.nonzero(keep)  # station-major
-    choice = np.full((len(c_idx), max_terms), -1, np.int64)
-    choice[:, :keys.shape[1] - 1] = keys[c_idx, 1:]
+    choices = np.full((len(keys), max_terms), -1, np.int64)  # the options of each listed combination
+    choices[:, :keys.shape[1] - 1] = keys[:, 1:]
     values = {q: vals[q][st_idx, c_idx] if q in vals else _combine_at(factors, v, c_idx, st_idx)
               for q, v in case_values.items()}  # what is not summed yet: at the kept entries alone
-    return st_idx, keys[c_idx, 0], choice, values
+    return st_idx, keys[c_idx, 0], choices, c_idx, values
 
 
 def _group_candidates(cset: ComboSet, case_values, active: list[str], use_tension: bool, tension, max_terms):
@@ -541,7 +551,7 @@ def _group_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
     st_idx, k_idx = np.nonzero(keep)  # station-major
     flat = lambda arrays: np.hstack(arrays)[st_idx, k_idx]
     return (st_idx, flat([p[2] for p in parts]), np.concatenate([p[3] for p in parts], axis=1)[st_idx, k_idx],
-            {q: flat([p[1][q] for p in parts]) for q in quantities})
+            np.arange(len(st_idx)), {q: flat([p[1][q] for p in parts]) for q in quantities})
 
 
 def _row_front(base, terms, quantities, coords, s_count):

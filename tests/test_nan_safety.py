@@ -31,7 +31,8 @@ def check(V, N, T, spacing):
                                       fc=np.array([30.0]), fyt=np.array([420.0]), lam=np.array([1.0]),
                                       fy=np.array([420.0]), As=np.array([np.nan]), bf=np.array([np.nan]),
                                       hf=np.array([np.nan])).take(np.zeros(3, np.int64))
-    cand = combos.Candidates(station=np.arange(3), row=np.zeros(3, np.int64), choice=np.zeros((3, 0), np.int64),
+    cand = combos.Candidates(station=np.arange(3), row=np.zeros(3, np.int64), choice_at=np.zeros(3, np.int64),
+                             choices=np.zeros((1, 0), np.int64),
                              values={"V": np.asarray(V, float), "N": np.asarray(N, float),
                                      "T": np.asarray(T, float)}, bounds=np.arange(4))
     dem = demand.required(sec, cand)

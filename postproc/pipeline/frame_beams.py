@@ -201,9 +201,11 @@ def _append(cand: Candidates, stations: np.ndarray, values: dict, rows: np.ndarr
     """``cand`` with one more candidate at each of ``stations``, kept grouped by station."""
     station = np.concatenate([cand.station, stations])
     order = np.argsort(station, kind="stable")
-    choice = np.concatenate([cand.choice, np.full((len(stations), cand.choice.shape[1]), -1, np.int64)])
+    no_terms = np.full((1, cand.choices.shape[1]), -1, np.int64)  # the appended ones are named by extra_names
+    choice_at = np.concatenate([cand.choice_at, np.full(len(stations), len(cand.choices))])
     vals = {q: np.concatenate([v, values.get(q, np.zeros(len(stations)))])[order] for q, v in cand.values.items()}
-    return FrameCandidates(station=station[order], row=np.concatenate([cand.row, rows])[order], choice=choice[order],
+    return FrameCandidates(station=station[order], row=np.concatenate([cand.row, rows])[order],
+                           choice_at=choice_at[order], choices=np.concatenate([cand.choices, no_terms]),
                            values=vals, bounds=np.searchsorted(station[order], np.arange(len(cand.bounds))),
                            first_extra=first_extra, extra_names=names)
 
