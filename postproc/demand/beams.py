@@ -186,16 +186,27 @@ def required(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) 
 
 def torsion_limit_ratio(sec: Section, cand: Candidates, dem: Demand, Aoh, ph) -> np.ndarray:
     """Per station, the largest ratio of 22.7.7.1(a) over the candidates where torsion is
-    considered (0 elsewhere); ``Aoh``, ``ph`` per station for the bar in question."""
+    considered (0 elsewhere); ``Aoh``, ``ph`` per station for the bar in question, or one row
+    per bar (bars, stations): then one row of ratios per bar, the candidates gathered once."""
     p = dem.pairs
+    Aoh, ph = np.asarray(Aoh), np.asarray(ph)
     t = np.flatnonzero(p.torsion)  # the candidates where torsion is considered: the rest give 0
     if not len(t):
-        return np.zeros(len(dem.vu_max))
-    st = cand.station[t]
+        return np.zeros(Aoh.shape[:-1] + dem.vu_max.shape)
+    st = cand.station[t]  # ascending: the candidates are grouped by station
     s = sec.take(st)
-    r = np.zeros(len(p.torsion))
-    r[t] = aci.torsion_section_ok(p.vu[t], p.tu[t], p.vc_hi[t], s.fc, s.b, s.d, Aoh[st], ph[st], sec.u)
-    return _segment_max(r, cand.bounds)
+    r = aci.torsion_section_ok(p.vu[t], p.tu[t], p.vc_hi[t], s.fc, s.b, s.d, Aoh[..., st], ph[..., st], sec.u)
+    out = np.zeros(Aoh.shape[:-1] + dem.vu_max.shape)
+    at, largest = _grouped_max(r, st)
+    out[..., at] = largest  # the ratios are >= 0: the zeros of the other candidates never govern
+    return out
+
+
+def _grouped_max(values: np.ndarray, station: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The stations in ``station`` (ascending, as candidates are grouped) and the largest of
+    ``values`` (last axis) over each one's entries."""
+    head = np.flatnonzero(np.r_[True, station[1:] != station[:-1]])
+    return station[head], np.maximum.reduceat(values, head, axis=-1)
 
 
 def per_leg_need(cand: Candidates, dem: Demand, legs, Aoh) -> np.ndarray:
@@ -203,10 +214,12 @@ def per_leg_need(cand: Candidates, dem: Demand, legs, Aoh) -> np.ndarray:
     the shear steel plus At/s (22.5.8.5.3, 22.7.6.1), over the candidates. ``legs`` and
     ``Aoh`` per station for the bar and legs in question."""
     need = dem.av_env / legs
-    if dem.torsion.any():
+    if dem.torsion.any():  # at the stations with torsion, over their candidates alone
         p = dem.pairs
-        pair_need = p.av / legs[cand.station] + p.ata / Aoh[cand.station]
-        need = np.where(dem.torsion, _segment_max(pair_need, cand.bounds), need)
+        c = np.flatnonzero(dem.torsion[cand.station])
+        st = cand.station[c]
+        at, largest = _grouped_max(p.av[c] / legs[st] + p.ata[c] / Aoh[st], st)
+        need[at] = largest
     return need
 
 

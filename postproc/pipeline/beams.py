@@ -126,19 +126,18 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     starts = grid.offsets[:-1]
     allowed = np.full((len(opt.bars), len(grid.x)), np.inf)
     fits = np.zeros((len(opt.bars), n), bool)
-    torsion_ok = np.ones((len(opt.bars), n), bool)
-    torsion_worst = np.zeros((len(opt.bars), n))  # the largest ratio of 22.7.7.1 per option, regions included
+    # the largest ratio of 22.7.7.1 per option, regions included
+    ratios = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[:, grid.member],
+                                        opt.ph[:, grid.member])
+    torsion_worst = np.maximum.reduceat(ratios, starts, axis=1)
+    torsion_ok = np.maximum.reduceat(np.where(reg.station, 0.0, ratios), starts, axis=1) <= 1.0  # a region's
+    # torsion is refused by the deep step
     for k in range(len(opt.bars)):
         allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module, fp)
         if reg.station.any():
             allowed[k] = np.where(reg.station, deep_step.allowed_spacing(reg, opt.legs[k][grid.member], opt.area[k],
                                                                          st.spacing_module), allowed[k])
         fits[k] = np.minimum.reduceat(allowed[k], starts) >= st.min_spacing
-        ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[k][grid.member],
-                                           opt.ph[k][grid.member])
-        torsion_worst[k] = np.maximum.reduceat(ratio, starts)
-        ratio = np.where(reg.station, 0.0, ratio)  # torsion in a region is refused by the deep step
-        torsion_ok[k] = np.maximum.reduceat(ratio, starts) <= 1.0
     usable = fits & torsion_ok
     option = np.where(usable.any(axis=0), np.argmax(usable, axis=0), -1)
     layouts, reasons = {}, {}
@@ -275,9 +274,6 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     p = dem.pairs
     cs = cand.station
     k_ref = np.where(lay.option >= 0, lay.option, int(np.argmax(opt.Aoh.mean(axis=1))))  # bar for undesigned
-    torsion_ratio = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem,
-                                               opt.Aoh[k_ref[grid.member], grid.member],
-                                               opt.ph[k_ref[grid.member], grid.member]) if p.torsion.any() else None
     # per candidate: the utilization it produces (provided layout, else the section limits)
     if cap is not None:
         pair_u = np.where(prov.on[cs], np.maximum(cap.pair_utilization, p.shear_ratio), p.shear_ratio)
@@ -285,7 +281,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
             tie = np.where(prov.on[cs], np.where(cap.phi_vn > 0, p.vu / cap.phi_vn, 0.0), p.vu)
     else:
         pair_u, tie = p.shear_ratio, p.vu
-    if torsion_ratio is not None:  # the section limit with torsion (22.7.7.1), where no layout is provided
+    if p.torsion.any():  # the section limit with torsion (22.7.7.1), where no layout is provided
         t_ = np.flatnonzero(p.torsion & ~prov.on[cs])
         mt = grid.member[cs[t_]]
         s_ = mb.sec.take(mt)
