@@ -44,6 +44,10 @@ class Section:
         """The section at ``idx`` (per station, per candidate): each array gathered when first read."""
         return _Taken(self, np.asarray(idx))
 
+    def origin(self) -> tuple[Section, np.ndarray | None]:
+        """The section whose arrays these are and the index gathering them (None: these)."""
+        return self, None
+
 
 class _Taken:
     """``Section.take``: the same attributes, each gathered from the whole section on first
@@ -62,6 +66,9 @@ class _Taken:
 
     def take(self, idx: np.ndarray) -> _Taken:
         return _Taken(self._whole, self._idx[idx])
+
+    def origin(self) -> tuple[Section, np.ndarray]:
+        return self._whole, self._idx
 
 
 def section_from_members(b, h, d, fc, fyt, lam, fy, As, bf, hf, u: Edition = SI) -> Section:
@@ -139,32 +146,33 @@ def pair_demand(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = Non
     """Every candidate combination's own requirement. ``sec`` is per station; ``vc_zero`` per
     station, where Vc is taken as zero (18.6.5.2, the hinge zones of special-frame beams)."""
     s = sec.take(cand.station)
+    w, at = s.origin()  # the terms without Nu are taken once per member (w), gathered by ``at``
     u = sec.u
     vu = np.abs(cand.values["V"])
     nu = -cand.values["N"]  # ACI sign: compression positive
     tu = np.abs(cand.values["T"])
     phi = aci.PHI_SHEAR
-    vc_hi = aci.vc_with_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, s.lam, s.rho_w, u)
-    rho_c = np.where(np.isfinite(s.rho_w), s.rho_w, s.rho_w_min)
-    vc_lo = aci.vc_without_min_stirrups(s.fc, s.b, s.d, nu, s.Ag, rho_c, s.lam, u)
+    vc_hi = aci.vc_with_min_stirrups(w.fc, w.b, w.d, nu, w.Ag, w.lam, w.rho_w, u, at=at)
+    rho_c = np.where(np.isfinite(w.rho_w), w.rho_w, w.rho_w_min)
+    vc_lo = aci.vc_without_min_stirrups(w.fc, w.b, w.d, nu, w.Ag, rho_c, w.lam, u, at=at)
     if vc_zero is not None:
         vc_hi, vc_lo = np.where(vc_zero[cand.station], 0.0, vc_hi), np.where(vc_zero[cand.station], 0.0, vc_lo)
-    minimum = vu > np.where(s.avmin_exempt, np.inf, aci.av_min_threshold(s.fc, s.b, s.d, s.lam, u))
+    minimum = vu > np.where(w.avmin_exempt, np.inf, aci.av_min_threshold(w.fc, w.b, w.d, w.lam, u))[at]
     minimum |= s.avmin_exempt & (vu > phi * vc_lo)  # Table 9.6.3.1 beams: only where Vu > phi Vc
     torsion = np.zeros(len(vu), bool)
     ata = np.zeros(len(vu))
     if np.any(tu > 0):
-        torsion = (tu > 0) & (tu >= phi * aci.torsion_threshold(s.fc, s.Acp, s.pcp, nu, s.Ag, s.lam, u))
+        torsion = (tu > 0) & (tu >= phi * aci.torsion_threshold(w.fc, w.Acp, w.pcp, nu, w.Ag, w.lam, u, at=at))
         ata = np.where(torsion, aci.at_over_s(tu, 1.0, s.fyt), 0.0)
         minimum |= torsion  # 9.6.4.1
     # strength: Av/s = (Vu/phi - Vc)/(fyt d); where the minimum is not required, the smaller
     # of the steel with Vc by (c) and with Vc by (a)/(b) topped up to Av,min suffices
     q_hi = aci.av_over_s_for_vs(vu / phi - vc_hi, s.fyt, s.d)
     q_lo = aci.av_over_s_for_vs(vu / phi - vc_lo, s.fyt, s.d)
-    av_min = aci.av_min_over_s(s.fc, s.b, s.fyt, u)
+    av_min = aci.av_min_over_s(w.fc, w.b, w.fyt, u)[at]
     av = np.where(minimum, q_hi, np.minimum(q_lo, np.maximum(q_hi, av_min)))
     return PairDemand(vu=vu, nu=nu, tu=tu, vc_hi=vc_hi, vc_lo=vc_lo, av=av, ata=ata, torsion=torsion,
-                      minimum=minimum, shear_ratio=vu / aci.section_limit(vc_hi, s.fc, s.b, s.d, u))
+                      minimum=minimum, shear_ratio=vu / aci.section_limit(vc_hi, w.fc, w.b, w.d, u, at=at))
 
 
 def required(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) -> Demand:
@@ -172,9 +180,9 @@ def required(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = None) 
     ``vc_zero`` as in pair_demand."""
     p = pair_demand(sec, cand, vc_zero)
     bounds = cand.bounds
-    s = sec.take(cand.station)
+    w, at = sec.take(cand.station).origin()  # the limit once per member, gathered
     u = sec.u
-    heavy_pair = p.vu / aci.PHI_SHEAR - p.vc_hi > u.heavy_vs * aci.sqrt_fc(s.fc, u) * s.b * s.d  # Table 9.7.6.2.2
+    heavy_pair = p.vu / aci.PHI_SHEAR - p.vc_hi > (u.heavy_vs * aci.sqrt_fc(w.fc, u) * w.b * w.d)[at]  # Table 9.7.6.2.2
     heavy = _segment_any(heavy_pair, bounds)
     along, across = aci.max_spacing(np.where(heavy, np.inf, 0.0), sec.fc, sec.b, sec.d, u)
     return Demand(
