@@ -171,3 +171,27 @@ def test_the_inch_pound_demo_zones_span_their_spacings_exactly(tmp_path):
                      "--no-report"]) in (0, 3)
     zones = pd.read_csv(tmp_path / "o" / "zones.csv")
     assert len(zones) > 600 and _inexact_zones(zones, "spacing_in", "start_in", "end_in", 0.002).empty
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.lists(st.tuples(st.sampled_from([0.0, 0.5, 0.5 + 1e-12, 1.0, -1.0]),
+                                   st.sampled_from([0.0, 1.0, 2.0, 2.0 + 1e-12])), min_size=1, max_size=4),
+                min_size=1, max_size=6),
+       st.data())
+def test_the_governing_candidate_of_a_member_is_the_best_of_its_stations_winners(stations, data):
+    """The members' governing combination is picked among the stations' governing ones:
+    the order (largest value to 1e-9, then largest tie, then first) is lexicographic, so
+    the two-step pick equals the direct pick over every candidate of the member. The
+    reference is the rule itself, written as a plain Python max."""
+    from postproc.pipeline import governing
+    values = np.array([v for s in stations for v, _ in s])
+    tie = np.array([t for s in stations for _, t in s])
+    bounds = np.r_[0, np.cumsum([len(s) for s in stations])]
+    cuts = sorted(set(data.draw(st.lists(st.integers(1, len(stations) - 1), max_size=3)) if len(stations) > 1 else []))
+    groups = np.array([0, *cuts, len(stations)])  # members: runs of stations
+    winners = governing(values, tie, bounds)
+    got = winners[governing(values[winners], tie[winners], groups)]
+    for g, (a, b) in enumerate(zip(bounds[groups[:-1]], bounds[groups[1:]])):
+        key = [(np.round(values, 9)[i], np.round(tie, 9)[i], -i) for i in range(a, b)]
+        assert got[g] == a + key.index(max(key))
+    assert governing(values, np.zeros(len(values)), bounds).tolist() == governing(values, None, bounds).tolist()

@@ -140,15 +140,18 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station)
 
 
-def governing(values: np.ndarray, tie: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+def governing(values: np.ndarray, tie: np.ndarray | None, bounds: np.ndarray) -> np.ndarray:
     """Index of the largest value within each segment, ties (to 1e-9) broken by the largest
-    ``tie``, then by the first in order. Segments must not be empty."""
+    ``tie`` (None: none), then by the first in order. Segments must not be empty. The
+    order is lexicographic, so the winner of segments grouped into larger ones is the
+    winner among their winners (``governing(v[w], t[w], groups)`` for w the winners)."""
     seg = np.repeat(np.arange(len(bounds) - 1), np.diff(bounds))
     starts = bounds[:-1]
-    v, t = np.round(values, 9), np.round(tie, 9)
+    v = np.round(values, 9)
     best = v == np.maximum.reduceat(v, starts)[seg]
-    t = np.where(best, t, -np.inf)
-    best &= t == np.maximum.reduceat(t, starts)[seg]
+    if tie is not None:
+        t = np.where(best, np.round(tie, 9), -np.inf)
+        best &= t == np.maximum.reduceat(t, starts)[seg]
     first = np.where(best, -np.arange(len(v)), -len(v))
     return -np.maximum.reduceat(first, starts)
 

@@ -293,7 +293,8 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     gov_station = governing(pair_u, tie, cand.bounds)  # per station: its governing candidate
     station_util = pair_u[gov_station]
     member_bounds = cand.bounds[grid.offsets]
-    gov_member = governing(pair_u, tie, member_bounds)  # per member
+    gov_member = gov_station[governing(station_util, tie[gov_station], grid.offsets)]  # per member: its stations'
+    # winners
     names_gov = cand.names(cset, np.concatenate([gov_station, gov_member]))
     name_station, name_member = names_gov[:len(gov_station)], names_gov[len(gov_station):]
 
@@ -383,7 +384,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, dem: demand.Demand, opt: Op
     g = gov_station
     k_st = k_ref[grid.member]
     Aoh_st, ph_st = opt.Aoh[k_st, grid.member], opt.ph[k_st, grid.member]
-    largest_v = governing(p.vu, np.zeros(len(p.vu)), cand.bounds)
+    largest_v = governing(p.vu, None, cand.bounds)
     on = prov.on
     with np.errstate(divide="ignore", invalid="ignore"):
         av_prov = np.where(on & np.isfinite(prov.spacing), prov.legs * prov.area / prov.spacing,

@@ -869,8 +869,8 @@ def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax
     at_case = np.where(cases.torsion, cases.ata / aoh[cases.station], 0.0)
     at_env = demand.segment_max(at_case, cases.bounds)
     # Av/s each direction needs at the least 1/s of its station's cases, with the chosen legs
-    largest_v = governing(cases.vu_v, np.zeros(len(cases.vu_v)), cases.bounds)
-    largest_vb = governing(cases.vu_vb, np.zeros(len(cases.vu_vb)), cases.bounds)
+    largest_v = governing(cases.vu_v, None, cases.bounds)
+    largest_vb = governing(cases.vu_vb, None, cases.bounds)
     s_max = _pick([a.s_max for a in lay.allowed], k)
     s_allowed = _pick([a.spacing for a in lay.allowed], k)
     with np.errstate(divide="ignore"):
