@@ -428,7 +428,11 @@ def design_part(task: Task | str, members: pd.DataFrame, cset: combos_mod.ComboS
     if stations_dir is not None and traces:
         with stages.clock("trace write"):
             trace = pa.concat_tables(traces, promote_options="default")
-            pq.write_table(trace.rename_columns(U.cols(trace.column_names)), Path(stations_dir) / task.trace_name)
+            trace = trace.rename_columns(U.cols(trace.column_names))
+            # dictionaries for the text and flag columns alone: the station values seldom repeat, and
+            # building their dictionaries took half the write (the file is about 7 % larger)
+            pq.write_table(trace, Path(stations_dir) / task.trace_name,
+                           use_dictionary=[f.name for f in trace.schema if not pa.types.is_floating(f.type)])
     positions = pd.concat([o.stirrups for o in outputs], ignore_index=True) if outputs \
         else pd.DataFrame(columns=["member", "x_mm"])
     tables: dict[str, list[pd.DataFrame]] = {}
