@@ -126,12 +126,12 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     starts = grid.offsets[:-1]
     allowed = np.full((len(opt.bars), len(grid.x)), np.inf)
     fits = np.zeros((len(opt.bars), n), bool)
-    # the largest ratio of 22.7.7.1 per option, regions included
+    # the largest ratio of 22.7.7.1 per option, regions included; in a region torsion is refused
+    # by the deep step, so it does not rule an option out
     ratios = demand.torsion_limit_ratio(mb.sec.take(grid.member), cand, dem, opt.Aoh[:, grid.member],
                                         opt.ph[:, grid.member])
     torsion_worst = np.maximum.reduceat(ratios, starts, axis=1)
-    torsion_ok = np.maximum.reduceat(np.where(reg.station, 0.0, ratios), starts, axis=1) <= 1.0  # a region's
-    # torsion is refused by the deep step
+    torsion_ok = np.maximum.reduceat(np.where(reg.station, 0.0, ratios), starts, axis=1) <= 1.0
     for k in range(len(opt.bars)):
         allowed[k] = _allowed_spacing(k, opt, dem, cand, grid, here, st.spacing_module, fp)
         if reg.station.any():
