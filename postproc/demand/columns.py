@@ -194,20 +194,19 @@ class Cases:
         return Cases(**out, bounds=np.searchsorted(out["station"], np.arange(n_stations + 1)))
 
 
-def _vc_pair(sec: ColumnSection, nu: np.ndarray, direction: str) -> tuple[np.ndarray, np.ndarray]:
+def _vc_pair(sec: ColumnSection, nu: np.ndarray, direction: str, at: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     bw, d, rho = (getattr(sec, f"{k}_{direction}") for k in ("bw", "d", "rho"))
-    hi = aci.vc_with_min_stirrups(sec.fc, bw, d, nu, sec.Ag, sec.lam, rho, u=sec.u)
-    lo = aci.vc_without_min_stirrups(sec.fc, bw, d, nu, sec.Ag, rho, sec.lam, u=sec.u)
+    hi = aci.vc_with_min_stirrups(sec.fc, bw, d, nu, sec.Ag, sec.lam, rho, u=sec.u, at=at)
+    lo = aci.vc_without_min_stirrups(sec.fc, bw, d, nu, sec.Ag, rho, sec.lam, u=sec.u, at=at)
     return hi, lo
 
 
 def combination_cases(sec_st: ColumnSection, cand: Candidates) -> dict[str, np.ndarray]:
     """The candidate combinations as demand cases. ``sec_st`` per station."""
-    s = sec_st.take(cand.station)
     nu = -cand.values["N"]  # ACI sign: compression positive
     vu_v, vu_vb = np.abs(cand.values["V"]), np.abs(cand.values.get("Vb", np.zeros(len(nu))))
     tu = np.abs(cand.values.get("T", np.zeros(len(nu))))
-    return _cases(s, cand.station, np.full(len(nu), COMBINATION), np.arange(len(nu)), vu_v, vu_vb, nu, tu,
+    return _cases(sec_st, cand.station, np.full(len(nu), COMBINATION), np.arange(len(nu)), vu_v, vu_vb, nu, tu,
                   np.zeros(len(nu), bool), np.zeros(len(nu), bool))
 
 
@@ -220,23 +219,24 @@ def capacity_cases(sec_st: ColumnSection, ve_v: np.ndarray, ve_vb: np.ndarray, n
     on_v = np.flatnonzero(np.isfinite(ve_v) & (ve_v > 0))
     on_vb = np.flatnonzero(np.isfinite(ve_vb) & (ve_vb > 0))
     st = np.concatenate([on_v, on_vb])
-    s = sec_st.take(st)
     n = len(st)
     vu_v = np.concatenate([ve_v[on_v], np.zeros(len(on_vb))])
     vu_vb = np.concatenate([np.zeros(len(on_v)), ve_vb[on_vb]])
     kind = np.concatenate([np.full(len(on_v), CAPACITY_V), np.full(len(on_vb), CAPACITY_VB)])
     zero_v = np.concatenate([vc_zero_v[on_v], np.zeros(len(on_vb), bool)])
     zero_vb = np.concatenate([np.zeros(len(on_v), bool), vc_zero_vb[on_vb]])
-    return _cases(s, st, kind, np.full(n, -1), vu_v, vu_vb, nu_least[st], np.zeros(n), zero_v, zero_vb)
+    return _cases(sec_st, st, kind, np.full(n, -1), vu_v, vu_vb, nu_least[st], np.zeros(n), zero_v, zero_vb)
 
 
 def _cases(s: ColumnSection, station, kind, cand, vu_v, vu_vb, nu, tu, zero_v, zero_vb) -> dict[str, np.ndarray]:
-    vc_v_hi, vc_v_lo = _vc_pair(s, nu, "v")
-    vc_vb_hi, vc_vb_lo = _vc_pair(s, nu, "vb")
+    """The demand cases at ``station`` (``s`` per station: the terms without Nu are taken once
+    per station and gathered)."""
+    vc_v_hi, vc_v_lo = _vc_pair(s, nu, "v", station)
+    vc_vb_hi, vc_vb_lo = _vc_pair(s, nu, "vb", station)
     vc_v_hi, vc_v_lo = np.where(zero_v, 0.0, vc_v_hi), np.where(zero_v, 0.0, vc_v_lo)
     vc_vb_hi, vc_vb_lo = np.where(zero_vb, 0.0, vc_vb_hi), np.where(zero_vb, 0.0, vc_vb_lo)
-    torsion = (tu > 0) & (tu >= PHI * aci.torsion_threshold(s.fc, s.Acp, s.pcp, nu, s.Ag, s.lam, u=s.u))
-    ata = np.where(torsion, aci.at_over_s(tu, 1.0, s.fyt), 0.0)
+    torsion = (tu > 0) & (tu >= PHI * aci.torsion_threshold(s.fc, s.Acp, s.pcp, nu, s.Ag, s.lam, u=s.u, at=station))
+    ata = np.where(torsion, aci.at_over_s(tu, 1.0, s.fyt[station]), 0.0)
     # 10.6.2.1 with Vc of Table 22.5.5.1(c), the Vc of a column without Av,min (conservative)
     minimum_v = aci.column_needs_av_min(vu_v, vc_v_lo) | torsion
     minimum_vb = aci.column_needs_av_min(vu_vb, vc_vb_lo) | torsion
