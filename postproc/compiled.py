@@ -34,11 +34,14 @@ def _removes(stack, signs, q, s, o, e):
 @njit(cache=True)
 def _station_front(stack, s, signs, valid, out, kept):
     """``combos._front`` of station s for every sign quadrant (``signs`` (Q, m)), OR-ed into
-    ``out[s]``; ``stack`` (S, K, m), ``valid`` (S, K). Per quadrant the entries are taken in
-    turn against the front so far: one that a kept entry drops is dropped, otherwise it
+    ``out[s]``; ``stack`` (S, K, m), ``valid`` (S, K). The first quadrant's entries are taken
+    in turn against the front so far: one that a kept entry drops is dropped, otherwise it
     drops the kept entries it removes and is kept. The relation is transitive and does not
     depend on the order the entries are taken in, so what is kept at the end is what no
-    entry drops: ``combos._front``'s set. With one coordinate, the first largest."""
+    entry drops: ``combos._front``'s set. A later quadrant can only add the entries not kept
+    yet; where they are few (three quarters of the entries or fewer, as with three or more
+    coordinates, where most entries are on some front), each of them alone is taken against
+    every entry instead: the same set. With one coordinate, the first largest."""
     K, m = stack.shape[1], stack.shape[2]
     for q in range(signs.shape[0]):
         if m == 1:
@@ -48,6 +51,22 @@ def _station_front(stack, s, signs, valid, out, kept):
                     best = e
             if best >= 0:
                 out[s, best] = True
+            continue
+        left = 0  # valid entries not kept yet
+        for e in range(K):
+            if valid[s, e] and not out[s, e]:
+                left += 1
+        if q > 0 and 4 * left <= 3 * K:
+            for e in range(K):
+                if out[s, e] or not valid[s, e]:
+                    continue
+                dropped = False
+                for o in range(K):
+                    if o != e and valid[s, o] and _removes(stack, signs, q, s, o, e):
+                        dropped = True
+                        break
+                if not dropped:
+                    out[s, e] = True
             continue
         n = 0
         for e in range(K):
@@ -80,24 +99,31 @@ def front(stack, signs, valid, out):
 
 
 @njit(cache=True)
-def dense_front(factors, cols, values, signs, out):
+def dense_front(factors_t, cols, values, signs, out):
     """``combos._dense_candidates``' front without its (S, K) arrays: station by station,
     each combination's coordinates summed as ``combos._combine`` sums them (0, then
-    factor x case value case by case over ``cols`` in order), then ``_station_front``.
-    ``factors`` (K, n_cases), ``values`` (S, m, n_cases), ``signs`` (Q, m), ``out`` (S, K)."""
+    factor x case value case by case over ``cols`` in order; all combinations at once, case
+    by case, which the compiler vectorises), then ``_station_front``.
+    ``factors_t`` (n_cases, K), ``values`` (S, m, n_cases), ``signs`` (Q, m), ``out`` (S, K)."""
     S, m = values.shape[0], values.shape[1]
-    K = factors.shape[0]
+    K = factors_t.shape[1]
+    sums = np.empty((m, K))
     stack = np.empty((1, K, m))
     valid = np.ones((1, K), np.bool_)
     row = np.zeros((1, K), np.bool_)
     kept = np.empty(K, np.int64)
     for s in range(S):
+        for j in range(m):
+            acc = sums[j]
+            acc[:] = 0.0
+            for c in cols:
+                v = values[s, j, c]
+                f = factors_t[c]
+                for k in range(K):
+                    acc[k] += v * f[k]
         for k in range(K):
             for j in range(m):
-                acc = 0.0
-                for c in cols:
-                    acc += values[s, j, c] * factors[k, c]
-                stack[0, k, j] = acc
+                stack[0, k, j] = sums[j, k]
         row[0, :] = False
         _station_front(stack, 0, signs, valid, row, kept)
         out[s, :] = row[0, :]

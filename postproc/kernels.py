@@ -95,7 +95,7 @@ def dense_front(factors: np.ndarray, case_values: list[np.ndarray], signs: np.nd
     cols = np.flatnonzero(np.asarray(factors).any(axis=0)).astype(np.int64)
     by_station = np.ascontiguousarray(np.moveaxis(np.stack(case_values).astype(np.float64), 2, 0))  # (S, m, n_cases)
     out = np.zeros((by_station.shape[0], len(factors)), bool)
-    _load(required=True).dense_front(np.ascontiguousarray(factors, dtype=np.float64), cols, by_station,
+    _load(required=True).dense_front(np.ascontiguousarray(np.asarray(factors, np.float64).T), cols, by_station,
                                      np.ascontiguousarray(signs, dtype=np.float64), out)
     return out
 

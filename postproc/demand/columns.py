@@ -274,25 +274,49 @@ def strength(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: float
     (c); with torsion the two outer legs of each direction give At/s first (22.7.6.1). The
     interaction of the two directions by ``rule`` (22.5.1.10, 22.5.1.11 or elliptical). ``s``,
     ``tie``, ``av_min_*`` per case."""
-    at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)  # At/s of one leg
-    out = {}
-    for k, legs in (("v", tie["legs_v"]), ("vb", tie["legs_vb"])):
-        av_s = legs * area * t
-        has_min = av_s >= (av_min_v if k == "v" else av_min_vb) * (1 - TOL)
-        vc = np.where(has_min, getattr(c, f"vc_{k}_hi"), getattr(c, f"vc_{k}_lo"))
-        bw, d = getattr(s, f"bw_{k}"), getattr(s, f"d_{k}")
-        vs = np.minimum(np.maximum(av_s - 2.0 * at, 0.0) * s.fyt * d, aci.vs_max(s.fc, bw, d, u=s.u))
-        phi_vn = PHI * (vc + vs)
-        vu = getattr(c, f"vu_{k}")
+    return _ShearTerms.of(c, s, tie, av_min_v, av_min_vb).strength(area, t, rule)
+
+
+@dataclass(frozen=True)
+class _ShearTerms:
+    """What ``strength`` takes from the cases, the section and the tie, none of it a function of
+    t: taken once for the many t of ``required_t``'s bisection."""
+
+    at: np.ndarray  # At/s of one leg
+    torsion: np.ndarray
+    fyt: np.ndarray
+    direction: tuple  # per direction: (legs, Av,min/s, Vc (a)/(b), Vc (c), d, Vs,max, Vu)
+
+    @classmethod
+    def of(cls, c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], av_min_v, av_min_vb) -> _ShearTerms:
+        at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)
+        return cls(at, c.torsion, s.fyt, tuple(
+            (tie[f"legs_{k}"], amin, getattr(c, f"vc_{k}_hi"), getattr(c, f"vc_{k}_lo"), getattr(s, f"d_{k}"),
+             aci.vs_max(s.fc, getattr(s, f"bw_{k}"), getattr(s, f"d_{k}"), u=s.u), getattr(c, f"vu_{k}"))
+            for k, amin in (("v", av_min_v), ("vb", av_min_vb))))
+
+    def strength(self, area: float, t: np.ndarray, rule: str) -> Strength:
+        at = self.at
+        out = []
+        for legs, amin, vc_hi, vc_lo, d, vs_max, vu in self.direction:
+            av_s = legs * area * t
+            has_min = av_s >= amin * (1 - TOL)
+            vc = np.where(has_min, vc_hi, vc_lo)
+            vs = np.minimum(np.maximum(av_s - 2.0 * at, 0.0) * self.fyt * d, vs_max)
+            phi_vn = PHI * (vc + vs)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                out.append((np.where(vu > 0, vu / phi_vn, 0.0), phi_vn, has_min))
+        (r_v, pv, hm_v), (r_vb, pvb, hm_vb) = out
+        u = aci.biaxial_interaction(r_v, r_vb, rule)
         with np.errstate(divide="ignore", invalid="ignore"):
-            out[k] = (np.where(vu > 0, vu / phi_vn, 0.0), phi_vn, has_min)
-    (r_v, pv, hm_v), (r_vb, pvb, hm_vb) = out["v"], out["vb"]
-    u = aci.biaxial_interaction(r_v, r_vb, rule)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        leg = np.where(c.torsion, np.where(area * t > 0, at / (area * t), np.inf), 0.0)
-    u = np.maximum(u, leg)
-    u = np.where(np.isnan(u), np.inf, u)
-    return Strength(r_v, r_vb, pv, pvb, hm_v, hm_vb, u)
+            leg = np.where(self.torsion, np.where(area * t > 0, at / (area * t), np.inf), 0.0)
+        u = np.maximum(u, leg)
+        u = np.where(np.isnan(u), np.inf, u)
+        return Strength(r_v, r_vb, pv, pvb, hm_v, hm_vb, u)
+
+    def take(self, idx: np.ndarray) -> _ShearTerms:
+        return _ShearTerms(self.at[idx], self.torsion[idx], self.fyt[idx],
+                           tuple(tuple(a[idx] for a in terms) for terms in self.direction))
 
 
 def av_min(s: ColumnSection) -> tuple[np.ndarray, np.ndarray]:
@@ -313,18 +337,20 @@ def required_t(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: flo
            (aci.vs_max(s.fc, s.bw_vb, s.d_vb, u=s.u) / (s.fyt * s.d_vb) + 2 * at) / (tie["legs_vb"] * area),
            amin_v / (tie["legs_v"] * area), amin_vb / (tie["legs_vb"] * area), lo]
     hi = np.maximum.reduce(cap) * (1.0 + 1e-6) + 1e-12
-    ok = lambda t: strength(c, s, tie, area, t, amin_v, amin_vb, rule).utilization <= 1.0 + TOL
-    feasible = ok(hi)
-    done = ok(lo)
-    a, b = lo.copy(), hi.copy()
-    todo = ~done & feasible
-    for _ in range(BISECTION_STEPS):
-        if not todo.any():
-            break
-        mid = 0.5 * (a + b)
-        good = ok(mid)
-        b = np.where(todo & good, mid, b)
-        a = np.where(todo & ~good, mid, a)
+    terms = _ShearTerms.of(c, s, tie, amin_v, amin_vb)
+    ok = lambda tm, t: tm.strength(area, t, rule).utilization <= 1.0 + TOL
+    feasible = ok(terms, hi)
+    done = ok(terms, lo)
+    b = hi.copy()
+    todo = np.flatnonzero(~done & feasible)  # bisected alone: each case's steps are its own
+    if len(todo):
+        terms, a_t, b_t = terms.take(todo), lo[todo], hi[todo]
+        for _ in range(BISECTION_STEPS):
+            mid = 0.5 * (a_t + b_t)
+            good = ok(terms, mid)
+            b_t = np.where(good, mid, b_t)
+            a_t = np.where(good, a_t, mid)
+        b[todo] = b_t
     t = np.where(done, lo, np.where(feasible, b, np.inf))
     return np.where(need_any, t, 0.0)
 

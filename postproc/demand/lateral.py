@@ -26,8 +26,13 @@ PHI = aci.PHI_SHEAR
 class Lateral:
     ratio: np.ndarray  # per candidate: Vb / phi Vn about the other axis (and over its section limit)
     interaction: np.ndarray  # per candidate: both directions together
-    fails: np.ndarray  # per station: a check about the other axis fails
-    why: np.ndarray  # per station: which ('' where none)
+    fails: np.ndarray  # per candidate: a check about the other axis fails
+    reason: np.ndarray  # per candidate: which, an index into REASONS (0 where none)
+
+
+# what fails about the other axis, the first that applies
+REASONS = ("", "Vu and Vb together exceed phi Vn (22.5.1.10, 22.5.1.11)", "Vb needs Av,min across b (9.6.3.1)",
+           "the stirrups are wider apart than d/2 about the other axis (9.7.6.2.2)")
 
 
 def horizontal_legs(legs: np.ndarray, closed: np.ndarray) -> np.ndarray:
@@ -55,8 +60,5 @@ def check(b, h, d, fc, fyt, lam, Ag, vb, nu, ratio_v, legs_b, bar_area, spacing,
     r = np.nan_to_num(np.maximum(r, limit), nan=np.inf)
     both = aci.biaxial_interaction(np.nan_to_num(ratio_v, nan=np.inf), r, rule)
     need_min = vb > aci.av_min_threshold(fc, bw, dd, lam, u)
-    why = np.where(both > 1 + tol, "Vu and Vb together exceed phi Vn (22.5.1.10, 22.5.1.11)",
-                   np.where(need_min & ~has_min, "Vb needs Av,min across b (9.6.3.1)",
-                            np.where(need_min & (spacing > dd / 2 * (1 + tol)),
-                                     "the stirrups are wider apart than d/2 about the other axis (9.7.6.2.2)", "")))
-    return Lateral(r, both, why != "", why)
+    reason = np.select([both > 1 + tol, need_min & ~has_min, need_min & (spacing > dd / 2 * (1 + tol))], [1, 2, 3], 0)
+    return Lateral(r, both, reason > 0, reason)

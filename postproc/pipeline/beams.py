@@ -580,7 +580,7 @@ def _check_vb(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options
         if lay.option[m] >= 0 and len(bad):
             j = sl.start + bad[0]
             lay.option[m] = -1
-            lay.reasons[m] = ("resize", f"{got.why[j]} at x = {rs.x_clear[cs[j]]:,.0f} {U.length} "
+            lay.reasons[m] = ("resize", f"{lateral.REASONS[got.reason[j]]} at x = {rs.x_clear[cs[j]]:,.0f} {U.length} "
                                         f"({vb[j] / U.per_force:,.1f} {U.force}): the stirrups are designed for V and "
                                         "checked for Vb, not designed for it")
     return replace(cap, pair_utilization=np.where(on, np.maximum(cap.pair_utilization, got.interaction),
