@@ -208,6 +208,26 @@ def test_compiled_front_keeps_the_same_entries_as_numpy(data, monkeypatch):
             assert numpy_front[s_, e] == (valid[s_, e] and not dropped)
 
 
+@pytest.mark.skipif(not kernels.available(), reason="numba is not installed")
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=hs.data())
+def test_compiled_front_of_several_quadrants_is_the_union_of_the_numpy_fronts(data, monkeypatch):
+    """The compiled front of every sign quadrant at once (as the dense candidates take it: a
+    later quadrant takes only the entries not kept yet, each against every entry, where they
+    are few) keeps what the numpy front of each quadrant keeps, OR-ed. Small integers make
+    ties common and, with three or four coordinates, most entries lie on some front."""
+    S, K, m = data.draw(hs.integers(1, 6)), data.draw(hs.integers(1, 24)), data.draw(hs.integers(2, 4))
+    ints = hs.integers(-3, 3)
+    coords = [np.array([[data.draw(ints) for _ in range(K)] for _ in range(S)], float) for _ in range(m)]
+    valid = np.array([[data.draw(hs.booleans()) or data.draw(hs.booleans()) for _ in range(K)] for _ in range(S)])
+    quadrants = [list(q) + [1.0] for q in itertools.product((1.0, -1.0), repeat=m - 1)]  # the last: tension
+    monkeypatch.setenv(kernels.ENV, "numpy")
+    expected = np.zeros((S, K), bool)
+    for q in quadrants:
+        expected |= combos._front([sg * c for sg, c in zip(q, coords)], valid)
+    assert np.array_equal(kernels.front(np.stack(coords), np.array(quadrants), valid), expected)
+
+
 def _drops(o, e, o_first):
     """o drops e: one coordinate, o larger or equal and first; two, o ahead in the first
     (larger, or equal and first) and at least e in the second; three or more, o at least e
