@@ -331,10 +331,12 @@ def _unique_rows(keys: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return keys[first], inv.reshape(-1)
 
 
-def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
+def _front(coords: list[np.ndarray], valid: np.ndarray, only: np.ndarray | None = None) -> np.ndarray:
     """(S, K) bool: the entries of each station (row) that no other valid entry of the same
     station dominates in the given coordinates (each (S, K); larger is worse for the
-    design). Exact ties may keep more than one (a superset is always safe).
+    design). Exact ties may keep more than one (a superset is always safe). ``only``: the
+    entries whose place on the front is asked (the others come back False, but still drop
+    entries); by default every valid one.
 
     Exactly, entry o drops entry e (o before e: o_first): with one coordinate, o larger or
     equal and first (the first largest is kept); with two, o ahead in the first (larger, or
@@ -343,17 +345,18 @@ def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
     is transitive; the kept entries are the valid ones no valid entry drops.
     ``postproc.kernels.front`` is the compiled twin."""
     S, K = valid.shape
+    asked = valid if only is None else valid & only
     if K <= 1:
-        return valid.copy()
+        return asked.copy()
     if kernels.use_compiled(S * K * len(coords)):  # the same set, entry by entry against the front so far
-        return kernels.front(np.stack(coords), np.ones((1, len(coords))), valid)
+        return kernels.front(np.stack(coords), np.ones((1, len(coords))), valid) & asked
     neg = -np.inf
     masked = (lambda c: c) if valid.all() else (lambda c: np.where(valid, c, neg))  # invalid: never on the front
     if len(coords) == 1:
         a = masked(coords[0])
         out = np.zeros((S, K), bool)
         out[np.arange(S), np.argmax(a, axis=1)] = True
-        return out & valid
+        return out & asked
     if len(coords) == 2:
         a, b = (masked(c) for c in coords)
         order = np.argsort(-a, axis=1, kind="stable")  # a descending; ties keep their order
@@ -361,33 +364,43 @@ def _front(coords: list[np.ndarray], valid: np.ndarray) -> np.ndarray:
         before = np.maximum.accumulate(np.hstack([np.full((S, 1), neg), bs[:, :-1]]), axis=1)
         out = np.zeros((S, K), bool)
         np.put_along_axis(out, order, bs > before, axis=1)
-        return out & valid
+        return out & asked
     out = valid.copy()
     stack = np.stack([masked(c) for c in coords])  # (k, S, K)
     # first against a few strong entries of each station (the best in each coordinate and
-    # in their sum): most entries fall to one of them; then pairwise among the rest
+    # in their sum): most entries fall to one of them; then pairwise, the entries asked
+    # about against the rest (an entry something drops is dropped by one of these: the
+    # relation is transitive)
     pivots = np.stack([np.argmax(c, axis=1) for c in stack] + [np.argmax(stack.sum(axis=0), axis=1)], axis=1)
     piv = np.take_along_axis(stack, np.broadcast_to(pivots, (len(coords),) + pivots.shape), axis=2)  # (k, S, M)
     ge = np.all(piv[:, :, :, None] >= stack[:, :, None, :], axis=0)  # [s, pivot, entry]
     gt = np.any(piv[:, :, :, None] > stack[:, :, None, :], axis=0)
     out &= ~(ge & gt).any(axis=1)
-    survivors = out.sum(axis=1)
-    K2 = int(survivors.max(initial=0))
-    order = np.argsort(~out, axis=1, kind="stable")[:, :max(K2, 1)]  # each station's survivors first
-    sub = np.take_along_axis(stack, np.broadcast_to(order, (len(coords),) + order.shape), axis=2)
-    sub_ok = np.take_along_axis(out, order, axis=1)
-    sub = np.where(sub_ok[None], sub, neg)
-    K2 = sub.shape[2]
-    earlier = np.tri(K2, k=-1, dtype=bool).T[None, :, :]  # o2 < o1: breaks exact ties
-    keep_sub = sub_ok.copy()
-    step = max(1, PAIRWISE_CELLS // (K2 * K2))
+
+    def first(mask):  # each station's entries of ``mask`` first (in order), their coordinates, and which are real
+        order = np.argsort(~mask, axis=1, kind="stable")[:, :max(int(mask.sum(axis=1).max(initial=0)), 1)]
+        ok = np.take_along_axis(mask, order, axis=1)
+        sub = np.take_along_axis(stack, np.broadcast_to(order, (len(coords),) + order.shape), axis=2)
+        return order, ok, np.where(ok[None], sub, neg)
+
+    by, by_ok, by_sub = first(out)  # the entries that may drop others
+    at, at_ok, at_sub = first(out & asked)  # the entries asked about
+    keep_at = at_ok.copy()
+    step = max(1, PAIRWISE_CELLS // (by.shape[1] * at.shape[1]))
     for s0 in range(0, S, step):  # pairwise, in slices of stations: memory stays bounded
-        part = sub[:, s0:s0 + step]
-        ge = np.all(part[:, :, :, None] >= part[:, :, None, :], axis=0)  # [s, o2, o1]: o2 at least as bad
-        gt = np.any(part[:, :, :, None] > part[:, :, None, :], axis=0)
-        keep_sub[s0:s0 + step] &= ~(ge & (gt | earlier) & sub_ok[s0:s0 + step, :, None]).any(axis=1)
+        sl = slice(s0, s0 + step)
+        o2, o1 = by_sub[:, sl, :, None], at_sub[:, sl, None, :]
+        ge = o2[0] >= o1[0]  # [s, o2, o1]: o2 at least as bad in every coordinate ...
+        gt = o2[0] > o1[0]  # ... and worse in one
+        for j in range(1, len(coords)):
+            ge &= o2[j] >= o1[j]
+            gt |= o2[j] > o1[j]
+        gt |= by[sl, :, None] < at[sl, None, :]  # or equal in all and earlier: breaks exact ties
+        ge &= gt
+        ge &= by_ok[sl, :, None]
+        keep_at[sl] &= ~ge.any(axis=1)
     out = np.zeros((S, K), bool)
-    np.put_along_axis(out, order, keep_sub, axis=1)
+    np.put_along_axis(out, at, keep_at, axis=1)
     return out
 
 
@@ -499,7 +512,7 @@ def _dense_candidates(cset: ComboSet, case_values, active: list[str], use_tensio
         for signs in quadrants:
             coords = [vals[q] if sg > 0 else flipped[q] for sg, q in zip(signs, active)] \
                 + ([vals[tension]] if use_tension else [])
-            keep |= _front(coords, valid)
+            keep |= _front(coords, valid, only=~keep)  # a later quadrant can only add what is not kept yet
     st_idx, c_idx = np.nonzero(keep)  # station-major
     choices = np.full((len(keys), max_terms), -1, np.int64)  # the options of each listed combination
     choices[:, :keys.shape[1] - 1] = keys[:, 1:]

@@ -228,6 +228,20 @@ def test_compiled_front_of_several_quadrants_is_the_union_of_the_numpy_fronts(da
     assert np.array_equal(kernels.front(np.stack(coords), np.array(quadrants), valid), expected)
 
 
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=hs.data())
+def test_front_asked_about_some_entries_is_the_whole_front_there(data, monkeypatch):
+    """``_front(..., only=mask)``, the numpy path a later sign quadrant takes (the entries not
+    kept yet asked about, every valid entry still dropping), is the whole front within the mask."""
+    monkeypatch.setenv(kernels.ENV, "numpy")
+    S, K, m = data.draw(hs.integers(1, 6)), data.draw(hs.integers(1, 24)), data.draw(hs.integers(1, 4))
+    ints = hs.integers(-3, 3)
+    coords = [np.array([[data.draw(ints) for _ in range(K)] for _ in range(S)], float) for _ in range(m)]
+    valid = np.array([[data.draw(hs.booleans()) or data.draw(hs.booleans()) for _ in range(K)] for _ in range(S)])
+    only = np.array([[data.draw(hs.booleans()) for _ in range(K)] for _ in range(S)])
+    assert np.array_equal(combos._front(coords, valid, only=only), combos._front(coords, valid) & only)
+
+
 def _drops(o, e, o_first):
     """o drops e: one coordinate, o larger or equal and first; two, o ahead in the first
     (larger, or equal and first) and at least e in the second; three or more, o at least e
