@@ -345,9 +345,9 @@ def _front(coords: list[np.ndarray], valid: np.ndarray, only: np.ndarray | None 
     is transitive; the kept entries are the valid ones no valid entry drops.
     ``postproc.kernels.front`` is the compiled twin."""
     S, K = valid.shape
-    asked = valid if only is None else valid & only
+    asked = valid.copy() if only is None else valid & only
     if K <= 1:
-        return asked.copy()
+        return asked
     if kernels.use_compiled(S * K * len(coords)):  # the same set, entry by entry against the front so far
         return kernels.front(np.stack(coords), np.ones((1, len(coords))), valid) & asked
     neg = -np.inf
@@ -377,31 +377,35 @@ def _front(coords: list[np.ndarray], valid: np.ndarray, only: np.ndarray | None 
     gt = np.any(piv[:, :, :, None] > stack[:, :, None, :], axis=0)
     out &= ~(ge & gt).any(axis=1)
 
-    def first(mask):  # each station's entries of ``mask`` first (in order), their coordinates, and which are real
-        order = np.argsort(~mask, axis=1, kind="stable")[:, :max(int(mask.sum(axis=1).max(initial=0)), 1)]
-        ok = np.take_along_axis(mask, order, axis=1)
-        sub = np.take_along_axis(stack, np.broadcast_to(order, (len(coords),) + order.shape), axis=2)
-        return order, ok, np.where(ok[None], sub, neg)
-
-    by, by_ok, by_sub = first(out)  # the entries that may drop others
-    at, at_ok, at_sub = first(out & asked)  # the entries asked about
-    keep_at = at_ok.copy()
-    step = max(1, PAIRWISE_CELLS // (by.shape[1] * at.shape[1]))
-    for s0 in range(0, S, step):  # pairwise, in slices of stations: memory stays bounded
-        sl = slice(s0, s0 + step)
-        o2, o1 = by_sub[:, sl, :, None], at_sub[:, sl, None, :]
+    asked &= out
+    by_order = np.argsort(~out, axis=1, kind="stable")  # each station's droppers first, in order
+    at_order = np.argsort(~asked, axis=1, kind="stable")  # and the entries asked about
+    n_by, n_at = out.sum(axis=1), asked.sum(axis=1)
+    cells = n_by * n_at
+    stations = np.argsort(cells, kind="stable")[np.count_nonzero(cells == 0):]  # alike sizes together: little padding
+    keep = np.zeros((S, K), bool)
+    s0 = 0
+    while s0 < len(stations):  # pairwise, in slices of stations: memory stays bounded
+        fits = np.arange(1, len(stations) - s0 + 1) * cells[stations[s0:]] <= PAIRWISE_CELLS
+        idx = stations[s0:s0 + max(1, int(np.count_nonzero(fits)))]
+        s0 += len(idx)
+        by, at = by_order[idx, :n_by[idx].max()], at_order[idx, :n_at[idx].max()]
+        by_ok = np.take_along_axis(out[idx], by, axis=1)
+        at_ok = np.take_along_axis(asked[idx], at, axis=1)
+        o2 = np.take_along_axis(stack[:, idx], np.broadcast_to(by, (len(coords),) + by.shape), axis=2)[:, :, :, None]
+        o1 = np.take_along_axis(stack[:, idx], np.broadcast_to(at, (len(coords),) + at.shape), axis=2)[:, :, None, :]
         ge = o2[0] >= o1[0]  # [s, o2, o1]: o2 at least as bad in every coordinate ...
         gt = o2[0] > o1[0]  # ... and worse in one
         for j in range(1, len(coords)):
             ge &= o2[j] >= o1[j]
             gt |= o2[j] > o1[j]
-        gt |= by[sl, :, None] < at[sl, None, :]  # or equal in all and earlier: breaks exact ties
+        gt |= by[:, :, None] < at[:, None, :]  # or equal in all and earlier: breaks exact ties
         ge &= gt
-        ge &= by_ok[sl, :, None]
-        keep_at[sl] &= ~ge.any(axis=1)
-    out = np.zeros((S, K), bool)
-    np.put_along_axis(out, at, keep_at, axis=1)
-    return out
+        ge &= by_ok[:, :, None]
+        rows = np.zeros((len(idx), K), bool)
+        np.put_along_axis(rows, at, at_ok & ~ge.any(axis=1), axis=1)
+        keep[idx] = rows
+    return keep
 
 
 def _compact(keep: np.ndarray, *arrays: np.ndarray) -> tuple[np.ndarray, ...]:
