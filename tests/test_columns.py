@@ -353,6 +353,31 @@ def test_beam_vb_is_checked_with_the_stirrups_about_the_other_axis(tmp_path):
     assert m.status["HIGH"] == "resize" and "Vb" in m.message["HIGH"] and "22.5.1.11" in m.message["HIGH"]
 
 
+def test_vb_check_with_sections_once_per_member_is_the_check_per_candidate():
+    """lateral.check with ``at`` (the section, legs and bar area once per member, as the beams'
+    pipeline gives them) returns the same bits and the same reasons as with every array gathered
+    to each candidate; the random beams and forces reach every reason (REASONS)."""
+    from postproc.demand import lateral
+
+    rng = np.random.default_rng(5)
+    n, k = 40, 4000
+    sec = dict(b=rng.choice([250.0, 300.0, 400.0], n), h=rng.choice([450.0, 600.0, 750.0], n), fc=rng.choice([25.0, 30.0, 40.0], n),
+               fyt=np.full(n, 420.0), lam=rng.choice([1.0, 0.75], n))  # lightweight: 9.6.3.1 below Av,min's bound
+    sec["d"] = sec["h"] - 60.0
+    sec["Ag"] = sec["b"] * sec["h"]
+    legs_b, bar_area = rng.choice([1, 2, 4], n), rng.choice([71.0, 129.0], n)
+    at = np.sort(rng.integers(0, n, k))
+    vb, nu = rng.uniform(0.0, 4e5, k) * rng.choice([0.1, 1.0], k), rng.uniform(-5e5, 2e6, k)
+    ratio_v, spacing = rng.uniform(0.0, 1.2, k), rng.choice([100.0, 150.0, 200.0, 300.0, np.inf], k)
+    once = lateral.check(*(sec[f] for f in ("b", "h", "d", "fc", "fyt", "lam", "Ag")), vb, nu, ratio_v, legs_b, bar_area,
+                         spacing, "code", at=at)
+    each = lateral.check(*(sec[f][at] for f in ("b", "h", "d", "fc", "fyt", "lam", "Ag")), vb, nu, ratio_v, legs_b[at],
+                         bar_area[at], spacing, "code")
+    for field in ("ratio", "interaction", "fails", "reason"):
+        assert getattr(once, field).tobytes() == getattr(each, field).tobytes(), field
+    assert set(np.unique(once.reason)) == {0, 1, 2, 3}
+
+
 def test_column_in_inch_pound_units(tmp_path):
     # The inch-pound edition's own equations (ACI 318-19, in., psi): 16 x 24 in column, bars 2.5 in from the
     # faces, f'c = 4000 psi, 8 No. 8 bars (1.0 in), Nu = 270 kip. V (parallel to h = 24 in): bw = 16, d = 21.5 in;

@@ -128,9 +128,10 @@ class Ties:
     hx: np.ndarray  # largest spacing of laterally supported bars around the perimeter (18.7.5.3; a circle: its bars')
     nl: np.ndarray  # bars laterally supported by a hoop corner or crosstie hook (18.7.5.4, kn)
 
-    def take(self, idx: np.ndarray) -> dict[str, np.ndarray]:
-        """Per-station (or per-case) arrays of the member-wise fields."""
-        return {f.name: getattr(self, f.name)[idx] for f in fields(self) if isinstance(getattr(self, f.name), np.ndarray)}
+    def take(self, idx: np.ndarray, names: tuple[str, ...] | None = None) -> dict[str, np.ndarray]:
+        """Per-station (or per-case) arrays of the member-wise fields (``names``: those alone)."""
+        return {f.name: getattr(self, f.name)[idx] for f in fields(self)
+                if (names is None or f.name in names) and isinstance(getattr(self, f.name), np.ndarray)}
 
 
 def face_bars(sec: ColumnSection) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:

@@ -43,22 +43,25 @@ def horizontal_legs(legs: np.ndarray, closed: np.ndarray) -> np.ndarray:
 
 
 def check(b, h, d, fc, fyt, lam, Ag, vb, nu, ratio_v, legs_b, bar_area, spacing, rule: str, u: Edition = SI,
-          tol: float = 1e-9) -> Lateral:
-    """Per candidate (arrays aligned; ``spacing`` the gap in force at its station, ``ratio_v`` its
-    Vu / phi Vn about the main axis): the ratio about the other axis and the interaction; and the
-    checks 9.6.3.1 (Av,min where Vb > phi 0.083 lambda sqrt(f'c) bw d), 22.5.1.2 and 9.7.6.2.2 (d/2)."""
+          tol: float = 1e-9, at=None) -> Lateral:
+    """Per candidate (``vb``, ``nu``, ``ratio_v``, ``spacing`` aligned: ``spacing`` the gap in force
+    at its station, ``ratio_v`` its Vu / phi Vn about the main axis): the ratio about the other axis
+    and the interaction; and the checks 9.6.3.1 (Av,min where Vb > phi 0.083 lambda sqrt(f'c) bw d),
+    22.5.1.2 and 9.7.6.2.2 (d/2). ``at``: the member of each candidate, the section, ``legs_b`` and
+    ``bar_area`` then given once per member (aci318_19._per); None: every array per candidate."""
+    g = aci._per(at)
     bw, dd = h, b - (h - d)
     with np.errstate(divide="ignore", invalid="ignore"):
-        av_s = np.where(np.isfinite(spacing), legs_b * bar_area / spacing, 0.0)
-    has_min = av_s >= aci.av_min_over_s(fc, bw, fyt, u) * (1 - tol)
-    vc_a = aci.vc_with_min_stirrups(fc, bw, dd, nu, Ag, lam, u=u)
+        av_s = np.where(np.isfinite(spacing), g(legs_b * bar_area) / spacing, 0.0)
+    has_min = av_s >= g(aci.av_min_over_s(fc, bw, fyt, u) * (1 - tol))
+    vc_a = aci.vc_with_min_stirrups(fc, bw, dd, nu, Ag, lam, u=u, at=at)
     vc = np.where(has_min, vc_a, 0.0)
-    vs = np.minimum(av_s * fyt * dd, aci.vs_max(fc, bw, dd, u))
+    vs = np.minimum(av_s * g(fyt) * g(dd), g(aci.vs_max(fc, bw, dd, u)))
     with np.errstate(divide="ignore", invalid="ignore"):
         r = np.where(vb > 0, vb / (PHI * (vc + vs)), 0.0)
-        limit = vb / aci.section_limit(vc_a, fc, bw, dd, u)
+        limit = vb / aci.section_limit(vc_a, fc, bw, dd, u, at=at)
     r = np.nan_to_num(np.maximum(r, limit), nan=np.inf)
     both = aci.biaxial_interaction(np.nan_to_num(ratio_v, nan=np.inf), r, rule)
-    need_min = vb > aci.av_min_threshold(fc, bw, dd, lam, u)
-    reason = np.select([both > 1 + tol, need_min & ~has_min, need_min & (spacing > dd / 2 * (1 + tol))], [1, 2, 3], 0)
+    need_min = vb > g(aci.av_min_threshold(fc, bw, dd, lam, u))
+    reason = np.select([both > 1 + tol, need_min & ~has_min, need_min & (spacing > g(dd / 2 * (1 + tol)))], [1, 2, 3], 0)
     return Lateral(r, both, reason > 0, reason)

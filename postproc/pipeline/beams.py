@@ -555,16 +555,16 @@ def _check_vb(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options
     U = unit_system(settings)
     grid, cs = rs.grid, cand.station
     mem = grid.member[cs]
-    sec = mb.sec.take(mem)
+    sec = mb.sec
     k = np.maximum(lay.option, 0)
     closed = np.full(len(mb.names), settings.detailing.stirrup_shape == "closed")
     np.logical_or.at(closed, grid.member, dem.torsion)  # 25.7.1.6
-    legs_b = lateral.horizontal_legs(opt.legs[k, np.arange(len(k))].astype(int), closed)[mem]
+    legs_b = lateral.horizontal_legs(opt.legs[k, np.arange(len(k))].astype(int), closed)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio_v = np.where(prov.on[cs] & ~reg.station[cs], np.where(dem.pairs.vu > 0, dem.pairs.vu / cap.phi_vn, 0.0),
                            0.0)
     got = lateral.check(sec.b, sec.h, sec.d, sec.fc, sec.fyt, sec.lam, sec.Ag, vb, -cand.values["N"], ratio_v,
-                        legs_b, opt.area[k][mem], prov.spacing[cs], settings.columns.biaxial_shear, mb.sec.u)
+                        legs_b, opt.area[k], prov.spacing[cs], settings.columns.biaxial_shear, mb.sec.u, at=mem)
     on = prov.on[cs]
     bounds = cand.bounds[grid.offsets]
     out = {}

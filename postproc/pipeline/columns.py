@@ -446,7 +446,7 @@ def _allowed(mb: Members, rs: Resampled, cases: demand.Cases, sec_c: demand.Colu
     mem = grid.member
     tie = opt.ties
     u = mb.sec.u
-    tie_c = tie.take(mem[cases.station])
+    tie_c = tie.take(mem[cases.station], ("Aoh", "legs_v", "legs_vb"))  # what required_t reads, per case
     rule = settings.columns.biaxial_shear
     t_case = demand.required_t(cases, sec_c, tie_c, tie.area, rule)
     t_env = demand.segment_max(t_case, cases.bounds)
@@ -966,7 +966,7 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
                 blocked_msg[m] = ("resize", "special moment frame column: " + "; ".join(why))
     torsion_over = []  # per tie option, the members whose Vu and Tu exceed 22.7.7.1(a) with its Aoh and ph
     for opt in opts:
-        tie_c = opt.ties.take(grid.member[cases.station])
+        tie_c = opt.ties.take(grid.member[cases.station], ("Aoh", "ph"))  # what torsion_ratios reads
         ratio = demand.segment_max(demand.torsion_ratios(cases, sec_c, tie_c), cases.bounds[grid.offsets])
         torsion_over.append(ratio > 1.0)
     torsion_bad = np.logical_and.reduce(torsion_over) if torsion_over else np.zeros(n, bool)
