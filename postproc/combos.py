@@ -382,7 +382,7 @@ def _front(coords: list[np.ndarray], valid: np.ndarray, only: np.ndarray | None 
     at_order = np.argsort(~asked, axis=1, kind="stable")  # and the entries asked about
     n_by, n_at = out.sum(axis=1), asked.sum(axis=1)
     cells = n_by * n_at
-    stations = np.argsort(cells, kind="stable")[np.count_nonzero(cells == 0):]  # alike sizes together: little padding
+    stations = np.argsort(cells, kind="stable")[np.count_nonzero(cells == 0):]  # like sizes together: little padding
     keep = np.zeros((S, K), bool)
     s0 = 0
     while s0 < len(stations):  # pairwise, in slices of stations: memory stays bounded
