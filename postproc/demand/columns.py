@@ -340,10 +340,12 @@ def required_t(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: flo
     hi = np.maximum.reduce(cap) * (1.0 + 1e-6) + 1e-12
     terms = _ShearTerms.of(c, s, tie, amin_v, amin_vb)
     ok = lambda tm, t: tm.strength(area, t, rule).utilization <= 1.0 + TOL
-    feasible = ok(terms, hi)
     done = ok(terms, lo)
+    feasible = done.copy()  # where lo passes, t is lo: hi is tried only where it does not
+    rest = np.flatnonzero(~done)
+    feasible[rest] = ok(terms.take(rest), hi[rest])
     b = hi.copy()
-    todo = np.flatnonzero(~done & feasible)  # bisected alone: each case's steps are its own
+    todo = rest[feasible[rest]]  # bisected alone: each case's steps are its own
     if len(todo):
         terms, a_t, b_t = terms.take(todo), lo[todo], hi[todo]
         for _ in range(BISECTION_STEPS):
