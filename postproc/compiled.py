@@ -52,10 +52,11 @@ def _station_front(stack, s, signs, valid, out, kept):
             if best >= 0:
                 out[s, best] = True
             continue
-        left = 0  # valid entries not kept yet
-        for e in range(K):
-            if valid[s, e] and not out[s, e]:
-                left += 1
+        left = 0  # valid entries not kept yet (the first quadrant has kept none)
+        if q > 0:
+            for e in range(K):
+                if valid[s, e] and not out[s, e]:
+                    left += 1
         if q > 0 and 4 * left <= 3 * K:
             for e in range(K):
                 if out[s, e] or not valid[s, e]:

@@ -68,9 +68,7 @@ def local(workers: int = 1):
             with threadpool_limits(1):  # restored when the design is done
                 yield from map(fn, parts)
             return
-        ctx = mp.get_context(start_method())
-        if ctx.get_start_method() == "forkserver":
-            ctx.set_forkserver_preload(PRELOAD)
+        ctx = mp.get_context(start_method())  # its fork server, preload set, started by local() already
         pool = ProcessPoolExecutor(max_workers=min(workers, len(parts)), mp_context=ctx,
                                    initializer=_worker_start, initargs=faults.main_identity())
         items = iter(parts)

@@ -185,7 +185,7 @@ def _cap(root_fc, bw, d, lam, u: Edition):  # vc_cap, sqrt(f'c) of 22.5.3.1 alre
     return u.vc_max * lam * root_fc * bw * d
 
 
-def _per(at):
+def per_section(at):
     """``at``: the section's arrays are given once per section and Nu once per combination,
     the k-th at section ``at[k]``; the terms without Nu are evaluated once per section and
     gathered (the same operations on the same values, so the same results as evaluating
@@ -197,7 +197,7 @@ def _per(at):
 
 def _vc_with_axial(coef, Nu, root_fc, fc, bw, d, Ag, lam, u: Edition, at):
     # [coef + Nu/(6Ag)] bw d, with the 22.5.5.1.1 cap; Vc is not taken less than zero (22.5.5.1, from memory)
-    g = _per(at)
+    g = per_section(at)
     return np.clip((g(coef) + axial_stress_term(Nu, g(Ag), g(fc))) * g(bw) * g(d), 0.0, g(_cap(root_fc, bw, d, lam, u)))
 
 
@@ -206,7 +206,7 @@ def vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam=1.0, rho_w=None, u: Edition = SI
 
     (a) [0.17 | 2 lambda sqrt(f'c) + Nu/(6Ag)] bw d
     (b) [0.66 | 8 lambda rho_w^(1/3) sqrt(f'c) + Nu/(6Ag)] bw d, used where rho_w is known.
-    ``at``: as in ``_per``.
+    ``at``: as in ``per_section``.
     """
     root_fc = sqrt_fc(fc, u)
     coef = u.vc_a * lam * root_fc
@@ -219,7 +219,7 @@ def vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_w, lam=1.0, u: Edition = SI, 
     """Vc where Av < Av,min (Table 22.5.5.1 (c)), with the size-effect factor 22.5.5.1.3.
 
     (c) [0.66 | 8 lambda_s lambda rho_w^(1/3) sqrt(f'c) + Nu/(6Ag)] bw d
-    ``at``: as in ``_per``.
+    ``at``: as in ``per_section``.
     """
     root_fc = sqrt_fc(fc, u)
     coef = u.vc_b * size_effect_factor(d, u) * lam * np.cbrt(rho_w) * root_fc
@@ -233,8 +233,8 @@ def vs_max(fc, bw, d, u: Edition = SI):
 
 def section_limit(Vc, fc, bw, d, u: Edition = SI, at=None):
     """phi (Vc + 0.66 | 8 sqrt(f'c) bw d): Vu above this needs a larger section (22.5.1.2).
-    ``at``: as in ``_per``, with Vc per combination."""
-    return PHI_SHEAR * (Vc + _per(at)(vs_max(fc, bw, d, u)))
+    ``at``: as in ``per_section``, with Vc per combination."""
+    return PHI_SHEAR * (Vc + per_section(at)(vs_max(fc, bw, d, u)))
 
 
 def av_over_s_for_vs(Vs, fyt, d):
@@ -305,9 +305,9 @@ def torsion_threshold(fc, Acp, pcp, Nu, Ag, lam=1.0, u: Edition = SI, at=None):
     """Threshold torsion Tth for a solid nonprestressed section with axial force (Table 22.7.4.1(a)).
 
     Tth = 0.083 | 1 lambda sqrt(f'c) (Acp^2/pcp) sqrt(1 + Nu/(0.33 | 4 Ag lambda sqrt(f'c))).
-    Torsion may be neglected where Tu < phi Tth (9.5.4.1, 22.7.1.1). ``at``: as in ``_per``.
+    Torsion may be neglected where Tu < phi Tth (9.5.4.1, 22.7.1.1). ``at``: as in ``per_section``.
     """
-    g, sfc = _per(at), sqrt_fc(fc, u)
+    g, sfc = per_section(at), sqrt_fc(fc, u)
     axial = np.sqrt(np.maximum(1.0 + Nu / g(u.tth_axial * Ag * lam * sfc), 0.0))
     return g(u.tth * lam * sfc * Acp**2 / pcp) * axial
 

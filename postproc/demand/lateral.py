@@ -48,8 +48,8 @@ def check(b, h, d, fc, fyt, lam, Ag, vb, nu, ratio_v, legs_b, bar_area, spacing,
     at its station, ``ratio_v`` its Vu / phi Vn about the main axis): the ratio about the other axis
     and the interaction; and the checks 9.6.3.1 (Av,min where Vb > phi 0.083 lambda sqrt(f'c) bw d),
     22.5.1.2 and 9.7.6.2.2 (d/2). ``at``: the member of each candidate, the section, ``legs_b`` and
-    ``bar_area`` then given once per member (aci318_19._per); None: every array per candidate."""
-    g = aci._per(at)
+    ``bar_area`` then given once per member (aci318_19.per_section); None: every array per candidate."""
+    g = aci.per_section(at)
     bw, dd = h, b - (h - d)
     with np.errstate(divide="ignore", invalid="ignore"):
         av_s = np.where(np.isfinite(spacing), g(legs_b * bar_area) / spacing, 0.0)
