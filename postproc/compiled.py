@@ -139,3 +139,76 @@ def combine_at(factors, cols, values, which, station, out):
         for c in cols:
             acc += factors[which[i], c] * values[c, station[i]]
         out[i] = acc
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _tie_ratio(t, area, at, fyt, legs, amin_tol, vc_hi, vc_lo, d, vs_max, vu, phi):
+    """One direction of ``demand.columns._ShearTerms.strength`` for one case: Vu / phi Vn
+    (``amin_tol`` is Av,min/s x (1 - TOL); np.maximum / np.minimum as numpy takes them, a NaN
+    kept whichever side it is on)."""
+    av_s = legs * area * t
+    vc = vc_hi if av_s >= amin_tol else vc_lo
+    x = av_s - 2.0 * at
+    x = x if (x >= 0.0 or x != x) else 0.0
+    y = x * fyt * d
+    vs = y if (y <= vs_max or y != y) else vs_max
+    phi_vn = phi * (vc + vs)
+    return vu / phi_vn if vu > 0 else 0.0
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _tie_passes(i, t, area, at, torsion, fyt, dirs, phi, limit):
+    """``_ShearTerms.strength(area, t, "code").utilization <= limit`` of case i: the interaction
+    of 22.5.1.10 / 22.5.1.11 (``aci318_19.biaxial_shear_utilization``) and each torsion leg's
+    demand over its supply. ``dirs``: 14 rows, per direction legs, Av,min/s x (1 - TOL), Vc
+    (a)/(b), Vc (c), d, Vs,max, Vu."""
+    rx = abs(_tie_ratio(t, area, at[i], fyt[i], dirs[0][i], dirs[1][i], dirs[2][i], dirs[3][i], dirs[4][i],
+                        dirs[5][i], dirs[6][i], phi))
+    ry = abs(_tie_ratio(t, area, at[i], fyt[i], dirs[7][i], dirs[8][i], dirs[9][i], dirs[10][i], dirs[11][i],
+                        dirs[12][i], dirs[13][i], phi))
+    u = rx if (rx >= ry or rx != rx) else ry
+    if rx > 0.5 and ry > 0.5:
+        s = (rx + ry) / 1.5
+        u = u if (u >= s or u != u) else s
+    if torsion[i]:
+        supply = area * t
+        leg = at[i] / supply if supply > 0 else np.inf
+    else:
+        leg = 0.0
+    u = u if (u >= leg or u != u) else leg
+    if u != u:
+        u = np.inf
+    return u <= limit
+
+
+@njit(cache=True, error_model="numpy")
+def tie_bisection(lo, hi, area, at, torsion, fyt, dirs, phi, limit, steps, out):
+    """``demand.columns.required_t``'s search, case by case (rule "code"): t = lo where lo
+    passes; else, where hi passes, ``steps`` halvings of [lo, hi] (mid = 0.5 (a + b); b = mid
+    where mid passes, else a = mid), t = b; else inf. The halvings run step by step over the
+    cases that need them, their terms gathered first (a loop the compiler vectorises).
+    ``dirs``: a tuple of the 14 per-case rows of ``_tie_passes``."""
+    n = len(lo)
+    todo = np.empty(n, np.int64)
+    m = 0
+    for i in range(n):
+        if _tie_passes(i, lo[i], area, at, torsion, fyt, dirs, phi, limit):
+            out[i] = lo[i]
+        elif _tie_passes(i, hi[i], area, at, torsion, fyt, dirs, phi, limit):
+            todo[m] = i
+            m += 1
+        else:
+            out[i] = np.inf
+    idx = todo[:m]
+    at_t, torsion_t, fyt_t = at[idx], torsion[idx], fyt[idx]
+    dirs_t = np.empty((14, m))
+    for j in range(14):
+        dirs_t[j] = dirs[j][idx]
+    a, b = lo[idx], hi[idx]
+    for _ in range(steps):
+        for i in range(m):
+            mid = 0.5 * (a[i] + b[i])
+            good = _tie_passes(i, mid, area, at_t, torsion_t, fyt_t, dirs_t, phi, limit)
+            b[i] = mid if good else b[i]
+            a[i] = a[i] if good else mid
+    out[idx] = b

@@ -74,6 +74,8 @@ def warm() -> None:
     front(np.zeros((1, 1, 2)), np.ones((1, 1)), np.ones((1, 2), bool))
     dense_front(f, [v], np.ones((1, 1)))
     combine_at(f, v, np.zeros(1, np.int64), np.zeros(1, np.int64))
+    one = np.ones(1)
+    tie_bisection(one, one, 1.0, one, np.zeros(1, bool), one, [(one,) * 7] * 2, 0.75, 1.0, 1)
 
 
 def front(stack: np.ndarray, signs: np.ndarray, valid: np.ndarray) -> np.ndarray:
@@ -107,4 +109,19 @@ def combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, stati
     _load(required=True).combine_at(np.ascontiguousarray(factors, dtype=np.float64), cols,
                                     np.ascontiguousarray(values, dtype=np.float64), np.asarray(which, np.int64),
                                     np.asarray(station, np.int64), out)
+    return out
+
+
+def tie_bisection(lo: np.ndarray, hi: np.ndarray, area: float, at: np.ndarray, torsion: np.ndarray,
+                  fyt: np.ndarray, directions, phi: float, limit: float, steps: int) -> np.ndarray:
+    """``demand.columns.required_t``'s search for t = 1/s, compiled (rule "code"): per case,
+    lo where it passes, else ``steps`` halvings of [lo, hi] where hi passes, else inf.
+    ``directions``: per direction (legs, Av,min/s x (1 - TOL), Vc (a)/(b), Vc (c), d, Vs,max, Vu)."""
+    dirs = tuple(np.ascontiguousarray(np.broadcast_to(np.asarray(a, np.float64), lo.shape))
+                 for terms in directions for a in terms)
+    out = np.empty(len(lo))
+    _load(required=True).tie_bisection(np.ascontiguousarray(lo, np.float64), np.ascontiguousarray(hi, np.float64),
+                                       float(area), np.ascontiguousarray(at, np.float64),
+                                       np.ascontiguousarray(torsion, np.bool_), np.ascontiguousarray(fyt, np.float64),
+                                       dirs, float(phi), float(limit), int(steps), out)
     return out

@@ -378,6 +378,57 @@ def test_vb_check_with_sections_once_per_member_is_the_check_per_candidate():
     assert set(np.unique(once.reason)) == {0, 1, 2, 3}
 
 
+def _tie_cases(rng, n):
+    """Random demand cases of columns for required_t: shear in one, both or neither direction,
+    torsion in some, Vc (c) below (a)/(b), and sections from small to large (some of whose ties
+    cannot carry the shear: t = inf)."""
+    from types import SimpleNamespace
+
+    from postproc.codes.aci318_19 import SI
+
+    u = lambda lo, hi: rng.uniform(lo, hi, n)
+    vc_v_hi, vc_vb_hi = u(0.0, 5e5), u(0.0, 5e5)
+    c = SimpleNamespace(vu_v=u(0.0, 2e6) * rng.choice([0.0, 0.05, 1.0], n), vu_vb=u(0.0, 2e6) * rng.choice([0.0, 0.05, 1.0], n),
+                        minimum_v=rng.random(n) < 0.5, minimum_vb=rng.random(n) < 0.5, torsion=rng.random(n) < 0.3,
+                        ata=u(0.0, 2.0), vc_v_hi=vc_v_hi, vc_v_lo=vc_v_hi * u(0.3, 1.0), vc_vb_hi=vc_vb_hi,
+                        vc_vb_lo=vc_vb_hi * u(0.3, 1.0))
+    s = SimpleNamespace(fc=u(20.0, 60.0), bw_v=u(200.0, 900.0), d_v=u(150.0, 850.0), bw_vb=u(200.0, 900.0),
+                        d_vb=u(150.0, 850.0), fyt=u(280.0, 420.0), u=SI)
+    tie = {"Aoh": u(3e4, 6e5), "legs_v": rng.integers(2, 6, n).astype(float),
+           "legs_vb": rng.integers(2, 6, n).astype(float)}
+    return c, s, tie
+
+
+def test_compiled_tie_search_is_the_numpy_search(monkeypatch):
+    """required_t's search for t = 1/s compiled (postproc.compiled.tie_bisection) returns the
+    numpy search's bits case by case; both give the least t that passes: strength at t passes
+    the interaction of 22.5.1.10 / 22.5.1.11 and at t less a part in a million it does not
+    (where t is above the lower bound of Av,min and At/s)."""
+    from postproc import kernels
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    rng = np.random.default_rng(17)
+    c, s, tie = _tie_cases(rng, 30000)
+    monkeypatch.setenv(kernels.ENV, "numpy")
+    reference = demand.required_t(c, s, tie, 113.0, "code")
+    monkeypatch.setenv(kernels.ENV, "compiled")
+    compiled = demand.required_t(c, s, tie, 113.0, "code")
+    assert compiled.tobytes() == reference.tobytes()
+    searched = np.isfinite(reference) & (reference > 0)
+    assert np.isinf(reference).sum() > 1000 and searched.sum() > 10000 and (reference == 0).any()
+
+    amin_v, amin_vb = demand.av_min(s)
+    passes = lambda t: demand.strength(c, s, tie, 113.0, t, amin_v, amin_vb, "code").utilization <= 1.0 + demand.TOL
+    assert passes(np.where(searched, reference, 1.0))[searched].all()
+    at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)
+    lower = np.maximum.reduce([np.where(c.minimum_v, amin_v / (tie["legs_v"] * 113.0), 0.0),
+                               np.where(c.minimum_vb, amin_vb / (tie["legs_vb"] * 113.0), 0.0), at / 113.0])
+    bisected = searched & (reference > lower * (1 + 1e-6))
+    assert bisected.sum() > 1000
+    assert not passes(reference * (1 - 1e-6))[bisected].any()
+
+
 def test_column_in_inch_pound_units(tmp_path):
     # The inch-pound edition's own equations (ACI 318-19, in., psi): 16 x 24 in column, bars 2.5 in from the
     # faces, f'c = 4000 psi, 8 No. 8 bars (1.0 in), Nu = 270 kip. V (parallel to h = 24 in): bw = 16, d = 21.5 in;

@@ -22,7 +22,7 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
-from postproc import sections
+from postproc import kernels, sections
 from postproc.codes import aci318_19 as aci
 from postproc.codes.aci318_19 import SI, Edition
 from postproc.combos import Candidates
@@ -31,6 +31,7 @@ from postproc.demand.beams import torsion_geometry
 PHI = aci.PHI_SHEAR
 TOL = 1e-9
 BISECTION_STEPS = 64  # halvings of [t_low, t_high]: below 1e-18 of t_high, far under the 1e-9 tolerances
+CELLS_PER_CASE = 16  # the work of one case of required_t, counted as kernels.use_compiled counts it
 
 COMBINATION, CAPACITY_V, CAPACITY_VB = 0, 1, 2  # Cases.kind
 
@@ -339,6 +340,12 @@ def required_t(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: flo
            amin_v / (tie["legs_v"] * area), amin_vb / (tie["legs_vb"] * area), lo]
     hi = np.maximum.reduce(cap) * (1.0 + 1e-6) + 1e-12
     terms = _ShearTerms.of(c, s, tie, amin_v, amin_vb)
+    if rule == "code" and kernels.use_compiled(len(lo) * CELLS_PER_CASE):
+        directions = [(legs, amin * (1 - TOL), vc_hi, vc_lo, d, vs_max, vu)
+                      for legs, amin, vc_hi, vc_lo, d, vs_max, vu in terms.direction]
+        t = kernels.tie_bisection(lo, hi, area, terms.at, terms.torsion, terms.fyt, directions, PHI, 1.0 + TOL,
+                                  BISECTION_STEPS)
+        return np.where(need_any, t, 0.0)
     ok = lambda tm, t: tm.strength(area, t, rule).utilization <= 1.0 + TOL
     done = ok(terms, lo)
     feasible = done.copy()  # where lo passes, t is lo: hi is tried only where it does not
