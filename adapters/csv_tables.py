@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import codecs
 import csv
+import difflib
 import re
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -338,6 +339,14 @@ class CsvSpec:
     dialect: encoding.Dialect
     fill: dict = field(default_factory=dict)  # our column -> value for its missing cells (the run's unit)
     units: UnitSystem = SI  # the run's unit system: the columns are read into its units
+    unread: tuple[str, ...] = ()  # the header's other columns (read as text, checked, not used)
+
+    def unread_notes(self) -> list[str]:
+        """A notice naming the header's columns that are not used, if any."""
+        if not self.unread:
+            return []
+        return [f"{self.path}: column(s) not used: {', '.join(repr(h) for h in self.unread)} (not columns "
+                "shearpost reads in this table; see the README's input tables)"]
 
     def fill_name(self, column: str) -> str:
         """How the settings' [input] fill names one of our columns: the file's spelling of it,
@@ -546,8 +555,10 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
     table = _resolved(path, cmap.table(name), cols, present, units)
     missing = [c for c in cols if c.required and table.source_name(c.name) not in present]
     if missing:
-        raise InputErrors([InputError(path, "required column is missing" + _other_spellings(c.name, units), 1,
+        raise InputErrors([InputError(path, "required column is missing" + _other_spellings(c.name, units)
+                                      + "".join(f"; the header has '{h}'" for h in named if _looks_like(h, c.name)), 1,
                                       table.source_name(c.name)) for c in missing])
+    unread = _unread(path, named, cols, table, present)
     fill = {unit_names.si_name(k): v for k, v in (fill or {}).items()}
     fills = {c.name: float(fill[c.name]) for c in cols
              if c.name in fill and c.numeric and not c.required and table.source_name(c.name) in present}
@@ -556,7 +567,34 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
     types = {h: pa.string() for h in header}
     types.update({table.source_name(c.name): (pa.float64() if c.numeric and c.name not in fills else pa.string())
                   for c in cols if table.source_name(c.name) in present})
-    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills, units)
+    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills, units, unread)
+
+
+NEAR_MISS = 0.85  # difflib's ratio above which a header name is taken for a misspelling of one of ours
+
+
+def _looks_like(header_name: str, spelling: str) -> bool:
+    """Whether a header name looks like one of our spellings: the same but for case, the
+    name without its unit, or a close misspelling."""
+    low, sp = header_name.lower(), spelling.lower()
+    stem = sp.rsplit("_", 1)[0] if unit_names.unit_of(spelling) else sp
+    return low in (sp, stem) or difflib.SequenceMatcher(None, low, sp).ratio() >= NEAR_MISS
+
+
+def _unread(path: Path, named: list[str], cols: tuple[Col, ...], table: TableMap, present: set[str]) -> tuple[str, ...]:
+    """The header's columns that are not read. One that looks like a column of ours the file
+    does not give is refused: read as absent, a torsion or a bar area would count as none."""
+    read = {table.source_name(c.name) for c in cols}
+    absent = [table.source_name(sp) for c in cols if table.source_name(c.name) not in present
+              for sp in unit_names.spellings(c.name)]
+    unread = tuple(h for h in named if h not in read)
+    for h in unread:
+        meant = next((sp for sp in absent if _looks_like(h, sp)), None)
+        if meant is not None:
+            raise InputError(path, f"is not a column shearpost reads; did you mean column '{meant}'? Rename it (names are "
+                                   "exact, with their unit), or map it in a column-mapping file (--map): a column "
+                                   "left unread counts as not given", 1, h)
+    return unread
 
 
 def si_keyed(given: TableMap) -> TableMap:
@@ -626,7 +664,7 @@ def read_table(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnM
     if out.num_rows == 0:
         raise InputError(spec.path, "has a header but no data rows", 1)
     probs.add(spec.broken_rows(raw, scan.quotes > 0 or not spec.dialect.single_byte_ascii), None, BROKEN)
-    return out, probs, [*spec.dialect.notes, *tally.notices(spec.path, spec.fill, spec.table)]
+    return out, probs, [*spec.dialect.notes, *spec.unread_notes(), *tally.notices(spec.path, spec.fill, spec.table)]
 
 
 def _num(t: pa.Table, name: str) -> np.ndarray:
@@ -946,8 +984,9 @@ class ForcesReader:
 
     def notices(self) -> list[str]:
         """What reading changed (after ``batches``): cells filled, ids normalised. How the
-        file is written (a detected dialect) is in ``spec.dialect.notes``."""
-        return self.tally.notices(self.path, self.spec.fill, self.spec.table)
+        file is written (a detected dialect) is in ``spec.dialect.notes``. The columns not used
+        come first."""
+        return [*self.spec.unread_notes(), *self.tally.notices(self.path, self.spec.fill, self.spec.table)]
 
     def _stream(self, only: list[str] | None = None):
         return stream_blocks(self.spec, self.BLOCK, only)

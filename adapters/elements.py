@@ -367,8 +367,9 @@ class ElementForcesReader:
         return self.path.stat().st_size
 
     def notices(self) -> list[str]:
-        """What reading changed (after ``batches``): cells filled, ids normalised."""
-        return self.tally.notices(self.path, self.spec.fill, self.spec.table)
+        """What reading changed (after ``batches``): cells filled, ids normalised; first the
+        export's columns not used."""
+        return [*self.spec.unread_notes(), *self.tally.notices(self.path, self.spec.fill, self.spec.table)]
 
     def _stream(self, only: list[str] | None = None):
         return stream_blocks(self.spec, self.BLOCK, only)  # hashed as parsed; NUL bytes, open quotes found

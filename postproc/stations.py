@@ -108,6 +108,26 @@ def jumps(s: Samples, settings: Stations, n_members: int, key: str = "V") -> tup
     return s.member[1:][hit], s.x[1:][hit]
 
 
+def doubled(s: Samples, least_stations: int = 3) -> tuple[np.ndarray, np.ndarray]:
+    """(member, case) of the members and cases with two rows at every one of their stations (at
+    least ``least_stations`` of them) and a jump between the two somewhere: a table given twice
+    with other values, not concentrated loads (which stand at a few stations)."""
+    if len(s.x) < 2:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    new_group = np.concatenate([[True], (s.member[1:] != s.member[:-1]) | (s.case[1:] != s.case[:-1])])
+    new_station = new_group | np.concatenate([[True], s.x[1:] != s.x[:-1]])
+    group = np.cumsum(new_group) - 1
+    rows = np.bincount(group)
+    stations_of = np.bincount(group, weights=new_station)
+    same = ~new_station[1:]
+    differs = np.zeros(len(rows), bool)
+    jump = same & np.any([v[1:] != v[:-1] for v in s.values.values()], axis=0) if s.values else same & False
+    differs[group[1:][jump]] = True
+    hit = (rows == 2 * stations_of) & (stations_of >= least_stations) & differs
+    first = np.flatnonzero(new_group)[hit]
+    return s.member[first], s.case[first]
+
+
 def steep_slopes(s: Samples, settings: Stations, n_members: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Neighbouring rows of one member and case whose shear changes faster than
     ``settings.steep_slope`` by more than the concentrated-load tolerance: a concentrated

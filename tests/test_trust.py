@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings, strategies as hs
 from postproc import cli, explain, reference
 from postproc.settings import Settings, settings_from_dict
 from postproc.store import Store
-from tests.conftest import equal_to_reference
+from tests.conftest import equal_to_reference, write_inputs
 
 BEAM = dict(b_mm=300.0, h_mm=600.0, d_mm=540.0, fc_mpa=30.0, fyt_mpa=420.0, face_i_mm=0.0, face_j_mm=0.0)
 
@@ -70,6 +70,73 @@ def test_a_steep_slope_is_warned_about_with_member_and_station(run_design):
     man = Store(res.store).runs()[0]
     warnings = (man.design_path / "manifest.json").read_text()
     assert "member B1, case U1: V changes by 200.0 kN" in warnings and "x = 2.0000 m" in warnings
+
+
+# --- forces that are not what they seem: each member's message says so ---------------------------
+
+
+def _manifest_warnings(res) -> str:
+    return (Store(res.store).runs()[0].design_path / "manifest.json").read_text()
+
+
+def test_a_member_without_rows_of_a_case_says_so_and_takes_it_as_zero(run_design):
+    # B2 has no rows of L: 1.2D + 1.6L becomes 1.2D, so 1.4D governs (Table 5.3.1 (a)). At the
+    # critical section d = 540 mm from the face (9.4.3.2): V_D = 80 (1 - 0.54/3) = 65.6 kN,
+    # V_L = 32.8 kN; B2: Vu = 1.4 x 65.6 = 91.84 kN; B1: 1.2 x 65.6 + 1.6 x 32.8 = 131.2 kN
+    members = [member("B1", 6.0, "column", "column"), member("B2", 6.0, "column", "column")]
+    forces = (rows("B1", "D", [(0.0, 80.0), (3.0, 0.0), (6.0, -80.0)]) + rows("B1", "L", [(0.0, 40.0), (3.0, 0.0), (6.0, -40.0)])
+              + rows("B2", "D", [(0.0, 80.0), (3.0, 0.0), (6.0, -80.0)]))
+    res = run_design(members, forces, [dict(case="D", type="D"), dict(case="L", type="L")], extra=["--no-report"])
+    m = res.members.set_index("member")
+    assert m.status["B2"] == "designed" and "no rows for case(s) L; taken as zero" in m.message["B2"]
+    assert m.vu_design_i_kN["B2"] == pytest.approx(1.4 * 65.6, abs=0.01)
+    assert m.vu_design_i_kN["B1"] == pytest.approx(1.2 * 65.6 + 1.6 * 32.8, abs=0.01)
+    assert "no rows" not in str(m.message["B1"])
+    assert "member B2: no rows for case(s) L; taken as zero" in _manifest_warnings(res)
+
+
+def test_a_table_given_twice_with_other_values_is_not_taken_silently(run_design):
+    # B1's rows given twice, the second time 1.5 times larger (two exports joined): read as a jump at
+    # every station, which no load gives; B2 has one real concentrated load and no such note
+    first = [(0.0, 100.0), (1.5, 50.0), (3.0, 0.0), (4.5, -50.0), (6.0, -100.0)]
+    again = [(x, 1.5 * v) for x, v in first]
+    point = [(0.0, 90.0), (3.0, 60.0), (3.0, -60.0), (6.0, -90.0)]
+    res = run_design([member("B1", 6.0, "column", "column"), member("B2", 6.0, "column", "column")],
+                     rows("B1", "U1", first) + rows("B1", "U1", again) + rows("B2", "U1", point), extra=["--no-report"])
+    m = res.members.set_index("member")
+    assert "two rows at every station in case(s) U1" in m.message["B1"]
+    assert "two rows" not in str(m.message["B2"])
+    assert "member B1: two rows at every station" in _manifest_warnings(res)
+
+
+def test_forces_that_stop_short_of_the_length_are_said_in_the_members_message(run_design):
+    res = run_design([member("B1", 6.0, "column", "column")], rows("B1", "U1", [(0.0, 100.0), (2.0, 50.0), (4.0, 0.0)]),
+                     extra=["--no-report"])
+    m = res.members.set_index("member")
+    assert "forces cover x = 0.000 to 4.000 m only, of a length of 6.000 m" in m.message["B1"]
+
+
+@pytest.mark.parametrize("header, suggestion", [("T_kNM", "T_kNm"), ("Vb_kn", "Vb_kN"), ("V_b_kN", "Vb_kN")])
+def test_a_misspelt_force_column_is_refused_not_read_as_absent(tmp_path, capsys, header, suggestion):
+    # read as absent, a torsion (or Vb) column would count as none: refused, naming file, line and column
+    forces = pd.DataFrame(rows("B1", "U1", [(0.0, 100.0), (6.0, -100.0)], T=20.0))
+    forces = forces.rename(columns={"T_kNm": header}) if header == "T_kNM" else forces.assign(**{header: 5.0})
+    paths = write_inputs(tmp_path / "in", [member("B1", 6.0, "column", "column")], [dict(x=1)])
+    forces.to_csv(paths["forces"], index=False)
+    out, store = tmp_path / "out", tmp_path / "store"
+    code = cli.main(["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]),
+                     "--store", str(store), "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == 1 and not out.exists()
+    assert "forces.csv, line 1, column" in err and header in err and f"did you mean column '{suggestion}'" in err
+
+
+def test_a_column_shearpost_does_not_read_is_named_in_a_warning(run_design):
+    res = run_design([member("B1", 6.0, "column", "column", comment="check")],
+                     [dict(r, element=7) for r in rows("B1", "U1", [(0.0, 100.0), (6.0, -100.0)])], extra=["--no-report"])
+    warnings = _manifest_warnings(res)
+    assert res.code == 0
+    assert "column(s) not used: 'comment'" in warnings and "column(s) not used: 'element'" in warnings
 
 
 # --- cantilever tip --------------------------------------------------------------------------

@@ -97,6 +97,7 @@ class Resampled:
     rules: stations.EndRules
     warnings: list[str]
     at_station: dict[str, np.ndarray] | None = None  # (n_cases, S) at each station itself (no 9.4.3.2 rule)
+    notes: dict[int, list[str]] = field(default_factory=dict)  # per member: what its message must say of its forces
 
 
 def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> Resampled:
@@ -114,19 +115,29 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
         k = np.flatnonzero(~finite)[0]
         raise SelfCheckError(f"member {names[grid.member[k]]}: a design force is not finite at x = {grid.x[k]:.0f} mm")
 
-    warnings = []
+    warnings: list[str] = []
+    notes: dict[int, list[str]] = {}
+
+    def note(m, text: str, detail: str = "") -> None:  # a run warning, and the member's message says it too
+        warnings.append(f"member {names[m]}: {text}{detail}")
+        notes.setdefault(int(m), []).append(text)
+
     for m in np.unique(grid.member[missing.any(axis=0)]):
         lacking = [cset.cases[c] for c in np.flatnonzero(missing[:, grid.member == m].any(axis=1))]
-        warnings.append(f"member {names[m]}: no rows for case(s) {', '.join(lacking)}; taken as zero")
+        note(m, f"no rows for case(s) {', '.join(lacking)}; taken as zero")
+    dm, dc = stations.doubled(samples)
+    for m in np.unique(dm):
+        note(m, f"two rows at every station in case(s) {', '.join(cset.cases[c] for c in dc[dm == m])} (a table "
+                "given twice, e.g. two exports joined?): read as a concentrated load at each station; check the forces")
     first_row = np.searchsorted(samples.member, np.arange(n))
     x_lo = np.minimum.reduceat(samples.x, first_row)
     x_hi = np.maximum.reduceat(samples.x, first_row)
     slack = settings.stations.coverage_slack  # rounding of exported stations
     short = (x_lo > g.start + slack) | (x_hi < g.end - slack)
     for m in np.flatnonzero(short):
-        warnings.append(f"member {names[m]}: forces cover x = {x_lo[m] / U.per_span:.3f} to "
-                        f"{x_hi[m] / U.per_span:.3f} {U.span} only; the end values are held over the rest of the "
-                        "clear span")
+        note(m, f"forces cover x = {x_lo[m] / U.per_span:.3f} to {x_hi[m] / U.per_span:.3f} {U.span} only, of a "
+                f"length of {g.length[m] / U.per_span:.3f} {U.span}; the end values are held over the rest of the "
+                "clear span")
     sm, sc, sx, sdv = stations.steep_slopes(samples, settings.stations, n)
     for m in np.unique(sm):
         k = np.flatnonzero(sm == m)
@@ -137,7 +148,7 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
                         + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
                         + ": a concentrated load spread by the export? It is designed as a steep linear change; "
                           "give the two rows one station to make it a concentrated load")
-    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station)
+    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station, notes)
 
 
 def governing(values: np.ndarray, tie: np.ndarray | None, bounds: np.ndarray) -> np.ndarray:
@@ -171,4 +182,14 @@ def design_batch(family, bi: BatchInput, cset: combos_mod.ComboSet, settings: Se
     mb = family.geometry(bi.members, settings)
     rs = resample(mb, bi, cset, settings)
     cand = combos_mod.candidates(cset, rs.case_values, signed=family.signed)
-    return family.design(mb, rs, cand, cset, settings)
+    return with_notes(family.design(mb, rs, cand, cset, settings), {mb.names[m]: t for m, t in rs.notes.items()})
+
+
+def with_notes(out: BatchOutput, notes: dict[str, list[str]]) -> BatchOutput:
+    """Each member's notes on its forces joined to its members.csv message (in place)."""
+    if notes:
+        for r in out.rows:
+            said = notes.get(r["member"])
+            if said:
+                r["message"] = "; ".join([r["message"], *said] if r["message"] else said)
+    return out
