@@ -340,9 +340,15 @@ def test_beam_vb_is_checked_with_the_stirrups_about_the_other_axis(tmp_path):
     beam = dict(kind="beam", length_m=6.0, b_mm=300.0, h_mm=600.0, cover_mm=60.0, fc_mpa=30.0, fyt_mpa=420.0,
                 support_i="column", support_j="column")
     members = [dict(member="LOW", **beam), dict(member="HIGH", **beam)]
-    forces = constant("LOW", 6.0, V=50.0, Vb=40.0) + constant("HIGH", 6.0, V=50.0, Vb=150.0)
+    # HUGE: V = 2,000 kN exceeds the section limit phi (Vc + 0.66 sqrt(f'c) bw d) = 0.75 (147.3 + 572.1) = 539.6 kN
+    # (22.5.1.2): no stirrups are laid out, so Vb has nothing to be checked with: its ratio is not given (it is
+    # neither infinite nor the largest float)
+    members.append(dict(member="HUGE", **beam))
+    forces = constant("LOW", 6.0, V=50.0, Vb=40.0) + constant("HIGH", 6.0, V=50.0, Vb=150.0) \
+        + constant("HUGE", 6.0, V=2000.0, Vb=1.0)
     d = design(tmp_path, members, forces)
     m = d.members.set_index("member")
+    assert m.status["HUGE"] == "resize" and np.isnan(m.utilization_vb["HUGE"])
     vn_b = 0.17 * math.sqrt(30) * 600 * 240 + 2 * 71 / 250 * 420 * 240
     assert spacing_of(d, "LOW") == 250.0
     assert m.status["LOW"] == "designed"

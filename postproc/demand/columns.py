@@ -370,7 +370,7 @@ def shear_ratios(c: Cases, s: ColumnSection) -> tuple[np.ndarray, np.ndarray]:
     with np.errstate(divide="ignore", invalid="ignore"):
         r_v = c.vu_v / aci.section_limit(c.vc_v_hi, s.fc, s.bw_v, s.d_v, u=s.u)
         r_vb = c.vu_vb / aci.section_limit(c.vc_vb_hi, s.fc, s.bw_vb, s.d_vb, u=s.u)
-    return np.nan_to_num(r_v, nan=np.inf), np.nan_to_num(r_vb, nan=np.inf)
+    return np.nan_to_num(r_v, nan=np.inf, posinf=np.inf), np.nan_to_num(r_vb, nan=np.inf, posinf=np.inf)
 
 
 def torsion_ratios(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray]) -> np.ndarray:

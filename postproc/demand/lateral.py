@@ -60,8 +60,8 @@ def check(b, h, d, fc, fyt, lam, Ag, vb, nu, ratio_v, legs_b, bar_area, spacing,
     with np.errstate(divide="ignore", invalid="ignore"):
         r = np.where(vb > 0, vb / (PHI * (vc + vs)), 0.0)
         limit = vb / aci.section_limit(vc_a, fc, bw, dd, u, at=at)
-    r = np.nan_to_num(np.maximum(r, limit), nan=np.inf)
-    both = aci.biaxial_interaction(np.nan_to_num(ratio_v, nan=np.inf), r, rule)
+    r = np.nan_to_num(np.maximum(r, limit), nan=np.inf, posinf=np.inf)  # inf stays inf (not the largest float)
+    both = aci.biaxial_interaction(np.nan_to_num(ratio_v, nan=np.inf, posinf=np.inf), r, rule)
     need_min = vb > g(aci.av_min_threshold(fc, bw, dd, lam, u))
     reason = np.select([both > 1 + tol, need_min & ~has_min, need_min & (spacing > g(dd / 2 * (1 + tol)))], [1, 2, 3], 0)
     return Lateral(r, both, reason > 0, reason)

@@ -574,8 +574,9 @@ def _check_vb(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options
             continue
         first, last = grid.offsets[m], grid.offsets[m + 1] - 1
         at = lambda s: vb[cand.bounds[s]:cand.bounds[s + 1]].max(initial=0.0) / U.per_force  # noqa: E731
+        laid_out = lay.option[m] >= 0  # a member without stirrups (not designed for V) has no Vb ratio to give
         out[mb.names[m]] = dict(vb_design_i_kN=round(at(first), 2), vb_design_j_kN=round(at(last), 2),
-                                utilization_vb=round(float(got.ratio[sl].max()), 3))
+                                utilization_vb=round(float(got.ratio[sl].max()), 3) if laid_out else np.nan)
         bad = np.flatnonzero(got.fails[sl] & on[sl])
         if lay.option[m] >= 0 and len(bad):
             j = sl.start + bad[0]
