@@ -570,6 +570,7 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
     return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills, units, unread)
 
 
+FACE_SHARE = 0.25  # a beam's node-to-face distance above this share of its length is warned about (common practice)
 NEAR_MISS = 0.85  # difflib's ratio above which a header name is taken for a misspelling of one of ours
 
 
@@ -932,6 +933,13 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     probs.raise_if_any()
 
     warnings = notices
+    for end, face in (("i", face_i), ("j", face_j)):  # a beam's: half a support's width, a quarter of it is rare
+        wide = (kind == "beam") & (face > FACE_SHARE * L * units.per_span) \
+            & (face + (face_j if end == "i" else face_i) < L * units.per_span)
+        for m, f, length in zip(member[wide], face[wide], L[wide]):
+            warnings.append(f"member {m}: {named(f'face_{end}_mm')} = {f:,g} {units.length} is more than a quarter "
+                            f"of its length ({length:g} {units.span}): the node-to-face distance is half the supporting "
+                            "member's width; check the value (the clear span is designed as given)")
     capped = fyt > u.fyt_max
     for m, v in zip(member[capped], fyt[capped]):
         warnings.append(f"member {m}: fyt {v:g} {units.stress} capped at {u.fyt_max:g} {units.stress} for shear "

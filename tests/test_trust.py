@@ -116,6 +116,17 @@ def test_forces_that_stop_short_of_the_length_are_said_in_the_members_message(ru
     assert "forces cover x = 0.000 to 4.000 m only, of a length of 6.000 m" in m.message["B1"]
 
 
+def test_a_face_offset_beyond_a_quarter_of_a_beams_length_is_warned_about(run_design):
+    # 5000 mm for 500 mm (a typo) on an 8.4 m beam: the clear span falls to 3.4 m; said, not refused
+    res = run_design([member("B1", 8.4, "column", "column", face_i_mm=5000.0), member("B2", 8.4, "column", "column",
+                                                                                      face_i_mm=500.0)],
+                     rows("B1", "U1", [(0.0, 100.0), (8.4, -100.0)]) + rows("B2", "U1", [(0.0, 100.0), (8.4, -100.0)]),
+                     extra=["--no-report"])
+    warnings = _manifest_warnings(res)
+    assert res.code == 0 and "member B1: face_i_mm = 5,000 mm is more than a quarter of its length" in warnings
+    assert "member B2: face_i_mm" not in warnings
+
+
 @pytest.mark.parametrize("header, suggestion", [("T_kNM", "T_kNm"), ("Vb_kn", "Vb_kN"), ("V_b_kN", "Vb_kN")])
 def test_a_misspelt_force_column_is_refused_not_read_as_absent(tmp_path, capsys, header, suggestion):
     # read as absent, a torsion (or Vb) column would count as none: refused, naming file, line and column
