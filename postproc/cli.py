@@ -39,12 +39,15 @@ EXIT_CODES: dict[int, str] = {
     9: "a worker process died (killed, e.g. by the system when memory ran out)",
     10: "another error reading or writing a file",
     11: "the design's own self-check failed: a defect of shearpost; nothing was stored",
+    12: "some members were not designed for want of input: no geometry (not in the members table) or no "
+        "forces (run, demo; members.csv gives each one's status and why; before 3 where both apply)",
     130: "interrupted (Ctrl-C)",
     141: "the output was closed early (e.g. piped into head): the command finishes its work, the rest of "
          "its output is dropped",
 }
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
 EXIT_DAMAGED, EXIT_BUSY, EXIT_READ_ONLY, EXIT_DISK_FULL, EXIT_MEMORY, EXIT_WORKER, EXIT_IO, EXIT_INTERNAL = range(4, 12)
+EXIT_UNDESIGNED = 12
 EXIT_INTERRUPTED, EXIT_BROKEN_PIPE = 130, 141  # 128 + SIGINT, 128 + SIGPIPE, as shells report them
 FAULT_EXIT = {"damaged": EXIT_DAMAGED, "busy": EXIT_BUSY, "read-only": EXIT_READ_ONLY, "disk-full": EXIT_DISK_FULL,
               "memory": EXIT_MEMORY, "worker": EXIT_WORKER, "io": EXIT_IO, "internal": EXIT_INTERNAL,
@@ -551,6 +554,14 @@ def cmd_design(args) -> int:
         _error(f"error: run {run.name}: {why}")
         _error(f"the statuses are in {args.out / 'members.csv'}")
         return EXIT_INPUT
+    return outcome(doc)
+
+
+def outcome(doc: dict) -> int:
+    """The exit code of a designed run from its summary: members left without input first,
+    then members or joints to resize."""
+    if doc["status"]["no-geometry"] or doc["status"]["no-forces"]:
+        return EXIT_UNDESIGNED
     return EXIT_RESIZE if doc["status"]["resize"] or doc["joints"]["over"] else EXIT_OK
 
 

@@ -1,4 +1,5 @@
-"""Every member leaves with a status; resizing sets exit code 3 and names a section that passes."""
+"""Every member leaves with a status; members without input set exit code 12, resizing 3 (and names a
+section that passes)."""
 
 import math
 
@@ -18,6 +19,18 @@ def test_statuses_for_members_missing_on_either_side(run_design):
     col = res.members.set_index("member").loc["COL"]
     assert "db_long_mm" in col.message and "25.7.2.1" in col.message  # a column without its bars: said why
     assert list(res.members.member[:3]) == ["OK", "NOFORCE", "COL"]  # input order first
+    assert res.code == cli.EXIT_UNDESIGNED  # members left without input: not a success
+
+
+def test_exit_code_12_for_members_without_input_comes_before_3(run_design):
+    ok = rows_from_function("OK", "U", 6.0, lambda x: 100 - 33 * x, n=5)
+    huge = rows_from_function("SMALL", "U", 6.0, lambda x: 900.0 * (1 - x / 3), n=3)  # over 22.5.1.2
+    small = beam("SMALL", 6.0, b_mm=250.0, h_mm=500.0)
+    assert run_design([beam("OK", 6.0)], ok).code == cli.EXIT_OK
+    assert run_design([beam("OK", 6.0), small], ok + huge).code == cli.EXIT_RESIZE
+    assert run_design([beam("OK", 6.0), small, beam("NOFORCE", 6.0)], ok + huge).code == cli.EXIT_UNDESIGNED
+    assert run_design([beam("OK", 6.0)], ok + rows_from_function("GHOST", "U", 4.0, lambda x: 50.0, n=3)).code \
+        == cli.EXIT_UNDESIGNED
 
 
 def test_resize_gives_exit_code_3_and_a_bw_d_that_passes(run_design):
