@@ -941,9 +941,11 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
                             f"of its length ({length:g} {units.span}): the node-to-face distance is half the supporting "
                             "member's width; check the value (the clear span is designed as given)")
     capped = fyt > u.fyt_max
-    for m, v in zip(member[capped], fyt[capped]):
-        warnings.append(f"member {m}: fyt {v:g} {units.stress} capped at {u.fyt_max:g} {units.stress} for shear "
-                        "(ACI 318-19 20.2.2.4)")
+    if capped.any():  # one line for them all: it must not bury the other warnings
+        shown = ", ".join(f"{m} ({v:,g} {units.stress})" for m, v in zip(member[capped][:5], fyt[capped][:5]))
+        more = f" and {int(capped.sum()) - 5} more" if capped.sum() > 5 else ""
+        warnings.append(f"fyt of {int(capped.sum())} member(s) capped at {u.fyt_max:,g} {units.stress} for shear "
+                        f"(ACI 318-19 20.2.2.4): {shown}{more}")
     fy_default = np.isnan(fy)
     out = t.set_column(t.schema.get_field_index("kind"), "kind", pa.array(kind.tolist(), pa.string()))
     out = out.set_column(out.schema.get_field_index("load_face"), "load_face", pa.array(load_face.tolist(), pa.string()))

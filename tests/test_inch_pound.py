@@ -627,3 +627,20 @@ def test_demo_frame_beams_and_joints_in_inch_pound(demo_us, capsys):
     assert cli.main(["explain", frame.iloc[0], "--store", str(tmp / "store")]) == cli.EXIT_OK
     text = capsys.readouterr().out
     assert "Moment frame: special" in text and "kip*ft" in text and "6 in" in text and " mm" not in text
+
+
+def test_a_grade_given_in_the_other_systems_unit_is_that_grade():
+    """The grade rows of Chapter 18 (18.6.3.1: rho at most 0.025 for Grade 420 | 60, 0.02 above) and
+    psi_g of Table 25.4.2.5 (1.0 to Grade 420 | 60, 1.15 for Grade 550 | 80, 1.3 for Grade 690 | 100)
+    take a soft-converted grade as that grade: 420 MPa x 145.04 = 60,916 psi is Grade 60 (an SI
+    members.csv run in inch-pound units had its Grade 420 bars under the Grade 80 rows), 80,000 psi =
+    551.6 MPa is Grade 550, 100,000 psi = 689.5 MPa is Grade 690."""
+    from postproc.codes import aci318_19_stm as stm_code
+
+    psi = units.factor("fy_mpa", "fy_psi")
+    assert float(aci.smf_beam_rho_max(420.0 * psi, aci.US)) == 0.025
+    assert float(aci.smf_beam_rho_max(550.0 * psi, aci.US)) == 0.02
+    assert float(aci.smf_beam_rho_max(60_000.0 / psi, aci.SI)) == 0.025
+    assert float(aci.smf_beam_rho_max(80_000.0 / psi, aci.SI)) == 0.02
+    assert [float(stm_code.grade_factor(f * psi, aci.US)) for f in (280.0, 420.0, 550.0, 690.0)] == [1.0, 1.0, 1.15, 1.3]
+    assert [float(stm_code.grade_factor(f / psi, aci.SI)) for f in (40e3, 60e3, 80e3, 100e3)] == [1.0, 1.0, 1.15, 1.3]

@@ -370,9 +370,14 @@ FYT_CONFINEMENT_MAX_MPA = SI.fyt_confinement_max  # Table 20.2.2.4(a) (SI; the e
 OMEGA_O_MOMENT_FRAME = 3.0  # overstrength factor commonly tabulated by the general building code for RC moment frames (from memory)
 
 
+GRADE_SOFT_CONVERSION = 1.02  # a grade given in the other system's unit is that grade: 420 MPa = 60,916 psi is
+# Grade 60, 80,000 psi = 551.6 MPa is Grade 550 (the soft conversions differ by up to 1.5 %; common practice)
+
+
 def _grade_550(fy, u: Edition = SI):
-    # the Grade 550 | Grade 80 rows apply to fy above 420 MPa | 60,000 psi (the stricter rule for any grade between)
-    return np.asarray(fy, dtype=float) > u.grade_high_fy
+    # the Grade 550 | Grade 80 rows apply to fy above 420 MPa | 60,000 psi (the stricter rule for any grade between),
+    # a grade in the other system's unit taken as that grade
+    return np.asarray(fy, dtype=float) > u.grade_high_fy * GRADE_SOFT_CONVERSION
 
 
 # --- capacity-design shear of frame members ----------------------------------------------

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from postproc.codes.aci318_19 import SI, Edition
+from postproc.codes.aci318_19 import GRADE_SOFT_CONVERSION, SI, Edition
 
 PHI_STM = 0.75  # Table 21.2.1: struts, ties, nodal zones and bearing areas of Chapter 23 models
 MIN_STRUT_TIE_ANGLE_DEG = 25.0  # 23.2.7: angle between a strut and a tie entering one node
@@ -148,10 +148,11 @@ def _sqrt_fc_development(fc, u: Edition):
 
 def grade_factor(fy, u: Edition = SI):
     """psi_g (Table 25.4.2.5): 1.0 for Grade 280 and 420 | 40 and 60, 1.15 for Grade 550 | 80,
-    1.3 for Grade 690 | 100."""
+    1.3 for Grade 690 | 100 (a grade given in the other system's unit is that grade,
+    ``GRADE_SOFT_CONVERSION``)."""
     fy = np.asarray(fy, dtype=float)
-    normal, high = u.grade_factor_fy
-    return np.where(fy <= normal + 1e-9, 1.0, np.where(fy <= high + 1e-9, 1.15, 1.3))
+    normal, high = (g * GRADE_SOFT_CONVERSION for g in u.grade_factor_fy)
+    return np.where(fy <= normal, 1.0, np.where(fy <= high, 1.15, 1.3))
 
 
 def straight_development_length(fy, fc, db, lam=1.0, psi_t=1.0, psi_e=1.0, spacing_ok=False, u: Edition = SI):
