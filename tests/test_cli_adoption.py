@@ -267,3 +267,13 @@ def test_a_steel_only_ifc_model_exits_1_with_the_reason(tmp_path, capsys):
     assert "no member was designed (2 invalid)" in err and "steel I-shape profile" in err
     html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
     assert "Needs action: 2 members" in html and "SG1" in html
+
+
+def test_the_demo_says_where_its_inputs_are(tmp_path, capsys):
+    """A new user starts from the demo's tables: the demo names them (one line, to copy)."""
+    code = cli.main(["demo", "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--no-report"])
+    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("The demo's inputs"))
+    assert code == 0
+    folder = Path(line.rsplit(" in ", 1)[1])
+    assert "members.csv, forces.csv, cases.csv" in line
+    assert all((folder / name).is_file() for name in ("members.csv", "forces.csv", "cases.csv"))
