@@ -30,6 +30,17 @@ class Step:
     lines: list[str] = field(default_factory=list)
 
 
+def _g(v) -> str:
+    """A number given as read, to four significant digits at most (an SI value converted to
+    inches reads 21.26, not 21.2598), never in exponent form above 1."""
+    v = float(v)
+    if not np.isfinite(v) or v == 0:
+        return f"{v:g}"
+    decimals = max(0, 3 - int(np.floor(np.log10(abs(v)))))
+    text = f"{v:.{decimals}f}"
+    return text.rstrip("0").rstrip(".") if decimals else text
+
+
 def _fmt(v, unit="", nd=1) -> str:
     return "-" if v is None or (isinstance(v, float) and np.isnan(v)) else f"{v:,.{nd}f}{(' ' + unit) if unit else ''}"
 
@@ -54,15 +65,15 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
     fyt = min(m.fyt_mpa, u.fyt_max)
     rho = m.as_tension_mm2 / (m.b_mm * m.d_mm) if np.isfinite(m.as_tension_mm2) else np.nan
     steps.append(Step("Inputs", "", [
-        f"bw = {m.b_mm:g} {mm}, h = {m.h_mm:g} {mm}, d = {m.d_mm:g} {mm}" +
-        (f", flange {m.bf_mm:g} x {m.hf_mm:g} {mm}" if np.isfinite(m.bf_mm) else ""),
-        f"f'c = {m.fc_mpa:g} {mpa}, sqrt(f'c) used = {float(aci.sqrt_fc(m.fc_mpa, u)):.3f} {mpa} (22.5.3.1), "
-        f"lambda = {m['lambda']:g}",
-        f"fyt = {m.fyt_mpa:g} {mpa}" + (f", {fyt:g} {mpa} used for shear (20.2.2.4)" if fyt < m.fyt_mpa else ""),
-        "rho_w = " + (f"{rho:.4f} from As = {m.as_tension_mm2:g} {U.area}" if np.isfinite(rho) else
+        f"bw = {_g(m.b_mm)} {mm}, h = {_g(m.h_mm)} {mm}, d = {_g(m.d_mm)} {mm}" +
+        (f", flange {_g(m.bf_mm)} x {_g(m.hf_mm)} {mm}" if np.isfinite(m.bf_mm) else ""),
+        f"f'c = {_g(m.fc_mpa)} {mpa}, sqrt(f'c) used = {float(aci.sqrt_fc(m.fc_mpa, u)):.3f} {mpa} (22.5.3.1), "
+        f"lambda = {_g(m['lambda'])}",
+        f"fyt = {_g(m.fyt_mpa)} {mpa}" + (f", {_g(fyt)} {mpa} used for shear (20.2.2.4)" if fyt < m.fyt_mpa else ""),
+        "rho_w = " + (f"{rho:.4f} from As = {_g(m.as_tension_mm2)} {U.area}" if np.isfinite(rho) else
                       f"not given: Table 22.5.5.1(c) takes {float(aci.rho_w_lower_bound(m.fc_mpa, m.fy_mpa, u)):.4f}, "
                       "the As,min of 9.6.1.2"),
-        f"length {m.length_m:g} {U.span}, faces {m.face_i_mm:g} / {m.face_j_mm:g} {mm}, clear span ln = {ln:,.0f} {mm}",
+        f"length {_g(m.length_m)} {U.span}, faces {_g(m.face_i_mm)} / {_g(m.face_j_mm)} {mm}, clear span ln = {ln:,.0f} {mm}",
         f"supports: i {m.support_i}, j {m.support_j}; loads at the {m.load_face}",
         *([] if U.name == "si" else [f"units: {U.title}; the equations of {u.title}"]),
     ]))
@@ -93,7 +104,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         ratio = np.where(region, -np.inf, st.vu_max_kN.to_numpy() / st.phi_vn_limit_kN.to_numpy())
         k = int(np.argmax(ratio))
         steps.append(Step("Section limit", "22.5.1.2", [
-            f"largest Vu / phi(Vc + {u.vs_max:g} sqrt(f'c) bw d) = {ratio[k]:.3f} "
+            f"largest Vu / phi(Vc + {_g(u.vs_max)} sqrt(f'c) bw d) = {ratio[k]:.3f} "
             f"at x = {st.x_mm[k]:,.0f} {mm} (Vu = {_fmt(st.vu_max_kN[k], kN)}, limit {_fmt(st.phi_vn_limit_kN[k], kN)})"
             + (" (outside the strut-and-tie regions)" if region.any() else "")]))
     if "frame" in m.index and m.frame in ("ordinary", "intermediate", "special"):
@@ -118,8 +129,8 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
             steps.append(_zone_step(z, st, sec, m, settings, U))
     worst = int(np.nanargmax(st.utilization.to_numpy()))
     man = run.manifest()
-    density = (f"steel {detailing.STEEL_DENSITY * 1e9:g} kg/m^3" if U.name == "si" else
-               f"steel {detailing.STEEL_DENSITY_US * 1728:g} lb/ft^3")
+    density = (f"steel {_g(detailing.STEEL_DENSITY * 1e9)} kg/m^3" if U.name == "si" else
+               f"steel {_g(detailing.STEEL_DENSITY_US * 1728)} lb/ft^3")
     steps.append(Step("Self-check", "9.5.1.1, 9.6.3, 9.7.6.2.2" + (", 9.9.3.1, 9.9.4.3, 23.7.2" if region.any() else ""), [
         (f"{int(region.sum())} stations inside the strut-and-tie regions: Av/s provided >= what the model needs "
          "(0.0025 bw and every stirrup tie over its spread), gap <= min(d/5, 300 mm | 12 in); " if region.any() else "")
@@ -128,7 +139,7 @@ def explain(run: Run, member: str, settings: Settings) -> list[Step]:
         "there; s <= s_max; Av >= Av,min where required",
         f"highest utilization {st.utilization[worst]:.3f} at x = {st.x_mm[worst]:,.0f} {mm} ({st.governing_case[worst]})"]))
     steps.append(Step("Stirrups", "25.3.2, 25.3.3", [
-        f"{r.stirrups_total} stirrup sets, {r.stirrup_mass_kg:g} {U.mass} ({density})",
+        f"{r.stirrups_total} stirrup sets, {_g(r.stirrup_mass_kg)} {U.mass} ({density})",
         f"code edition {man.get('code_edition')}, shearpost {man.get('tool_version')}"]))
     return steps
 
@@ -172,9 +183,9 @@ def _point_loads(samples, cases: list[str], m, settings: Stations, U: UnitSystem
         lines.append(f"x = {x / U.per_span:.3f} {U.span} ({where}): a jump of {size:,.1f} {U.force} in case {case}")
     if not lines:
         lines.append("none: no two rows at one station differ by more than the tolerance "
-                     f"(max of {settings.point_load / U.per_force:g} {U.force} and {settings.point_load_fraction:g} "
+                     f"(max of {_g(settings.point_load / U.per_force)} {U.force} and {_g(settings.point_load_fraction)} "
                      "of the largest |V|)")
-    lines.append(f"rows closer than {settings.tolerance:g} {U.length} are one station")
+    lines.append(f"rows closer than {_g(settings.tolerance)} {U.length} are one station")
     return Step("Concentrated loads", "9.4.3.2(c), 9.9.1.1(b)", lines)
 
 
@@ -206,16 +217,16 @@ def _torsion(st, r, m, settings: Settings, U: UnitSystem) -> Step:
              "Acp = bw h, equilibrium torsion, not reduced by 22.7.3.2)",
              f"largest Tu = {_fmt(row.tu_kNm, U.moment, 2)} at x = {row.x_mm:,.0f} {mm} ({row.governing_case})",
              f"At/s = Tu / (phi 2 (0.85 Aoh) fyt cot 45) = {row.at_s_req:.3f} {U.area}/{mm} per leg (22.7.6.1), Aoh "
-             f"and ph of the chosen stirrup bar; closed stirrups (25.7.1.6); s <= min(ph/8, {u.torsion_s_max:g} {mm}) "
+             f"and ph of the chosen stirrup bar; closed stirrups (25.7.1.6); s <= min(ph/8, {_g(u.torsion_s_max)} {mm}) "
              "(9.7.6.3.3)",
-             f"(Av + 2At)/s >= max({u.av_min_sqrt:g} sqrt(f'c), {u.av_min_flat:g}) bw/fyt (9.6.4.2), one combined "
+             f"(Av + 2At)/s >= max({_g(u.av_min_sqrt)} sqrt(f'c), {_g(u.av_min_flat)}) bw/fyt (9.6.4.2), one combined "
              "minimum",
              "cross-sectional limit 22.7.7.1(a) checked with the chosen bar"]
     if isinstance(r.al_torsion_mm2, (int, float)) and np.isfinite(r.al_torsion_mm2):
         nd = 0 if U.name == "si" else 2
         lines.append(f"longitudinal torsion steel Al = {r.al_torsion_mm2:,.{nd}f} {U.area}, the larger of (At/s) ph "
                      "fyt/fy (22.7.6.1) and Al,min (9.6.4.3); add it to the flexural bars, around the perimeter at "
-                     f"most {u.torsion_s_max:g} {mm} apart (9.7.5.1)")
+                     f"most {_g(u.torsion_s_max)} {mm} apart (9.7.5.1)")
     return Step("Torsion", "22.7", lines)
 
 
@@ -254,7 +265,7 @@ def _region_zone_step(z, st, settings: Settings, U: UnitSystem) -> Step:
     """A zone inside a strut-and-tie region: the model's Av/s against the stirrups provided."""
     mm, A = U.length, U.area
     sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
-    what = f"{z.count} x {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} {mm}" if z.count > 1 else "")
+    what = f"{z.count} x {z.bar} x {z.legs} legs" + (f" @ {_g(z.spacing_mm)} {mm}" if z.count > 1 else "")
     title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} {mm}, {what}, strut-and-tie region"
     k = sub.utilization.idxmax()
     row = st.loc[k]
@@ -262,8 +273,8 @@ def _region_zone_step(z, st, settings: Settings, U: UnitSystem) -> Step:
     return Step(title, "9.9.3.1, 9.9.4.3, 23.7.2", [
         f"Av/s needed {row.av_s_req:.4g} {A}/{mm}: the larger of 0.0025 bw = {row.av_min_s:.4g} (9.9.3.1(a)) and the "
         "stirrup ties of the truss over their spread (23.7.2)",
-        f"provided {z.bar} ({area:g} {A}) x {z.legs} legs, {row.spacing_mm:g} {mm} apart at x = {row.x_mm:,.0f} {mm}: "
-        f"Av/s = {row.av_s_prov:.4g} {A}/{mm}; s <= min(d/5, 300 mm | 12 in) = {row.s_max_mm:g} {mm} (9.9.4.3)",
+        f"provided {z.bar} ({_g(area)} {A}) x {z.legs} legs, {_g(row.spacing_mm)} {mm} apart at x = {row.x_mm:,.0f} {mm}: "
+        f"Av/s = {row.av_s_prov:.4g} {A}/{mm}; s <= min(d/5, 300 mm | 12 in) = {_g(row.s_max_mm)} {mm} (9.9.4.3)",
         f"utilization {row.utilization:.3f} (Av/s needed over provided, highest in the zone)"])
 
 
@@ -297,7 +308,7 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
         steps.append(Step(f"Strut-and-tie model, {tag}", "23.2, 23.4, 23.9", lines))
         nd = mine(nodes)
         steps.append(Step(f"Nodes, {tag}", "23.9.1, 23.9.2, Table 23.9.2", [
-            f"{n.node} at x = {n.x_mm:,.{fl}f} {mm}, y = {n.y_mm:,.{fl}f} {mm}: {n.node_type}, beta_n = {n.beta_n:g}; governing "
+            f"{n.node} at x = {n.x_mm:,.{fl}f} {mm}, y = {n.y_mm:,.{fl}f} {mm}: {n.node_type}, beta_n = {_g(n.beta_n)}; governing "
             f"face {n.governing_face}" + (f" ({n.element})" if n.element else "") +
             f", utilization {n.utilization:.3f} ({n.combination})" for n in nd.itertuples()]
             + [f"each face: stress = force / (width x bw) against phi 0.85 beta_n f'c (phi = 0.75, 21.2.1); "
@@ -305,7 +316,7 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
         sr = mine(struts)
         steps.append(Step(f"Struts, {tag}", "23.4.1, 23.4.3, Table 23.4.3, 23.5", [
             f"{s.element}: {s.angle_deg:.1f} deg, {s.force_kN:,.1f} {kN} ({s.combination}); widths "
-            f"{s.width_1_mm:,.0f} / {s.width_2_mm:,.{fl}f} {mm}; beta_s = {s.beta_s:g}, fce = 0.85 beta_s f'c = "
+            f"{s.width_1_mm:,.0f} / {s.width_2_mm:,.{fl}f} {mm}; beta_s = {_g(s.beta_s)}, fce = 0.85 beta_s f'c = "
             f"{s.fce_MPa:.2f} {MPa}; phi Fns = {s.phi_fns_kN:,.1f} {kN}; utilization {s.utilization:.3f}"
             for s in sr.itertuples()]
             + ["angles between struts and ties are at least 25 degrees (23.2.7)"]))
@@ -337,7 +348,7 @@ def strut_and_tie_steps(run: Run, member: str, U: UnitSystem) -> list[Step]:
         s = summary.iloc[0]
         steps.append(Step("Distributed reinforcement", "9.9.3.1, 9.9.4.3, 23.5", [
             f"Av/s and Ah/s >= 0.0025 bw = {s.av_s_min:.4g} {A}/{mm} (9.9.3.1(a), (b)), spacing <= min(d/5, "
-            f"300 mm | 12 in) = {s.s_max_mm:g} {mm} (9.9.4.3); with it interior struts take beta_s = {s.beta_s_interior:g} "
+            f"300 mm | 12 in) = {_g(s.s_max_mm)} {mm} (9.9.4.3); with it interior struts take beta_s = {_g(s.beta_s_interior)} "
             "(Table 23.4.3, Table 23.5.1)",
             f"vertical: Av/s needed {s.av_s_req:.4g} {A}/{mm} (the minimum and the stirrup ties): the stirrup zones "
             "below",
@@ -357,7 +368,7 @@ def _zone_step(z, st, sec: demand.Section, m, settings: Settings, U: UnitSystem)
     if not len(sub):  # a lone stirrup between stations: the stations next to it
         sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]
     hoops = getattr(z, "kind", "stirrup") == "hoop"
-    what = f"{z.count} {'hoops' if hoops else 'x'} {z.bar} x {z.legs} legs" + (f" @ {z.spacing_mm:g} {mm}"
+    what = f"{z.count} {'hoops' if hoops else 'x'} {z.bar} x {z.legs} legs" + (f" @ {_g(z.spacing_mm)} {mm}"
                                                                               if z.count > 1 else "")
     title = f"Zone {z.zone}: {z.start_mm:,.0f} to {z.end_mm:,.0f} {mm}, {what if z.count else 'no stirrups'}"
     if not z.count:
@@ -390,17 +401,17 @@ def _zone_step(z, st, sec: demand.Section, m, settings: Settings, U: UnitSystem)
         f"Vs required = Vu/phi - Vc = {_fmt(vs_req / per, kN)}; Av/s required = {row.av_s_req:.3f} {U.area}/{mm} "
         f"(22.5.8.5.3); Av,min/s = {row.av_min_s:.3f} required here by 9.6.3.1: "
         f"{'yes' if row.avmin_required else 'no'}",
-        f"provided {z.bar} ({area:g} {U.area}) x {z.legs} legs, the stirrups around x {s:g} {mm} apart: "
+        f"provided {z.bar} ({_g(area)} {U.area}) x {z.legs} legs, the stirrups around x {_g(s)} {mm} apart: "
         f"Av/s = {av_s_prov:.3f} {U.area}/{mm}, Vs = {_fmt(vs_prov / per, kN)}",
-        f"s_max = {row.s_max_mm:g} {mm} (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} {u.heavy_vs:g} sqrt(f'c) bw d"
-        + (", torsion 9.7.6.3.3" if row.torsion else "") + f"); allowed here {row.s_allowed_mm:g} {mm}",
+        f"s_max = {_g(row.s_max_mm)} {mm} (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} {_g(u.heavy_vs)} sqrt(f'c) bw d"
+        + (", torsion 9.7.6.3.3" if row.torsion else "") + f"); allowed here {_g(row.s_allowed_mm)} {mm}",
         f"phi*Vn = {_fmt(0.75 * (vc + vs_prov) / per, kN)} >= Vu; utilization {row.utilization:.3f}",
     ]
     if row.torsion:
         lines.append(f"torsion considered (Tu >= phi*Tth, 22.7.4.1): At/s = {row.at_s_req:.3f} {U.area}/{mm} per leg "
                      "(22.7.6.1), closed stirrups (25.7.1.6)")
     if hoops:
-        lines.append(f"hoops: closed, with seismic hooks (135 degrees, 6 db >= {u.hook_min_extension:g} {mm}; 25.3.4), "
+        lines.append(f"hoops: closed, with seismic hooks (135 degrees, 6 db >= {_g(u.hook_min_extension)} {mm}; 25.3.4), "
                      "the hinge zone's spacing limit in s_max (18.6.4.4 or 18.4.2.4)")
     return Step(title, "22.5, 9.6.3, 9.7.6.2.2" + (", 18.6.4, 18.4.2.4" if hoops else ""), lines)
 
@@ -422,8 +433,8 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: U
     kn = lambda v: f"{v / U.per_moment:,.1f}"  # noqa: E731
     nd = 0 if U.name == "si" else 2
     lines = [f"bars at the faces: top i {m.as_top_i_mm2:,.{nd}f}, bottom i {m.as_bot_i_mm2:,.{nd}f}, top j "
-             f"{m.as_top_j_mm2:,.{nd}f}, bottom j {m.as_bot_j_mm2:,.{nd}f} {area}; smallest bar db = {m.db_long_mm:g} "
-             f"{mm}; fy = {m.fy_mpa:g} {mpa}",
+             f"{m.as_top_j_mm2:,.{nd}f}, bottom j {m.as_bot_j_mm2:,.{nd}f} {area}; smallest bar db = {_g(m.db_long_mm)} "
+             f"{mm}; fy = {_g(m.fy_mpa)} {mpa}",
              f"Mn- / Mn+ (22.2, strain compatibility): i {kn(fb.mn_neg_i[0])} / {kn(fb.mn_pos_i[0])}, j "
              f"{kn(fb.mn_neg_j[0])} / {kn(fb.mn_pos_j[0])} {U.moment}"]
     special = frame == "special"
@@ -441,19 +452,19 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: U
                  "beam: the analysis shear less its end-moment part, the mean of V over ln (Fig. R18.6.5)")
     ve = st.ve_kN.to_numpy(float) if "ve_kN" in st else np.full(len(st), np.nan)
     if np.isfinite(ve).any():
-        what = "Ve" if special else "the lesser of (a) and (b) with Omega_o = " + f"{settings.frames.omega_o:g}"
+        what = "Ve" if special else "the lesser of (a) and (b) with Omega_o = " + f"{_g(settings.frames.omega_o)}"
         lines.append(f"{what}: {ve[0]:,.1f} {kN} at face i, {ve[-1]:,.1f} {kN} at face j; the design shear at each "
                      "station is the larger of it and the analysis envelope (a further candidate combination)")
     h2 = float(aci.smf_beam_hoop_zone_length(m.h_mm))
-    lines.append(f"hoops over 2h = {h2:,.0f} {mm} from each face, the first within {u.first_hoop_max:g} {mm} "
+    lines.append(f"hoops over 2h = {h2:,.0f} {mm} from each face, the first within {_g(u.first_hoop_max)} {mm} "
                  + ("(18.6.4.1, 18.6.4.4)" if special else "(18.4.2.4)"))
     high = m.fy_mpa > u.grade_high_fy
     if special:
         s_hoop = float(aci.smf_beam_hoop_spacing(m.d_mm, m.db_long_mm, m.fy_mpa, u))
-        lines.append(f"hoop spacing at most min(d/4, {'5' if high else '6'} db, {u.smf_beam_hoop_s:g} {mm}) = "
-                     f"{s_hoop:g} {mm} (18.6.4.4); stirrups with seismic hooks at most d/2 = {m.d_mm / 2:g} {mm} "
+        lines.append(f"hoop spacing at most min(d/4, {'5' if high else '6'} db, {_g(u.smf_beam_hoop_s)} {mm}) = "
+                     f"{_g(s_hoop)} {mm} (18.6.4.4); stirrups with seismic hooks at most d/2 = {_g(m.d_mm / 2)} {mm} "
                      "elsewhere (18.6.4.6); legs to support the bars nearest each face, supported bars at most "
-                     f"{u.smf_beam_hx_max:g} {mm} apart (18.6.4.2)")
+                     f"{_g(u.smf_beam_hx_max)} {mm} apart (18.6.4.2)")
         threshold = m.b_mm * m.h_mm * m.fc_mpa / 20.0  # Ag f'c / 20 of the web; the design takes Ag with any flange
         for end, z in (("i", 1), ("j", 2)):
             part = st[st.hinge_zone == z] if "hinge_zone" in st else st.iloc[0:0]
@@ -467,8 +478,8 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: U
                          f"combinations under Ag f'c/20 (about {threshold / U.per_force:,.0f} {kN})")
     else:
         s_hoop = float(aci.imf_beam_hoop_spacing(m.d_mm, m.db_long_mm, np.inf, m.fy_mpa, u))
-        lines.append(f"hoop spacing at most min(d/4, {'6' if high else '8'} db, {u.imf_beam_hoop_s:g} {mm}) = "
-                     f"{s_hoop:g} {mm} and 24 diameters of the hoop bar (18.4.2.4); d/2 = {m.d_mm / 2:g} {mm} "
+        lines.append(f"hoop spacing at most min(d/4, {'6' if high else '8'} db, {_g(u.imf_beam_hoop_s)} {mm}) = "
+                     f"{_g(s_hoop)} {mm} and 24 diameters of the hoop bar (18.4.2.4); d/2 = {_g(m.d_mm / 2)} {mm} "
                      "elsewhere (18.4.2.5)")
     return Step(f"Moment frame: {frame}", "18.6" if special else "18.4.2", lines)
 
@@ -501,9 +512,9 @@ def _column(run: Run, member: str, r, df, settings: Settings) -> list[Step]:
               f"{100 * s.ast[0] / s.Ag[0]:.2f} % of Ag), {s.edge[0]:.4g} {mm} from the faces",
         f"rho_w for Table 22.5.5.1: {s.rho_v[0]:.4f} (V) and {s.rho_vb[0]:.4f} (Vb), the bars of the tension "
         + ("half (n/2)" if circular else "face"),
-        f"f'c = {s.fc[0]:g} {mpa} (sqrt used {float(aci.sqrt_fc(s.fc[0], u)):.3f}, 22.5.3.1), fyt = {m.fyt_mpa:g} "
-        f"{mpa}" + (f", {fyt:g} for shear (20.2.2.4)" if fyt < m.fyt_mpa else "") + f", lambda = {s.lam[0]:g}",
-        f"length {m.length_m:g} {U.span} from the bottom node; faces {m.face_i_mm:.4g} / {m.face_j_mm:.4g} {mm}; clear "
+        f"f'c = {_g(s.fc[0])} {mpa} (sqrt used {float(aci.sqrt_fc(s.fc[0], u)):.3f}, 22.5.3.1), fyt = {_g(m.fyt_mpa)} "
+        f"{mpa}" + (f", {_g(fyt)} for shear (20.2.2.4)" if fyt < m.fyt_mpa else "") + f", lambda = {_g(s.lam[0])}",
+        f"length {_g(m.length_m)} {U.span} from the bottom node; faces {m.face_i_mm:.4g} / {m.face_j_mm:.4g} {mm}; clear "
         f"height {clear:,.0f} {mm}; frame: {frame}",
         *([] if U.name == "si" else [f"units: {U.title}; the equations of {u.title}"])])]
     if r.status in ("no-forces", "invalid"):
@@ -524,7 +535,7 @@ def _column(run: Run, member: str, r, df, settings: Settings) -> list[Step]:
         kv = int(np.argmax(st.vu_max_kN / st.phi_vn_limit_kN))
         kb = int(np.argmax(st.vb_max_kN / st.phi_vn_limit_vb_kN))
         steps.append(Step("Section limits", "22.5.1.2", [
-            f"V: largest Vu / phi (Vc + {u.vs_max:g} sqrt(f'c) bw d) = {st.vu_max_kN[kv] / st.phi_vn_limit_kN[kv]:.3f} at "
+            f"V: largest Vu / phi (Vc + {_g(u.vs_max)} sqrt(f'c) bw d) = {st.vu_max_kN[kv] / st.phi_vn_limit_kN[kv]:.3f} at "
             f"x = {st.x_mm[kv]:,.0f} {mm}", f"Vb: {st.vb_max_kN[kb] / st.phi_vn_limit_vb_kN[kb]:.3f} at "
                                           f"x = {st.x_mm[kb]:,.0f} {mm}"]))
     steps.append(_governing(r, U))
@@ -548,7 +559,7 @@ def _column(run: Run, member: str, r, df, settings: Settings) -> list[Step]:
         "the end ties within half the allowed spacing of the faces",
         f"highest utilization {r.utilization:.3f}"]))
     steps.append(Step("Ties", "25.3.2, 25.3.3, 25.3.4, 25.3.5, 25.7.2", [
-        f"{r.stirrups_total} sets, {r.stirrup_mass_kg:g} {U.mass} (perimeter hoop or tie with 135-degree hooks, crossties "
+        f"{r.stirrups_total} sets, {_g(r.stirrup_mass_kg)} {U.mass} (perimeter hoop or tie with 135-degree hooks, crossties "
         "with a 135-degree and a 90-degree hook alternated end for end)"]))
     return steps
 
@@ -559,7 +570,7 @@ def _column_zone(z, st, mb, frame: str, settings: Settings, U: UnitSystem) -> St
     sub = st[(st.x_mm >= z.start_mm - 1e-6) & (st.x_mm <= z.end_mm + 1e-6)]
     if not len(sub):
         sub = st.iloc[[int(np.argmin(np.abs(st.x_mm.to_numpy() - z.start_mm)))]]
-    what = f"{z.count} x {z.bar} {z.kind}s" + (f" @ {z.spacing_mm:g} {mm}" if z.count > 1 else "")
+    what = f"{z.count} x {z.bar} {z.kind}s" + (f" @ {_g(z.spacing_mm)} {mm}" if z.count > 1 else "")
     title = f"Zone {z.zone}: {z.start_mm:,.{0 if U.name == 'si' else 1}f} to {z.end_mm:,.{0 if U.name == 'si' else 1}f} " \
             f"{mm}, {what}"
     if not z.count:
@@ -582,23 +593,23 @@ def _column_zone(z, st, mb, frame: str, settings: Settings, U: UnitSystem) -> St
         how = ("0: 18.7.6.2.1 over lo" if bool(row.vc_zero) and vc == 0 else
                "Table 22.5.5.1" + ("(a)/(b)" if has_min else "(c)") + f" with Nu = {_fmt(nu / U.per_force, kN)}")
         vs = min(av_s * s.fyt[0] * d, float(aci.vs_max(s.fc[0], bw, d, u)))
-        lines.append(f"{label}: {legs} legs x {area:g} {U.area} at {gap:.4g} {mm}: Av/s = {av_s:.4g} {U.area}/{mm} "
+        lines.append(f"{label}: {legs} legs x {_g(area)} {U.area} at {gap:.4g} {mm}: Av/s = {av_s:.4g} {U.area}/{mm} "
                      f"({'>=' if has_min else '<'} Av,min/s {av_min:.4g}, 10.6.2.2); Vc = {_fmt(vc / U.per_force, kN)} "
                      f"({how}); Vs = {_fmt(vs / U.per_force, kN)} (22.5.8.5.3, bw = {bw:.4g}, d = {d:.4g} {mm}); "
                      f"phi Vn = {_fmt(0.75 * (vc + vs) / U.per_force, kN)}")
     s16, s48, least = 16 * s.db_long[0], 48 * db_tie, s.least[0]
     rules = [f"25.7.2.1(b): min(16 db = {s16:.4g}, 48 db tie = {s48:.4g}, least side {least:.4g}) = "
              f"{min(s16, s48, least):.4g} {mm}"]
-    rules.append(f"10.7.6.5.2 where shear reinforcement is required: d/2 (d/4 where Vs > {u.heavy_vs:g} sqrt(f'c) bw d) "
+    rules.append(f"10.7.6.5.2 where shear reinforcement is required: d/2 (d/4 where Vs > {_g(u.heavy_vs)} sqrt(f'c) bw d) "
                  f"of that direction; s_max here {row.s_max_mm:.4g} {mm}")
     if frame == "special":
-        rules.append(f"18.7.5.3 over lo: min(least side / 4, 6 db, so = {u.so_base:g} + ({u.so_hx:g} - hx)/3 within "
-                     f"{u.so_base:g}..{u.so_max:g} {mm}); 18.7.5.5 beyond lo: min(6 db, {u.smf_beyond_lo_max:g} {mm}); "
+        rules.append(f"18.7.5.3 over lo: min(least side / 4, 6 db, so = {_g(u.so_base)} + ({_g(u.so_hx)} - hx)/3 within "
+                     f"{_g(u.so_base)}..{_g(u.so_max)} {mm}); 18.7.5.5 beyond lo: min(6 db, {_g(u.smf_beyond_lo_max)} {mm}); "
                      "Ash by Table 18.7.5.4" +
                      (f" asks for s <= {conf.min():.4g} {mm} in this zone" if len(conf) else
                       " sets no spacing in this zone"))
     elif frame == "intermediate":
-        rules.append(f"18.4.3.3 over lo: min(8 db, {u.imf_column_so[0]:g} {mm}, least side / 2), the first hoop within "
+        rules.append(f"18.4.3.3 over lo: min(8 db, {_g(u.imf_column_so[0])} {mm}, least side / 2), the first hoop within "
                      "so/2 of the face")
-    rules.append(f"allowed here {row.s_allowed_mm:g} {mm}; provided {gap:.4g} {mm}; utilization {row.utilization:.3f}")
+    rules.append(f"allowed here {_g(row.s_allowed_mm)} {mm}; provided {gap:.4g} {mm}; utilization {row.utilization:.3f}")
     return Step(title, "22.5, 10.6.2, 10.7.6.5.2, 25.7.2", lines + rules)

@@ -426,6 +426,8 @@ def test_demo_outputs_speak_inch_pound(demo_us, capsys):
     assert cli.main(["explain", "L2-SB-23", "--store", str(tmp / "store")]) == cli.EXIT_OK
     text = capsys.readouterr().out
     assert "psi" in text and "kip" in text and "8 sqrt(f'c)" in text and "MPa" not in text and " mm" not in text
+    # the SI inputs converted read as a US engineer writes them: d = 540 mm / 25.4 = 21.26 in, not 21.2598 in
+    assert "d = 21.26 in" in text and "21.2598" not in text
     assert cli.main(["govern", "--top", "3", "--format", "csv", "--store", str(tmp / "store")]) == cli.EXIT_OK
     header = capsys.readouterr().out.splitlines()[0].split(",")
     assert "vu_design_i_kip" in header and "stirrup_weight_lb" in header
