@@ -48,6 +48,7 @@ EXIT_CODES: dict[int, str] = {
 EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
 EXIT_DAMAGED, EXIT_BUSY, EXIT_READ_ONLY, EXIT_DISK_FULL, EXIT_MEMORY, EXIT_WORKER, EXIT_IO, EXIT_INTERNAL = range(4, 12)
 EXIT_UNDESIGNED = 12
+RUNS_WIDE = 100  # terminal columns from which `runs` shows each run's inputs
 EXIT_INTERRUPTED, EXIT_BROKEN_PIPE = 130, 141  # 128 + SIGINT, 128 + SIGPIPE, as shells report them
 FAULT_EXIT = {"damaged": EXIT_DAMAGED, "busy": EXIT_BUSY, "read-only": EXIT_READ_ONLY, "disk-full": EXIT_DISK_FULL,
               "memory": EXIT_MEMORY, "worker": EXIT_WORKER, "io": EXIT_IO, "internal": EXIT_INTERNAL,
@@ -669,6 +670,7 @@ def cmd_compare(args, store) -> int:
 
 @_review
 def cmd_runs(args, store) -> int:
+    from rich import box
     from rich.table import Table
 
     from postproc import report
@@ -692,18 +694,24 @@ def cmd_runs(args, store) -> int:
     if args.json:
         print(report.dump_json({"store": str(store.root), "runs": rows}))
         return EXIT_OK
-    t = Table(title=f"Runs in {report.shown(store.root)}", title_justify="left")
-    for col in ("run", "created (UTC)", "units", "members", "force rows", "designed", "inputs"):
-        t.add_column(col, overflow="fold")
+    console = _console()
+    wide = console.width >= RUNS_WIDE  # a narrow terminal leaves the inputs out rather than break every value
+    t = Table(title=f"Runs in {report.shown(store.root)}", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False,
+              collapse_padding=True)
+    for col in ("run", "created (UTC)", "units", "members", "force rows", "designed", *(["inputs"] if wide else [])):
+        t.add_column(col, overflow="fold", no_wrap=col != "inputs")  # ids and times whole, to copy them
     for r in rows:
         if r["damaged"]:
             t.add_row(report.shown(r["run"]), "", "", "", "", "[bold red]DAMAGED[/bold red]",
-                      report.shown(r["damaged"]) + " (`shearpost verify`)")
+                      *([report.shown(r["damaged"]) + " (`shearpost verify`)"] if wide else []))
             continue
         t.add_row(report.shown(r["run"]), r["created"][:16].replace("T", " "), r["unit_system"], str(r["members"]),
                   f"{r['force_rows']:,}", "yes" if r["designed"] else "no",
-                  report.shown(", ".join(Path(v["path"]).name for v in r["inputs"].values())))
-    _console().print(t)
+                  *([report.shown(", ".join(Path(v["path"]).name for v in r["inputs"].values()))] if wide else []))
+    console.print(t)
+    if not wide:
+        console.print(f"(inputs and damaged files: in a terminal of {RUNS_WIDE} columns or more, or with --json)",
+                      highlight=False)
     return EXIT_OK
 
 

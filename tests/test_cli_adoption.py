@@ -277,3 +277,20 @@ def test_the_demo_says_where_its_inputs_are(tmp_path, capsys):
     folder = Path(line.rsplit(" in ", 1)[1])
     assert "members.csv, forces.csv, cases.csv" in line
     assert all((folder / name).is_file() for name in ("members.csv", "forces.csv", "cases.csv"))
+
+
+def test_runs_keeps_each_value_whole_at_80_columns(tmp_path, capsys, monkeypatch):
+    """`runs` in a terminal of 80 columns keeps run ids and times whole (they are copied into
+    other commands) and says where the inputs are; from 100 columns it lists them too."""
+    assert cli.main(["demo", "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--no-report",
+                     "--run", "a-run-name-of-20-chr", "--json"]) == 0
+    capsys.readouterr()
+    for columns in (80, 120):
+        monkeypatch.setenv("COLUMNS", str(columns))
+        assert cli.main(["runs", "--store", str(tmp_path / "store")]) == 0
+        lines = capsys.readouterr().out.splitlines()
+        assert max(len(x.rstrip()) for x in lines) <= columns
+        row = next(x for x in lines if "a-run-name-of-20-chr" in x)
+        assert re.search(r"\d{4}-\d\d-\d\d \d\d:\d\d", row), row  # the time whole, on the same line
+        assert ("members.csv" in row) == (columns >= cli.RUNS_WIDE), row
+        assert any("--json" in x for x in lines) == (columns < cli.RUNS_WIDE)
