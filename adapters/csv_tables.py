@@ -340,13 +340,16 @@ class CsvSpec:
     fill: dict = field(default_factory=dict)  # our column -> value for its missing cells (the run's unit)
     units: UnitSystem = SI  # the run's unit system: the columns are read into its units
     unread: tuple[str, ...] = ()  # the header's other columns (read as text, checked, not used)
+    hints: dict = field(default_factory=dict)  # of those, the ones that look like a column of ours: what they look like
 
     def unread_notes(self) -> list[str]:
-        """A notice naming the header's columns that are not used, if any."""
+        """A notice naming the header's columns that are not used, if any, and one for each that
+        looks like a column of ours."""
         if not self.unread:
             return []
         return [f"{self.path}: column(s) not used: {', '.join(repr(h) for h in self.unread)} (not columns "
-                "shearpost reads in this table; see the README's input tables)"]
+                "shearpost reads in this table; see the README's input tables)",
+                *(f"{self.path}: column '{h}' is not used: {hint}" for h, hint in self.hints.items())]
 
     def fill_name(self, column: str) -> str:
         """How the settings' [input] fill names one of our columns: the file's spelling of it,
@@ -558,7 +561,7 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
         raise InputErrors([InputError(path, "required column is missing" + _other_spellings(c.name, units)
                                       + "".join(f"; the header has '{h}'" for h in named if _looks_like(h, c.name)), 1,
                                       table.source_name(c.name)) for c in missing])
-    unread = _unread(path, named, cols, table, present)
+    unread, hints = _unread(path, named, cols, table, present)
     fill = {unit_names.si_name(k): v for k, v in (fill or {}).items()}
     fills = {c.name: float(fill[c.name]) for c in cols
              if c.name in fill and c.numeric and not c.required and table.source_name(c.name) in present}
@@ -567,35 +570,62 @@ def prepare(path: str | Path, name: str, cols: tuple[Col, ...], cmap: ColumnMap,
     types = {h: pa.string() for h in header}
     types.update({table.source_name(c.name): (pa.float64() if c.numeric and c.name not in fills else pa.string())
                   for c in cols if table.source_name(c.name) in present})
-    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills, units, unread)
+    return CsvSpec(path, cols, table, header, frozenset(present), types, dialect, fills, units, unread, hints)
 
 
 FACE_SHARE = 0.25  # a beam's node-to-face distance above this share of its length is warned about (common practice)
 NEAR_MISS = 0.85  # difflib's ratio above which a header name is taken for a misspelling of one of ours
+# our optional columns whose absence could make a design unconservative: a header name that looks like one of
+# them is refused; one that looks like another column of ours is named in a warning
+UNSAFE_ABSENT = frozenset({"T_kNm", "Vb_kN", "N_kN", "lambda", "load_face", "kind", "frame", "fy_mpa"})
+UNIT_WORDS = frozenset({"m", "cm", "mm", "in", "ft", "n", "kn", "mn", "lb", "lbf", "kip", "kips", "nm", "nmm", "knm",
+                        "knmm", "kncm", "kipft", "kipin", "lbft", "lbin", "mpa", "kpa", "pa", "psi", "ksi", "mm2", "cm2",
+                        "m2", "in2", "ft2", "kg", "t"})
+AXIS_MARKS = frozenset("xyz0123456789")  # My_kNm, V2_kN: another axis (u: Tu, Vu are factored values)
 
 
-def _looks_like(header_name: str, spelling: str) -> bool:
-    """Whether a header name looks like one of our spellings: the same but for case, the
-    name without its unit, or a close misspelling."""
-    low, sp = header_name.lower(), spelling.lower()
-    stem = sp.rsplit("_", 1)[0] if unit_names.unit_of(spelling) else sp
-    return low in (sp, stem) or difflib.SequenceMatcher(None, low, sp).ratio() >= NEAR_MISS
+def _looks_like(header_name: str, spelling: str) -> str | None:
+    """How a header name looks like one of our spellings: "case" (the same but for upper and
+    lower case), "unit" (the same quantity without its unit or in another unit), "spelling" (a
+    close misspelling, not the name with an axis or a number added: My_kNm, V2_kN are other
+    quantities), or None."""
+    low, ours = header_name.lower(), spelling.lower()
+    if low == ours:
+        return "case"
+    if unit_names.unit_of(spelling):
+        our_stem = ours.rsplit("_", 1)[0]
+        stem, _, word = low.rpartition("_")
+        if low == our_stem or (stem == our_stem and word in UNIT_WORDS):
+            return "unit"
+    match = difflib.SequenceMatcher(None, ours, low)
+    changes = [(op, low[j1:j2]) for op, _, _, j1, j2 in match.get_opcodes() if op != "equal"]
+    axis_added = all(op == "insert" and set(text) <= AXIS_MARKS for op, text in changes)
+    return "spelling" if match.ratio() >= NEAR_MISS and not axis_added else None
 
 
-def _unread(path: Path, named: list[str], cols: tuple[Col, ...], table: TableMap, present: set[str]) -> tuple[str, ...]:
-    """The header's columns that are not read. One that looks like a column of ours the file
-    does not give is refused: read as absent, a torsion or a bar area would count as none."""
+def _unread(path: Path, named: list[str], cols: tuple[Col, ...], table: TableMap,
+            present: set[str]) -> tuple[tuple[str, ...], dict[str, str]]:
+    """The header's columns that are not read, and for those that look like a column of ours the
+    file does not give, what they look like. Where that column's absence could make the design
+    unconservative (``UNSAFE_ABSENT``: a torsion, Vb or N read as none, say), the name is refused."""
     read = {table.source_name(c.name) for c in cols}
-    absent = [table.source_name(sp) for c in cols if table.source_name(c.name) not in present
+    absent = [(table.source_name(sp), c.name) for c in cols if table.source_name(c.name) not in present
               for sp in unit_names.spellings(c.name)]
     unread = tuple(h for h in named if h not in read)
+    hints = {}
     for h in unread:
-        meant = next((sp for sp in absent if _looks_like(h, sp)), None)
-        if meant is not None:
-            raise InputError(path, f"is not a column shearpost reads; did you mean column '{meant}'? Rename it (names are "
-                                   "exact, with their unit), or map it in a column-mapping file (--map): a column "
-                                   "left unread counts as not given", 1, h)
-    return unread
+        found = next(((how, meant, ours) for meant, ours in absent if (how := _looks_like(h, meant))), None)
+        if found is None:
+            continue
+        how, meant, ours = found
+        hint = (f"did you mean column '{meant}'? Names are exact" if how != "unit" else
+                f"it looks like column '{meant}' without its unit or in another unit: give it as '{meant}', or map it "
+                "with its unit in a column-mapping file (--map, units = ...)")
+        if ours in UNSAFE_ABSENT:
+            raise InputError(path, f"is not a column shearpost reads; {hint} (read as absent, it would count as not "
+                                   "given: rename it, or map it in a column-mapping file, --map)", 1, h)
+        hints[h] = hint
+    return unread, hints
 
 
 def si_keyed(given: TableMap) -> TableMap:

@@ -20,7 +20,7 @@ import textwrap
 from pathlib import Path
 
 from postproc import __version__
-from postproc.terms import STATUSES, label
+from postproc.terms import NEEDS_ACTION, STATUSES, label
 
 # The exit codes, in one table: --help prints it, and new codes added here appear there.
 EXIT_CODES: dict[int, str] = {
@@ -39,8 +39,9 @@ EXIT_CODES: dict[int, str] = {
     9: "a worker process died (killed, e.g. by the system when memory ran out)",
     10: "another error reading or writing a file",
     11: "the design's own self-check failed: a defect of shearpost; nothing was stored",
-    12: "some members were not designed for want of input: no geometry (not in the members table) or no "
-        "forces (run, demo; members.csv gives each one's status and why; before 3 where both apply)",
+    12: "some members were not designed: no-geometry (not in the members table), no-forces, invalid (an input "
+        "the design needs is missing or out of range) or deep-beam (to be modelled by hand) (run, demo; "
+        "members.csv gives each one's status and why; before 3 where both apply)",
     130: "interrupted (Ctrl-C)",
     141: "the output was closed early (e.g. piped into head): the command finishes its work, the rest of "
          "its output is dropped",
@@ -49,6 +50,7 @@ EXIT_OK, EXIT_INPUT, EXIT_USAGE, EXIT_RESIZE = 0, 1, 2, 3
 EXIT_DAMAGED, EXIT_BUSY, EXIT_READ_ONLY, EXIT_DISK_FULL, EXIT_MEMORY, EXIT_WORKER, EXIT_IO, EXIT_INTERNAL = range(4, 12)
 EXIT_UNDESIGNED = 12
 RUNS_WIDE = 100  # terminal columns from which `runs` shows each run's inputs
+RUNS_OTHER_COLUMNS = 62  # what the table of `runs` takes besides the run names (without the inputs)
 EXIT_INTERRUPTED, EXIT_BROKEN_PIPE = 130, 141  # 128 + SIGINT, 128 + SIGPIPE, as shells report them
 FAULT_EXIT = {"damaged": EXIT_DAMAGED, "busy": EXIT_BUSY, "read-only": EXIT_READ_ONLY, "disk-full": EXIT_DISK_FULL,
               "memory": EXIT_MEMORY, "worker": EXIT_WORKER, "io": EXIT_IO, "internal": EXIT_INTERNAL,
@@ -564,10 +566,13 @@ def cmd_design(args) -> int:
     return outcome(doc)
 
 
+NOT_DESIGNED = tuple(s for s in NEEDS_ACTION if s != "resize")  # exit code 12
+
+
 def outcome(doc: dict) -> int:
-    """The exit code of a designed run from its summary: members left without input first,
-    then members or joints to resize."""
-    if doc["status"]["no-geometry"] or doc["status"]["no-forces"]:
+    """The exit code of a designed run from its summary: members not designed first, then
+    members or joints to resize."""
+    if any(doc["status"][s] for s in NOT_DESIGNED):
         return EXIT_UNDESIGNED
     return EXIT_RESIZE if doc["status"]["resize"] or doc["joints"]["over"] else EXIT_OK
 
@@ -696,6 +701,16 @@ def cmd_runs(args, store) -> int:
         return EXIT_OK
     console = _console()
     wide = console.width >= RUNS_WIDE  # a narrow terminal leaves the inputs out rather than break every value
+    longest = max((len(report.shown(r["run"])) for r in rows), default=3)
+    if longest + RUNS_OTHER_COLUMNS > console.width:  # not even the table without inputs fits: one run a line
+        console.print(f"Runs in {report.shown(store.root)}", highlight=False)
+        for r in rows:
+            what = ("DAMAGED: " + report.shown(r["damaged"]) + " (`shearpost verify`)" if r["damaged"] else
+                    f"created {r['created'][:16].replace('T', ' ')} UTC, {r['unit_system']}, {r['members']} members, "
+                    f"{r['force_rows']:,} force rows, {'designed' if r['designed'] else 'not designed'}")
+            console.print(report.shown(r["run"]), highlight=False, soft_wrap=True)
+            console.print(f"  {what}", highlight=False)
+        return EXIT_OK
     t = Table(title=f"Runs in {report.shown(store.root)}", title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False,
               collapse_padding=True)
     for col in ("run", "created (UTC)", "units", "members", "force rows", "designed", *(["inputs"] if wide else [])):

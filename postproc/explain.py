@@ -458,7 +458,7 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: U
     h2 = float(aci.smf_beam_hoop_zone_length(m.h_mm))
     lines.append(f"hoops over 2h = {h2:,.0f} {mm} from each face, the first within {_g(u.first_hoop_max)} {mm} "
                  + ("(18.6.4.1, 18.6.4.4)" if special else "(18.4.2.4)"))
-    high = m.fy_mpa > u.grade_high_fy
+    high = bool(aci.grade_550(m.fy_mpa, u))
     if special:
         s_hoop = float(aci.smf_beam_hoop_spacing(m.d_mm, m.db_long_mm, m.fy_mpa, u))
         lines.append(f"hoop spacing at most min(d/4, {'5' if high else '6'} db, {_g(u.smf_beam_hoop_s)} {mm}) = "

@@ -6,8 +6,8 @@
 imports, numpy otherwise, so that small runs do not pay for importing and loading the
 compiled code; once a process has loaded them, for work of at least ``LOADED_CELLS``).
 Both paths give the same bits: the kernels do the same comparisons of the same float64
-numbers (no fast-math, no arithmetic of their own); tests check them against each other
-and against brute force.
+numbers and the same arithmetic in the same order as their numpy twins (no fast-math);
+tests check them against each other and against brute force.
 
 The kernels themselves are in ``postproc.compiled`` (imported only when used, since it
 imports numba). Their machine code is cached beside it (or in numba's user cache where

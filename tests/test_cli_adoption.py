@@ -15,6 +15,7 @@ import pytest
 from rich.console import Console
 
 from postproc import cli, report
+from postproc.store import Store
 from tests.conftest import beam, rows_from_function, write_inputs
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -281,16 +282,29 @@ def test_the_demo_says_where_its_inputs_are(tmp_path, capsys):
 
 def test_runs_keeps_each_value_whole_at_80_columns(tmp_path, capsys, monkeypatch):
     """`runs` in a terminal of 80 columns keeps run ids and times whole (they are copied into
-    other commands) and says where the inputs are; from 100 columns it lists them too."""
-    assert cli.main(["demo", "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--no-report",
-                     "--run", "a-run-name-of-20-chr", "--json"]) == 0
+    other commands) and says where the inputs are; from 100 columns it lists them too; a run
+    name too long for the table gives one run a line."""
+    store = str(tmp_path / "store")
+    assert cli.main(["demo", "--store", store, "--out", str(tmp_path / "out"), "--no-report", "--json"]) == 0
     capsys.readouterr()
+    name = Store(tmp_path / "store").latest().name
+    stamp = re.compile(r"\d{4}-\d\d-\d\d \d\d:\d\d")
     for columns in (80, 120):
         monkeypatch.setenv("COLUMNS", str(columns))
-        assert cli.main(["runs", "--store", str(tmp_path / "store")]) == 0
+        assert cli.main(["runs", "--store", store]) == 0
         lines = capsys.readouterr().out.splitlines()
         assert max(len(x.rstrip()) for x in lines) <= columns
-        row = next(x for x in lines if "a-run-name-of-20-chr" in x)
-        assert re.search(r"\d{4}-\d\d-\d\d \d\d:\d\d", row), row  # the time whole, on the same line
+        row = next(x for x in lines if name in x)
+        assert stamp.search(row), row  # the time whole, on the same line
         assert ("members.csv" in row) == (columns >= cli.RUNS_WIDE), row
         assert any("--json" in x for x in lines) == (columns < cli.RUNS_WIDE)
+    long_name = "tower-b-level-3-revision-7-final-x"
+    assert cli.main(["demo", "--store", store, "--out", str(tmp_path / "out2"), "--no-report", "--json",
+                     "--run", long_name]) == 0
+    capsys.readouterr()
+    monkeypatch.setenv("COLUMNS", "80")
+    assert cli.main(["runs", "--store", store]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    k = lines.index(long_name)  # whole, on a line of its own
+    assert stamp.search(lines[k + 1]) and "designed" in lines[k + 1]
+    assert lines[lines.index(name) + 1].startswith("  created")

@@ -427,6 +427,21 @@ def test_compiled_tie_search_is_the_numpy_search(monkeypatch):
     amin_v, amin_vb = demand.av_min(s)
     passes = lambda t: demand.strength(c, s, tie, 113.0, t, amin_v, amin_vb, "code").utilization <= 1.0 + demand.TOL
     assert passes(np.where(searched, reference, 1.0))[searched].all()
+    # inputs poisoned with NaN, +-inf and +-0 in every term: numpy's NaN rules (np.maximum keeps a NaN)
+    # and division by zero must come out the same
+    for seed in range(3):
+        bad = np.random.default_rng(100 + seed)
+        pc, ps, pt = _tie_cases(bad, 20000)
+        for holder in (pc.__dict__, ps.__dict__, pt):
+            for key, arr in holder.items():
+                if isinstance(arr, np.ndarray) and arr.dtype == float:
+                    hit = bad.random(len(arr)) < 0.02
+                    arr[hit] = bad.choice([np.nan, np.inf, -np.inf, 0.0, -0.0, -1.0], hit.sum())
+        monkeypatch.setenv(kernels.ENV, "numpy")
+        with np.errstate(all="ignore"):
+            expected = demand.required_t(pc, ps, pt, 113.0, "code")
+            monkeypatch.setenv(kernels.ENV, "compiled")
+            assert demand.required_t(pc, ps, pt, 113.0, "code").tobytes() == expected.tobytes()
     at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)
     lower = np.maximum.reduce([np.where(c.minimum_v, amin_v / (tie["legs_v"] * 113.0), 0.0),
                                np.where(c.minimum_vb, amin_vb / (tie["legs_vb"] * 113.0), 0.0), at / 113.0])

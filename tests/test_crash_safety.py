@@ -243,6 +243,6 @@ def test_a_name_taken_while_a_run_is_writing_is_refused_at_once(tmp_path, big_mo
             slow.kill()
             slow.wait()
     # the synthetic frame has a few strut-and-tie end regions that need resizing (exit 3): a design outcome
-    assert slow.returncode in (cli.EXIT_OK, cli.EXIT_RESIZE), err.decode()[-800:]
+    assert slow.returncode in (cli.EXIT_OK, cli.EXIT_RESIZE, cli.EXIT_UNDESIGNED), err.decode()[-800:]  # deep-beam members
     assert Store(store).run("contested").members().num_rows == 3000  # the slow run's model
     assert not temp_folders(store)

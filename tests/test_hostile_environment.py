@@ -362,8 +362,8 @@ def test_two_runs_without_a_name_both_succeed(tmp_path, earlier_store):
     procs = [start(["run", "--members", str(model["members"]), "--forces", str(model["forces"]), "--store", str(store),
                     "--out", str(tmp_path / f"out{k}"), "--json", "--no-report"], tmp_path) for k in range(2)]
     errs = [p.communicate(timeout=180)[1].decode() for p in procs]
-    assert [p.returncode for p in procs] == [cli.EXIT_OK, cli.EXIT_OK] or \
-        all(p.returncode in (cli.EXIT_OK, cli.EXIT_RESIZE) for p in procs), errs
+    # the synthetic frame leaves some members to model by hand (deep-beam): 12, as any finished run of it
+    assert all(p.returncode in (cli.EXIT_OK, cli.EXIT_RESIZE, cli.EXIT_UNDESIGNED) for p in procs), errs
     names = sorted(r.name for r in Store(store).runs())
     assert len(names) == 3 and "earlier" in names, names
     assert cli.main(["verify", "--store", str(store)]) == cli.EXIT_OK

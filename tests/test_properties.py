@@ -79,7 +79,7 @@ def test_random_frames_pass_self_check_and_keep_every_member(frame, throughout, 
         res = design(Path(tmp), members, forces, extra=["--config", str(cfg)])
         runs = Store(res.store).runs()
         pos = pq.read_table(runs[0].design_path / "stirrups.parquet").to_pandas()
-    assert res.code in (0, 3) and len(runs) == 1
+    assert res.code in (0, 3, 12) and len(runs) == 1  # 12: a member left to model by hand (deep-beam)
     assert sorted(res.members.member) == sorted(m["member"] for m in members)
     lengths = {m["member"]: m["length_m"] * 1000 - m["face_i_mm"] - m["face_j_mm"] for m in members}
     designed = res.members[res.members.status == "designed"]

@@ -31,6 +31,9 @@ def test_exit_code_12_for_members_without_input_comes_before_3(run_design):
     assert run_design([beam("OK", 6.0), small, beam("NOFORCE", 6.0)], ok + huge).code == cli.EXIT_UNDESIGNED
     assert run_design([beam("OK", 6.0)], ok + rows_from_function("GHOST", "U", 4.0, lambda x: 50.0, n=3)).code \
         == cli.EXIT_UNDESIGNED
+    column = {**beam("COL", 3.0), "kind": "column"}  # without its bars (db_long_mm): invalid, not designed
+    assert run_design([beam("OK", 6.0), column], ok + rows_from_function("COL", "U", 3.0, lambda x: 20.0, n=3)).code \
+        == cli.EXIT_UNDESIGNED
 
 
 def test_resize_gives_exit_code_3_and_a_bw_d_that_passes(run_design):

@@ -127,11 +127,13 @@ def test_a_face_offset_beyond_a_quarter_of_a_beams_length_is_warned_about(run_de
     assert "member B2: face_i_mm" not in warnings
 
 
-@pytest.mark.parametrize("header, suggestion", [("T_kNM", "T_kNm"), ("Vb_kn", "Vb_kN"), ("V_b_kN", "Vb_kN")])
+@pytest.mark.parametrize("header, suggestion", [("T_kNM", "T_kNm"), ("Vb_kn", "Vb_kN"), ("V_b_kN", "Vb_kN"),
+                                                ("Tu_kNm", "T_kNm"), ("T_kNmm", "T_kNm"), ("N", "N_kN")])
 def test_a_misspelt_force_column_is_refused_not_read_as_absent(tmp_path, capsys, header, suggestion):
-    # read as absent, a torsion (or Vb) column would count as none: refused, naming file, line and column
+    # read as absent, a torsion, Vb or N column would count as none (unconservative): refused, naming file,
+    # line and column, and the column meant (in another unit: map its unit)
     forces = pd.DataFrame(rows("B1", "U1", [(0.0, 100.0), (6.0, -100.0)], T=20.0))
-    forces = forces.rename(columns={"T_kNm": header}) if header == "T_kNM" else forces.assign(**{header: 5.0})
+    forces = forces.drop(columns=[suggestion], errors="ignore").assign(**{header: 5.0})
     paths = write_inputs(tmp_path / "in", [member("B1", 6.0, "column", "column")], [dict(x=1)])
     forces.to_csv(paths["forces"], index=False)
     out, store = tmp_path / "out", tmp_path / "store"
@@ -139,7 +141,21 @@ def test_a_misspelt_force_column_is_refused_not_read_as_absent(tmp_path, capsys,
                      "--store", str(store), "--out", str(out)])
     err = capsys.readouterr().err
     assert code == 1 and not out.exists()
-    assert "forces.csv, line 1, column" in err and header in err and f"did you mean column '{suggestion}'" in err
+    assert "forces.csv, line 1, column" in err and f"'{header}'" in err and f"column '{suggestion}'" in err
+    assert ("another unit" in err) == (header in ("T_kNmm", "N"))
+
+
+def test_other_quantities_and_columns_whose_absence_is_safe_are_warned_about_not_refused(run_design):
+    # My_kNm, Mz_kNm: moments about other axes (M is not used), not a misspelt M_kNm; face_i (no unit) looks like
+    # face_i_mm, whose absence puts the faces at the nodes: the run goes on, the warnings say what each looks like
+    beam = {k: v for k, v in member("B1", 6.0, "column", "column", face_i=250.0).items() if k != "face_i_mm"}
+    res = run_design([beam],
+                     [dict(r, My_kNm=1.0, Mz_kNm=2.0) for r in rows("B1", "U1", [(0.0, 100.0), (6.0, -100.0)])],
+                     extra=["--no-report"])
+    warnings = _manifest_warnings(res)
+    assert res.code == 0
+    assert "column(s) not used: 'My_kNm', 'Mz_kNm'" in warnings and "did you mean" not in warnings.split("forces.csv")[-1]
+    assert "column 'face_i' is not used: it looks like column 'face_i_mm' without its unit" in warnings
 
 
 def test_a_column_shearpost_does_not_read_is_named_in_a_warning(run_design):

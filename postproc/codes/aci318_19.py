@@ -374,9 +374,9 @@ GRADE_SOFT_CONVERSION = 1.02  # a grade given in the other system's unit is that
 # Grade 60, 80,000 psi = 551.6 MPa is Grade 550 (the soft conversions differ by up to 1.5 %; common practice)
 
 
-def _grade_550(fy, u: Edition = SI):
-    # the Grade 550 | Grade 80 rows apply to fy above 420 MPa | 60,000 psi (the stricter rule for any grade between),
-    # a grade in the other system's unit taken as that grade
+def grade_550(fy, u: Edition = SI):
+    """Whether the Grade 550 | Grade 80 rows apply: fy above 420 MPa | 60,000 psi (the stricter
+    rule for any grade between), a grade in the other system's unit taken as that grade."""
     return np.asarray(fy, dtype=float) > u.grade_high_fy * GRADE_SOFT_CONVERSION
 
 
@@ -449,7 +449,7 @@ def smf_beam_dimensions_ok(ln, d, bw, h, u: Edition = SI):
 
 def smf_beam_rho_max(fy, u: Edition = SI):
     """18.6.3.1: rho = As/(bw d) at most 0.025 for Grade 420 | 60 and 0.02 for Grade 550 | 80 (from memory)."""
-    return np.where(_grade_550(fy, u), 0.02, 0.025)
+    return np.where(grade_550(fy, u), 0.02, 0.025)
 
 
 def smf_beam_longitudinal_ok(as_top, as_bot, n_top_continuous, n_bot_continuous, fc, fy, bw, d, u: Edition = SI):
@@ -484,7 +484,7 @@ def smf_beam_hoop_spacing(d, db_long_min, fy=None, u: Edition = SI):
     """Hoop spacing in the 2h zones (18.6.4.4): the least of d/4, 150 mm | 6 in and 6 db of the
     smallest primary flexural bar (Grade 420 | 60; 5 db for Grade 550 | 80, from memory). First
     hoop within 50 mm | 2 in. fy defaults to Grade 420 | 60."""
-    multiple = np.where(_grade_550(u.fy_default if fy is None else fy, u), 5.0, 6.0)
+    multiple = np.where(grade_550(u.fy_default if fy is None else fy, u), 5.0, 6.0)
     return np.minimum.reduce(np.broadcast_arrays(np.asarray(d, float) / 4.0, multiple * db_long_min,
                                                  u.smf_beam_hoop_s))
 
@@ -506,7 +506,7 @@ def imf_beam_hoop_spacing(d, db_long_min, db_hoop, fy=None, u: Edition = SI):
     """Hoop spacing over 2h from each face (18.4.2.4): the least of d/4, 8 db of the smallest
     longitudinal bar enclosed (6 db for Grade 550 | 80, from memory), 24 db of the hoop bar and
     300 mm | 12 in. First hoop within 50 mm | 2 in."""
-    multiple = np.where(_grade_550(u.fy_default if fy is None else fy, u), 6.0, 8.0)
+    multiple = np.where(grade_550(u.fy_default if fy is None else fy, u), 6.0, 8.0)
     return np.minimum.reduce(np.broadcast_arrays(np.asarray(d, float) / 4.0, multiple * np.asarray(db_long_min, float),
                                                  24.0 * np.asarray(db_hoop, float), u.imf_beam_hoop_s))
 
@@ -580,14 +580,14 @@ def smf_column_so(min_dimension, db_long_min, hx, fy=None, u: Edition = SI):
     and so (Eq. 18.7.5.3): SI so = 100 + (350 - hx)/3, not more than 150 nor taken less than 100
     mm; inch-pound so = 4 + (14 - hx)/3, between 4 and 6 in."""
     so = np.clip(u.so_base + (u.so_hx - np.asarray(hx, float)) / 3.0, u.so_base, u.so_max)
-    multiple = np.where(_grade_550(u.fy_default if fy is None else fy, u), 5.0, 6.0)
+    multiple = np.where(grade_550(u.fy_default if fy is None else fy, u), 5.0, 6.0)
     return np.minimum.reduce(np.broadcast_arrays(np.asarray(min_dimension, float) / 4.0, multiple * db_long_min, so))
 
 
 def smf_column_spacing_beyond_lo(db_long_min, fy=None, u: Edition = SI):
     """Beyond lo (18.7.5.5): hoops at no more than 6 db of the smallest longitudinal bar and
     150 mm | 6 in (5 db for Grade 550 | 80; from memory), unless shear asks for less."""
-    multiple = np.where(_grade_550(u.fy_default if fy is None else fy, u), 5.0, 6.0)
+    multiple = np.where(grade_550(u.fy_default if fy is None else fy, u), 5.0, 6.0)
     return np.minimum(multiple * np.asarray(db_long_min, float), u.smf_beyond_lo_max)
 
 
@@ -660,9 +660,9 @@ def imf_column_so(min_dimension, db_long_min, fy=None, u: Edition = SI):
     """Hoop spacing over lo (18.4.3.3), from memory: Grade 420 | 60, the lesser of 8 db of the
     smallest longitudinal bar enclosed and 200 mm | 8 in; Grade 550 | 80, of 6 db and 150 mm |
     6 in; and half the least section dimension. The first hoop within so/2 of the joint face."""
-    grade_550 = _grade_550(u.fy_default if fy is None else fy, u)
+    above_60 = grade_550(u.fy_default if fy is None else fy, u)
     normal, high = u.imf_column_so
-    bars = np.where(grade_550, np.minimum(6.0 * np.asarray(db_long_min, float), high),
+    bars = np.where(above_60, np.minimum(6.0 * np.asarray(db_long_min, float), high),
                     np.minimum(8.0 * np.asarray(db_long_min, float), normal))
     return np.minimum(bars, np.asarray(min_dimension, float) / 2.0)
 
@@ -732,7 +732,7 @@ def joint_depth_ok(h_column, db_beam_max, fy=None, h_beam_max=0.0, lam=1.0, u: E
     """18.8.2.3, from memory: the joint depth along the beam bars at least 20 db/lambda of the largest
     Grade 420 | 60 beam bar passing through (26 db for Grade 550 | 80) and half the depth of any
     framing beam."""
-    multiple = np.where(_grade_550(u.fy_default if fy is None else fy, u), 26.0, 20.0 / lam)
+    multiple = np.where(grade_550(u.fy_default if fy is None else fy, u), 26.0, 20.0 / lam)
     return (h_column >= multiple * db_beam_max) & (h_column >= 0.5 * np.asarray(h_beam_max, float))
 
 
