@@ -121,7 +121,7 @@ def doubled(s: Samples, least_stations: int = 3) -> tuple[np.ndarray, np.ndarray
     stations_of = np.bincount(group, weights=new_station)
     same = ~new_station[1:]
     differs = np.zeros(len(rows), bool)
-    jump = same & np.any([v[1:] != v[:-1] for v in s.values.values()], axis=0) if s.values else same & False
+    jump = same & np.any([v[1:] != v[:-1] for v in s.values.values()], axis=0)  # V is always among the values
     differs[group[1:][jump]] = True
     hit = (rows == 2 * stations_of) & (stations_of >= least_stations) & differs
     first = np.flatnonzero(new_group)[hit]

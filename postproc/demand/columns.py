@@ -329,7 +329,8 @@ def av_min(s: ColumnSection) -> tuple[np.ndarray, np.ndarray]:
 def required_t(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: float, rule: str) -> np.ndarray:
     """Per case, the least t = 1/s (1/mm) of the tie that passes ``strength`` and gives Av,min
     where required and At/s per leg where torsion is considered; inf where none does (the
-    section limit or the interaction cannot be met). ``s``, ``tie`` per case."""
+    section limit or the interaction cannot be met). ``s``, ``tie`` per case. For the code's
+    rule the search runs compiled where numba is installed (kernels.tie_bisection: the same bits)."""
     amin_v, amin_vb = av_min(s)
     need_any = (c.vu_v > 0) | (c.vu_vb > 0) | c.minimum_v | c.minimum_vb | c.torsion
     at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)

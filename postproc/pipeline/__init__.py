@@ -118,8 +118,8 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     warnings: list[str] = []
     notes: dict[int, list[str]] = {}
 
-    def note(m, text: str, detail: str = "") -> None:  # a run warning, and the member's message says it too
-        warnings.append(f"member {names[m]}: {text}{detail}")
+    def note(m, text: str) -> None:  # a run warning, and the member's message says it too
+        warnings.append(f"member {names[m]}: {text}")
         notes.setdefault(int(m), []).append(text)
 
     for m in np.unique(grid.member[missing.any(axis=0)]):
