@@ -554,11 +554,12 @@ def cmd_design(args) -> int:
     else:
         report.print_summary(doc, _console())
         if args.command == "demo":
-            folders = {Path(p).parent for p in (args.members, args.forces, args.cases) if p}
-            names = (", ".join(Path(p).name for p in (args.members, args.forces, args.cases) if p)
-                     + f" in {folders.pop()}") if len(folders) == 1 else \
-                ", ".join(str(p) for p in (args.members, args.forces, args.cases) if p)
-            _console().print(f"The demo's inputs (a start for your own tables): {names}", highlight=False, soft_wrap=True)
+            paths = [Path(p) for p in (args.members, args.forces, args.cases) if p]
+            one_folder = len({p.parent for p in paths}) == 1
+            names = (", ".join(p.name for p in paths) + f" in {paths[0].parent}" if one_folder
+                     else ", ".join(map(str, paths)))
+            _console().print(f"The demo's inputs (a start for your own tables): {names}", highlight=False,
+                             soft_wrap=True)
     if why:
         _error(f"error: run {run.name}: {why}")
         _error(f"the statuses are in {args.out / 'members.csv'}")

@@ -331,16 +331,16 @@ def required_t(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: flo
     where required and At/s per leg where torsion is considered; inf where none does (the
     section limit or the interaction cannot be met). ``s``, ``tie`` per case. For the code's
     rule the search runs compiled where numba is installed (kernels.tie_bisection: the same bits)."""
-    amin_v, amin_vb = av_min(s)
     need_any = (c.vu_v > 0) | (c.vu_vb > 0) | c.minimum_v | c.minimum_vb | c.torsion
-    at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)
-    lo = np.maximum.reduce([np.where(c.minimum_v, amin_v / (tie["legs_v"] * area), 0.0),
-                            np.where(c.minimum_vb, amin_vb / (tie["legs_vb"] * area), 0.0), at / area])
-    cap = [(aci.vs_max(s.fc, s.bw_v, s.d_v, u=s.u) / (s.fyt * s.d_v) + 2 * at) / (tie["legs_v"] * area),
-           (aci.vs_max(s.fc, s.bw_vb, s.d_vb, u=s.u) / (s.fyt * s.d_vb) + 2 * at) / (tie["legs_vb"] * area),
-           amin_v / (tie["legs_v"] * area), amin_vb / (tie["legs_vb"] * area), lo]
+    terms = _ShearTerms.of(c, s, tie, *av_min(s))  # At/s of a leg, Av,min/s and Vs,max of each direction: once
+    at = terms.at
+    (legs_v, amin_v, *_, d_v, vs_max_v, _), (legs_vb, amin_vb, *_, d_vb, vs_max_vb, _) = terms.direction
+    lo = np.maximum.reduce([np.where(c.minimum_v, amin_v / (legs_v * area), 0.0),
+                            np.where(c.minimum_vb, amin_vb / (legs_vb * area), 0.0), at / area])
+    cap = [(vs_max_v / (s.fyt * d_v) + 2 * at) / (legs_v * area),
+           (vs_max_vb / (s.fyt * d_vb) + 2 * at) / (legs_vb * area),
+           amin_v / (legs_v * area), amin_vb / (legs_vb * area), lo]
     hi = np.maximum.reduce(cap) * (1.0 + 1e-6) + 1e-12
-    terms = _ShearTerms.of(c, s, tie, amin_v, amin_vb)
     if rule == "code" and kernels.use_compiled(len(lo) * CELLS_PER_CASE):
         directions = [(legs, amin * (1 - TOL), vc_hi, vc_lo, d, vs_max, vu)
                       for legs, amin, vc_hi, vc_lo, d, vs_max, vu in terms.direction]
