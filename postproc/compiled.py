@@ -212,3 +212,435 @@ def tie_bisection(lo, hi, area, at, torsion, fyt, dirs, phi, limit, steps, out):
             b[i] = mid if good else b[i]
             a[i] = a[i] if good else mid
     out[idx] = b
+
+
+# ----------------------------------------------------------------------------- stirrup set-out
+
+SET_OUT, ZONES_MET, NONE_NEEDED, NO_SET_OUT, BY_PYTHON = 1, 2, 3, 4, 5  # what ``set_out`` did per member
+
+
+@njit(cache=True)
+def _pairwise_block(a, lo, n):
+    """numpy's pairwise sum of a[lo:lo + n] for n <= 128: a plain sum below 8, else eight
+    running sums added in pairs, then the rest."""
+    if n < 8:
+        res = 0.0
+        for i in range(lo, lo + n):
+            res += a[i]
+        return res
+    r = a[lo:lo + 8].copy()
+    i = 8
+    while i < n - n % 8:
+        for j in range(8):
+            r[j] += a[lo + i + j]
+        i += 8
+    res = ((r[0] + r[1]) + (r[2] + r[3])) + ((r[4] + r[5]) + (r[6] + r[7]))
+    while i < n:
+        res += a[lo + i]
+        i += 1
+    return res
+
+
+@njit(cache=True, inline="always")
+def _half(n):
+    h = n // 2
+    return h - h % 8
+
+
+@njit(cache=True)
+def _pairwise_sum(a, lo, n):
+    """numpy's sum of a[lo:lo + n] along a contiguous axis, plus the 0.0 that np.sum starts
+    from: blocks of up to 128 (``_pairwise_block``), larger runs split in halves (a multiple
+    of 8 first) and their sums added. The halving is numpy's recursion unrolled onto a stack
+    (a recursive function's cached machine code does not load back)."""
+    if n <= 128:
+        return 0.0 + _pairwise_block(a, lo, n)
+    start, count, state, left = np.empty(64, np.int64), np.empty(64, np.int64), np.zeros(64, np.int64), np.empty(64)
+    top, start[0], count[0] = 0, lo, n
+    while True:
+        if count[top] > 128:  # its left half first
+            state[top] = 1
+            top += 1
+            start[top], count[top], state[top] = start[top - 1], _half(count[top - 1]), 0
+            continue
+        ret = _pairwise_block(a, start[top], count[top])
+        top -= 1
+        while top >= 0:
+            if state[top] == 1:  # its left half is done: its right half next
+                left[top], state[top] = ret, 2
+                h = _half(count[top])
+                top += 1
+                start[top], count[top], state[top] = start[top - 1] + h, count[top - 1] - h, 0
+                break
+            ret = left[top] + ret
+            top -= 1
+        if top < 0:
+            return 0.0 + ret
+
+
+@njit(cache=True)
+def _choose_levels(u, s_env, max_levels):
+    """``detailing.choose_levels``: every choice of levels in the order of
+    itertools.combinations, its cost summed as np.sum sums a row, the first least wins."""
+    values = np.unique(s_env)
+    nv = len(values)
+    if nv <= max_levels:
+        return s_env.copy()
+    n = len(u)
+    pos = np.searchsorted(values, s_env)
+    lengths = np.zeros(nv)
+    for i in range(n):
+        lengths[pos[i]] += (u[i + 1] - u[i]) if i + 1 < n else (u[i] - u[i])
+    r = max_levels - 1
+    idx = np.arange(1, r + 1)  # the chosen levels besides the least, ascending
+    best = idx.copy()
+    best_cost = np.inf
+    terms = np.empty(nv)
+    first = True
+    while True:
+        c, level = 0, 0
+        for v in range(nv):
+            while c < r and idx[c] <= v:
+                level = idx[c]
+                c += 1
+            den = values[level]
+            terms[v] = lengths[v] / (den if np.isfinite(den) else 1e12)
+        cost = _pairwise_sum(terms, 0, nv)
+        if first or cost < best_cost:
+            best_cost, first = cost, False
+            best[:] = idx
+        i = r - 1
+        while i >= 0 and idx[i] == nv - r + i:
+            i -= 1
+        if i < 0:
+            break
+        idx[i] += 1
+        for j in range(i + 1, r):
+            idx[j] = idx[j - 1] + 1
+    use = np.zeros(nv, np.int64)
+    c, level = 0, 0
+    for v in range(nv):
+        while c < r and best[c] <= v:
+            level = best[c]
+            c += 1
+        use[v] = level
+    out = np.empty(n)
+    for i in range(n):
+        out[i] = values[use[pos[i]]]
+    return out
+
+
+@njit(cache=True, inline="always")
+def _first(s, fixed, first_at):
+    return first_at if fixed else s / 2.0
+
+
+@njit(cache=True)
+def _end_runs(u, s_env, fixed, first_at, max_zones, span, sp, flat, stops):
+    """``detailing._end_runs``: the runs go to ``sp`` (spacing), ``flat`` (positions, run after
+    run) and ``stops`` (where each run's positions end in ``flat``). Returns (whether the runs
+    stay clear of the far end, the middle's spacing)."""
+    n = len(s_env)
+    suffix = s_env.copy()
+    for i in range(n - 2, -1, -1):
+        suffix[i] = min(suffix[i + 1], s_env[i])
+    levels = _choose_levels(u, suffix, max_zones)
+    starts = [0]
+    for i in range(1, n):
+        if levels[i] != levels[i - 1]:
+            starts.append(i)
+    has_last, last = False, 0.0
+    for k in range(len(starts) - 1):
+        s = levels[starts[k]]
+        boundary = u[starts[k + 1]]
+        f = _first(s, fixed, first_at)
+        limit = span - f
+        x = f if not has_last else last + s
+        begin = len(flat)
+        flat.append(x)
+        while flat[-1] < boundary - 1e-9 or (not has_last and len(flat) - begin < 2):
+            flat.append(flat[-1] + s)
+        if flat[-1] > limit + 1e-9:
+            while len(flat) > begin and flat[-1] > limit + 1e-9:
+                flat.pop()
+            if len(flat) == begin or span - flat[-1] > s + 1e-9:
+                return False, 0.0
+        sp.append(s)
+        stops.append(len(flat))
+        has_last, last = True, flat[-1]
+    return True, levels[starts[-1]]
+
+
+@njit(cache=True)
+def _drop_run(sp, flat, stops):
+    sp.pop()
+    stops.pop()
+    keep = stops[-1] if len(stops) else 0
+    while len(flat) > keep:
+        flat.pop()
+
+
+@njit(cache=True)
+def _floor_div(a, b):
+    """Python's float a // b (CPython's float_divmod)."""
+    mod = np.fmod(a, b)
+    div = (a - mod) / b
+    if mod != 0.0:
+        if (b < 0.0) != (mod < 0.0):
+            div -= 1.0
+    if div != 0.0:
+        q = np.floor(div)
+        if div - q > 0.5:
+            q += 1.0
+        return q
+    return np.copysign(0.0, a / b)
+
+
+@njit(cache=True)
+def _continued(a, b, s, smin, fixed_a, has_face, face_b, close, out):
+    """``detailing._continued`` appending to ``out``; False where it gives None."""
+    if not has_face:
+        k = int(np.floor((b - smin - a) / s + 1e-9))
+        if k < 0 or b - (a + k * s) > s + 1e-9:
+            return False
+        if fixed_a:
+            out.append(a)
+        for j in range(1, k + 1):
+            out.append(a + j * s)
+        return True
+    k = int(np.floor((b - a) / s + 1e-9))
+    if k < 0:
+        return False
+    last = a + k * s
+    extra = False
+    if abs(b - last) <= 1e-9 or (face_b - last <= s + 1e-9 and not close):
+        pass
+    elif smin - 1e-9 <= b - last and b - last <= s + 1e-9:
+        extra = True
+    else:
+        return False
+    if fixed_a:
+        out.append(a)
+    for j in range(1, k + 1):
+        out.append(a + j * s)
+    if extra:
+        out.append(b)
+    return True
+
+
+@njit(cache=True)
+def _centred(a, b, s, smin, fixed_a, fixed_b, step, out):
+    """``detailing._centred`` appending to ``out``: 1 done, 0 None, -1 the one case left to
+    Python (two stirrups to place closer than the minimum: one between, rounded as Python rounds)."""
+    d = b - a
+    if d < -1e-9:
+        return 0
+    if d <= s + 1e-9:
+        if d >= smin - 1e-9:
+            if fixed_a:
+                out.append(a)
+            if fixed_b:
+                out.append(b)
+            return 1
+        if fixed_a and fixed_b:
+            return -1
+        return 0
+    n = int(np.ceil(d / s - 1e-9)) - 1
+    g = d - (n - 1) * s
+    if g < 2 * smin - 1e-9:
+        return 0
+    g_a = np.floor(g / 2 / step) * step
+    if fixed_a:
+        out.append(a)
+    for k in range(n):
+        out.append(a + g_a + k * s)
+    if fixed_b:
+        out.append(b)
+    return 1
+
+
+@njit(cache=True)
+def _fit_between(l_sp, r_sp, has_left, has_right, a, b, s, smin, module, step, fixed_a, has_face, face_b, close,
+                 out):
+    """``detailing._fit_between`` appending to ``out`` (``l_sp``, ``r_sp``: the spacing of the
+    last run of each side): 1 done, 0 None, -1 left to Python."""
+    n_try = int(_floor_div(s - smin, module)) + 1
+    for t in range(n_try):
+        s_try = s - t * module
+        for extra in range(4):
+            for i in range(extra + 1):
+                j = extra - i
+                if (i and not has_left) or (j and not has_right):
+                    continue
+                a2 = a + i * l_sp if i else a
+                b2 = b - j * r_sp if j else b
+                begin = len(out)
+                for k in range(1, i + 1):
+                    out.append(a + k * l_sp)
+                got = 0
+                if not j and _continued(a2, b2, s_try, smin, fixed_a, has_face, face_b, close, out):
+                    got = 1
+                if got == 0:
+                    got = _centred(a2, b2, s_try, smin, fixed_a, has_face, step, out)
+                if got == -1:
+                    return -1
+                if got == 1:
+                    for k in range(j, 0, -1):
+                        out.append(b - k * r_sp)
+                    return 1
+                while len(out) > begin:
+                    out.pop()
+    return 0
+
+
+@njit(cache=True)
+def _new_runs():
+    """Empty (spacings, positions, stops) of the runs from one face."""
+    sp, flat, stops = [0.0], [0.0], [0]
+    sp.pop()
+    flat.pop()
+    stops.pop()
+    return sp, flat, stops
+
+
+@njit(cache=True)
+def _cantilever(v, env, span, fixed, first_at, max_zones, smin, module, step, hole):
+    """``detailing._cantilever``: (what it did, the positions from the fixed face)."""
+    sp, out, stops = _new_runs()
+    ok, s_tip = _end_runs(v, env, fixed, first_at, max_zones, span, sp, out, stops)
+    if not ok:
+        sp, out, stops = _new_runs()
+        s_tip = env.min()
+    if not np.isfinite(s_tip):
+        hole[0] = out[-1] if len(out) else 0.0
+        hole[1] = span
+        return SET_OUT, out
+    tip = span - _first(s_tip, fixed, first_at)
+    while len(sp) and out[-1] > tip - smin + 1e-9:
+        _drop_run(sp, out, stops)
+        s_tip = env.min()
+    has_runs = len(sp) > 0
+    a = out[-1] if has_runs else _first(s_tip, fixed, first_at)
+    got = _fit_between(sp[-1] if has_runs else 0.0, 0.0, has_runs, False, a, tip, s_tip, smin, module, step,
+                       not has_runs, True, span, False, out)
+    return (SET_OUT if got == 1 else NO_SET_OUT if got == 0 else BY_PYTHON), out
+
+
+@njit(cache=True)
+def _set_out_one(u, s_env, span, free_i, free_j, fixed, first_at, close, max_zones, smin, module, step, hole):
+    """``detailing.layout_positions`` of one member before rounding: (what it did, positions);
+    the span left without stirrups in ``hole`` (NaN where none)."""
+    hole[0] = hole[1] = np.nan
+    if np.all(np.isinf(s_env)):
+        hole[0], hole[1] = 0.0, span
+        return NONE_NEEDED, np.empty(0)
+    if free_i or free_j:  # a cantilever, set out from its fixed end
+        v = u if free_j else (span - u)[::-1].copy()
+        env = s_env if free_j else s_env[::-1].copy()
+        what, pos = _cantilever(v, env, span, fixed, first_at, max_zones, smin, module, step, hole)
+        if what != SET_OUT:
+            return what, np.empty(0)
+        got = np.array(pos) if len(pos) else np.empty(0)
+        if not free_j:
+            got = span - got[::-1]
+            lo, hi = hole[0], hole[1]
+            hole[0], hole[1] = span - hi, span - lo
+        return SET_OUT, got
+    n = len(u)
+    mx = -np.inf
+    for i in range(n):
+        f = s_env[i] if np.isfinite(s_env[i]) else 1e12
+        mx = max(mx, f)
+    m, near = -1, np.inf
+    for i in range(n):
+        f = s_env[i] if np.isfinite(s_env[i]) else 1e12
+        if f == mx:
+            dist = abs(u[i] - span / 2)
+            if m < 0 or dist < near:
+                m, near = i, dist
+    l_sp, left, l_stops = _new_runs()
+    r_sp, right, r_stops = _new_runs()
+    ok_l, s_l = _end_runs(u[:m + 1], s_env[:m + 1], fixed, first_at, max_zones, span, l_sp, left, l_stops)
+    ok_r = False
+    s_r = 0.0
+    if ok_l:
+        ok_r, s_r = _end_runs((span - u[m:])[::-1].copy(), s_env[m:][::-1].copy(), fixed, first_at, max_zones,
+                              span, r_sp, right, r_stops)
+    met = False
+    if not (ok_l and ok_r):  # a tight run reaching the far end: the tightest spacing throughout
+        l_sp, left, l_stops = _new_runs()
+        r_sp, right, r_stops = _new_runs()
+        s_mid = s_env.min()
+        met = True
+    else:
+        for i in range(len(right)):
+            right[i] = span - right[i]  # from face j, descending
+        s_mid = s_r if s_r < s_l else s_l
+        while len(l_sp) and l_sp[-1] >= s_mid:
+            _drop_run(l_sp, left, l_stops)
+        while len(r_sp) and r_sp[-1] >= s_mid:
+            _drop_run(r_sp, right, r_stops)
+    has_a, has_b = len(left) > 0, len(right) > 0
+    a = left[-1] if has_a else 0.0
+    b = right[-1] if has_b else 0.0
+    if has_a and has_b and b - a < smin - 1e-9:
+        l_sp, left, l_stops = _new_runs()
+        r_sp, right, r_stops = _new_runs()
+        s_mid = s_env.min()
+        met = True
+        has_a = has_b = False
+    if not np.isfinite(s_mid):  # nothing needed in the middle
+        lo = a if has_a else 0.0
+        hi = b if has_b else span
+        if hi - lo > smin:
+            hole[0], hole[1] = lo, hi
+        return SET_OUT, np.sort(_joined(left, [0.0][:0], right))
+    fixed_a, has_face = not has_a, not has_b
+    a = _first(s_mid, fixed, first_at) if not has_a else a
+    b = span - _first(s_mid, fixed, first_at) if not has_b else b
+    mid = [0.0]
+    mid.pop()
+    got = _fit_between(l_sp[-1] if len(l_sp) else 0.0, r_sp[-1] if len(r_sp) else 0.0, len(l_sp) > 0,
+                       len(r_sp) > 0, a, b, s_mid, smin, module, step, fixed_a, has_face, span, close, mid)
+    if got != 1:
+        return (NO_SET_OUT if got == 0 else BY_PYTHON), np.empty(0)
+    return (ZONES_MET if met else SET_OUT), np.sort(_joined(left, mid, right))
+
+
+@njit(cache=True)
+def _joined(left, mid, right):
+    out = np.empty(len(left) + len(mid) + len(right))
+    k = 0
+    for part in (left, mid, right):
+        for x in part:
+            out[k] = x
+            k += 1
+    return out
+
+
+@njit(cache=True)
+def set_out(u, s_env, offsets, todo, span, free_i, free_j, fixed, first_at, close, max_zones, smin, module, step):
+    """``detailing.layout_positions`` of the members ``todo`` before rounding: per member of
+    the batch what it did (``what``, 0 where not asked), its positions ``x[starts[m]:starts[m +
+    1]]`` and the span left without stirrups (NaN where none)."""
+    n = len(offsets) - 1
+    what = np.zeros(n, np.int8)
+    hole = np.full((n, 2), np.nan)
+    parts = []
+    counts = np.zeros(n, np.int64)
+    for m in todo:
+        sl = slice(offsets[m], offsets[m + 1])
+        w, pos = _set_out_one(u[sl], s_env[sl], span[m], free_i[m], free_j[m], fixed[m], first_at[m], close[m],
+                              max_zones, smin, module, step, hole[m])
+        what[m] = w
+        if w == SET_OUT or w == ZONES_MET:
+            counts[m] = len(pos)
+            parts.append(pos)
+    starts = np.zeros(n + 1, np.int64)
+    starts[1:] = np.cumsum(counts)
+    x = np.empty(starts[-1])
+    k = 0
+    for pos in parts:
+        x[k:k + len(pos)] = pos
+        k += len(pos)
+    return what, x, starts, hole

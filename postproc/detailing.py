@@ -24,6 +24,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from postproc import kernels
 from postproc.codes import aci318_19 as aci
 from postproc.codes.aci318_19 import SI, Edition
 from postproc.settings import Detailing, bar_catalogue
@@ -362,6 +363,11 @@ def _fit_between(left: list[_Run], right: list[_Run], a: float, b: float, s: flo
     return None
 
 
+NONE_NEEDED = "no stirrups required"
+NO_SET_OUT = "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
+ZONES_MET = "end zones meet; one zone throughout"
+
+
 def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i: bool, free_j: bool,
                      st: Detailing, close_at_faces: bool = False) -> tuple[np.ndarray, list[tuple[float, float]], str] | str:
     """Stirrup positions for one member from the allowed spacing at each station (u from
@@ -371,14 +377,14 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     (positions, empty spans, note), or a string that says why no layout is possible."""
     first = (lambda s: st.first_stirrup_at) if st.first_stirrup == "fixed" else (lambda s: s / 2.0)
     if np.all(np.isinf(s_env)):
-        return np.empty(0), [(0.0, clear_span)], "no stirrups required"
+        return np.empty(0), [(0.0, clear_span)], NONE_NEEDED
     zmax = st.max_zones_per_end
     if free_i or free_j:  # a cantilever, set out from its fixed end
         v = u if free_j else (clear_span - u)[::-1]
         env = s_env if free_j else s_env[::-1]
         pos, empty = _cantilever(v, env, clear_span, first, zmax, st)
         if pos is None:
-            return "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
+            return NO_SET_OUT
         if not free_j:
             pos = clear_span - pos[::-1]
             empty = [(clear_span - e, clear_span - s) for s, e in reversed(empty)]
@@ -391,7 +397,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     note = ""
     if ends[0] is None or ends[1] is None:  # a tight run reaching the far end: the tightest spacing throughout
         left, right, s_mid = [], [], float(np.min(s_env))
-        note = "end zones meet; one zone throughout"
+        note = ZONES_MET
     else:
         (left, s_l), (right, s_r) = ends
         right = [_Run(r.spacing, [clear_span - x for x in r.positions]) for r in right]  # from face j, descending
@@ -402,7 +408,7 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     a = left[-1].positions[-1] if left else None
     b = right[-1].positions[-1] if right else None
     if a is not None and b is not None and b - a < st.min_spacing - 1e-9:
-        left, right, note = [], [], "end zones meet; one zone throughout"  # the tightest spacing throughout
+        left, right, note = [], [], ZONES_MET  # the tightest spacing throughout
         s_mid = float(np.min(s_env))
         a = b = None
     if not np.isfinite(s_mid):  # nothing needed in the middle
@@ -416,9 +422,48 @@ def layout_positions(u: np.ndarray, s_env: np.ndarray, clear_span: float, free_i
     b = clear_span - first(s_mid) if b is None else b
     mid = _fit_between(left, right, a, b, s_mid, st, fixed_a, face_b, close_at_faces)
     if mid is None:
-        return "the stirrups cannot be set out within the minimum spacing and the allowed spacing"
+        return NO_SET_OUT
     pos = [x for r in left for x in r.positions] + mid + [x for r in reversed(right) for x in r.positions[::-1]]
     return _rounded(np.array(sorted(pos)), st), [], note
+
+
+def layout_positions_batch(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray, todo: np.ndarray,
+                           clear_span: np.ndarray, free_i: np.ndarray, free_j: np.ndarray, st: Detailing,
+                           at_faces: np.ndarray, st_faces: Detailing) -> dict:
+    """``layout_positions`` of the members ``todo`` of a batch (member m's stations are
+    ``offsets[m]:offsets[m + 1]``); those marked ``at_faces`` with ``st_faces`` and
+    ``close_at_faces``. A dict by member of what ``layout_positions`` returns: the same
+    values, from one compiled call over the batch where the compiled kernels are used (a
+    member with NaN or a spacing not above zero among its stations, or the rare case of
+    two stirrups to place closer than the minimum, from ``layout_positions`` itself)."""
+    todo = np.asarray(todo, np.int64)
+    stations = int(np.sum(offsets[todo + 1] - offsets[todo])) if len(todo) else 0
+    by_python = todo
+    out = {}
+    if len(todo) and st.max_zones_per_end >= 1 and kernels.use_compiled(stations):
+        bad = np.zeros(len(offsets) - 1, bool)
+        odd = ~np.isfinite(u) | np.isnan(s_env) | ~(s_env > 0)
+        member = np.repeat(np.arange(len(offsets) - 1), np.diff(offsets))
+        bad[member[odd]] = True
+        fast = todo[~bad[todo]]
+        what, x, starts, hole = kernels.set_out(u, s_env, offsets, fast, clear_span, free_i, free_j, st, at_faces,
+                                                st_faces)
+        x = _rounded(x, st)
+        for m in fast:
+            w = what[m]
+            if w == kernels.NONE_NEEDED:
+                out[m] = (np.empty(0), [(0.0, float(clear_span[m]))], NONE_NEEDED)
+            elif w == kernels.NO_SET_OUT:
+                out[m] = NO_SET_OUT
+            elif w != kernels.BY_PYTHON:
+                empty = [(float(hole[m, 0]), float(hole[m, 1]))] if np.isfinite(hole[m, 0]) else []
+                out[m] = (x[starts[m]:starts[m + 1]], empty, ZONES_MET if w == kernels.ZONES_MET else "")
+        by_python = np.array([m for m in todo if m not in out], np.int64)
+    for m in by_python:
+        sl = slice(offsets[m], offsets[m + 1])
+        out[m] = layout_positions(u[sl], s_env[sl], float(clear_span[m]), bool(free_i[m]), bool(free_j[m]),
+                                  st_faces if at_faces[m] else st, close_at_faces=bool(at_faces[m]))
+    return out
 
 
 def _cantilever(v, env, span, first, zmax, st: Detailing):

@@ -16,6 +16,7 @@ that is not writable), so that each worker process loads it instead of compiling
 
 from __future__ import annotations
 
+import functools
 import os
 
 import numpy as np
@@ -76,6 +77,32 @@ def warm() -> None:
     combine_at(f, v, np.zeros(1, np.int64), np.zeros(1, np.int64))
     one = np.ones(1)
     tie_bisection(one, one, 1.0, one, np.zeros(1, bool), one, [(one,) * 7] * 2, 0.75, 1.0, 1)
+    from postproc.settings import Detailing
+
+    no = np.zeros(1, bool)
+    set_out(np.array([0.0, 1.0]), np.array([0.5, 0.5]), np.array([0, 2]), np.zeros(1, np.int64), one, no, no,
+            Detailing(), no, Detailing())
+
+
+NONE_NEEDED, NO_SET_OUT, ZONES_MET, BY_PYTHON = 3, 4, 2, 5  # ``set_out``'s outcomes besides 1, set out
+
+
+def set_out(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray, todo: np.ndarray, clear_span: np.ndarray,
+            free_i: np.ndarray, free_j: np.ndarray, st, at_faces: np.ndarray, st_faces):
+    """``detailing.layout_positions`` of the members ``todo`` compiled, before rounding: per
+    member of the batch its outcome (0 where not asked), the positions ``x[starts[m]:starts[m +
+    1]]`` and the span left without stirrups ``hole[m]`` (NaN where none). Members marked
+    ``at_faces`` take ``st_faces``' first stirrup and keep one at each face."""
+    fixed = np.where(at_faces, st_faces.first_stirrup == "fixed", st.first_stirrup == "fixed")
+    first_at = np.where(at_faces, st_faces.first_stirrup_at, st.first_stirrup_at).astype(np.float64)
+    n = len(offsets) - 1
+    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
+    return _load(required=True).set_out(
+        f64(u), f64(s_env), np.ascontiguousarray(offsets, np.int64), np.ascontiguousarray(todo, np.int64),
+        f64(clear_span), np.broadcast_to(np.asarray(free_i, np.bool_), n).copy(),
+        np.broadcast_to(np.asarray(free_j, np.bool_), n).copy(), np.broadcast_to(fixed, n).copy(),
+        np.broadcast_to(first_at, n).copy(), np.broadcast_to(np.asarray(at_faces, np.bool_), n).copy(),
+        int(st.max_zones_per_end), float(st.min_spacing), float(st.spacing_module), float(st.setout_step))
 
 
 def front(stack: np.ndarray, signs: np.ndarray, valid: np.ndarray) -> np.ndarray:

@@ -150,3 +150,145 @@ def test_synthetic_frame_designed_batched_equals_member_by_member(monkeypatch, t
     plain = _plain_design(monkeypatch, paths["members"], paths["forces"], paths.get("cases"))
     assert (batched.members["status"] == "designed").sum() > 60
     _assert_identical(_tables(batched.run), _tables(plain.run))
+
+
+def _random_members(rng, st, n_members):
+    """Stations and allowed spacings of random members as the beams' layout step gives them:
+    spacings on the module, at or above the minimum, inf where none is needed (a middle, a
+    tip, a whole member), tight ends, long runs of one spacing, a jump's two stations at one
+    x; cantilevers at either end; spans from a few spacings to many."""
+    module, smin = st.spacing_module, st.min_spacing
+    choices = smin + module * np.arange(0, 16)
+    us, envs, spans = [], [], []
+    for _ in range(n_members):
+        span = float(rng.uniform(2.0, 60.0) * smin * rng.choice([1.0, 4.0]))
+        n = int(rng.integers(2, 40))
+        u = np.sort(np.concatenate([[0.0, span], rng.uniform(0.0, span, n - 2)]))
+        if n > 4 and rng.random() < 0.3:
+            k = int(rng.integers(1, n - 1))
+            u = np.insert(u, k, u[k])  # a jump: two stations at one x
+        shape = rng.random()
+        if shape < 0.4:  # tight at the ends, loose in the middle (a beam under gravity load)
+            dist = np.minimum(u, span - u) / span
+            s = rng.choice(choices[:4]) + np.floor(dist * rng.uniform(5, 40)) * module
+        else:
+            s = rng.choice(choices, len(u))
+        s = np.asarray(s, float)
+        none = rng.random()
+        if none < 0.15:
+            s[(u > 0.3 * span) & (u < 0.7 * span)] = np.inf
+        elif none < 0.2:
+            s[:] = np.inf
+        elif none < 0.3:
+            s[u > 0.6 * span] = np.inf
+        us.append(u)
+        envs.append(s)
+        spans.append(span)
+    offsets = np.r_[0, np.cumsum([len(u) for u in us])]
+    r = rng.random(n_members)
+    free_i, free_j = r < 0.1, (r >= 0.1) & (r < 0.2)
+    return np.concatenate(us), np.concatenate(envs), offsets, np.array(spans), free_i, free_j
+
+
+@pytest.mark.parametrize("edition", ["si", "us", "half", "one-zone", "many-zones"])
+def test_compiled_set_out_is_the_python_set_out(monkeypatch, edition):
+    """detailing.layout_positions_batch through the compiled set-out (postproc.compiled.set_out)
+    returns what layout_positions returns member by member, to the bit: positions, the span
+    left without stirrups, the note, and the reason where no set-out exists; hoop members with
+    their own first stirrup and a stirrup at each face."""
+    from dataclasses import replace
+
+    from postproc import kernels
+    from postproc.settings import Detailing, DetailingUS
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    st = {"si": Detailing(), "us": DetailingUS(), "half": Detailing(first_stirrup="half"),
+          "one-zone": Detailing(max_zones_per_end=1), "many-zones": DetailingUS(max_zones_per_end=5)}[edition]
+    st_faces = replace(st, first_stirrup="fixed", **{
+        ("first_stirrup_in" if edition in ("us", "many-zones") else "first_stirrup_mm"): st.first_stirrup_at * 0.9})
+    rng = np.random.default_rng(sum(map(ord, edition)))
+    seen = {"set out": 0, "met": 0, "none": 0, "no set-out": 0, "hole": 0, "cantilever": 0}
+    for _ in range(12):
+        u, s_env, offsets, spans, free_i, free_j = _random_members(rng, st, 150)
+        at_faces = rng.random(len(spans)) < 0.3
+        todo = np.flatnonzero(rng.random(len(spans)) < 0.9)
+        monkeypatch.setenv(kernels.ENV, "compiled")
+        got = detailing.layout_positions_batch(u, s_env, offsets, todo, spans, free_i, free_j, st, at_faces, st_faces)
+        assert sorted(got) == list(todo)
+        for m in todo:
+            sl = slice(offsets[m], offsets[m + 1])
+            expected = detailing.layout_positions(u[sl], s_env[sl], float(spans[m]), bool(free_i[m]), bool(free_j[m]),
+                                                  st_faces if at_faces[m] else st, close_at_faces=bool(at_faces[m]))
+            if isinstance(expected, str):
+                assert got[m] == expected
+                seen["no set-out"] += 1
+                continue
+            pos, empty, note = got[m]
+            assert pos.tobytes() == expected[0].tobytes(), m
+            assert [tuple(map(float, e)) for e in empty] == [tuple(map(float, e)) for e in expected[1]]
+            assert note == expected[2]
+            seen["met"] += note == detailing.ZONES_MET
+            seen["none"] += note == detailing.NONE_NEEDED
+            seen["set out"] += note == ""
+            seen["hole"] += bool(empty)
+            seen["cantilever"] += bool(free_i[m] or free_j[m])
+    if edition == "one-zone":  # one spacing from each face: no end runs to meet
+        assert seen.pop("met") == 0
+    assert min(seen.values()) > 5, seen
+
+
+def test_compiled_set_out_leaves_odd_members_to_python(monkeypatch):
+    """The members the compiled set-out does not take come out as layout_positions gives them:
+    a member so short that its two first stirrups (50 mm from each face) stand 60 mm apart,
+    below the 75 mm minimum, where one stirrup goes between them at a position rounded as
+    Python rounds; beside it an ordinary member, set out by the kernel. A member with NaN or
+    a zero among its allowed spacings (the layout step never sends one: it needs every
+    spacing at or above the minimum) is not given to the kernel at all."""
+    from postproc import compiled, kernels
+    from postproc.settings import Detailing
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    st = Detailing()
+    members = [(np.array([0.0, 80.0, 160.0]), np.array([100.0, 100.0, 100.0]), 160.0),
+               (np.array([0.0, 1500.0, 3000.0]), np.array([100.0, 300.0, 125.0]), 3000.0)]
+    u = np.concatenate([m[0] for m in members])
+    s_env = np.concatenate([m[1] for m in members])
+    offsets = np.r_[0, np.cumsum([len(m[0]) for m in members])]
+    spans = np.array([m[2] for m in members])
+    no = np.zeros(len(members), bool)
+    monkeypatch.setenv(kernels.ENV, "compiled")
+    what, _, _, _ = kernels.set_out(u, s_env, offsets, np.array([0, 1]), spans, no, no, st, no, st)
+    assert what[0] == compiled.BY_PYTHON and what[1] in (compiled.SET_OUT, compiled.ZONES_MET)
+    got = detailing.layout_positions_batch(u, s_env, offsets, np.arange(2), spans, no, no, st, no, st)
+    for m, (x, s, span) in enumerate(members):
+        expected = detailing.layout_positions(x, s, span, False, False, st)
+        assert got[m][0].tobytes() == expected[0].tobytes() and got[m][1:] == expected[1:]
+    assert got[0][0].tolist() == [80.0]
+
+    given, by_python = [], []
+    real = kernels.set_out
+    monkeypatch.setattr(kernels, "set_out", lambda *a: given.append(a[3].tolist()) or real(*a))
+    monkeypatch.setattr(detailing, "layout_positions", lambda u, s, *a, **k: by_python.append(s.tolist()) or "plain")
+    for poison in (np.nan, 0.0):
+        bad = s_env.copy()
+        bad[4] = poison
+        got = detailing.layout_positions_batch(u, bad, offsets, np.arange(2), spans, no, no, st, no, st)
+        assert given.pop() == [0] and got[1] == "plain"
+        np.testing.assert_array_equal(by_python.pop(), bad[offsets[1]:])
+
+
+def test_pairwise_sum_is_numpy_sum():
+    """The compiled level choice sums a row of costs as np.sum does (numpy's pairwise summation:
+    the same bits, so the same first least cost), rows of every length up to 1000."""
+    from postproc import kernels
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    from postproc import compiled
+
+    rng = np.random.default_rng(5)
+    for n in list(range(0, 300)) + [511, 512, 513, 1000]:
+        row = rng.random(n) * 10.0 ** rng.uniform(-3, 3, n)
+        assert compiled._pairwise_sum(row, 0, n) == np.sum(row[None, :], axis=1)[0], n

@@ -150,10 +150,8 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
     for m in range(n):
         if deep[m] or shear_bad[m] or m in fp.reasons:
             option[m] = -1
-            continue
-        sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        k = option[m]
-        if k < 0:
+        elif option[m] < 0:
+            sl = slice(grid.offsets[m], grid.offsets[m + 1])
             if not torsion_ok[:, m].any():
                 reasons[m] = ("resize", _torsion_message(opt, torsion_worst, m))
             else:
@@ -161,17 +159,20 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
                          for j in range(len(opt.bars)) if torsion_ok[j, m]]
                 reasons[m] = ("resize", f"no (bar, legs) of the ladder works at the {st.min_spacing:g} {U.length} "
                                         f"minimum spacing: {'; '.join(tight)}")
-            continue
-        got = detailing.layout_positions(rs.x_clear[sl], allowed[k][sl], float(mb.geo.clear_span[m]),
-                                         bool(mb.free_i[m]), bool(mb.free_j[m]), st_hoops if hoops[m] else st,
-                                         close_at_faces=bool(hoops[m]))
-        if isinstance(got, str):
+    todo = np.flatnonzero(option >= 0)
+    on = option[grid.member] >= 0
+    chosen[on] = allowed[option[grid.member[on]], np.flatnonzero(on)]
+    got = detailing.layout_positions_batch(rs.x_clear, chosen, grid.offsets, todo, mb.geo.clear_span, mb.free_i,
+                                           mb.free_j, st, hoops, st_hoops)
+    for m in todo:
+        if isinstance(got[m], str):
             option[m] = -1
-            reasons[m] = ("resize", got)
+            reasons[m] = ("resize", got[m])
+            chosen[grid.offsets[m]:grid.offsets[m + 1]] = np.inf
             continue
-        positions, empty, note = got
-        layouts[m] = detailing.Layout(opt.bars[k], int(opt.legs[k][m]), positions, empty, note)
-        chosen[sl] = allowed[k][sl]
+        positions, empty, note = got[m]
+        layouts[m] = detailing.Layout(opt.bars[option[m]], int(opt.legs[option[m]][m]), positions, empty, note)
+    reasons = dict(sorted(reasons.items()))  # member by member, as the records read them
     return Layouts(option, layouts, reasons, here, chosen, detailing.Stirrups.gather(layouts, n))
 
 
