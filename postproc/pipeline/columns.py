@@ -524,42 +524,48 @@ def _layout(mb: Members, rs: Resampled, opts: list[Option], allowed: list[Allowe
     reasons: dict[int, str] = {}
     layouts: dict[int, detailing.Layout] = {}
     least = [np.minimum.reduceat(a.spacing, starts) if len(grid.x) else np.zeros(n) for a in allowed]
-    for m in np.flatnonzero(~blocked):
-        sl = slice(grid.offsets[m], grid.offsets[m + 1])
-        tried = []
-        for k, (opt, a) in enumerate(zip(opts, allowed)):
+    tried: dict[int, list[str]] = {m: [] for m in np.flatnonzero(~blocked)}  # members not laid out yet
+    every = np.ones(n, bool)
+    for k, (opt, a) in enumerate(zip(opts, allowed)):  # option by option, each member's first that works
+        ties = []
+        for m in list(tried):
             if not opt.usable[m]:
                 continue
+            sl = slice(grid.offsets[m], grid.offsets[m + 1])
             if torsion_over[k][m]:  # a larger bar's smaller Aoh may pass where this one does not, or the reverse
-                tried.append(f"{opt.ties.bar}: Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) with its "
-                             "Aoh and ph")
+                tried[m].append(f"{opt.ties.bar}: Vu and Tu exceed the cross-sectional limit of 22.7.7.1(a) with its "
+                                "Aoh and ph")
                 continue
             floor = aci.spiral_pitch_limits(opt.ties.db, mb.sec.u)[0] if spiral[m] else st.min_spacing
             if not np.isfinite(a.t_env[sl]).all():
-                tried.append(f"{opt.ties.bar} ({int(opt.ties.legs_v[m])} x {int(opt.ties.legs_vb[m])} legs): "
-                             "the biaxial interaction cannot be met at the section limit")
+                tried[m].append(f"{opt.ties.bar} ({int(opt.ties.legs_v[m])} x {int(opt.ties.legs_vb[m])} legs): "
+                                "the biaxial interaction cannot be met at the section limit")
                 continue
             if least[k][m] < floor - 1e-9:
-                tried.append(f"{opt.ties.bar} ({int(opt.ties.legs_v[m])} x {int(opt.ties.legs_vb[m])} legs) at "
-                             f"{least[k][m]:g} {U.length}")
+                tried[m].append(f"{opt.ties.bar} ({int(opt.ties.legs_v[m])} x {int(opt.ties.legs_vb[m])} legs) at "
+                                f"{least[k][m]:g} {U.length}")
                 continue
-            clear = float(mb.geo.clear_span[m])
             if spiral[m]:
-                got = _spiral_positions(clear, float(least[k][m]), st)
+                layouts[m] = detailing.Layout(opt.ties.bar, int(opt.ties.legs_v[m]),
+                                              *_spiral_positions(float(mb.geo.clear_span[m]), float(least[k][m]), st))
+                option[m] = k
+                del tried[m]
             else:
-                got = detailing.layout_positions(rs.x_clear[sl], a.spacing[sl], clear, bool(mb.free_i[m]),
-                                                 bool(mb.free_j[m]), st, close_at_faces=True)
-            if isinstance(got, str):
-                tried.append(f"{opt.ties.bar}: {got}")
+                ties.append(m)
+        got = detailing.layout_positions_batch(rs.x_clear, a.spacing, grid.offsets, np.array(ties, np.int64),
+                                               mb.geo.clear_span, mb.free_i, mb.free_j, st, every, st)
+        for m in ties:
+            if isinstance(got[m], str):
+                tried[m].append(f"{opt.ties.bar}: {got[m]}")
                 continue
-            positions, empty, note = got
-            layouts[m] = detailing.Layout(opt.ties.bar, int(opt.ties.legs_v[m]), positions, empty, note)
+            layouts[m] = detailing.Layout(opt.ties.bar, int(opt.ties.legs_v[m]), *got[m])
             option[m] = k
-            break
-        else:
-            what = "pitch" if spiral[m] else f"{st.min_spacing:g} {U.length} minimum spacing"
-            reasons[m] = (f"no tie bar and legs of the ladder work at the {what}: " + "; ".join(tried) if tried else
-                          "no tie bar of the ladder may tie these bars (25.7.2.2: No. 13 ties around No. 36 bars)")
+            del tried[m]
+    for m, why in tried.items():
+        what = "pitch" if spiral[m] else f"{st.min_spacing:g} {U.length} minimum spacing"
+        reasons[m] = (f"no tie bar and legs of the ladder work at the {what}: " + "; ".join(why) if why else
+                      "no tie bar of the ladder may tie these bars (25.7.2.2: No. 13 ties around No. 36 bars)")
+    layouts = dict(sorted(layouts.items()))  # member by member, as the records read them
     return Layouts(option, layouts, reasons, allowed, detailing.Stirrups.gather(layouts, n))
 
 
