@@ -377,11 +377,16 @@ def shear_ratios(c: Cases, s: ColumnSection) -> tuple[np.ndarray, np.ndarray]:
 def torsion_ratios(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray]) -> np.ndarray:
     """The larger ratio of the cross-sectional limit 22.7.7.1(a) of the two directions, where torsion
     is considered (0 elsewhere). For a circle bw d = 0.8 D^2 (22.5.2.2)."""
-    if not c.torsion.any():
-        return np.zeros(len(c.station))
-    rv = aci.torsion_section_ok(c.vu_v, c.tu, c.vc_v_hi, s.fc, s.bw_v, s.d_v, tie["Aoh"], tie["ph"], u=s.u)
-    rvb = aci.torsion_section_ok(c.vu_vb, c.tu, c.vc_vb_hi, s.fc, s.bw_vb, s.d_vb, tie["Aoh"], tie["ph"], u=s.u)
-    return np.where(c.torsion, np.maximum(rv, rvb), 0.0)
+    out = np.zeros(len(c.station))
+    t = np.flatnonzero(c.torsion)  # the cases with torsion alone (elementwise: the same numbers)
+    if not len(t):
+        return out
+    at = lambda a: a[t] if np.ndim(a) else a
+    aoh, ph, fc, tu = at(tie["Aoh"]), at(tie["ph"]), at(s.fc), at(c.tu)
+    rv = aci.torsion_section_ok(at(c.vu_v), tu, at(c.vc_v_hi), fc, at(s.bw_v), at(s.d_v), aoh, ph, u=s.u)
+    rvb = aci.torsion_section_ok(at(c.vu_vb), tu, at(c.vc_vb_hi), fc, at(s.bw_vb), at(s.d_vb), aoh, ph, u=s.u)
+    out[t] = np.maximum(rv, rvb)
+    return out
 
 
 def heavy(c: Cases, s: ColumnSection) -> tuple[np.ndarray, np.ndarray]:

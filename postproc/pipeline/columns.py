@@ -272,10 +272,10 @@ def largest_moment(sec: sections.Sections, p_least: np.ndarray, p_most: np.ndarr
     lo = grid[np.arange(n), np.maximum(best - 1, 0)]
     hi = grid[np.arange(n), np.minimum(best + 1, MOMENT_SAMPLES - 1)]
     ratio = (np.sqrt(5.0) - 1.0) / 2.0
+    twice = sec.take(np.tile(np.arange(n), 2))  # both points of a golden-section step in one call
     for _ in range(REFINE_STEPS):
         a, b = hi - ratio * (hi - lo), lo + ratio * (hi - lo)
-        ma = strength(sec, a).moment
-        mb = strength(sec, b).moment
+        ma, mb = np.split(strength(twice, np.concatenate([a, b])).moment, 2)
         top = np.fmax(top, np.fmax(ma, mb))
         left = np.nan_to_num(ma, nan=-np.inf) >= np.nan_to_num(mb, nan=-np.inf)
         lo, hi = np.where(left, lo, a), np.where(left, b, hi)
