@@ -70,9 +70,28 @@ class ColumnSection:
     def take(self, idx: np.ndarray) -> ColumnSection:
         return ColumnSection(**{f.name: getattr(self, f.name)[idx] for f in fields(self) if f.name != "u"}, u=self.u)
 
+    def gathered(self, idx: np.ndarray) -> GatheredSection:
+        """``take(idx)`` whose arrays are gathered as they are first read (a section per demand
+        case, millions of them, most of whose arrays are never read)."""
+        return GatheredSection(self, idx)
+
     @property
     def ast(self) -> np.ndarray:
         return self.n_long * self.bar_area
+
+
+class GatheredSection:
+    """A ColumnSection taken at ``idx``, each array gathered when first read (ColumnSection.gathered)."""
+
+    def __init__(self, base: ColumnSection, idx: np.ndarray):
+        self._base, self._idx = base, idx
+
+    def __getattr__(self, name: str):
+        value = getattr(self._base, name)  # a field, or a property of the whole section (ast)
+        if isinstance(value, np.ndarray):
+            value = value[self._idx]
+        self.__dict__[name] = value
+        return value
 
 
 def column_sections(b, h, diameter, edge, fc, fyt, fy, lam, db_long, n_long, as_long, u: Edition = SI) -> ColumnSection:

@@ -937,7 +937,7 @@ def design(mb: Members, rs: Resampled, cand, cset, settings: Settings) -> BatchO
         parts.append(demand.capacity_cases(sec_st, fr.ve_v[grid.member], fr.ve_vb[grid.member], fr.nu_least,
                                            fr.zero_v, fr.zero_vb))
     cases = demand.merge(parts, S)
-    sec_c = sec_st.take(cases.station)
+    sec_c = mb.sec.gathered(grid.member[cases.station])  # per case, the arrays gathered as read
     p_most = fr.p_range[:, 1]
     opts, raised = _options(mb, p_most, spiral, settings)
     allowed = [_allowed(mb, rs, cases, sec_c, o, fr, spiral, settings) for o in opts]
