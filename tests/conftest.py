@@ -12,6 +12,19 @@ import pytest
 from postproc import cli
 from postproc.store import Store
 
+def pytest_configure(config):
+    """Compile the numba kernels into their cache once, in a process of its own, before the
+    test workers start: each worker, and each CLI subprocess a test starts, then loads them
+    instead of compiling them itself (about 30 s on a cold cache, which a test with a timeout
+    would otherwise spend). Nothing happens without numba or with SHEARPOST_KERNELS=numpy."""
+    if hasattr(config, "workerinput"):  # an xdist worker: the controller has done it
+        return
+    import subprocess
+    import sys
+
+    subprocess.run([sys.executable, "-c", "from postproc import kernels; kernels.warm()"], check=False)
+
+
 BEAM = dict(kind="beam", b_mm=300.0, h_mm=600.0, cover_mm=60.0, fc_mpa=30.0, fyt_mpa=420.0,
             support_i="column", support_j="column", face_i_mm=0.0, face_j_mm=0.0, load_face="top")
 
