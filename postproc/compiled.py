@@ -8,6 +8,8 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
+from postproc.kernels import BY_PYTHON, NO_SET_OUT, NONE_NEEDED, SET_OUT, ZONES_MET  # set_out's outcomes
+
 
 @njit(cache=True, inline="always")
 def _removes(stack, signs, q, s, o, e):
@@ -216,7 +218,6 @@ def tie_bisection(lo, hi, area, at, torsion, fyt, dirs, phi, limit, steps, out):
 
 # ----------------------------------------------------------------------------- stirrup set-out
 
-SET_OUT, ZONES_MET, NONE_NEEDED, NO_SET_OUT, BY_PYTHON = 1, 2, 3, 4, 5  # what ``set_out`` did per member
 
 
 @njit(cache=True)
@@ -243,6 +244,7 @@ def _pairwise_block(a, lo, n):
 
 @njit(cache=True, inline="always")
 def _half(n):
+    """Where numpy's pairwise sum splits n items: half of them, down to a multiple of 8."""
     h = n // 2
     return h - h % 8
 
@@ -332,6 +334,7 @@ def _choose_levels(u, s_env, max_levels):
 
 @njit(cache=True, inline="always")
 def _first(s, fixed, first_at):
+    """The first stirrup's distance from a face for a run at spacing s: fixed, or s/2."""
     return first_at if fixed else s / 2.0
 
 
@@ -373,6 +376,7 @@ def _end_runs(u, s_env, fixed, first_at, max_zones, span, sp, flat, stops):
 
 @njit(cache=True)
 def _drop_run(sp, flat, stops):
+    """Remove the last run of one face (its spacing, its positions, its stop)."""
     sp.pop()
     stops.pop()
     keep = stops[-1] if len(stops) else 0
@@ -609,6 +613,7 @@ def _set_out_one(u, s_env, span, free_i, free_j, fixed, first_at, close, max_zon
 
 @njit(cache=True)
 def _joined(left, mid, right):
+    """The three lists of positions as one array."""
     out = np.empty(len(left) + len(mid) + len(right))
     k = 0
     for part in (left, mid, right):
@@ -626,21 +631,20 @@ def set_out(u, s_env, offsets, todo, span, free_i, free_j, fixed, first_at, clos
     n = len(offsets) - 1
     what = np.zeros(n, np.int8)
     hole = np.full((n, 2), np.nan)
-    parts = []
+    parts = [np.empty(0) for _ in range(len(todo))]
     counts = np.zeros(n, np.int64)
-    for m in todo:
+    for k, m in enumerate(todo):
         sl = slice(offsets[m], offsets[m + 1])
         w, pos = _set_out_one(u[sl], s_env[sl], span[m], free_i[m], free_j[m], fixed[m], first_at[m], close[m],
                               max_zones, smin, module, step, hole[m])
         what[m] = w
         if w == SET_OUT or w == ZONES_MET:
             counts[m] = len(pos)
-            parts.append(pos)
+            parts[k] = pos
     starts = np.zeros(n + 1, np.int64)
     starts[1:] = np.cumsum(counts)
     x = np.empty(starts[-1])
-    k = 0
-    for pos in parts:
-        x[k:k + len(pos)] = pos
-        k += len(pos)
+    for k, m in enumerate(todo):  # in member order, whatever the order of ``todo``
+        if counts[m]:
+            x[starts[m]:starts[m + 1]] = parts[k]
     return what, x, starts, hole

@@ -441,10 +441,12 @@ def layout_positions_batch(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray
     by_python = todo
     out = {}
     if len(todo) and st.max_zones_per_end >= 1 and kernels.use_compiled(stations):
-        bad = np.zeros(len(offsets) - 1, bool)
+        bad = ~np.isfinite(clear_span)
         odd = ~np.isfinite(u) | np.isnan(s_env) | ~(s_env > 0)
         member = np.repeat(np.arange(len(offsets) - 1), np.diff(offsets))
         bad[member[odd]] = True
+        if not _same_but_first(st_faces, st):  # the kernel takes only the first stirrup from st_faces
+            bad |= np.asarray(at_faces, bool)
         fast = todo[~bad[todo]]
         what, x, starts, hole = kernels.set_out(u, s_env, offsets, fast, clear_span, free_i, free_j, st, at_faces,
                                                 st_faces)
@@ -464,6 +466,12 @@ def layout_positions_batch(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray
         out[m] = layout_positions(u[sl], s_env[sl], float(clear_span[m]), bool(free_i[m]), bool(free_j[m]),
                                   st_faces if at_faces[m] else st, close_at_faces=bool(at_faces[m]))
     return out
+
+
+def _same_but_first(a: Detailing, b: Detailing) -> bool:
+    """Whether two detailing settings differ in their first stirrup alone."""
+    first = "first_stirrup_mm" if hasattr(b, "first_stirrup_mm") else "first_stirrup_in"
+    return type(a) is type(b) and replace(a, first_stirrup=b.first_stirrup, **{first: b.first_stirrup_at}) == b
 
 
 def _cantilever(v, env, span, first, zmax, st: Detailing):

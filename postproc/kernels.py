@@ -84,7 +84,9 @@ def warm() -> None:
             Detailing(), no, Detailing())
 
 
-NONE_NEEDED, NO_SET_OUT, ZONES_MET, BY_PYTHON = 3, 4, 2, 5  # ``set_out``'s outcomes besides 1, set out
+# what ``set_out`` did per member (0: not asked): set out, set out with the end zones met, no
+# stirrups needed, no set-out possible, left to detailing.layout_positions
+SET_OUT, ZONES_MET, NONE_NEEDED, NO_SET_OUT, BY_PYTHON = 1, 2, 3, 4, 5
 
 
 def set_out(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray, todo: np.ndarray, clear_span: np.ndarray,
@@ -92,7 +94,8 @@ def set_out(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray, todo: np.ndar
     """``detailing.layout_positions`` of the members ``todo`` compiled, before rounding: per
     member of the batch its outcome (0 where not asked), the positions ``x[starts[m]:starts[m +
     1]]`` and the span left without stirrups ``hole[m]`` (NaN where none). Members marked
-    ``at_faces`` take ``st_faces``' first stirrup and keep one at each face."""
+    ``at_faces`` take ``st_faces``' first stirrup and keep one at each face (its other fields
+    must be ``st``'s: detailing.layout_positions_batch sends such members here only then)."""
     fixed = np.where(at_faces, st_faces.first_stirrup == "fixed", st.first_stirrup == "fixed")
     first_at = np.where(at_faces, st_faces.first_stirrup_at, st.first_stirrup_at).astype(np.float64)
     n = len(offsets) - 1

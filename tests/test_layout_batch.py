@@ -208,6 +208,8 @@ def test_compiled_set_out_is_the_python_set_out(monkeypatch, edition):
     st_faces = replace(st, first_stirrup="fixed", **{
         ("first_stirrup_in" if edition in ("us", "many-zones") else "first_stirrup_mm"): st.first_stirrup_at * 0.9})
     rng = np.random.default_rng(sum(map(ord, edition)))
+    outcomes = dict.fromkeys([kernels.SET_OUT, kernels.ZONES_MET, kernels.NONE_NEEDED, kernels.NO_SET_OUT,
+                              kernels.BY_PYTHON, "cantilever set out"], 0)
     seen = {"set out": 0, "met": 0, "none": 0, "no set-out": 0, "hole": 0, "cantilever": 0}
     for _ in range(12):
         u, s_env, offsets, spans, free_i, free_j = _random_members(rng, st, 150)
@@ -216,6 +218,11 @@ def test_compiled_set_out_is_the_python_set_out(monkeypatch, edition):
         monkeypatch.setenv(kernels.ENV, "compiled")
         got = detailing.layout_positions_batch(u, s_env, offsets, todo, spans, free_i, free_j, st, at_faces, st_faces)
         assert sorted(got) == list(todo)
+        # the kernel's own outcomes (every member it leaves to Python would pass the comparison below)
+        what = kernels.set_out(u, s_env, offsets, todo, spans, free_i, free_j, st, at_faces, st_faces)[0][todo]
+        for code in (kernels.SET_OUT, kernels.ZONES_MET, kernels.NONE_NEEDED, kernels.NO_SET_OUT, kernels.BY_PYTHON):
+            outcomes[code] += int(np.sum(what == code))
+        outcomes["cantilever set out"] += int(np.sum((what == kernels.SET_OUT) & (free_i | free_j)[todo]))
         for m in todo:
             sl = slice(offsets[m], offsets[m + 1])
             expected = detailing.layout_positions(u[sl], s_env[sl], float(spans[m]), bool(free_i[m]), bool(free_j[m]),
@@ -234,8 +241,10 @@ def test_compiled_set_out_is_the_python_set_out(monkeypatch, edition):
             seen["hole"] += bool(empty)
             seen["cantilever"] += bool(free_i[m] or free_j[m])
     if edition == "one-zone":  # one spacing from each face: no end runs to meet
-        assert seen.pop("met") == 0
+        assert seen.pop("met") == 0 and outcomes.pop(kernels.ZONES_MET) == 0
     assert min(seen.values()) > 5, seen
+    left = outcomes.pop(kernels.BY_PYTHON)
+    assert min(outcomes.values()) > 5 and left < 0.03 * sum(outcomes.values()), (outcomes, left)
 
 
 def test_compiled_set_out_leaves_odd_members_to_python(monkeypatch):
@@ -292,3 +301,34 @@ def test_pairwise_sum_is_numpy_sum():
     for n in list(range(0, 300)) + [511, 512, 513, 1000]:
         row = rng.random(n) * 10.0 ** rng.uniform(-3, 3, n)
         assert compiled._pairwise_sum(row, 0, n) == np.sum(row[None, :], axis=1)[0], n
+
+
+def test_compiled_set_out_of_members_in_any_order_and_settings(monkeypatch):
+    """The batch in any order of its members (each keeps its own positions), hoop members whose
+    settings differ from the others' beyond the first stirrup (left to layout_positions, which
+    reads every field), and a member without a finite length (layout_positions' own error)."""
+    from dataclasses import replace
+
+    from postproc import kernels
+    from postproc.settings import Detailing
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    st = Detailing()
+    x = np.linspace(0.0, 3000.0, 7)
+    spacing = np.array([75.0, 100.0, 150.0, 300.0, 150.0, 100.0, 75.0])
+    u, s_env = np.concatenate([x, x * 2]), np.concatenate([spacing, spacing * 2])
+    offsets, spans, no = np.array([0, 7, 14]), np.array([3000.0, 6000.0]), np.zeros(2, bool)
+    monkeypatch.setenv(kernels.ENV, "compiled")
+    plain = [detailing.layout_positions(u[a:b], s_env[a:b], span, False, False, st)
+             for a, b, span in zip(offsets[:-1], offsets[1:], spans)]
+    got = detailing.layout_positions_batch(u, s_env, offsets, np.array([1, 0]), spans, no, no, st, no, st)
+    for m in (0, 1):
+        assert got[m][0].tobytes() == plain[m][0].tobytes()
+    one_zone = replace(st, max_zones_per_end=1)  # the kernel would set out with st's three zones
+    got = detailing.layout_positions_batch(u, s_env, offsets, np.arange(2), spans, no, no, st, ~no, one_zone)
+    assert got[0] == detailing.layout_positions(x, spacing, 3000.0, False, False, one_zone, close_at_faces=True)
+    assert isinstance(got[0], str)  # three levels of spacing cannot be set out in one zone here
+    with pytest.raises((ValueError, OverflowError)):
+        detailing.layout_positions_batch(u, s_env, offsets, np.arange(2), np.array([np.nan, 6000.0]), no, no, st,
+                                         no, st)

@@ -87,11 +87,18 @@ class GatheredSection:
         self._base, self._idx = base, idx
 
     def __getattr__(self, name: str):
+        if name.startswith("_"):  # not set yet (a copy being made): no field of a section
+            raise AttributeError(name)
         value = getattr(self._base, name)  # a field, or a property of the whole section (ast)
+        if callable(value):  # a method would act on the base's members, not on these cases
+            raise AttributeError(f"{name} of a gathered section: take() it from the ColumnSection")
         if isinstance(value, np.ndarray):
             value = value[self._idx]
         self.__dict__[name] = value
         return value
+
+    def take(self, idx: np.ndarray) -> GatheredSection:
+        return GatheredSection(self._base, self._idx[idx])
 
 
 def column_sections(b, h, diameter, edge, fc, fyt, fy, lam, db_long, n_long, as_long, u: Edition = SI) -> ColumnSection:

@@ -160,8 +160,8 @@ def _layout(mb: Members, rs: Resampled, cand, dem: demand.Demand, opt: Options, 
                 reasons[m] = ("resize", f"no (bar, legs) of the ladder works at the {st.min_spacing:g} {U.length} "
                                         f"minimum spacing: {'; '.join(tight)}")
     todo = np.flatnonzero(option >= 0)
-    on = option[grid.member] >= 0
-    chosen[on] = allowed[option[grid.member[on]], np.flatnonzero(on)]
+    laid_out = option[grid.member] >= 0  # per station
+    chosen[laid_out] = allowed[option[grid.member[laid_out]], np.flatnonzero(laid_out)]
     got = detailing.layout_positions_batch(rs.x_clear, chosen, grid.offsets, todo, mb.geo.clear_span, mb.free_i,
                                            mb.free_j, st, hoops, st_hoops)
     for m in todo:

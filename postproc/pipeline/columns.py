@@ -440,7 +440,7 @@ class Allowed:
     needed: np.ndarray  # shear reinforcement required (Av,min or strength)
 
 
-def _allowed(mb: Members, rs: Resampled, cases: demand.Cases, sec_c: demand.ColumnSection, opt: Option,
+def _allowed(mb: Members, rs: Resampled, cases: demand.Cases, sec_c: demand.GatheredSection, opt: Option,
              fr: FrameDemand, spiral: np.ndarray, settings: Settings) -> Allowed:
     grid = rs.grid
     mem = grid.member
@@ -525,7 +525,7 @@ def _layout(mb: Members, rs: Resampled, opts: list[Option], allowed: list[Allowe
     layouts: dict[int, detailing.Layout] = {}
     least = [np.minimum.reduceat(a.spacing, starts) if len(grid.x) else np.zeros(n) for a in allowed]
     tried: dict[int, list[str]] = {m: [] for m in np.flatnonzero(~blocked)}  # members not laid out yet
-    every = np.ones(n, bool)
+    close_at_faces = np.ones(n, bool)  # ties: one within s/2 of each face
     for k, (opt, a) in enumerate(zip(opts, allowed)):  # option by option, each member's first that works
         ties = []
         for m in list(tried):
@@ -553,7 +553,7 @@ def _layout(mb: Members, rs: Resampled, opts: list[Option], allowed: list[Allowe
             else:
                 ties.append(m)
         got = detailing.layout_positions_batch(rs.x_clear, a.spacing, grid.offsets, np.array(ties, np.int64),
-                                               mb.geo.clear_span, mb.free_i, mb.free_j, st, every, st)
+                                               mb.geo.clear_span, mb.free_i, mb.free_j, st, close_at_faces, st)
         for m in ties:
             if isinstance(got[m], str):
                 tried[m].append(f"{opt.ties.bar}: {got[m]}")
@@ -704,7 +704,7 @@ def _kind_of_zone(frame: str, spiral: bool, lo: float, clear: float, zone: detai
     return "tie"
 
 
-def _vc_equation(c: demand.Cases, sec_c: demand.ColumnSection, with_min: np.ndarray, zero: np.ndarray) -> np.ndarray:
+def _vc_equation(c: demand.Cases, sec_c: demand.GatheredSection, with_min: np.ndarray, zero: np.ndarray) -> np.ndarray:
     a = aci.vc_with_min_stirrups(sec_c.fc, sec_c.bw_v, sec_c.d_v, c.nu, sec_c.Ag, sec_c.lam, u=sec_c.u)
     cap = aci.vc_cap(sec_c.fc, sec_c.bw_v, sec_c.d_v, sec_c.lam, u=sec_c.u)
     vc = np.where(with_min, c.vc_v_hi, c.vc_v_lo)
