@@ -433,9 +433,10 @@ def layout_positions_batch(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray
     """``layout_positions`` of the members ``todo`` of a batch (member m's stations are
     ``offsets[m]:offsets[m + 1]``); those marked ``at_faces`` with ``st_faces`` and
     ``close_at_faces``. A dict by member of what ``layout_positions`` returns: the same
-    values, from one compiled call over the batch where the compiled kernels are used (a
-    member with NaN or a spacing not above zero among its stations, or the rare case of
-    two stirrups to place closer than the minimum, from ``layout_positions`` itself)."""
+    values, from one compiled call over the batch where the compiled kernels are used. From
+    ``layout_positions`` itself: a member with NaN or a spacing not above zero among its
+    stations or a length not finite, hoop members whose settings differ from ``st`` beyond
+    the first stirrup, and the rare case of two stirrups to place closer than the minimum."""
     todo = np.asarray(todo, np.int64)
     stations = int(np.sum(offsets[todo + 1] - offsets[todo])) if len(todo) else 0
     by_python = todo
