@@ -703,11 +703,13 @@ def cmd_runs(args, store) -> int:
     console = _console()
     wide = console.width >= RUNS_WIDE  # a narrow terminal leaves the inputs out rather than break every value
     longest = max((len(report.shown(r["run"])) for r in rows), default=3)
+    created = lambda r: r["created"][:16].replace("T", " ")  # noqa: E731
+    damaged = lambda r: report.shown(r["damaged"]) + " (`shearpost verify`)"  # noqa: E731
     if longest + RUNS_OTHER_COLUMNS > console.width:  # not even the table without inputs fits: one run a line
         console.print(f"Runs in {report.shown(store.root)}", highlight=False)
         for r in rows:
-            what = ("DAMAGED: " + report.shown(r["damaged"]) + " (`shearpost verify`)" if r["damaged"] else
-                    f"created {r['created'][:16].replace('T', ' ')} UTC, {r['unit_system']}, {r['members']} members, "
+            what = ("DAMAGED: " + damaged(r) if r["damaged"] else
+                    f"created {created(r)} UTC, {r['unit_system']}, {r['members']} members, "
                     f"{r['force_rows']:,} force rows, {'designed' if r['designed'] else 'not designed'}")
             console.print(report.shown(r["run"]), highlight=False, soft_wrap=True)
             console.print(f"  {what}", highlight=False)
@@ -719,9 +721,9 @@ def cmd_runs(args, store) -> int:
     for r in rows:
         if r["damaged"]:
             t.add_row(report.shown(r["run"]), "", "", "", "", "[bold red]DAMAGED[/bold red]",
-                      *([report.shown(r["damaged"]) + " (`shearpost verify`)"] if wide else []))
+                      *([damaged(r)] if wide else []))
             continue
-        t.add_row(report.shown(r["run"]), r["created"][:16].replace("T", " "), r["unit_system"], str(r["members"]),
+        t.add_row(report.shown(r["run"]), created(r), r["unit_system"], str(r["members"]),
                   f"{r['force_rows']:,}", "yes" if r["designed"] else "no",
                   *([report.shown(", ".join(Path(v["path"]).name for v in r["inputs"].values()))] if wide else []))
     console.print(t)

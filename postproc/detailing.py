@@ -461,7 +461,7 @@ def layout_positions_batch(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray
             elif w != kernels.BY_PYTHON:
                 empty = [(float(hole[m, 0]), float(hole[m, 1]))] if np.isfinite(hole[m, 0]) else []
                 out[m] = (x[starts[m]:starts[m + 1]], empty, ZONES_MET if w == kernels.ZONES_MET else "")
-        by_python = np.array([m for m in todo if m not in out], np.int64)
+        by_python = todo[bad[todo] | (what[todo] == kernels.BY_PYTHON)]
     for m in by_python:
         sl = slice(offsets[m], offsets[m + 1])
         out[m] = layout_positions(u[sl], s_env[sl], float(clear_span[m]), bool(free_i[m]), bool(free_j[m]),
