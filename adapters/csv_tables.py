@@ -439,6 +439,7 @@ class Tally:
 
     filled: dict = field(default_factory=dict)  # our column -> cells filled
     examples: dict = field(default_factory=dict)  # member/case -> [(as written, as read)]
+    past_end: dict = field(default_factory=dict)  # member -> farthest its stations lie past its length (span unit)
 
     def normalised(self, column: str, changed: list[tuple[str, str]]) -> None:
         if changed:
@@ -454,6 +455,19 @@ class Tally:
             out.append(f"{path}: {len(pairs)} {col} id(s) normalised (Unicode NFC, zero-width characters "
                        f"removed): {shown}{more}")
         return out
+
+    def past_end_notice(self, path: Path, tolerance: float, units: UnitSystem) -> list[str]:
+        """One line for the members whose last stations lie past their length by no more than
+        the station tolerance (``tolerance``, the run's internal length): lengths and stations
+        rounded differently, read as given."""
+        if not self.past_end:
+            return []
+        names = sorted(self.past_end)
+        worst = max(self.past_end.values()) * units.per_span
+        shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
+        return [f"{path}: stations of {len(names)} member(s) lie up to {worst:.2g} {units.length} past the member's "
+                f"length, within the station tolerance ({tolerance:g} {units.length}; rounding of the lengths or "
+                f"of the stations): read where they are, the design covers the clear span: {shown}"]
 
 
 def normalise_text(arr: pa.Array) -> tuple[pa.Array, list[tuple[str, str]]]:
@@ -1026,7 +1040,8 @@ class ForcesReader:
         """What reading changed (after ``batches``): cells filled, ids normalised. How the
         file is written (a detected dialect) is in ``spec.dialect.notes``. The columns not used
         come first."""
-        return [*self.spec.unread_notes(), *self.tally.notices(self.path, self.spec.fill, self.spec.table)]
+        return [*self.spec.unread_notes(), *self.tally.notices(self.path, self.spec.fill, self.spec.table),
+                *self.tally.past_end_notice(self.path, self.tolerance_mm, self.units)]
 
     def _stream(self, only: list[str] | None = None):
         return stream_blocks(self.spec, self.BLOCK, only)
@@ -1054,7 +1069,12 @@ class ForcesReader:
             _check_plausible(t, probs, PLAUSIBLE_FORCES, self.units)
             if self.lengths_m is not None:
                 L = _lookup(t.column("member"), self.lengths_m)
-                beyond = x > L * (1 + 1e-9) + 1e-6
+                past = x - L * (1 + 1e-9) - 1e-6
+                beyond = past > self.tolerance_mm / self.units.per_span  # a hair past: rounding (one station)
+                if (hair := (past > 0) & ~beyond).any():
+                    members = np.asarray(t.column("member").to_pylist(), dtype=object)
+                    for m, over in zip(members[hair], (x - L)[hair]):
+                        self.tally.past_end[m] = max(over, self.tally.past_end.get(m, 0.0))
                 span = self.units.span
                 probs.add(beyond, "x_m", [f"station {x[r]:g} {span} lies beyond the member length {L[r]:g} {span}"
                                           for r in np.flatnonzero(beyond)[:MAX_REPORTED]])

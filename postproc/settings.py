@@ -10,7 +10,8 @@
     steps_per_d = 8                 # ... and at most d/8 apart
     point_load_kN = 1.0             # a jump in V larger than this and than
     point_load_fraction = 0.02      # this fraction of the member's largest |V| is a concentrated load
-    tolerance_mm = 1.0              # rows of one member and case closer than this are one station
+    tolerance_mm = 1.0              # rows of one member and case closer than this are one station;
+                                    # a station this far past the member's length is rounding
     steep_slope_kN_per_m = 2000.0   # a steeper change of V between rows is warned about (a spread load?)
 
     [detailing]

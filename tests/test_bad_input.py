@@ -152,3 +152,37 @@ def test_existing_run_name_is_refused(tmp_path, capsys):
     assert cli.main(argv) == cli.EXIT_USAGE
     assert "already exists" in capsys.readouterr().err
     assert tree_snapshot(tmp_path / "store") == snap
+
+
+def _last_station_at(x_last: float):
+    """B1's last row (x = 6 m, its length) moved to ``x_last``."""
+    def edit(df):
+        last = df.index[(df.member == "B1") & (df.x_m == 6.0)]
+        df.loc[last, "x_m"] = x_last
+        return df
+    return edit
+
+
+def test_station_a_hair_past_the_length_is_read_with_a_notice(tmp_path, capsys):
+    """A last station 0.9 mm past the member's length, within the station tolerance (1 mm,
+    [stations] tolerance_mm: rows closer than it are one station), is rounding of the length
+    or of the station (common practice: exports round both), not a station beyond the
+    member: it is read where it is, with one notice naming the member; the stirrups are those
+    of the station at the length itself."""
+    code = run_cli(tmp_path, forces_csv=forces_text(_last_station_at(6.0009)))
+    assert code == 0
+    said = " ".join("".join(capsys.readouterr()).split())  # the warnings, wrapped to the terminal
+    assert "0.9 mm past the member's length" in said and "B1" in said
+    moved = pd.read_csv(tmp_path / "out" / "zones.csv")
+    run_cli(tmp_path / "exact")
+    exact = pd.read_csv(tmp_path / "exact" / "out" / "zones.csv")
+    pd.testing.assert_frame_equal(moved, exact)  # zones, bars, legs, spacings and counts
+
+
+def test_station_past_the_length_beyond_the_tolerance_is_an_error(tmp_path, capsys):
+    """1.1 mm past: more than the station tolerance, so the force table and the geometry
+    disagree; refused, naming the line and the column."""
+    assert run_cli(tmp_path, forces_csv=forces_text(_last_station_at(6.0011))) == cli.EXIT_INPUT
+    err = capsys.readouterr().err
+    assert "line 6, column 'x_m'" in err and "beyond the member length" in err
+    assert not (tmp_path / "store").exists()
