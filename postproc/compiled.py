@@ -648,3 +648,40 @@ def set_out(u, s_env, offsets, todo, span, free_i, free_j, fixed, first_at, clos
         if counts[m]:
             x[starts[m]:starts[m + 1]] = parts[k]
     return what, x, starts, hole
+
+
+@njit(cache=True)
+def axial_bisection(b1, piece_top, piece_bottom, piece_width, bar_u, half_db, bar_area, alpha_fc, fy, es_eps, target,
+                    hi0, steps, out):
+    """``sections._solve``'s bisection without phi, for sections without a circle: per
+    section, ``steps`` halvings of [0, hi0] (mid = 0.5 (lo + hi); lo = mid where the axial
+    force at mid is below the target, else hi = mid), c = 0.5 (lo + hi) into ``out``. The
+    axial force is ``sections._Oriented.actions``' own, operation by operation: the block
+    (a = beta1 c; each piece's width x its overlap, summed as numpy sums a row) times
+    alpha f'c, plus each layer's As (fs - alpha f'c x displaced), summed the same way
+    (``alpha_fc`` = 0.85 f'c, ``fy`` already times the steel factor, ``es_eps`` = Es eps_cu)."""
+    n, k, m = len(target), piece_top.shape[1], bar_u.shape[1]
+    wo, bf = np.empty(k), np.empty(m)
+    for i in range(n):
+        lo, hi = 0.0, hi0[i]
+        for _ in range(steps):
+            mid = 0.5 * (lo + hi)
+            a = b1[i] * mid
+            for j in range(k):
+                top = piece_bottom[i, j]
+                o = (top if top < a else a) - piece_top[i, j]  # np.minimum (a NaN depth kept)
+                wo[j] = piece_width[i, j] * (0.0 if o < 0.0 else o)  # np.clip(o, 0, None)
+            axial = alpha_fc[i] * _pairwise_sum(wo, 0, k)
+            for j in range(m):
+                u, hd = bar_u[i, j], half_db[i, j]
+                fs = es_eps * (mid - u) / mid
+                fs = -fy[i] if fs < -fy[i] else (fy[i] if fs > fy[i] else fs)
+                dsp = (a - (u - hd)) / (2.0 * hd)
+                dsp = 0.0 if dsp < 0.0 else (1.0 if dsp > 1.0 else dsp)
+                bf[j] = bar_area[i, j] * (fs - alpha_fc[i] * dsp)
+            axial = axial + _pairwise_sum(bf, 0, m)
+            if axial < target[i]:
+                lo = mid
+            else:
+                hi = mid
+        out[i] = 0.5 * (lo + hi)

@@ -77,6 +77,8 @@ def warm() -> None:
     combine_at(f, v, np.zeros(1, np.int64), np.zeros(1, np.int64))
     one = np.ones(1)
     tie_bisection(one, one, 1.0, one, np.zeros(1, bool), one, [(one,) * 7] * 2, 0.75, 1.0, 1)
+    square = np.ones((1, 1))
+    axial_bisection(one, square * 0, square, square, square, square, square, one, one, 1.0, one, one, 1)
     from postproc.settings import Detailing
 
     no = np.zeros(1, bool)
@@ -139,6 +141,18 @@ def combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, stati
     _load(required=True).combine_at(np.ascontiguousarray(factors, dtype=np.float64), cols,
                                     np.ascontiguousarray(values, dtype=np.float64), np.asarray(which, np.int64),
                                     np.asarray(station, np.int64), out)
+    return out
+
+
+def axial_bisection(b1, piece_top, piece_bottom, piece_width, bar_u, half_db, bar_area, alpha_fc, fy,
+                    es_eps: float, target, hi, steps: int) -> np.ndarray:
+    """``sections._solve``'s neutral-axis depth without phi, compiled (sections without a
+    circle): the same halvings of [0, hi], the same axial force at each."""
+    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
+    out = np.empty(len(target))
+    _load(required=True).axial_bisection(f64(b1), f64(piece_top), f64(piece_bottom), f64(piece_width), f64(bar_u),
+                                         f64(half_db), f64(bar_area), f64(alpha_fc), f64(fy), float(es_eps),
+                                         f64(target), f64(hi), int(steps), out)
     return out
 
 

@@ -24,6 +24,7 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from postproc import kernels
 from postproc.codes.aci318_19 import SI, Edition
 
 ALPHA1 = 0.85  # 22.2.2.4.1: stress 0.85 f'c over the equivalent block
@@ -338,11 +339,17 @@ def _solve(sec: Sections, target, sign, steel_factor, with_phi):
     lo, hi = np.zeros(n), _C_MAX_OVER_H * sec.h
     p_lo, p_hi = axial(1e-9 * sec.h)[0], axial(hi)[0]
     reachable = (target >= p_lo) & (target <= p_hi)
-    for _ in range(_BISECTION_STEPS):
-        mid = 0.5 * (lo + hi)
-        below = axial(mid)[0] < target
-        lo, hi = np.where(below, mid, lo), np.where(below, hi, mid)
-    c = 0.5 * (lo + hi)
+    if not with_phi and not oriented.has_circle \
+            and kernels.use_compiled(n * _BISECTION_STEPS * (sec.piece_top.shape[1] + sec.bar_area.shape[1])):
+        c = kernels.axial_bisection(beta1(sec.fc, sec.u), oriented.piece_top, oriented.piece_bottom, sec.piece_width,
+                                    oriented.bar_u, oriented.half_db, sec.bar_area, ALPHA1 * sec.fc,
+                                    sec.fy * steel_factor, sec.u.es * EPS_CU, target, hi, _BISECTION_STEPS)
+    else:
+        for _ in range(_BISECTION_STEPS):
+            mid = 0.5 * (lo + hi)
+            below = axial(mid)[0] < target
+            lo, hi = np.where(below, mid, lo), np.where(below, hi, mid)
+        c = 0.5 * (lo + hi)
     _, moment, eps_t, phi = axial(c)
     return c, phi * moment, eps_t, phi, reachable
 

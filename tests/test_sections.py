@@ -249,6 +249,54 @@ def test_batch_results_do_not_depend_on_order():
     assert forward == pytest.approx(backward[::-1], rel=1e-12)
 
 
+def _random_sections(rng, kind: str, n: int, u=None) -> s.Sections:
+    fc, fy = rng.uniform(20, 80, n), rng.uniform(280, 550, n)
+    b, h = rng.uniform(200, 1200, n), rng.uniform(200, 1500, n)
+    if kind == "column":
+        return s.rectangular_column_sections(b, h, rng.integers(2, 12, n) * 2 + 4, rng.choice([16.0, 20, 25, 32], n),
+                                             rng.uniform(40, 80, n), fc, fy)
+    if kind == "t-beam":
+        return s.beam_sections(b, h, h - rng.uniform(40, 90, n), rng.uniform(0, 6000, n), rng.uniform(300, 6000, n), fc,
+                               fy, d_prime=rng.uniform(40, 90, n), bf=b + rng.uniform(0, 1500, n),
+                               hf=rng.uniform(80, 200, n), db_top=20.0, db_bot=25.0)
+    m = int(rng.integers(2, 12))
+    z = np.sort(rng.uniform(0, 1, (n, m)), axis=1) * (h[:, None] - 80) + 40
+    area = rng.uniform(0, 2000, (n, m))
+    area[rng.random((n, m)) < 0.2] = 0.0  # padding layers
+    return s.layered_sections(b, h, area, z, rng.choice([12.0, 20, 32], (n, m)), fc, fy)
+
+
+@pytest.mark.parametrize("kind", ["column", "t-beam", "layers"])
+def test_compiled_neutral_axis_search_is_the_numpy_search(monkeypatch, kind):
+    """The neutral-axis bisection compiled (postproc.compiled.axial_bisection, for Mn and Mpr of
+    sections without a circle) gives the numpy search's bits: moment, c and eps_t of every
+    (section, P) pair, both faces in compression, P from past pure tension to past the squash
+    load, NaN and infinite loads included. The numpy search is the one checked against
+    concreteproperties above."""
+    from postproc import kernels
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    rng = np.random.default_rng({"column": 1, "t-beam": 2, "layers": 3}[kind])
+    calls = []
+    search = kernels.axial_bisection
+    monkeypatch.setattr(kernels, "axial_bisection", lambda *a: (calls.append(1), search(*a))[1])
+    for _ in range(12):
+        n = int(rng.integers(1, 400))
+        sec = _random_sections(rng, kind, n)
+        P = rng.uniform(-0.4, 1.2, n) * s.squash_load(sec, s.MPR_STEEL_FACTOR)
+        P[rng.random(n) < 0.1] = 0.0
+        P[rng.random(n) < 0.03] = rng.choice([np.nan, np.inf, -np.inf], 1)
+        got = {}
+        for how in ("numpy", "compiled"):
+            monkeypatch.setenv(kernels.ENV, how)
+            got[how] = [getattr(r, f).tobytes() for sign in (1, -1)
+                        for r in (s.probable_moment(sec, P, sign), s.nominal_moment(sec, P, sign))
+                        for f in ("moment", "c", "eps_t")]
+        assert got["compiled"] == got["numpy"]
+    assert len(calls) == 12 * 4  # every Mpr and Mn of the compiled runs went through the kernel
+
+
 def test_odd_bar_count_of_a_rectangular_column_is_refused():
     with pytest.raises(ValueError, match="even number of bars"):
         s.rectangular_column_sections(400.0, 400.0, 7, 25.0, 60.0, 30.0, 420.0)
