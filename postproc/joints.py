@@ -112,9 +112,11 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
 
     rows = []
     length = m[col("length_m")].to_numpy(float) * span
+    t = _Columns(m, U)
+    is_special = special.to_numpy()
     for k in np.unique(joint_of[joint_of >= 0]):
         here = np.flatnonzero(joint_of == k)
-        if not special.iloc[ends[here, 0]].any():
+        if not is_special[ends[here, 0]].any():
             continue
         away = far[here, :2] - pts[here, :2]
         away = away / np.maximum(np.hypot(away[:, 0], away[:, 1]), 1e-12)[:, None]
@@ -122,8 +124,8 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
         storey = (length[c] + length[c_above]) / 2 if c_above >= 0 else length[c]
         for axis in _axes(away):
             along = np.abs(away[:, 0] * axis[1] - away[:, 1] * axis[0]) <= PARALLEL_SIN
-            if special.to_numpy()[ends[here, 0]][along].any():  # a direction with beams of the special frame
-                rows.append(_joint_row(m, fb, special, ends[here], away, axis, c, c_above, storey, U))
+            if is_special[ends[here, 0]][along].any():  # a direction with beams of the special frame
+                rows.append(_joint_row(t, fb, is_special, ends[here], away, axis, c, c_above, storey, U))
     table = pd.DataFrame(rows, columns=COLUMNS)
     for r in table[table.status != "ok"].itertuples():
         warnings.append(f"joint {r.joint} ({r.direction}): {r.message}")
@@ -151,19 +153,31 @@ def _axes(away: np.ndarray) -> list[np.ndarray]:
     return axes
 
 
-def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, storey, U: units.UnitSystem) -> dict:
-    u, col, mm = fb.u, U.col, U.length
+class _Columns:
+    """The members table's columns a joint row reads, taken out of the table once (a column
+    read from a DataFrame per joint was most of the joints' time)."""
+
+    def __init__(self, m: pd.DataFrame, U: units.UnitSystem):
+        col = U.col
+        self.b, self.h = m[col("b_mm")].to_numpy(float), m[col("h_mm")].to_numpy(float)
+        self.fy, self.fc = m[col("fy_mpa")].to_numpy(float), m[col("fc_mpa")].to_numpy(float)
+        self.lam = m["lambda"].to_numpy(float) if "lambda" in m else None
+        self.member = list(m["member"])  # the table's own values, as .iat gives them
+        self.level = list(m["level"]) if "level" in m else None
+
+
+def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, axis, c, c_above, storey,
+               U: units.UnitSystem) -> dict:
+    u, mm = fb.u, U.length
     along = np.abs(away[:, 0] * axis[1] - away[:, 1] * axis[0]) <= PARALLEL_SIN
     side = np.sign(away @ axis)
     beams, end = ends[:, 0], ends[:, 1]
-    bw = m[col("b_mm")].to_numpy(float)
-    h = m[col("h_mm")].to_numpy(float)
-    fy = m[col("fy_mpa")].to_numpy(float)
+    bw, h, fy = t.b, t.h, t.fy
     top = np.where(end == 0, fb.as_top_i[beams], fb.as_top_j[beams])
     bot = np.where(end == 0, fb.as_bot_i[beams], fb.as_bot_j[beams])
     mpr_neg = np.where(end == 0, fb.mpr_neg_i[beams], fb.mpr_neg_j[beams])
     mpr_pos = np.where(end == 0, fb.mpr_pos_i[beams], fb.mpr_pos_j[beams])
-    frame_beam = along & special.to_numpy()[beams]
+    frame_beam = along & special[beams]
 
     def side_values(sgn):
         pick = np.flatnonzero(frame_beam & (side == sgn))
@@ -181,8 +195,8 @@ def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, stor
     both_sides = (along & (side > 0)).any() and (along & (side < 0)).any()  # 15.2.7: a beam beyond the joint
     across = ~along & (np.abs(away @ axis) <= PARALLEL_SIN)  # perpendicular beams
     perp = np.array([-axis[1], axis[0]])
-    col_b, col_h, fc = float(m[col("b_mm")].iat[c]), float(m[col("h_mm")].iat[c]), float(m[col("fc_mpa")].iat[c])
-    lam = float(m["lambda"].iat[c]) if "lambda" in m and np.isfinite(m["lambda"].iat[c]) else 1.0
+    col_b, col_h, fc = float(t.b[c]), float(t.h[c]), float(t.fc[c])
+    lam = float(t.lam[c]) if t.lam is not None and np.isfinite(t.lam[c]) else 1.0
     bw_min = float(bw[beams[frame_beam]].min())
     best = None
     for depth, width in ((col_h, col_b), (col_b, col_h)):  # the orientation is not known: the lesser
@@ -206,12 +220,12 @@ def _joint_row(m, fb: fr.FrameBeams, special, ends, away, axis, c, c_above, stor
         msgs.append(f"18.8.2.3: the column side along the beam bars, at least {min(col_b, col_h):g} {mm}, must be at "
                     f"least 20 db of the largest beam bar (here db_long {np.nanmax(db):g} {mm}, the smallest given) and "
                     "half the beam depth")
-    names = [m["member"].iat[b] for b in beams[along]]
-    level = m["level"].iat[beams[frame_beam][0]] if "level" in m else ""
-    return dict(joint=f"{m['member'].iat[c]}:top", members=" ".join(map(str, names)), vu_kN=round(vu / U.per_force, 2),
+    names = [t.member[b] for b in beams[along]]
+    level = t.level[beams[frame_beam][0]] if t.level is not None else ""
+    return dict(joint=f"{t.member[c]}:top", members=" ".join(map(str, names)), vu_kN=round(vu / U.per_force, 2),
                 phi_vn_kN=round(phi_vn / U.per_force, 2), utilization=round(util, 3),
                 status="ok" if not msgs else "resize", message="; ".join(msgs), direction=_direction(axis), level=level,
-                column_below=m["member"].iat[c], column_above=m["member"].iat[c_above] if c_above >= 0 else "",
+                column_below=t.member[c], column_above=t.member[c_above] if c_above >= 0 else "",
                 coefficient=coef, aj_mm2=round(aj, 0 if U.name == "si" else 1))
 
 
