@@ -704,15 +704,18 @@ def _kind_of_zone(frame: str, spiral: bool, lo: float, clear: float, zone: detai
     return "tie"
 
 
-def _vc_equation(c: demand.Cases, sec_c: demand.GatheredSection, with_min: np.ndarray, zero: np.ndarray) -> np.ndarray:
-    a = aci.vc_with_min_stirrups(sec_c.fc, sec_c.bw_v, sec_c.d_v, c.nu, sec_c.Ag, sec_c.lam, u=sec_c.u)
-    cap = aci.vc_cap(sec_c.fc, sec_c.bw_v, sec_c.d_v, sec_c.lam, u=sec_c.u)
-    vc = np.where(with_min, c.vc_v_hi, c.vc_v_lo)
-    out = np.where(with_min, np.where(np.isclose(c.vc_v_hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
+def _vc_equation(c: demand.Cases, sec_c: demand.GatheredSection, with_min: np.ndarray, zero: np.ndarray,
+                 at: np.ndarray) -> np.ndarray:
+    """The equation of Table 22.5.5.1 that gave Vc, of the cases ``at`` alone (the governing ones)."""
+    sec, with_min, hi = sec_c.take(at), with_min[at], c.vc_v_hi[at]
+    a = aci.vc_with_min_stirrups(sec.fc, sec.bw_v, sec.d_v, c.nu[at], sec.Ag, sec.lam, u=sec.u)
+    cap = aci.vc_cap(sec.fc, sec.bw_v, sec.d_v, sec.lam, u=sec.u)
+    vc = np.where(with_min, hi, c.vc_v_lo[at])
+    out = np.where(with_min, np.where(np.isclose(hi, a, rtol=1e-9, atol=1e-6), "22.5.5.1(a)", "22.5.5.1(b)"),
                    "22.5.5.1(c)").astype(object)
     out = np.where(np.isclose(vc, cap, rtol=1e-9) & (vc > 0), "22.5.5.1.1 cap", out)
     out = np.where(vc <= 0, "Vc = 0 (axial tension)", out)
-    return np.where(zero, "Vc = 0 (18.7.6.2.1)", out)
+    return np.where(zero[at], "Vc = 0 (18.7.6.2.1)", out)
 
 
 CAPACITY_NAMES = {("special", demand.CAPACITY_V): "Ve from Mpr, V (18.7.6.1.1)",
@@ -743,7 +746,8 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
     name_station, name_member = names[:S], names[S:]
     zero_v = np.where(cases.kind == demand.CAPACITY_VB, False, fr.zero_v[cases.station])
     with_min = np.where(on_c, g.has_min_v, True)
-    eq = _vc_equation(cases, sec_c, with_min, zero_v & (cases.vc_v_hi == 0))
+    eq = _vc_equation(cases, sec_c, with_min, zero_v & (cases.vc_v_hi == 0), np.concatenate([gov_station, gov_member]))
+    eq_station, eq_member = eq[:S], eq[S:]
     vc_v_used = np.where(with_min, cases.vc_v_hi, cases.vc_v_lo)
     vc_vb_used = np.where(np.where(on_c, g.has_min_vb, True), cases.vc_vb_hi, cases.vc_vb_lo)
     lim_v = aci.section_limit(cases.vc_v_hi, sec_c.fc, sec_c.bw_v, sec_c.d_v, u)
@@ -785,7 +789,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
             phi_vn_limit_kN=kn(lim_v[j]), utilization=round(float(util[j]), 3),
             x_governing_mm=round(float(rs.x_clear[cases.station[j]]), nd), vu_kN=kn(cases.vu_v[j]),
             vb_kN=kn(cases.vu_vb[j]), nu_kN=kn(cases.nu[j]), tu_kNm=round(cases.tu[j] / U.per_moment, 3),
-            vc_equation=eq[j], al_torsion_mm2=round(float(al_member[m]), area_nd) if al_member[m] > 0 else None,
+            vc_equation=eq_member[m], al_torsion_mm2=round(float(al_member[m]), area_nd) if al_member[m] > 0 else None,
             utilization_v=round(float(util_v_m[m]), 3), utilization_vb=round(float(util_vb_m[m]), 3),
             phi_vc_vb_kN=kn(aci.PHI_SHEAR * vc_vb_used[j]), phi_vn_limit_vb_kN=kn(lim_vb[j]),
             ve_v_kN=kn(fr.ve_v[m]) if np.isfinite(fr.ve_v[m]) else None,
@@ -838,7 +842,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
                               spacing_mm=round(zone.spacing, nd) if np.isfinite(zone.spacing) else None,
                               count=zone.count, kind=kind, legs_vb=lvb if zone.count else 0))
     trace = _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, gov_station, name_station, vmax_v, vmax_vb,
-                   vc_v_used, vc_vb_used, lim_v, lim_vb, eq, u_v, u_vb, util, settings)
+                   vc_v_used, vc_vb_used, lim_v, lim_vb, eq_station, u_v, u_vb, util, settings)
     mine = designed[sp.member]
     pos = (pd.DataFrame({"member": mb.names[sp.member[mine]], "x_mm": sp.x[mine]}) if designed.any()
            else pd.DataFrame(columns=["member", "x_mm"]))
@@ -856,7 +860,7 @@ def _case_names(mb, cases: demand.Cases, cand, cset, rs, which: np.ndarray) -> n
 
 
 def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax_v, vmax_vb, vc_v_used, vc_vb_used,
-           lim_v, lim_vb, eq, u_v, u_vb, util, settings) -> pa.Table:
+           lim_v, lim_vb, eq_station, u_v, u_vb, util, settings) -> pa.Table:
     grid = rs.grid
     S = len(grid.x)
     U = unit_system(settings)
@@ -894,7 +898,7 @@ def _trace(mb, rs, cases, sec_c, opts, lay, prov, cap, fr, g, name_station, vmax
         "phi_vn_kN": np.where(on, cap.strength.phi_vn_v[largest_v], nan) / U.per_force,
         "phi_vn_limit_kN": lim_v[largest_v] / U.per_force,
         "avmin_threshold_kN": 0.5 * aci.PHI_SHEAR * cases.vc_v_lo[largest_v] / U.per_force,  # 10.6.2.1
-        "vc_equation": pa.array(list(eq[g]), pa.string()),
+        "vc_equation": pa.array(list(eq_station), pa.string()),
         "av_s_req": np.where(on, legs_v * area * t_case[g], nan), "at_s_req": at_case[g],
         "av_s_env": np.where(on, legs_v * area * t_env, nan), "at_s_env": at_env,
         "av_min_s": amin_v, "avmin_required": demand.segment_any(cases.minimum_v, cases.bounds),
