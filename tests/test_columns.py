@@ -390,6 +390,7 @@ def _tie_cases(rng, n):
     cannot carry the shear: t = inf)."""
     from types import SimpleNamespace
 
+    from postproc.codes import aci318_19 as aci
     from postproc.codes.aci318_19 import SI
 
     u = lambda lo, hi: rng.uniform(lo, hi, n)
@@ -400,6 +401,10 @@ def _tie_cases(rng, n):
                         vc_vb_lo=vc_vb_hi * u(0.3, 1.0))
     s = SimpleNamespace(fc=u(20.0, 60.0), bw_v=u(200.0, 900.0), d_v=u(150.0, 850.0), bw_vb=u(200.0, 900.0),
                         d_vb=u(150.0, 850.0), fyt=u(280.0, 420.0), u=SI)
+    for k in ("v", "vb"):  # what a ColumnSection derives per member: 22.5.1.2 and 10.6.2.2
+        bw, d = getattr(s, f"bw_{k}"), getattr(s, f"d_{k}")
+        setattr(s, f"vs_max_{k}", aci.vs_max(s.fc, bw, d, u=SI))
+        setattr(s, f"av_min_{k}", aci.column_av_min_over_s(s.fc, bw, s.fyt, u=SI))
     tie = {"Aoh": u(3e4, 6e5), "legs_v": rng.integers(2, 6, n).astype(float),
            "legs_vb": rng.integers(2, 6, n).astype(float)}
     return c, s, tie

@@ -18,6 +18,7 @@ actually provided. Any NaN fails.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, fields
 
 import numpy as np
@@ -78,6 +79,26 @@ class ColumnSection:
     @property
     def ast(self) -> np.ndarray:
         return self.n_long * self.bar_area
+
+    # terms of each member that the demand reads at every case (a GatheredSection gathers them
+    # as computed once per member: elementwise, so the same numbers as computed per case)
+    @functools.cached_property
+    def vs_max_v(self) -> np.ndarray:
+        """0.66 | 8 sqrt(f'c) bw d of the V direction (22.5.1.2)."""
+        return aci.vs_max(self.fc, self.bw_v, self.d_v, u=self.u)
+
+    @functools.cached_property
+    def vs_max_vb(self) -> np.ndarray:
+        return aci.vs_max(self.fc, self.bw_vb, self.d_vb, u=self.u)
+
+    @functools.cached_property
+    def av_min_v(self) -> np.ndarray:
+        """Av,min/s of the V direction (10.6.2.2)."""
+        return aci.column_av_min_over_s(self.fc, self.bw_v, self.fyt, u=self.u)
+
+    @functools.cached_property
+    def av_min_vb(self) -> np.ndarray:
+        return aci.column_av_min_over_s(self.fc, self.bw_vb, self.fyt, u=self.u)
 
 
 class GatheredSection:
@@ -320,7 +341,7 @@ class _ShearTerms:
         at = np.where(c.torsion, c.ata / tie["Aoh"], 0.0)
         return cls(at, c.torsion, s.fyt, tuple(
             (tie[f"legs_{k}"], amin, getattr(c, f"vc_{k}_hi"), getattr(c, f"vc_{k}_lo"), getattr(s, f"d_{k}"),
-             aci.vs_max(s.fc, getattr(s, f"bw_{k}"), getattr(s, f"d_{k}"), u=s.u), getattr(c, f"vu_{k}"))
+             getattr(s, f"vs_max_{k}"), getattr(c, f"vu_{k}"))
             for k, amin in (("v", av_min_v), ("vb", av_min_vb))))
 
     def strength(self, area: float, t: np.ndarray, rule: str) -> Strength:
@@ -349,7 +370,7 @@ class _ShearTerms:
 
 def av_min(s: ColumnSection) -> tuple[np.ndarray, np.ndarray]:
     """Av,min/s of each direction (10.6.2.2; with torsion the same value bounds (Av + 2At)/s, 9.6.4.2)."""
-    return aci.column_av_min_over_s(s.fc, s.bw_v, s.fyt, u=s.u), aci.column_av_min_over_s(s.fc, s.bw_vb, s.fyt, u=s.u)
+    return s.av_min_v, s.av_min_vb
 
 
 def required_t(c: Cases, s: ColumnSection, tie: dict[str, np.ndarray], area: float, rule: str) -> np.ndarray:
