@@ -685,3 +685,61 @@ def axial_bisection(b1, piece_top, piece_bottom, piece_width, bar_u, half_db, ba
             else:
                 hi = mid
         out[i] = 0.5 * (lo + hi)
+
+
+@njit(cache=True, inline="always")
+def _np_max(a, b):
+    """np.maximum of two floats: a NaN kept, b where they are equal (numpy's choice between -0 and +0)."""
+    return a if (a > b or a != a) else b
+
+
+@njit(cache=True, inline="always")
+def _np_min(a, b):
+    """np.minimum of two floats, as ``_np_max``."""
+    return a if (a < b or a != a) else b
+
+
+@njit(cache=True, inline="always")
+def _inf_for_nan(x):
+    """np.nan_to_num(x, nan=inf, posinf=inf): -inf becomes the most negative float."""
+    if x != x or x == np.inf:
+        return np.inf
+    return -1.7976931348623157e308 if x == -np.inf else x
+
+
+@njit(cache=True, error_model="numpy")
+def lateral_check(at, spacing, vb, nu, ratio_v, lb_area, amin_tol, coef, ag, fc, bw, dd, cap, fyt, vs_max, threshold,
+                  half_d, phi, tol, ratio, both, reason):
+    """``demand.lateral.check`` with the code's interaction (22.5.1.10, 22.5.1.11), candidate by
+    candidate (member ``at[i]``), the same float operations in the same order: Av/s of the
+    horizontal legs, Av,min, Vc of Table 22.5.5.1(a) clipped to 22.5.5.1.1's cap, Vs under its
+    22.5.1.2 limit, Vb / phi Vn and over the section limit, the interaction with Vu / phi Vn,
+    and the first reason that applies (9.6.3.1, 9.7.6.2.2). Per-member terms come computed:
+    ``lb_area`` legs x bar area, ``amin_tol`` Av,min/s x (1 - tol), ``coef`` the coefficient of
+    (a), ``cap`` of 22.5.5.1.1, ``vs_max``, ``threshold`` of 9.6.3.1, ``half_d`` d/2 x (1 + tol)."""
+    for i in range(len(at)):
+        m = at[i]
+        sp = spacing[i]
+        av_s = lb_area[m] / sp if np.isfinite(sp) else 0.0
+        has_min = av_s >= amin_tol[m]
+        x = (coef[m] + _np_min(nu[i] / (6.0 * ag[m]), 0.05 * fc[m])) * bw[m] * dd[m]
+        vc_a = _np_min(_np_max(x, 0.0), cap[m])  # np.clip(x, 0, cap) with cap an array: these two in turn
+        vc = vc_a if has_min else 0.0
+        vs = _np_min(av_s * fyt[m] * dd[m], vs_max[m])
+        v = vb[i]
+        r = v / (phi * (vc + vs)) if v > 0 else 0.0
+        limit = v / (phi * (vc_a + vs_max[m]))
+        rr = _inf_for_nan(_np_max(r, limit))
+        rx, ry = abs(_inf_for_nan(ratio_v[i])), abs(rr)
+        larger = _np_max(rx, ry)
+        u = _np_max(larger, (rx + ry) / 1.5) if (rx > 0.5 and ry > 0.5) else larger
+        ratio[i], both[i] = rr, u
+        need_min = v > threshold[m]
+        if u > 1 + tol:
+            reason[i] = 1
+        elif need_min and not has_min:
+            reason[i] = 2
+        elif need_min and sp > half_d[m]:
+            reason[i] = 3
+        else:
+            reason[i] = 0

@@ -77,6 +77,8 @@ def warm() -> None:
     combine_at(f, v, np.zeros(1, np.int64), np.zeros(1, np.int64))
     one = np.ones(1)
     tie_bisection(one, one, 1.0, one, np.zeros(1, bool), one, [(one,) * 7] * 2, 0.75, 1.0, 1)
+    zero = np.zeros(1, np.int64)
+    lateral_check(zero, one, one, one, one, dict.fromkeys(LATERAL_TERMS, one), 0.75, 1e-9)
     square = np.ones((1, 1))
     axial_bisection(one, square * 0, square, square, square, square, square, one, one, 1.0, one, one, 1)
     from postproc.settings import Detailing
@@ -154,6 +156,23 @@ def axial_bisection(b1, piece_top, piece_bottom, piece_width, bar_u, half_db, ba
                                          f64(half_db), f64(bar_area), f64(alpha_fc), f64(fy), float(es_eps),
                                          f64(target), f64(hi), int(steps), out)
     return out
+
+
+LATERAL_TERMS = ("lb_area", "amin_tol", "coef", "ag", "fc", "bw", "dd", "cap", "fyt", "vs_max", "threshold", "half_d")
+
+
+def lateral_check(at, spacing, vb, nu, ratio_v, member_terms: dict[str, np.ndarray], phi: float, tol: float):
+    """``demand.lateral.check`` with the code's interaction, compiled: (ratio, interaction,
+    reason) per candidate; ``member_terms`` the per-member arrays ``compiled.lateral_check`` names."""
+    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
+    n = len(at)
+    ratio, both, reason = np.empty(n), np.empty(n), np.empty(n, np.int64)
+    t = {k: f64(v) for k, v in member_terms.items()}
+    _load(required=True).lateral_check(
+        np.ascontiguousarray(at, np.int64), f64(spacing), f64(vb), f64(nu), f64(ratio_v), t["lb_area"], t["amin_tol"],
+        t["coef"], t["ag"], t["fc"], t["bw"], t["dd"], t["cap"], t["fyt"], t["vs_max"], t["threshold"], t["half_d"],
+        float(phi), float(tol), ratio, both, reason)
+    return ratio, both, reason
 
 
 def tie_bisection(lo: np.ndarray, hi: np.ndarray, area: float, at: np.ndarray, torsion: np.ndarray,

@@ -384,6 +384,49 @@ def test_vb_check_with_sections_once_per_member_is_the_check_per_candidate():
     assert set(np.unique(once.reason)) == {0, 1, 2, 3}
 
 
+def test_compiled_vb_check_is_the_numpy_check(monkeypatch):
+    """lateral.check compiled (postproc.compiled.lateral_check: the code's interaction, sections
+    once per member) returns the numpy check's bits: ratio, interaction, fails and reason of
+    every candidate, on random beams reaching every reason, and on inputs poisoned with NaN,
+    +-inf, +-0 and negatives in every term (numpy's NaN and signed-zero rules of np.maximum,
+    np.minimum, np.clip and np.nan_to_num must come out the same). The numpy check is the one
+    checked by hand above (Vb / phi Vn of 22.5.1.10 / 22.5.1.11)."""
+    from postproc import kernels
+    from postproc.demand import lateral
+
+    if not kernels.available():
+        pytest.skip("numba is not installed (pip install 'shearpost[compiled]')")
+    calls = []
+    check = kernels.lateral_check
+    monkeypatch.setattr(kernels, "lateral_check", lambda *a: (calls.append(1), check(*a))[1])
+    for seed in range(4):
+        rng = np.random.default_rng(40 + seed)
+        n, k = 300, 60000
+        sec = dict(b=rng.uniform(200.0, 600.0, n), h=rng.uniform(300.0, 900.0, n), fc=rng.uniform(20.0, 80.0, n),
+                   fyt=rng.uniform(280.0, 420.0, n), lam=rng.choice([1.0, 0.75], n))
+        sec["d"] = sec["h"] - rng.uniform(40.0, 90.0, n)
+        sec["Ag"] = sec["b"] * sec["h"]
+        legs_b, bar_area = rng.choice([1.0, 2.0, 4.0], n), rng.choice([71.0, 129.0, 199.0], n)
+        at = np.sort(rng.integers(0, n, k))
+        vb, nu = rng.uniform(0.0, 4e5, k) * rng.choice([0.0, 0.1, 1.0], k), rng.uniform(-5e5, 2e6, k)
+        ratio_v, spacing = rng.uniform(0.0, 1.2, k), rng.choice([75.0, 100.0, 150.0, 200.0, 300.0, np.inf], k)
+        if seed:  # poisoned: every per-member and per-candidate term
+            for arr in [*sec.values(), legs_b, bar_area, vb, nu, ratio_v, spacing]:
+                hit = rng.random(len(arr)) < 0.02
+                arr[hit] = rng.choice([np.nan, np.inf, -np.inf, 0.0, -0.0, -1.0], hit.sum())
+        got = {}
+        for how in ("numpy", "compiled"):
+            monkeypatch.setenv(kernels.ENV, how)
+            with np.errstate(all="ignore"):
+                r = lateral.check(*(sec[f] for f in ("b", "h", "d", "fc", "fyt", "lam", "Ag")), vb, nu, ratio_v, legs_b,
+                                  bar_area, spacing, "code", at=at)
+            got[how] = [getattr(r, f).tobytes() for f in ("ratio", "interaction", "fails", "reason")]
+            if not seed and how == "numpy":
+                assert set(np.unique(r.reason)) == {0, 1, 2, 3}
+        assert got["compiled"] == got["numpy"], seed
+    assert len(calls) == 4
+
+
 def _tie_cases(rng, n):
     """Random demand cases of columns for required_t: shear in one, both or neither direction,
     torsion in some, Vc (c) below (a)/(b), and sections from small to large (some of whose ties

@@ -209,10 +209,19 @@ def vc_with_min_stirrups(fc, bw, d, Nu, Ag, lam=1.0, rho_w=None, u: Edition = SI
     ``at``: as in ``per_section``.
     """
     root_fc = sqrt_fc(fc, u)
+    return _vc_with_axial(vc_coefficient_with_min_stirrups(fc, lam, rho_w, u, root_fc), Nu, root_fc, fc, bw, d, Ag,
+                          lam, u, at)
+
+
+def vc_coefficient_with_min_stirrups(fc, lam=1.0, rho_w=None, u: Edition = SI, root_fc=None):
+    """The coefficient of bw d before the axial term, Table 22.5.5.1 (a) and (b): 0.17 | 2 lambda
+    sqrt(f'c), or the larger 0.66 | 8 lambda rho_w^(1/3) sqrt(f'c) where rho_w is known (both add
+    the same axial term, so the larger coefficient gives the larger Vc)."""
+    root_fc = sqrt_fc(fc, u) if root_fc is None else root_fc
     coef = u.vc_a * lam * root_fc
-    if rho_w is not None:  # both add the same axial term, so the larger coefficient gives the larger Vc
+    if rho_w is not None:
         coef = np.where(np.isfinite(rho_w), np.maximum(coef, u.vc_b * lam * np.cbrt(rho_w) * root_fc), coef)
-    return _vc_with_axial(coef, Nu, root_fc, fc, bw, d, Ag, lam, u, at)
+    return coef
 
 
 def vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_w, lam=1.0, u: Edition = SI, at=None):

@@ -16,10 +16,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from postproc import kernels
 from postproc.codes import aci318_19 as aci
 from postproc.codes.aci318_19 import SI, Edition
 
 PHI = aci.PHI_SHEAR
+CELLS_PER_CANDIDATE = 8  # the work of one candidate of ``check``, counted as kernels.use_compiled counts it
 
 
 @dataclass(frozen=True)
@@ -51,6 +53,15 @@ def check(b, h, d, fc, fyt, lam, Ag, vb, nu, ratio_v, legs_b, bar_area, spacing,
     ``bar_area`` then given once per member (aci318_19.per_section); None: every array per candidate."""
     g = aci.per_section(at)
     bw, dd = h, b - (h - d)
+    if rule == "code" and at is not None and kernels.use_compiled(len(vb) * CELLS_PER_CANDIDATE):
+        terms = dict(lb_area=legs_b * bar_area, amin_tol=aci.av_min_over_s(fc, bw, fyt, u) * (1 - tol),
+                     coef=aci.vc_coefficient_with_min_stirrups(fc, lam, None, u), ag=Ag, fc=fc, bw=bw, dd=dd,
+                     cap=aci.vc_cap(fc, bw, dd, lam, u), fyt=fyt, vs_max=aci.vs_max(fc, bw, dd, u),
+                     threshold=aci.av_min_threshold(fc, bw, dd, lam, u), half_d=dd / 2 * (1 + tol))
+        n = len(h)
+        terms = {k: np.broadcast_to(v, n) for k, v in terms.items()}  # a scalar (lambda) for every member
+        r, both, reason = kernels.lateral_check(at, spacing, vb, nu, ratio_v, terms, PHI, tol)
+        return Lateral(r, both, reason > 0, reason)
     with np.errstate(divide="ignore", invalid="ignore"):
         av_s = np.where(np.isfinite(spacing), g(legs_b * bar_area) / spacing, 0.0)
     has_min = av_s >= g(aci.av_min_over_s(fc, bw, fyt, u) * (1 - tol))
