@@ -743,3 +743,28 @@ def lateral_check(at, spacing, vb, nu, ratio_v, lb_area, amin_tol, coef, ag, fc,
             reason[i] = 3
         else:
             reason[i] = 0
+
+
+@njit(cache=True, error_model="numpy")
+def beam_pair_demand(at, vu, nu, torsion, zero, coef_hi, coef_lo, ag, fc, b, d, cap, threshold, exempt, fyt, av_min,
+                     vs_max, phi, vc_hi, vc_lo, minimum, av, ratio):
+    """``demand.beams.pair_demand`` past torsion, candidate by candidate (member ``at[i]``), the
+    same float operations in the same order: Vc of Table 22.5.5.1 (a)/(b) and (c) with the axial
+    term of 22.5.5.1.2 under the cap of 22.5.5.1.1 (zero where ``zero``: 18.6.5.2), whether
+    Av,min applies (9.6.3.1, Table 9.6.3.1, 9.6.4.1), Av/s for strength (22.5.8.5.3) and Vu over
+    the section limit (22.5.1.2). Per-member terms come computed (the coefficients of bw d,
+    ``threshold`` inf where Table 9.6.3.1 exempts the beam)."""
+    for i in range(len(at)):
+        m = at[i]
+        axial = _np_min(nu[i] / (6.0 * ag[m]), 0.05 * fc[m])
+        hi = _np_min(_np_max((coef_hi[m] + axial) * b[m] * d[m], 0.0), cap[m])
+        lo = _np_min(_np_max((coef_lo[m] + axial) * b[m] * d[m], 0.0), cap[m])
+        if zero[i]:
+            hi, lo = 0.0, 0.0
+        v = vu[i]
+        need = v > threshold[m] or (exempt[m] and v > phi * lo) or torsion[i]
+        q_hi = _np_max(v / phi - hi, 0.0) / (fyt[m] * d[m])
+        q_lo = _np_max(v / phi - lo, 0.0) / (fyt[m] * d[m])
+        vc_hi[i], vc_lo[i], minimum[i] = hi, lo, need
+        av[i] = q_hi if need else _np_min(q_lo, _np_max(q_hi, av_min[m]))
+        ratio[i] = v / (phi * (hi + vs_max[m]))

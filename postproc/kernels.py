@@ -79,6 +79,9 @@ def warm() -> None:
     tie_bisection(one, one, 1.0, one, np.zeros(1, bool), one, [(one,) * 7] * 2, 0.75, 1.0, 1)
     zero = np.zeros(1, np.int64)
     lateral_check(zero, one, one, one, one, dict.fromkeys(LATERAL_TERMS, one), 0.75, 1e-9)
+    no_one = np.zeros(1, bool)
+    beam_pair_demand(zero, one, one, no_one, no_one, {k: no_one if k == "exempt" else one for k in BEAM_DEMAND_TERMS},
+                     0.75)
     square = np.ones((1, 1))
     axial_bisection(one, square * 0, square, square, square, square, square, one, one, 1.0, one, one, 1)
     from postproc.settings import Detailing
@@ -155,6 +158,22 @@ def axial_bisection(b1, piece_top, piece_bottom, piece_width, bar_u, half_db, ba
     _load(required=True).axial_bisection(f64(b1), f64(piece_top), f64(piece_bottom), f64(piece_width), f64(bar_u),
                                          f64(half_db), f64(bar_area), f64(alpha_fc), f64(fy), float(es_eps),
                                          f64(target), f64(hi), int(steps), out)
+    return out
+
+
+BEAM_DEMAND_TERMS = ("coef_hi", "coef_lo", "ag", "fc", "b", "d", "cap", "threshold", "exempt", "fyt", "av_min", "vs_max")
+
+
+def beam_pair_demand(at, vu, nu, torsion, zero, member_terms: dict[str, np.ndarray], phi: float):
+    """``demand.beams.pair_demand`` past torsion, compiled: (Vc (a)/(b), Vc (c), Av,min applies,
+    Av/s, Vu over the section limit) per candidate; ``member_terms`` as BEAM_DEMAND_TERMS names them."""
+    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
+    n = len(at)
+    out = np.empty(n), np.empty(n), np.empty(n, np.bool_), np.empty(n), np.empty(n)
+    t = {k: np.ascontiguousarray(v, np.bool_) if k == "exempt" else f64(v) for k, v in member_terms.items()}
+    _load(required=True).beam_pair_demand(
+        np.ascontiguousarray(at, np.int64), f64(vu), f64(nu), np.ascontiguousarray(torsion, np.bool_),
+        np.ascontiguousarray(zero, np.bool_), *(t[k] for k in BEAM_DEMAND_TERMS), float(phi), *out)
     return out
 
 

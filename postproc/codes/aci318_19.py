@@ -231,8 +231,15 @@ def vc_without_min_stirrups(fc, bw, d, Nu, Ag, rho_w, lam=1.0, u: Edition = SI, 
     ``at``: as in ``per_section``.
     """
     root_fc = sqrt_fc(fc, u)
-    coef = u.vc_b * size_effect_factor(d, u) * lam * np.cbrt(rho_w) * root_fc
-    return _vc_with_axial(coef, Nu, root_fc, fc, bw, d, Ag, lam, u, at)
+    return _vc_with_axial(vc_coefficient_without_min_stirrups(fc, d, rho_w, lam, u, root_fc), Nu, root_fc, fc, bw, d,
+                          Ag, lam, u, at)
+
+
+def vc_coefficient_without_min_stirrups(fc, d, rho_w, lam=1.0, u: Edition = SI, root_fc=None):
+    """The coefficient of bw d before the axial term, Table 22.5.5.1 (c): 0.66 | 8 lambda_s lambda
+    rho_w^(1/3) sqrt(f'c), lambda_s of 22.5.5.1.3."""
+    root_fc = sqrt_fc(fc, u) if root_fc is None else root_fc
+    return u.vc_b * size_effect_factor(d, u) * lam * np.cbrt(rho_w) * root_fc
 
 
 def vs_max(fc, bw, d, u: Edition = SI):

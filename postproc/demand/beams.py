@@ -15,9 +15,13 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from postproc import kernels
 from postproc.codes import aci318_19 as aci
 from postproc.codes.aci318_19 import SI, Edition
 from postproc.combos import Candidates
+
+
+CELLS_PER_CANDIDATE = 8  # the work of one candidate of ``pair_demand``, counted as kernels.use_compiled counts it
 
 
 @dataclass(frozen=True)
@@ -152,19 +156,31 @@ def pair_demand(sec: Section, cand: Candidates, vc_zero: np.ndarray | None = Non
     nu = -cand.values["N"]  # ACI sign: compression positive
     tu = np.abs(cand.values["T"])
     phi = aci.PHI_SHEAR
-    vc_hi = aci.vc_with_min_stirrups(w.fc, w.b, w.d, nu, w.Ag, w.lam, w.rho_w, u, at=at)
-    rho_c = np.where(np.isfinite(w.rho_w), w.rho_w, w.rho_w_min)
-    vc_lo = aci.vc_without_min_stirrups(w.fc, w.b, w.d, nu, w.Ag, rho_c, w.lam, u, at=at)
-    if vc_zero is not None:
-        vc_hi, vc_lo = np.where(vc_zero[cand.station], 0.0, vc_hi), np.where(vc_zero[cand.station], 0.0, vc_lo)
-    minimum = vu > np.where(w.avmin_exempt, np.inf, aci.av_min_threshold(w.fc, w.b, w.d, w.lam, u))[at]
-    minimum |= s.avmin_exempt & (vu > phi * vc_lo)  # Table 9.6.3.1 beams: only where Vu > phi Vc
     torsion = np.zeros(len(vu), bool)
     ata = np.zeros(len(vu))
     if np.any(tu > 0):
         torsion = (tu > 0) & (tu >= phi * aci.torsion_threshold(w.fc, w.Acp, w.pcp, nu, w.Ag, w.lam, u, at=at))
         ata = np.where(torsion, aci.at_over_s(tu, 1.0, s.fyt), 0.0)
-        minimum |= torsion  # 9.6.4.1
+    rho_c = np.where(np.isfinite(w.rho_w), w.rho_w, w.rho_w_min)
+    threshold = np.where(w.avmin_exempt, np.inf, aci.av_min_threshold(w.fc, w.b, w.d, w.lam, u))
+    if at is not None and kernels.use_compiled(len(vu) * CELLS_PER_CANDIDATE):
+        n = len(w.b)
+        terms = {k: np.broadcast_to(v, n) for k, v in dict(  # a scalar (lambda) for every member
+            coef_hi=aci.vc_coefficient_with_min_stirrups(w.fc, w.lam, w.rho_w, u),
+            coef_lo=aci.vc_coefficient_without_min_stirrups(w.fc, w.d, rho_c, w.lam, u), ag=w.Ag, fc=w.fc, b=w.b,
+            d=w.d, cap=aci.vc_cap(w.fc, w.b, w.d, w.lam, u), threshold=threshold, exempt=w.avmin_exempt, fyt=w.fyt,
+            av_min=aci.av_min_over_s(w.fc, w.b, w.fyt, u), vs_max=aci.vs_max(w.fc, w.b, w.d, u)).items()}
+        zero = vc_zero[cand.station] if vc_zero is not None else np.zeros(len(vu), bool)
+        vc_hi, vc_lo, minimum, av, ratio = kernels.beam_pair_demand(at, vu, nu, torsion, zero, terms, phi)
+        return PairDemand(vu=vu, nu=nu, tu=tu, vc_hi=vc_hi, vc_lo=vc_lo, av=av, ata=ata, torsion=torsion,
+                          minimum=minimum, shear_ratio=ratio)
+    vc_hi = aci.vc_with_min_stirrups(w.fc, w.b, w.d, nu, w.Ag, w.lam, w.rho_w, u, at=at)
+    vc_lo = aci.vc_without_min_stirrups(w.fc, w.b, w.d, nu, w.Ag, rho_c, w.lam, u, at=at)
+    if vc_zero is not None:
+        vc_hi, vc_lo = np.where(vc_zero[cand.station], 0.0, vc_hi), np.where(vc_zero[cand.station], 0.0, vc_lo)
+    minimum = vu > threshold[at]
+    minimum |= s.avmin_exempt & (vu > phi * vc_lo)  # Table 9.6.3.1 beams: only where Vu > phi Vc
+    minimum |= torsion  # 9.6.4.1
     # strength: Av/s = (Vu/phi - Vc)/(fyt d); where the minimum is not required, the smaller
     # of the steel with Vc by (c) and with Vc by (a)/(b) topped up to Av,min suffices
     q_hi = aci.av_over_s_for_vs(vu / phi - vc_hi, s.fyt, s.d)
