@@ -591,11 +591,19 @@ FACE_SHARE = 0.25  # a beam's node-to-face distance above this share of its leng
 NEAR_MISS = 0.85  # difflib's ratio above which a header name is taken for a misspelling of one of ours
 # our optional columns whose absence could make a design unconservative: a header name that looks like one of
 # them is refused; one that looks like another column of ours is named in a warning
-UNSAFE_ABSENT = frozenset({"T_kNm", "Vb_kN", "N_kN", "lambda", "load_face", "kind", "frame", "fy_mpa"})
+UNSAFE_ABSENT = frozenset({"T_kNm", "Vb_kN", "N_kN", "lambda", "load_face", "kind", "frame", "fy_mpa",
+                           "face_i_mm", "face_j_mm"})  # a face at the node lengthens ln: a lower Ve (18.6.5.1)
 UNIT_WORDS = frozenset({"m", "cm", "mm", "in", "ft", "n", "kn", "mn", "lb", "lbf", "kip", "kips", "nm", "nmm", "knm",
                         "knmm", "kncm", "kipft", "kipin", "lbft", "lbin", "mpa", "kpa", "pa", "psi", "ksi", "mm2", "cm2",
                         "m2", "in2", "ft2", "kg", "t"})
 AXIS_MARKS = frozenset("xyz0123456789")  # My_kNm, V2_kN: another axis (u: Tu, Vu are factored values)
+# what exports call the forces whose absence could be unconservative (common practice: local x along the
+# member makes Mx or Tx a torsion and Fx or Nx the axial force; 2/3 and y/z the two shear directions)
+QUANTITY_NAMES = {"T_kNm": frozenset({"t", "tu", "torsion", "torque", "torsional_moment", "mt", "tx", "mx", "m1", "t1"}),
+                  "N_kN": frozenset({"n", "nu", "p", "pu", "axial", "axial_force", "normal_force", "fx", "nx", "f1",
+                                     "n1"}),
+                  "Vb_kN": frozenset({"vb", "vy", "vz", "v2", "v3", "fy", "fz", "f2", "f3", "shear_y", "shear_z",
+                                      "shear_2", "shear_3"})}
 
 
 def _looks_like(header_name: str, spelling: str) -> str | None:
@@ -617,6 +625,21 @@ def _looks_like(header_name: str, spelling: str) -> str | None:
     return "spelling" if match.ratio() >= NEAR_MISS and not axis_added else None
 
 
+QUANTITY_WORDS = {"T_kNm": "the torsion", "N_kN": "the axial force", "Vb_kN": "the shear parallel to b"}
+
+
+def _quantity_named(header_name: str, missing: set[str]) -> tuple[str, str] | None:
+    """(our column, what it is) where a header names, by a word exports use (QUANTITY_NAMES),
+    a force whose column is missing and whose absence could be unconservative; else None.
+    The words are compared without case, brackets, spaces and unit words (``Torsion [kNm]``)."""
+    words = [w for w in re.split(r"[^a-z0-9]+", header_name.lower()) if w and w not in UNIT_WORDS]
+    stem = "_".join(words)
+    for ours, names in QUANTITY_NAMES.items():
+        if ours in missing and stem in names:
+            return ours, QUANTITY_WORDS[ours]
+    return None
+
+
 def _unread(path: Path, named: list[str], cols: tuple[Col, ...], table: TableMap,
             present: set[str]) -> tuple[tuple[str, ...], dict[str, str]]:
     """The header's columns that are not read, and for those that look like a column of ours the
@@ -627,7 +650,14 @@ def _unread(path: Path, named: list[str], cols: tuple[Col, ...], table: TableMap
               for sp in unit_names.spellings(c.name)]
     unread = tuple(h for h in named if h not in read)
     hints = {}
+    missing = {ours for _, ours in absent}
     for h in unread:
+        named_as = _quantity_named(h, missing)
+        if named_as is not None:
+            raise InputError(path, f"is not a column shearpost reads, and its name is what exports call "
+                                   f"{named_as[1]} ('{table.source_name(named_as[0])}'), which this table does not give: "
+                                   f"read as absent, {named_as[1]} would be taken as zero. Rename or map it (--map) if it "
+                                   "is that quantity, else remove the column", 1, h)
         found = next(((how, meant, ours) for meant, ours in absent if (how := _looks_like(h, meant))), None)
         if found is None:
             continue

@@ -186,3 +186,35 @@ def test_station_past_the_length_beyond_the_tolerance_is_an_error(tmp_path, caps
     err = capsys.readouterr().err
     assert "line 6, column 'x_m'" in err and "beyond the member length" in err
     assert not (tmp_path / "store").exists()
+
+
+@pytest.mark.parametrize("ours,header", [("T_kNm", "Torsion"), ("T_kNm", "Mx_kNm"), ("T_kNm", "Torsion [kNm]"),
+                                         ("N_kN", "P"), ("N_kN", "Axial_kN"), ("N_kN", "Fx_kN"),
+                                         ("Vb_kN", "Vy_kN"), ("Vb_kN", "V3_kN")])
+def test_a_force_under_an_export_name_is_refused_not_taken_as_zero(tmp_path, capsys, ours, header):
+    """Torsion, axial force and the other shear under the names exports give them (common
+    practice: local x along the member, 2/3 or y/z the shear directions), where the table
+    does not give our column: read as absent, the quantity would count as zero (less steel);
+    refused on line 1 naming the header and the column meant."""
+    text = forces_text(lambda df: df.assign(**{header: 10.0}))
+    assert run_cli(tmp_path, forces_csv=text) == cli.EXIT_INPUT
+    err = " ".join(capsys.readouterr().err.split())
+    assert f"line 1, column '{header}'" in err and f"('{ours}')" in err
+    assert not (tmp_path / "store").exists()
+
+
+def test_an_export_name_beside_our_column_is_only_not_read(tmp_path, capsys):
+    """The same names where the table gives our column too: another quantity, named among the
+    warnings as not used (the design reads T_kNm)."""
+    text = forces_text(lambda df: df.assign(T_kNm=0.0, Torsion=10.0))
+    assert run_cli(tmp_path, forces_csv=text) == 0
+    assert "Torsion" in " ".join("".join(capsys.readouterr()).split())
+
+
+def test_a_misspelt_face_offset_is_refused(tmp_path, capsys):
+    """face_i for face_i_mm: a face at the node lengthens the clear span and lowers a frame
+    beam's Ve (18.6.5.1): refused, naming the column meant."""
+    text = members_text(lambda df: df.drop(columns="face_i_mm").assign(face_i=300.0))
+    assert run_cli(tmp_path, members_csv=text) == cli.EXIT_INPUT
+    err = " ".join(capsys.readouterr().err.split())
+    assert "column 'face_i'" in err and "face_i_mm" in err
