@@ -652,14 +652,13 @@ def _unread(path: Path, named: list[str], cols: tuple[Col, ...], table: TableMap
     hints = {}
     missing = {ours for _, ours in absent}
     for h in unread:
-        named_as = _quantity_named(h, missing)
-        if named_as is not None:
-            raise InputError(path, f"is not a column shearpost reads, and its name is what exports call "
-                                   f"{named_as[1]} ('{table.source_name(named_as[0])}'), which this table does not give: "
-                                   f"read as absent, {named_as[1]} would be taken as zero. Rename or map it (--map) if it "
-                                   "is that quantity, else remove the column", 1, h)
         found = next(((how, meant, ours) for meant, ours in absent if (how := _looks_like(h, meant))), None)
         if found is None:
+            if (named_as := _quantity_named(h, missing)) is not None:
+                raise InputError(path, f"is not a column shearpost reads, and its name is what exports call "
+                                       f"{named_as[1]} (column '{table.source_name(named_as[0])}'), which this table "
+                                       f"does not give: read as absent, {named_as[1]} would be taken as zero. Rename or "
+                                       "map it (--map) if it is that quantity, else remove the column", 1, h)
             continue
         how, meant, ours = found
         hint = (f"did you mean column '{meant}'? Names are exact" if how != "unit" else

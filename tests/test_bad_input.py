@@ -199,7 +199,7 @@ def test_a_force_under_an_export_name_is_refused_not_taken_as_zero(tmp_path, cap
     text = forces_text(lambda df: df.assign(**{header: 10.0}))
     assert run_cli(tmp_path, forces_csv=text) == cli.EXIT_INPUT
     err = " ".join(capsys.readouterr().err.split())
-    assert f"line 1, column '{header}'" in err and f"('{ours}')" in err
+    assert f"line 1, column '{header}'" in err and f"column '{ours}'" in err
     assert not (tmp_path / "store").exists()
 
 
