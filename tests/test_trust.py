@@ -109,11 +109,31 @@ def test_a_table_given_twice_with_other_values_is_not_taken_silently(run_design)
     assert "member B1: two rows at every station" in _manifest_warnings(res)
 
 
-def test_forces_that_stop_short_of_the_length_are_said_in_the_members_message(run_design):
-    res = run_design([member("B1", 6.0, "column", "column")], rows("B1", "U1", [(0.0, 100.0), (2.0, 50.0), (4.0, 0.0)]),
+def test_forces_that_stop_short_of_the_clear_span_are_not_designed(run_design):
+    """Rows of a member that end at 4 m of its 6 m: past them the shear is not known (holding the
+    last value would put the midspan shear at the support). Not designed: invalid, saying so, no
+    zones; the run needs action (exit 12)."""
+    res = run_design([member("B1", 6.0, "column", "column"), member("B2", 6.0, "column", "column")],
+                     rows("B1", "U1", [(0.0, 100.0), (2.0, 50.0), (4.0, 0.0)])
+                     + rows("B2", "U1", [(0.0, 100.0), (3.0, 0.0), (6.0, -100.0)]), extra=["--no-report"])
+    m = res.members.set_index("member")
+    assert res.code == 12
+    assert m.status["B1"] == "invalid" and m.status["B2"] == "designed"
+    assert "forces cover only part of the clear span x = 0.000 to 6.000 m (case(s) U1: x = 0.000 to 4.000 m)" \
+        in m.message["B1"]
+    assert set(res.zones.member) == {"B2"}
+
+
+def test_one_case_that_stops_short_is_enough_to_leave_the_member_undesigned(run_design):
+    """Case L of B1 given over half the member, D over all of it: the L shear near end j would
+    be the midspan value held, less than the real one. Not designed, naming the case."""
+    d = rows("B1", "D", [(0.0, 60.0), (3.0, 0.0), (6.0, -60.0)])
+    live = rows("B1", "L", [(0.0, 40.0), (3.0, 0.0)])
+    res = run_design([member("B1", 6.0, "column", "column")], d + live, cases=[dict(case="D", type="D"), dict(case="L", type="L")],
                      extra=["--no-report"])
     m = res.members.set_index("member")
-    assert "forces cover x = 0.000 to 4.000 m only, of a length of 6.000 m" in m.message["B1"]
+    assert m.status["B1"] == "invalid" and "case(s) L: x = 0.000 to 3.000 m" in m.message["B1"]
+    assert "D" not in m.message["B1"].split("(")[1].split(":")[0]
 
 
 def test_a_face_offset_beyond_a_quarter_of_a_beams_length_is_warned_about(run_design):

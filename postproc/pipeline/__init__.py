@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pac
 
 from postproc import combos as combos_mod
 from postproc import stations, units
@@ -98,6 +99,7 @@ class Resampled:
     warnings: list[str]
     at_station: dict[str, np.ndarray] | None = None  # (n_cases, S) at each station itself (no 9.4.3.2 rule)
     notes: dict[int, list[str]] = field(default_factory=dict)  # per member: what its message must say of its forces
+    partial: set[int] = field(default_factory=set)  # members whose forces do not cover the clear span (invalid)
 
 
 def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, settings: Settings) -> Resampled:
@@ -129,15 +131,22 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     for m in np.unique(dm):
         note(m, f"two rows at every station in case(s) {', '.join(cset.cases[c] for c in dc[dm == m])} (a table "
                 "given twice, e.g. two exports joined?): read as a concentrated load at each station; check the forces")
-    first_row = np.searchsorted(samples.member, np.arange(n))
-    x_lo = np.minimum.reduceat(samples.x, first_row)
-    x_hi = np.maximum.reduceat(samples.x, first_row)
+    short = {}  # members whose rows of some case stop short of the clear span: not designed
+    first = np.flatnonzero(np.r_[True, (samples.member[1:] != samples.member[:-1]) | (samples.case[1:] != samples.case[:-1])])
+    sm, sc = samples.member[first], samples.case[first]  # each member's cases in turn (Samples are sorted so)
+    x_lo, x_hi = np.minimum.reduceat(samples.x, first), np.maximum.reduceat(samples.x, first)
     slack = settings.stations.coverage_slack  # rounding of exported stations
-    short = (x_lo > g.start + slack) | (x_hi < g.end - slack)
-    for m in np.flatnonzero(short):
-        note(m, f"forces cover x = {x_lo[m] / U.per_span:.3f} to {x_hi[m] / U.per_span:.3f} {U.span} only, of a "
-                f"length of {g.length[m] / U.per_span:.3f} {U.span}; the end values are held over the rest of the "
-                "clear span")
+    partial = (x_lo > g.start[sm] + slack) | (x_hi < g.end[sm] - slack)
+    at = lambda x: f"{x / U.per_span:.3f}"  # noqa: E731
+    for m in np.unique(sm[partial]):
+        spans: dict[str, list[str]] = {}  # the cases of each range of rows
+        for j in np.flatnonzero(partial & (sm == m)):
+            spans.setdefault(f"x = {at(x_lo[j])} to {at(x_hi[j])} {U.span}", []).append(cset.cases[sc[j]])
+        cases = "; ".join(f"case(s) {', '.join(c)}: {rng}" for rng, c in spans.items())
+        short[int(m)] = (f"the forces cover only part of the clear span x = {at(g.start[m])} to {at(g.end[m])} {U.span} "
+                         f"({cases}): not designed, the values past the last row would be guesses; give rows over the "
+                         "whole member")
+        note(m, short[int(m)])
     sm, sc, sx, sdv = stations.steep_slopes(samples, settings.stations, n)
     for m in np.unique(sm):
         k = np.flatnonzero(sm == m)
@@ -148,7 +157,8 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
                         + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
                         + ": a concentrated load spread by the export? It is designed as a steep linear change; "
                           "give the two rows one station to make it a concentrated load")
-    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station, notes)
+    return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station, notes,
+                     set(short))
 
 
 def governing(values: np.ndarray, tie: np.ndarray | None, bounds: np.ndarray) -> np.ndarray:
@@ -182,7 +192,23 @@ def design_batch(family, bi: BatchInput, cset: combos_mod.ComboSet, settings: Se
     mb = family.geometry(bi.members, settings)
     rs = resample(mb, bi, cset, settings)
     cand = combos_mod.candidates(cset, rs.case_values, signed=family.signed)
-    return with_notes(family.design(mb, rs, cand, cset, settings), {mb.names[m]: t for m, t in rs.notes.items()})
+    out = with_notes(family.design(mb, rs, cand, cset, settings), {mb.names[m]: t for m, t in rs.notes.items()})
+    return without_partial(out, {mb.names[m]: "; ".join(rs.notes[m]) for m in rs.partial})
+
+
+def without_partial(out: BatchOutput, partial: dict[str, str]) -> BatchOutput:
+    """Members whose forces cover only part of the clear span (``partial``: member -> its
+    message) reported ``invalid``, their zones, stirrups, station trace and tables left out:
+    what their design would give past the last row of a case is not known."""
+    if not partial:
+        return out
+    gone = pa.array(list(partial), pa.string())
+    keep = lambda df: df[~df["member"].isin(list(partial))] if "member" in df else df  # noqa: E731
+    return BatchOutput(
+        rows=[row(r["member"], "invalid", partial[r["member"]]) if r["member"] in partial else r for r in out.rows],
+        zones=[z for z in out.zones if z["member"] not in partial],
+        trace=out.trace.filter(pac.invert(pac.is_in(out.trace["member"], value_set=gone))),
+        warnings=out.warnings, stirrups=keep(out.stirrups), tables={k: keep(v) for k, v in out.tables.items()})
 
 
 def with_notes(out: BatchOutput, notes: dict[str, list[str]]) -> BatchOutput:
