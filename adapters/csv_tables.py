@@ -440,6 +440,7 @@ class Tally:
     filled: dict = field(default_factory=dict)  # our column -> cells filled
     examples: dict = field(default_factory=dict)  # member/case -> [(as written, as read)]
     past_end: dict = field(default_factory=dict)  # member -> farthest its stations lie past its length (span unit)
+    swapped: list = field(default_factory=list)  # (data row, data row, member, case, x): a jump's rows that look swapped
 
     def normalised(self, column: str, changed: list[tuple[str, str]]) -> None:
         if changed:
@@ -455,6 +456,20 @@ class Tally:
             out.append(f"{path}: {len(pairs)} {col} id(s) normalised (Unicode NFC, zero-width characters "
                        f"removed): {shown}{more}")
         return out
+
+    def swapped_notice(self, spec: CsvSpec, units: UnitSystem) -> list[str]:
+        """One line for the jumps whose two rows look swapped (``swapped_jumps``), the first few
+        named by their lines."""
+        if not self.swapped:
+            return []
+        found = sorted(self.swapped)
+        shown = found[:5]
+        lines = record_lines(spec, max(max(a, b) for a, b, *_ in shown))
+        named = "; ".join(f"lines {lines[a]} and {lines[b]} (member {m}, case {c}, x = {x:.3f} {units.span})"
+                          for a, b, m, c, x in shown) + (f"; and {len(found) - 5} more" if len(found) > 5 else "")
+        return [f"{spec.path}: the two rows of a jump look swapped at {len(found)} station(s): the first continues the "
+                "shear on the right of the station and the second the shear on its left (a table sorted or shuffled "
+                "after the export?). They are read in the file's order, left then right; check them: " + named]
 
     def past_end_notice(self, path: Path, tolerance: float, units: UnitSystem) -> list[str]:
         """One line for the members whose last stations lie past their length by no more than
@@ -1070,7 +1085,8 @@ class ForcesReader:
         file is written (a detected dialect) is in ``spec.dialect.notes``. The columns not used
         come first."""
         return [*self.spec.unread_notes(), *self.tally.notices(self.path, self.spec.fill, self.spec.table),
-                *self.tally.past_end_notice(self.path, self.tolerance_mm, self.units)]
+                *self.tally.past_end_notice(self.path, self.tolerance_mm, self.units),
+                *self.tally.swapped_notice(self.spec, self.units)]
 
     def _stream(self, only: list[str] | None = None):
         return stream_blocks(self.spec, self.BLOCK, only)
@@ -1125,6 +1141,7 @@ class ForcesReader:
         probs = Problems(self.spec, t.column("_row").to_numpy())
         _check_station_rows(t, probs, presorted=True, tolerance_mm=self.tolerance_mm, units=self.units)
         probs.raise_if_any()
+        self.tally.swapped.extend(swapped_jumps(t, self.tolerance_mm, self.units))
 
     def read_all(self) -> pa.Table:
         """The whole file as one validated table (for small files and tests)."""
@@ -1189,6 +1206,40 @@ def _codes(col: pa.ChunkedArray | pa.Array) -> tuple[np.ndarray, list]:
     arr = col.combine_chunks() if isinstance(col, pa.ChunkedArray) else col
     enc = pac.dictionary_encode(arr)
     return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
+
+
+def swapped_jumps(t: pa.Table, tolerance_mm: float, units: UnitSystem) -> list[tuple]:
+    """The jumps (two rows at one station) of a part sorted by member, case, station and file
+    row whose rows look swapped: V extrapolated to the station from the two stations on each
+    side (straight lines, as a distributed load gives) meets the second row on the left and the
+    first on the right far better than the other way round (the order as given misses by more
+    than half the jump, swapped by less than a tenth of that). Common practice: an export
+    writes the left value first; a table sorted by value or shuffled loses that order. Each
+    as (data row of the first, of the second, member, case, x in the span unit)."""
+    m_idx, members = _codes(t.column("member"))
+    c_idx, cases = _codes(t.column("case"))
+    x = t.column(station_column(t)).to_numpy() * units.per_span  # mm | in
+    v = t.column(units.col("V_kN")).to_numpy()
+    n = len(x)
+    if n < 6:
+        return []
+    seg = m_idx.astype(np.int64) * (len(cases) + 1) + c_idx
+    first = np.flatnonzero((seg[1:] == seg[:-1]) & (np.abs(np.diff(x)) <= tolerance_mm))  # rows i, i + 1: a jump
+    in_pair = np.zeros(n, bool)
+    in_pair[first], in_pair[first + 1] = True, True
+    i = first[(first >= 2) & (first + 3 < n)]
+    l1, l2, r1, r2 = i - 1, i - 2, i + 2, i + 3
+    plain = ~(in_pair[l1] | in_pair[l2] | in_pair[r1] | in_pair[r2])
+    ok = plain & (seg[l2] == seg[i]) & (seg[r2] == seg[i]) & (x[l1] > x[l2]) & (x[r2] > x[r1])
+    i, l1, l2, r1, r2 = i[ok], l1[ok], l2[ok], r1[ok], r2[ok]
+    left = v[l1] + (v[l1] - v[l2]) * (x[i] - x[l1]) / (x[l1] - x[l2])
+    right = v[r1] + (v[r1] - v[r2]) * (x[i] - x[r1]) / (x[r1] - x[r2])
+    a, b = v[i], v[i + 1]
+    given, swapped = np.abs(a - left) + np.abs(b - right), np.abs(b - left) + np.abs(a - right)
+    bad = (given > 0.5 * np.abs(a - b)) & (swapped < 0.1 * given)
+    rows = t.column("_row").to_numpy()
+    return [(int(rows[k]), int(rows[k + 1]), members[m_idx[k]], cases[c_idx[k]], x[k] / units.per_span)
+            for k in i[bad]]
 
 
 def _check_station_rows(t: pa.Table, probs: Problems, presorted: bool = False, tolerance_mm: float = 0.0,

@@ -356,3 +356,31 @@ def test_random_frames_equal_the_brute_force_design(frame, tmp_path_factory):
     assert res.code in (0, 3)
     run = Store(res.store).latest()
     equal_to_reference(run, [m["member"] for m in members], Settings())
+
+
+def _girder(swap_at_3: bool, upward: bool = False):
+    """A 6 m girder: 20 kN/m and a 120 kN load at 3 m (upward: a hanger pulling up), rows every
+    metre, the two rows at 3 m left then right, or swapped. V = 120 ... statics by hand."""
+    p = -120.0 if upward else 120.0
+    r = 60.0 + p / 2  # each reaction: half the distributed load and half the point load
+    pts = [(x, r - 20.0 * x) for x in (0.0, 1.0, 2.0)] + [(3.0, r - 60.0), (3.0, r - 60.0 - p)] \
+        + [(x, r - 20.0 * x - p) for x in (4.0, 5.0, 6.0)]
+    if swap_at_3:
+        pts[3], pts[4] = pts[4], pts[3]
+    return pts
+
+
+def test_the_rows_of_a_jump_given_in_the_wrong_order_are_warned_about_by_line(run_design):
+    """The rows of a concentrated load's station in the file's order give V left, then right;
+    a file sorted by value or shuffled swaps them, and the load is read the other way (an
+    upward load, here). Said among the warnings, naming the two lines, the member, the case
+    and the station; a load given in the right order, down or up, is not."""
+    swapped = run_design([member("B1", 6.0, "column", "column"), member("B2", 6.0, "column", "column")],
+                         rows("B1", "U1", _girder(False)) + rows("B2", "U1", _girder(True)), extra=["--no-report"])
+    said = " ".join(_manifest_warnings(swapped).split())
+    assert "the two rows of a jump look swapped at 1 station(s)" in said
+    assert "lines 13 and 14 (member B2, case U1, x = 3.000 m)" in said  # B1 on lines 2 to 9
+    right = run_design([member("B1", 6.0, "column", "column"), member("B2", 6.0, "column", "column")],
+                       rows("B1", "U1", _girder(False)) + rows("B2", "U1", _girder(False, upward=True)),
+                       extra=["--no-report"])
+    assert "look swapped" not in _manifest_warnings(right)
