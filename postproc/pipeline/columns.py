@@ -754,8 +754,9 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
     lim_vb = aci.section_limit(cases.vc_vb_hi, sec_c.fc, sec_c.bw_vb, sec_c.d_vb, u)
     util_v_m = demand.segment_max(u_v, member_bounds)
     util_vb_m = demand.segment_max(u_vb, member_bounds)
-    vmax_v = demand.segment_max(cases.vu_v * (cases.kind == demand.COMBINATION), cases.bounds)
-    vmax_vb = demand.segment_max(cases.vu_vb * (cases.kind == demand.COMBINATION), cases.bounds)
+    # the design shear of each direction: the combinations' and, in frames, Ve of that direction (18.7.6.1, 18.4.3.1)
+    vmax_v = demand.segment_max(cases.vu_v * (cases.kind != demand.CAPACITY_VB), cases.bounds)
+    vmax_vb = demand.segment_max(cases.vu_vb * (cases.kind != demand.CAPACITY_V), cases.bounds)
     k_ref = np.where(lay.option >= 0, lay.option, 0)[grid.member]
     aoh = _pick([o.ties.Aoh for o in opts], k_ref, grid.member)
     ph = _pick([o.ties.ph for o in opts], k_ref, grid.member)
