@@ -8,6 +8,7 @@ from __future__ import annotations
 import functools
 import math
 import pickle
+import re
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -57,10 +58,22 @@ class Result:
     stage_seconds: dict[str, float] = field(default_factory=dict)  # seconds by stage, summed over processes (timed only)
 
 
+# names analysis programs give basic load cases (common practice): D, L, Lr, S, R, W, E, with an axis or a number
+BASIC_CASE_NAME = re.compile(r"(d|dl|dead|sdl|l|ll|live|lr|s|snow|r|rain|w|wind|e|eq|quake)([ _-]?[xyz0-9+-]*)",
+                             re.IGNORECASE)
+
+
 def combination_set(run: Run, case_names: list[str], settings: Settings) -> tuple[combos_mod.ComboSet, list[str]]:
     cases = run.cases()
     if cases is None:
-        return combos_mod.prefactored(case_names), []
+        basic = [c for c in case_names if BASIC_CASE_NAME.fullmatch(c.strip())]
+        if len({c.strip()[0].lower() for c in basic}) < 2:  # one letter alone may name anything
+            return combos_mod.prefactored(case_names), []
+        return combos_mod.prefactored(case_names), [
+            f"without cases.csv every case of forces.csv is taken as an already factored combination, but "
+            f"{len(basic)} of them are named as basic load cases ({', '.join(sorted(basic)[:8])}"
+            f"{', ...' if len(basic) > 8 else ''}): designed so, they are not factored; if they are basic cases, give "
+            "their types in cases.csv (--cases) to combine them by Table 5.3.1"]
     types = dict(zip(cases.column("case").to_pylist(), cases.column("type").to_pylist()))
     patterns = {}
     if "pattern" in cases.column_names:

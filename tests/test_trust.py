@@ -384,3 +384,17 @@ def test_the_rows_of_a_jump_given_in_the_wrong_order_are_warned_about_by_line(ru
                        rows("B1", "U1", _girder(False)) + rows("B2", "U1", _girder(False, upward=True)),
                        extra=["--no-report"])
     assert "look swapped" not in _manifest_warnings(right)
+
+
+def test_basic_load_cases_without_cases_csv_are_warned_about(run_design):
+    """Cases named D and L (what analysis programs call dead and live load) with no cases.csv
+    are designed as already factored combinations, one at a time and unfactored: warned about,
+    naming them; combinations named as combinations are not."""
+    pts = [(0.0, 100.0), (3.0, 0.0), (6.0, -100.0)]
+    basic = run_design([member("B1", 6.0, "column", "column")], rows("B1", "D", pts) + rows("B1", "L", pts),
+                       extra=["--no-report"])
+    said = " ".join(_manifest_warnings(basic).split())
+    assert "2 of them are named as basic load cases (D, L)" in said and "cases.csv (--cases)" in said
+    combos = run_design([member("B1", 6.0, "column", "column")], rows("B1", "1.4D", pts) + rows("B1", "1.2D+1.6L", pts),
+                        extra=["--no-report"])
+    assert "named as basic load cases" not in _manifest_warnings(combos)
