@@ -667,8 +667,11 @@ def cmd_compare(args, store) -> int:
             else:
                 console.print(f"{title}: none")
         U = diff.units
-        console.print(f"Stirrup {U.mass_word} {diff.mass_a_kg:,.1f} {U.mass} -> {diff.mass_b_kg:,.1f} {U.mass} "
-                      f"({diff.mass_b_kg - diff.mass_a_kg:+,.1f} {U.mass})")
+        left = diff.mass_left_out
+        console.print(f"Stirrup {U.mass_word} of the members designed in both runs: {diff.mass_a_kg:,.1f} {U.mass} -> "
+                      f"{diff.mass_b_kg:,.1f} {U.mass} ({diff.mass_b_kg - diff.mass_a_kg:+,.1f} {U.mass})"
+                      + (f"; left out, designed in one run only: {report.shown(', '.join(left[:10]))}"
+                         + (f" and {len(left) - 10} more" if len(left) > 10 else "") if left else ""))
         if diff.newly_resize:
             console.print(f"[bold]Newly need resizing:[/bold] {report.shown(', '.join(diff.newly_resize))}")
     return EXIT_RESIZE if args.fail_on_new_resize and diff.newly_resize else EXIT_OK

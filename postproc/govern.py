@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -97,11 +97,12 @@ class Comparison:
     utilization_changes: pd.DataFrame
     layout_changes: pd.DataFrame
     demand_changes: pd.DataFrame
-    mass_a_kg: float  # in kg, or lb where the comparison is in inch-pound units
+    mass_a_kg: float  # of the members designed in both runs; in kg, or lb where the comparison is in inch-pound units
     mass_b_kg: float
     newly_resize: list[str]
     units: units.UnitSystem = units.SI  # the one unit system both runs are compared in (run B's)
     note: str = ""  # how the runs were brought into one unit system, where they differ
+    mass_left_out: list[str] = field(default_factory=list)  # members designed in one run only (their steel has no pair)
 
     def as_dict(self) -> dict:
         rec = lambda df: [{k: (None if isinstance(v, float) and np.isnan(v) else v) for k, v in r.items()}
@@ -113,7 +114,7 @@ class Comparison:
                U.col("stirrup_mass_a_kg"): round(self.mass_a_kg, 1),
                U.col("stirrup_mass_b_kg"): round(self.mass_b_kg, 1),
                U.col("stirrup_mass_change_kg"): round(self.mass_b_kg - self.mass_a_kg, 1),
-               "newly_resize": self.newly_resize}
+               "stirrup_mass_left_out": self.mass_left_out, "newly_resize": self.newly_resize}
         if U.name != "si" or self.note:
             out.update(units=U.name, units_note=self.note)
         return out
@@ -178,6 +179,9 @@ def compare(a: Run, b: Run, threshold: float = 0.02, vu_threshold: float = 0.05)
     was_resize = set(ma.index[ma.status == "resize"])
     newly = sorted(m for m in mb.index[mb.status == "resize"] if m not in was_resize)
     named = lambda df: df.rename(columns=U.rename(df.columns))  # noqa: E731
+    # the totals pair the members designed in both runs: a member sent to resize has no stirrups, not fewer
+    paired = sorted(set(ma.index[ma.status == "designed"]) & set(mb.index[mb.status == "designed"]))
+    left_out = sorted((set(ma.index[ma.status == "designed"]) | set(mb.index[mb.status == "designed"])) - set(paired))
     return Comparison(a.name, b.name, added, removed, status_changes, util_changes.reset_index(drop=True),
-                      named(layout_changes), named(demand_changes), float(ma[mass].sum()), float(mb[mass].sum()),
-                      newly, U, note)
+                      named(layout_changes), named(demand_changes), float(ma.loc[paired, mass].sum()),
+                      float(mb.loc[paired, mass].sum()), newly, U, note, mass_left_out=left_out)

@@ -76,6 +76,25 @@ def test_compare_reports_exactly_the_known_changes(tmp_path, store, capsys):
     assert json.loads(capsys.readouterr().out)["removed"] == ["B4"]
 
 
+def test_compare_totals_pair_the_members_designed_in_both_runs(tmp_path, store, capsys):
+    """B4 designed in A and sent to resize in B (700 kN): it has no stirrups in B, which is not a
+    saving. The totals sum the members designed in both runs (B4 left out, and named); the
+    members' own masses give them back exactly."""
+    a = run_frame(tmp_path, store, "a")
+    b = run_frame(tmp_path, store, "b", load={"B4": 700.0})
+    diff = govern.compare(a, b)
+    assert diff.newly_resize == ["B4"] and diff.mass_left_out == ["B4"]
+    ma = govern.design_table(a, "members").set_index("member")
+    mb = govern.design_table(b, "members").set_index("member")
+    both = [m for m in ma.index if m != "B4"]
+    assert diff.mass_a_kg == pytest.approx(ma.loc[both, "stirrup_mass_kg"].sum())
+    assert diff.mass_b_kg == pytest.approx(mb.loc[both, "stirrup_mass_kg"].sum())
+    capsys.readouterr()
+    assert cli.main(["compare", "a", "b", "--store", str(store)]) == 0
+    out = " ".join(capsys.readouterr().out.split())
+    assert "of the members designed in both runs" in out and "left out, designed in one run only: B4" in out
+
+
 def test_compare_can_fail_on_a_new_resize(tmp_path, store, capsys):
     run_frame(tmp_path, store, "a")
     run_frame(tmp_path, store, "b", load={"B5": 800.0})
