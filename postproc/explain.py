@@ -391,7 +391,8 @@ def _zone_step(z, st, sec: demand.Section, m, settings: Settings, U: UnitSystem)
     eq = row.vc_equation + (", Av >= Av,min" if has_min else
                             f", Av < Av,min, lambda_s = {float(aci.size_effect_factor(d, u)):.3f}")
     vs_req = max(vu / aci.PHI_SHEAR - vc, 0.0)
-    vs_prov = min(float(aci.vs_from_av_over_s(av_s_prov, sec.fyt[0], d)), float(aci.vs_max(fc, b, d, u)))
+    vs_steel, vs_cap = float(aci.vs_from_av_over_s(av_s_prov, sec.fyt[0], d)), float(aci.vs_max(fc, b, d, u))
+    vs_prov = min(vs_steel, vs_cap)
     heavy = vs_req > u.heavy_vs * float(aci.sqrt_fc(fc, u)) * b * d
     lines = [
         f"governing station x = {row.x_mm:,.0f} {mm}, combination {row.governing_case}",
@@ -402,7 +403,9 @@ def _zone_step(z, st, sec: demand.Section, m, settings: Settings, U: UnitSystem)
         f"(22.5.8.5.3); Av,min/s = {row.av_min_s:.3f} required here by 9.6.3.1: "
         f"{'yes' if row.avmin_required else 'no'}",
         f"provided {z.bar} ({_g(area)} {U.area}) x {z.legs} legs, the stirrups around x {_g(s)} {mm} apart: "
-        f"Av/s = {av_s_prov:.3f} {U.area}/{mm}, Vs = {_fmt(vs_prov / per, kN)}",
+        f"Av/s = {av_s_prov:.3f} {U.area}/{mm}, Vs = {_fmt(vs_prov / per, kN)}"
+        + (f" (Av fyt d/s = {_fmt(vs_steel / per, kN)}, capped at {_g(u.vs_max)} sqrt(f'c) bw d, 22.5.1.2)"
+           if vs_steel > vs_cap else ""),
         f"s_max = {_g(row.s_max_mm)} {mm} (Table 9.7.6.2.2: Vs {'>' if heavy else '<='} {_g(u.heavy_vs)} sqrt(f'c) bw d"
         + (", torsion 9.7.6.3.3" if row.torsion else "") + f"); allowed here {_g(row.s_allowed_mm)} {mm}",
         f"phi*Vn = {_fmt(0.75 * (vc + vs_prov) / per, kN)} >= Vu; utilization {row.utilization:.3f}",
@@ -592,10 +595,13 @@ def _column_zone(z, st, mb, frame: str, settings: Settings, U: UnitSystem) -> St
         vc = phi_vc * U.per_force / aci.PHI_SHEAR  # the governing combination's own, as designed
         how = ("0: 18.7.6.2.1 over lo" if bool(row.vc_zero) and vc == 0 else
                "Table 22.5.5.1" + ("(a)/(b)" if has_min else "(c)") + f" with Nu = {_fmt(nu / U.per_force, kN)}")
-        vs = min(av_s * s.fyt[0] * d, float(aci.vs_max(s.fc[0], bw, d, u)))
+        vs_steel, vs_cap = av_s * s.fyt[0] * d, float(aci.vs_max(s.fc[0], bw, d, u))
+        vs = min(vs_steel, vs_cap)
+        capped = (f"Av fyt d/s = {_fmt(vs_steel / U.per_force, kN)} (22.5.8.5.3), capped at {_g(u.vs_max)} sqrt(f'c) bw d = "
+                  f"{_fmt(vs_cap / U.per_force, kN)} (22.5.1.2)" if vs_steel > vs_cap else "22.5.8.5.3")
         lines.append(f"{label}: {legs} legs x {_g(area)} {U.area} at {gap:.4g} {mm}: Av/s = {av_s:.4g} {U.area}/{mm} "
                      f"({'>=' if has_min else '<'} Av,min/s {av_min:.4g}, 10.6.2.2); Vc = {_fmt(vc / U.per_force, kN)} "
-                     f"({how}); Vs = {_fmt(vs / U.per_force, kN)} (22.5.8.5.3, bw = {bw:.4g}, d = {d:.4g} {mm}); "
+                     f"({how}); Vs = {_fmt(vs / U.per_force, kN)} ({capped}; bw = {bw:.4g}, d = {d:.4g} {mm}); "
                      f"phi Vn = {_fmt(0.75 * (vc + vs) / U.per_force, kN)}")
     s16, s48, least = 16 * s.db_long[0], 48 * db_tie, s.least[0]
     rules = [f"25.7.2.1(b): min(16 db = {s16:.4g}, 48 db tie = {s48:.4g}, least side {least:.4g}) = "

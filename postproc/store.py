@@ -357,7 +357,7 @@ class Store:
 
     def check_new_name(self, name: str) -> None:
         if not _NAME.fullmatch(name):
-            raise StoreError(f"run name '{name}' is not allowed: use letters, digits, '.', '_' and '-' "
+            raise StoreError(f"run name '{name}' is not allowed: use ASCII letters (a-z, A-Z), digits, '.', '_' and '-' "
                              "(at most 100, not starting with '.' or '-')")
         if (self.root / name).exists():
             raise StoreError(f"run '{name}' already exists in {self.root}; runs are never overwritten, "

@@ -93,3 +93,25 @@ def test_a_frame_columns_trace_draws_vc_zero_over_lo_in_both_directions(demo_des
     zero = c[c.vc_zero]
     assert len(zero) > 10 and (zero.phi_vc_kN == 0).all() and (zero.phi_vc_vb_kN == 0).all()
     assert (c[~c.vc_zero].phi_vc_vb_kN > 0).all()
+
+
+def test_a_designed_column_names_its_method_and_a_frame_columns_design_shear_is_ve(demo):
+    """The demo's columns are designed sectionally (Chapters 10 and 22): members.csv says so, as
+    for beams. A special-frame column's design shear is Ve (18.7.6.1): vu_design_* is Ve there,
+    not the smaller shear of the combinations."""
+    _, out, _ = demo
+    given = pd.read_csv(SAMPLE / "members.csv").set_index("member")
+    columns = out[given.kind.reindex(out.index) == "column"]
+    assert (columns.method == "sectional").all()
+    special = columns[given.frame.reindex(columns.index) == "special"]
+    assert len(special) and (special.vu_design_i_kN >= special.ve_v_kN - 0.01).all()
+    assert (special.vb_design_i_kN >= special.ve_vb_kN - 0.01).all()
+
+
+def test_explain_says_where_vs_is_capped_by_the_section_limit(demo_designed, capsys):
+    """P1-C-A1's hoops give Av fyt d/s above 0.66 sqrt(f'c) bw d: explain shows both and the cap
+    (22.5.1.2), not the capped Vs alone."""
+    capsys.readouterr()
+    assert cli.main(["explain", "P1-C-A1", "--store", str(demo_designed.store)]) == 0
+    said = " ".join(capsys.readouterr().out.split())
+    assert "capped at 0.66 sqrt(f'c) bw d" in said and "(22.5.1.2)" in said

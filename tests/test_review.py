@@ -162,3 +162,13 @@ def test_schedule_files_and_explain(tmp_path, store, capsys):
     assert any(s["clause"] == "9.4.3.2" for s in doc["steps"])
     zone_text = " ".join(" ".join(s["lines"]) for s in doc["steps"] if s["title"].startswith("Zone"))
     assert "Table 22.5.5.1" in zone_text and "Table 9.7.6.2.2" in zone_text
+
+
+def test_govern_refuses_a_filter_that_matches_no_member(tmp_path, store, capsys):
+    """--level L9 where the run has L1 and L2: an empty table with exit 0 would read as 'nothing
+    to review'; refused (exit 2), naming the levels the run has."""
+    run_frame(tmp_path, store, "a")
+    capsys.readouterr()
+    assert cli.main(["govern", "--store", str(store), "--level", "L9"]) == 2
+    err = " ".join(capsys.readouterr().err.split())
+    assert "--level L9" in err and "its levels: L1, L2" in err

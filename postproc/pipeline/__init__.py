@@ -152,8 +152,8 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
         k = np.flatnonzero(sm == m)
         slope = settings.stations.steep_slope * U.per_span / U.per_force
         warnings.append(f"member {names[m]}, case {cset.cases[sc[k[0]]]}: V changes by "
-                        f"{abs(sdv[k[0]]) / U.per_force:,.1f} {U.force} within {slope:g} {U.force}/{U.span} "
-                        f"at x = {sx[k[0]] / U.per_span:.4f} {U.span}"
+                        f"{abs(sdv[k[0]]) / U.per_force:,.1f} {U.force} from x = {sx[k[0]] / U.per_span:.4f} {U.span} "
+                        f"to the next row, steeper than {slope:g} {U.force}/{U.span}"
                         + (f" (and {len(k) - 1} more places)" if len(k) > 1 else "")
                         + ": a concentrated load spread by the export? It is designed as a steep linear change; "
                           "give the two rows one station to make it a concentrated load")

@@ -27,6 +27,7 @@ from postproc.codes import aci318_19 as aci
 from postproc.demand import columns as demand
 from postproc.pipeline import (BatchOutput, MemberGeometry, Resampled, SelfCheckError, edition, governing, row,
                                unit_system)
+from postproc.pipeline.deep import METHOD_SECTIONAL
 from postproc.settings import Settings
 
 KINDS = ("column",)
@@ -801,7 +802,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
             rows.append(row(name, blocked_msg[m][0], blocked_msg[m][1], **common))
             continue
         if lay.option[m] < 0:
-            rows.append(row(name, "resize", lay.reasons[m], **common))
+            rows.append(row(name, "resize", lay.reasons[m], method=METHOD_SECTIONAL, **common))
             continue
         layout = lay.layouts[m]
         opt = opts[lay.option[m]].ties
@@ -835,7 +836,7 @@ def _records(mb: Members, rs: Resampled, cset, cand, cases: demand.Cases, sec_c,
             "hoops over lo, ties beyond" if "hoop" in kinds else "ties"
         message = "; ".join([f"{opt.bar} {what}, {legs_note}"] + notes)
         rows.append(row(name, "designed", message, stirrups_total=layout.count, stirrup_mass_kg=round(mass, 2),
-                        **common))
+                        method=METHOD_SECTIONAL, **common))
         designed[m] = True
         for zk, (zone, kind) in enumerate(zip(zl, kinds), start=1):
             zones.append(dict(member=name, zone=zk, start_mm=round(zone.start, nd), end_mm=round(zone.end, nd),
