@@ -137,9 +137,11 @@ class Problems:
         self.table = spec.table
         self.row_ids = row_ids
         self.items: list[tuple[int, str | None, str]] = []  # (data row index, our column, message)
+        self.unlisted = 0  # problems found beyond the MAX_REPORTED of one check (counted, not listed)
 
     def add(self, rows: np.ndarray, column: str | None, message: str | list[str]) -> None:
         rows = np.flatnonzero(rows) if rows.dtype == bool else rows
+        self.unlisted += max(len(rows) - MAX_REPORTED, 0)
         for k, r in enumerate(rows[:MAX_REPORTED]):
             row = int(r) if self.row_ids is None else int(self.row_ids[r])
             self.items.append((row, column, message[k] if isinstance(message, list) else message))
@@ -152,7 +154,7 @@ class Problems:
         shown = self.items[:MAX_REPORTED]
         errors = [InputError(self.path, msg, lines[r] if r < len(lines) else None,
                              None if col is None else self.table.source_name(col)) for r, col, msg in shown]
-        raise InputErrors(errors, len(self.items) - len(shown))
+        raise InputErrors(errors, len(self.items) - len(shown) + self.unlisted)
 
 
 class InputErrors(InputError):
@@ -439,7 +441,7 @@ class Tally:
 
     filled: dict = field(default_factory=dict)  # our column -> cells filled
     examples: dict = field(default_factory=dict)  # member/case -> [(as written, as read)]
-    past_end: dict = field(default_factory=dict)  # member -> farthest its stations lie past its length (span unit)
+    past_end: dict = field(default_factory=dict)  # member -> farthest its stations lie outside it (span unit)
     swapped: list = field(default_factory=list)  # (data row, data row, member, case, x): a jump's rows that look swapped
 
     def normalised(self, column: str, changed: list[tuple[str, str]]) -> None:
@@ -472,16 +474,16 @@ class Tally:
                 "after the export?). They are read in the file's order, left then right; check them: " + named]
 
     def past_end_notice(self, path: Path, tolerance: float, units: UnitSystem) -> list[str]:
-        """One line for the members whose last stations lie past their length by no more than
-        the station tolerance (``tolerance``, the run's internal length): lengths and stations
-        rounded differently, read as given."""
+        """One line for the members whose stations lie before node i or past their length by no
+        more than the station tolerance (``tolerance``, the run's internal length): lengths and
+        stations rounded differently, read as given."""
         if not self.past_end:
             return []
         names = sorted(self.past_end)
         worst = max(self.past_end.values()) * units.per_span
         shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
-        return [f"{path}: stations of {len(names)} member(s) lie up to {worst:.2g} {units.length} past the member's "
-                f"length, within the station tolerance ({tolerance:g} {units.length}; rounding of the lengths or "
+        return [f"{path}: stations of {len(names)} member(s) lie up to {worst:.2g} {units.length} before node i or past "
+                f"the member's length, within the station tolerance ({tolerance:g} {units.length}; rounding of the lengths or "
                 f"of the stations): read where they are, the design covers the clear span: {shown}"]
 
 
@@ -960,7 +962,9 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     h = np.where(circular, diameter, h)
     d_given, cover = _num(t, "d_mm"), _num(t, "cover_mm")
     neither = np.isnan(d_given) & np.isnan(cover)
-    probs.add(neither & ~circular, "d_mm", f"give {named('d_mm')} or {named('cover_mm')}")
+    alike = [h for h, hint in spec.hints.items() if f"'{named('d_mm')}'" in hint or f"'{named('cover_mm')}'" in hint]
+    probs.add(neither & ~circular, "d_mm", f"give {named('d_mm')} or {named('cover_mm')}"
+              + "".join(f"; the header has '{h}' (names are exact)" for h in alike))
     d = np.where(circular, 0.8 * diameter, np.where(np.isnan(d_given), h - cover, d_given))
     probs.add(~np.isnan(d_given) & (d_given <= 0), "d_mm", "must be greater than zero")
     probs.add(~np.isnan(d_given) & (d_given >= h), "d_mm", f"effective depth must be less than {named('h_mm')}")
@@ -1110,7 +1114,12 @@ class ForcesReader:
         for raw, quoted in self._stream():
             t, probs, ids = checked_block(self.spec, raw, quoted, self.rows, self.tally)
             x = _num(t, "x_m")
-            probs.add(x < 0, "x_m", f"station before node i ({self.spec.table.source_name('x_m')} < 0)")
+            before = x < -self.tolerance_mm / self.units.per_span  # within the tolerance: rounding, read as given
+            probs.add(before, "x_m", f"station before node i ({self.spec.table.source_name('x_m')} < 0)")
+            if (hair := (x < -1e-9) & ~before).any():
+                members = np.asarray(t.column("member").to_pylist(), dtype=object)
+                for m, over in zip(members[hair], -x[hair]):
+                    self.tally.past_end[m] = max(over, self.tally.past_end.get(m, 0.0))
             _check_plausible(t, probs, PLAUSIBLE_FORCES, self.units)
             if self.lengths_m is not None:
                 L = _lookup(t.column("member"), self.lengths_m)

@@ -172,7 +172,7 @@ def test_station_a_hair_past_the_length_is_read_with_a_notice(tmp_path, capsys):
     code = run_cli(tmp_path, forces_csv=forces_text(_last_station_at(6.0009)))
     assert code == 0
     said = " ".join("".join(capsys.readouterr()).split())  # the warnings, wrapped to the terminal
-    assert "0.9 mm past the member's length" in said and "B1" in said
+    assert "0.9 mm before node i or past the member's length" in said and "B1" in said
     moved = pd.read_csv(tmp_path / "out" / "zones.csv")
     run_cli(tmp_path / "exact")
     exact = pd.read_csv(tmp_path / "exact" / "out" / "zones.csv")
@@ -218,3 +218,28 @@ def test_a_misspelt_face_offset_is_refused(tmp_path, capsys):
     assert run_cli(tmp_path, members_csv=text) == cli.EXIT_INPUT
     err = " ".join(capsys.readouterr().err.split())
     assert "column 'face_i'" in err and "face_i_mm" in err
+
+
+def test_a_station_a_hair_before_node_i_is_read_as_given(tmp_path, capsys):
+    """x = -1.1e-15 m (floating-point noise of an export) is within the station tolerance of node
+    i: read as given, not refused; -1.1 mm is refused as before."""
+    def first_at(x):
+        def edit(df):
+            df.loc[(df.member == "B1") & (df.x_m == 0.0), "x_m"] = x
+            return df
+        return edit
+    assert run_cli(tmp_path, forces_csv=forces_text(first_at(-1.1e-15))) == 0
+    capsys.readouterr()
+    assert run_cli(tmp_path / "far", forces_csv=forces_text(first_at(-0.0011))) == cli.EXIT_INPUT
+    assert "station before node i" in capsys.readouterr().err
+
+
+def test_a_look_alike_of_cover_is_named_where_neither_d_nor_cover_is_given(tmp_path, capsys):
+    """Cover_mm for cover_mm and no d_mm: every row lacks both; the message names the header that
+    looks like cover_mm, and the count of rows beyond those listed is given."""
+    rows = [beam(f"B{k}", 6.0) for k in range(1, 26)]
+    text = pd.DataFrame(rows).rename(columns={"cover_mm": "Cover_mm"}).to_csv(index=False)
+    assert run_cli(tmp_path, members_csv=text) == cli.EXIT_INPUT
+    err = capsys.readouterr().err
+    assert "give d_mm or cover_mm; the header has 'Cover_mm' (names are exact)" in err
+    assert "... and 5 more problems" in err
