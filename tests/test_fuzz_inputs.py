@@ -674,6 +674,9 @@ def test_malformed_input_is_rejected_cleanly(fuzz_root, capsys, name, which, k):
     assert paths[case.which].read_bytes() == case.data, "the input file was changed"
 
     if case.expect == "valid":
+        if code == cli.EXIT_INPUT and "cover only part of the clear span" in err:  # a table cut at a line end: each
+            assert err.startswith("error: run") and "no member was designed" in err, what  # member short or absent
+            return
         assert code in (cli.EXIT_OK, cli.EXIT_RESIZE, cli.EXIT_UNDESIGNED), what
         assert (out / "members.csv").exists() and (out / "zones.csv").exists(), what
         return
@@ -683,6 +686,9 @@ def test_malformed_input_is_rejected_cleanly(fuzz_root, capsys, name, which, k):
         assert code in (cli.EXIT_OK, cli.EXIT_RESIZE, cli.EXIT_UNDESIGNED, cli.EXIT_INPUT), what
         if code != cli.EXIT_INPUT:
             assert (out / "members.csv").exists(), what
+            return
+        if "no member was designed" in err.splitlines()[0]:  # read, but every member undesigned: each one's reason
+            assert "invalid members, e.g." in err or "have no forces" in err, what
             return
 
     first = err.splitlines()[0] if err else ""
