@@ -340,7 +340,7 @@ def _solve(sec: Sections, target, sign, steel_factor, with_phi):
     p_lo, p_hi = axial(1e-9 * sec.h)[0], axial(hi)[0]
     reachable = (target >= p_lo) & (target <= p_hi)
     if not with_phi and not oriented.has_circle \
-            and kernels.use_compiled(n * _BISECTION_STEPS * (sec.piece_top.shape[1] + sec.bar_area.shape[1])):
+            and kernels.use_compiled(n * (sec.piece_top.shape[1] + sec.bar_area.shape[1])):  # entries x coordinates
         c = kernels.axial_bisection(beta1(sec.fc, sec.u), oriented.piece_top, oriented.piece_bottom, sec.piece_width,
                                     oriented.bar_u, oriented.half_db, sec.bar_area, ALPHA1 * sec.fc,
                                     sec.fy * steel_factor, sec.u.es * EPS_CU, target, hi, _BISECTION_STEPS)

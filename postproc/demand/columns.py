@@ -81,7 +81,8 @@ class ColumnSection:
         return self.n_long * self.bar_area
 
     # terms of each member that the demand reads at every case (a GatheredSection gathers them
-    # as computed once per member: elementwise, so the same numbers as computed per case)
+    # as computed once per member: elementwise, so the same numbers as computed per case;
+    # DERIVED_PER_MEMBER names them)
     @functools.cached_property
     def vs_max_v(self) -> np.ndarray:
         """0.66 | 8 sqrt(f'c) bw d of the V direction (22.5.1.2)."""
@@ -101,6 +102,9 @@ class ColumnSection:
         return aci.column_av_min_over_s(self.fc, self.bw_vb, self.fyt, u=self.u)
 
 
+DERIVED_PER_MEMBER = frozenset({"vs_max_v", "vs_max_vb", "av_min_v", "av_min_vb"})  # ColumnSection's cached terms
+
+
 class GatheredSection:
     """A ColumnSection taken at ``idx``, each array gathered when first read (ColumnSection.gathered)."""
 
@@ -115,7 +119,8 @@ class GatheredSection:
             raise AttributeError(f"{name} of a gathered section: take() it from the ColumnSection")
         if isinstance(value, np.ndarray):
             value = value[self._idx]
-        self.__dict__[name] = value
+        if name not in DERIVED_PER_MEMBER:  # those are gathered at each read: kept, they would hold a case-sized
+            self.__dict__[name] = value  # array each for the whole task (about 100 MB on 3 M cases)
         return value
 
     def take(self, idx: np.ndarray) -> GatheredSection:
