@@ -459,6 +459,13 @@ class Tally:
                        f"removed): {shown}{more}")
         return out
 
+    def outside(self, t: pa.Table, hair: np.ndarray, over: np.ndarray) -> None:
+        """Keep, per member, the farthest of its rows ``hair`` lie outside it (``over``, span unit)."""
+        if hair.any():
+            members = np.asarray(t.column("member").to_pylist(), dtype=object)
+            for m, o in zip(members[hair], over[hair]):
+                self.past_end[m] = max(o, self.past_end.get(m, 0.0))
+
     def swapped_notice(self, spec: CsvSpec, units: UnitSystem) -> list[str]:
         """One line for the jumps whose two rows look swapped (``swapped_jumps``), the first few
         named by their lines."""
@@ -1116,19 +1123,13 @@ class ForcesReader:
             x = _num(t, "x_m")
             before = x < -self.tolerance_mm / self.units.per_span  # within the tolerance: rounding, read as given
             probs.add(before, "x_m", f"station before node i ({self.spec.table.source_name('x_m')} < 0)")
-            if (hair := (x < -1e-9) & ~before).any():
-                members = np.asarray(t.column("member").to_pylist(), dtype=object)
-                for m, over in zip(members[hair], -x[hair]):
-                    self.tally.past_end[m] = max(over, self.tally.past_end.get(m, 0.0))
+            self.tally.outside(t, (x < -1e-9) & ~before, -x)
             _check_plausible(t, probs, PLAUSIBLE_FORCES, self.units)
             if self.lengths_m is not None:
                 L = _lookup(t.column("member"), self.lengths_m)
                 past = x - L * (1 + 1e-9) - 1e-6
                 beyond = past > self.tolerance_mm / self.units.per_span  # a hair past: rounding (one station)
-                if (hair := (past > 0) & ~beyond).any():
-                    members = np.asarray(t.column("member").to_pylist(), dtype=object)
-                    for m, over in zip(members[hair], (x - L)[hair]):
-                        self.tally.past_end[m] = max(over, self.tally.past_end.get(m, 0.0))
+                self.tally.outside(t, (past > 0) & ~beyond, x - L)
                 span = self.units.span
                 probs.add(beyond, "x_m", [f"station {x[r]:g} {span} lies beyond the member length {L[r]:g} {span}"
                                           for r in np.flatnonzero(beyond)[:MAX_REPORTED]])

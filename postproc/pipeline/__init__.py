@@ -131,7 +131,7 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
     for m in np.unique(dm):
         note(m, f"two rows at every station in case(s) {', '.join(cset.cases[c] for c in dc[dm == m])} (a table "
                 "given twice, e.g. two exports joined?): read as a concentrated load at each station; check the forces")
-    short = {}  # members whose rows of some case stop short of the clear span: not designed
+    partial_members: set[int] = set()  # members whose rows of some case stop short of the clear span: not designed
     first = np.flatnonzero(np.r_[True, (samples.member[1:] != samples.member[:-1]) | (samples.case[1:] != samples.case[:-1])])
     sm, sc = samples.member[first], samples.case[first]  # each member's cases in turn (Samples are sorted so)
     x_lo, x_hi = np.minimum.reduceat(samples.x, first), np.maximum.reduceat(samples.x, first)
@@ -143,10 +143,9 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
         for j in np.flatnonzero(partial & (sm == m)):
             spans.setdefault(f"x = {at(x_lo[j])} to {at(x_hi[j])} {U.span}", []).append(cset.cases[sc[j]])
         cases = "; ".join(f"case(s) {', '.join(c)}: {rng}" for rng, c in spans.items())
-        short[int(m)] = (f"the forces cover only part of the clear span x = {at(g.start[m])} to {at(g.end[m])} {U.span} "
-                         f"({cases}): not designed, the values past the last row would be guesses; give rows over the "
-                         "whole member")
-        note(m, short[int(m)])
+        note(m, f"the forces cover only part of the clear span x = {at(g.start[m])} to {at(g.end[m])} {U.span} "
+                f"({cases}): not designed, the values past the last row would be guesses; give rows over the whole member")
+        partial_members.add(int(m))
     sm, sc, sx, sdv = stations.steep_slopes(samples, settings.stations, n)
     for m in np.unique(sm):
         k = np.flatnonzero(sm == m)
@@ -158,7 +157,7 @@ def resample(mb: MemberGeometry, bi: BatchInput, cset: combos_mod.ComboSet, sett
                         + ": a concentrated load spread by the export? It is designed as a steep linear change; "
                           "give the two rows one station to make it a concentrated load")
     return Resampled(samples, grid, grid.x - g.start[grid.member], case_vals, rules, warnings, at_station, notes,
-                     set(short))
+                     partial_members)
 
 
 def governing(values: np.ndarray, tie: np.ndarray | None, bounds: np.ndarray) -> np.ndarray:
