@@ -342,7 +342,7 @@ def design_tasks(parts: list[str], members: pd.DataFrame, cset, settings: Settin
             if not len(mine):
                 continue
             names = mine["member"].tolist()
-            starts = batch_starts(mine, cset, settings).tolist()
+            starts = batch_starts(mine, cset, settings, family).tolist()
             for a, b in zip(starts, [*starts[1:], len(names)]):
                 units_.append((k, names[a], names[b - 1], sum(rows_of[m] for m in names[a:b])))
         per_part.append((part, units_))
@@ -485,7 +485,7 @@ def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col,
         values = {k: v[order] for k, v in values.items()}
     bounds = np.searchsorted(f_member, np.arange(len(members) + 1))
     out = []
-    cuts = batch_starts(members, cset, settings)
+    cuts = batch_starts(members, cset, settings, family)
     for start, stop in zip(cuts.tolist(), [*cuts[1:].tolist(), len(members)]):
         r0, r1 = bounds[start], bounds[stop]
         batch = BatchInput(members.iloc[start:stop].reset_index(drop=True), f_member[r0:r1] - start, cidx[r0:r1],
@@ -494,17 +494,21 @@ def _family_batches(family, members: pd.DataFrame, forces: pa.Table, member_col,
     return out
 
 
-def batch_starts(members: pd.DataFrame, cset, settings: Settings) -> np.ndarray:
+def batch_starts(members: pd.DataFrame, cset, settings: Settings, family) -> np.ndarray:
     """Where the batches of a family's members begin (positions): each batch takes members
     while their estimated station-candidate cells stay within BATCH_CELLS. Greedy from the
     first member, so a task that begins at one of these positions cuts the same batches
-    after it (and the batch's sums, to the last bit, stay those of an uncut part)."""
+    after it (and the batch's sums, to the last bit, stay those of an uncut part). A family
+    whose stations keep about every combination (``ALL_COMBINATIONS``: a column's four
+    coordinates) counts them all; else about two per row of the table."""
     U = units.system(settings.units)
     d = members[U.col("d_mm")].to_numpy()
     clear = members[U.col("length_m")].to_numpy() * U.per_span - members[U.col("face_i_mm")].to_numpy() \
         - members[U.col("face_j_mm")].to_numpy()
-    est = (clear / np.minimum(settings.stations.max_step, d / settings.stations.steps_per_d) + 8) \
-        * max(2 * len(cset.rows), len(cset.cases))
+    per_station = max(2 * len(cset.rows), len(cset.cases))
+    if getattr(family, "ALL_COMBINATIONS", False):
+        per_station = max(per_station, cset.distinct_count)
+    est = (clear / np.minimum(settings.stations.max_step, d / settings.stations.steps_per_d) + 8) * per_station
     starts, start = [], 0
     while start < len(members):
         starts.append(start)

@@ -114,7 +114,7 @@ def test_tasks_cut_parts_at_batch_starts_and_change_nothing(one_part, workers, m
             rows = counts[(counts.index >= t.first) & (counts.index <= t.last)].sum()
             assert rows <= cap  # (a batch, never cut, is smaller than that here)
         assert len(tasks) > 1
-    starts = set(designable["member"].iloc[engine.batch_starts(designable, cset, settings)])
+    starts = set(designable["member"].iloc[engine.batch_starts(designable, cset, settings, engine.FAMILIES[0])])
     assert all(t.first in starts for t in tasks if t.first is not None) and len(starts) > 3
     folder = tmp / f"cut-{workers}-{memory_mb}"
     folder.mkdir()

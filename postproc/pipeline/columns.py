@@ -32,6 +32,7 @@ from postproc.settings import Settings
 
 KINDS = ("column",)
 USES_VB = True  # both shear directions
+ALL_COMBINATIONS = True  # with V, Vb, T and N about every combination stays a candidate (engine.batch_starts)
 SIGNED = ("V", "Vb", "T")  # quantities whose sign does not matter to the demand
 ZONED_FRAMES = ("special", "intermediate")  # frames with end zones lo (18.7.5.1, 18.4.3.3)
 EQ = "E"  # the load type of earthquake cases (cases.csv)
