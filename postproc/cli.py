@@ -639,7 +639,7 @@ def cmd_govern(args, store) -> int:
             _error(f"error: {option} {', '.join(unknown)}: no member of run {run.name} has that {column}; its "
                    f"{column}s: {', '.join(known[:30]) or 'none'}{' ...' if len(known) > 30 else ''}")
             return EXIT_USAGE
-    df = govern.rank(run, args.level, args.group, args.status, args.top)
+    df = govern.ranked(labels, run.units, args.level, args.group, args.status, args.top)  # the table read once
     if args.format == "csv":
         df.to_csv(sys.stdout, index=False, lineterminator="\n")
     elif args.format == "json":

@@ -707,6 +707,19 @@ def _inf_for_nan(x):
     return -1.7976931348623157e308 if x == -np.inf else x
 
 
+@njit(cache=True, inline="always")
+def _axial_term(nu, ag, fc):
+    """``aci318_19.axial_stress_term``: min(Nu / (6 Ag), 0.05 f'c) (22.5.5.1.2)."""
+    return _np_min(nu / (6.0 * ag), 0.05 * fc)
+
+
+@njit(cache=True, inline="always")
+def _vc_with_axial(coef, axial, bw, d, cap):
+    """``aci318_19._vc_with_axial`` of one case: (coef + axial) bw d, clipped to [0, cap] as
+    np.clip clips with an array bound (22.5.5.1, 22.5.5.1.1)."""
+    return _np_min(_np_max((coef + axial) * bw * d, 0.0), cap)
+
+
 @njit(cache=True, error_model="numpy")
 def lateral_check(at, spacing, vb, nu, ratio_v, lb_area, amin_tol, coef, ag, fc, bw, dd, cap, fyt, vs_max, threshold,
                   half_d, phi, tol, ratio, both, reason):
@@ -722,8 +735,7 @@ def lateral_check(at, spacing, vb, nu, ratio_v, lb_area, amin_tol, coef, ag, fc,
         sp = spacing[i]
         av_s = lb_area[m] / sp if np.isfinite(sp) else 0.0
         has_min = av_s >= amin_tol[m]
-        x = (coef[m] + _np_min(nu[i] / (6.0 * ag[m]), 0.05 * fc[m])) * bw[m] * dd[m]
-        vc_a = _np_min(_np_max(x, 0.0), cap[m])  # np.clip(x, 0, cap) with cap an array: these two in turn
+        vc_a = _vc_with_axial(coef[m], _axial_term(nu[i], ag[m], fc[m]), bw[m], dd[m], cap[m])
         vc = vc_a if has_min else 0.0
         vs = _np_min(av_s * fyt[m] * dd[m], vs_max[m])
         v = vb[i]
@@ -756,9 +768,9 @@ def beam_pair_demand(at, vu, nu, torsion, zero, coef_hi, coef_lo, ag, fc, b, d, 
     ``threshold`` inf where Table 9.6.3.1 exempts the beam)."""
     for i in range(len(at)):
         m = at[i]
-        axial = _np_min(nu[i] / (6.0 * ag[m]), 0.05 * fc[m])
-        hi = _np_min(_np_max((coef_hi[m] + axial) * b[m] * d[m], 0.0), cap[m])
-        lo = _np_min(_np_max((coef_lo[m] + axial) * b[m] * d[m], 0.0), cap[m])
+        axial = _axial_term(nu[i], ag[m], fc[m])
+        hi = _vc_with_axial(coef_hi[m], axial, b[m], d[m], cap[m])
+        lo = _vc_with_axial(coef_lo[m], axial, b[m], d[m], cap[m])
         if zero[i]:
             hi, lo = 0.0, 0.0
         v = vu[i]

@@ -51,7 +51,12 @@ def rank_order(members: pd.DataFrame) -> np.ndarray:
 
 def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) -> pd.DataFrame:
     """Members ranked for review (see rank_order), filtered by level, group and status."""
-    df = results_with_labels(run)
+    return ranked(results_with_labels(run), run.units, levels, groups, statuses, top)
+
+
+def ranked(df: pd.DataFrame, U: units.UnitSystem, levels=(), groups=(), statuses=(),
+           top: int | None = None) -> pd.DataFrame:
+    """``rank`` of a run's ``results_with_labels`` already read (in the units ``U``)."""
     if levels:
         df = df[df.level.isin(levels)]
     if groups:
@@ -62,7 +67,7 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
     if top:
         df = df.head(top)
     df.insert(0, "rank", np.arange(1, len(df) + 1))
-    return df[run.units.cols(RANK_COLUMNS)].reset_index(drop=True)
+    return df[U.cols(RANK_COLUMNS)].reset_index(drop=True)
 
 
 def layout_text(zones: pd.DataFrame) -> str:

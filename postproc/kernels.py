@@ -29,6 +29,9 @@ LOADED_CELLS = 10_000  # the same, once the kernels are loaded in this process (
 _compiled = None  # the jitted functions, once loaded
 
 
+_f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)  # what the kernels take: contiguous float64
+
+
 def choice() -> str:
     value = os.environ.get(ENV, "auto").strip().lower() or "auto"
     if value not in CHOICES:
@@ -106,10 +109,9 @@ def set_out(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray, todo: np.ndar
     fixed = np.where(at_faces, st_faces.first_stirrup == "fixed", st.first_stirrup == "fixed")
     first_at = np.where(at_faces, st_faces.first_stirrup_at, st.first_stirrup_at).astype(np.float64)
     n = len(offsets) - 1
-    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
     return _load(required=True).set_out(
-        f64(u), f64(s_env), np.ascontiguousarray(offsets, np.int64), np.ascontiguousarray(todo, np.int64),
-        f64(clear_span), np.broadcast_to(np.asarray(free_i, np.bool_), n).copy(),
+        _f64(u), _f64(s_env), np.ascontiguousarray(offsets, np.int64), np.ascontiguousarray(todo, np.int64),
+        _f64(clear_span), np.broadcast_to(np.asarray(free_i, np.bool_), n).copy(),
         np.broadcast_to(np.asarray(free_j, np.bool_), n).copy(), np.broadcast_to(fixed, n).copy(),
         np.broadcast_to(first_at, n).copy(), np.broadcast_to(np.asarray(at_faces, np.bool_), n).copy(),
         int(st.max_zones_per_end), float(st.min_spacing), float(st.spacing_module), float(st.setout_step))
@@ -153,26 +155,25 @@ def axial_bisection(b1, piece_top, piece_bottom, piece_width, bar_u, half_db, ba
                     es_eps: float, target, hi, steps: int) -> np.ndarray:
     """``sections._solve``'s neutral-axis depth without phi, compiled (sections without a
     circle): the same halvings of [0, hi], the same axial force at each."""
-    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
     out = np.empty(len(target))
-    _load(required=True).axial_bisection(f64(b1), f64(piece_top), f64(piece_bottom), f64(piece_width), f64(bar_u),
-                                         f64(half_db), f64(bar_area), f64(alpha_fc), f64(fy), float(es_eps),
-                                         f64(target), f64(hi), int(steps), out)
+    _load(required=True).axial_bisection(_f64(b1), _f64(piece_top), _f64(piece_bottom), _f64(piece_width), _f64(bar_u),
+                                         _f64(half_db), _f64(bar_area), _f64(alpha_fc), _f64(fy), float(es_eps),
+                                         _f64(target), _f64(hi), int(steps), out)
     return out
 
 
-BEAM_DEMAND_TERMS = ("coef_hi", "coef_lo", "ag", "fc", "b", "d", "cap", "threshold", "exempt", "fyt", "av_min", "vs_max")
+BEAM_DEMAND_TERMS = ("coef_hi", "coef_lo", "ag", "fc", "b", "d", "cap", "threshold", "exempt", "fyt", "av_min",
+                     "vs_max")
 
 
 def beam_pair_demand(at, vu, nu, torsion, zero, member_terms: dict[str, np.ndarray], phi: float):
     """``demand.beams.pair_demand`` past torsion, compiled: (Vc (a)/(b), Vc (c), Av,min applies,
     Av/s, Vu over the section limit) per candidate; ``member_terms`` as BEAM_DEMAND_TERMS names them."""
-    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
     n = len(at)
     out = np.empty(n), np.empty(n), np.empty(n, np.bool_), np.empty(n), np.empty(n)
-    t = {k: np.ascontiguousarray(v, np.bool_) if k == "exempt" else f64(v) for k, v in member_terms.items()}
+    t = {k: np.ascontiguousarray(v, np.bool_) if k == "exempt" else _f64(v) for k, v in member_terms.items()}
     _load(required=True).beam_pair_demand(
-        np.ascontiguousarray(at, np.int64), f64(vu), f64(nu), np.ascontiguousarray(torsion, np.bool_),
+        np.ascontiguousarray(at, np.int64), _f64(vu), _f64(nu), np.ascontiguousarray(torsion, np.bool_),
         np.ascontiguousarray(zero, np.bool_), *(t[k] for k in BEAM_DEMAND_TERMS), float(phi), *out)
     return out
 
@@ -183,12 +184,12 @@ LATERAL_TERMS = ("lb_area", "amin_tol", "coef", "ag", "fc", "bw", "dd", "cap", "
 def lateral_check(at, spacing, vb, nu, ratio_v, member_terms: dict[str, np.ndarray], phi: float, tol: float):
     """``demand.lateral.check`` with the code's interaction, compiled: (ratio, interaction,
     reason) per candidate; ``member_terms`` the per-member arrays ``compiled.lateral_check`` names."""
-    f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)
     n = len(at)
     ratio, both, reason = np.empty(n), np.empty(n), np.empty(n, np.int64)
-    t = {k: f64(v) for k, v in member_terms.items()}
+    t = {k: _f64(v) for k, v in member_terms.items()}
     _load(required=True).lateral_check(
-        np.ascontiguousarray(at, np.int64), f64(spacing), f64(vb), f64(nu), f64(ratio_v), t["lb_area"], t["amin_tol"],
+        np.ascontiguousarray(at, np.int64), _f64(spacing), _f64(vb), _f64(nu), _f64(ratio_v), t["lb_area"],
+        t["amin_tol"],
         t["coef"], t["ag"], t["fc"], t["bw"], t["dd"], t["cap"], t["fyt"], t["vs_max"], t["threshold"], t["half_d"],
         float(phi), float(tol), ratio, both, reason)
     return ratio, both, reason
