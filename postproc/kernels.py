@@ -29,7 +29,13 @@ LOADED_CELLS = 10_000  # the same, once the kernels are loaded in this process (
 _compiled = None  # the jitted functions, once loaded
 
 
-_f64 = functools.partial(np.ascontiguousarray, dtype=np.float64)  # what the kernels take: contiguous float64
+# What the kernels take: contiguous and writable arrays. A read-only array (a broadcast view,
+# an Arrow buffer) or a strided one is another type to numba, with machine code of its own
+# loaded on its first call in each worker (about 0.3 s a kernel) instead of the code the fork
+# server loaded (``warm``); per-member terms are short, so their copies cost nothing.
+_f64 = functools.partial(np.require, dtype=np.float64, requirements=("C", "W"))
+_i64 = functools.partial(np.require, dtype=np.int64, requirements=("C", "W"))
+_bool = functools.partial(np.require, dtype=np.bool_, requirements=("C", "W"))
 
 
 def choice() -> str:
@@ -110,7 +116,7 @@ def set_out(u: np.ndarray, s_env: np.ndarray, offsets: np.ndarray, todo: np.ndar
     first_at = np.where(at_faces, st_faces.first_stirrup_at, st.first_stirrup_at).astype(np.float64)
     n = len(offsets) - 1
     return _load(required=True).set_out(
-        _f64(u), _f64(s_env), np.ascontiguousarray(offsets, np.int64), np.ascontiguousarray(todo, np.int64),
+        _f64(u), _f64(s_env), _i64(offsets), _i64(todo),
         _f64(clear_span), np.broadcast_to(np.asarray(free_i, np.bool_), n).copy(),
         np.broadcast_to(np.asarray(free_j, np.bool_), n).copy(), np.broadcast_to(fixed, n).copy(),
         np.broadcast_to(first_at, n).copy(), np.broadcast_to(np.asarray(at_faces, np.bool_), n).copy(),
@@ -124,8 +130,8 @@ def front(stack: np.ndarray, signs: np.ndarray, valid: np.ndarray) -> np.ndarray
     -1) of each coordinate (a product by -1 only flips the sign: the same numbers as the
     numpy path's negated arrays); ``valid`` (S, K)."""
     out = np.zeros(valid.shape, bool)
-    by_entry = np.ascontiguousarray(np.moveaxis(np.asarray(stack, np.float64), 0, -1))  # (S, K, m)
-    _load(required=True).front(by_entry, np.ascontiguousarray(signs, dtype=np.float64), np.ascontiguousarray(valid), out)
+    by_entry = _f64(np.moveaxis(np.asarray(stack, np.float64), 0, -1))  # (S, K, m)
+    _load(required=True).front(by_entry, _f64(signs), _bool(valid), out)
     return out
 
 
@@ -134,10 +140,10 @@ def dense_front(factors: np.ndarray, case_values: list[np.ndarray], signs: np.nd
     coordinates summed inside the kernel as ``combos._combine`` sums them (``case_values``:
     per coordinate (n_cases, S)): (S, K) bool."""
     cols = np.flatnonzero(np.asarray(factors).any(axis=0)).astype(np.int64)
-    by_station = np.ascontiguousarray(np.moveaxis(np.stack(case_values).astype(np.float64), 2, 0))  # (S, m, n_cases)
+    by_station = _f64(np.moveaxis(np.stack(case_values).astype(np.float64), 2, 0))  # (S, m, n_cases)
     out = np.zeros((by_station.shape[0], len(factors)), bool)
-    _load(required=True).dense_front(np.ascontiguousarray(np.asarray(factors, np.float64).T), cols, by_station,
-                                     np.ascontiguousarray(signs, dtype=np.float64), out)
+    _load(required=True).dense_front(_f64(np.asarray(factors, np.float64).T), cols, by_station,
+                                     _f64(signs), out)
     return out
 
 
@@ -145,9 +151,7 @@ def combine_at(factors: np.ndarray, values: np.ndarray, which: np.ndarray, stati
     """``combos._combine_at`` compiled: the same sums, one entry at a time."""
     cols = np.flatnonzero(np.asarray(factors).any(axis=0)).astype(np.int64)
     out = np.empty(len(which))
-    _load(required=True).combine_at(np.ascontiguousarray(factors, dtype=np.float64), cols,
-                                    np.ascontiguousarray(values, dtype=np.float64), np.asarray(which, np.int64),
-                                    np.asarray(station, np.int64), out)
+    _load(required=True).combine_at(_f64(factors), cols, _f64(values), _i64(which), _i64(station), out)
     return out
 
 
@@ -171,10 +175,9 @@ def beam_pair_demand(at, vu, nu, torsion, zero, member_terms: dict[str, np.ndarr
     Av/s, Vu over the section limit) per candidate; ``member_terms`` as BEAM_DEMAND_TERMS names them."""
     n = len(at)
     out = np.empty(n), np.empty(n), np.empty(n, np.bool_), np.empty(n), np.empty(n)
-    t = {k: np.ascontiguousarray(v, np.bool_) if k == "exempt" else _f64(v) for k, v in member_terms.items()}
-    _load(required=True).beam_pair_demand(
-        np.ascontiguousarray(at, np.int64), _f64(vu), _f64(nu), np.ascontiguousarray(torsion, np.bool_),
-        np.ascontiguousarray(zero, np.bool_), *(t[k] for k in BEAM_DEMAND_TERMS), float(phi), *out)
+    t = {k: _bool(v) if k == "exempt" else _f64(v) for k, v in member_terms.items()}
+    _load(required=True).beam_pair_demand(_i64(at), _f64(vu), _f64(nu), _bool(torsion), _bool(zero),
+                                          *(t[k] for k in BEAM_DEMAND_TERMS), float(phi), *out)
     return out
 
 
@@ -188,7 +191,7 @@ def lateral_check(at, spacing, vb, nu, ratio_v, member_terms: dict[str, np.ndarr
     ratio, both, reason = np.empty(n), np.empty(n), np.empty(n, np.int64)
     t = {k: _f64(v) for k, v in member_terms.items()}
     _load(required=True).lateral_check(
-        np.ascontiguousarray(at, np.int64), _f64(spacing), _f64(vb), _f64(nu), _f64(ratio_v), t["lb_area"],
+        _i64(at), _f64(spacing), _f64(vb), _f64(nu), _f64(ratio_v), t["lb_area"],
         t["amin_tol"],
         t["coef"], t["ag"], t["fc"], t["bw"], t["dd"], t["cap"], t["fyt"], t["vs_max"], t["threshold"], t["half_d"],
         float(phi), float(tol), ratio, both, reason)
@@ -200,11 +203,9 @@ def tie_bisection(lo: np.ndarray, hi: np.ndarray, area: float, at: np.ndarray, t
     """``demand.columns.required_t``'s search for t = 1/s, compiled (rule "code"): per case,
     lo where it passes, else ``steps`` halvings of [lo, hi] where hi passes, else inf.
     ``directions``: per direction (legs, Av,min/s x (1 - TOL), Vc (a)/(b), Vc (c), d, Vs,max, Vu)."""
-    dirs = tuple(np.ascontiguousarray(np.broadcast_to(np.asarray(a, np.float64), lo.shape))
+    dirs = tuple(_f64(np.broadcast_to(np.asarray(a, np.float64), lo.shape))
                  for terms in directions for a in terms)
     out = np.empty(len(lo))
-    _load(required=True).tie_bisection(np.ascontiguousarray(lo, np.float64), np.ascontiguousarray(hi, np.float64),
-                                       float(area), np.ascontiguousarray(at, np.float64),
-                                       np.ascontiguousarray(torsion, np.bool_), np.ascontiguousarray(fyt, np.float64),
+    _load(required=True).tie_bisection(_f64(lo), _f64(hi), float(area), _f64(at), _bool(torsion), _f64(fyt),
                                        dirs, float(phi), float(limit), int(steps), out)
     return out
