@@ -323,7 +323,8 @@ class OpenStore:
                       list(r.design_manifest().get("warnings", [])), joints=joints)
 
     def governing(self, run: str | None = None, levels=(), groups=(), statuses=(), top: int | None = None):
-        """Members ranked as `shearpost govern` ranks them: those needing action first."""
+        """Members ranked as `shearpost govern` ranks them: those needing action first.
+        A level, group or status that no member has raises govern.UnknownFilter."""
         from postproc import govern
 
         return govern.rank(self._run(run), levels, groups, statuses, top)

@@ -630,16 +630,12 @@ def cmd_govern(args, store) -> int:
     from postproc import govern, report
 
     run = _run_of(args, store)
-    labels = govern.results_with_labels(run)
-    for option, column, given in (("--level", "level", args.level), ("--group", "group", args.group),
-                                  ("--status", "status", args.status)):
-        known = sorted({str(v) for v in labels[column].dropna() if str(v)})
-        unknown = [v for v in given or () if v not in known]
-        if unknown:  # a filter that matches nothing would print an empty table and exit 0
-            _error(f"error: {option} {', '.join(unknown)}: no member of run {run.name} has that {column}; its "
-                   f"{column}s: {', '.join(known[:30]) or 'none'}{' ...' if len(known) > 30 else ''}")
-            return EXIT_USAGE
-    df = govern.ranked(labels, run.units, args.level, args.group, args.status, args.top)  # the table read once
+    try:
+        df = govern.rank(run, args.level, args.group, args.status, args.top)
+    except govern.UnknownFilter as exc:  # matching nothing, it would print an empty table and exit 0
+        option = {"level": "--level", "group": "--group", "status": "--status"}[exc.column]
+        _error(f"error: {option} {exc} (run {run.name})")
+        return EXIT_USAGE
     if args.format == "csv":
         df.to_csv(sys.stdout, index=False, lineterminator="\n")
     elif args.format == "json":

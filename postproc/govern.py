@@ -49,14 +49,25 @@ def rank_order(members: pd.DataFrame) -> np.ndarray:
     return np.lexsort((members["member"].astype(str).to_numpy(), util, place))
 
 
+class UnknownFilter(ValueError):
+    """A level, group or status asked for that no member of the run has: the filter would
+    select nothing, and an empty ranking reads as a run with nothing to review."""
+
+    def __init__(self, column: str, unknown: list[str], known: list[str]):
+        self.column, self.unknown, self.known = column, unknown, known
+        super().__init__(f"{', '.join(unknown)}: no member has that {column}; its {column}s: "
+                         f"{', '.join(known[:30]) or 'none'}{' ...' if len(known) > 30 else ''}")
+
+
 def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) -> pd.DataFrame:
-    """Members ranked for review (see rank_order), filtered by level, group and status."""
-    return ranked(results_with_labels(run), run.units, levels, groups, statuses, top)
-
-
-def ranked(df: pd.DataFrame, U: units.UnitSystem, levels=(), groups=(), statuses=(),
-           top: int | None = None) -> pd.DataFrame:
-    """``rank`` of a run's ``results_with_labels`` already read (in the units ``U``)."""
+    """Members ranked for review (see rank_order), filtered by level, group and status
+    (UnknownFilter for a value no member has)."""
+    df = results_with_labels(run)
+    for column, given in (("level", levels), ("group", groups), ("status", statuses)):
+        known = sorted({str(v) for v in df[column].dropna() if str(v)})
+        unknown = [str(v) for v in given or () if str(v) not in known]
+        if unknown:
+            raise UnknownFilter(column, unknown, known)
     if levels:
         df = df[df.level.isin(levels)]
     if groups:
@@ -67,7 +78,7 @@ def ranked(df: pd.DataFrame, U: units.UnitSystem, levels=(), groups=(), statuses
     if top:
         df = df.head(top)
     df.insert(0, "rank", np.arange(1, len(df) + 1))
-    return df[U.cols(RANK_COLUMNS)].reset_index(drop=True)
+    return df[run.units.cols(RANK_COLUMNS)].reset_index(drop=True)
 
 
 def layout_text(zones: pd.DataFrame) -> str:
