@@ -46,6 +46,9 @@ def write_atomic(path: Path, fill) -> Path:
     return path
 
 
+WHOLE_NUMBERS = ("legs_vb",)  # counts kept as floats for their empty rows (a beam's zone has no Vb legs)
+
+
 def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path, names: dict[str, str] | None = None,
                  joints: pd.DataFrame | None = None) -> list[Path]:
     """members.csv and zones.csv in ``out_dir`` (or under the file names ``names`` gives
@@ -57,6 +60,7 @@ def write_tables(members: pd.DataFrame, zones: pd.DataFrame, out_dir: Path, name
     if joints is not None and len(joints):
         tables.append(("joints.csv", joints, U.cols(JOINT_COLUMNS)))
     for name, df, cols in tables:
+        df = df.astype({c: "Int64" for c in WHOLE_NUMBERS if c in df})  # 3, not 3.0; empty where none
         path = Path(out_dir) / (names or {}).get(name, name)
         written.append(write_atomic(path, lambda fh, df=df, cols=cols: df.to_csv(
             fh, columns=cols, index=False, quoting=csv.QUOTE_MINIMAL, lineterminator="\n")))

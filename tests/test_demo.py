@@ -83,6 +83,17 @@ def test_perimeter_columns_get_confinement_zones(demo):
     assert out.loc[interior, "ve_v_kN"].isna().all()
 
 
+def test_zones_csv_gives_legs_as_whole_numbers(demo_designed):
+    """A detailer reads "3 legs", not "3.0": legs_vb (a column's legs parallel to b) is written
+    as a whole number, and left empty in a beam's zones (it has none)."""
+    text = pd.read_csv(demo_designed.out / "zones.csv", dtype=str, keep_default_na=False)
+    given = pd.read_csv(SAMPLE / "members.csv").set_index("member").kind
+    kind = given.reindex(text.member).to_numpy()
+    assert text.legs_vb[kind == "column"].str.fullmatch(r"[0-9]+").all()
+    assert (text.legs_vb[kind == "beam"] == "").all()
+    assert text.legs.str.fullmatch(r"[0-9]+").all()
+
+
 def test_a_frame_columns_trace_draws_vc_zero_over_lo_in_both_directions(demo_designed):
     # P1-C-A1 (special frame, Vc = 0 over lo for both directions, 18.7.6.2.1): each diagram's phi*Vc is that of
     # its own direction's largest Vu, zero within lo; before, Vb's was taken from V's governing Ve case
