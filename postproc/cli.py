@@ -809,16 +809,21 @@ def cmd_schedule(args, store) -> int:
     sched = schedule.for_run(store, run, settings.detailing, args.envelope_groups)
     paths = sched.write(args.out)
     U = run.units
-    mass = U.col("stirrup_mass_kg")
+    mass, stm_mass, total = U.col("stirrup_mass_kg"), "strut_and_tie_" + U.col("mass_kg"), "total_" + U.col("mass_kg")
+    bar_mass = sched.bars[U.col("mass_kg")].to_numpy()
+    longitudinal = schedule.is_strut_and_tie_bar(sched.bars)
     doc = {"run": run.name, "marks": len(sched.marks), "designed_members": len(sched.members),
-           "bars": int(sched.bars["count"].sum()), mass: round(float(sched.bars[U.col("mass_kg")].sum()), 1),
+           "bars": int(sched.bars["count"].sum()), mass: round(float(bar_mass[~longitudinal].sum()), 1),
+           stm_mass: round(float(bar_mass[longitudinal].sum()), 1), total: round(float(bar_mass.sum()), 1),
            "by_bar": sched.by_bar.to_dict("records"), "files": [str(p) for p in paths], "caution": report.CAUTION}
     if args.json:
         print(report.dump_json(doc))
         return EXIT_OK
     console = _console()
+    stm_part = (f"; strut-and-tie ties and web bars {doc[stm_mass]:,.1f} {U.mass}" if longitudinal.any() else "")
     console.print(f"run {report.shown(run.name)}: {doc['marks']} marks for {doc['designed_members']} designed members, "
-                  f"{doc['bars']:,} bars, {doc[mass]:,.1f} {U.mass}")
+                  f"{doc['bars']:,} bars, {doc[total]:,.1f} {U.mass} (stirrups, hoops and ties "
+                  f"{doc[mass]:,.1f} {U.mass}{stm_part})", highlight=False)
     _print_frame(sched.by_bar, console, "By bar size")
     console.print(f"written: {', '.join(p.name for p in paths if p.suffix == '.csv')} (and .parquet) in "
                   f"{report.shown(args.out)}")

@@ -95,6 +95,14 @@ def _longitudinal_bar(member, mark, level, shape: str, bar: str, length: float, 
             "count": int(count), "unit_mass_kg": round(unit, 3), "mass_kg": round(unit * count, 2)}
 
 
+STRUT_AND_TIE_SHAPES = ("bottom tie", "web bars")  # the longitudinal bars strut_and_tie_bars lists
+
+
+def is_strut_and_tie_bar(bars: pd.DataFrame) -> np.ndarray:
+    """The rows of a bars table that are strut-and-tie ties and web bars (not stirrups, hoops or ties)."""
+    return bars["shape"].astype(str).str.startswith(STRUT_AND_TIE_SHAPES).to_numpy()
+
+
 def strut_and_tie_bars(run: Run, members: list[str], marks: dict[str, str]) -> list[dict]:
     """Bar rows of the bottom ties and horizontal web bars of members designed by strut-and-tie.
 
@@ -134,10 +142,10 @@ def strut_and_tie_bars(run: Run, members: list[str], marks: dict[str, str]) -> l
             else:
                 a, b, hooks = max(t.extent_start_mm - t.ld_mm, lo), hi, int(t.anchorage_j == "standard hook")
             where = "" if t.model == "whole" else f", end region {t.model}"
-            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"bottom tie{where}", t.tie_bar, b - a, hooks,
+            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"{STRUT_AND_TIE_SHAPES[0]}{where}", t.tie_bar, b - a, hooks,
                                           t.tie_bars, u))
             layers = max(int(np.ceil((2 * g.d_mm - g.h_mm) / s.web_bar_spacing_mm)) - 1, 1)
-            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"web bars{where}", s.web_bar, b - a, 0,
+            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"{STRUT_AND_TIE_SHAPES[1]}{where}", s.web_bar, b - a, 0,
                                           layers * int(s.web_bars_per_layer), u))
     return rows
 

@@ -15,6 +15,7 @@ this load (the thrust 510 kip over 0.75 x 0.85 x 4 ksi x 20 in), hence 1 % toler
 
 from __future__ import annotations
 
+import json
 import math
 
 import numpy as np
@@ -111,7 +112,7 @@ def minimum(tmp_path_factory):
     return res
 
 
-def test_distributed_reinforcement_by_hand_end_to_end(minimum, tmp_path):
+def test_distributed_reinforcement_by_hand_end_to_end(minimum, tmp_path, capsys):
     res = minimum
     assert res.code == 0
     row = res.members.set_index("member").loc["D"]
@@ -135,13 +136,20 @@ def test_distributed_reinforcement_by_hand_end_to_end(minimum, tmp_path):
     assert st.stm_region.all() and (st.s_max_mm == 220.0).all() and (st.av_s_req >= 1.0 - 1e-12).all()
     # the schedule lists the tie and the web bars: web bars on each face in the layers between the tie and
     # the top bars, ceil((d - (h - d)) / s) - 1 = ceil(1000 / 125) - 1 = 7 layers
+    capsys.readouterr()
     assert cli.main(["schedule", "--store", str(res.store), "--out", str(tmp_path), "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
     bars = pd.read_csv(tmp_path / "schedule_bars.csv")
     web = one(bars, member="D", shape="web bars")
     assert (web.bar, web["count"]) == ("#10", 2 * 7)
     tie = one(bars, member="D", shape="bottom tie")
     # from end cover to end cover: ln + 2 x 400 (the bar runs to the support's far face) - 2 x 50
     assert tie.A_mm == pytest.approx(3000 + 2 * 400 - 2 * 50)
+    # the mass is split: the stirrups are what members.csv counts, the tie and web bars are the rest
+    assert doc["stirrup_mass_kg"] == pytest.approx(res.members.stirrup_mass_kg.sum(), abs=0.1)
+    assert doc["strut_and_tie_mass_kg"] == pytest.approx(tie.mass_kg + web.mass_kg, abs=0.1)
+    assert doc["strut_and_tie_mass_kg"] > 0
+    assert doc["total_mass_kg"] == pytest.approx(bars.mass_kg.sum(), abs=0.1)
 
 
 # --- a point load within 2h of a column face: region model, the rest sectionally ---------------------
