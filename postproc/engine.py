@@ -171,6 +171,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     designed.insert(0, pd.DataFrame(rows, columns=MEMBER_COLUMNS))  # the list itself: _joined empties it
     out = _joined(designed, MEMBER_COLUMNS, input_order)
     warnings += columns_without_vb(out, designable)
+    warnings[:0] = force_scale_hint(out, U)  # first: it explains the rest
     memory.release()
     with open(zone_spill, "rb") as zone_file:
         zones = [pickle.load(zone_file) for _ in work]
@@ -289,6 +290,27 @@ def columns_without_vb(out: pd.DataFrame, members: pd.DataFrame) -> list[str]:
     return [f"{len(names)} column(s) with Vb_kN zero at both faces in every combination ({', '.join(names[:5])}"
             f"{' ...' if len(names) > 5 else ''}): their ties are designed for V (parallel to h) alone, with Vb taken "
             "as zero; give Vb_kN from a three-dimensional analysis, or confirm the plane frame"]
+
+
+SCALE_HINT_SHARE, SCALE_HINT_UTILIZATION = 0.8, 5.0  # common practice: a building's members, not a hard rule
+
+
+def force_scale_hint(out: pd.DataFrame, U: units.UnitSystem) -> list[str]:
+    """A warning where the forces look scaled wrong: most of the designed members sent to
+    resize, the median one five times over its section limits. Sections sized by an
+    engineer are not, so the likely cause is forces in N (lb) under a kN (kip) header, or
+    values from another export's units; the members' statuses stand as designed."""
+    tried = out[out["status"].isin(["designed", "resize"])]
+    if len(tried) < 5:
+        return []
+    resize = tried["status"].eq("resize").mean()
+    median = float(tried["utilization"].astype(float).median())
+    if resize < SCALE_HINT_SHARE or not median > SCALE_HINT_UTILIZATION:
+        return []
+    force, per, col = (U.force, "N", "V_kN") if U.name == "si" else (U.force, "lb", "V_kip")
+    return [f"{resize:.0%} of the {len(tried):,} members designed need resizing, the median one at {median:,.1f} times its "
+            f"shear limits: are forces.csv's values in {force}? Forces in {per} under a {force} header look like this; "
+            f"a --map file converts them ([forces] units = {{ {col} = \"{per}\", ... }} for each force column)"]
 
 
 @dataclass(frozen=True)

@@ -4,6 +4,7 @@ a brute-force enumeration of every combination (postproc.reference).
 
 Hand calculations follow ACI 318-19; each check names its clause."""
 
+import json
 import math
 
 import numpy as np
@@ -398,3 +399,27 @@ def test_basic_load_cases_without_cases_csv_are_warned_about(run_design):
     combos = run_design([member("B1", 6.0, "column", "column")], rows("B1", "1.4D", pts) + rows("B1", "1.2D+1.6L", pts),
                         extra=["--no-report"])
     assert "named as basic load cases" not in _manifest_warnings(combos)
+
+
+def test_forces_in_newtons_under_a_kn_header_are_named_as_the_likely_cause(run_design, tmp_path):
+    """Six 6 m beams, 300 x 600 (d = 540 mm), f'c = 30 MPa, with a uniform load's shear of 80 kN at the
+    supports, given in N (80,000) under V_kN. At the critical section d from the face (9.4.3.2):
+    Vu = 80,000 x (1 - 0.54/3) = 65,600 kN; the section limit phi (Vc + 0.66 sqrt(f'c) bw d) (22.5.1.2) with
+    Vc = 0.17 sqrt(f'c) bw d (Table 22.5.5.1 (a), no axial force) is 0.75 x 0.83 x sqrt(30) x 300 x 540 /
+    1e3 = 552.3 kN: every beam resize at 118.8 times it. One warning, first, names the likely cause
+    and the --map units that convert it; given in kN the same beams draw no such warning."""
+    names = [f"B{k}" for k in range(6)]
+    members = [member(n, 6.0, "column", "column") for n in names]
+    in_n = [r for n in names for r in rows(n, "D", [(0.0, 80_000.0), (3.0, 0.0), (6.0, -80_000.0)])]
+    res = run_design(members, in_n, extra=["--no-report"])
+    m = res.members.set_index("member")
+    limit = 0.75 * 0.83 * math.sqrt(30) * 300 * 540 / 1e3
+    assert (m.status == "resize").all()
+    assert m.utilization.median() == pytest.approx(65_600 / limit, rel=1e-4)  # no cases.csv: D alone, factor 1
+    warnings = json.loads(_manifest_warnings(res))["warnings"]
+    assert warnings[0].startswith("100% of the 6 members designed need resizing, the median one at 118.8 times")
+    assert 'in N under a kN header' in warnings[0] and 'units = { V_kN = "N", ... }' in warnings[0]
+    in_kn = [dict(r, V_kN=r["V_kN"] / 1e3) for r in in_n]
+    res = run_design(members, in_kn, extra=["--no-report"])
+    assert (res.members.status == "designed").all()
+    assert "need resizing" not in _manifest_warnings(res)
