@@ -556,10 +556,11 @@ def cmd_design(args) -> int:
         if args.command == "demo":
             paths = [Path(p) for p in (args.members, args.forces, args.cases) if p]
             one_folder = len({p.parent for p in paths}) == 1
-            names = (", ".join(p.name for p in paths) + f" in {paths[0].parent}" if one_folder
-                     else ", ".join(map(str, paths)))
-            _console().print(f"The demo's inputs (a start for your own tables): {names}", highlight=False,
-                             soft_wrap=True)
+            names = ", ".join(p.name for p in paths) + " in:" if one_folder else "inputs:"
+            console = _console()
+            console.print(f"Start your own tables from the demo's {names}", highlight=False)
+            for where in [paths[0].parent] if one_folder else paths:  # a path on a line of its own, never broken
+                console.print(f"  {where}", highlight=False, soft_wrap=True)
     if why:
         _error(f"error: run {run.name}: {why}")
         _error(f"the statuses are in {args.out / 'members.csv'}")

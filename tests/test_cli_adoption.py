@@ -271,12 +271,14 @@ def test_a_steel_only_ifc_model_exits_1_with_the_reason(tmp_path, capsys):
 
 
 def test_the_demo_says_where_its_inputs_are(tmp_path, capsys):
-    """A new user starts from the demo's tables: the demo names them (one line, to copy)."""
+    """A new user starts from the demo's tables: the demo names them, and their folder on a line of
+    its own (to copy; never broken, however narrow the terminal)."""
     code = cli.main(["demo", "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--no-report"])
-    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("The demo's inputs"))
+    lines = capsys.readouterr().out.splitlines()
+    at = next(k for k, x in enumerate(lines) if x.startswith("Start your own tables from the demo's"))
     assert code == 0
-    folder = Path(line.rsplit(" in ", 1)[1])
-    assert "members.csv, forces.csv, cases.csv" in line
+    folder = Path(lines[at + 1].strip())
+    assert lines[at].endswith("members.csv, forces.csv, cases.csv in:")
     assert all((folder / name).is_file() for name in ("members.csv", "forces.csv", "cases.csv"))
 
 
