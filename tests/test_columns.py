@@ -329,6 +329,24 @@ def test_intermediate_column_hoops_and_shear(tmp_path):
     assert "tie" in set(z.kind)
 
 
+def test_intermediate_column_ties_beyond_lo_keep_d_over_2_without_shear_demand(tmp_path):
+    # 18.4.3.5: outside lo the spacing satisfies 10.7.6.5.2 whether or not 10.6.2.1 asks for shear reinforcement.
+    # V_D = 10, V_E = 5 kN: Vu <= 1.2 x 10 + 3 x 5 = 27 kN (18.4.3.1(b)) < 0.5 phi Vc = 0.375 x 0.17 sqrt(35) x 600
+    # x 532.95 = 120.6 kN even without axial force, so none is asked for; still d/2 = 532.95/2 = 266.5 -> 250 mm on
+    # the 25 mm module, not 25.7.2.1's min(16 x 28.7, 48 x 12.7, 600) = 459 -> 450 mm. An ordinary column of the
+    # same forces keeps 450 mm (10.7.6.5.2 applies only where shear reinforcement is required).
+    cfg = tmp_path / "hoops.toml"
+    cfg.write_text('[detailing]\nladder = [["#13", 2]]\n')
+    members = [dict(special("IMF"), frame="intermediate"), dict(special("OMF"), frame="none")]
+    forces = [r for m in ("IMF", "OMF") for r in constant(m, 3.0, V=10.0, N=-800.0, case="D")
+              + constant(m, 3.0, V=5.0, N=-50.0, case="E")]
+    d = design(tmp_path, members, forces, cases=[dict(case="D", type="D"), dict(case="E", type="E")],
+               extra=["--config", str(cfg)])
+    ties = d.zones[(d.zones.kind == "tie") & (d.zones["count"] > 0)]
+    assert ties[ties.member == "IMF"].spacing_mm.max() == 250.0
+    assert ties[ties.member == "OMF"].spacing_mm.max() == 450.0
+
+
 # --- beams: Vb checked about the other axis ---------------------------------------------------
 
 

@@ -376,7 +376,8 @@ def _frame_notes(mb, m, ve, moment, p_least, p_most, special, intermediate, shor
                    "columns under discontinued walls (18.7.5.6)")
         return out
     if intermediate[m]:
-        head = [f"intermediate moment frame (18.4.3): hoops over lo = {lo} from each joint face (18.4.3.3)"]
+        head = [f"intermediate moment frame (18.4.3): hoops over lo = {lo} from each joint face (18.4.3.3), beyond "
+                "it the spacing of 10.7.6.5.2 (18.4.3.5)"]
     else:
         which = " and ".join(d for d, k in (("V", "v"), ("Vb", "vb")) if short[k][m])
         head = [f"ordinary moment frame, clear height <= 5 c1 for {which}: shear by 18.4.3.1 (18.3.3)"]
@@ -437,7 +438,7 @@ class Allowed:
     limit: np.ndarray  # the same before rounding down to the module (the self-check's bound)
     t_env: np.ndarray  # least 1/s over the station's cases
     t_case: np.ndarray  # per case
-    s_max: np.ndarray  # the spacing rules (10.7.6.5.2, 25.7.2.1, 9.7.6.3.3, 18.7.5.3, 18.7.5.5, 18.4.3.3)
+    s_max: np.ndarray  # the spacing rules (10.7.6.5.2, 25.7.2.1, 9.7.6.3.3, 18.7.5.3, 18.7.5.5, 18.4.3.3, 18.4.3.5)
     t_conf: np.ndarray  # least 1/s for confinement (Table 18.7.5.4, 25.7.3.3)
     needed: np.ndarray  # shear reinforcement required (Av,min or strength)
 
@@ -460,14 +461,16 @@ def _allowed(mb: Members, rs: Resampled, cases: demand.Cases, sec_c: demand.Gath
     need_vb = demand.segment_any(cases.minimum_vb, cases.bounds)
     needed = need_v | need_vb | demand.segment_any(t_case > 0, cases.bounds)
     heavy_v, heavy_vb = (demand.segment_any(h, cases.bounds) for h in demand.heavy(cases, sec_c))
-    s_max = np.minimum(  # 10.7.6.5.2, the d of each direction where that direction needs shear reinforcement
-        np.where(need_v, aci.column_max_shear_spacing(np.where(heavy_v, np.inf, 0.0), s.fc, s.bw_v, s.d_v, u), np.inf),
-        np.where(need_vb, aci.column_max_shear_spacing(np.where(heavy_vb, np.inf, 0.0), s.fc, s.bw_vb, s.d_vb, u),
-                 np.inf))
+    shear_v = aci.column_max_shear_spacing(np.where(heavy_v, np.inf, 0.0), s.fc, s.bw_v, s.d_v, u)
+    shear_vb = aci.column_max_shear_spacing(np.where(heavy_vb, np.inf, 0.0), s.fc, s.bw_vb, s.d_vb, u)
+    special, intermediate = (mb.frame == "special")[mem], (mb.frame == "intermediate")[mem]
+    # 10.7.6.5.2, the d of each direction where that direction needs shear reinforcement; in an intermediate
+    # frame's column outside lo in both directions, whether or not it is needed (18.4.3.5)
+    always = intermediate & ~fr.in_lo
+    s_max = np.minimum(np.where(need_v | always, shear_v, np.inf), np.where(need_vb | always, shear_vb, np.inf))
     s_max = np.where(spiral[mem], s_max, np.minimum(s_max, t["s_support"]))  # 25.7.2.1; spirals: 25.7.3.1 below
     torsion = demand.segment_any(cases.torsion, cases.bounds)
     s_max = np.where(torsion, np.minimum(s_max, aci.torsion_max_spacing(t["ph"], u)), s_max)
-    special, intermediate = (mb.frame == "special")[mem], (mb.frame == "intermediate")[mem]
     s_max = np.where(special & fr.in_lo, np.minimum(s_max, aci.smf_column_so(s.least, s.db_long, t["hx"], s.fy, u)),
                      s_max)
     s_max = np.where(special & ~fr.in_lo, np.minimum(s_max, aci.smf_column_spacing_beyond_lo(s.db_long, s.fy, u)), s_max)
