@@ -23,7 +23,9 @@ Per joint and direction of the beams through it (beams within 10 degrees of one 
 The columns' orientation is not in the inputs: phi*Vn is the lesser of the two ways the
 column's b and h can lie (exact for square columns), and 18.8.2.3 is checked with the
 column's lesser side and db_long_mm (the smallest bar given: a joint it fails surely fails).
-Beams are taken centred on the column (no 2x edge-distance limit on the effective width).
+A frame beam's axis is placed where the coordinates put it: the effective width is held to
+twice the distance from the axis of the beam farthest off the column's axis to the nearer
+column side (18.8.4.3(b)); a model drawn on the axes has no offset, and the run says so.
 
 The members table comes in the run's unit system (coordinates in m or ft, sections in mm
 or in), and the joint shear strength is that of its edition (Table 18.8.4.3: 1.7, 1.2,
@@ -47,6 +49,7 @@ COORDS = ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]
 DTYPES = {"joint": str, "members": str, "vu_kN": float, "phi_vn_kN": float, "utilization": float, "status": str,
           "message": str, "direction": str, "level": str, "column_below": str, "column_above": str,
           "coefficient": float, "aj_mm2": float}
+OFFSET_TOLERANCE = {"si": 1.0, "us": 0.04}  # mm | in: a beam's axis this close to its column's is on it (rounding)
 PARALLEL_SIN = np.sin(np.radians(10.0))  # beams within 10 degrees of one line pass one direction of the joint
 STATUSES = ("ok", "resize")
 
@@ -114,19 +117,30 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
     length = m[col("length_m")].to_numpy(float) * span
     t = _Columns(m, U)
     is_special = special.to_numpy()
+    offset_max = 0.0  # the largest offset of a beam's axis from its column's (mm | in)
     for k in np.unique(joint_of[joint_of >= 0]):
         here = np.flatnonzero(joint_of == k)
         if not is_special[ends[here, 0]].any():
             continue
         away = far[here, :2] - pts[here, :2]
         away = away / np.maximum(np.hypot(away[:, 0], away[:, 1]), 1e-12)[:, None]
+        rel = pts[here, :2] - top[k, :2]  # the beam's axis from the column's, in plan: its perpendicular distance
+        offset = np.abs(rel[:, 0] * away[:, 1] - rel[:, 1] * away[:, 0]) * span
+        offset_max = max(offset_max, float(offset.max()))
         c, c_above = cols[k], (cols[above[k]] if above[k] >= 0 else -1)
         storey = (length[c] + length[c_above]) / 2 if c_above >= 0 else length[c]
         for axis in _axes(away):
             along = np.abs(away[:, 0] * axis[1] - away[:, 1] * axis[0]) <= PARALLEL_SIN
             if is_special[ends[here, 0]][along].any():  # a direction with beams of the special frame
-                rows.append(_joint_row(t, fb, is_special, ends[here], away, axis, c, c_above, storey, U))
+                rows.append(_joint_row(t, fb, is_special, ends[here], away, offset, axis, c, c_above, storey, U))
     table = pd.DataFrame(rows, columns=COLUMNS)
+    if len(table) and offset_max <= OFFSET_TOLERANCE[U.name]:
+        warnings.append(f"joints (18.8): every special-frame beam meets its column on the column's axis in the member "
+                        f"coordinates, so the effective width limit for a beam offset from that axis (twice the smaller "
+                        f"distance from the beam's axis to a column side, 18.8.4.3(b)) took no effect; where beams are "
+                        f"offset in the building (e.g. flush with a column face) but drawn on the axes, check those "
+                        f"joints with their real offset, or give coordinates that place the beams where they are")
+
     for r in table[table.status != "ok"].itertuples():
         warnings.append(f"joint {r.joint} ({r.direction}): {r.message}")
     return table, warnings
@@ -166,7 +180,7 @@ class _Columns:
         self.level = list(m["level"]) if "level" in m else None
 
 
-def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, axis, c, c_above, storey,
+def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, offset, axis, c, c_above, storey,
                U: units.UnitSystem) -> dict:
     u, mm = fb.u, U.length
     along = np.abs(away[:, 0] * axis[1] - away[:, 1] * axis[0]) <= PARALLEL_SIN
@@ -198,25 +212,29 @@ def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, 
     col_b, col_h, fc = float(t.b[c]), float(t.h[c]), float(t.fc[c])
     lam = float(t.lam[c]) if t.lam is not None and np.isfinite(t.lam[c]) else 1.0
     bw_min = float(bw[beams[frame_beam]].min())
+    off = float(offset[frame_beam].max())  # the frame beam farthest off the column's axis
     best = None
     for depth, width in ((col_h, col_b), (col_b, col_h)):  # the orientation is not known: the lesser
         sides = [bw[beams[across & (np.sign(away @ perp) == s)]] for s in (1, -1)]
         confined = all(len(w) and aci.transverse_beams_confine(w.max(), w.max(), depth) for w in sides)
         coef = float(aci.joint_strength_coefficient(c_above >= 0, both_sides, confined, u))
-        bj = float(aci.joint_effective_width(width, depth, bw_min))
+        edge = max(width / 2 - off, 0.0)  # from that beam's axis to the nearer column side
+        bj = float(aci.joint_effective_width(width, depth, bw_min, edge))
         phi_vn = float(aci.joint_design_strength(fc, bj, depth, coef, lam))
         if best is None or phi_vn < best[0]:
-            best = (phi_vn, coef, bj * depth)
-    phi_vn, coef, aj = best
-    util = vu / phi_vn
-    msgs = []
+            best = (phi_vn, coef, bj * depth, bj, 2 * edge < min(width, bw_min + depth))
+    phi_vn, coef, aj, bj, by_offset = best
+    util = vu / phi_vn if phi_vn > 0 else np.inf  # bj = 0: a beam axis at or beyond the column side
+    msgs = [f"bj = {bj:,.0f} {mm}, twice the distance from a beam's axis {off:,.0f} {mm} off the column's to the nearer "
+            "column side (18.8.4.3(b))"] if by_offset else []
     if util > 1.0:
         msgs.append(f"Vu {vu / U.per_force:,.1f} {U.force} exceeds phi*Vn {phi_vn / U.per_force:,.1f} {U.force} "
                     "(18.8.4.3): enlarge the column or raise f'c")
     db = fb.db_long[beams[frame_beam]]
     through = frame_beam & both_sides
-    if through.any() and not aci.joint_depth_ok(min(col_b, col_h), np.nanmax(db), fy[beams[frame_beam]].max(),
-                                                h[beams[frame_beam]].max(), lam, u):
+    depth_short = bool(through.any()) and not aci.joint_depth_ok(
+        min(col_b, col_h), np.nanmax(db), fy[beams[frame_beam]].max(), h[beams[frame_beam]].max(), lam, u)
+    if depth_short:
         msgs.append(f"18.8.2.3: the column side along the beam bars, at least {min(col_b, col_h):g} {mm}, must be at "
                     f"least 20 db of the largest beam bar (here db_long {np.nanmax(db):g} {mm}, the smallest given) and "
                     "half the beam depth")
@@ -224,7 +242,7 @@ def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, 
     level = t.level[beams[frame_beam][0]] if t.level is not None else ""
     return dict(joint=f"{t.member[c]}:top", members=" ".join(map(str, names)), vu_kN=round(vu / U.per_force, 2),
                 phi_vn_kN=round(phi_vn / U.per_force, 2), utilization=round(util, 3),
-                status="ok" if not msgs else "resize", message="; ".join(msgs), direction=_direction(axis), level=level,
+                status="ok" if util <= 1.0 and not depth_short else "resize", message="; ".join(msgs), direction=_direction(axis), level=level,
                 column_below=t.member[c], column_above=t.member[c_above] if c_above >= 0 else "",
                 coefficient=coef, aj_mm2=round(aj, 0 if U.name == "si" else 1))
 

@@ -227,6 +227,32 @@ def test_exterior_joint_by_hand(tmp_path):
     assert row.coefficient == 1.2  # continuous column, no beam beyond the joint, confined (Table 18.8.4.3)
 
 
+def test_a_frame_beam_flush_with_the_column_face_narrows_the_joint(tmp_path):
+    """The exterior joint with its frame beam (bw = 350) drawn flush with the column's outer face: its
+    axis (600 - 350)/2 = 125 mm off the column's, 300 - 125 = 175 mm from the nearer column side.
+    18.8.4.3: bj <= the lesser of bw + h = 950 and 2 x 175 = 350 mm (the column is wider), so Aj = 350 x
+    600 = 210,000 mm^2 and phi Vn = 0.85 x 1.2 x sqrt(35) x 210,000 = 1,267.2 kN (Table 18.8.4.3, 21.2.4.4),
+    not the 1,810.2 kN of the beam on the axis. Drawn on the axis, the run says the limit took no effect."""
+    members, forces = _joint_frame(one_side=True)
+    flush = (600.0 - B) / 2 / 1e3
+    for m in members:
+        if m["member"] == "BL":
+            m["y_i_m"] = m["y_j_m"] = flush
+    res = design(tmp_path / "flush", members, forces, CASES)
+    row = pd.read_csv(res.out / "joints.csv").iloc[0]
+    assert row.aj_mm2 == 210_000 and row.coefficient == 1.2
+    assert row.phi_vn_kN == pytest.approx(0.85 * 1.2 * math.sqrt(35.0) * 210_000 / 1e3, abs=0.01)
+    assert "bj = 350 mm" in row.message and "125 mm off the column's" in row.message and "18.8.4.3(b)" in row.message
+    warnings = json.loads((Store(res.store).runs()[-1].design_path / "manifest.json").read_text())["warnings"]
+    assert not any("took no effect" in w for w in warnings)
+    members, forces = _joint_frame(one_side=True)
+    res = design(tmp_path / "on-axis", members, forces, CASES)
+    row = pd.read_csv(res.out / "joints.csv").iloc[0]
+    assert row.aj_mm2 == 360_000 and row.phi_vn_kN == pytest.approx(0.85 * 1.2 * math.sqrt(35.0) * 360_000 / 1e3, abs=0.01)
+    warnings = json.loads((Store(res.store).runs()[-1].design_path / "manifest.json").read_text())["warnings"]
+    assert any("18.8.4.3(b)" in w and "took no effect" in w for w in warnings)
+
+
 def test_joints_need_coordinates(tmp_path):
     members, forces = _joint_frame()
     for m in members:
