@@ -260,10 +260,15 @@ def _joined(frames: list[pd.DataFrame], columns: list[str], input_order: pd.Inde
 
 def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
     """One warning where the run has earthquake cases and no member belongs to a moment frame:
-    Chapter 18 is then not applied to anything."""
+    Chapter 18 is then not applied to anything. Where some member belongs to a special one,
+    one warning that phi = 0.60 of 21.2.4.1 is not applied to the other members."""
     quake = sorted(c for c, t in cset.types.items() if t == "E")
-    framed = members["frame"].fillna("none").ne("none").any() if "frame" in members else False
-    if not quake or framed:
+    frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
+    if quake and frame.eq("special").any() and frame.ne("special").any():
+        return ["a structure with special moment frames: phi = 0.60 for shear of 21.2.4.1 (a member designed to "
+                "resist E whose Vn is less than the shear at its nominal flexural strength) is NOT applied; the members "
+                "outside the special frames are designed with phi = 0.75: check by hand any of them that resists E"]
+    if not quake or frame.ne("none").any():
         return []
     return [f"the run has earthquake cases ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}) but no member is "
             "marked as part of a moment frame (members.csv `frame`, or [frames] by_group in the settings): ACI 318-19 "

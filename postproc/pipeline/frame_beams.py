@@ -210,6 +210,10 @@ def _append(cand: Candidates, stations: np.ndarray, values: dict, rows: np.ndarr
                            first_extra=first_extra, extra_names=names)
 
 
+NOT_APPLIED = ("not applied here: hoops over 2h each side of a section of likely yielding away from the ends "
+               "(18.6.4.1(b)); vertical earthquake effects in the gravity load of Ve (1.2D + 1.0L + 0.2S only)")
+
+
 def _note(fb: fr.FrameBeams, m: int, mb, sel, m_sel, ve, label, zone, vc_zero, settings: Settings) -> str:
     """What Chapter 18 did for member m, for its members.csv message."""
     U, u = units.system(fb.u.units), fb.u
@@ -225,9 +229,10 @@ def _note(fb: fr.FrameBeams, m: int, mb, sel, m_sel, ve, label, zone, vc_zero, s
                 f"{U.moment} (18.6.5.1); hoops over 2h = {h2:,.0f} {mm} from each face, the first within {first} "
                 "(18.6.4)"
                 + (f"; Vc = 0 there at end {' and '.join(zero)} (18.6.5.2)" if zero else
-                   "; Vc kept: 18.6.5.2 (a) or (b) not met"))
+                   "; Vc kept: 18.6.5.2 (a) or (b) not met") + "; " + NOT_APPLIED)
     which = lambda r: "(b)" if r == 4 else "(a)"
     return (f"intermediate moment frame (18.4.2): phi*Vn >= the lesser of (a) from Mn and (b) with Omega_o = "
             f"{settings.frames.omega_o:g}: {v[0]:,.1f} / {v[-1]:,.1f} {U.force} at faces i / j, {which(rule[0])} / "
             f"{which(rule[-1])} the lesser (18.4.2.3); hoops over 2h = {h2:,.0f} {mm} from each face, the first within "
-            f"{first} (18.4.2.4)")
+            f"{first} (18.4.2.4); not applied here: vertical earthquake effects in the gravity load of (a) (1.2D + 1.0L "
+            "+ 0.2S only)")
