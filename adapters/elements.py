@@ -235,22 +235,25 @@ def parse_spec(cmap: ColumnMap) -> ElementSpec | None:
 
 def forces_source(path, cmap: ColumnMap, lengths_m: dict[str, float] | None = None, cases: pa.Table | None = None,
                   cases_path=None, warnings: list[str] | None = None, tolerance_mm: float = 1.0,
-                  fill: dict | None = None, units: UnitSystem = SI):
+                  fill: dict | None = None, units: UnitSystem = SI, ends_m: dict[str, np.ndarray] | None = None):
     """The forces reader for ``path``: the plain forces table (rows of a station within
     ``tolerance_mm`` are one station), or, where the mapping has an ``[elements]`` section,
     the element export chained into members; either gives its rows in ``units`` (the
     member lengths ``lengths_m`` and the tolerance are in those units too: m or ft, mm or in).
     ``fill``: the settings' values for the missing cells of optional columns ([input] fill,
-    in the run's units)."""
+    in the run's units). ``ends_m``: the members' end coordinates (x, y, z of end i, then of
+    end j, m or ft), which orient the members an element export chains by node coordinates."""
     spec = parse_spec(cmap)
     if spec is None:
         return ForcesReader(path, cmap, lengths_m, cases, cases_path, tolerance_mm, fill, units)
     if units.name == "si":
-        return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings, fill)
+        return ElementForcesReader(path, cmap, spec, lengths_m, cases, cases_path, warnings, fill, ends_m)
     to_m = unit_names.factor(units.col("length_m"), "length_m")
     si_lengths = None if lengths_m is None else {m: L * to_m for m, L in lengths_m.items()}
+    si_ends = None if ends_m is None else {m: np.asarray(e, float) * to_m for m, e in ends_m.items()}
     si_fill = {unit_names.si_name(k): v * unit_names.factor(k, unit_names.si_name(k)) for k, v in (fill or {}).items()}
-    return InUnits(ElementForcesReader(path, cmap, spec, si_lengths, cases, cases_path, warnings, si_fill), units)
+    return InUnits(ElementForcesReader(path, cmap, spec, si_lengths, cases, cases_path, warnings, si_fill, si_ends),
+                   units)
 
 
 class InUnits:
@@ -332,8 +335,9 @@ class ElementForcesReader:
 
     def __init__(self, path, cmap: ColumnMap, spec: ElementSpec, lengths_m: dict[str, float] | None = None,
                  cases: pa.Table | None = None, cases_path=None, warnings: list[str] | None = None,
-                 fill: dict | None = None):
+                 fill: dict | None = None, ends_m: dict[str, np.ndarray] | None = None):
         self.el = spec
+        self.ends_m = ends_m  # member -> (x, y, z of end i, of end j) in m, where the members table gives them
         forces = si_keyed(cmap.table("forces"))
         columns = {"element": spec.element, "_station": spec.station}
         columns.update({c: forces.source_name(c) for c in ("case", *QUANTITIES)})
@@ -485,6 +489,7 @@ class ElementForcesReader:
         """As ForcesReader.forget_members, with the element layout and node breaks checked
         against (the parts are checked by then)."""
         self.lengths_m, self.member_names, self._layout, self._node_break = None, set(), None, None
+        self.ends_m = None
 
     def _build_layout(self, facts: pa.Table) -> Layout:
         import pandas as pd
@@ -602,6 +607,15 @@ class ElementForcesReader:
         start_m, end_m = np.round(start_m, DIGITS), np.round(end_m, DIGITS)
         start_m[starts] = 0.0
         start_m[1:][same_next[:-1]] = end_m[:-1][same_next[:-1]]  # one x for both rows at a node, exactly
+        if el.chain is not None:  # every element of a member against the table's order: listed from end j?
+            against = np.flatnonzero(np.logical_and.reduceat(rev, starts) & (count > 1))
+            if len(against):
+                listed = [m_names[m_codes[starts[k]]] for k in against]
+                self.warnings.append(
+                    f"{len(listed)} member(s) whose elements all run against the chaining table's order "
+                    f"({', '.join(listed[:5])}{' ...' if len(listed) > 5 else ''}): if the table lists them from "
+                    "their end j, they are read end for end (face_i_mm, support_i and the zones at the wrong end); "
+                    "list each member's elements from its end i")
         self.warnings.append(f"forces chained from {n_el} elements into {len(starts)} members of the element "
                              f"export {self.path.name} ({src.what}; sign rule '{el.sign_name}'"
                              + (f"; {int(rev.sum())} elements reversed" if rev.any() else "") + ")")
@@ -709,11 +723,15 @@ class ElementForcesReader:
         n_all = np.bincount(group, minlength=n_groups)
         flip = 2 * n_fwd < n_all
         tie = 2 * n_fwd == n_all
+        lo, hi = _line_ends(pi, pj, pi[ref], u[ref], group, n_groups)
         if tie.any():
-            lo, hi = _line_ends(pi, pj, pi[ref], u[ref], group, n_groups)
             d = np.round(hi / el.tol_m) - np.round(lo / el.tol_m)
             first_diff = d[np.arange(n_groups), np.argmax(d != 0, axis=1)]
             flip = np.where(tie, first_diff < 0, flip)
+        by_ends = self._flip_by_member_ends(by_member, group, n_groups, lo, hi)
+        turned = (by_ends >= 0) & (by_ends.astype(bool) != flip)  # the coordinates say the other way
+        flip = np.where(by_ends >= 0, by_ends.astype(bool), flip)
+        tie &= by_ends < 0
         order = np.lexsort((np.where(flip[group], -s, s), group))
         g = group[order]
         starts = np.flatnonzero(np.r_[True, g[1:] != g[:-1]])
@@ -734,9 +752,42 @@ class ElementForcesReader:
         for k in np.flatnonzero(tie[g[starts]]):
             self.warnings.append(f"member '{member[starts[k]]}': as many of its elements run one way as the other; "
                                  "it is taken to start at its end of least x, then y, then z")
+        if by_member is not None and not self.ends_m:
+            self.warnings.append("the members table gives no end coordinates (x_i_m ... z_j_m): each member of the "
+                                 f"element export {self.path.name} runs the way most of its elements run; where that "
+                                 "is from its end j, face_i_mm, support_i and the zones are read at the wrong end: give "
+                                 "the coordinates to orient them")
+        names = [str(member[k]) for k in starts[turned[g[starts]]]]
+        if names:
+            self.warnings.append(f"{len(names)} member(s) whose elements mostly run from the member's end j to its end "
+                                 f"i by the members table's coordinates ({', '.join(names[:5])}"
+                                 f"{' ...' if len(names) > 5 else ''}): read from end i, as the table places it")
         return (member, order, np.full(n, -1), None,
                 Source(self.path, first_row[order], self.table.source_name("element"),
                        f"by the node table {el.nodes.name} and {rule}"))
+
+    def _flip_by_member_ends(self, by_member, group, n_groups: int, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        """Per group of elements: 1 where the members table puts the member's end i at the
+        group's end ``hi`` (its line's largest projection), 0 where at ``lo``, -1 where it
+        cannot say (no member column, no coordinates, or ends matching neither way within a
+        twentieth of the length: another origin)."""
+        out = np.full(n_groups, -1)
+        if by_member is None or not self.ends_m:
+            return out
+        codes, names = _codes(by_member)
+        name_of = np.empty(n_groups, object)
+        name_of[group] = np.asarray(names, object)[codes]
+        for k in range(n_groups):
+            ends = self.ends_m.get(str(name_of[k]))
+            if ends is None or not np.isfinite(ends).all():
+                continue
+            e_i, e_j = ends[:3], ends[3:]
+            near = 0.05 * np.linalg.norm(hi[k] - lo[k]) + self.el.tol_m
+            as_is = max(np.linalg.norm(lo[k] - e_i), np.linalg.norm(hi[k] - e_j))
+            swapped = max(np.linalg.norm(hi[k] - e_i), np.linalg.norm(lo[k] - e_j))
+            if min(as_is, swapped) <= near:
+                out[k] = int(swapped < as_is)
+        return out
 
     def _collinear_groups(self, a: pa.Array, b: pa.Array, pi, pj, u) -> np.ndarray:
         """The collinear rule: two elements belong to one member where they share a node that

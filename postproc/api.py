@@ -16,13 +16,14 @@ import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from postproc import engine, engines, units
 from postproc.adapters import csv_tables, digests, elements, ifc
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import load_column_map
-from postproc.joints import COLUMNS as JOINT_COLUMNS
+from postproc.joints import COLUMNS as JOINT_COLUMNS, COORDS
 from postproc.settings import Settings, load_settings, settings_from_dict, validated_settings
 from postproc.store import DamagedRun, Run, Store, StoreError
 
@@ -139,6 +140,19 @@ def ingest_and_design(store: Store, name: str | None, members_path: Path, forces
                                   config_path, map_parts, ifc_key, task)
 
 
+def _member_ends(members, U: units.UnitSystem) -> dict | None:
+    """member -> its end coordinates (x, y, z of end i, then of end j; m or ft), for the
+    members whose row gives all six: they orient the members an element export chains by
+    node coordinates. None where no row does."""
+    cols = U.cols(COORDS)
+    if not set(cols) <= set(members.column_names):
+        return None
+    xyz = np.column_stack([members.column(c).to_numpy(zero_copy_only=False).astype(float) for c in cols])
+    given = np.isfinite(xyz).all(axis=1)
+    names = np.asarray(members.column("member").to_pylist(), object)
+    return dict(zip(names[given], xyz[given])) or None
+
+
 def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_path, settings, config_path,
                        map_parts, ifc_key, task):
     U = units.system(settings.units)
@@ -161,7 +175,7 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         member_warnings += _units_hint(members_path, U)
     warnings.extend(member_warnings)
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
-                                    settings.stations.tolerance, fill, U)
+                                    settings.stations.tolerance, fill, U, _member_ends(members, U))
     del lengths  # the reader's alone, let go with its other per-member state (forget_members)
     warnings.extend(source.spec.dialect.notes)
     inputs = {"members": members_path, "forces": forces_path, **elements.extra_inputs(source)}

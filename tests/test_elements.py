@@ -172,6 +172,46 @@ def test_chained_design_equals_design_from_member_rows(variant, models, hand, tm
     assert not any("turns sign" in w for w in chained["warnings"])  # the sign rule is right
 
 
+def test_a_member_drawn_from_its_end_j_is_read_from_end_i_by_the_members_coordinates(hand, tmp_path, capsys):
+    """PyNite's frame with every element of B2 drawn from T3 towards T2 (so most of them, all, run
+    from the member's end j): read by node coordinates and the export's member column, B2 would
+    run T3 to T2, mirrored against members.csv. With the members' end coordinates (T2 = (6, 3.5,
+    0) m, T3 = (14, 3.5, 0) m; PyNite's global axes) it is read from end i and designs as the
+    member rows of PyNite's member diagrams; without them the run says how it chose."""
+    model = fm.separate(tuple(f"B2e{k}" for k in range(1, 7)))
+    forces = fm.element_rows(model)
+    forces["frame"] = forces["elem"].str.split("e").str[0]  # the export's member column: B1, B2, C1, ...
+    files = {"nodes.csv": fm.node_rows(model)}
+    map_text = MAPS["member-column"] + 'reversed_flip = ["V_kN"]\n'
+    members = fm.members_table()
+    x, top = np.array(fm.XS) / 1e3, fm.HEIGHT / 1e3  # m
+    ends = {"B1": (x[0], top, x[1], top), "B2": (x[1], top, x[2], top),
+            **{f"C{k}": (x[k - 1], 0.0, x[k - 1], top) for k in (1, 2, 3)}}
+    for name, (xi, yi, xj, yj) in ends.items():
+        members.loc[members.member == name, ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]] = \
+            [xi, yi, 0.0, xj, yj, 0.0]
+    chained = run(tmp_path / "with", forces, members, map_text, files, capsys)
+    assert differences(chained, hand) < 1e-6
+    assert any("1 member(s) whose elements mostly run from the member's end j to its end i" in w and "(B2)" in w
+               for w in chained["warnings"])
+    without = run(tmp_path / "without", forces, fm.members_table(), map_text, files, capsys)
+    assert any("gives no end coordinates" in w for w in without["warnings"])
+    b2 = lambda d: d["members"].set_index("member").loc["B2", ["vu_design_i_kN", "vu_design_j_kN"]].tolist()  # noqa
+    assert b2(without) == b2(hand)[::-1]  # mirrored: what the warning is about
+
+
+def test_a_chain_listed_from_its_end_j_is_warned_about(tmp_path, capsys):
+    """A chaining table that lists every element of a member from its end j (each element then
+    runs against the table's order) is read end for end: the run says so, naming the member."""
+    chain = fm.chain_table()
+    b2 = chain.member == "B2"
+    chain.loc[b2, "order"] = chain.loc[b2, "order"].max() + 1 - chain.loc[b2, "order"]  # listed from T3
+    chained = run(tmp_path, fm.element_rows(fm.separate()), fm.members_table(), MAPS["chain-reversed"],
+                  {"chain.csv": chain}, capsys)
+    assert any("1 member(s) whose elements all run against the chaining table's order (B2)" in w
+               for w in chained["warnings"])
+
+
 def test_the_readme_example_as_written(models, hand, tmp_path, capsys):
     """The map file of README "Element-force exports", unchanged, on the export of the frame
     drawn with reversed elements; the run's manifest records the chaining table."""
