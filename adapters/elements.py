@@ -914,7 +914,7 @@ class ElementForcesReader:
     def check_part(self, t: pa.Table) -> None:
         """Checks of a member-complete part sorted by member, case, x_m and _row: one row at
         each end of every element in every case of its member, at most two rows at a
-        station; a warning where N, T or M turn sign exactly across a node."""
+        station; a warning where V, N, T or M turn sign exactly across a node."""
         lay = self.layout()
         key = t.column("_row").to_numpy()
         rows, slot = key & FILE_MASK, key >> FILE_BITS
@@ -959,17 +959,17 @@ class ElementForcesReader:
         self._warn_sign_turns(t, m, m_names, c, where, same)
 
     def _warn_sign_turns(self, t: pa.Table, m, m_names, c, where, same) -> None:
-        """A wrong sign rule shows at the nodes between elements: N and T (constant between
-        loads) turn sign exactly at every such node of a member, M (continuous, but for a
-        concentrated couple) at the nodes next to a wrongly flipped element. Warned where M
-        turns sign exactly at any node, or N or T at every one of two or more nodes of a
-        member in a case: a concentrated torque at the middle of a symmetric beam turns T
-        exactly at its one node, and is no sign of a wrong rule."""
+        """A wrong sign rule shows at the nodes between elements: V, N and T (continuous, or
+        constant, between loads) turn sign exactly at every such node of a member, M
+        (continuous, but for a concentrated couple) at the nodes next to a wrongly flipped
+        element. Warned where M turns sign exactly at any node, or V, N or T at every one of
+        two or more nodes of a member in a case: a concentrated torque at the middle of a
+        symmetric beam turns T exactly at its one node, and is no sign of a wrong rule."""
         node = np.flatnonzero(same & (where[:-1] == AT_END) & (where[1:] == AT_START))
         if not len(node):
             return
         group = m[node] * (c.max() + 1) + c[node]
-        for q in ("N_kN", "T_kNm", "M_kNm"):
+        for q in ("V_kN", "N_kN", "T_kNm", "M_kNm"):
             v = t.column(q).to_numpy()
             scale = np.zeros(len(m_names))
             np.maximum.at(scale, m, np.abs(v))

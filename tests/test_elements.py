@@ -307,6 +307,25 @@ def test_a_wrong_reversal_rule_is_warned_about(tmp_path):
     del got
 
 
+def test_end_forces_read_as_section_forces_are_warned_about_by_v_alone(models, tmp_path):
+    """PyNite's end forces (the forces acting on each element at its nodes) read with sign =
+    "section" from an export of V alone: at every node between elements V then turns sign
+    exactly (+F at one element's end j, -F at the next one's end i, for the same section), a
+    concentrated load of twice the shear at each node. With no M column to show it, V does."""
+    forces = fm.element_rows(models["meshed"]).drop(columns=["fx", "fz", "mx", "my", "mz"])  # V alone
+    text = MAPS["member-column"].replace('V_kN = "fy", N_kN = "fx", T_kNm = "mx", M_kNm = "mz"', 'V_kN = "fy"') \
+        .replace('units = { V_kN = "N", N_kN = "N", T_kNm = "N*mm", M_kNm = "N*mm" }', 'units = { V_kN = "N" }') \
+        .replace('sign = "end-forces-xy"', 'sign = "section"')
+    warnings: list[str] = []
+    chained_rows(tmp_path, forces, text, {"nodes.csv": fm.node_rows(models["meshed"])}, warnings=warnings)
+    assert any(w.startswith("V_kN turns sign exactly across a node between elements") and "B1" in w and "B2" in w
+               for w in warnings)
+    warnings.clear()  # the right rule: no such warning
+    chained_rows(tmp_path / "right", forces, text.replace('sign = "section"', 'sign = "end-forces-xy"'),
+                 {"nodes.csv": fm.node_rows(models["meshed"])}, warnings=warnings)
+    assert not any("turns sign" in w for w in warnings)
+
+
 # ---- small exports worked by hand ---------------------------------------------------
 
 # A simply supported beam, 6 m, 10 kN/m down, 2 kN of tension: V(x) = 30 - 10x,
