@@ -113,8 +113,8 @@ class Comparison:
     utilization_changes: pd.DataFrame
     layout_changes: pd.DataFrame
     demand_changes: pd.DataFrame
-    mass_a_kg: float  # of the members designed in both runs; in kg, or lb where the comparison is in inch-pound units
-    mass_b_kg: float
+    stirrup_mass_a: float  # of the members designed in both runs, in the comparison's units: kg, or lb (units.mass)
+    stirrup_mass_b: float
     newly_resize: list[str]
     units: units.UnitSystem = units.SI  # the one unit system both runs are compared in (run B's)
     note: str = ""  # how the runs were brought into one unit system, where they differ
@@ -127,9 +127,9 @@ class Comparison:
         out = {"run_a": self.run_a, "run_b": self.run_b, "added": self.added, "removed": self.removed,
                "status_changes": rec(self.status_changes), "utilization_changes": rec(self.utilization_changes),
                "layout_changes": rec(self.layout_changes), "demand_changes": rec(self.demand_changes),
-               U.col("stirrup_mass_a_kg"): round(self.mass_a_kg, 1),
-               U.col("stirrup_mass_b_kg"): round(self.mass_b_kg, 1),
-               U.col("stirrup_mass_change_kg"): round(self.mass_b_kg - self.mass_a_kg, 1),
+               U.col("stirrup_mass_a_kg"): round(self.stirrup_mass_a, 1),
+               U.col("stirrup_mass_b_kg"): round(self.stirrup_mass_b, 1),
+               U.col("stirrup_mass_change_kg"): round(self.stirrup_mass_b - self.stirrup_mass_a, 1),
                "stirrup_mass_left_out": self.mass_left_out, "newly_resize": self.newly_resize}
         if U.name != "si" or self.note:
             out.update(units=U.name, units_note=self.note)

@@ -479,6 +479,10 @@ def test_compare_between_systems_compares_in_one(tmp_path, capsys):
     assert "run metric is in SI" in cli_compare(store, capsys)
     doc = diff.as_dict()
     assert doc["units"] == "us" and "stirrup_weight_change_lb" in doc
+    # the totals are in the comparison's units: run B's lb, and run A's kg converted (1 kg = 2.20462 lb)
+    us_members = pd.read_csv(tmp_path / "o2" / "members.csv")
+    assert diff.units.mass == "lb" and diff.stirrup_mass_b == pytest.approx(us_members.stirrup_weight_lb.sum())
+    assert diff.stirrup_mass_a == pytest.approx(metric.members.stirrup_mass_kg.sum() / 0.45359237, rel=1e-3)
     assert not diff.status_changes.size and not diff.demand_changes.size  # the same Vu, in kip
     (lay,) = diff.layout_changes.to_dict("records")
     assert lay["layout_a"].endswith("(spacings in mm)") and lay["layout_b"].endswith("(spacings in in)")

@@ -70,7 +70,7 @@ def test_compare_reports_exactly_the_known_changes(tmp_path, store, capsys):
     assert b2.layout_a != b2.layout_b and b2.stirrup_mass_change_kg > 0
     assert diff.status_changes.empty and diff.newly_resize == []
     removed_mass = a.path / "design" / "members.parquet"
-    assert diff.mass_b_kg != diff.mass_a_kg and removed_mass.exists()
+    assert diff.stirrup_mass_b != diff.stirrup_mass_a and removed_mass.exists()
     capsys.readouterr()
     assert cli.main(["compare", "a", "b", "--store", str(store), "--json"]) == 0
     assert json.loads(capsys.readouterr().out)["removed"] == ["B4"]
@@ -87,8 +87,8 @@ def test_compare_totals_pair_the_members_designed_in_both_runs(tmp_path, store, 
     ma = govern.design_table(a, "members").set_index("member")
     mb = govern.design_table(b, "members").set_index("member")
     both = [m for m in ma.index if m != "B4"]
-    assert diff.mass_a_kg == pytest.approx(ma.loc[both, "stirrup_mass_kg"].sum())
-    assert diff.mass_b_kg == pytest.approx(mb.loc[both, "stirrup_mass_kg"].sum())
+    assert diff.stirrup_mass_a == pytest.approx(ma.loc[both, "stirrup_mass_kg"].sum())
+    assert diff.stirrup_mass_b == pytest.approx(mb.loc[both, "stirrup_mass_kg"].sum())
     capsys.readouterr()
     assert cli.main(["compare", "a", "b", "--store", str(store)]) == 0
     out = " ".join(capsys.readouterr().out.split())
