@@ -901,7 +901,7 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
     out = []
     for k, c in enumerate(BEAM_END_BARS):
         out.append((capacity & ~given[:, k], c,
-                    f"a beam of a {'{frame}'} moment frame needs {named(c)} (ACI 318-19 "
+                    f"a beam of a moment frame ({'{frame}'}) needs {named(c)} (ACI 318-19 "
                     + ("18.6.4.4, 18.4.2.4: the hoop spacing" if c == "db_long_mm" else
                        "18.6.5.1, 18.4.2.3: Mpr or Mn at the faces") + ")"))
         out.append((ordinary & given.any(axis=1) & ~given[:, k], c,
@@ -909,7 +909,7 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
                     "check of "
                     "ACI 318-19 18.3.2), or none"))
     for end, sup in (("support_i", support_i), ("support_j", support_j)):
-        out.append((capacity & (sup == "free"), end, "a beam of a {frame} moment frame spans between joints; a free "
+        out.append((capacity & (sup == "free"), end, "a beam of a moment frame ({frame}) spans between joints; a free "
                                                      "end develops no Mpr or Mn (ACI 318-19 18.6.5.1, 18.4.2.3)"))
     return out
 

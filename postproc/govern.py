@@ -9,7 +9,7 @@ import pandas as pd
 
 from postproc import units
 from postproc.store import Run, StoreError
-from postproc.terms import NEEDS_ACTION
+from postproc.terms import NEEDS_ACTION, STATUSES
 
 RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "governing_case",
                 "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message",
@@ -50,12 +50,15 @@ def rank_order(members: pd.DataFrame) -> np.ndarray:
 
 
 class UnknownFilter(ValueError):
-    """A level, group or status asked for that no member of the run has: the filter would
-    select nothing, and an empty ranking reads as a run with nothing to review."""
+    """A level or group asked for that no member of the run has, or a word that is not a
+    status: the filter would select nothing, and an empty ranking reads as a run with
+    nothing to review. (A status no member has is a fair question: an empty ranking.)"""
 
     def __init__(self, column: str, unknown: list[str], known: list[str]):
         self.column, self.unknown, self.known = column, unknown, known
-        super().__init__(f"{', '.join(unknown)}: no member has that {column}; its {column}s: "
+        plural = "statuses" if column == "status" else f"{column}s"
+        what = "not a status" if column == "status" else f"no member has that {column}"
+        super().__init__(f"{', '.join(unknown)}: {what}; the {plural}: "
                          f"{', '.join(known[:30]) or 'none'}{' ...' if len(known) > 30 else ''}")
 
 
@@ -64,7 +67,7 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
     (UnknownFilter for a value no member has)."""
     df = results_with_labels(run)
     for column, given in (("level", levels), ("group", groups), ("status", statuses)):
-        known = sorted({str(v) for v in df[column].dropna() if str(v)})
+        known = list(STATUSES) if column == "status" else sorted({str(v) for v in df[column].dropna() if str(v)})
         unknown = [str(v) for v in given or () if str(v) not in known]
         if unknown:
             raise UnknownFilter(column, unknown, known)

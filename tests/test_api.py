@@ -56,7 +56,7 @@ def test_stations_and_store_views(both):
     ranked = store.governing(top=3)
     assert ranked.status.iloc[0] in ("designed", "resize")  # nothing needs action in the demo: by utilization
     assert list(ranked.utilization) == sorted(ranked.utilization, reverse=True)
-    with pytest.raises(govern.UnknownFilter, match="L99: no member has that level; its levels: .*L2"):
+    with pytest.raises(govern.UnknownFilter, match="L99: no member has that level; the levels: .*L2"):
         store.governing(levels=["L99"])  # a typo selects nothing: refused, not an empty ranking
     diff = store.compare(runs.run.iloc[0], runs.run.iloc[0])
     assert diff.layout_changes.empty and diff.status_changes.empty

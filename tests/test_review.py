@@ -171,4 +171,10 @@ def test_govern_refuses_a_filter_that_matches_no_member(tmp_path, store, capsys)
     capsys.readouterr()
     assert cli.main(["govern", "--store", str(store), "--level", "L9"]) == 2
     err = " ".join(capsys.readouterr().err.split())
-    assert "--level L9" in err and "its levels: L1, L2" in err
+    assert "--level L9" in err and "the levels: L1, L2" in err
+    # a status is a word of the tool's: a typo is refused (argparse's choices; in Python, UnknownFilter), a
+    # status no member has is an empty ranking
+    with pytest.raises(govern.UnknownFilter, match="resise: not a status; the statuses: designed, resize,"):
+        govern.rank(Store(store).latest(), statuses=["resise"])
+    assert cli.main(["govern", "--store", str(store), "--status", "no-geometry", "--format", "csv"]) == 0
+    assert capsys.readouterr().out.strip().count("\n") == 0  # the header alone
