@@ -204,9 +204,10 @@ def _significant(values, digits: int | None):
 BAR_GRADES_PSI = {280.0: 40_000.0, 420.0: 60_000.0, 520.0: 75_000.0, 550.0: 80_000.0, 690.0: 100_000.0}
 
 
-def convert_csv(source_path, target_path, target: UnitSystem, grades: bool = False):
+def convert_csv(source_path, target_path, target: UnitSystem | str, grades: bool = False):
     """Write a copy of an input table (members.csv, forces.csv) with its columns named and
-    valued in ``target``: the tool's own conversion, so that nobody converts by hand.
+    valued in ``target`` (a UnitSystem, or "si" | "us"): the tool's own conversion, so that
+    nobody converts by hand.
 
     ``grades``: yield strengths (``fy_mpa``, ``fyt_mpa``) that are a bar grade of ASTM
     A615M become that grade's inch-pound value (420 MPa -> 60,000 psi, Grade 60 [420]:
@@ -215,6 +216,7 @@ def convert_csv(source_path, target_path, target: UnitSystem, grades: bool = Fal
     grade's psi value is the lower. Other values convert exactly."""
     import pandas as pd
 
+    target = target if isinstance(target, UnitSystem) else system(target)
     df = pd.read_csv(source_path, keep_default_na=False, na_values=[""], dtype={"member": str, "case": str})
     out = convert_table(df, None, target)
     if grades and target.name == "us":

@@ -218,7 +218,7 @@ def both(tmp_path_factory):
     si = design(tmp / "si", members, forces)
     folder = tmp / "si" / "in"
     units.convert_csv(folder / "members.csv", tmp / "us-in" / "members.csv", units.US)
-    units.convert_csv(folder / "forces.csv", tmp / "us-in" / "forces.csv", units.US)
+    units.convert_csv(folder / "forces.csv", tmp / "us-in" / "forces.csv", "us")  # by name, as design(units="us")
     us_members = pd.read_csv(tmp / "us-in" / "members.csv").to_dict("records")
     us_forces = pd.read_csv(tmp / "us-in" / "forces.csv").to_dict("records")
     us = design(tmp / "us", us_members, us_forces, extra=["--units", "us"])
