@@ -212,7 +212,7 @@ def convert_csv(source_path, target_path, target: UnitSystem | str, grades: bool
     ``grades``: yield strengths (``fy_mpa``, ``fyt_mpa``) that are a bar grade of ASTM
     A615M become that grade's inch-pound value (420 MPa -> 60,000 psi, Grade 60 [420]:
     the same bars) rather than the exact 60,916 psi, which the inch-pound edition would cap
-    at 60,000 psi for shear with a warning per member. Only towards inch-pound, where the
+    at 60,000 psi for shear. Only towards inch-pound, where the
     grade's psi value is the lower. Other values convert exactly."""
     import pandas as pd
 

@@ -134,6 +134,20 @@ def test_fyt_above_420_is_capped_with_a_warning(tmp_path, capsys):
     assert any("B1" in w and "20.2.2.4" in w for w in doc["warnings"])
 
 
+def test_fyt_a_soft_conversion_above_the_cap_is_capped_without_a_warning(tmp_path, capsys):
+    """413.7 MPa (60,002 psi: Grade 60 given in MPa) in an inch-pound run is capped at 60,000 psi
+    for shear as any fyt above it is (20.2.2.4), but it is no stronger steel to warn about; 430 MPa
+    (62,366 psi, 3.9 % above) is."""
+    rows = [dict(m, fyt_mpa=f) for m, f in zip(GOOD_MEMBERS, (413.7, 430.0))] + GOOD_MEMBERS[2:]
+    paths = write_inputs(tmp_path / "in", rows, GOOD_FORCES)
+    code = cli.main(["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]), "--units", "us",
+                     "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out"), "--json"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 0
+    (said,) = [w for w in doc["warnings"] if "20.2.2.4" in w]
+    assert said.startswith("fyt of 1 member(s) capped at 60,000 psi") and GOOD_MEMBERS[1]["member"] in said
+
+
 def test_several_problems_are_reported_together(tmp_path, capsys):
     def edit(df):
         df.loc[0, "b_mm"] = -1
