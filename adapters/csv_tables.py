@@ -866,17 +866,21 @@ PLAUSIBLE_FORCES = {"x_m": (None, 500.0), "V_kN": (-1e6, 1e6), "N_kN": (-1e7, 1e
 
 
 def _check_plausible(t: pa.Table, probs: Problems, limits: dict, units: UnitSystem = SI) -> None:
-    """Limits given in SI, checked in the run's units."""
+    """Limits given in SI, checked in the run's units (the message names the unit of the
+    limit: a column in the other system's unit is read converted)."""
     for name, (lo, hi) in limits.items():
-        f = unit_names.factor(name, units.col(name))
+        ours = units.col(name)
+        f = unit_names.factor(name, ours)
         lo, hi = (None if lo is None else lo * f), hi * f
+        unit = unit_names.unit_of(ours)
+        unit = f" {unit.replace('**', '^').replace('inch', 'in')}" if unit else ""
         v = _num(t, name)
         with np.errstate(invalid="ignore"):
             if lo is not None:
                 probs.add((v < lo) & (v > 0 if lo > 0 else True), name,
-                          f"{lo:g} is the least plausible value: check the units")
+                          f"{lo:g}{unit} is the least plausible value: check the units")
             probs.add(np.abs(v) > hi if lo is not None and lo < 0 else v > hi, name,
-                      f"beyond {hi:g}, not plausible: check the units")
+                      f"beyond {hi:g}{unit}, not plausible: check the units")
 
 
 def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, probs: Problems) -> None:

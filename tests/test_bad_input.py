@@ -257,3 +257,13 @@ def test_a_look_alike_of_cover_is_named_where_neither_d_nor_cover_is_given(tmp_p
     err = capsys.readouterr().err
     assert "give d_mm or cover_mm; the header has 'Cover_mm' (names are exact)" in err
     assert "... and 5 more problems" in err
+
+
+def test_an_implausible_value_names_the_unit_of_its_limit(tmp_path, capsys):
+    """f'c = 4000 under fc_mpa (psi typed in an MPa column): refused in an SI run at 200 MPa, and in an
+    inch-pound run, where the column is read converted, at 200 MPa = 29,007.5 psi: the unit is said."""
+    paths = write_inputs(tmp_path / "in", [dict(m, fc_mpa=4000.0) for m in GOOD_MEMBERS], GOOD_FORCES)
+    for extra, limit in (([], "beyond 200 MPa, not plausible"), (["--units", "us"], "beyond 29007.5 psi, not plausible")):
+        code = cli.main(["run", "--members", str(paths["members"]), "--forces", str(paths["forces"]), *extra,
+                         "--store", str(tmp_path / "store"), "--out", str(tmp_path / "out")])
+        assert code == cli.EXIT_INPUT and f"column 'fc_mpa': {limit}" in capsys.readouterr().err
