@@ -173,6 +173,8 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         members, member_warnings = csv_tables.read_members(members_path, cmap, settings.frames.by_group, fill, U)
         lengths = dict(zip(members.column("member").to_pylist(), members.column(length).to_pylist()))
         member_warnings += _units_hint(members_path, U)
+    if map_path is None:  # a mapped export's headers are its own
+        member_warnings += _units_hint(Path(forces_path), U, "forces")
     warnings.extend(member_warnings)
     source = elements.forces_source(forces_path, cmap, lengths, cases, cases_path, warnings,
                                     settings.stations.tolerance, fill, U, _member_ends(members, U))
@@ -231,15 +233,18 @@ def _inch_pound_limits(members, U: units.UnitSystem):
     return members.set_column(members.schema.get_field_index("invalid_reason"), "invalid_reason", column)
 
 
-def _units_hint(members_path: Path, U: units.UnitSystem) -> list[str]:
-    """A warning where a members table is spelt in the other unit system than the run's
-    (it is converted; the hint is for whoever meant the other edition of the code)."""
-    header = csv_tables.header_names(members_path)
+UNIT_HINT_COLUMNS = {"members": ("length_m", "b_mm", "h_mm", "fc_mpa"), "forces": ("x_m", "V_kN", "N_kN", "T_kNm")}
+
+
+def _units_hint(path: Path, U: units.UnitSystem, table: str = "members") -> list[str]:
+    """A warning where a members or forces table is spelt in the other unit system than the
+    run's (it is converted; the hint is for whoever meant the other edition of the code)."""
+    header = csv_tables.header_names(path)
     other = units.US if U.name == "si" else units.SI
-    spelt = [c for c in ("length_m", "b_mm", "h_mm", "fc_mpa") if other.col(c) in header and U.col(c) not in header]
+    spelt = [c for c in UNIT_HINT_COLUMNS[table] if other.col(c) in header and U.col(c) not in header]
     if len(spelt) < 2:
         return []
-    return [f"{members_path.name} is in {other.title.split(' (')[0]} units ({', '.join(other.col(c) for c in spelt)}); "
+    return [f"{path.name} is in {other.title.split(' (')[0]} units ({', '.join(other.col(c) for c in spelt)}); "
             f"the run converts it and designs in {U.title} with {engine.aci.edition(U.name).title}"
             + (": use --units us (or units = \"us\" in the settings) for the inch-pound edition" if U.name == "si"
                else "")]

@@ -296,6 +296,7 @@ def test_an_si_run_of_an_inch_pound_table_converts_it_and_says_so(run_design):
     assert d.members.iloc[0].vu_design_i_kN == pytest.approx(56.75 * 4.4482216152605, abs=0.01)
     warnings = Store(d.store).latest().manifest()["warnings"]
     assert any("inch-pound units (length_ft, b_in, h_in, fc_psi)" in w and "--units us" in w for w in warnings)
+    assert any(w.startswith("forces.csv is in inch-pound units (x_ft, V_kip)") for w in warnings)  # the forces too
 
 
 def test_both_spellings_of_one_quantity_is_an_error_naming_the_column(run_design, capsys):
