@@ -122,6 +122,15 @@ class IfcDefaults:
     tolerance_mm: float = 50.0  # how far a beam end may be from what it frames into
     fy_mpa: float = 420.0  # Grade 420 longitudinal bars (common practice), as read_members
     lam: float = 1.0  # lightweight factor lambda: normalweight concrete
+    units: str = "si"  # the run's unit system, in which the messages give these values
+
+    def shown(self, si_column: str) -> str:
+        """The default of ``si_column`` (fc_mpa, cover_mm) as the run's settings give it."""
+        from postproc import units as unit_names
+
+        ours = unit_names.system(self.units).col(si_column)
+        value = getattr(self, si_column) * unit_names.factor(si_column, ours)
+        return f"{value:,.4g} {unit_names.unit_of(ours).replace('inch', 'in')}"
 
 
 class _Unsupported(Exception):
@@ -1070,12 +1079,12 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
     row["fc_mpa"] = fc if fc is not None else defaults.fc_mpa
     defaulted = []
     if fc is None:
-        defaulted.append(f"f'c not in the model; {defaults.fc_mpa:g} MPa taken from the settings")
+        defaulted.append(f"f'c not in the model; {defaults.shown('fc_mpa')} taken from the settings")
     if p.section is not None and p.section.diameter_mm is not None:  # a circular column: d = 0.8 D (22.5.2.2)
         D = round(p.section.diameter_mm, 3)
         if cover is None:
             cover = defaults.cover_mm
-            defaulted.append(f"cover not in the model; {defaults.cover_mm:g} mm taken from the settings")
+            defaulted.append(f"cover not in the model; {defaults.shown('cover_mm')} taken from the settings")
         row.update(diameter_mm=D, d_mm=0.8 * D, cover_mm=cover)
     elif p.section is not None:
         s = p.section
@@ -1083,7 +1092,7 @@ def _row(m: _Model, p: _Part, member: str, ends, defaults: IfcDefaults, warnings
                     (("b_mm", s.b_mm), ("h_mm", s.h_mm), ("bf_mm", s.bf_mm), ("hf_mm", s.hf_mm))})
         if d is None and cover is None:
             cover = defaults.cover_mm
-            defaulted.append(f"cover not in the model; {defaults.cover_mm:g} mm taken from the settings")
+            defaulted.append(f"cover not in the model; {defaults.shown('cover_mm')} taken from the settings")
         row["d_mm"] = d if d is not None else row["h_mm"] - cover
         row["cover_mm"] = row["h_mm"] - row["d_mm"]
     if row["invalid_reason"] is None and (steel := _steel_material(materials)):

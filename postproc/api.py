@@ -166,7 +166,7 @@ def _ingest_and_design(store, name, members_path, forces_path, cases_path, map_p
         probe = elements.forces_source(forces_path, cmap, fill=fill, units=U)
         u = engine.aci.edition(U.name)
         fy = u.fy_default * units.factor(U.col("fy_mpa"), "fy_mpa")  # Grade 420 | 60 where the model gives none
-        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids(), fy)
+        members, member_warnings = read_ifc(members_path, ifc_key, settings.ifc.si(), probe.member_ids(), fy, U.name)
         members = _inch_pound_limits(units.convert_table(members, units.SI, U, digits=12), U)  # to 12 digits
         lengths = None
     else:
@@ -250,11 +250,12 @@ def _units_hint(path: Path, U: units.UnitSystem, table: str = "members") -> list
                else "")]
 
 
-def read_ifc(path: Path, key: str, st, wanted: set[str], fy_mpa: float = 420.0):
-    """Members from an IFC model (SI), with the settings' defaults for what the model lacks. With
-    key 'auto', the attribute (GlobalId, Name, Tag) that matches most force-table members."""
+def read_ifc(path: Path, key: str, st, wanted: set[str], fy_mpa: float = 420.0, unit_system: str = "si"):
+    """Members from an IFC model (SI), with the settings' defaults for what the model lacks (said
+    in the run's ``unit_system``). With key 'auto', the attribute (GlobalId, Name, Tag) that
+    matches most force-table members."""
     defaults = ifc.IfcDefaults(fc_mpa=st.fc_mpa, fyt_mpa=st.fyt_mpa, cover_mm=st.cover_mm, tolerance_mm=st.tolerance_mm,
-                               fy_mpa=fy_mpa)
+                               fy_mpa=fy_mpa, units=unit_system)
     if key != "auto":
         return ifc.read_ifc_members(path, key=key, defaults=defaults)
     best, first_error = None, None

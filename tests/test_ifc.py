@@ -282,6 +282,16 @@ def test_material_strength_and_depth_sources(frames):
         assert not any(w.startswith("member G1") for w in warnings)
 
 
+def test_defaults_are_said_in_the_runs_units():
+    """An inch-pound run reads an IFC model in SI, with the settings' defaults converted to SI;
+    the warning gives them as the settings do: 5,000 psi, not 34.47 MPa (1 psi = 6894.757 Pa)."""
+    from postproc.adapters.ifc import IfcDefaults
+
+    us = IfcDefaults(fc_mpa=5000 * 6894.757e-6, cover_mm=2.5 * 25.4, units="us")
+    assert (us.shown("fc_mpa"), us.shown("cover_mm")) == ("5,000 psi", "2.5 in")
+    assert (IfcDefaults().shown("fc_mpa"), IfcDefaults().shown("cover_mm")) == ("35 MPa", "60 mm")
+
+
 def test_keys_choose_the_member_id(frames):
     path = frames["IFC4"][0]
     by_tag, _ = read_ifc_members(path, key="tag")
