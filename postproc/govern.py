@@ -13,7 +13,7 @@ from postproc.terms import NEEDS_ACTION, STATUSES
 
 RANK_COLUMNS = ["rank", "member", "level", "group", "status", "utilization", "governing_case",
                 "vu_design_i_kN", "vu_design_j_kN", "stirrups_total", "stirrup_mass_kg", "message",
-                "kind"]  # SI names; kind (beam, column) added at the end
+                "kind", "vb_design_i_kN", "vb_design_j_kN"]  # SI names; kind (beam, column) and Vb added at the end
 
 
 def design_table(run: Run, name: str, member: str | None = None, columns: list[str] | None = None) -> pd.DataFrame:

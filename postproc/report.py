@@ -93,7 +93,7 @@ def summary(result: Result, run_name: str, out_dir: Path | None, top: int = 10) 
                          if result.combos.prefactored else "ACI 318-19 Table 5.3.1 from basic load cases"},
         "governing": [
             {k: (None if pd.isna(r[k]) else r[k]) for k in ("member", "status", "utilization", "governing_case",
-                                                            vu_i, vu_j)}
+                                                            vu_i, vu_j, *U.cols(VB_DESIGN))}
             for _, r in ranked.iterrows()],
         "joints": {"count": int(len(result.joints)), "over": result.joints.loc[
             result.joints["status"] != "ok", "joint"].head(50).tolist()},
@@ -123,7 +123,7 @@ def print_summary(doc: dict, console: Console) -> None:
     console.print(st)
     U = units.system(doc.get("units"))
     gov = pd.DataFrame(doc["governing"], columns=["member", "status", "utilization", "governing_case",
-                                                 *U.cols(["vu_design_i_kN", "vu_design_j_kN"])])
+                                                 *U.cols(["vu_design_i_kN", "vu_design_j_kN", *VB_DESIGN])])
     gov.insert(0, "rank", range(1, len(gov) + 1))
     console.print(f"Governing members (the first {len(gov)}, as `shearpost govern` ranks them)")
     console.print(governing_table(gov, console.width))
@@ -147,19 +147,24 @@ def print_summary(doc: dict, console: Console) -> None:
     console.print(f"[italic]{doc['caution']}[/italic]")
 
 
+VB_DESIGN = ("vb_design_i_kN", "vb_design_j_kN")  # the design shear parallel to b, at each end
+
+
 def governing_table(df: pd.DataFrame, width: int) -> Table:
     """Ranked members as a terminal table no wider than ``width``: whole combination names,
     never broken across lines; columns are left out, least useful first, until the table
     fits (the csv and json formats keep every column). Column names are those of the
     table's unit system; the cells are keyed by their SI names."""
     U = units.system_of(df.columns)
-    vu_i, vu_j = U.col("vu_design_i_kN"), U.col("vu_design_j_kN")
-    vu = df[[vu_i, vu_j]].astype(float).abs().max(axis=1)
+    # each end's larger direction (a column may be governed by Vb), and the larger end
+    end = {e: df[[c for c in U.cols([f"vu_design_{e}_kN", f"vb_design_{e}_kN"]) if c in df]].astype(float).abs()
+           .max(axis=1) for e in "ij"}
+    vu = pd.concat(end.values(), axis=1).max(axis=1)
     cells = {
         "rank": df["rank"].astype(str), "member": df["member"].map(shown),
         "status": df["status"], "utilization": df["utilization"].map(lambda u: "" if u is None or u != u else f"{u:.3f}"),
         "governing_case": df["governing_case"].map(lambda c: "" if c is None or c != c else shown(c)),
-        "vu_design_i_kN": df[vu_i].map(_kn), "vu_design_j_kN": df[vu_j].map(_kn),
+        "vu_design_i_kN": end["i"].map(_kn), "vu_design_j_kN": end["j"].map(_kn),
         "vu_design_kN": vu.map(_kn),
     }
     if "level" in df:

@@ -120,6 +120,21 @@ def test_shear_parallel_to_b_is_carried_by_the_legs_parallel_to_b(rect):
     assert m.utilization_vb["VB"] == pytest.approx(250e3 / (PHI * vn), abs=1e-3)
 
 
+def test_the_review_tables_show_a_columns_larger_direction(rect, capsys, monkeypatch):
+    """VB (V = 20 kN, Vb = 250 kN, at both faces: a column takes the shears at the faces) is governed by Vb:
+    `govern` shows Vu 250.0 kN at each end, not the 20.0 of V, and keeps both in its csv."""
+    from postproc import cli
+
+    monkeypatch.setenv("COLUMNS", "160")
+    assert cli.main(["govern", "--store", str(rect.store)]) == 0
+    line = next(x for x in capsys.readouterr().out.splitlines() if " VB " in x)
+    assert line.split().count("250.0") == 2 and "20.0" not in line.split()
+    assert cli.main(["govern", "--store", str(rect.store), "--format", "csv"]) == 0
+    header, *rows = capsys.readouterr().out.splitlines()
+    assert header.endswith(",kind,vb_design_i_kN,vb_design_j_kN")
+    assert next(r for r in rows if r.split(",")[1] == "VB").endswith(",column,250.0,250.0")
+
+
 def test_tie_spacing_governed_by_each_of_its_rules(rect):
     # 25.7.2.1(b), the least of 16 db of the bars, 48 db of the tie and the least dimension; shear does not ask
     # for steel (Vu <= 0.5 phi Vc, 10.6.2.1), so 10.7.6.5.2 does not apply:
