@@ -52,8 +52,9 @@ class Schedule:
             for ext in ("csv", "parquet"):
                 p = out / f"schedule_{name}.{ext}"
                 tmp = p.with_name(f".{p.name}.tmp")
-                if ext == "csv":
-                    df.to_csv(tmp, index=False, lineterminator="\n")
+                if ext == "csv":  # section values converted from the other system read as given: 19.685, not 19.6850393...
+                    shown = df.round({c: 3 for c in units.system_of(df.columns).cols(SECTION_KEYS) if c in df})
+                    shown.to_csv(tmp, index=False, lineterminator="\n")
                 else:
                     pq.write_table(pa.Table.from_pandas(df, preserve_index=False), tmp)
                 tmp.replace(p)

@@ -441,6 +441,8 @@ def test_demo_outputs_speak_inch_pound(demo_us, capsys):
     assert {"A_in", "B_in", "hook_in", "cut_length_in", "unit_weight_lb", "weight_lb"} <= set(bars.columns)
     transverse = bars[~bars["shape"].str.contains("tie, end region|web bars")]  # not the straight STM bars
     assert transverse.hook_in.min() == 3.0  # Table 25.3.2: 6 db and at least 3 in for #3 to #5
+    marks = pd.read_csv(out / "schedule_marks.csv", dtype=str)  # the demo's SI sections converted: 500 mm = 19.685 in
+    assert marks.b_in.str.fullmatch(r"\d+(\.\d{1,3})?").all() and marks.fc_psi.str.fullmatch(r"\d+(\.\d{1,3})?").all()
 
 
 def test_inch_pound_engine_equals_the_brute_force_design(demo_us):
