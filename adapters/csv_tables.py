@@ -888,6 +888,11 @@ def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, pro
     probs.add(bad, column, [f"'{v}' is not one of {', '.join(allowed)}" for v in values[bad][:MAX_REPORTED]])
 
 
+def with_frame(message: str, frame: str) -> str:
+    """A message of ``frame_bar_problems`` for one member's frame ('a special', 'an intermediate')."""
+    return message.format(frame=frame, a="an" if frame[:1] in "aeiou" else "a")
+
+
 def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.ndarray],
                        support_i: np.ndarray, support_j: np.ndarray, named=str) -> list[tuple[np.ndarray, str, str]]:
     """What a moment-frame beam lacks (ACI 318-19 Chapter 18), as (rows, column, message).
@@ -897,7 +902,8 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
     18.4.2.4) and a joint at each end (a free end has no Mpr to develop); beams of ordinary
     frames need them only for the two-bar check of 18.3.2, so all or none. ``bars`` holds
     the BEAM_END_BARS columns (NaN where not given); ``named`` gives the name the file uses
-    for one of our columns (its unit system's spelling)."""
+    for one of our columns (its unit system's spelling). The messages are templates of each
+    member's frame, filled by ``with_frame``."""
     beam = kind == "beam"
     capacity = beam & np.isin(frame, ("special", "intermediate"))
     ordinary = beam & (frame == "ordinary")
@@ -905,7 +911,7 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
     out = []
     for k, c in enumerate(BEAM_END_BARS):
         out.append((capacity & ~given[:, k], c,
-                    f"a beam of a moment frame ({'{frame}'}) needs {named(c)} (ACI 318-19 "
+                    f"a beam of {'{a}'} {'{frame}'} moment frame needs {named(c)} (ACI 318-19 "
                     + ("18.6.4.4, 18.4.2.4: the hoop spacing" if c == "db_long_mm" else
                        "18.6.5.1, 18.4.2.3: Mpr or Mn at the faces") + ")"))
         out.append((ordinary & given.any(axis=1) & ~given[:, k], c,
@@ -913,7 +919,7 @@ def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.n
                     "check of "
                     "ACI 318-19 18.3.2), or none"))
     for end, sup in (("support_i", support_i), ("support_j", support_j)):
-        out.append((capacity & (sup == "free"), end, "a beam of a moment frame ({frame}) spans between joints; a free "
+        out.append((capacity & (sup == "free"), end, "a beam of {a} {frame} moment frame spans between joints; a free "
                                                      "end develops no Mpr or Mn (ACI 318-19 18.6.5.1, 18.4.2.3)"))
     return out
 
@@ -1020,7 +1026,7 @@ def read_members(path: str | Path, cmap: ColumnMap, frame_by_group: dict[str, st
     for rows, column, message in frame_bar_problems(frame, kind, bars, _str(t, "support_i"), _str(t, "support_j"),
                                                     named):
         rows = np.flatnonzero(rows)
-        probs.add(rows, column, [message.format(frame=frame[r]) + (
+        probs.add(rows, column, [with_frame(message, frame[r]) + (
             f" (frame from [frames].by_group of group '{group[r]}')" if from_group[r] else "") for r in rows[:MAX_REPORTED]])
     with np.errstate(over="ignore"):  # an absurd section is reported by the plausibility check
         gross = b * h

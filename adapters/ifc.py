@@ -80,7 +80,8 @@ from shapely.geometry import LineString, Point, Polygon
 from shapely.strtree import STRtree
 
 from postproc.adapters import digests
-from postproc.adapters.csv_tables import BEAM_END_BARS, MEMBER_COLUMNS, InputErrors, ZERO_WIDTH, frame_bar_problems
+from postproc.adapters.csv_tables import (BEAM_END_BARS, MEMBER_COLUMNS, InputErrors, ZERO_WIDTH, frame_bar_problems,
+                                          with_frame)
 from postproc.settings import FRAMES
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import unit_factor
@@ -1021,7 +1022,7 @@ def _frame_problem(row: dict, role: str) -> str | None:
                                                     np.array([row["support_i"]]), np.array([row["support_j"]])):
         if rows[0]:
             name = next((k for k, c in FRAME_PROPERTIES.items() if c == column), column)
-            return message.format(frame=frame) + f" ({DESIGN_PSET}.{name})"
+            return with_frame(message, frame) + f" ({DESIGN_PSET}.{name})"
     return None
 
 

@@ -137,7 +137,7 @@ def regions(mb, rs, cset, dem, why_deep: np.ndarray, settings: Settings) -> Regi
     note[flagged & ~d_ok] = ("d must lie between h/2 and h for the automatic truss (the tie at the centroid of the "
                              "bottom steel)")
     seismic = flagged & mb.frames.capacity & (note == "")
-    note[seismic] = [f"a beam of a moment frame ({fr.NAMES[int(c)]}, Chapter 18): its design shear comes from the "
+    note[seismic] = [f"a beam of {'an' if fr.NAMES[int(c)][0] in 'aeiou' else 'a'} {fr.NAMES[int(c)]} moment frame (Chapter 18): its design shear comes from the "
                      "probable moments at its ends (18.4.2.3, 18.6.5), which the automatic truss does not take; model it "
                      "by hand" for c in mb.frames.code[seismic]]
     try:
