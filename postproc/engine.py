@@ -259,18 +259,25 @@ def _joined(frames: list[pd.DataFrame], columns: list[str], input_order: pd.Inde
 
 
 def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
-    """One warning where the run has earthquake cases and no member belongs to a moment frame:
-    Chapter 18 is then not applied to anything. Where some member belongs to a special one,
-    one warning that phi = 0.60 of 21.2.4.1 is not applied to the other members."""
+    """Where the run has earthquake cases: one warning that E is taken as given (no vertical
+    effect added); one that Chapter 18 is applied to nothing where no member belongs to a
+    moment frame; where some member belongs to a special one, one that phi = 0.60 of
+    21.2.4.1 is not applied to the other members."""
     quake = sorted(c for c, t in cset.types.items() if t == "E")
-    frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
-    if quake and frame.eq("special").any() and frame.ne("special").any():
-        return ["a structure with special moment frames: phi = 0.60 for shear of 21.2.4.1 (a member designed to "
-                "resist E whose Vn is less than the shear at its nominal flexural strength) is NOT applied; the members "
-                "outside the special frames are designed with phi = 0.75: check by hand any of them that resists E"]
-    if not quake or frame.ne("none").any():
+    if not quake:
         return []
-    return [f"the run has earthquake cases ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}) but no member is "
+    out = [f"E is taken as its cases give it ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}): a vertical "
+           "earthquake effect the general building code adds to E (e.g. 0.2 S_DS D) is NOT added, in Table 5.3.1 (e) and "
+           "(g) or in the gravity load of Ve (Chapter 18); include it in the E cases where it applies"]
+    frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
+    if frame.eq("special").any() and frame.ne("special").any():
+        return out + ["a structure with special moment frames: phi = 0.60 for shear of 21.2.4.1 (a member designed to "
+                      "resist E whose Vn is less than the shear at its nominal flexural strength) is NOT applied; the "
+                      "members outside the special frames are designed with phi = 0.75: check by hand any of them that "
+                      "resists E"]
+    if frame.ne("none").any():
+        return out
+    return out + [f"the run has earthquake cases ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}) but no member is "
             "marked as part of a moment frame (members.csv `frame`, or [frames] by_group in the settings): ACI 318-19 "
             "Chapter 18 (capacity-design shear, hoops, joints) was NOT applied; every member is designed by Chapters 9 "
             "and 22 alone"]

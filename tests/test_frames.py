@@ -357,6 +357,8 @@ def test_one_warning_when_earthquake_cases_meet_no_frame(tmp_path):
     res = design(tmp_path / "b", [dict(member="B1", frame="special", **FRAME_BEAM)], beam_forces("B1"), CASES)
     warnings = json.loads((Store(res.store).runs()[-1].design_path / "manifest.json").read_text())["warnings"]
     assert not any("NOT applied" in w for w in warnings)
+    # with earthquake cases, E is taken as given: the vertical effect of the general building code is said not added
+    assert any(w.startswith("E is taken as its cases give it (E)") and "0.2 S_DS D) is NOT added" in w for w in warnings)
 
 
 def test_schedule_lists_hoops_with_seismic_hooks(special):
