@@ -732,6 +732,7 @@ class ElementForcesReader:
         turned = (by_ends >= 0) & (by_ends.astype(bool) != flip)  # the coordinates say the other way
         flip = np.where(by_ends >= 0, by_ends.astype(bool), flip)
         tie &= by_ends < 0
+        undecided = by_ends < 0 if by_member is not None else np.zeros(n_groups, bool)
         order = np.lexsort((np.where(flip[group], -s, s), group))
         g = group[order]
         starts = np.flatnonzero(np.r_[True, g[1:] != g[:-1]])
@@ -752,11 +753,15 @@ class ElementForcesReader:
         for k in np.flatnonzero(tie[g[starts]]):
             self.warnings.append(f"member '{member[starts[k]]}': as many of its elements run one way as the other; "
                                  "it is taken to start at its end of least x, then y, then z")
-        if by_member is not None and not self.ends_m:
-            self.warnings.append("the members table gives no end coordinates (x_i_m ... z_j_m): each member of the "
-                                 f"element export {self.path.name} runs the way most of its elements run; where that "
-                                 "is from its end j, face_i_mm, support_i and the zones are read at the wrong end: give "
-                                 "the coordinates to orient them")
+        for why, code in (("the members table gives no end coordinates (x_i_m ... z_j_m) for", NO_ENDS),
+                          ("the members table's end coordinates match neither end of the line of", OTHER_ORIGIN)):
+            names = [str(member[k]) for k in starts[undecided[g[starts]] & (by_ends[g[starts]] == code)]]
+            if names:
+                self.warnings.append(
+                    f"{why} {len(names)} member(s) of the element export {self.path.name} ({', '.join(names[:5])}"
+                    f"{' ...' if len(names) > 5 else ''}): each runs the way most of its elements run; where that is "
+                    "from its end j, face_i_mm, support_i and the zones are read at the wrong end: give the members' "
+                    "coordinates in the node table's axes to orient them")
         names = [str(member[k]) for k in starts[turned[g[starts]]]]
         if names:
             self.warnings.append(f"{len(names)} member(s) whose elements mostly run from the member's end j to its end "
@@ -768,25 +773,22 @@ class ElementForcesReader:
 
     def _flip_by_member_ends(self, by_member, group, n_groups: int, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
         """Per group of elements: 1 where the members table puts the member's end i at the
-        group's end ``hi`` (its line's largest projection), 0 where at ``lo``, -1 where it
-        cannot say (no member column, no coordinates, or ends matching neither way within a
-        twentieth of the length: another origin)."""
-        out = np.full(n_groups, -1)
+        group's end ``hi`` (its line's largest projection), 0 where at ``lo``; NO_ENDS where
+        the table gives no coordinates, OTHER_ORIGIN where its ends match the line's neither
+        way within a twentieth of its length plus the tolerance."""
+        out = np.full(n_groups, NO_ENDS)
         if by_member is None or not self.ends_m:
             return out
         codes, names = _codes(by_member)
         name_of = np.empty(n_groups, object)
         name_of[group] = np.asarray(names, object)[codes]
-        for k in range(n_groups):
-            ends = self.ends_m.get(str(name_of[k]))
-            if ends is None or not np.isfinite(ends).all():
-                continue
-            e_i, e_j = ends[:3], ends[3:]
-            near = 0.05 * np.linalg.norm(hi[k] - lo[k]) + self.el.tol_m
-            as_is = max(np.linalg.norm(lo[k] - e_i), np.linalg.norm(hi[k] - e_j))
-            swapped = max(np.linalg.norm(hi[k] - e_i), np.linalg.norm(lo[k] - e_j))
-            if min(as_is, swapped) <= near:
-                out[k] = int(swapped < as_is)
+        ends = np.array([self.ends_m.get(str(n), np.full(6, np.nan)) for n in name_of], float).reshape(-1, 6)
+        e_i, e_j = ends[:, :3], ends[:, 3:]
+        near = 0.05 * np.linalg.norm(hi - lo, axis=1) + self.el.tol_m
+        as_is = np.maximum(np.linalg.norm(lo - e_i, axis=1), np.linalg.norm(hi - e_j, axis=1))
+        swapped = np.maximum(np.linalg.norm(hi - e_i, axis=1), np.linalg.norm(lo - e_j, axis=1))
+        given = np.isfinite(ends).all(axis=1)
+        out[given] = np.where(np.minimum(as_is, swapped) <= near, (swapped < as_is).astype(int), OTHER_ORIGIN)[given]
         return out
 
     def _collinear_groups(self, a: pa.Array, b: pa.Array, pi, pj, u) -> np.ndarray:
@@ -1000,6 +1002,9 @@ def _index_in(values: pa.Array | pa.ChunkedArray, table: pa.Array | pa.ChunkedAr
     if isinstance(table, pa.ChunkedArray):
         table = table.combine_chunks()
     return pac.index_in(values, value_set=table).fill_null(-1).to_numpy(zero_copy_only=False).astype(np.int64)
+
+
+NO_ENDS, OTHER_ORIGIN = -1, -2  # _flip_by_member_ends: the members table cannot orient the member
 
 
 def _off_line(p: np.ndarray, p0: np.ndarray, u: np.ndarray) -> np.ndarray:

@@ -194,8 +194,12 @@ def test_a_member_drawn_from_its_end_j_is_read_from_end_i_by_the_members_coordin
     assert differences(chained, hand) < 1e-6
     assert any("1 member(s) whose elements mostly run from the member's end j to its end i" in w and "(B2)" in w
                for w in chained["warnings"])
+    assert not any("match neither" in w or "gives no end coordinates" in w for w in chained["warnings"])
+    elsewhere = members.assign(x_i_m=members.x_i_m + 100.0, x_j_m=members.x_j_m + 100.0)  # another origin
+    moved = run(tmp_path / "moved", forces, elsewhere, map_text, files, capsys)
+    assert any("end coordinates match neither end of the line of 5 member(s)" in w for w in moved["warnings"])
     without = run(tmp_path / "without", forces, fm.members_table(), map_text, files, capsys)
-    assert any("gives no end coordinates" in w for w in without["warnings"])
+    assert any("gives no end coordinates (x_i_m ... z_j_m) for 5 member(s)" in w for w in without["warnings"])
     b2 = lambda d: d["members"].set_index("member").loc["B2", ["vu_design_i_kN", "vu_design_j_kN"]].tolist()  # noqa
     assert b2(without) == b2(hand)[::-1]  # mirrored: what the warning is about
 
