@@ -49,6 +49,7 @@ from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import ColumnMap, TableMap
 from postproc.codes import aci318_19 as aci
 from postproc.settings import FRAMES  # moment frames of ACI 318-19 Chapter 18
+from postproc.terms import with_frame
 from postproc.units import SI, UnitSystem
 
 SUPPORTS = ("column", "wall", "girder", "hanger", "free")
@@ -886,11 +887,6 @@ def _check_plausible(t: pa.Table, probs: Problems, limits: dict, units: UnitSyst
 def _check_choice(values: np.ndarray, allowed: tuple[str, ...], column: str, probs: Problems) -> None:
     bad = ~np.isin(values, allowed)
     probs.add(bad, column, [f"'{v}' is not one of {', '.join(allowed)}" for v in values[bad][:MAX_REPORTED]])
-
-
-def with_frame(message: str, frame: str) -> str:
-    """A message of ``frame_bar_problems`` for one member's frame ('a special', 'an intermediate')."""
-    return message.format(frame=frame, a="an" if frame[:1] in "aeiou" else "a")
 
 
 def frame_bar_problems(frame: np.ndarray, kind: np.ndarray, bars: dict[str, np.ndarray],

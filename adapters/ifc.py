@@ -80,12 +80,12 @@ from shapely.geometry import LineString, Point, Polygon
 from shapely.strtree import STRtree
 
 from postproc.adapters import digests
-from postproc.adapters.csv_tables import (BEAM_END_BARS, MEMBER_COLUMNS, InputErrors, ZERO_WIDTH, frame_bar_problems,
-                                          with_frame)
+from postproc.adapters.csv_tables import BEAM_END_BARS, MEMBER_COLUMNS, InputErrors, ZERO_WIDTH, frame_bar_problems
 from postproc.settings import FRAMES
 from postproc.adapters.errors import InputError
 from postproc.adapters.mapping import unit_factor
 from postproc.codes import aci318_19 as aci
+from postproc.terms import with_frame
 
 DESIGN_PSET = "ShearpostDesign"
 SCHEMAS = ("IFC2X3", "IFC4")

@@ -674,8 +674,9 @@ def cmd_compare(args, store) -> int:
                 console.print(f"{title}: none")
         U = diff.units
         left = diff.mass_left_out
-        console.print(f"Stirrup {U.mass_word} of the members designed in both runs: {diff.stirrup_mass_a:,.1f} {U.mass} -> "
-                      f"{diff.stirrup_mass_b:,.1f} {U.mass} ({diff.stirrup_mass_b - diff.stirrup_mass_a:+,.1f} {U.mass})"
+        a, b = diff.stirrup_mass_a, diff.stirrup_mass_b
+        console.print(f"Stirrup {U.mass_word} of the members designed in both runs: {a:,.1f} {U.mass} -> "
+                      f"{b:,.1f} {U.mass} ({b - a:+,.1f} {U.mass})"
                       + (f"; left out, designed in one run only: {report.shown(', '.join(left[:10]))}"
                          + (f" and {len(left) - 10} more" if len(left) > 10 else "") if left else ""))
         if diff.newly_resize:

@@ -266,9 +266,10 @@ def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> lis
     quake = sorted(c for c, t in cset.types.items() if t == "E")
     if not quake:
         return []
-    out = [f"E is taken as its cases give it ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}): a vertical "
-           "earthquake effect the general building code adds to E (e.g. 0.2 S_DS D) is NOT added, in Table 5.3.1 (e) and "
-           "(g) or in the gravity load of Ve (Chapter 18); include it in the E cases where it applies"]
+    named = f"{', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}"
+    out = [f"E is taken as its cases give it ({named}): a vertical earthquake effect the general building code adds "
+           "to E (e.g. 0.2 S_DS D) is NOT added, in Table 5.3.1 (e) and (g) or in the gravity load of Ve (Chapter 18); "
+           "include it in the E cases where it applies"]
     frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
     if frame.eq("special").any() and frame.ne("special").any():
         return out + ["a structure with special moment frames: phi = 0.60 for shear of 21.2.4.1 (a member designed to "
@@ -277,10 +278,9 @@ def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> lis
                       "resists E"]
     if frame.ne("none").any():
         return out
-    return out + [f"the run has earthquake cases ({', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}) but no member is "
-            "marked as part of a moment frame (members.csv `frame`, or [frames] by_group in the settings): ACI 318-19 "
-            "Chapter 18 (capacity-design shear, hoops, joints) was NOT applied; every member is designed by Chapters 9 "
-            "and 22 alone"]
+    return out + [f"the run has earthquake cases ({named}) but no member is marked as part of a moment frame "
+                  "(members.csv `frame`, or [frames] by_group in the settings): ACI 318-19 Chapter 18 (capacity-design "
+                  "shear, hoops, joints) was NOT applied; every member is designed by Chapters 9 and 22 alone"]
 
 
 def columns_without_vb(out: pd.DataFrame, members: pd.DataFrame) -> list[str]:
@@ -320,9 +320,10 @@ def force_scale_hint(out: pd.DataFrame, U: units.UnitSystem) -> list[str]:
     if resize < SCALE_HINT_SHARE or not median > SCALE_HINT_UTILIZATION:
         return []
     force, per, col = (U.force, "N", "V_kN") if U.name == "si" else (U.force, "lb", "V_kip")
-    return [f"{resize:.0%} of the {len(tried):,} members designed need resizing, the median one at {median:,.1f} times its "
-            f"shear limits: are forces.csv's values in {force}? Forces in {per} under a {force} header look like this; "
-            f"a --map file converts them ([forces] units = {{ {col} = \"{per}\", ... }} for each force column)"]
+    return [f"{resize:.0%} of the {len(tried):,} members designed need resizing, the median one at {median:,.1f} "
+            f"times its shear limits: are forces.csv's values in {force}? Forces in {per} under a {force} header look "
+            f"like this; a --map file converts them ([forces] units = {{ {col} = \"{per}\", ... }} for each force "
+            "column)"]
 
 
 @dataclass(frozen=True)

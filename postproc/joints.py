@@ -135,12 +135,11 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
                 rows.append(_joint_row(t, fb, is_special, ends[here], away, offset, axis, c, c_above, storey, U))
     table = pd.DataFrame(rows, columns=COLUMNS)
     if len(table) and offset_max <= OFFSET_TOLERANCE[U.name]:
-        warnings.append(f"joints (18.8): every special-frame beam meets its column on the column's axis in the member "
-                        f"coordinates, so the effective width limit for a beam offset from that axis (twice the smaller "
-                        f"distance from the beam's axis to a column side, 18.8.4.3(b)) took no effect; where beams are "
-                        f"offset in the building (e.g. flush with a column face) but drawn on the axes, check those "
-                        f"joints with their real offset, or give coordinates that place the beams where they are")
-
+        warnings.append("joints (18.8): every special-frame beam meets its column on the column's axis in the member "
+                        "coordinates, so the effective width limit for a beam offset from that axis (twice the "
+                        "smaller distance from the beam's axis to a column side, 18.8.4.3(b)) took no effect; where "
+                        "beams are offset in the building (e.g. flush with a column face) but drawn on the axes, check "
+                        "those joints with their real offset, or give coordinates that place the beams where they are")
     for r in table[table.status != "ok"].itertuples():
         warnings.append(f"joint {r.joint} ({r.direction}): {r.message}")
     return table, warnings
@@ -225,8 +224,8 @@ def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, 
             best = (phi_vn, coef, bj * depth, bj, 2 * edge < min(width, bw_min + depth))
     phi_vn, coef, aj, bj, by_offset = best
     util = vu / phi_vn if phi_vn > 0 else np.inf  # bj = 0: a beam axis at or beyond the column side
-    msgs = [f"bj = {bj:,.0f} {mm}, twice the distance from a beam's axis {off:,.0f} {mm} off the column's to the nearer "
-            "column side (18.8.4.3(b))"] if by_offset else []
+    msgs = [f"bj = {bj:,.0f} {mm}, twice the distance from a beam's axis {off:,.0f} {mm} off the column's to the "
+            "nearer column side (18.8.4.3(b))"] if by_offset else []
     if util > 1.0:
         msgs.append(f"Vu {vu / U.per_force:,.1f} {U.force} exceeds phi*Vn {phi_vn / U.per_force:,.1f} {U.force} "
                     "(18.8.4.3): enlarge the column or raise f'c")
@@ -242,7 +241,8 @@ def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, 
     level = t.level[beams[frame_beam][0]] if t.level is not None else ""
     return dict(joint=f"{t.member[c]}:top", members=" ".join(map(str, names)), vu_kN=round(vu / U.per_force, 2),
                 phi_vn_kN=round(phi_vn / U.per_force, 2), utilization=round(util, 3),
-                status="ok" if util <= 1.0 and not depth_short else "resize", message="; ".join(msgs), direction=_direction(axis), level=level,
+                status="ok" if util <= 1.0 and not depth_short else "resize", message="; ".join(msgs),
+                direction=_direction(axis), level=level,
                 column_below=t.member[c], column_above=t.member[c_above] if c_above >= 0 else "",
                 coefficient=coef, aj_mm2=round(aj, 0 if U.name == "si" else 1))
 

@@ -52,7 +52,7 @@ class Schedule:
             for ext in ("csv", "parquet"):
                 p = out / f"schedule_{name}.{ext}"
                 tmp = p.with_name(f".{p.name}.tmp")
-                if ext == "csv":  # section values converted from the other system read as given: 19.685, not 19.6850393...
+                if ext == "csv":  # converted section values read as given: 19.685 in, not 19.6850393...
                     shown = df.round({c: 3 for c in units.system_of(df.columns).cols(SECTION_KEYS) if c in df})
                     shown.to_csv(tmp, index=False, lineterminator="\n")
                 else:
@@ -143,10 +143,11 @@ def strut_and_tie_bars(run: Run, members: list[str], marks: dict[str, str]) -> l
             else:
                 a, b, hooks = max(t.extent_start_mm - t.ld_mm, lo), hi, int(t.anchorage_j == "standard hook")
             where = "" if t.model == "whole" else f", end region {t.model}"
-            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"{STRUT_AND_TIE_SHAPES[0]}{where}", t.tie_bar, b - a, hooks,
+            tie_shape, web_shape = (f"{shape}{where}" for shape in STRUT_AND_TIE_SHAPES)
+            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, tie_shape, t.tie_bar, b - a, hooks,
                                           t.tie_bars, u))
             layers = max(int(np.ceil((2 * g.d_mm - g.h_mm) / s.web_bar_spacing_mm)) - 1, 1)
-            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, f"{STRUT_AND_TIE_SHAPES[1]}{where}", s.web_bar, b - a, 0,
+            rows.append(_longitudinal_bar(m, marks.get(m, ""), g.level, web_shape, s.web_bar, b - a, 0,
                                           layers * int(s.web_bars_per_layer), u))
     return rows
 

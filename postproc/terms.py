@@ -67,3 +67,9 @@ def did_you_mean(unknown: str, known, n: int = 3) -> str:
     if not close:
         return ""
     return "; did you mean " + " or ".join(repr(c) for c in close) + "?"
+
+
+def with_frame(message: str, frame: str) -> str:
+    """A message template for one member's moment frame: ``{frame}`` its name, ``{a}`` its
+    article ('a special', 'an intermediate')."""
+    return message.format(frame=frame, a="an" if frame[:1] in "aeiou" else "a")

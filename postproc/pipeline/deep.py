@@ -60,7 +60,7 @@ from postproc.codes import aci318_19_stm as stm_code
 from postproc.demand import frames as fr
 from postproc.pipeline import SelfCheckError, edition, unit_system
 from postproc.settings import Settings
-from postproc.terms import METHODS
+from postproc.terms import METHODS, with_frame
 
 METHOD_SECTIONAL, METHOD_STM, METHOD_JOINED = METHODS
 TABLES = ("members", "models", "nodes", "faces", "struts", "ties")  # stored as design/stm_<name>.parquet
@@ -137,9 +137,9 @@ def regions(mb, rs, cset, dem, why_deep: np.ndarray, settings: Settings) -> Regi
     note[flagged & ~d_ok] = ("d must lie between h/2 and h for the automatic truss (the tie at the centroid of the "
                              "bottom steel)")
     seismic = flagged & mb.frames.capacity & (note == "")
-    note[seismic] = [f"a beam of {'an' if fr.NAMES[int(c)][0] in 'aeiou' else 'a'} {fr.NAMES[int(c)]} moment frame (Chapter 18): its design shear comes from the "
-                     "probable moments at its ends (18.4.2.3, 18.6.5), which the automatic truss does not take; model it "
-                     "by hand" for c in mb.frames.code[seismic]]
+    note[seismic] = [with_frame("a beam of {a} {frame} moment frame (Chapter 18): its design shear comes from the "
+                                "probable moments at its ends (18.4.2.3, 18.6.5), which the automatic truss does not "
+                                "take; model it by hand", fr.NAMES[int(c)]) for c in mb.frames.code[seismic]]
     try:
         names, factors = cset.explicit
     except ValueError as exc:

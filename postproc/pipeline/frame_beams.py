@@ -234,5 +234,5 @@ def _note(fb: fr.FrameBeams, m: int, mb, sel, m_sel, ve, label, zone, vc_zero, s
     return (f"intermediate moment frame (18.4.2): phi*Vn >= the lesser of (a) from Mn and (b) with Omega_o = "
             f"{settings.frames.omega_o:g}: {v[0]:,.1f} / {v[-1]:,.1f} {U.force} at faces i / j, {which(rule[0])} / "
             f"{which(rule[-1])} the lesser (18.4.2.3); hoops over 2h = {h2:,.0f} {mm} from each face, the first within "
-            f"{first} (18.4.2.4); not applied here: vertical earthquake effects in the gravity load of (a) (1.2D + 1.0L "
-            "+ 0.2S only)")
+            f"{first} (18.4.2.4); not applied here: vertical earthquake effects in the gravity load of (a) "
+            "(1.2D + 1.0L + 0.2S only)")
