@@ -344,7 +344,8 @@ class OpenStore:
 
     def governing(self, run: str | None = None, levels=(), groups=(), statuses=(), top: int | None = None):
         """Members ranked as `shearpost govern` ranks them: those needing action first.
-        A level, group or status that no member has raises govern.UnknownFilter."""
+        A level or group no member has, or a word that is not a status, raises
+        govern.UnknownFilter; a status no member has gives an empty ranking."""
         from postproc import govern
 
         return govern.rank(self._run(run), levels, groups, statuses, top)

@@ -64,7 +64,7 @@ class UnknownFilter(ValueError):
 
 def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) -> pd.DataFrame:
     """Members ranked for review (see rank_order), filtered by level, group and status
-    (UnknownFilter for a value no member has)."""
+    (UnknownFilter for a level or group no member has, or a word that is not a status)."""
     df = results_with_labels(run)
     for column, given in (("level", levels), ("group", groups), ("status", statuses)):
         known = list(STATUSES) if column == "status" else sorted({str(v) for v in df[column].dropna() if str(v)})
