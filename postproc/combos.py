@@ -150,7 +150,10 @@ def prefactored(cases: list[str]) -> ComboSet:
 
 
 def _fmt(f: float, case: str) -> str:
-    return f"{'-' if f < 0 else '+'}{abs(f):.1f}{case}"
+    """'+1.2D': a factor to one decimal, or as many as it has (1.35 with a vertical earthquake)."""
+    a = abs(f)
+    text = f"{a:.1f}" if round(a, 1) == round(a, 9) else f"{a:g}"
+    return f"{'-' if f < 0 else '+'}{text}{case}"
 
 
 def aci_5_3_1(case_types: dict[str, str], cases: list[str], settings: Combinations,
@@ -208,24 +211,27 @@ def aci_5_3_1(case_types: dict[str, str], cases: list[str], settings: Combinatio
             rows.append(row("c", 1.2, roof(r, 1.6) + lateral_term("W", 0.5)))
     if by_type.get("W"):
         rows += [row("d", 1.2, lateral_term("W", 1.0) + variable_terms("L", lf) + roof(r, 0.5)) for r in roofs]
+    ev = settings.vertical_earthquake  # Ev = ev D with E: added to D in (e), taken from it in (g)
     if by_type.get("E"):
-        rows.append(row("e", 1.2, lateral_term("E", 1.0) + variable_terms("L", lf) + variable_terms("S", 0.2)))
+        rows.append(row("e", 1.2 + ev, lateral_term("E", 1.0) + variable_terms("L", lf) + variable_terms("S", 0.2)))
     if by_type.get("W"):
         rows.append(row("f", 0.9, lateral_term("W", 1.0)))
     if by_type.get("E"):
-        rows.append(row("g", 0.9, lateral_term("E", 1.0)))
+        rows.append(row("g", 0.9 - ev, lateral_term("E", 1.0)))
     return ComboSet(list(cases), rows, False, patterns, {c: case_types[c] for c in cases})
 
 
 def seismic_gravity(cset: ComboSet, settings: Combinations) -> ComboSet:
     """The factored gravity load of the capacity-design shear, 1.2D + 1.0L + 0.2S (18.6.5.1,
-    18.4.2.3(a); the gravity part of Table 5.3.1(e), 0.5L where the settings take 5.3.3):
-    one row named '18.6.5.1', each variable load present or absent (5.3.2), cases sharing a
-    pattern label alternatives (6.4). Vertical earthquake effects are not in the inputs."""
+    18.4.2.3(a); the gravity part of Table 5.3.1(e), 0.5L where the settings take 5.3.3, and
+    (1.2 + c)D with the settings' vertical earthquake Ev = c D): one row named '18.6.5.1',
+    each variable load present or absent (5.3.2), cases sharing a pattern label
+    alternatives (6.4)."""
     n, index = len(cset.cases), {c: k for k, c in enumerate(cset.cases)}
     dead = [c for c in cset.cases if cset.types.get(c) == "D"]
+    fd = 1.2 + settings.vertical_earthquake
     fixed = np.zeros(n)
-    fixed[[index[c] for c in dead]] = 1.2
+    fixed[[index[c] for c in dead]] = fd
     terms = []
     for kind, f in (("L", 0.5 if settings.reduced_live_factor else 1.0), ("S", 0.2)):
         groups: dict[str, list[str]] = {}
@@ -236,7 +242,7 @@ def seismic_gravity(cset: ComboSet, settings: Combinations) -> ComboSet:
             for k, c in enumerate(members, start=1):
                 options[k, index[c]] = f
             terms.append(Term(options, ("",) + tuple(_fmt(f, c) for c in members)))
-    label = "".join(_fmt(1.2, c) for c in dead).lstrip("+")
+    label = "".join(_fmt(fd, c) for c in dead).lstrip("+")
     return ComboSet(list(cset.cases), [Row("18.6.5.1", fixed, label, tuple(terms))], False, cset.patterns, cset.types)
 
 

@@ -111,7 +111,7 @@ def design_run(run: Run, settings: Settings, folder: Path, map_parts=map, progre
     members = run.members().to_pandas()
     input_order = pd.Index(members["member"])  # ids are unique (members.csv and IFC are checked)
     cset, warnings = combination_set(run, run.manifest()["cases"], settings)
-    warnings += chapter_18_warnings(members, cset)
+    warnings += chapter_18_warnings(members, cset, settings.combinations.vertical_earthquake)
     joints, joint_warnings = joints_mod.design_joints(members, settings)
     warnings += joint_warnings
     rows: list[dict] = []  # members not designed here (invalid, not covered, no forces, no geometry)
@@ -258,18 +258,19 @@ def _joined(frames: list[pd.DataFrame], columns: list[str], input_order: pd.Inde
     return out
 
 
-def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet) -> list[str]:
-    """Where the run has earthquake cases: one warning that E is taken as given (no vertical
-    effect added); one that Chapter 18 is applied to nothing where no member belongs to a
-    moment frame; where some member belongs to a special one, one that phi = 0.60 of
-    21.2.4.1 is not applied to the other members."""
+def chapter_18_warnings(members: pd.DataFrame, cset: combos_mod.ComboSet, ev: float = 0.0) -> list[str]:
+    """Where the run has earthquake cases: one warning that E is taken as given where the
+    settings add no vertical effect (``ev``: c of Ev = c D); one that Chapter 18 is applied
+    to nothing where no member belongs to a moment frame; where some member belongs to a
+    special one, one that phi = 0.60 of 21.2.4.1 is not applied to the other members."""
     quake = sorted(c for c, t in cset.types.items() if t == "E")
     if not quake:
         return []
     named = f"{', '.join(quake[:5])}{' ...' if len(quake) > 5 else ''}"
-    out = [f"E is taken as its cases give it ({named}): a vertical earthquake effect the general building code adds "
-           "to E (e.g. 0.2 S_DS D) is NOT added, in Table 5.3.1 (e) and (g) or in the gravity load of Ve (Chapter 18); "
-           "include it in the E cases where it applies"]
+    out = [] if ev > 0 else [
+        f"E is taken as its cases give it ({named}): a vertical earthquake effect the general building code adds to E "
+        "(e.g. 0.2 S_DS D) is NOT added, in Table 5.3.1 (e) and (g) or in the gravity load of Ve (Chapter 18); set "
+        "[combinations] vertical_earthquake = 0.2 S_DS, or include it in the E cases, where it applies"]
     frame = members["frame"].fillna("none") if "frame" in members else pd.Series("none", index=members.index)
     if frame.eq("special").any() and frame.ne("special").any():
         return out + ["a structure with special moment frames: phi = 0.60 for shear of 21.2.4.1 (a member designed to "

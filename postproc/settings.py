@@ -4,6 +4,8 @@
 
     [combinations]
     reduced_live_factor = false     # ACI 318-19 5.3.3: 0.5L in 5.3.1 (c), (d), (e)
+    vertical_earthquake = 0.0       # c of the vertical effect Ev = c D the general building code adds to
+                                    # E (0.2 S_DS): (1.2 + c)D in (e) and in Ve's gravity load, (0.9 - c)D in (g)
 
     [stations]
     max_step_mm = 50                # station grid at most this far apart ...
@@ -116,6 +118,7 @@ def bar_catalogue(units: str) -> dict[str, tuple[float, float]]:
 @dataclass(frozen=True)
 class Combinations:
     reduced_live_factor: bool = False
+    vertical_earthquake: float = 0.0  # c of Ev = c D (0.2 S_DS, the general building code's), with E
 
 
 @dataclass(frozen=True)
@@ -529,6 +532,9 @@ def validated_settings(doc: dict, path: Path, units: str | None = None) -> Setti
         raise InputError(path, "[detailing].max_zones_per_end must be at least 1")
     if s.frames.omega_o <= 0:
         raise InputError(path, "[frames].omega_o must be greater than zero")
+    if s.combinations.vertical_earthquake > 0.5:
+        raise InputError(path, "[combinations].vertical_earthquake is c of Ev = c D, 0.2 S_DS: at most 0.5 (S_DS "
+                               "2.5); a larger value is likely S_DS itself")
     if s.deep.load_width <= 0 or s.deep.bearing_max_h <= 0:
         raise InputError(path, f"[deep] needs {col('load_width_mm')} > 0 and bearing_max_h > 0")
     if s.columns.biaxial_shear not in ("code", "elliptical"):

@@ -88,6 +88,30 @@ def special(tmp_path_factory):
     return design(tmp_path_factory.mktemp("special"), members, beam_forces("B1") + beam_forces("B2"), CASES)
 
 
+def test_a_vertical_earthquake_effect_raises_ve_and_the_e_rows(tmp_path):
+    """[combinations] vertical_earthquake = 0.2 (Ev = 0.2 S_DS D with S_DS = 1.0, the general building
+    code's): Ve's gravity load is (1.2 + 0.2)D + 1.0L, at the face 1.4 x 75 + 30 = 135 kN with the sway shear
+    of Mpr by hand (18.6.5.1); Table 5.3.1 (e) is 1.4D + 1.0E + 1.0L (at the face 105 + 60 + 30 = 195 kN)
+    and (g) 0.7D + 1.0E; the run no longer says Ev is left out."""
+    cfg = tmp_path / "ev.toml"
+    cfg.write_text("[combinations]\nvertical_earthquake = 0.2\n")
+    res = design(tmp_path, [dict(member="B1", frame="special", **FRAME_BEAM)], beam_forces("B1"), CASES,
+                 extra=["--config", str(cfg)])
+    mpr_neg, mpr_pos = hand_mpr()
+    st = _trace(res, "B1")
+    assert st.ve_kN.iloc[0] == pytest.approx((mpr_neg + mpr_pos) / LN / 1e3 + 135.0, abs=0.02)
+    run = Store(res.store).runs()[-1]
+    names = set(pq.read_table(run.design_path / "combinations.parquet").column("combination").to_pylist())
+    assert "5.3.1e 1.4D+1.0E+1.0L" in names and "5.3.1g 0.7D-1.0E" in names
+    assert "vertical_earthquake" in res.members.set_index("member").message["B1"]
+    warnings = json.loads((run.design_path / "manifest.json").read_text())["warnings"]
+    assert not any("E is taken as its cases give it" in w for w in warnings)
+    cfg.write_text("[combinations]\nvertical_earthquake = 1.0\n")  # S_DS given for 0.2 S_DS: refused
+    assert cli.main(["run", "--members", str(tmp_path / "in" / "members.csv"), "--forces",
+                     str(tmp_path / "in" / "forces.csv"), "--config", str(cfg), "--out", str(tmp_path / "o2"),
+                     "--store", str(tmp_path / "s2")]) == cli.EXIT_INPUT
+
+
 def _trace(res, member: str) -> pd.DataFrame:
     return res.stations[res.stations.member == member].sort_values(["x_mm", "side"]).reset_index(drop=True)
 
@@ -324,7 +348,7 @@ def test_frame_by_group_from_the_settings(tmp_path, capsys):
     assert "special moment frame (18.6)" in msg["B1"] and "moment frame" not in str(msg["B2"])
     # what Chapter 18 asks and the tool does not do is said: per frame beam, and per run 21.2.4.1 for B2
     assert "not applied here: hoops over 2h each side of a section of likely yielding" in msg["B1"]
-    assert "(18.6.4.1(b)); vertical earthquake effects in the gravity load of Ve" in msg["B1"]
+    assert "(18.6.4.1(b)); vertical earthquake effects not in the gravity load of Ve" in msg["B1"]
     warnings = json.loads((Store(res.store).runs()[-1].design_path / "manifest.json").read_text())["warnings"]
     assert any("phi = 0.60 for shear of 21.2.4.1" in w and "NOT applied" in w for w in warnings)
     cfg.write_text('[frames]\nby_group = { perimeter = "spcial" }\n')

@@ -210,8 +210,16 @@ def _append(cand: Candidates, stations: np.ndarray, values: dict, rows: np.ndarr
                            first_extra=first_extra, extra_names=names)
 
 
-NOT_APPLIED = ("not applied here: hoops over 2h each side of a section of likely yielding away from the ends "
-               "(18.6.4.1(b)); vertical earthquake effects in the gravity load of Ve (1.2D + 1.0L + 0.2S only)")
+IN_SPAN_HINGES = ("not applied here: hoops over 2h each side of a section of likely yielding away from the ends "
+                  "(18.6.4.1(b))")
+
+
+def _vertical(settings: Settings) -> str:
+    """What the gravity load of Ve took of a vertical earthquake effect (Ev = c D)."""
+    c = settings.combinations.vertical_earthquake
+    return (f"the gravity load of Ve with Ev = {c:g}D ([combinations] vertical_earthquake)" if c > 0 else
+            "vertical earthquake effects not in the gravity load of Ve (1.2D + 1.0L + 0.2S; [combinations] "
+            "vertical_earthquake)")
 
 
 def _note(fb: fr.FrameBeams, m: int, mb, sel, m_sel, ve, label, zone, vc_zero, settings: Settings) -> str:
@@ -229,10 +237,9 @@ def _note(fb: fr.FrameBeams, m: int, mb, sel, m_sel, ve, label, zone, vc_zero, s
                 f"{U.moment} (18.6.5.1); hoops over 2h = {h2:,.0f} {mm} from each face, the first within {first} "
                 "(18.6.4)"
                 + (f"; Vc = 0 there at end {' and '.join(zero)} (18.6.5.2)" if zero else
-                   "; Vc kept: 18.6.5.2 (a) or (b) not met") + "; " + NOT_APPLIED)
+                   "; Vc kept: 18.6.5.2 (a) or (b) not met") + f"; {IN_SPAN_HINGES}; {_vertical(settings)}")
     which = lambda r: "(b)" if r == 4 else "(a)"
     return (f"intermediate moment frame (18.4.2): phi*Vn >= the lesser of (a) from Mn and (b) with Omega_o = "
             f"{settings.frames.omega_o:g}: {v[0]:,.1f} / {v[-1]:,.1f} {U.force} at faces i / j, {which(rule[0])} / "
             f"{which(rule[-1])} the lesser (18.4.2.3); hoops over 2h = {h2:,.0f} {mm} from each face, the first within "
-            f"{first} (18.4.2.4); not applied here: vertical earthquake effects in the gravity load of (a) "
-            "(1.2D + 1.0L + 0.2S only)")
+            f"{first} (18.4.2.4); {_vertical(settings).replace('Ve', '(a)')}")
