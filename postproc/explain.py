@@ -451,7 +451,9 @@ def _frame_step(row: pd.DataFrame, m, r, st, ln: float, settings: Settings, U: U
         v1, v2 = fr.sway_shears(fb, np.array([ln]), probable=False)
         lines.append(f"sway shears from Mn at both ends / ln: {v1[0] / U.per_force:,.1f} and "
                      f"{-v2[0] / U.per_force:,.1f} {kN} (18.4.2.3(a))")
-    lines.append("gravity 1.2D + 1.0L + 0.2S (each variable load present or absent) on the clear span as a simple "
+    ev = settings.combinations.vertical_earthquake
+    dead = f"(1.2 + {_g(ev)})D, Ev = {_g(ev)}D with E," if ev > 0 else "1.2D"
+    lines.append(f"gravity {dead} + 1.0L + 0.2S (each variable load present or absent) on the clear span as a simple "
                  "beam: the analysis shear less its end-moment part, the mean of V over ln (Fig. R18.6.5)")
     ve = st.ve_kN.to_numpy(float) if "ve_kN" in st else np.full(len(st), np.nan)
     if np.isfinite(ve).any():
