@@ -531,6 +531,8 @@ class ElementForcesReader:
         if el.has_node_ids:
             rev = self._direction_by_nodes(a.take(pa.array(order)), b.take(pa.array(order)), same_next, chain_elem,
                                            src)
+            alone = np.repeat(count == 1, count) & (stated >= 0)  # no neighbour to tell: as stated (or by geometry)
+            rev[alone] = stated[alone].astype(bool)
             said = stated >= 0
             wrong = np.flatnonzero(said & (stated.astype(bool) != rev))
             if len(wrong):
@@ -761,13 +763,16 @@ class ElementForcesReader:
                     f"{why} {len(names)} member(s) of the element export {self.path.name} ({', '.join(names[:5])}"
                     f"{' ...' if len(names) > 5 else ''}): each runs the way most of its elements run; where that is "
                     "from its end j, face_i_mm, support_i and the zones are read at the wrong end: give the members' "
-                    "coordinates in the node table's axes to orient them")
+                    "end coordinates, z up, and the node table's in the same axes (its columns map) to orient them")
         names = [str(member[k]) for k in starts[turned[g[starts]]]]
         if names:
             self.warnings.append(f"{len(names)} member(s) whose elements mostly run from the member's end j to its end "
                                  f"i by the members table's coordinates ({', '.join(names[:5])}"
                                  f"{' ...' if len(names) > 5 else ''}): read from end i, as the table places it")
-        return (member, order, np.full(n, -1), None,
+        # a member of one element has no neighbour to give its direction: the line's, as ``flip`` took it
+        alone = (n_all[group] == 1)[order]
+        against = (forward == flip[group])[order]  # the element's node i at the member's end j
+        return (member, order, np.where(alone, against, -1).astype(np.int64), None,
                 Source(self.path, first_row[order], self.table.source_name("element"),
                        f"by the node table {el.nodes.name} and {rule}"))
 

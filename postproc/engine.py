@@ -320,7 +320,7 @@ def force_scale_hint(out: pd.DataFrame, U: units.UnitSystem) -> list[str]:
     median = float(tried["utilization"].astype(float).median())
     if resize < SCALE_HINT_SHARE or not median > SCALE_HINT_UTILIZATION:
         return []
-    force, per, col = (U.force, "N", "V_kN") if U.name == "si" else (U.force, "lb", "V_kip")
+    force, per, col = (U.force, "N", "V_kN") if U.name == "si" else (U.force, "lbf", "V_kip")
     return [f"{resize:.0%} of the {len(tried):,} members designed need resizing, the median one at {median:,.1f} "
             f"times its shear limits: are forces.csv's values in {force}? Forces in {per} under a {force} header look "
             f"like this; a --map file converts them ([forces] units = {{ {col} = \"{per}\", ... }} for each force "

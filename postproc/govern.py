@@ -67,16 +67,13 @@ def rank(run: Run, levels=(), groups=(), statuses=(), top: int | None = None) ->
     (UnknownFilter for a level or group no member has, or a word that is not a status)."""
     df = results_with_labels(run)
     for column, given in (("level", levels), ("group", groups), ("status", statuses)):
+        wanted = [str(v) for v in ([given] if isinstance(given, str) else given or ())]  # "L1" is one level
         known = list(STATUSES) if column == "status" else sorted({str(v) for v in df[column].dropna() if str(v)})
-        unknown = [str(v) for v in given or () if str(v) not in known]
+        unknown = [v for v in wanted if v not in known]
         if unknown:
             raise UnknownFilter(column, unknown, known)
-    if levels:
-        df = df[df.level.isin(levels)]
-    if groups:
-        df = df[df.group.isin(groups)]
-    if statuses:
-        df = df[df.status.isin(statuses)]
+        if wanted:
+            df = df[df[column].astype(str).isin(wanted)]
     df = df.iloc[rank_order(df)]
     if top:
         df = df.head(top)

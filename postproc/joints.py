@@ -126,7 +126,7 @@ def design_joints(members: pd.DataFrame, settings: Settings) -> tuple[pd.DataFra
         away = away / np.maximum(np.hypot(away[:, 0], away[:, 1]), 1e-12)[:, None]
         rel = pts[here, :2] - top[k, :2]  # the beam's axis from the column's, in plan: its perpendicular distance
         offset = np.abs(rel[:, 0] * away[:, 1] - rel[:, 1] * away[:, 0]) * span
-        offset_max = max(offset_max, float(offset.max()))
+        offset_max = max(offset_max, float(offset[is_special[ends[here, 0]]].max()))
         c, c_above = cols[k], (cols[above[k]] if above[k] >= 0 else -1)
         storey = (length[c] + length[c_above]) / 2 if c_above >= 0 else length[c]
         for axis in _axes(away):
@@ -212,8 +212,10 @@ def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, 
     lam = float(t.lam[c]) if t.lam is not None and np.isfinite(t.lam[c]) else 1.0
     bw_min = float(bw[beams[frame_beam]].min())
     off = float(offset[frame_beam].max())  # the frame beam farthest off the column's axis
+    ways = ((col_h, col_b), (col_b, col_h))  # the orientation is not known: the lesser, of those that hold the beam
+    ways = [w for w in ways if off <= w[1] / 2 + OFFSET_TOLERANCE[U.name]] or list(ways)
     best = None
-    for depth, width in ((col_h, col_b), (col_b, col_h)):  # the orientation is not known: the lesser
+    for depth, width in ways:
         sides = [bw[beams[across & (np.sign(away @ perp) == s)]] for s in (1, -1)]
         confined = all(len(w) and aci.transverse_beams_confine(w.max(), w.max(), depth) for w in sides)
         coef = float(aci.joint_strength_coefficient(c_above >= 0, both_sides, confined, u))
@@ -224,8 +226,9 @@ def _joint_row(t: _Columns, fb: fr.FrameBeams, special: np.ndarray, ends, away, 
             best = (phi_vn, coef, bj * depth, bj, 2 * edge < min(width, bw_min + depth))
     phi_vn, coef, aj, bj, by_offset = best
     util = vu / phi_vn if phi_vn > 0 else np.inf  # bj = 0: a beam axis at or beyond the column side
-    msgs = [f"bj = {bj:,.0f} {mm}, twice the distance from a beam's axis {off:,.0f} {mm} off the column's to the "
-            "nearer column side (18.8.4.3(b))"] if by_offset else []
+    nd = 0 if U.name == "si" else 1
+    msgs = [f"bj = {bj:,.{nd}f} {mm}, twice the distance from a beam's axis {off:,.{nd}f} {mm} off the column's to "
+            "the nearer column side (18.8.4.3(b))"] if by_offset else []
     if util > 1.0:
         msgs.append(f"Vu {vu / U.per_force:,.1f} {U.force} exceeds phi*Vn {phi_vn / U.per_force:,.1f} {U.force} "
                     "(18.8.4.3): enlarge the column or raise f'c")

@@ -160,6 +160,7 @@ def governing_table(df: pd.DataFrame, width: int) -> Table:
     end = {e: df[[c for c in U.cols([f"vu_design_{e}_kN", f"vb_design_{e}_kN"]) if c in df]].astype(float).abs()
            .max(axis=1) for e in "ij"}
     vu = pd.concat(end.values(), axis=1).max(axis=1)
+    by_vb = any((end[e] > df[U.col(f"vu_design_{e}_kN")].astype(float).abs().fillna(0.0)).any() for e in "ij")
     cells = {
         "rank": df["rank"].astype(str), "member": df["member"].map(shown),
         "status": df["status"], "utilization": df["utilization"].map(lambda u: "" if u is None or u != u else f"{u:.3f}"),
@@ -182,7 +183,8 @@ def governing_table(df: pd.DataFrame, width: int) -> Table:
     for columns in choices:
         if not set(columns) <= set(cells):
             continue
-        t = Table(box=box.SIMPLE_HEAD, pad_edge=False, collapse_padding=True)
+        t = Table(box=box.SIMPLE_HEAD, pad_edge=False, collapse_padding=True,
+                  caption="Vu: the larger of V and Vb at the end (a column governed by Vb)" if by_vb else None)
         for col in columns:
             t.add_column("#" if col == "rank" else label(U.col(col)), justify="right" if col in right else "left",
                          no_wrap=col != "member", overflow="fold" if col == "member" else "ellipsis")

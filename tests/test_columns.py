@@ -127,8 +127,10 @@ def test_the_review_tables_show_a_columns_larger_direction(rect, capsys, monkeyp
 
     monkeypatch.setenv("COLUMNS", "160")
     assert cli.main(["govern", "--store", str(rect.store)]) == 0
-    line = next(x for x in capsys.readouterr().out.splitlines() if " VB " in x)
+    out = capsys.readouterr().out
+    line = next(x for x in out.splitlines() if " VB " in x)
     assert line.split().count("250.0") == 2 and "20.0" not in line.split()
+    assert "Vu: the larger of V and Vb at the end" in out
     assert cli.main(["govern", "--store", str(rect.store), "--format", "csv"]) == 0
     header, *rows = capsys.readouterr().out.splitlines()
     assert header.endswith(",kind,vb_design_i_kN,vb_design_j_kN")

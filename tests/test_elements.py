@@ -176,20 +176,21 @@ def test_a_member_drawn_from_its_end_j_is_read_from_end_i_by_the_members_coordin
     """PyNite's frame with every element of B2 drawn from T3 towards T2 (so most of them, all, run
     from the member's end j): read by node coordinates and the export's member column, B2 would
     run T3 to T2, mirrored against members.csv. With the members' end coordinates (T2 = (6, 3.5,
-    0) m, T3 = (14, 3.5, 0) m; PyNite's global axes) it is read from end i and designs as the
+    0) m, T3 = (14, 3.5, 0) m in PyNite's axes, z up in ours) it is read from end i and designs as the
     member rows of PyNite's member diagrams; without them the run says how it chose."""
     model = fm.separate(tuple(f"B2e{k}" for k in range(1, 7)))
     forces = fm.element_rows(model)
     forces["frame"] = forces["elem"].str.split("e").str[0]  # the export's member column: B1, B2, C1, ...
     files = {"nodes.csv": fm.node_rows(model)}
-    map_text = MAPS["member-column"] + 'reversed_flip = ["V_kN"]\n'
+    # PyNite's Y is up; the members table's z is (README): the node table read with its axes named so
+    map_text = MAPS["member-column"].replace('y = "gy", z = "gz"', 'y = "gz", z = "gy"') + 'reversed_flip = ["V_kN"]\n'
     members = fm.members_table()
     x, top = np.array(fm.XS) / 1e3, fm.HEIGHT / 1e3  # m
     ends = {"B1": (x[0], top, x[1], top), "B2": (x[1], top, x[2], top),
             **{f"C{k}": (x[k - 1], 0.0, x[k - 1], top) for k in (1, 2, 3)}}
-    for name, (xi, yi, xj, yj) in ends.items():
+    for name, (xi, zi, xj, zj) in ends.items():
         members.loc[members.member == name, ["x_i_m", "y_i_m", "z_i_m", "x_j_m", "y_j_m", "z_j_m"]] = \
-            [xi, yi, 0.0, xj, yj, 0.0]
+            [xi, 0.0, zi, xj, 0.0, zj]
     chained = run(tmp_path / "with", forces, members, map_text, files, capsys)
     assert differences(chained, hand) < 1e-6
     assert any("1 member(s) whose elements mostly run from the member's end j to its end i" in w and "(B2)" in w
@@ -422,6 +423,43 @@ def test_section_forces_with_stations_inside_elements_and_lengths_snapped(tmp_pa
     np.testing.assert_allclose(x, np.array([0.0, 0.667, 2.0, 2.0, 2.5, 3.5004, 3.5004, 4.3334, 6.0004]) * scale,
                                atol=1e-9)
     np.testing.assert_allclose(got.V_kN, [V(x0 + xl) for _, x0, x1 in SPAN for xl in (0.0, (x1 - x0) / 3, x1 - x0)])
+
+
+def test_a_member_of_one_element_drawn_from_its_end_j_is_oriented_by_the_members_coordinates(tmp_path):
+    """A 6 m member as one element 'g' drawn from node D (x = 16 m) back to node A (x = 10 m), local y up
+    (so V is negated in its own axes, M is not), carrying V(x) = 40 - 10x, M(x) = 40x - 5x^2 from end A
+    (not symmetric: read end for end it would be V = 20 - 10x). With the members table's ends (A, then
+    D) it reads V(0) = 40 and V(6) = -20 kN from end i. A lone element has no neighbour to tell its
+    direction from the shared node: the line's orientation gives it."""
+    v_of, m_of = (lambda x: 40.0 - 10.0 * x), (lambda x: 40.0 * x - 5.0 * x * x)
+    rows = []
+    for k, (pos, v, m) in enumerate([(0.0, -v_of(6.0), m_of(6.0)), (6.0, -v_of(0.0), m_of(0.0))]):
+        s = 1.0 if k == 0 else -1.0
+        rows.append({"el": "g", "beam": "G", "na": "D", "nb": "A", "lc": "D", "d": pos, "Fy": s * v,
+                     "Fx": -s * 2.0, "Mz": -s * m})
+    folder = tmp_path
+    pd.DataFrame(rows).to_csv(folder / "forces.csv", index=False)
+    pd.DataFrame({"node": ["A", "D"], "x": [10.0, 16.0], "y": 3.0, "z": 0.0}).to_csv(folder / "nodes.csv", index=False)
+    (folder / "map.toml").write_text("""
+[forces]
+columns = { member = "beam", case = "lc", V_kN = "Fy", N_kN = "Fx", M_kNm = "Mz" }
+[elements]
+element = "el"
+station = { column = "d", unit = "m" }
+sign = "end-forces-xy"
+node_i = "na"
+node_j = "nb"
+nodes = "nodes.csv"
+members = "column"
+reversed_flip = ["V_kN"]
+""")
+    cmap = load_column_map(folder / "map.toml", KNOWN_COLUMNS)
+    warnings: list[str] = []
+    got = forces_source(folder / "forces.csv", cmap, {"G": 6.0}, warnings=warnings,
+                        ends_m={"G": np.array([10.0, 3.0, 0.0, 16.0, 3.0, 0.0])}).read_all().to_pandas()
+    np.testing.assert_allclose(got[["x_m", "V_kN", "N_kN", "M_kNm"]].to_numpy(),
+                               [[0.0, 40.0, 2.0, 0.0], [6.0, -20.0, 2.0, 60.0]], atol=1e-12)
+    assert any("1 member(s) whose elements mostly run from the member's end j" in w for w in warnings)
 
 
 def test_the_node_table_finds_direction_and_order_by_geometry(tmp_path):

@@ -269,6 +269,19 @@ def test_a_frame_beam_flush_with_the_column_face_narrows_the_joint(tmp_path):
     assert "bj = 350 mm" in row.message and "125 mm off the column's" in row.message and "18.8.4.3(b)" in row.message
     warnings = json.loads((Store(res.store).runs()[-1].design_path / "manifest.json").read_text())["warnings"]
     assert not any("took no effect" in w for w in warnings)
+    # a 400 x 900 column with the beam's axis 300 mm off its own: only the 900 mm side across the beam holds it,
+    # so that way alone counts (not the other, where the axis would lie outside the column): 2 x (450 - 300) =
+    # 300 mm, Aj = 300 x 400, transverse beams 450 >= 0.75 x 400 confine: phi Vn = 0.85 x 1.2 sqrt(35) x 120,000
+    members, forces = _joint_frame(one_side=True)
+    for m in members:
+        if m["kind"] == "column":
+            m.update(b_mm=400.0, h_mm=900.0)
+        if m["member"] == "BL":
+            m["y_i_m"] = m["y_j_m"] = 0.3
+    res = design(tmp_path / "narrow", members, forces, CASES)
+    row = pd.read_csv(res.out / "joints.csv").iloc[0]
+    assert row.aj_mm2 == 120_000 and "bj = 300 mm" in row.message
+    assert row.phi_vn_kN == pytest.approx(0.85 * 1.2 * math.sqrt(35.0) * 120_000 / 1e3, abs=0.01)
     members, forces = _joint_frame(one_side=True)
     res = design(tmp_path / "on-axis", members, forces, CASES)
     row = pd.read_csv(res.out / "joints.csv").iloc[0]

@@ -176,5 +176,7 @@ def test_govern_refuses_a_filter_that_matches_no_member(tmp_path, store, capsys)
     # status no member has is an empty ranking
     with pytest.raises(govern.UnknownFilter, match="resise: not a status; the statuses: designed, resize,"):
         govern.rank(Store(store).latest(), statuses=["resise"])
+    run = Store(store).latest()  # one level given as a string is that level, not its letters
+    assert len(govern.rank(run, levels="L1")) == len(govern.rank(run, levels=["L1"])) > 0
     assert cli.main(["govern", "--store", str(store), "--status", "no-geometry", "--format", "csv"]) == 0
     assert capsys.readouterr().out.strip().count("\n") == 0  # the header alone
