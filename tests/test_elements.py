@@ -230,14 +230,14 @@ def test_the_readme_example_as_written(models, hand, tmp_path, capsys):
     assert manifest["inputs"]["element_chain"]["path"].endswith("chain.csv")
 
 
-def chained_rows(folder, forces, map_text, files, lengths=None, warnings=None) -> pd.DataFrame:
+def chained_rows(folder, forces, map_text, files, lengths=None, warnings=None, ends_m=None) -> pd.DataFrame:
     folder.mkdir(parents=True, exist_ok=True)
     forces.to_csv(folder / "forces.csv", index=False)
     for name, df in files.items():
         df.to_csv(folder / name, index=False)
     (folder / "map.toml").write_text(map_text)
     cmap = load_column_map(folder / "map.toml", KNOWN_COLUMNS)
-    reader = forces_source(folder / "forces.csv", cmap, lengths, warnings=warnings)
+    reader = forces_source(folder / "forces.csv", cmap, lengths, warnings=warnings, ends_m=ends_m)
     assert isinstance(reader, ElementForcesReader)
     return reader.read_all().to_pandas()
 
@@ -425,6 +425,22 @@ def test_section_forces_with_stations_inside_elements_and_lengths_snapped(tmp_pa
     np.testing.assert_allclose(got.V_kN, [V(x0 + xl) for _, x0, x1 in SPAN for xl in (0.0, (x1 - x0) / 3, x1 - x0)])
 
 
+# the hand beam with an export member column, node ids and a node table (no chaining table)
+BY_NODES = """
+[forces]
+columns = { member = "beam", case = "lc", V_kN = "Fy", N_kN = "Fx", M_kNm = "Mz" }
+[elements]
+element = "el"
+station = { column = "d", unit = "m" }
+sign = "end-forces-xy"
+node_i = "na"
+node_j = "nb"
+nodes = "nodes.csv"
+members = "column"
+reversed_flip = ["V_kN"]
+"""
+
+
 def test_a_member_of_one_element_drawn_from_its_end_j_is_oriented_by_the_members_coordinates(tmp_path):
     """A 6 m member as one element 'g' drawn from node D (x = 16 m) back to node A (x = 10 m), local y up
     (so V is negated in its own axes, M is not), carrying V(x) = 40 - 10x, M(x) = 40x - 5x^2 from end A
@@ -437,26 +453,10 @@ def test_a_member_of_one_element_drawn_from_its_end_j_is_oriented_by_the_members
         s = 1.0 if k == 0 else -1.0
         rows.append({"el": "g", "beam": "G", "na": "D", "nb": "A", "lc": "D", "d": pos, "Fy": s * v,
                      "Fx": -s * 2.0, "Mz": -s * m})
-    folder = tmp_path
-    pd.DataFrame(rows).to_csv(folder / "forces.csv", index=False)
-    pd.DataFrame({"node": ["A", "D"], "x": [10.0, 16.0], "y": 3.0, "z": 0.0}).to_csv(folder / "nodes.csv", index=False)
-    (folder / "map.toml").write_text("""
-[forces]
-columns = { member = "beam", case = "lc", V_kN = "Fy", N_kN = "Fx", M_kNm = "Mz" }
-[elements]
-element = "el"
-station = { column = "d", unit = "m" }
-sign = "end-forces-xy"
-node_i = "na"
-node_j = "nb"
-nodes = "nodes.csv"
-members = "column"
-reversed_flip = ["V_kN"]
-""")
-    cmap = load_column_map(folder / "map.toml", KNOWN_COLUMNS)
+    nodes = pd.DataFrame({"node": ["A", "D"], "x": [10.0, 16.0], "y": 3.0, "z": 0.0})
     warnings: list[str] = []
-    got = forces_source(folder / "forces.csv", cmap, {"G": 6.0}, warnings=warnings,
-                        ends_m={"G": np.array([10.0, 3.0, 0.0, 16.0, 3.0, 0.0])}).read_all().to_pandas()
+    got = chained_rows(tmp_path, pd.DataFrame(rows), BY_NODES, {"nodes.csv": nodes}, {"G": 6.0}, warnings,
+                       ends_m={"G": np.array([10.0, 3.0, 0.0, 16.0, 3.0, 0.0])})
     np.testing.assert_allclose(got[["x_m", "V_kN", "N_kN", "M_kNm"]].to_numpy(),
                                [[0.0, 40.0, 2.0, 0.0], [6.0, -20.0, 2.0, 60.0]], atol=1e-12)
     assert any("1 member(s) whose elements mostly run from the member's end j" in w for w in warnings)
@@ -470,20 +470,7 @@ def test_the_node_table_finds_direction_and_order_by_geometry(tmp_path):
     ex["na"] = ex.el.map({"e1": "A", "e2": "C", "e3": "C"})
     ex["nb"] = ex.el.map({"e1": "B", "e2": "B", "e3": "D"})
     nodes = pd.DataFrame({"node": list("ABCD"), "x": [10.0, 12.0, 13.5, 16.0], "y": 3.0, "z": 0.0})
-    text = """
-[forces]
-columns = { member = "beam", case = "lc", V_kN = "Fy", N_kN = "Fx", M_kNm = "Mz" }
-[elements]
-element = "el"
-station = { column = "d", unit = "m" }
-sign = "end-forces-xy"
-node_i = "na"
-node_j = "nb"
-nodes = "nodes.csv"
-members = "column"
-reversed_flip = ["V_kN"]
-"""
-    got = chained_rows(tmp_path, ex.iloc[::-1], text, {"nodes.csv": nodes}, {"G": 6.0})
+    got = chained_rows(tmp_path, ex.iloc[::-1], BY_NODES, {"nodes.csv": nodes}, {"G": 6.0})
     np.testing.assert_allclose(got[["x_m", "V_kN", "N_kN", "M_kNm"]].to_numpy(), expected_rows().to_numpy(), atol=1e-12)
 
 
