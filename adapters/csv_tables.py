@@ -873,8 +873,7 @@ def _check_plausible(t: pa.Table, probs: Problems, limits: dict, units: UnitSyst
         ours = units.col(name)
         f = unit_names.factor(name, ours)
         lo, hi = (None if lo is None else lo * f), hi * f
-        unit = unit_names.unit_of(ours)
-        unit = f" {unit.replace('**', '^').replace('inch', 'in')}" if unit else ""
+        unit = f" {unit_names.unit_label(ours)}".rstrip()
         v = _num(t, name)
         with np.errstate(invalid="ignore"):
             if lo is not None:

@@ -79,6 +79,7 @@ from shapely import affinity
 from shapely.geometry import LineString, Point, Polygon
 from shapely.strtree import STRtree
 
+from postproc import units as unit_names
 from postproc.adapters import digests
 from postproc.adapters.csv_tables import BEAM_END_BARS, MEMBER_COLUMNS, InputErrors, ZERO_WIDTH, frame_bar_problems
 from postproc.settings import FRAMES
@@ -127,11 +128,9 @@ class IfcDefaults:
 
     def shown(self, si_column: str) -> str:
         """The default of ``si_column`` (fc_mpa, cover_mm) as the run's settings give it."""
-        from postproc import units as unit_names
-
         ours = unit_names.system(self.units).col(si_column)
         value = getattr(self, si_column) * unit_names.factor(si_column, ours)
-        return f"{value:,.4g} {unit_names.unit_of(ours).replace('inch', 'in')}"
+        return f"{value:,.4g} {unit_names.unit_label(ours)}"
 
 
 class _Unsupported(Exception):

@@ -141,6 +141,12 @@ def unit_of(column: str) -> str | None:
     return None
 
 
+def unit_label(column: str) -> str:
+    """The unit a column's name carries as a person reads it (MPa, in, mm^2), or ''."""
+    unit = unit_of(column)
+    return unit.replace("**", "^").replace("inch", "in") if unit else ""
+
+
 def factor(from_column: str, to_column: str) -> float:
     """Factor that turns a value of ``from_column`` into one of ``to_column`` (the same
     quantity spelt in any unit system); 1.0 where the two carry the same unit."""
